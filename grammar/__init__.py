@@ -1,0 +1,1 @@
+"""Lark grammars for netlists and expressions, shipped as package data."""

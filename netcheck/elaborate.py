@@ -1,0 +1,431 @@
+"""Flatten subcircuits and resolve parameters: Netlist → Circuit."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Callable
+
+import numpy as np
+
+from .elements import ELEMENTS, Element, Inductor, VoltageSource
+from .exceptions import Diagnostic, ElaborationError, NetcheckError
+from .expressions import Name, evaluate, parse_expression
+from .parse import Assign, Card, Field, Netlist, Scope, SubcktDef, load_netlist
+from .source import SourceFile, Span
+from .topology import check_topology, lint_nodes
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .solve import Response
+
+__all__ = ["Circuit", "elaborate", "read_netlist", "CardReader", "GROUND"]
+
+GROUND = "0"
+_GROUND_ALIASES = frozenset({"0", "gnd"})
+
+
+@dataclass(frozen=True, slots=True)
+class Circuit:
+    """A flat circuit: elements with hierarchical names (``X1.X2.C3``) and node names.
+
+    Node names are lower case (``0`` is ground); element names upper case.
+    """
+
+    title: str
+    elements: tuple[Element, ...]
+    nodes: tuple[str, ...]
+    sources: tuple[SourceFile, ...] = ()
+    diagnostics: tuple[Diagnostic, ...] = ()
+    params: tuple[tuple[str, float], ...] = ()
+    _index: dict = field(default=None, compare=False, repr=False)
+
+    def element(self, name: str) -> Element:
+        """The element called ``name`` (case-insensitive); KeyError if none."""
+        index = self._index
+        if index is None:
+            index = {e.name: e for e in self.elements}
+            object.__setattr__(self, "_index", index)
+        return index[name.upper()]
+
+    def has_element(self, name: str) -> bool:
+        """True if an element called ``name`` exists."""
+        try:
+            self.element(name)
+        except KeyError:
+            return False
+        return True
+
+    def ac(self, source: str, node: str, ref: str = GROUND,
+           freqs: np.ndarray | None = None) -> "Response":
+        """Small-signal frequency response from ``source`` to ``V(node) − V(ref)``.
+
+        Parameters
+        ----------
+        source : str
+            Independent V or I source giving the stimulus (unit amplitude; all other
+            independent sources are set to zero).
+        node, ref : str
+            Output node and reference node (ground by default).
+        freqs : array_like
+            Frequencies in Hz (positive).
+
+        Returns
+        -------
+        Response
+            ``transfer`` is V/V for a voltage stimulus, V/A for a current stimulus.
+        """
+        from .assemble import assemble
+        from .solve import solve
+
+        if freqs is None:
+            raise ValueError("freqs: give the frequencies to solve at, in Hz")
+        return solve(assemble(self, source, node, ref), freqs)
+
+
+class Env:
+    """A parameter scope: lazy, memoised, with recursion detection."""
+
+    def __init__(self, parent: "Env | None", label: str) -> None:
+        self.parent, self.label = parent, label
+        self.exprs: dict[str, tuple[Field, "Env"]] = {}
+        self.values: dict[str, float] = {}
+        self.active: list[str] = []
+
+    def fix(self, key: str, value: float) -> None:
+        """Bind ``key`` to a number (a variant's override of a ``.param``)."""
+        self.exprs[key.lower()] = (None, self)  # type: ignore[assignment]
+        self.values[key.lower()] = float(value)
+
+    def define(self, assign: Assign, where: "Env | None" = None) -> None:
+        """Bind ``key`` to ``value`` (evaluated lazily in ``where``, default self)."""
+        key = assign.key.text.lower()
+        if assign.key.kind != "word" or not key.replace("_", "a").isalnum() or key[0].isdigit():
+            raise ElaborationError(f"{assign.key.text!r} is not a parameter name",
+                                   assign.key.span, code="NC101")
+        self.exprs[key] = (assign.value, where or self)
+        self.values.pop(key, None)
+
+    def lookup(self, ref: Name) -> float:
+        """Value of ``ref`` in this scope or an enclosing one."""
+        env: Env | None = self
+        while env is not None:
+            if ref.name in env.exprs:
+                return env._get(ref.name, ref.span)
+            env = env.parent
+        if ref.name == "pi":
+            return float(np.pi)
+        raise ElaborationError(f"undefined parameter {ref.name!r}", ref.span, code="NC102")
+
+    def _get(self, key: str, used_at: Span) -> float:
+        if key in self.values:
+            return self.values[key]
+        if key in self.active:
+            cycle = " -> ".join(self.active[self.active.index(key):] + [key])
+            raise ElaborationError(f"parameter {key!r} is defined in terms of itself "
+                                   f"({cycle})", used_at, code="NC103")
+        fld, where = self.exprs[key]
+        self.active.append(key)
+        try:
+            value = where.value_of(fld)
+        finally:
+            self.active.pop()
+        self.values[key] = value
+        return value
+
+    def value_of(self, fld: Field) -> float:
+        """Evaluate a value field (a quantity, a parameter name or an ``{expression}``)."""
+        if fld.kind == "string" and not fld.expr_text.strip():
+            raise ElaborationError("empty value", fld.span, code="NC101")
+        expr = parse_expression(fld.expr_text, fld.span.source, fld.span.line, fld.expr_column)
+        return evaluate(expr, self.lookup)
+
+
+class CardReader:
+    """Reads one card's fields in order for :meth:`Element.from_card`."""
+
+    def __init__(self, card: Card, name: str, env: Env, node_of: Callable[[Field], str],
+                 ref_of: Callable[[str], str]) -> None:
+        self.card, self.name, self.env = card, name, env
+        self.span = card.span
+        self._node_of, self._ref_of = node_of, ref_of
+        self.items = list(card.fields)
+        self.pos = 0
+
+    def _next(self, what: str) -> Field:
+        if self.pos >= len(self.items):
+            raise ElaborationError(f"{self.card.name.text}: missing {what}", self._end_span(),
+                                   code="NC105")
+        item = self.items[self.pos]
+        if isinstance(item, Assign):
+            raise ElaborationError(f"{self.card.name.text}: expected {what}, found "
+                                   f"{item.key.text}=...", item.span, code="NC105")
+        self.pos += 1
+        return item
+
+    def _end_span(self) -> Span:
+        last = self.items[-1].span if self.items else self.card.name.span
+        return Span(last.source, last.end_line, last.end_column, last.end_line,
+                    last.end_column + 1)
+
+    def nodes(self, count: int) -> tuple[str, ...]:
+        """Read ``count`` node names."""
+        out = []
+        for i in range(count):
+            fld = self._next(f"node {i + 1} of {count}")
+            if fld.kind != "word":
+                raise ElaborationError("a node name cannot be an expression", fld.span,
+                                       code="NC105")
+            out.append(self._node_of(fld))
+        return tuple(out)
+
+    def value(self, what: str) -> float:
+        """Read and evaluate a value."""
+        return self.env.value_of(self._next(what))
+
+    def reference(self, what: str) -> str:
+        """Read the (scope-qualified) name of another element."""
+        fld = self._next(what)
+        if fld.kind != "word":
+            raise ElaborationError(f"{what} must be an element name", fld.span, code="NC105")
+        return self._ref_of(fld.text)
+
+    def more(self) -> bool:
+        """True if fields remain."""
+        return self.pos < len(self.items)
+
+    def more_values(self) -> bool:
+        """True if the next field is a value (not a keyword such as AC/DC)."""
+        return self.more() and self.peek_keyword() not in ("ac", "dc")
+
+    def peek_keyword(self) -> str:
+        """The next field's text, lower case ('' if it is not a plain word)."""
+        item = self.items[self.pos]
+        return item.text.lower() if isinstance(item, Field) and item.kind == "word" else ""
+
+    def skip(self) -> None:
+        """Step over the next field."""
+        self.pos += 1
+
+    def unexpected(self, hint: str) -> None:
+        """Raise for the next field."""
+        item = self.items[self.pos]
+        raise ElaborationError(f"{self.card.name.text}: {hint}", item.span, code="NC105")
+
+    def finish(self) -> None:
+        """Refuse left-over fields."""
+        if self.more():
+            item = self.items[self.pos]
+            raise ElaborationError(f"{self.card.name.text}: unexpected extra field "
+                                   f"{item.span.source.line_text(item.span.line)[item.span.column - 1:item.span.end_column - 1]!r}"
+                                   if item.span.line == item.span.end_line else
+                                   f"{self.card.name.text}: unexpected extra field",
+                                   item.span, code="NC105")
+
+
+@dataclass
+class _Flat:
+    elements: list[Element] = field(default_factory=list)
+    names: dict[str, Span] = field(default_factory=dict)
+    node_spans: dict[str, list[Span]] = field(default_factory=dict)
+    diags: list[Diagnostic] = field(default_factory=list)
+
+
+def elaborate(netlist: Netlist, allow_negative: bool = False,
+              overrides: dict[str, float] | None = None) -> Circuit:
+    """Flatten ``netlist`` into a :class:`Circuit` and check it can be solved.
+
+    Parameters
+    ----------
+    netlist : Netlist
+        Parsed netlist.
+    allow_negative : bool
+        Accept negative R, L and C (for behavioural models); zero is never accepted.
+    overrides : dict, optional
+        Global ``.param`` values replacing the netlist's (variants of a family).
+
+    Raises
+    ------
+    ElaborationError
+        For undefined references, wrong node counts, recursion, duplicate names, bad
+        values and topologies that make the MNA system singular.
+    """
+    top_env = Env(None, "top")
+    for assign in netlist.top.params:
+        top_env.define(assign)
+    for key, value in (overrides or {}).items():
+        top_env.fix(key, value)
+    flat = _Flat(diags=list(netlist.diagnostics))
+    _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative)
+    elements = tuple(flat.elements)
+    _check_references(elements)
+    nodes = tuple(dict.fromkeys(n for e in elements for n in e.nodes if n != GROUND))
+    check_topology(elements, nodes)
+    flat.diags.extend(lint_nodes(flat.node_spans))
+    where = netlist.top.params[0].span if netlist.top.params else None
+    params = tuple(sorted((k, top_env._get(k, where)) for k in top_env.exprs))
+    return Circuit(netlist.title, elements, nodes, netlist.sources, tuple(flat.diags), params)
+
+
+def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
+                 visible: dict[str, SubcktDef], stack: tuple[str, ...], flat: _Flat,
+                 allow_negative: bool) -> None:
+    defs = dict(visible)
+    here: dict[str, SubcktDef] = {}
+    for sub in scope.subckts:
+        key = sub.name.text.lower()
+        if key in here:
+            first = here[key].name.span
+            raise ElaborationError(f"subcircuit {sub.name.text!r} defined twice (first at "
+                                   f"{first.path}:{first.line})", sub.name.span, code="NC106")
+        here[key] = defs[key] = sub
+
+    def node_of(fld: Field) -> str:
+        low = fld.text.lower()
+        if low in _GROUND_ALIASES:
+            name = GROUND
+        elif low in portmap:
+            name = portmap[low]
+        else:
+            name = prefix.lower() + low
+        flat.node_spans.setdefault(name, []).append(fld.span)
+        return name
+
+    def ref_of(text: str) -> str:
+        return (prefix + text).upper()
+
+    for card in scope.cards:
+        full = (prefix + card.name.text).upper()
+        if full in flat.names:
+            first = flat.names[full]
+            raise ElaborationError(f"duplicate element name {full} (first defined at "
+                                   f"{first.path}:{first.line})", card.name.span, code="NC106")
+        flat.names[full] = card.name.span
+        letter = card.letter
+        if letter == "X":
+            _expand_instance(card, full, prefix, env, defs, stack, flat, allow_negative,
+                             node_of)
+            continue
+        cls = ELEMENTS.get(letter)
+        if cls is None:
+            known = ", ".join(sorted(ELEMENTS) + ["X"])
+            raise ElaborationError(f"unknown element letter {letter!r} in {card.name.text!r} "
+                                   f"(netcheck knows {known})", card.name.span, code="NC105")
+        element = cls.from_card(CardReader(card, full, env, node_of, ref_of))
+        if cls.passive:
+            _check_passive(element, card, allow_negative)
+        flat.elements.append(element)
+        _lint_value(element, card, flat)
+
+
+def _expand_instance(card: Card, full: str, prefix: str, env: Env,
+                     defs: dict[str, SubcktDef], stack: tuple[str, ...], flat: _Flat,
+                     allow_negative: bool, node_of: Callable[[Field], str]) -> None:
+    words = [f for f in card.fields if isinstance(f, Field)]
+    assigns = [f for f in card.fields if isinstance(f, Assign)]
+    words = [w for w in words if w.text.lower() not in ("params:", "params")]
+    if not words:
+        raise ElaborationError(f"{card.name.text}: missing subcircuit name", card.span,
+                               code="NC105")
+    sub_field, node_fields = words[-1], words[:-1]
+    sub = defs.get(sub_field.text.lower())
+    if sub is None:
+        known = ", ".join(sorted(d.name.text for d in defs.values())) or "none defined"
+        raise ElaborationError(f"undefined subcircuit {sub_field.text!r} (known: {known})",
+                               sub_field.span, code="NC107")
+    key = sub.name.text.lower()
+    if key in stack:
+        chain = " -> ".join(stack + (key,))
+        raise ElaborationError(f"subcircuit {sub.name.text!r} instantiates itself ({chain})",
+                               card.name.span, code="NC109")
+    if len(node_fields) != len(sub.ports):
+        raise ElaborationError(f"{card.name.text}: subcircuit {sub.name.text} has "
+                               f"{len(sub.ports)} port(s), got {len(node_fields)} node(s)",
+                               card.span, code="NC108")
+    child_map: dict[str, str] = {}
+    for port, fld in zip(sub.ports, node_fields):
+        child_map[port.text.lower()] = node_of(fld)
+    child = Env(env, full)
+    for assign in sub.params:
+        child.define(assign)
+    for assign in sub.body.params:
+        child.define(assign)
+    declared = {a.key.text.lower() for a in sub.params}
+    for assign in assigns:
+        if assign.key.text.lower() not in declared and declared:
+            raise ElaborationError(f"subcircuit {sub.name.text} has no parameter "
+                                   f"{assign.key.text!r} (it has {', '.join(sorted(declared))})",
+                                   assign.key.span, code="NC102")
+        child.define(assign, where=env)
+    _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
+                 allow_negative)
+
+
+def _check_passive(element: Element, card: Card, allow_negative: bool) -> None:
+    value = element.value
+    span = card.fields[2].span if len(card.fields) > 2 else card.span
+    if value == 0:
+        raise ElaborationError(f"{element.name} has value 0; a zero {type(element).__name__.lower()}"
+                               " cannot be solved (use a small value or remove it)", span,
+                               code="NC110")
+    if value < 0 and not allow_negative:
+        raise ElaborationError(f"{element.name} has negative value {value:g}; pass "
+                               "--allow-negative (allow_negative=True) if this is intended",
+                               span, code="NC110")
+
+
+def _lint_value(element: Element, card: Card, flat: _Flat) -> None:
+    """Warn about ``1M`` on a resistor or inductor (SPICE reads milli, rarely meant)."""
+    if element.letter not in ("R", "L") or len(card.fields) < 3:
+        return
+    fld = card.fields[2]
+    if not isinstance(fld, Field) or fld.kind != "word":
+        return
+    text = fld.text
+    i = 0
+    while i < len(text) and (text[i].isdigit() or text[i] in ".eE+-"):
+        i += 1
+    suffix = text[i:]
+    if suffix[:1] == "M" and not suffix.lower().startswith(("meg", "mil")):
+        what = "milliohms" if element.letter == "R" else "millihenries"
+        flat.diags.append(Diagnostic(
+            "NC151", f"{element.name} = {text} reads as {element.value:g} ({what}: SPICE "
+            f"'M' is milli); write {text[:i]}meg if mega was meant", fld.span))
+
+
+def _check_references(elements: tuple[Element, ...]) -> None:
+    by_name = {e.name: e for e in elements}
+    for e in elements:
+        for ref in e.controls():
+            target = by_name.get(ref)
+            want = Inductor if e.letter == "K" else VoltageSource
+            if target is None or not isinstance(target, want):
+                kind = "inductor" if want is Inductor else "voltage source"
+                found = "" if target is None else f" ({ref} is not a {kind})"
+                raise ElaborationError(f"{e.name} refers to {kind} {ref.split('.')[-1]}, "
+                                       f"which is not defined in its scope{found}", e.span,
+                                       code="NC107" if e.letter != "K" else "NC114")
+        if e.letter == "K":
+            k = e.value
+            if not -1.0 <= k <= 1.0:
+                raise ElaborationError(f"{e.name}: coupling coefficient {k:g} is outside "
+                                       "[-1, 1]", e.span, code="NC114")
+            if e.inductors[0] == e.inductors[1]:
+                raise ElaborationError(f"{e.name} couples {e.inductors[0]} to itself", e.span,
+                                       code="NC114")
+
+
+def read_netlist(path_or_text: str, root: str | None = None, allow_negative: bool = False,
+                 overrides: dict[str, float] | None = None) -> Circuit:
+    """Read, parse and elaborate a netlist file (or netlist text) into a :class:`Circuit`.
+
+    Examples
+    --------
+    >>> ckt = read_netlist('''series RLC
+    ... V1 in 0 AC 1
+    ... R1 in a 50
+    ... L1 a b 10m
+    ... C1 b 0 1.5n
+    ... ''')
+    >>> [e.name for e in ckt.elements], ckt.nodes
+    (['V1', 'R1', 'L1', 'C1'], ('in', 'a', 'b'))
+    """
+    return elaborate(load_netlist(path_or_text, root), allow_negative, overrides)

@@ -1,0 +1,209 @@
+"""The one result model every renderer reads: CheckResult → SpecResult → LimitResult."""
+
+from __future__ import annotations
+
+import enum
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+__all__ = ["Status", "LimitResult", "Caution", "Curves", "MaskBand", "SpecResult",
+           "CheckResult", "worst_status", "SAFETY_CAUTION"]
+
+
+class Status(str, enum.Enum):
+    """Verdict of a limit, a spec or a whole run (ordered by severity)."""
+
+    PASS = "pass"
+    SKIPPED = "skipped"
+    FAIL = "fail"
+    ERROR = "error"
+
+    @property
+    def rank(self) -> int:
+        """Severity order: pass < skipped < fail < error."""
+        return ["pass", "skipped", "fail", "error"].index(self.value)
+
+    @property
+    def word(self) -> str:
+        """Upper-case word for tables (status is never shown by colour alone)."""
+        return {"pass": "PASS", "skipped": "SKIP", "fail": "FAIL", "error": "ERROR"}[self.value]
+
+
+def worst_status(statuses: Any) -> Status:
+    """The most severe of ``statuses`` (PASS when empty); SKIPPED alone counts as PASS."""
+    worst = Status.PASS
+    for s in statuses:
+        if s.rank > worst.rank:
+            worst = s
+    return Status.PASS if worst is Status.SKIPPED else worst
+
+
+@dataclass(frozen=True, slots=True)
+class LimitResult:
+    """The verdict on one bound of one spec limit.
+
+    ``margin`` is signed, in ``unit``: positive means inside the limit by that much.
+    ``lower``/``upper`` are the bounds (None where open); ``at_hz`` is where the
+    deciding (worst) value occurred.
+    """
+
+    name: str
+    kind: str
+    status: Status
+    measured: float | None
+    lower: float | None
+    upper: float | None
+    margin: float | None
+    unit: str
+    at_hz: float | None = None
+    definition: str = ""
+    method: str = ""
+    message: str = ""
+    index: int = 0
+    line: int | None = None
+
+    @property
+    def bound_text(self) -> str:
+        """The limit as text, e.g. ``-1.000 dB … 0.500 dB`` or ``≤ 200.0 µs``."""
+        from .units import format_eng
+        lo = None if self.lower is None else format_eng(self.lower, self.unit)
+        hi = None if self.upper is None else format_eng(self.upper, self.unit)
+        if lo is not None and hi is not None:
+            return f"{lo} … {hi}"
+        if lo is not None:
+            return f"≥ {lo}"
+        if hi is not None:
+            return f"≤ {hi}"
+        return "—"
+
+
+@dataclass(frozen=True, slots=True)
+class Caution:
+    """A finding shown with the result: a safety caution, a warning or a note."""
+
+    code: str
+    message: str
+    severity: str = "warning"
+    path: str | None = None
+    line: int | None = None
+    column: int | None = None
+
+
+#: Shown with every report: the result is an analysis of a model.
+SAFETY_CAUTION = (
+    "This is an analysis of a circuit model, not a measurement. Parasitics that are not "
+    "in the netlist, non-linearity, temperature and ageing are not included. Resonant "
+    "circuits can develop voltages across their parts far above the input (about Q times "
+    "the input across the reactances of a series section): verify prototypes by "
+    "measurement, and follow local codes and licensed practice for anything at hazardous "
+    "voltage.")
+
+
+@dataclass(frozen=True, slots=True)
+class MaskBand:
+    """One region of a spec mask for plots: ``lo_db``/``hi_db`` None where open."""
+
+    label: str
+    f_lo_hz: float
+    f_hi_hz: float
+    lo: float | None
+    hi: float | None
+    quantity: str = "gain_db"
+    failed: bool = False
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class Curves:
+    """Response curves for plots (read-only arrays on the sweep grid)."""
+
+    frequency_hz: np.ndarray
+    gain_db: np.ndarray
+    phase_deg: np.ndarray
+    group_delay_s: np.ndarray
+    envelope_lo_db: np.ndarray | None = None
+    envelope_hi_db: np.ndarray | None = None
+
+    def __eq__(self, other: object) -> bool:
+        if not isinstance(other, Curves):
+            return NotImplemented
+        return all(np.array_equal(getattr(self, k), getattr(other, k), equal_nan=True)
+                   if getattr(self, k) is not None else getattr(other, k) is None
+                   for k in ("frequency_hz", "gain_db", "phase_deg", "group_delay_s",
+                             "envelope_lo_db", "envelope_hi_db"))
+
+
+@dataclass(frozen=True, slots=True)
+class SpecResult:
+    """Everything known about one spec (or one variant of it) after checking."""
+
+    spec: str
+    netlist: str
+    title: str
+    status: Status
+    limits: tuple[LimitResult, ...] = ()
+    measurements: tuple[tuple[str, float], ...] = ()
+    cautions: tuple[Caution, ...] = ()
+    error: str | None = None
+    variant: str | None = None
+    inputs: tuple[tuple[str, str], ...] = ()
+    sweep: tuple[tuple[str, Any], ...] = ()
+    curves: Curves | None = None
+    mask: tuple[MaskBand, ...] = ()
+    source_text: tuple[tuple[str, str], ...] = ()
+    extra: tuple[tuple[str, Any], ...] = ()
+
+    @property
+    def counts(self) -> dict[str, int]:
+        """Number of limit results per status value."""
+        out = {s.value: 0 for s in Status}
+        for lim in self.limits:
+            out[lim.status.value] += 1
+        return out
+
+    @property
+    def label(self) -> str:
+        """Title, with the variant name when there is one."""
+        return f"{self.title} [{self.variant}]" if self.variant else self.title
+
+    def measurement(self, key: str) -> float | None:
+        """A named measurement (``f_peak_hz``, ``q``...) or None."""
+        return dict(self.measurements).get(key)
+
+    def extra_value(self, key: str, default: Any = None) -> Any:
+        """A value added by an analysis (tolerance, stress...)."""
+        return dict(self.extra).get(key, default)
+
+
+@dataclass(frozen=True, slots=True)
+class CheckResult:
+    """The whole run: every spec's result, in a stable order."""
+
+    specs: tuple[SpecResult, ...]
+    tool_version: str
+    created_utc: str = ""
+    cautions: tuple[Caution, ...] = field(default=())
+
+    @property
+    def status(self) -> Status:
+        """Worst status over all specs."""
+        return worst_status(s.status for s in self.specs)
+
+    @property
+    def counts(self) -> dict[str, int]:
+        """Limit results per status, over all specs."""
+        out = {s.value: 0 for s in Status}
+        for spec in self.specs:
+            for k, v in spec.counts.items():
+                out[k] += v
+        return out
+
+
+def finite_or_none(value: float | None) -> float | None:
+    """``value`` if it is a finite number, else None (for JSON)."""
+    if value is None:
+        return None
+    value = float(value)
+    return value if math.isfinite(value) else None

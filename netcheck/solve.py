@@ -1,0 +1,482 @@
+"""MNA system × frequencies → Response: exact transfer, derivative and full solution.
+
+Three engines share one interface. ``DenseEngine`` solves (G + sC)x = b batched
+over frequency with LAPACK LU; ``SparseEngine`` factorises each frequency with
+SuperLU for large systems (memory ∝ non-zeros); ``PoleZeroEngine`` evaluates the
+transfer function in pole–zero product form from generalized eigenvalues of the
+MNA pencil [2]_, which is fast for many points and keeps full relative accuracy
+deep in a stop-band (no cancellation), but is trusted only where it agrees with
+direct solves: it is verified at check points and every point whose error
+estimate is too large is solved directly.
+
+References
+----------
+.. [1] C.-W. Ho, A. E. Ruehli and P. A. Brennan, "The modified nodal approach to
+   network analysis", IEEE Trans. Circuits and Systems 22(6), 504-509, 1975.
+.. [2] C. B. Moler and G. W. Stewart, "An algorithm for generalized matrix
+   eigenvalue problems", SIAM J. Numer. Anal. 10(2), 241-256, 1973.
+.. [3] A. J. Laub, "Efficient multivariable frequency response computations",
+   IEEE Trans. Automatic Control 26(2), 407-408, 1981.
+"""
+
+from __future__ import annotations
+
+import logging
+import warnings
+from dataclasses import dataclass, field
+from typing import Protocol
+
+import numpy as np
+import scipy.linalg as sla
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+from .assemble import System
+from .exceptions import NetcheckWarning, SingularCircuitError
+
+__all__ = ["Response", "solve", "make_engine", "DenseEngine", "SparseEngine",
+           "PoleZeroEngine", "DENSE_MAX", "CHECK_TOL"]
+
+log = logging.getLogger(__name__)
+
+#: largest system solved with dense LAPACK (larger ones take the sparse path)
+DENSE_MAX = 300
+#: fewest points for which the pole–zero engine is worth building
+PZ_MIN_POINTS = 40
+#: complex relative error allowed between the pole–zero form and direct solves;
+#: 1e-8 keeps magnitude within 1e-7 dB and phase within 6e-7 degrees
+CHECK_TOL = 1e-8
+#: per-point error estimate above which a point is solved directly instead
+POINT_TOL = 1e-10
+#: memory for one batch of dense matrices
+CHUNK_BYTES = 64 * 2**20
+_TWO_PI = 2.0 * np.pi
+
+
+def _readonly(a: np.ndarray) -> np.ndarray:
+    a = np.asarray(a)
+    a.flags.writeable = False
+    return a
+
+
+def validate_frequencies(freqs: object) -> np.ndarray:
+    """Return ``freqs`` as a 1-D float array of finite positive Hz, or raise ValueError."""
+    f = np.atleast_1d(np.asarray(freqs, dtype=float))
+    if f.ndim != 1 or f.size == 0:
+        raise ValueError("freqs: expected a non-empty 1-D array of frequencies in Hz")
+    if not np.all(np.isfinite(f)) or np.any(f <= 0):
+        raise ValueError("freqs: every frequency must be finite and > 0 Hz")
+    return f
+
+
+class Engine(Protocol):
+    """What every solver engine provides."""
+
+    method: str
+
+    def transfer(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """H(f) and dH/df (per Hz) at the frequencies ``f``."""
+        ...
+
+
+def _singular_error(system: System, a: np.ndarray, f_hz: float) -> SingularCircuitError:
+    _, sv, vh = np.linalg.svd(a)
+    rcond = sv[-1] / sv[0] if sv[0] > 0 else 0.0
+    null = np.abs(vh[-1])
+    worst = [system.unknowns[i] for i in np.argsort(null)[::-1][:4] if null[i] > 1e-3]
+    return SingularCircuitError(
+        f"the circuit equations are singular at {f_hz:.6g} Hz (reciprocal condition "
+        f"{rcond:.1e}); the unknowns most involved are {', '.join(worst)}. Look for parts "
+        "that leave these nodes undetermined (open loops, ideal sources in conflict).")
+
+
+class DenseEngine:
+    """Direct solves batched over frequency (the accuracy reference for small systems)."""
+
+    method = "dense"
+
+    def __init__(self, system: System) -> None:
+        self.system = system
+        self.G = system.G.toarray()
+        self.C = system.C.toarray()
+        self.n = system.size
+        self.chunk = max(1, CHUNK_BYTES // (16 * 3 * max(self.n, 1) ** 2))
+
+    def check_regular(self, f_hz: np.ndarray) -> None:
+        """Raise SingularCircuitError if (G + sC) is numerically singular at any ``f_hz``."""
+        for f in f_hz:
+            a = self.G + (1j * _TWO_PI * f) * self.C
+            scale = np.abs(a).max(axis=1)
+            scale[scale == 0] = 1.0
+            a = a / scale[:, None]
+            sv = np.linalg.svd(a, compute_uv=False)
+            if sv[0] == 0 or sv[-1] / sv[0] < 1e3 * self.n * np.finfo(float).eps:
+                raise _singular_error(self.system, a, f)
+
+    def _solve(self, f: np.ndarray, rhs: np.ndarray, transpose: bool = False) -> np.ndarray:
+        out = np.empty((f.size, self.n), dtype=complex)
+        for i in range(0, f.size, self.chunk):
+            s = 1j * _TWO_PI * f[i:i + self.chunk]
+            a = self.G[None, :, :] + s[:, None, None] * self.C[None, :, :]
+            if transpose:
+                a = np.swapaxes(a, -1, -2)
+            r = np.broadcast_to(rhs, (s.size, self.n))[..., None]
+            try:
+                out[i:i + self.chunk] = np.linalg.solve(a, r)[..., 0]
+            except np.linalg.LinAlgError:
+                bad = next(k for k in range(s.size) if _is_singular(a[k]))
+                raise _singular_error(self.system, a[bad], f[i + bad]) from None
+        return out
+
+    def solution(self, f: np.ndarray) -> np.ndarray:
+        """Full solution x (F × n): every node voltage and branch current per unit stimulus."""
+        return self._solve(f, self.system.b)
+
+    def values(self, f: np.ndarray) -> np.ndarray:
+        """y = l·x only (no derivative)."""
+        return self._solve(f, self.system.b) @ self.system.l
+
+    def transfer(self, f: np.ndarray, l: np.ndarray | None = None
+                 ) -> tuple[np.ndarray, np.ndarray]:
+        """y = l·x and dy/df by the adjoint: dy/ds = −(A⁻ᵀl)ᵀ C (A⁻¹b)."""
+        l = self.system.l if l is None else l
+        x = self._solve(f, self.system.b)
+        y = self._solve(f, l, transpose=True)
+        h = x @ l
+        dh_ds = -np.einsum("fi,fi->f", y, x @ self.C.T)
+        return h, (1j * _TWO_PI) * dh_ds
+
+
+def _is_singular(a: np.ndarray) -> bool:
+    try:
+        np.linalg.solve(a, np.ones(a.shape[0]))
+    except np.linalg.LinAlgError:
+        return True
+    return False
+
+
+class SparseEngine:
+    """One SuperLU factorisation per frequency: memory ∝ non-zeros, for large systems."""
+
+    method = "sparse"
+
+    def __init__(self, system: System) -> None:
+        self.system = system
+        self.G = system.G.astype(complex).tocsc()
+        self.C = system.C.astype(complex).tocsc()
+
+    def _factor(self, f: float):
+        a = (self.G + (1j * _TWO_PI * f) * self.C).tocsc()
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("error", sp.SparseEfficiencyWarning)
+                return spla.splu(a, permc_spec="COLAMD")
+        except RuntimeError as err:
+            raise SingularCircuitError(
+                f"the circuit equations are singular at {f:.6g} Hz ({err}); look for parts "
+                "that leave nodes undetermined (open loops, ideal sources in conflict)") from None
+
+    def solution(self, f: np.ndarray) -> np.ndarray:
+        """Full solution x (F × n)."""
+        out = np.empty((f.size, self.system.size), dtype=complex)
+        b = self.system.b.astype(complex)
+        # One factorisation per frequency is the work itself; this loop only calls SuperLU.
+        for i, fi in enumerate(f):
+            out[i] = self._factor(fi).solve(b)
+        return out
+
+    def transfer(self, f: np.ndarray, l: np.ndarray | None = None
+                 ) -> tuple[np.ndarray, np.ndarray]:
+        """y = l·x and dy/df from one factorisation per frequency (adjoint solve)."""
+        l = (self.system.l if l is None else l).astype(complex)
+        b = self.system.b.astype(complex)
+        h = np.empty(f.size, dtype=complex)
+        dh = np.empty(f.size, dtype=complex)
+        for i, fi in enumerate(f):
+            lu = self._factor(fi)
+            x = lu.solve(b)
+            y = lu.solve(l, trans="T")
+            h[i] = l @ x
+            dh[i] = -(y @ (self.C @ x))
+        return h, (1j * _TWO_PI) * dh
+
+
+@dataclass
+class PoleZeroEngine:
+    """H(s) = k·Π(s − zᵢ)/Π(s − pⱼ) from the generalized eigenvalues of the MNA pencil.
+
+    Poles are the finite eigenvalues of (G, −C); zeros those of the pencil bordered
+    with b and l, whose determinant is −H(s)·det(G + sC). Frequencies are scaled by
+    ``w_scale`` and the pencil is equilibrated before the QZ step. Points whose error
+    estimate Σ δᵣ/|s − r| exceeds :data:`POINT_TOL` are solved directly.
+    """
+
+    direct: DenseEngine
+    w_scale: float
+    poles: np.ndarray
+    zeros: np.ndarray
+    gain: complex
+    delta_p: np.ndarray
+    delta_z: np.ndarray
+    method: str = "pole-zero"
+    fallback_points: int = field(default=0)
+
+    @classmethod
+    def build(cls, direct: DenseEngine, grid: np.ndarray) -> "PoleZeroEngine | None":
+        """Build from the system and verify at check points; None when not trustworthy."""
+        system = direct.system
+        w = _TWO_PI * float(np.sqrt(grid.min() * grid.max()))
+        g, c = direct.G, direct.C * w
+        mag = np.abs(g) + np.abs(c)
+        r = mag.max(axis=1)
+        r[r == 0] = 1.0
+        r = 1.0 / r
+        col = (mag * r[:, None]).max(axis=0)
+        col[col == 0] = 1.0
+        col = 1.0 / col
+        gs, cs = g * r[:, None] * col[None, :], c * r[:, None] * col[None, :]
+        poles = _finite_eigs(gs, -cs)
+        n = system.size
+        gb = np.zeros((n + 1, n + 1))
+        cb = np.zeros((n + 1, n + 1))
+        gb[:n, :n], cb[:n, :n] = gs, -cs
+        gb[:n, n] = system.b * r
+        gb[n, :n] = system.l * col
+        zeros = _finite_eigs(gb, cb)
+        if poles is None or zeros is None:
+            return None
+        checks = _check_indices(grid)
+        h_ref = direct.values(grid[checks])
+        if not np.any(np.abs(h_ref) > 0):
+            return None
+        k = int(np.argmax(np.abs(h_ref)))
+        s_ref = 1j * _TWO_PI * grid[checks][k] / w
+        rel = np.finfo(float).eps * 256
+        eng = cls(direct, w, poles, zeros, 1.0 + 0j,
+                  rel * np.maximum(np.abs(poles), 1.0), rel * np.maximum(np.abs(zeros), 1.0))
+        eng.gain = h_ref[k] / eng._evaluate_w(np.array([s_ref.imag]))[0][0]
+        h_pz, _, est = eng._evaluate(grid[checks])
+        trusted = est <= POINT_TOL
+        err = np.abs(h_pz - h_ref) / np.maximum(np.abs(h_ref), 1e-300)
+        if np.any(err[trusted] > CHECK_TOL):
+            log.info("pole-zero form disagrees with direct solves (max rel err %.2e); "
+                     "using direct solves", float(err[trusted].max()))
+            return None
+        return eng
+
+    def __post_init__(self) -> None:
+        self._groups = (_group_roots(self.zeros, self.delta_z),
+                        _group_roots(self.poles, self.delta_p))
+
+    def _evaluate_w(self, w: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """H, d(ln H)/ds and an error estimate at s = jw (w normalised, real).
+
+        A conjugate pair is taken as the real quadratic s² − 2σs + |r|²; all roots of a
+        kind are handled in one (frequency × roots) array operation.
+        """
+        w = w[None, :]
+        w2 = w * w
+        jw = 1j * w
+        out = []
+        est = np.zeros(w.shape[1])
+        with np.errstate(all="ignore"):
+            for sigma, mod2, singles, risky, deltas in self._groups:
+                prod = np.ones(w.shape[1], dtype=complex)
+                dlog = np.zeros(w.shape[1], dtype=complex)
+                if sigma.size:
+                    fac = (mod2[:, None] - w2) - 2j * (sigma[:, None] * w)
+                    dlog = ((2.0 * jw - 2.0 * sigma[:, None]) / fac).sum(axis=0)
+                    prod = fac.prod(axis=0)
+                if singles.size:
+                    d = jw - singles[:, None]
+                    prod = prod * d.prod(axis=0)
+                    dlog = dlog + (1.0 / d).sum(axis=0)
+                if risky.size:
+                    est += (deltas[:, None] / np.abs(jw - risky[:, None])).sum(axis=0)
+                out.append((prod, dlog))
+            (num, dnum), (den, dden) = out
+            h = self.gain * (num / den)
+        return h, dnum - dden, est
+
+    def _evaluate(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        w = (_TWO_PI / self.w_scale) * f
+        h, dlog, est = self._evaluate_w(w)
+        est[~np.isfinite(h) | ~np.isfinite(est)] = np.inf
+        dh = h * dlog * (1j * _TWO_PI / self.w_scale)
+        return h, dh, est
+
+    def transfer(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """H and dH/df; points the error estimate does not trust are solved directly."""
+        h, dh, est = self._evaluate(f)
+        redo = est > POINT_TOL
+        if np.any(redo):
+            self.fallback_points += int(redo.sum())
+            h[redo], dh[redo] = self.direct.transfer(f[redo])
+        return h, dh
+
+    def solution(self, f: np.ndarray) -> np.ndarray:
+        """Full solution by direct solves."""
+        return self.direct.solution(f)
+
+
+def _finite_eigs(a: np.ndarray, b: np.ndarray) -> np.ndarray | None:
+    """Finite generalized eigenvalues λ of a·v = λ·b·v (QZ), or None on failure.
+
+    LAPACK xGGEV returns a complex-conjugate pair of a real pencil as consecutive
+    entries, the first with positive imaginary part; that order is kept, so pairs
+    can be recognised exactly by :func:`_factor_roots`.
+    """
+    if a.shape[0] == 0:
+        return np.zeros(0, dtype=complex)
+    if not (np.all(np.isfinite(a)) and np.all(np.isfinite(b))):
+        return None
+    # LAPACK xGGEV (QZ) without eigenvectors; scipy.linalg.eigvals adds only overhead here
+    alphar, alphai, beta, _, _, _, info = sla.lapack.dggev(a, b, compute_vl=0, compute_vr=0)
+    if info != 0:
+        return None
+    alpha = alphar + 1j * alphai
+    if np.any((np.abs(alpha) < 1e-300) & (np.abs(beta) < 1e-300)):
+        return None  # singular pencil: not a regular transfer function
+    finite = np.abs(beta) * 1e12 > np.abs(alpha)
+    # a pair shares beta, so it is kept or dropped together
+    return alpha[finite] / beta[finite]
+
+
+def _group_roots(roots: np.ndarray, deltas: np.ndarray) -> tuple[np.ndarray, ...]:
+    """Split roots for :meth:`PoleZeroEngine._evaluate_w`.
+
+    Returns (pair σ, pair |r|², single roots, risky roots, their deltas). A pair (r, r*)
+    is two consecutive entries with Im r > 0 (LAPACK order). A root is risky when its
+    error estimate can matter somewhere on the jω axis: δ/|Re r| above the point
+    tolerance; only risky roots get a per-point error estimate.
+    """
+    pairs, singles = [], []
+    i = 0
+    while i < roots.size:
+        r = complex(roots[i])
+        if r.imag > 0 and i + 1 < roots.size and roots[i + 1] == r.conjugate():
+            pairs.append(r)
+            i += 2
+        else:
+            singles.append(r)
+            i += 1
+    p = np.array(pairs, dtype=complex)
+    n = max(roots.size, 1)
+    risky = deltas > POINT_TOL / (4 * n) * np.abs(roots.real)
+    return (p.real.copy(), (p.real ** 2 + p.imag ** 2), np.array(singles, dtype=complex),
+            roots[risky], deltas[risky])
+
+
+def _check_indices(grid: np.ndarray) -> np.ndarray:
+    n = grid.size
+    return np.unique(np.round(np.linspace(0, n - 1, min(n, 16))).astype(int))
+
+
+def make_engine(system: System, grid: np.ndarray) -> DenseEngine | SparseEngine | PoleZeroEngine:
+    """Pick the engine for ``system`` and a sweep ``grid`` (Hz), checking regularity."""
+    if system.size > DENSE_MAX:
+        return SparseEngine(system)
+    direct = DenseEngine(system)
+    if grid.size >= PZ_MIN_POINTS:
+        try:
+            with np.errstate(all="ignore"):
+                pz = PoleZeroEngine.build(direct, grid)
+        except (np.linalg.LinAlgError, ValueError, FloatingPointError) as err:
+            warnings.warn(f"pole-zero form unavailable ({err}); using direct solves",
+                          NetcheckWarning, stacklevel=2)
+            pz = None
+        if pz is not None:
+            return pz  # a regular pencil whose form matched direct solves
+    probe = np.unique(np.array([grid.min(), np.sqrt(grid.min() * grid.max()), grid.max()]))
+    direct.check_regular(probe)
+    return direct
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class Response:
+    """Frequency response of one output to one stimulus.
+
+    Attributes
+    ----------
+    frequency_hz : ndarray
+        Sweep frequencies, Hz (read-only).
+    transfer : ndarray
+        Complex V(node) − V(ref) per unit stimulus (V/V or V/A).
+    dtransfer : ndarray
+        Exact derivative dH/df, per Hz (from one adjoint solve, not differences).
+    """
+
+    frequency_hz: np.ndarray
+    transfer: np.ndarray
+    dtransfer: np.ndarray
+    system: System
+    engine: object = field(repr=False)
+
+    @property
+    def method(self) -> str:
+        """Engine used: ``pole-zero``, ``dense`` or ``sparse``."""
+        return self.engine.method
+
+    @property
+    def magnitude_db(self) -> np.ndarray:
+        """20·log10|H| in dB (−inf where H is exactly 0)."""
+        with np.errstate(divide="ignore"):
+            return _readonly(20.0 * np.log10(np.abs(self.transfer)))
+
+    @property
+    def phase_deg(self) -> np.ndarray:
+        """Phase of H in degrees, unwrapped along frequency."""
+        return _readonly(np.degrees(np.unwrap(np.angle(self.transfer))))
+
+    @property
+    def group_delay_s(self) -> np.ndarray:
+        """Group delay −dφ/dω in seconds, from the exact derivative."""
+        with np.errstate(all="ignore"):
+            return _readonly(-np.imag(self.dtransfer / self.transfer) / _TWO_PI)
+
+    @property
+    def poles_hz(self) -> np.ndarray:
+        """Poles as complex frequencies s/2π (Hz), when the pole–zero engine was used."""
+        if isinstance(self.engine, PoleZeroEngine):
+            return _readonly(self.engine.poles * self.engine.w_scale / _TWO_PI)
+        return _readonly(np.zeros(0, dtype=complex))
+
+    @property
+    def zeros_hz(self) -> np.ndarray:
+        """Zeros as complex frequencies s/2π (Hz), when the pole–zero engine was used."""
+        if isinstance(self.engine, PoleZeroEngine):
+            return _readonly(self.engine.zeros * self.engine.w_scale / _TWO_PI)
+        return _readonly(np.zeros(0, dtype=complex))
+
+    def at(self, f_hz: object) -> tuple[np.ndarray, np.ndarray]:
+        """H and dH/df at other frequencies, with the same engine."""
+        return self.engine.transfer(validate_frequencies(f_hz))
+
+    def solution(self, f_hz: object | None = None) -> np.ndarray:
+        """Every node voltage and branch current (F × n, columns ``system.unknowns``)."""
+        f = self.frequency_hz if f_hz is None else validate_frequencies(f_hz)
+        return _readonly(self.engine.solution(f))
+
+    def direct(self) -> DenseEngine | SparseEngine:
+        """A direct-solve engine on the same system (for other outputs and checks)."""
+        eng = self.engine
+        if isinstance(eng, PoleZeroEngine):
+            return eng.direct
+        return eng
+
+
+def solve(system: System, freqs: object) -> Response:
+    """Solve ``system`` at ``freqs`` (Hz) and return the :class:`Response`.
+
+    Examples
+    --------
+    >>> from netcheck import read_netlist
+    >>> ckt = read_netlist("rc\\nV1 in 0 AC 1\\nR1 in out 1k\\nC1 out 0 159.15494n\\n")
+    >>> r = ckt.ac("V1", "out", freqs=[1000.0])
+    >>> round(float(r.magnitude_db[0]), 4)   # RC low-pass at its corner: -3.0103 dB
+    -3.0103
+    """
+    f = validate_frequencies(freqs)
+    engine = make_engine(system, f)
+    h, dh = engine.transfer(f)
+    return Response(_readonly(f), _readonly(h), _readonly(dh), system, engine)

@@ -1,0 +1,212 @@
+"""Engineering notation in (``4k7``, ``10uF``, ``1meg``) and out (``38.000 kHz``)."""
+
+from __future__ import annotations
+
+import math
+from decimal import Decimal
+
+__all__ = ["SCALE", "parse_quantity", "parse_value", "format_eng", "format_si", "UnitError"]
+
+#: Classic SPICE scale letters (case-insensitive; ``m`` is milli, ``meg`` mega).
+SCALE: dict[str, int] = {
+    "f": -15, "p": -12, "n": -9, "u": -6, "µ": -6, "m": -3, "k": 3, "g": 9, "t": 12,
+}
+_MEG = 6
+_DIGITS = "0123456789"
+
+
+class UnitError(ValueError):
+    """A quantity string is not valid engineering notation."""
+
+
+def _scan_mantissa(text: str) -> int:
+    """Return the length of the leading decimal number (with exponent) in ``text``."""
+    i, n = 0, len(text)
+    if i < n and text[i] in "+-":
+        i += 1
+    start = i
+    while i < n and text[i] in _DIGITS:
+        i += 1
+    if i < n and text[i] == ".":
+        i += 1
+        while i < n and text[i] in _DIGITS:
+            i += 1
+    if i == start or text[start:i] == ".":
+        return 0
+    if i < n and text[i] in "eE":
+        j = i + 1
+        if j < n and text[j] in "+-":
+            j += 1
+        if j < n and text[j] in _DIGITS:
+            while j < n and text[j] in _DIGITS:
+                j += 1
+            i = j
+    return i
+
+
+def _scaled(digits: str, exponent: int) -> float:
+    """``digits`` × 10**exponent, rounded once (so ``10u`` is exactly ``1e-05``)."""
+    return float(Decimal(digits).scaleb(exponent))
+
+
+def _scale_of(letters: str) -> tuple[int | None, int]:
+    """Power-of-ten of a suffix (None for mil) and how many characters it uses."""
+    low = letters.lower()
+    if low.startswith("meg"):
+        return _MEG, 3
+    if low.startswith("mil"):
+        return None, 3
+    if low and low[0] in SCALE:
+        return SCALE[low[0]], 1
+    return 0, 0
+
+
+def parse_quantity(text: str) -> float:
+    """Parse one SPICE-style quantity.
+
+    A decimal number, then an optional scale suffix (f p n u m k meg g t, or
+    mil = 25.4 µm), then ignored unit letters. The IEC 60062 letter-and-digit
+    form (``4k7`` = 4.7k, ``2n2`` = 2.2n, ``4R7`` = 4.7) is accepted, except
+    with ``m``/``M``, which IEC 60062 reads as mega but SPICE as milli: that
+    form is refused rather than guessed.
+
+    Parameters
+    ----------
+    text : str
+        The token, e.g. ``"10uF"``.
+
+    Returns
+    -------
+    float
+        The value in base units.
+
+    Raises
+    ------
+    UnitError
+        If ``text`` is not a quantity; the message says why.
+
+    Examples
+    --------
+    >>> parse_quantity("10uF"), parse_quantity("1meg"), parse_quantity("4k7")
+    (1e-05, 1000000.0, 4700.0)
+    >>> parse_quantity("1M")   # milli, as in SPICE
+    0.001
+    """
+    s = text.strip()
+    n = _scan_mantissa(s)
+    if n == 0:
+        raise UnitError(f"{text!r} is not a number")
+    mantissa, rest = s[:n], s[n:]
+    value = float(mantissa)
+    if not rest:
+        return value
+    if not (rest[0].isalpha() or rest[0] == "µ"):
+        raise UnitError(f"unexpected {rest[0]!r} after the number in {text!r}")
+    # IEC 60062 letter-and-digit code: <digits><letter><digits>[unit]
+    letter = rest[0]
+    k = 1
+    while k < len(rest) and rest[k] in _DIGITS:
+        k += 1
+    if k > 1:
+        return _rkm(text, mantissa, letter, rest[1:k], rest[k:])
+    exponent, used = _scale_of(rest)
+    tail = rest[used:]
+    if any(not (ch.isalpha() or ch == "µ") for ch in tail):
+        raise UnitError(f"unexpected characters {tail!r} in {text!r}")
+    if exponent is None:
+        return value * 25.4e-6
+    return _scaled(mantissa, exponent)
+
+
+def _rkm(text: str, mantissa: str, letter: str, decimals: str, unit: str) -> float:
+    """Value of an IEC 60062 code such as ``4k7`` (mantissa, letter, decimals)."""
+    if not mantissa.isdigit():
+        raise UnitError(f"{text!r} mixes a decimal point or exponent with the "
+                        f"letter-and-digit code; write {mantissa}{letter} or use one form")
+    low = letter.lower()
+    if low == "m":
+        raise UnitError(f"{text!r} is ambiguous: the IEC 60062 code reads {letter} as "
+                        f"mega, SPICE reads it as milli; write {mantissa}.{decimals}meg "
+                        f"or {mantissa}.{decimals}m")
+    if low in ("r", "e"):
+        exponent = 0
+    elif low in SCALE:
+        exponent = SCALE[low]
+    else:
+        raise UnitError(f"{text!r}: {letter!r} is not a scale letter")
+    if any(not ch.isalpha() for ch in unit):
+        raise UnitError(f"unexpected characters {unit!r} in {text!r}")
+    return _scaled(f"{mantissa}.{decimals}", exponent)
+
+
+def parse_value(value: object, what: str = "value") -> float:
+    """Parse a spec value: a number, or a string of engineering notation.
+
+    Examples
+    --------
+    >>> parse_value("38k"), parse_value(2.5)
+    (38000.0, 2.5)
+    """
+    if isinstance(value, bool):
+        raise UnitError(f"{what}: expected a number, got {value!r}")
+    if isinstance(value, (int, float)):
+        if not math.isfinite(value):
+            raise UnitError(f"{what}: {value!r} is not finite")
+        return float(value)
+    if isinstance(value, str):
+        return parse_quantity(value)
+    raise UnitError(f"{what}: expected a number or a string like '10k', got {type(value).__name__}")
+
+
+_PREFIXES = [(1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"),
+             (1e-6, "µ"), (1e-9, "n"), (1e-12, "p"), (1e-15, "f")]
+
+
+def format_si(value: float, unit: str = "", digits: int = 4) -> str:
+    """Format with an SI prefix and ``digits`` significant figures.
+
+    Examples
+    --------
+    >>> format_si(38000.0, "Hz"), format_si(4.7e-9, "F"), format_si(0.0, "V")
+    ('38.00 kHz', '4.700 nF', '0 V')
+    >>> format_si(-1.25e-4, "s", 3)
+    '-125 µs'
+    """
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "—"
+    if math.isinf(value):
+        return ("-" if value < 0 else "") + "∞" + (f" {unit}" if unit else "")
+    if value == 0:
+        return f"0 {unit}".rstrip() if unit else "0"
+    mag = abs(value)
+    scale, prefix = _PREFIXES[-1]
+    for s, p in _PREFIXES:
+        if mag >= s * 0.9999995:
+            scale, prefix = s, p
+            break
+    scaled = value / scale
+    decimals = max(0, digits - 1 - int(math.floor(math.log10(abs(scaled)) + 1e-12)))
+    text = f"{scaled:.{decimals}f}"
+    sep = " " if (prefix or unit) else ""
+    return f"{text}{sep}{prefix}{unit}"
+
+
+def format_eng(value: float, unit: str = "", digits: int = 4) -> str:
+    """Format a value for tables: dB and degrees plain, other units with SI prefixes.
+
+    Examples
+    --------
+    >>> format_eng(-0.51234, "dB"), format_eng(12.5, "deg"), format_eng(1.5e3, "Hz")
+    ('-0.512 dB', '12.50 deg', '1.500 kHz')
+    """
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "—"
+    if unit == "dB":
+        return f"{value:.3f} dB"
+    if unit in ("deg", "°"):
+        return f"{value:.2f} deg"
+    if unit in ("", "1"):
+        if value != 0 and (abs(value) >= 1e5 or abs(value) < 1e-3):
+            return f"{value:.{digits - 1}e}"
+        return f"{value:.{digits}g}"
+    return format_si(value, unit, digits)
