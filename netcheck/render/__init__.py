@@ -1,0 +1,50 @@
+"""Renderers: each is ``render(result, stream, options) -> None`` over one CheckResult.
+
+The registry maps a format name to ``"module:function"``; the module is imported
+only when that format is asked for, so heavy dependencies stay unloaded otherwise.
+"""
+
+from __future__ import annotations
+
+import importlib
+from dataclasses import dataclass, field
+from typing import IO, Any, Callable
+
+from ..result import CheckResult
+
+__all__ = ["RENDERERS", "RenderOptions", "get_renderer", "render_to"]
+
+#: format name → (``module:function``, binary output?)
+RENDERERS: dict[str, tuple[str, bool]] = {
+    "text": ("netcheck.render.text:render", False),
+    "json": ("netcheck.render.jsonreport:render", False),
+    "junit": ("netcheck.render.junitreport:render", False),
+    "sarif": ("netcheck.render.sarifreport:render", False),
+    "markdown": ("netcheck.render.markdown:render", False),
+    "pdf": ("netcheck.report.pdf:render", True),
+}
+
+
+@dataclass(frozen=True, slots=True)
+class RenderOptions:
+    """Options a renderer may read; each ignores what it does not use."""
+
+    color: bool = False
+    verbose: bool = False
+    extra: dict[str, Any] = field(default_factory=dict)
+
+
+def get_renderer(name: str) -> Callable[[CheckResult, IO, RenderOptions], None]:
+    """Import and return the renderer registered as ``name``."""
+    target, _ = RENDERERS[name]
+    module, func = target.split(":")
+    return getattr(importlib.import_module(module), func)
+
+
+def render_to(name: str, result: CheckResult, path: str,
+              options: RenderOptions | None = None) -> None:
+    """Render ``result`` as ``name`` into ``path`` (``-`` = stdout), atomically."""
+    from ..outputs import open_output
+    _, binary = RENDERERS[name]
+    with open_output(path, binary=binary) as stream:
+        get_renderer(name)(result, stream, options or RenderOptions())

@@ -1,0 +1,1 @@
+"""The PDF compliance report (jinja2 + weasyprint + matplotlib, imported lazily)."""
