@@ -3,16 +3,106 @@
 from __future__ import annotations
 
 import argparse
+import datetime as _dt
+import os
+import sys
+from pathlib import Path
 from typing import Callable
+
+__all__ = ["add_check_parser", "run_check", "find_specs", "created_utc"]
 
 
 def add_check_parser(sub, common: Callable[[argparse.ArgumentParser], None]) -> None:
-    """Register ``check``."""
-    ck = sub.add_parser("check", help="judge spec files against their netlists")
+    """Register ``check`` and its options."""
+    ck = sub.add_parser("check", help="judge spec files against their netlists",
+                        description="Judge every limit of every spec; exit 0 when all pass, "
+                        "1 when a limit fails, 2 when an input is bad.")
     ck.add_argument("paths", nargs="+", metavar="SPEC", help="spec files or directories")
+    ck.add_argument("--json", metavar="PATH", help="write the JSON result ('-' = stdout)")
+    ck.add_argument("--junit", metavar="PATH", help="write JUnit XML")
+    ck.add_argument("--sarif", metavar="PATH", help="write SARIF 2.1.0")
+    ck.add_argument("--summary-md", metavar="PATH", help="write a Markdown summary")
+    ck.add_argument("--pdf", metavar="DIR", help="write one PDF report per spec into DIR")
+    ck.add_argument("--pdf-combined", metavar="FILE", help="write one PDF for all specs")
+    ck.add_argument("-v", "--verbose", action="store_true", help="show every caution")
+    ck.add_argument("--color", choices=("auto", "always", "never"), default="auto")
     common(ck)
 
 
+def find_specs(paths: list[str]) -> tuple[list[str], list[str]]:
+    """Spec files named or found (recursively, ``*.toml`` declaring ``netlist``) in ``paths``.
+
+    Returns the spec paths (sorted within each directory) and paths that do not exist.
+    """
+    import tomllib
+
+    specs, missing = [], []
+    for p in paths:
+        path = Path(p)
+        if path.is_dir():
+            for f in sorted(path.rglob("*.toml")):
+                try:
+                    doc = tomllib.loads(f.read_text("utf-8"))
+                except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+                    specs.append(str(f))  # let the loader report what is wrong with it
+                    continue
+                if "netlist" in doc:
+                    specs.append(str(f))
+        elif path.exists():
+            specs.append(str(path))
+        else:
+            missing.append(p)
+    return list(dict.fromkeys(specs)), missing
+
+
+def created_utc() -> str:
+    """Report time: from SOURCE_DATE_EPOCH when set (reproducible builds), else now."""
+    epoch = os.environ.get("SOURCE_DATE_EPOCH")
+    if epoch and epoch.strip().isdigit():
+        t = _dt.datetime.fromtimestamp(int(epoch), _dt.timezone.utc)
+    else:
+        t = _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0)
+    return t.strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+def _use_color(choice: str) -> bool:
+    if choice == "always":
+        return True
+    if choice == "never" or os.environ.get("NO_COLOR"):
+        return False
+    return sys.stdout.isatty()
+
+
 def run_check(args: argparse.Namespace) -> int:
-    """Run ``check`` (filled in by the spec checker)."""
-    raise NotImplementedError("netcheck check is not available yet")
+    """Run ``check``: judge, render every requested output, return the exit code."""
+    from . import __version__
+    from .cli import BAD_INPUT, FAIL, OK
+    from .evaluate import check_spec
+    from .render import RenderOptions, get_renderer, render_to
+    from .result import CheckResult, Status
+
+    specs, missing = find_specs(args.paths)
+    for m in missing:
+        print(f"{m}: error NC200: no such file or directory", file=sys.stderr)
+    if not specs and not missing:
+        print("netcheck check: no spec files found (a spec is a .toml file with a "
+              "'netlist' key)", file=sys.stderr)
+        return BAD_INPUT
+    results = tuple(check_spec(p) for p in specs)
+    result = CheckResult(results, __version__, created_utc())
+    options = RenderOptions(color=_use_color(args.color), verbose=args.verbose)
+    get_renderer("text")(result, sys.stdout, options)
+    for s in results:
+        if s.error:
+            print(s.error, file=sys.stderr)
+    plain = RenderOptions(verbose=args.verbose)
+    for fmt, path in (("json", args.json), ("junit", args.junit), ("sarif", args.sarif),
+                      ("markdown", args.summary_md), ("pdf", args.pdf_combined)):
+        if path:
+            render_to(fmt, result, path, plain)
+    if args.pdf:
+        from .report.pdf import render_per_spec
+        render_per_spec(result, args.pdf, plain)
+    if missing or result.status is Status.ERROR and any(s.error for s in results):
+        return BAD_INPUT
+    return OK if result.status is Status.PASS else FAIL

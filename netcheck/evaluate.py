@@ -1,0 +1,227 @@
+"""Spec × circuit → SpecResult: solve, measure, judge every limit, collect cautions."""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import warnings
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from .assemble import System, assemble
+from .elaborate import Circuit, read_netlist
+from .exceptions import Diagnostic, ElaborationError, NetcheckError, NetcheckWarning, SpecError
+from .measure import Extremum, MeasurementFailure, Resonance, peak, resonance
+from .result import SAFETY_CAUTION, Caution, Curves, SpecResult, Status, worst_status
+from .solve import Response, solve
+from .spec import Spec, load_spec
+
+__all__ = ["ResponseCurve", "SpecProbe", "evaluate", "check_spec", "seeds_from_roots"]
+
+_TWO_PI = 2.0 * math.pi
+
+
+def seeds_from_roots(roots_hz: np.ndarray, lo: float, hi: float) -> np.ndarray:
+    """Frequencies (Hz) where lightly damped poles or zeros put narrow features.
+
+    For a root s/2π = σ + jν the feature sits near |ν| (and |s|/2π); only roots with
+    |ν| > |σ| (Q above 1/2) inside the sweep are kept.
+    """
+    if roots_hz.size == 0:
+        return np.zeros(0)
+    r = roots_hz[roots_hz.imag > 0]
+    r = r[np.abs(r.imag) > np.abs(r.real)]
+    cand = np.concatenate([np.abs(r.imag), np.abs(r)])
+    cand = cand[(cand >= lo) & (cand <= hi)]
+    return np.unique(cand)
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class ResponseCurve:
+    """A :class:`netcheck.measure.Curve` over a solved :class:`Response`."""
+
+    response: Response
+    grid_hz: np.ndarray
+    seeds_hz: np.ndarray
+
+    @classmethod
+    def of(cls, response: Response) -> "ResponseCurve":
+        f = response.frequency_hz
+        seeds = np.concatenate([seeds_from_roots(response.poles_hz, f[0], f[-1]),
+                                seeds_from_roots(response.zeros_hz, f[0], f[-1])])
+        return cls(response, f, np.unique(seeds))
+
+    def transfer(self, f_hz: np.ndarray) -> np.ndarray:
+        return self.response.at(f_hz)[0]
+
+    def dtransfer(self, f_hz: np.ndarray) -> np.ndarray:
+        return self.response.at(f_hz)[1]
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class ImpedanceCurve:
+    """Input impedance Z(f) seen by the stimulus, exact (direct solves)."""
+
+    response: Response
+    grid_hz: np.ndarray
+    seeds_hz: np.ndarray
+
+    def _zi(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        system = self.response.system
+        engine = self.response.direct()
+        if system.circuit.element(system.source).letter == "V":
+            i, di = engine.transfer(f, system.input_current_selector())
+            with np.errstate(all="ignore"):
+                return 1.0 / i, -di / (i * i)
+        return engine.transfer(f, system.input_voltage_selector())
+
+    def transfer(self, f_hz: np.ndarray) -> np.ndarray:
+        return self._zi(np.asarray(f_hz, float))[0]
+
+    def dtransfer(self, f_hz: np.ndarray) -> np.ndarray:
+        return self._zi(np.asarray(f_hz, float))[1]
+
+
+@dataclass(eq=False)
+class SpecProbe:
+    """What limits measure on, with the shared measurements cached."""
+
+    curve: ResponseCurve
+    sweep: object
+    _peak: Extremum | None = None
+    _res: dict = field(default_factory=dict)
+    _imp: ImpedanceCurve | None = None
+
+    def peak(self) -> Extremum:
+        if self._peak is None:
+            self._peak = peak(self.curve)
+        return self._peak
+
+    def resonance(self, level_db: float | None, band: tuple[float, float] | None) -> Resonance:
+        key = (level_db, band)
+        if key not in self._res:
+            lo, hi = band if band else (None, None)
+            self._res[key] = resonance(self.curve, level_db, lo, hi)
+        return self._res[key]
+
+    def impedance(self) -> ImpedanceCurve:
+        if self._imp is None:
+            self._imp = ImpedanceCurve(self.curve.response, self.curve.grid_hz,
+                                       self.curve.seeds_hz)
+        return self._imp
+
+
+def _sha256(text: str) -> str:
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def _diag_caution(d: Diagnostic) -> Caution:
+    if d.span is None:
+        return Caution(d.code, d.message, d.severity)
+    return Caution(d.code, d.message, d.severity, d.span.path, d.span.line, d.span.column)
+
+
+def _assemble_for(spec: Spec, circuit: Circuit) -> System:
+    try:
+        return assemble(circuit, spec.source, spec.output[0], spec.output[1])
+    except ElaborationError as err:
+        key = "source" if err.code == "NC107" else "output"
+        raise SpecError(f"{key}: {err.message}", code="NC203", path=spec.path,
+                        where=key) from None
+
+
+def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None) -> SpecResult:
+    """Judge every limit of ``spec`` on ``circuit``.
+
+    Raises
+    ------
+    SpecError
+        When the spec names a source or node the circuit does not have.
+    NetcheckError
+        When the circuit cannot be solved (singular).
+    """
+    system = _assemble_for(spec, circuit)
+    grid = spec.sweep.grid()
+    cautions = [Caution("safety", SAFETY_CAUTION, "caution")]
+    cautions += [_diag_caution(d) for d in circuit.diagnostics]
+    src = circuit.element(system.source)
+    if not getattr(src, "has_ac", True):
+        cautions.append(Caution("NC153", f"stimulus {src.name} has no AC value; results are "
+                                "per unit stimulus", "warning", src.span.path, src.span.line,
+                                src.span.column))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", NetcheckWarning)
+        response = solve(system, grid)
+        curve = ResponseCurve.of(response)
+        probe = SpecProbe(curve, spec.sweep)
+        limits = []
+        for lim in spec.limits:
+            limits.extend(lim.judge(probe))
+        measurements = _measurements(probe)
+    for w in caught:
+        if issubclass(w.category, NetcheckWarning):
+            cautions.append(Caution("NC302", str(w.message), "warning"))
+    mask = tuple(m for lim in spec.limits for m in lim.mask())
+    failed_names = {r.name for r in limits if r.status is not Status.PASS}
+    mask = tuple(type(m)(m.label, m.f_lo_hz, m.f_hi_hz, m.lo, m.hi, m.quantity,
+                         m.label in failed_names) for m in mask)
+    inputs = tuple((s.path, _sha256(s.text)) for s in circuit.sources)
+    inputs += ((spec.path, _sha256(spec.text)),)
+    sweep_info = (("start_hz", spec.sweep.start_hz), ("stop_hz", spec.sweep.stop_hz),
+                  ("points_per_decade", spec.sweep.points_per_decade),
+                  ("points", int(grid.size)), ("method", response.method),
+                  ("unknowns", system.size), ("seeds", int(curve.seeds_hz.size)),
+                  ("source", system.source), ("output", list(spec.output)),
+                  ("stimulus_unit", "V" if src.letter == "V" else "A"))
+    curves = Curves(grid, response.magnitude_db, response.phase_deg, response.group_delay_s)
+    status = worst_status(r.status for r in limits)
+    return SpecResult(
+        spec=spec.path, netlist=spec.netlist, title=spec.title or circuit.title or spec.path,
+        status=status, limits=tuple(limits), measurements=measurements,
+        cautions=tuple(cautions), variant=variant, inputs=inputs, sweep=sweep_info,
+        curves=curves, mask=mask,
+        source_text=tuple((s.path, s.text) for s in circuit.sources) + ((spec.path, spec.text),))
+
+
+def _measurements(probe: SpecProbe) -> tuple[tuple[str, float], ...]:
+    out: dict[str, float] = {}
+    try:
+        pk = probe.peak()
+    except MeasurementFailure:
+        return ()
+    out["f_peak_hz"], out["peak_gain_db"] = pk.frequency_hz, pk.value
+    try:
+        res = probe.resonance(None, None)
+    except MeasurementFailure:
+        return tuple(out.items())
+    out.update(f_low_hz=res.f_low_hz, f_high_hz=res.f_high_hz, bandwidth_hz=res.bandwidth_hz,
+               q=res.q, f_center_hz=res.f_center_hz)
+    return tuple(out.items())
+
+
+def error_result(path: str, err: NetcheckError, netlist: str = "", title: str = "",
+                 variant: str | None = None) -> SpecResult:
+    """A SpecResult for a spec that could not be checked."""
+    return SpecResult(spec=path, netlist=netlist, title=title or Path(path).name,
+                      status=Status.ERROR, error=err.format(), variant=variant,
+                      cautions=(Caution(err.code, err.message, "error", err.span.path
+                                        if err.span else err.path,
+                                        err.span.line if err.span else None,
+                                        err.span.column if err.span else None),))
+
+
+def check_spec(path: str, overrides: dict[str, float] | None = None,
+               variant: str | None = None, spec: Spec | None = None) -> SpecResult:
+    """Load, solve and judge one spec file; bad input becomes an error result, never a raise."""
+    try:
+        spec = spec or load_spec(path)
+    except NetcheckError as err:
+        return error_result(path, err, variant=variant)
+    try:
+        circuit = read_netlist(spec.netlist, root=spec.root, allow_negative=spec.allow_negative,
+                               overrides=overrides)
+        return evaluate(spec, circuit, variant)
+    except NetcheckError as err:
+        return error_result(path, err, spec.netlist, spec.title, variant)

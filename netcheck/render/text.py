@@ -1,0 +1,75 @@
+"""Terminal table: one compact, aligned table per spec, failures first, then a count line."""
+
+from __future__ import annotations
+
+from typing import IO, Any
+
+from ..result import CheckResult, LimitResult, SpecResult, Status
+from ..units import format_eng, format_si
+
+__all__ = ["render"]
+
+_COLOURS = {Status.PASS: "32", Status.FAIL: "31;1", Status.ERROR: "35;1", Status.SKIPPED: "33"}
+_MARK = {Status.PASS: " ", Status.FAIL: "✗", Status.ERROR: "!", Status.SKIPPED: "-"}
+
+
+def _paint(text: str, status: Status, color: bool) -> str:
+    return f"\x1b[{_COLOURS[status]}m{text}\x1b[0m" if color else text
+
+
+def _row(lim: LimitResult) -> list[str]:
+    measured = "—" if lim.measured is None else format_eng(lim.measured, lim.unit)
+    margin = "—" if lim.margin is None else (("+" if lim.margin >= 0 else "") +
+                                            format_eng(lim.margin, lim.unit))
+    at = "" if lim.at_hz is None else format_si(lim.at_hz, "Hz", 5)
+    return [_MARK[lim.status], lim.status.word, lim.name, measured, lim.bound_text, margin, at]
+
+
+def _order(limits: tuple[LimitResult, ...]) -> list[LimitResult]:
+    return sorted(limits, key=lambda r: (-r.status.rank, r.index))
+
+
+def _spec_block(s: SpecResult, color: bool, verbose: bool) -> list[str]:
+    head = f"{_paint(s.status.word, s.status, color)}  {s.label}  ({s.spec})"
+    lines = [head]
+    if s.error:
+        lines += ["    " + ln for ln in s.error.splitlines()]
+        return lines
+    rows = [["", "", "limit", "measured", "allowed", "margin", "at"]]
+    rows += [_row(lim) for lim in _order(s.limits)]
+    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
+    for k, r in enumerate(rows):
+        cells = [c.ljust(w) if i in (0, 1, 2) else c.rjust(w) for i, (c, w) in
+                 enumerate(zip(r, widths))]
+        text = "  " + "  ".join(cells).rstrip()
+        if k > 0:
+            lim = _order(s.limits)[k - 1]
+            text = _paint(text, lim.status, color) if lim.status is not Status.PASS else text
+            if lim.status is Status.ERROR and lim.message:
+                text += "\n      " + lim.message
+        lines.append(text)
+    for c in s.cautions:
+        if c.code == "safety" and not verbose:
+            continue
+        where = f"{c.path}:{c.line}: " if c.path and c.line else ""
+        lines.append(f"  {c.severity}: {where}{c.message}")
+    return lines
+
+
+def render(result: CheckResult, stream: IO[str], options: Any = None) -> None:
+    """Write the terminal report of ``result`` to ``stream``."""
+    color = bool(getattr(options, "color", False))
+    verbose = bool(getattr(options, "verbose", False))
+    for s in result.specs:
+        stream.write("\n".join(_spec_block(s, color, verbose)) + "\n\n")
+    n = result.counts
+    errored_specs = sum(1 for s in result.specs if s.error)
+    stream.write(f"{_paint(result.status.word, result.status, color)}: {len(result.specs)} "
+                 f"spec{'s' if len(result.specs) != 1 else ''}, {n['pass']} limits passed, "
+                 f"{n['fail']} failed, {n['error']} could not be measured"
+                 + (f", {errored_specs} spec{'s' if errored_specs != 1 else ''} not checked"
+                    if errored_specs else "") + "\n")
+    if any(c.code == "safety" for s in result.specs for c in s.cautions):
+        stream.write("Caution: analysis of a model, not a measurement; resonant parts can see "
+                     "far more than the input voltage. Verify by measurement and follow local "
+                     "codes and licensed practice at hazardous voltages.\n")

@@ -1,0 +1,315 @@
+"""Spec files (TOML, read with tomllib) → a validated, frozen Spec."""
+
+from __future__ import annotations
+
+import difflib
+import math
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from .exceptions import SpecError
+from .source import SourceFile
+from .units import UnitError, parse_value
+
+__all__ = ["Sweep", "Spec", "load_spec", "parse_spec", "SpecReader", "TOP_KEYS"]
+
+#: Top-level keys of a spec and what they hold (for docs, did-you-mean and the loader).
+TOP_KEYS: dict[str, str] = {
+    "title": "report title (default: the netlist's title line)",
+    "netlist": "netlist path, relative to the spec file",
+    "source": "independent source giving the stimulus",
+    "output": "output node, or [positive, negative] for a differential output",
+    "root": "design root that .include may not leave (relative to the spec file)",
+    "allow_negative": "accept negative R, L, C values",
+    "sweep": "sweep table: start, stop, points_per_decade",
+    "limits": "array of limit tables",
+    "tolerances": "part tolerances",
+    "analysis": "nominal / worst case / Monte Carlo settings",
+    "stress": "array of part-stress limits",
+    "variants": "variant family",
+}
+SWEEP_KEYS = {"start": "Hz", "stop": "Hz", "points_per_decade": "count"}
+
+
+@dataclass(frozen=True, slots=True)
+class Sweep:
+    """Log-spaced sweep: ``points_per_decade`` points per decade, both ends included."""
+
+    start_hz: float
+    stop_hz: float
+    points_per_decade: int = 100
+
+    def grid(self) -> np.ndarray:
+        """The sweep frequencies, Hz (read-only)."""
+        decades = math.log10(self.stop_hz / self.start_hz)
+        n = max(2, int(round(decades * self.points_per_decade)) + 1)
+        f = np.logspace(math.log10(self.start_hz), math.log10(self.stop_hz), n)
+        f[0], f[-1] = self.start_hz, self.stop_hz
+        f.flags.writeable = False
+        return f
+
+
+@dataclass(frozen=True, slots=True)
+class Spec:
+    """A validated spec file."""
+
+    path: str
+    title: str
+    netlist: str
+    source: str
+    output: tuple[str, str]
+    sweep: Sweep
+    limits: tuple[Any, ...]
+    root: str | None = None
+    allow_negative: bool = False
+    text: str = field(default="", repr=False)
+    tables: tuple[tuple[str, Any], ...] = field(default=(), repr=False)
+
+    def table(self, key: str) -> Any:
+        """A raw top-level table handled by another module (tolerances, stress...)."""
+        return dict(self.tables).get(key)
+
+
+class SpecReader:
+    """Typed access to one TOML table, with key paths in every error."""
+
+    def __init__(self, table: dict, where: str, path: str, known: dict[str, str]) -> None:
+        self.table, self.where, self.path, self.known = table, where, path, known
+        if not isinstance(table, dict):
+            self.fail("", f"expected a table, got {type(table).__name__}")
+        for key in table:
+            if key not in known:
+                close = difflib.get_close_matches(key, list(known), n=1, cutoff=0.6)
+                hint = f"; did you mean {close[0]!r}?" if close else \
+                    f"; known keys: {', '.join(sorted(known))}"
+                self.fail(key, f"unknown key {key!r}{hint}", code="NC201")
+
+    def key_path(self, key: str) -> str:
+        """``limits[3].band`` style path of ``key``."""
+        if not key:
+            return self.where or "(top level)"
+        return f"{self.where}.{key}" if self.where else key
+
+    def fail(self, key: str, message: str, code: str = "NC202") -> None:
+        """Raise a SpecError located at ``key``."""
+        where = self.key_path(key)
+        raise SpecError(f"{where}: {message}", code=code, path=self.path, where=where)
+
+    def has(self, key: str) -> bool:
+        """True if ``key`` is present."""
+        return key in self.table
+
+    def raw(self, key: str, default: Any = None) -> Any:
+        """The value as TOML gave it."""
+        return self.table.get(key, default)
+
+    def text(self, key: str, default: str | None = None, required: bool = False) -> str | None:
+        """A string value."""
+        if key not in self.table:
+            if required:
+                self.fail(key, "missing (required)")
+            return default
+        value = self.table[key]
+        if not isinstance(value, str) or not value.strip():
+            self.fail(key, f"expected a non-empty string, got {value!r}")
+        return value
+
+    def flag(self, key: str, default: bool = False) -> bool:
+        """A boolean value."""
+        value = self.table.get(key, default)
+        if not isinstance(value, bool):
+            self.fail(key, f"expected true or false, got {value!r}")
+        return value
+
+    def number(self, key: str, default: float | None = None, required: bool = False,
+               positive: bool = False, value: Any = None, label: str | None = None) -> float | None:
+        """A number or engineering-notation string (``"38k"``)."""
+        if value is None:
+            if key not in self.table:
+                if required:
+                    self.fail(key, "missing (required)")
+                return default
+            value = self.table[key]
+        try:
+            out = parse_value(value, label or key)
+        except UnitError as err:
+            self.fail(key, str(err))
+        if positive and out <= 0:
+            self.fail(key, f"must be > 0, got {value!r}")
+        return out
+
+    def integer(self, key: str, default: int, minimum: int = 1) -> int:
+        """A whole number ≥ ``minimum``."""
+        value = self.table.get(key, default)
+        if isinstance(value, bool) or not isinstance(value, int) or value < minimum:
+            self.fail(key, f"expected a whole number >= {minimum}, got {value!r}")
+        return value
+
+    def percent_or_value(self, key: str, reference: float) -> float | None:
+        """``"1%"`` (relative to ``reference``) or an absolute value; returns the absolute."""
+        if key not in self.table:
+            return None
+        value = self.table[key]
+        if isinstance(value, str) and value.strip().endswith("%"):
+            try:
+                pct = float(value.strip()[:-1])
+            except ValueError:
+                self.fail(key, f"{value!r} is not a percentage")
+            if pct < 0:
+                self.fail(key, "must not be negative")
+            return abs(reference) * pct / 100.0
+        return self.number(key, positive=True)
+
+    def bounds(self, key: str, positive: bool = False, required: bool = False
+               ) -> tuple[float | None, float | None] | None:
+        """``[min, max]`` or ``{min = .., max = ..}`` (either side may be open in table form)."""
+        if key not in self.table:
+            if required:
+                self.fail(key, "missing (required)")
+            return None
+        value = self.table[key]
+        if isinstance(value, list):
+            if len(value) != 2:
+                self.fail(key, f"expected [min, max], got {len(value)} values")
+            lo_raw, hi_raw = value
+        elif isinstance(value, dict):
+            extra = set(value) - {"min", "max"}
+            if extra or not value:
+                self.fail(key, "expected a table with min and/or max")
+            lo_raw, hi_raw = value.get("min"), value.get("max")
+        else:
+            self.fail(key, f"expected [min, max] or {{min = ..., max = ...}}, got {value!r}")
+        lo = None if lo_raw is None else self.number(key, value=lo_raw, label=f"{key} min")
+        hi = None if hi_raw is None else self.number(key, value=hi_raw, label=f"{key} max")
+        if positive and any(v is not None and v <= 0 for v in (lo, hi)):
+            self.fail(key, "values must be > 0")
+        if lo is not None and hi is not None and lo > hi:
+            self.fail(key, f"start {_show(lo_raw)} is above stop {_show(hi_raw)}")
+        return lo, hi
+
+    def band(self, key: str, sweep: Sweep, required: bool = True) -> tuple[float, float] | None:
+        """A frequency band ``[lo, hi]`` that must lie inside the sweep."""
+        b = self.bounds(key, positive=True, required=required)
+        if b is None:
+            return None
+        lo, hi = b
+        if lo is None or hi is None:
+            self.fail(key, "a band needs both ends")
+        if lo == hi:
+            self.fail(key, "band is empty (start equals stop)")
+        tol = 1e-9
+        if lo < sweep.start_hz * (1 - tol) or hi > sweep.stop_hz * (1 + tol):
+            self.fail(key, f"band {_show(lo)}–{_show(hi)} Hz is outside the sweep "
+                           f"{_show(sweep.start_hz)}–{_show(sweep.stop_hz)} Hz")
+        return max(lo, sweep.start_hz), min(hi, sweep.stop_hz)
+
+    def choice(self, key: str, options: tuple[str, ...], default: str) -> str:
+        """One of ``options``."""
+        value = self.table.get(key, default)
+        if value not in options:
+            self.fail(key, f"expected one of {', '.join(repr(o) for o in options)}, got {value!r}")
+        return value
+
+
+def _show(v: Any) -> str:
+    if isinstance(v, str):
+        return v
+    from .units import format_si
+    return format_si(float(v), "", 6).strip()
+
+
+def _toml_error(path: str, text: str, err: tomllib.TOMLDecodeError) -> SpecError:
+    msg = str(err)
+    line = col = None
+    head, sep, tail = msg.rpartition("(at line ")
+    if sep:
+        nums = tail.rstrip(")").split(", column ")
+        if len(nums) == 2 and all(n.isdigit() for n in nums):
+            line, col = int(nums[0]), int(nums[1])
+            msg = head.strip()
+    span = SourceFile(path, text).span(line, col) if line else None
+    return SpecError(f"not valid TOML: {msg}", span, code="NC200", path=path)
+
+
+def limit_lines(text: str) -> list[int]:
+    """1-based line of each ``[[limits]]`` header, in order (for locating results)."""
+    out = []
+    for i, line in enumerate(text.splitlines(), 1):
+        stripped = line.strip()
+        if stripped.startswith("[[") and stripped[2:].split("]]")[0].strip() == "limits":
+            out.append(i)
+    return out
+
+
+def parse_spec(text: str, path: str = "<spec>") -> Spec:
+    """Validate spec ``text`` (the TOML of a spec file at ``path``).
+
+    Raises
+    ------
+    SpecError
+        With the key path (``limits[3].band: ...``) or the TOML position.
+    """
+    from .limits import build_limit
+
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        raise _toml_error(path, text, err) from None
+    top = SpecReader(doc, "", path, TOP_KEYS)
+    base = Path(path).parent
+    netlist = top.text("netlist", required=True)
+    source = top.text("source", required=True)
+    out_raw = top.raw("output")
+    if out_raw is None:
+        top.fail("output", "missing (required)")
+    if isinstance(out_raw, str) and out_raw.strip():
+        output = (out_raw, "0")
+    elif (isinstance(out_raw, list) and len(out_raw) == 2
+          and all(isinstance(x, str) and x.strip() for x in out_raw)):
+        output = (out_raw[0], out_raw[1])
+    else:
+        top.fail("output", f"expected a node name or [positive, negative], got {out_raw!r}")
+    sw_table = top.raw("sweep")
+    if sw_table is None:
+        top.fail("sweep", "missing (required): give start, stop and points_per_decade")
+    sw = SpecReader(sw_table, "sweep", path, SWEEP_KEYS)
+    start = sw.number("start", required=True, positive=True)
+    stop = sw.number("stop", required=True, positive=True)
+    if start >= stop:
+        sw.fail("start", f"start {_show(sw.raw('start'))} is not below stop {_show(sw.raw('stop'))}")
+    sweep = Sweep(start, stop, sw.integer("points_per_decade", 100, minimum=2))
+    raw_limits = top.raw("limits", [])
+    if not isinstance(raw_limits, list):
+        top.fail("limits", "expected an array of tables ([[limits]])")
+    lines = limit_lines(text)
+    limits = []
+    for i, table in enumerate(raw_limits):
+        line = lines[i] if i < len(lines) else None
+        limits.append(build_limit(table, i, path, sweep, line))
+    root = top.text("root")
+    tables = tuple((k, doc[k]) for k in ("tolerances", "analysis", "stress", "variants")
+                   if k in doc)
+    return Spec(
+        path=path, title=top.text("title", default="") or "",
+        netlist=str(base / netlist), source=source, output=output, sweep=sweep,
+        limits=tuple(limits), root=str(base / root) if root else None,
+        allow_negative=top.flag("allow_negative"), text=text, tables=tables)
+
+
+def load_spec(path: str | Path) -> Spec:
+    """Read and validate the spec file at ``path``."""
+    shown = str(path)
+    try:
+        data = Path(path).read_bytes()
+    except OSError as err:
+        raise SpecError(f"cannot read spec: {err.strerror or err}", path=shown) from None
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as err:
+        raise SpecError(f"spec is not UTF-8 text ({err.reason} at byte {err.start})",
+                        path=shown) from None
+    return parse_spec(text, shown)
