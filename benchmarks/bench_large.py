@@ -40,10 +40,13 @@ def rc_ladder(sections: int) -> tuple[str, str]:
     """Netlist of a uniform RC ladder: series R, shunt C, driven by V1, output at the end.
 
     A lumped model of a distributed RC line (Quillmere Instruments' resistive sensor
-    lead). With R_tot = N·R and C_tot = N·C the ideal line's open-end response is
-    H(s) = 1 / cosh(sqrt(s R_tot C_tot)) (the diffusion-line result, e.g.
-    W. C. Elmore, J. Appl. Phys. 19(1), 55-63, 1948), so |H| falls off as
-    exp(-sqrt(ω R_tot C_tot / 2)): here from 0 dB at 10 Hz to about -300 dB at 1 MHz.
+    lead). With R_tot = N·R and C_tot = N·C, the uniform line it approximates has the
+    open-end response H(s) = 1 / cosh(γℓ), γℓ = sqrt(s R_tot C_tot): the solution of the
+    telegrapher's equations with L' = G' = 0 (S. Ramo, J. R. Whinnery and T. Van Duzer,
+    *Fields and Waves in Communication Electronics*, Wiley, chapter on transmission
+    lines). So |H| falls off as exp(-sqrt(ω R_tot C_tot / 2)): here from about 0 dB at
+    10 Hz to about -300 dB at 1 MHz, with 1/(R C) = 1e10 rad/s per section keeping the
+    lumped ladder close to the line over the whole sweep.
     """
     lines = [f"Quillmere Instruments QL-{sections} sensor lead model, {sections} RC sections",
              "V1 n0 0 AC 1"]

@@ -24,6 +24,10 @@ def add_check_parser(sub, common: Callable[[argparse.ArgumentParser], None]) -> 
     ck.add_argument("--summary-md", metavar="PATH", help="write a Markdown summary")
     ck.add_argument("--pdf", metavar="DIR", help="write one PDF report per spec into DIR")
     ck.add_argument("--pdf-combined", metavar="FILE", help="write one PDF for all specs")
+    ck.add_argument("--jobs", type=int, metavar="N", default=None,
+                    help="local worker processes (default: number of CPUs)")
+    ck.add_argument("--cluster", metavar="ADDRESS",
+                    help="run on an existing Dask distributed scheduler (tcp://host:8786)")
     ck.add_argument("-v", "--verbose", action="store_true", help="show every caution")
     ck.add_argument("--color", choices=("auto", "always", "never"), default="auto")
     common(ck)
@@ -77,7 +81,6 @@ def run_check(args: argparse.Namespace) -> int:
     """Run ``check``: judge, render every requested output, return the exit code."""
     from . import __version__
     from .cli import BAD_INPUT, FAIL, OK
-    from .evaluate import check_spec
     from .render import RenderOptions, get_renderer, render_to
     from .result import CheckResult, Status
 
@@ -88,7 +91,10 @@ def run_check(args: argparse.Namespace) -> int:
         print("netcheck check: no spec files found (a spec is a .toml file with a "
               "'netlist' key)", file=sys.stderr)
         return BAD_INPUT
-    results = tuple(check_spec(p) for p in specs)
+    from .batch import DaskExecutor, LocalExecutor, expand_jobs, run_all
+    items = expand_jobs(specs)
+    executor = DaskExecutor(args.cluster) if args.cluster else LocalExecutor(args.jobs)
+    results = run_all(items, executor)
     result = CheckResult(results, __version__, created_utc())
     options = RenderOptions(color=_use_color(args.color), verbose=args.verbose)
     get_renderer("text")(result, sys.stdout, options)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 import math
 import warnings
@@ -11,7 +12,8 @@ from pathlib import Path
 import numpy as np
 
 from .assemble import System, assemble
-from .elaborate import Circuit, read_netlist
+from .elaborate import Circuit, elaborate
+from .parse import load_netlist
 from .exceptions import Diagnostic, ElaborationError, NetcheckError, NetcheckWarning, SpecError
 from .measure import Extremum, MeasurementFailure, Resonance, peak, resonance
 from .result import SAFETY_CAUTION, Caution, Curves, SpecResult, Status, worst_status
@@ -213,15 +215,29 @@ def error_result(path: str, err: NetcheckError, netlist: str = "", title: str = 
 
 
 def check_spec(path: str, overrides: dict[str, float] | None = None,
-               variant: str | None = None, spec: Spec | None = None) -> SpecResult:
-    """Load, solve and judge one spec file; bad input becomes an error result, never a raise."""
+               variant: str | None = None, spec: Spec | None = None,
+               netlist: str | None = None) -> SpecResult:
+    """Load, solve and judge one spec file; bad input becomes an error result, never a raise.
+
+    ``overrides`` replace top-level ``.param`` values (a variant); ``netlist`` replaces the
+    spec's netlist path (a family of netlists sharing one spec).
+    """
     try:
         spec = spec or load_spec(path)
     except NetcheckError as err:
         return error_result(path, err, variant=variant)
+    if netlist is not None:
+        spec = dataclasses.replace(spec, netlist=netlist)
     try:
-        circuit = read_netlist(spec.netlist, root=spec.root, allow_negative=spec.allow_negative,
-                               overrides=overrides)
+        parsed = load_netlist(spec.netlist, spec.root)
+        defined = {a.key.text.lower() for a in parsed.top.params}
+        unknown = sorted(set(overrides or {}) - defined)
+        if unknown:
+            raise SpecError(f"variants: variant {variant!r} sets {', '.join(unknown)}, which the "
+                            f"netlist does not define with .param (it defines "
+                            f"{', '.join(sorted(defined)) or 'none'})", code="NC203",
+                            path=path, where="variants")
+        circuit = elaborate(parsed, spec.allow_negative, overrides)
         return evaluate(spec, circuit, variant)
     except NetcheckError as err:
         return error_result(path, err, spec.netlist, spec.title, variant)

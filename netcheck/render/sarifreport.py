@@ -17,7 +17,10 @@ One run, tool ``netcheck``. Results, in the order of the CheckResult:
 Passing and skipped limits produce no result. ``tool.driver.rules`` lists exactly the
 rule ids used, sorted, and each result refers to its rule by ``ruleIndex``. Relative
 paths become relative URIs with ``uriBaseId`` ``%SRCROOT%``; absolute ones ``file:`` URIs.
-JSON keys are sorted so the output is byte-for-byte reproducible.
+Message texts show control characters as visible ``\\xNN`` escapes (the same
+:func:`~netcheck.render.junitreport.xml_text` the JUnit renderer uses), so a title
+carrying terminal colour codes cannot restyle a viewer. JSON keys are sorted so the
+output is byte-for-byte reproducible.
 """
 
 from __future__ import annotations
@@ -29,7 +32,7 @@ from urllib.parse import quote
 from ..exceptions import CODES
 from ..result import Caution, CheckResult, LimitResult, SpecResult, Status, finite_or_none
 from . import RenderOptions
-from .junitreport import limit_summary
+from .junitreport import limit_summary, xml_text
 
 __all__ = ["render", "build_log", "SARIF_SCHEMA", "SRCROOT"]
 
@@ -88,7 +91,7 @@ def _limit_result(spec: SpecResult, lim: LimitResult) -> dict[str, Any]:
         "atHz": finite_or_none(lim.at_hz),
     }
     return {
-        "ruleId": rule, "level": "error", "message": {"text": text},
+        "ruleId": rule, "level": "error", "message": {"text": xml_text(text)},
         "locations": [_location(spec.spec, lim.line)],
         "partialFingerprints": {
             "netcheckLimit/v1": f"{spec.spec}|{spec.variant or ''}|{lim.kind}|{lim.name}"},
@@ -100,7 +103,7 @@ def _unchecked_result(spec: SpecResult) -> dict[str, Any]:
     text = f"{spec.label}: the spec could not be checked: {(spec.error or '').rstrip()}"
     props = {"spec": spec.spec, "variant": spec.variant, "status": Status.ERROR.value}
     return {
-        "ruleId": UNCHECKED_RULE, "level": "error", "message": {"text": text},
+        "ruleId": UNCHECKED_RULE, "level": "error", "message": {"text": xml_text(text)},
         "locations": [_location(spec.spec)],
         "properties": {k: v for k, v in props.items() if v is not None},
     }
@@ -108,7 +111,7 @@ def _unchecked_result(spec: SpecResult) -> dict[str, Any]:
 
 def _caution_result(caution: Caution, fallback_path: str | None) -> dict[str, Any]:
     out: dict[str, Any] = {"ruleId": caution.code, "level": _level(caution.severity),
-                           "message": {"text": caution.message}}
+                           "message": {"text": xml_text(caution.message)}}
     if caution.path:
         out["locations"] = [_location(caution.path, caution.line, caution.column)]
     elif fallback_path:

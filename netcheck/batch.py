@@ -1,0 +1,193 @@
+"""Families of variants and running many checks: local worker processes or Dask distributed."""
+
+from __future__ import annotations
+
+import csv
+import glob
+import io
+import os
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Iterable, Protocol, Sequence
+
+from .exceptions import SpecError
+from .result import SpecResult
+from .spec import SpecReader, load_spec
+from .units import UnitError, parse_value
+
+__all__ = ["Job", "expand_jobs", "run_job", "Executor", "SerialExecutor", "LocalExecutor",
+           "DaskExecutor", "VARIANT_KEYS"]
+
+VARIANT_KEYS = {"table": "CSV file next to the spec: header name,<param>,...; one variant a row",
+                "set": "array of {name, params = {param = value}} tables",
+                "netlists": "list of netlist paths or globs sharing this spec (relative to it)"}
+
+
+@dataclass(frozen=True, slots=True)
+class Job:
+    """One unit of work: a spec, optionally one variant of it."""
+
+    spec: str
+    variant: str | None = None
+    overrides: tuple[tuple[str, float], ...] = ()
+    netlist: str | None = None
+
+
+def _variant_error(path: str, where: str, message: str) -> SpecError:
+    return SpecError(f"{where}: {message}", code="NC202", path=path, where=where)
+
+
+def _read_table(spec_path: str, table: str) -> list[Job]:
+    csv_path = Path(spec_path).parent / table
+    try:
+        text = csv_path.read_text("utf-8")
+    except OSError as err:
+        raise _variant_error(spec_path, "variants.table",
+                             f"cannot read {csv_path}: {err.strerror or err}") from None
+    rows = list(csv.reader(io.StringIO(text)))
+    rows = [r for r in rows if any(c.strip() for c in r)]
+    if not rows or rows[0][0].strip().lower() != "name" or len(rows[0]) < 2:
+        raise _variant_error(spec_path, "variants.table",
+                             f"{csv_path}:1: header must be name,<param>,<param>...")
+    header = [h.strip() for h in rows[0]]
+    jobs = []
+    for i, row in enumerate(rows[1:], 2):
+        if len(row) != len(header):
+            raise _variant_error(spec_path, "variants.table",
+                                 f"{csv_path}:{i}: {len(row)} fields, header has {len(header)}")
+        values = []
+        for key, cell in zip(header[1:], row[1:]):
+            try:
+                values.append((key.lower(), parse_value(cell.strip(), key)))
+            except UnitError as err:
+                raise _variant_error(spec_path, "variants.table",
+                                     f"{csv_path}:{i}: {err}") from None
+        jobs.append(Job(spec_path, row[0].strip(), tuple(values)))
+    return jobs
+
+
+def _variant_jobs(spec_path: str, table: object) -> list[Job]:
+    rd = SpecReader(table, "variants", spec_path, VARIANT_KEYS)
+    jobs: list[Job] = []
+    if rd.has("table"):
+        jobs += _read_table(spec_path, rd.text("table"))
+    sets = rd.raw("set", [])
+    if not isinstance(sets, list):
+        rd.fail("set", "expected an array of tables ([[variants.set]])")
+    for i, entry in enumerate(sets):
+        sub = SpecReader(entry, f"variants.set[{i}]", spec_path, {"name": "", "params": ""})
+        name = sub.text("name", required=True)
+        params = sub.raw("params", {})
+        if not isinstance(params, dict):
+            sub.fail("params", "expected a table of parameter = value")
+        values = tuple((k.lower(), sub.number("params", value=v, label=f"params.{k}"))
+                       for k, v in params.items())
+        jobs.append(Job(spec_path, name, values))
+    for pattern in rd.raw("netlists", []) or []:
+        if not isinstance(pattern, str):
+            rd.fail("netlists", "expected a list of paths or globs")
+        base = Path(spec_path).parent
+        matches = sorted(glob.glob(str(base / pattern)))
+        if not matches:
+            rd.fail("netlists", f"{pattern!r} matches no file")
+        for m in matches:
+            jobs.append(Job(spec_path, Path(m).stem, (), m))
+    names = [j.variant for j in jobs]
+    dupes = sorted({n for n in names if names.count(n) > 1})
+    if dupes:
+        rd.fail("", f"variant names must be unique; repeated: {', '.join(dupes)}")
+    return jobs
+
+
+def expand_jobs(spec_paths: Sequence[str]) -> list[Job | SpecResult]:
+    """One Job per spec, or per variant of a spec that declares ``[variants]``.
+
+    A spec whose variant table is broken yields an error SpecResult in its place.
+    """
+    from .evaluate import error_result
+
+    out: list[Job | SpecResult] = []
+    for path in spec_paths:
+        try:
+            spec = load_spec(path)
+        except SpecError:
+            out.append(Job(path))  # check_spec reports the error in full
+            continue
+        table = spec.table("variants")
+        if table is None:
+            out.append(Job(path))
+            continue
+        try:
+            jobs = _variant_jobs(path, table)
+        except SpecError as err:
+            out.append(error_result(path, err))
+            continue
+        out.extend(jobs or [Job(path)])
+    return out
+
+
+def run_job(job: Job) -> SpecResult:
+    """Check one job (the function workers run; never raises for bad input)."""
+    from .evaluate import check_spec
+    return check_spec(job.spec, dict(job.overrides) or None, job.variant, netlist=job.netlist)
+
+
+class Executor(Protocol):
+    """Maps :func:`run_job` over jobs and returns results in the jobs' order."""
+
+    def map(self, jobs: Sequence[Job]) -> list[SpecResult]:
+        ...
+
+
+class SerialExecutor:
+    """Runs jobs one after another in this process."""
+
+    def map(self, jobs: Sequence[Job]) -> list[SpecResult]:
+        return [run_job(j) for j in jobs]
+
+
+class LocalExecutor:
+    """Runs jobs in ``workers`` local processes; results come back in job order."""
+
+    def __init__(self, workers: int | None = None) -> None:
+        self.workers = workers or os.cpu_count() or 1
+
+    def map(self, jobs: Sequence[Job]) -> list[SpecResult]:
+        if self.workers <= 1 or len(jobs) <= 1:
+            return SerialExecutor().map(jobs)
+        chunk = max(1, len(jobs) // (4 * self.workers))
+        with ProcessPoolExecutor(max_workers=min(self.workers, len(jobs))) as pool:
+            return list(pool.map(run_job, jobs, chunksize=chunk))
+
+
+class DaskExecutor:
+    """Runs jobs on an existing Dask distributed scheduler at ``address``."""
+
+    def __init__(self, address: str) -> None:
+        self.address = address
+
+    def map(self, jobs: Sequence[Job]) -> list[SpecResult]:
+        try:
+            from distributed import Client
+        except ImportError as err:  # pragma: no cover - depends on the install
+            raise SpecError("--cluster needs dask distributed: pip install 'netcheck[cluster]'",
+                            code="NC200") from err
+        try:
+            client = Client(self.address, timeout="20s", set_as_default=False)
+        except OSError as err:
+            raise SpecError(f"cannot reach the Dask scheduler at {self.address}: {err}",
+                            code="NC200") from None
+        try:
+            futures = client.map(run_job, list(jobs), pure=False)
+            return list(client.gather(futures))
+        finally:
+            client.close()
+
+
+def run_all(items: Iterable[Job | SpecResult], executor: Executor) -> tuple[SpecResult, ...]:
+    """Run the jobs among ``items`` with ``executor``, keeping the items' order."""
+    items = list(items)
+    jobs = [it for it in items if isinstance(it, Job)]
+    done = iter(executor.map(jobs))
+    return tuple(next(done) if isinstance(it, Job) else it for it in items)

@@ -1,0 +1,231 @@
+"""Markdown summary renderer for CI job summaries and merge-request comments.
+
+Layout (GitHub-flavoured Markdown tables; every status is a word, never a colour):
+
+1. ``## netcheck verdict: <WORD>`` and one sentence with the spec and limit counts;
+2. for each family (several specs sharing a spec file, told apart by ``variant``) a matrix
+   of variants × limit names whose cells read ``PASS +0.420 dB``;
+3. for each spec a ``###`` section: an error block when it could not be checked, and a
+   table (status, limit, measured, required, margin, at) with failed limits first, then
+   errors, skipped and passed ones, then notes for limits that carry a message;
+4. the cautions, each written once, with the specs they came from.
+
+Text that comes from the user's files (titles, names, paths, messages) goes through
+:func:`md_text`, which backslash-escapes Markdown punctuation (``|`` included, so
+table cells stay intact), folds line breaks and shows control characters as ``\\xNN``.
+"""
+
+from __future__ import annotations
+
+from typing import IO
+
+from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
+from ..units import format_eng
+from . import RenderOptions
+from .junitreport import signed
+
+__all__ = ["render", "md_text"]
+
+# Punctuation that opens or closes inline Markdown anywhere in a line: code, emphasis,
+# links/images, raw HTML, entities, GFM strikethrough and table cells, math. CommonMark
+# §2.4 allows a backslash before any ASCII punctuation, so escaping is always safe; the
+# block markers (``#``, ``-``, ``>``...) only act at the start of a line, where user
+# text never stands in this layout.
+_SPECIAL = frozenset("\\`*_[]<>|~&$")
+
+_ORDER = {Status.FAIL: 0, Status.ERROR: 1, Status.SKIPPED: 2, Status.PASS: 3}
+
+_VERDICT = {
+    Status.PASS: "every limit is met",
+    Status.FAIL: "some limits are not met",
+    Status.ERROR: "some specs or limits could not be checked",
+}
+
+
+def md_text(value: object) -> str:
+    r"""``value`` as inline Markdown text that renders exactly as written.
+
+    Examples
+    --------
+    >>> md_text("a|b *c*")
+    'a\\|b \\*c\\*'
+    >>> md_text("two\nlines\x1b")
+    'two lines\\x1b'
+    """
+    out = []
+    for ch in str(value):
+        if ch in "\r\n":
+            out.append(" ")
+        elif ch in _SPECIAL:
+            out.append("\\" + ch)
+        elif ch == "\t":
+            out.append(" ")
+        elif ord(ch) < 0x20 or 0x7f <= ord(ch) < 0xa0:
+            out.append(f"\\x{ord(ch):02x}")
+        elif 0xd800 <= ord(ch) < 0xe000:
+            out.append(f"\\u{ord(ch):04x}")
+        else:
+            out.append(ch)
+    return "".join(out)
+
+
+def _fenced(text: str) -> list[str]:
+    """``text`` as a fenced code block whose fence no backtick run inside can close."""
+    longest = run = 0
+    for ch in text:
+        run = run + 1 if ch == "`" else 0
+        longest = max(longest, run)
+    fence = "`" * max(3, longest + 1)
+    body = "".join(f"\\x{ord(c):02x}" if ord(c) < 0x20 and c not in "\n\t" else c
+                   for c in text.rstrip("\n"))
+    return [fence + "text", body, fence]
+
+
+def _row(cells: list[str]) -> str:
+    return "| " + " | ".join(cells) + " |"
+
+
+def _limit_row(lim: LimitResult) -> str:
+    measured = "—" if lim.measured is None else format_eng(lim.measured, lim.unit)
+    margin = "—" if lim.margin is None else signed(lim.margin, lim.unit)
+    at = "—" if lim.at_hz is None else format_eng(lim.at_hz, "Hz")
+    return _row([lim.status.word, md_text(lim.name), measured, lim.bound_text, margin, at])
+
+
+def _spec_section(spec: SpecResult) -> list[str]:
+    lines = [f"### {spec.status.word}: {md_text(spec.label)}", "",
+             f"Spec {md_text(spec.spec)}, netlist {md_text(spec.netlist)}.", ""]
+    if spec.error is not None:
+        lines += ["Could not be checked:", ""] + _fenced(spec.error) + [""]
+    if spec.limits:
+        counts = {s: spec.counts[s.value] for s in Status}
+        lines.append(f"{len(spec.limits)} limit{'s' if len(spec.limits) != 1 else ''}: "
+                     f"{_tally(counts)}.")
+        lines.append("")
+        lines.append(_row(["Status", "Limit", "Measured", "Required", "Margin", "At"]))
+        lines.append("|---|---|---:|---|---:|---:|")
+        ordered = sorted(spec.limits, key=lambda lim: _ORDER[lim.status])
+        lines += [_limit_row(lim) for lim in ordered]
+        lines.append("")
+        notes = [lim for lim in ordered if lim.message and lim.status is not Status.PASS]
+        if notes:
+            lines += [f"- {lim.status.word} {md_text(lim.name)}: {md_text(lim.message)}"
+                      for lim in notes]
+            lines.append("")
+    return lines
+
+
+def _cell(found: list[LimitResult]) -> str:
+    if not found:
+        return "—"
+    parts = []
+    for lim in found:
+        margin = "" if lim.margin is None else " " + signed(lim.margin, lim.unit)
+        parts.append(lim.status.word + margin)
+    return "; ".join(parts)
+
+
+def _families(result: CheckResult) -> list[tuple[str, list[SpecResult]]]:
+    groups: dict[str, list[SpecResult]] = {}
+    for spec in result.specs:
+        groups.setdefault(spec.spec, []).append(spec)
+    out = []
+    for path, members in groups.items():
+        variants = {m.variant for m in members if m.variant is not None}
+        if len(variants) >= 2:
+            out.append((path, members))
+    return out
+
+
+def _matrix(path: str, members: list[SpecResult]) -> list[str]:
+    names: list[str] = []
+    for spec in members:
+        for lim in spec.limits:
+            if lim.name not in names:
+                names.append(lim.name)
+    lines = [f"### Family: {md_text(path)}", "",
+             _row(["Variant", "Verdict"] + [md_text(n) for n in names]),
+             "|---|---|" + "---:|" * len(names)]
+    for spec in members:
+        cells = [_cell([lim for lim in spec.limits if lim.name == n]) for n in names]
+        variant = "—" if spec.variant is None else md_text(spec.variant)
+        lines.append(_row([variant, spec.status.word] + cells))
+    return lines + [""]
+
+
+def _where(caution: Caution) -> str:
+    if not caution.path:
+        return ""
+    text = md_text(caution.path)
+    if caution.line is not None:
+        text += f":{caution.line}"
+        if caution.column is not None:
+            text += f":{caution.column}"
+    return f" at {text}"
+
+
+def _cautions(result: CheckResult) -> list[str]:
+    found: dict[Caution, list[str]] = {}
+    for caution in result.cautions:
+        found.setdefault(caution, [])
+    for spec in result.specs:
+        for caution in spec.cautions:
+            labels = found.setdefault(caution, [])
+            if spec.label not in labels:
+                labels.append(spec.label)
+    if not found:
+        return []
+    lines = ["## Cautions", ""]
+    for caution, labels in found.items():
+        text = (f"- {md_text(caution.severity.upper())} {md_text(caution.code)}"
+                f"{_where(caution)}: {md_text(caution.message)}")
+        if labels:
+            text += " (" + "; ".join(md_text(label) for label in labels) + ")"
+        lines.append(text)
+    return lines + [""]
+
+
+def _tally(counts: dict[Status, int]) -> str:
+    """``2 PASS, 1 FAIL, 0 ERROR`` (SKIP only when there is one)."""
+    shown = [Status.PASS, Status.FAIL, Status.ERROR]
+    if counts.get(Status.SKIPPED):
+        shown.append(Status.SKIPPED)
+    return ", ".join(f"{counts.get(s, 0)} {s.word}" for s in shown)
+
+
+def _headline(result: CheckResult) -> list[str]:
+    status = result.status
+    specs = len(result.specs)
+    by_spec = {s: sum(1 for spec in result.specs if spec.status is s) for s in Status}
+    by_limit = {s: result.counts[s.value] for s in Status}
+    limits = sum(by_limit.values())
+    sentence = (f"{specs} spec{'s' if specs != 1 else ''} checked: {_tally(by_spec)}. "
+                f"{limits} limit{'s' if limits != 1 else ''}: {_tally(by_limit)}.")
+    stamp = f"netcheck {md_text(result.tool_version)}"
+    if result.created_utc:
+        stamp += f", {md_text(result.created_utc)}"
+    return [f"## netcheck verdict: {status.word}, {_VERDICT.get(status, '')}", "", sentence, "",
+            f"_{stamp}_", ""]
+
+
+def render(result: CheckResult, stream: IO[str], options: RenderOptions) -> None:
+    """Write ``result`` to ``stream`` as a Markdown summary.
+
+    Parameters
+    ----------
+    result : CheckResult
+        The judged run; nothing is recomputed.
+    stream : IO[str]
+        Text stream to write to.
+    options : RenderOptions
+        Unused; accepted for the common renderer signature.
+    """
+    lines = _headline(result)
+    for path, members in _families(result):
+        lines += _matrix(path, members)
+    for spec in result.specs:
+        lines += _spec_section(spec)
+    lines += _cautions(result)
+    while lines and lines[-1] == "":
+        lines.pop()
+    stream.write("\n".join(lines) + "\n")
