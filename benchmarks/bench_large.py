@@ -140,8 +140,10 @@ def main(argv: list[str] | None = None) -> None:
     print("scaling of the traced peak with ladder length (sparse path throughout)")
     print(f"  {'sections':>8} {'n':>6} {'nnz(G+sC)':>10} {'traced peak':>13} {'bytes/nnz':>10}"
           f" {'dense n x n':>13}  engine")
-    rows = [(s, assemble(read_netlist(rc_ladder(s)[0]), "V1", rc_ladder(s)[1]))
-            for s in SCALING if s < args.sections]
+    rows = []
+    for sections in (s for s in SCALING if s < args.sections):
+        t, o = rc_ladder(sections)
+        rows.append((sections, assemble(read_netlist(t), "V1", o)))
     for sections, sysm in rows + [(args.sections, system)]:
         p, r = traced_peak(sysm, f)
         nz = (sysm.G + sysm.C).nnz

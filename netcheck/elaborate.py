@@ -136,7 +136,11 @@ class Env:
         if fld.kind == "string" and not fld.expr_text.strip():
             raise ElaborationError("empty value", fld.span, code="NC101")
         expr = parse_expression(fld.expr_text, fld.span.source, fld.span.line, fld.expr_column)
-        return evaluate(expr, self.lookup)
+        try:
+            return evaluate(expr, self.lookup)
+        except RecursionError:
+            raise ElaborationError("expression or chain of parameters is nested too deeply",
+                                   fld.span, code="NC101") from None
 
 
 class CardReader:
@@ -277,6 +281,12 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
             raise ElaborationError(f"subcircuit {sub.name.text!r} defined twice (first at "
                                    f"{first.path}:{first.line})", sub.name.span, code="NC106")
         here[key] = defs[key] = sub
+        ports: dict[str, Field] = {}
+        for port in sub.ports:
+            if port.text.lower() in ports:
+                raise ElaborationError(f"subcircuit {sub.name.text!r} lists port "
+                                       f"{port.text!r} twice", port.span, code="NC106")
+            ports[port.text.lower()] = port
 
     def node_of(fld: Field) -> str:
         low = fld.text.lower()
@@ -399,7 +409,8 @@ def _check_references(elements: tuple[Element, ...]) -> None:
             want = Inductor if e.letter == "K" else VoltageSource
             if target is None or not isinstance(target, want):
                 kind = "inductor" if want is Inductor else "voltage source"
-                found = "" if target is None else f" ({ref} is not a {kind})"
+                found = "" if target is None else (f" ({ref} is not "
+                                                   f"{'an' if want is Inductor else 'a'} {kind})")
                 raise ElaborationError(f"{e.name} refers to {kind} {ref.split('.')[-1]}, "
                                        f"which is not defined in its scope{found}", e.span,
                                        code="NC107" if e.letter != "K" else "NC114")

@@ -165,6 +165,14 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None) -> SpecRe
     for w in caught:
         if issubclass(w.category, NetcheckWarning):
             cautions.append(Caution("NC302", str(w.message), "warning"))
+    extra: list[tuple[str, object]] = []
+    envelope = (None, None)
+    if spec.table("tolerances") is not None or spec.table("analysis") is not None:
+        tol_rows, tol_block, envelope, tol_cautions = _tolerance(
+            spec, circuit, system, tuple(limits), dict(measurements))
+        limits.extend(tol_rows)
+        cautions.extend(tol_cautions)
+        extra.append(("tolerance", tol_block))
     mask = tuple(m for lim in spec.limits for m in lim.mask())
     failed_names = {r.name for r in limits if r.status is not Status.PASS}
     mask = tuple(type(m)(m.label, m.f_lo_hz, m.f_hi_hz, m.lo, m.hi, m.quantity,
@@ -177,14 +185,49 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None) -> SpecRe
                   ("unknowns", system.size), ("seeds", int(curve.seeds_hz.size)),
                   ("source", system.source), ("output", list(spec.output)),
                   ("stimulus_unit", "V" if src.letter == "V" else "A"))
-    curves = Curves(grid, response.magnitude_db, response.phase_deg, response.group_delay_s)
+    curves = Curves(grid, response.magnitude_db, response.phase_deg, response.group_delay_s,
+                    *envelope)
     status = worst_status(r.status for r in limits)
     return SpecResult(
         spec=spec.path, netlist=spec.netlist, title=spec.title or circuit.title or spec.path,
         status=status, limits=tuple(limits), measurements=measurements,
         cautions=tuple(cautions), variant=variant, inputs=inputs, sweep=sweep_info,
         curves=curves, mask=mask,
-        source_text=tuple((s.path, s.text) for s in circuit.sources) + ((spec.path, spec.text),))
+        source_text=tuple((s.path, s.text) for s in circuit.sources) + ((spec.path, spec.text),),
+        extra=tuple(extra))
+
+
+def _tolerance(spec: Spec, circuit: Circuit, system: System, nominal: tuple,
+               measurements: dict[str, float]) -> tuple[list, dict, tuple, list[Caution]]:
+    """Run the analyses the spec asks for; (result rows, JSON block, envelope, cautions)."""
+    from .tolerance import (monte_carlo, parse_analysis, parse_tolerances, toleranced_parts,
+                            worst_case)
+
+    analysis = parse_analysis(spec.table("analysis") or {}, spec.path)
+    tol = parse_tolerances(spec.table("tolerances") or {}, spec.path)
+    parts = toleranced_parts(tol, circuit, spec.path)
+    rows: list = []
+    block: dict = {"modes": list(analysis.modes), "parts": len(parts)}
+    cautions: list[Caution] = []
+    envelope: tuple = (None, None)
+    from .eseries import check_preferred
+    preferred = [(n, circuit.element(n).letter, v, t, circuit.element(n).span)
+                 for n, v, t in parts if circuit.element(n).letter in "RLC" and t <= 0.2]
+    for d in check_preferred(preferred):
+        cautions.append(_diag_caution(d))
+    if not parts and set(analysis.modes) - {"nominal"}:
+        cautions.append(Caution("NC202", "tolerance analysis asked for, but no part has a "
+                                "tolerance ([tolerances] default/parts)", "warning", spec.path))
+        return rows, block, envelope, cautions
+    if "monte_carlo" in analysis.modes:
+        mc, mc_rows, envelope = monte_carlo(system, spec, parts, tol, analysis)
+        block["monte_carlo"] = mc
+        rows.extend(mc_rows)
+    if "worst_case" in analysis.modes:
+        wc, wc_rows = worst_case(system, spec, parts, nominal, measurements, analysis)
+        block["worst_case"] = wc
+        rows.extend(wc_rows)
+    return rows, block, envelope, cautions
 
 
 def _measurements(probe: SpecProbe) -> tuple[tuple[str, float], ...]:

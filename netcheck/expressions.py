@@ -68,7 +68,7 @@ FUNCTIONS: dict[str, tuple[int, int, Callable[..., float]]] = {
     "sqrt": (1, 1, math.sqrt), "exp": (1, 1, math.exp), "log": (1, 1, math.log),
     "log10": (1, 1, math.log10), "sin": (1, 1, math.sin), "cos": (1, 1, math.cos),
     "tan": (1, 1, math.tan), "atan": (1, 1, math.atan), "abs": (1, 1, abs),
-    "min": (1, 64, min), "max": (1, 64, max),
+    "min": (1, 64, lambda *a: min(a)), "max": (1, 64, lambda *a: max(a)),
 }
 CONSTANTS: dict[str, float] = {"pi": math.pi}
 
@@ -169,7 +169,16 @@ def parse_expression(text: str, source: SourceFile, line: int, column: int) -> E
     except VisitError as err:
         if isinstance(err.orig_exc, NetlistSyntaxError):
             raise err.orig_exc from None
+        if isinstance(err.orig_exc, RecursionError):
+            raise _too_deep(source, line, column) from None
         raise
+    except RecursionError:
+        raise _too_deep(source, line, column) from None
+
+
+def _too_deep(source: SourceFile, line: int, column: int) -> NetlistSyntaxError:
+    return NetlistSyntaxError("expression is nested too deeply; split it with .param",
+                              source.span(line, column), code="NC101")
 
 
 def evaluate(expr: Expr, lookup: Callable[[Name], float]) -> float:

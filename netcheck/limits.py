@@ -9,13 +9,18 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any, ClassVar, Protocol
+from typing import TYPE_CHECKING, Any, ClassVar, Protocol
+
+import numpy as np
 
 from .measure import (HALF_POWER_DB, Curve, Extremum, MeasurementFailure, Resonance,
                       band_extremes, corner, ripple)
 from .result import LimitResult, MaskBand, Status
 from .spec import SpecReader, Sweep
 from .units import format_eng, format_si
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .sampling import BatchProbe
 
 __all__ = ["Limit", "LIMITS", "register", "build_limit", "Probe", "judge_range"]
 
@@ -72,6 +77,26 @@ def judge_range(name: str, kind: str, lo: float | None, hi: float | None, vmin: 
                        deciding.frequency_hz, definition, method, "", index, line)
 
 
+def range_margin(lo: float | None, hi: float | None, vmin: np.ndarray, vmax: np.ndarray
+                 ) -> tuple[np.ndarray, np.ndarray]:
+    """Vectorised :func:`judge_range`: per-sample deciding value and margin (NaN → −inf)."""
+    margins, values = [], []
+    if lo is not None:
+        margins.append(vmin - lo)
+        values.append(vmin)
+    if hi is not None:
+        margins.append(hi - vmax)
+        values.append(vmax)
+    m = np.stack(margins)
+    m = np.where(np.isnan(m), -np.inf, m)
+    k = np.argmin(m, axis=0)
+    cols = np.arange(m.shape[1])
+    return np.stack(values)[k, cols], m[k, cols]
+
+
+Rows = list[tuple[str, np.ndarray, np.ndarray]]
+
+
 @dataclass(frozen=True, slots=True)
 class Limit:
     """Base of all limit kinds: ``name``, position in the spec, and the judging contract."""
@@ -99,6 +124,10 @@ class Limit:
     def mask(self) -> tuple[MaskBand, ...]:
         """Regions this limit draws on the gain plot (empty if none)."""
         return ()
+
+    def judge_batch(self, bp: "BatchProbe") -> Rows:
+        """Per-sample (name, measured, margin) rows, named as :meth:`judge` names them."""
+        raise NotImplementedError
 
     def error(self, message: str, unit: str = "", sub: str = "") -> LimitResult:
         """A LimitResult for a measurement that could not be made."""
@@ -158,6 +187,13 @@ class GainLimit(Limit):
             "grid samples and pole/zero seeds refined by Brent's method on the exact derivative",
             self.index, self.line),)
 
+    def judge_batch(self, bp):
+        vmin, vmax = bp.band_extremes("gain_db", *self.band)
+        off = bp.peak().value if self.reference == "peak" else 0.0
+        measured, margin = range_margin(self.min_db, self.max_db, vmin.value - off,
+                                        vmax.value - off)
+        return [(self.name, measured, margin)]
+
     def mask(self):
         return (MaskBand(self.name, self.band[0], self.band[1], self.min_db, self.max_db,
                          "gain_db" if self.reference == "absolute" else "gain_re_peak_db"),)
@@ -197,6 +233,14 @@ class RippleLimit(Limit):
                             f"min {format_eng(vmin.value, 'dB')} at {format_si(vmin.frequency_hz, 'Hz')})",
                             "true band extremes (Brent's method on the exact response)",
                             "", self.index, self.line),)
+
+
+def _ripple_batch(self, bp):
+    value = bp.ripple(*self.band)
+    return [(self.name, value, self.max_db - value)]
+
+
+RippleLimit.judge_batch = _ripple_batch
 
 
 @register
@@ -270,6 +314,21 @@ class ResonanceLimit(Limit):
             out.append(r)
         return tuple(out)
 
+    def judge_batch(self, bp):
+        res = bp.resonance(self.level_db, self.band)
+        rows = []
+        if self.center is not None:
+            fc = res["f_center_hz"]
+            margin = self.center_tolerance - np.abs(fc - self.center)
+            rows.append((f"{self.name}: centre", fc, np.where(np.isnan(margin), -np.inf, margin)))
+        if self.bandwidth is not None:
+            bw = res["bandwidth_hz"]
+            rows.append((f"{self.name}: bandwidth", *range_margin(*self.bandwidth, bw, bw)))
+        if self.q is not None:
+            q = res["q"]
+            rows.append((f"{self.name}: Q", *range_margin(*self.q, q, q)))
+        return rows
+
     def _parts(self):
         parts = []
         if self.center is not None:
@@ -322,6 +381,14 @@ class CornerLimit(Limit):
                             "Brent's method on the exact response", self.index, self.line),)
 
 
+def _corner_batch(self, bp):
+    f = bp.corner(self.level_db, self.reference_db, self.side)
+    return [(self.name, *range_margin(self.range[0], self.range[1], f, f))]
+
+
+CornerLimit.judge_batch = _corner_batch
+
+
 @register
 @dataclass(frozen=True, slots=True)
 class GroupDelayLimit(Limit):
@@ -368,6 +435,20 @@ class GroupDelayLimit(Limit):
         return tuple(out)
 
 
+def _group_delay_batch(self, bp):
+    vmin, vmax = bp.band_extremes("group_delay_s", *self.band)
+    rows = []
+    if self.max is not None or self.min is not None:
+        rows.append((self.name, *range_margin(self.min, self.max, vmin.value, vmax.value)))
+    if self.max_variation is not None:
+        var = vmax.value - vmin.value
+        rows.append((f"{self.name}: variation", var, self.max_variation - var))
+    return rows
+
+
+GroupDelayLimit.judge_batch = _group_delay_batch
+
+
 @register
 @dataclass(frozen=True, slots=True)
 class PhaseLimit(Limit):
@@ -396,6 +477,15 @@ class PhaseLimit(Limit):
                             vmax, "deg", f"phase over {_band_text(self.band)}, unwrapped "
                             "continuously from the start of the sweep",
                             "true band extremes (bounded minimisation)", self.index, self.line),)
+
+
+def _phase_batch(self, bp):
+    vmin, vmax = bp.band_extremes("phase_deg", *self.band)
+    return [(self.name, *range_margin(self.range_deg[0], self.range_deg[1], vmin.value,
+                                      vmax.value))]
+
+
+PhaseLimit.judge_batch = _phase_batch
 
 
 @register
@@ -429,19 +519,31 @@ class ImpedanceLimit(Limit):
                             "input impedance", self.index, self.line),)
 
 
+def _impedance_batch(self, bp):
+    zmin, zmax = bp.band_extremes("impedance_db", *self.band)
+    return [(self.name, *range_margin(self.range[0], self.range[1],
+                                      10.0 ** (zmin.value / 20.0), 10.0 ** (zmax.value / 20.0)))]
+
+
+ImpedanceLimit.judge_batch = _impedance_batch
+
+
 def build_limit(table: Any, index: int, path: str, sweep: Sweep, line: int | None) -> Limit:
     """Validate one ``[[limits]]`` table and build its Limit."""
     where = f"limits[{index}]"
     if not isinstance(table, dict):
         SpecReader({}, where, path, {}).fail("", "expected a table")
     kind = table.get("kind")
-    if kind not in LIMITS:
+    kinds = ", ".join(sorted(LIMITS))
+    if kind is None:
+        SpecReader({}, where, path, {}).fail("kind", f"missing (required): one of {kinds}")
+    if not isinstance(kind, str) or kind not in LIMITS:
         import difflib
         close = difflib.get_close_matches(str(kind), list(LIMITS), n=1)
         hint = f"; did you mean {close[0]!r}?" if close else ""
         SpecReader({}, where, path, {}).fail(
-            "kind", f"unknown limit kind {kind!r}{hint} (kinds: {', '.join(sorted(LIMITS))})",
-            code="NC201" if kind is not None else "NC202")
+            "kind", f"unknown limit kind {kind!r}{hint} (kinds: {kinds})",
+            code="NC201" if isinstance(kind, str) else "NC202")
     cls = LIMITS[kind]
     rd = SpecReader(table, where, path, {"kind": "", "name": "", **cls.KEYS})
     name = rd.text("name")

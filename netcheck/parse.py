@@ -160,6 +160,9 @@ def parse_statements(source: SourceFile, has_title: bool = True) -> tuple[str, t
         span = _span(source, node.meta)
         if node.data == "directive":
             out.append(Directive(str(head)[1:].lower(), items, span))
+        elif str(head).startswith("+"):
+            raise NetlistSyntaxError("a continuation line ('+') has no card to continue",
+                                     _token_span(source, head))
         else:
             out.append(Card(Field("word", str(head), _token_span(source, head)), items, span))
     return title, tuple(out)
@@ -196,9 +199,9 @@ def _syntax_error(source: SourceFile, text: str, err: UnexpectedInput) -> Netlis
 def _read(path: Path, shown: str) -> SourceFile:
     try:
         return SourceFile(shown, path.read_bytes().decode("utf-8", errors="replace"))
-    except OSError as err:
-        raise NetlistSyntaxError(f"cannot read netlist: {err.strerror or err}", path=shown,
-                                 code="NC104") from None
+    except (OSError, ValueError) as err:  # ValueError: a NUL byte in the path
+        raise NetlistSyntaxError(f"cannot read netlist: {getattr(err, 'strerror', None) or err}",
+                                 path=shown, code="NC104") from None
 
 
 def load_netlist(path_or_text: str | Path, root: str | Path | None = None) -> Netlist:
@@ -293,6 +296,7 @@ def _group(stmts: list[Statement], diags: list[Diagnostic]) -> Scope:
             if len(stack) == 1:
                 raise NetlistSyntaxError(".ends without a matching .subckt", st.span)
             head, cards, params, subs = stack.pop()
+            _check_ends(head, st)
             stack[-1][3].append(_subckt(head, Scope(tuple(cards), tuple(params), tuple(subs))))
         elif st.name not in QUIET_DIRECTIVES:
             diags.append(Diagnostic("NC150", f"unknown directive .{st.name} ignored", st.span))
@@ -301,6 +305,16 @@ def _group(stmts: list[Statement], diags: list[Diagnostic]) -> Scope:
         raise NetlistSyntaxError(".subckt has no matching .ends", head.span)
     _, cards, params, subs = stack[0]
     return Scope(tuple(cards), tuple(params), tuple(subs))
+
+
+def _check_ends(head: Directive, ends: Directive) -> None:
+    """``.ends NAME`` must name the ``.subckt`` it closes (a bare ``.ends`` closes any)."""
+    if not ends.fields or not head.fields:
+        return
+    got, want = ends.fields[0], head.fields[0]
+    if isinstance(got, Field) and isinstance(want, Field) and got.text.lower() != want.text.lower():
+        raise NetlistSyntaxError(f".ends {got.text} closes .subckt {want.text} (opened at line "
+                                 f"{head.span.line}); check the nesting", got.span)
 
 
 def _subckt(head: Directive, body: Scope) -> SubcktDef:

@@ -30,10 +30,14 @@ class SourceFile:
         return cls(str(path), data.decode("utf-8", errors="replace"))
 
     def line_text(self, line: int) -> str:
-        """Return line ``line`` (1-based) without its newline, or ``""``."""
-        lines = self.text.splitlines()
+        """Return line ``line`` (1-based) without its newline, or ``""``.
+
+        Lines end at ``\\n`` only, as the parser counts them (a form feed or a
+        Unicode line separator inside a line does not start a new one).
+        """
+        lines = self.text.split("\n")
         if 1 <= line <= len(lines):
-            return lines[line - 1]
+            return lines[line - 1].removesuffix("\r")
         return ""
 
     def span(self, line: int, column: int, end_column: int | None = None) -> "Span":

@@ -15,7 +15,7 @@ from .exceptions import SpecError
 from .source import SourceFile
 from .units import UnitError, parse_value
 
-__all__ = ["Sweep", "Spec", "load_spec", "parse_spec", "SpecReader", "TOP_KEYS"]
+__all__ = ["Sweep", "Spec", "load_spec", "parse_spec", "SpecReader", "TOP_KEYS", "locate"]
 
 #: Top-level keys of a spec and what they hold (for docs, did-you-mean and the loader).
 TOP_KEYS: dict[str, str] = {
@@ -134,10 +134,12 @@ class SpecReader:
                     self.fail(key, "missing (required)")
                 return default
             value = self.table[key]
+        what = label or key
         try:
-            out = parse_value(value, label or key)
+            out = parse_value(value, what)
         except UnitError as err:
-            self.fail(key, str(err))
+            msg = str(err)
+            self.fail(key, msg[len(what) + 2:] if msg.startswith(f"{what}: ") else msg)
         if positive and out <= 0:
             self.fail(key, f"must be > 0, got {value!r}")
         return out
@@ -159,12 +161,13 @@ class SpecReader:
                 pct = float(value.strip()[:-1])
             except ValueError:
                 self.fail(key, f"{value!r} is not a percentage")
-            if pct < 0:
-                self.fail(key, "must not be negative")
+            if not math.isfinite(pct) or pct <= 0:
+                self.fail(key, f"must be > 0, got {value!r}")
             return abs(reference) * pct / 100.0
         return self.number(key, positive=True)
 
-    def bounds(self, key: str, positive: bool = False, required: bool = False
+    def bounds(self, key: str, positive: bool = False, required: bool = False,
+               ends: tuple[str, str] = ("min", "max")
                ) -> tuple[float | None, float | None] | None:
         """``[min, max]`` or ``{min = .., max = ..}`` (either side may be open in table form)."""
         if key not in self.table:
@@ -183,17 +186,17 @@ class SpecReader:
             lo_raw, hi_raw = value.get("min"), value.get("max")
         else:
             self.fail(key, f"expected [min, max] or {{min = ..., max = ...}}, got {value!r}")
-        lo = None if lo_raw is None else self.number(key, value=lo_raw, label=f"{key} min")
-        hi = None if hi_raw is None else self.number(key, value=hi_raw, label=f"{key} max")
+        lo = None if lo_raw is None else self.number(key, value=lo_raw, label=ends[0])
+        hi = None if hi_raw is None else self.number(key, value=hi_raw, label=ends[1])
         if positive and any(v is not None and v <= 0 for v in (lo, hi)):
             self.fail(key, "values must be > 0")
         if lo is not None and hi is not None and lo > hi:
-            self.fail(key, f"start {_show(lo_raw)} is above stop {_show(hi_raw)}")
+            self.fail(key, f"{ends[0]} {_show(lo_raw)} is above {ends[1]} {_show(hi_raw)}")
         return lo, hi
 
     def band(self, key: str, sweep: Sweep, required: bool = True) -> tuple[float, float] | None:
         """A frequency band ``[lo, hi]`` that must lie inside the sweep."""
-        b = self.bounds(key, positive=True, required=required)
+        b = self.bounds(key, positive=True, required=required, ends=("start", "stop"))
         if b is None:
             return None
         lo, hi = b
@@ -216,10 +219,71 @@ class SpecReader:
 
 
 def _show(v: Any) -> str:
+    """A value as the user would write it: strings as given, numbers as ``50k``, ``2.5``."""
     if isinstance(v, str):
         return v
     from .units import format_si
-    return format_si(float(v), "", 6).strip()
+    num, _, prefix = format_si(float(v), "", 6).partition(" ")
+    if "." in num:
+        num = num.rstrip("0").rstrip(".")
+    return num + ("meg" if prefix == "M" else "u" if prefix == "µ" else prefix)
+
+
+def _key_position(text: str, where: str) -> tuple[int, int, int] | None:
+    """(line, column, width) of the key at ``where`` (``limits[3].band``, ``sweep.start``...).
+
+    A key that is not written (a missing one) points at the header of its table, and
+    a table-level path (``limits[3]``) at the table header; a missing top-level key at
+    the first line. None when the path cannot be found in ``text``.
+    """
+    head, _, key = where.partition(".")
+    if head.startswith("limits[") and head.endswith("]") and head[7:-1].isdigit():
+        table: tuple[str, int] = ("limits", int(head[7:-1]))
+    elif key and head in TOP_KEYS:
+        table = (head, 0)
+    elif where in ("", "(top level)"):
+        return (1, 1, 1)
+    else:
+        table, key = ("", 0), head
+    section: tuple[str, int] = ("", 0)
+    arrays: dict[str, int] = {}
+    header = None
+    for number, line in enumerate(text.splitlines(), 1):
+        stripped = line.strip()
+        column = len(line) - len(line.lstrip()) + 1
+        if stripped.startswith("["):
+            double = stripped.startswith("[[")
+            name = stripped.strip("[").split("]")[0].strip()
+            if double:
+                arrays[name] = arrays.get(name, -1) + 1
+            section = (name, arrays[name] if double else 0)
+            if section == table:
+                header = (number, column, len(stripped.split("]")[0]) + (2 if double else 1))
+            continue
+        name = stripped.split("=")[0].strip().strip("\"'")
+        if section == table and "=" in stripped and name == key:
+            return (number, column, len(key))
+        if section == ("", 0) and table != ("", 0) and name == table[0] and "=" in stripped:
+            return (number, column, len(name))   # an inline table or array at the top
+    if header is not None:
+        return header
+    return (1, 1, 1) if table == ("", 0) else None
+
+
+def locate(err: SpecError, text: str) -> SpecError:
+    """``err`` with a span at the key its ``where`` names (unchanged if it has a span).
+
+    The message keeps its key path, so the span replaces the path-style location and
+    the error reads ``spec.toml:12:1: error NC202: limits[3].band: ...``.
+    """
+    if err.span is not None or not err.where or not err.path:
+        return err
+    pos = _key_position(text, err.where)
+    if pos is None:
+        return err
+    line, column, width = pos
+    span = SourceFile(err.path, text).span(line, column, column + width)
+    return SpecError(err.message, span, code=err.code, where=err.where, path=err.path)
 
 
 def _toml_error(path: str, text: str, err: tomllib.TOMLDecodeError) -> SpecError:
@@ -259,6 +323,14 @@ def parse_spec(text: str, path: str = "<spec>") -> Spec:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
         raise _toml_error(path, text, err) from None
+    try:
+        return _build(doc, text, path, build_limit)
+    except SpecError as err:
+        raise locate(err, text) from None
+
+
+def _build(doc: dict, text: str, path: str, build_limit: Any) -> Spec:
+    """The Spec of a decoded TOML document (errors carry key paths, not yet spans)."""
     top = SpecReader(doc, "", path, TOP_KEYS)
     base = Path(path).parent
     netlist = top.text("netlist", required=True)

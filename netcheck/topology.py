@@ -108,7 +108,8 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
             culprit = next(e for e in two_terminal if e.current_defined
                            and set(e.terminals) & set(group))
             raise ElaborationError(
-                f"node{'s' if len(group) > 1 else ''} {_names(group)} connect to the rest only "
+                f"node{'s' if len(group) > 1 else ''} {_names(group)} "
+                f"connect{'' if len(group) > 1 else 's'} to the rest only "
                 f"through current sources (a cut-set of current sources, e.g. {culprit.name}); "
                 "their voltage is undetermined", culprit.span, code="NC113")
 

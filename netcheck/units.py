@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import math
-from decimal import Decimal
+from decimal import Decimal, DecimalException
 
 __all__ = ["SCALE", "parse_quantity", "parse_value", "format_eng", "format_si", "UnitError"]
 
@@ -46,7 +46,16 @@ def _scan_mantissa(text: str) -> int:
 
 def _scaled(digits: str, exponent: int) -> float:
     """``digits`` × 10**exponent, rounded once (so ``10u`` is exactly ``1e-05``)."""
-    return float(Decimal(digits).scaleb(exponent))
+    try:
+        return float(Decimal(digits).scaleb(exponent))
+    except DecimalException:  # exponent beyond Decimal's range: far outside float's too
+        return math.inf
+
+
+def _finite(value: float, text: str) -> float:
+    if not math.isfinite(value):
+        raise UnitError(f"{text!r} is too large to be a value")
+    return value
 
 
 def _scale_of(letters: str) -> tuple[int | None, int]:
@@ -99,7 +108,7 @@ def parse_quantity(text: str) -> float:
     mantissa, rest = s[:n], s[n:]
     value = float(mantissa)
     if not rest:
-        return value
+        return _finite(value, text)
     if not (rest[0].isalpha() or rest[0] == "µ"):
         raise UnitError(f"unexpected {rest[0]!r} after the number in {text!r}")
     # IEC 60062 letter-and-digit code: <digits><letter><digits>[unit]
@@ -108,19 +117,19 @@ def parse_quantity(text: str) -> float:
     while k < len(rest) and rest[k] in _DIGITS:
         k += 1
     if k > 1:
-        return _rkm(text, mantissa, letter, rest[1:k], rest[k:])
+        return _finite(_rkm(text, mantissa, letter, rest[1:k], rest[k:]), text)
     exponent, used = _scale_of(rest)
     tail = rest[used:]
     if any(not (ch.isalpha() or ch == "µ") for ch in tail):
         raise UnitError(f"unexpected characters {tail!r} in {text!r}")
     if exponent is None:
-        return value * 25.4e-6
-    return _scaled(mantissa, exponent)
+        return _finite(value * 25.4e-6, text)
+    return _finite(_scaled(mantissa, exponent), text)
 
 
 def _rkm(text: str, mantissa: str, letter: str, decimals: str, unit: str) -> float:
     """Value of an IEC 60062 code such as ``4k7`` (mantissa, letter, decimals)."""
-    if not mantissa.isdigit():
+    if not mantissa.lstrip("+-").isdigit():
         raise UnitError(f"{text!r} mixes a decimal point or exponent with the "
                         f"letter-and-digit code; write {mantissa}{letter} or use one form")
     low = letter.lower()

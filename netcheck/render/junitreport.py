@@ -148,8 +148,8 @@ def _suite(root: ET.Element, spec: SpecResult, result: CheckResult) -> dict[str,
 
     if spec.error is not None:
         case = _sub(suite, "testcase", classname=f"{spec.spec}.spec", name="spec")
-        first = spec.error.splitlines()[0] if spec.error.strip() else "the spec could not be checked"
-        err = _sub(case, "error", message=first)
+        lines = spec.error.strip().splitlines()
+        err = _sub(case, "error", message=lines[0] if lines else "the spec could not be checked")
         err.text = xml_text(spec.error)
     for lim in spec.limits:
         _testcase(suite, f"{spec.spec}.{lim.kind}", lim)

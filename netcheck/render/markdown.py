@@ -6,9 +6,11 @@ Layout (GitHub-flavoured Markdown tables; every status is a word, never a colour
 2. for each family (several specs sharing a spec file, told apart by ``variant``) a matrix
    of variants × limit names whose cells read ``PASS +0.420 dB``;
 3. for each spec a ``###`` section: an error block when it could not be checked, and a
-   table (status, limit, measured, required, margin, at) with failed limits first, then
-   errors, skipped and passed ones, then notes for limits that carry a message;
-4. the cautions, each written once, with the specs they came from.
+   table (status, limit, measured, required, margin, at), most severe first (errors,
+   failures, skipped, passed; spec order within each), then notes for limits that carry
+   a message;
+4. the cautions, each written once, naming the specs they came from unless every spec
+   has it; the safety caution (code ``safety``) closes the summary as a quoted paragraph.
 
 Text that comes from the user's files (titles, names, paths, messages) goes through
 :func:`md_text`, which backslash-escapes Markdown punctuation (``|`` included, so
@@ -32,8 +34,6 @@ __all__ = ["render", "md_text"]
 # block markers (``#``, ``-``, ``>``...) only act at the start of a line, where user
 # text never stands in this layout.
 _SPECIAL = frozenset("\\`*_[]<>|~&$")
-
-_ORDER = {Status.FAIL: 0, Status.ERROR: 1, Status.SKIPPED: 2, Status.PASS: 3}
 
 _VERDICT = {
     Status.PASS: "every limit is met",
@@ -104,7 +104,7 @@ def _spec_section(spec: SpecResult) -> list[str]:
         lines.append("")
         lines.append(_row(["Status", "Limit", "Measured", "Required", "Margin", "At"]))
         lines.append("|---|---|---:|---|---:|---:|")
-        ordered = sorted(spec.limits, key=lambda lim: _ORDER[lim.status])
+        ordered = sorted(spec.limits, key=lambda lim: (-lim.status.rank, lim.index))
         lines += [_limit_row(lim) for lim in ordered]
         lines.append("")
         notes = [lim for lim in ordered if lim.message and lim.status is not Status.PASS]
@@ -173,16 +173,22 @@ def _cautions(result: CheckResult) -> list[str]:
             labels = found.setdefault(caution, [])
             if spec.label not in labels:
                 labels.append(spec.label)
-    if not found:
-        return []
-    lines = ["## Cautions", ""]
+    everyone = {spec.label for spec in result.specs}
+    items, safety = [], []
     for caution, labels in found.items():
+        if caution.code == "safety":
+            if caution.message not in safety:
+                safety.append(caution.message)
+            continue
         text = (f"- {md_text(caution.severity.upper())} {md_text(caution.code)}"
                 f"{_where(caution)}: {md_text(caution.message)}")
-        if labels:
+        if labels and set(labels) != everyone:
             text += " (" + "; ".join(md_text(label) for label in labels) + ")"
-        lines.append(text)
-    return lines + [""]
+        items.append(text)
+    lines = ["## Cautions", ""] + items + [""] if items else []
+    for message in safety:
+        lines += [f"> Caution: {md_text(message)}", ""]
+    return lines
 
 
 def _tally(counts: dict[Status, int]) -> str:

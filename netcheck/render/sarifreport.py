@@ -8,15 +8,21 @@ One run, tool ``netcheck``. Results, in the order of the CheckResult:
   be made), located the same way;
 * a spec that could not be checked at all (``SpecResult.error``) → level ``error``, rule
   ``spec/unchecked``, located at the spec file;
-* a caution → rule = its code (``NC151``...), level from its severity (``error``,
-  ``warning``, anything else ``note``), located at its own path/line/column (the netlist,
-  for lint warnings), else at the spec file; run-wide cautions without a path carry no
-  location. Identical caution results (the same netlist warning seen by several
-  variants) are written once.
+* a caution with a source position → rule = its code (``NC151``...), level from its
+  severity (``error``, ``warning``, anything else ``note``), located at its own
+  path/line/column (the netlist, for lint warnings);
+* a spec's caution without a position and of severity ``error`` or ``warning`` (such as
+  numerical trouble) → the same, located at the spec file.
+
+Other cautions without a position (the safety caution, notes, run-wide remarks) are
+not findings about a place: they go once each, in order, into the run's property bag
+as ``properties.cautions``, so code-scanning views are not flooded with them. Identical
+caution results (the same netlist warning seen by several variants) are written once.
 
 Passing and skipped limits produce no result. ``tool.driver.rules`` lists exactly the
 rule ids used, sorted, and each result refers to its rule by ``ruleIndex``. Relative
-paths become relative URIs with ``uriBaseId`` ``%SRCROOT%``; absolute ones ``file:`` URIs.
+paths become relative URIs (normalised: ``specs/../x.cir`` → ``x.cir``) with ``uriBaseId``
+``%SRCROOT%``; absolute ones ``file:`` URIs.
 Message texts show control characters as visible ``\\xNN`` escapes (the same
 :func:`~netcheck.render.junitreport.xml_text` the JUnit renderer uses), so a title
 carrying terminal colour codes cannot restyle a viewer. JSON keys are sorted so the
@@ -26,6 +32,7 @@ output is byte-for-byte reproducible.
 from __future__ import annotations
 
 import json
+import posixpath
 from typing import IO, Any
 from urllib.parse import quote
 
@@ -54,9 +61,7 @@ def _artifact(path: str) -> dict[str, str]:
         return {"uri": "file://" + quote(posix, safe="/")}
     if len(posix) > 2 and posix[1] == ":" and posix[2] == "/" and posix[0].isalpha():
         return {"uri": "file:///" + posix[:2] + quote(posix[2:], safe="/")}
-    while posix.startswith("./"):
-        posix = posix[2:]
-    return {"uri": quote(posix, safe="/"), "uriBaseId": SRCROOT}
+    return {"uri": quote(posixpath.normpath(posix), safe="/"), "uriBaseId": SRCROOT}
 
 
 def _location(path: str, line: int | None = None, column: int | None = None) -> dict[str, Any]:
@@ -109,14 +114,17 @@ def _unchecked_result(spec: SpecResult) -> dict[str, Any]:
     }
 
 
-def _caution_result(caution: Caution, fallback_path: str | None) -> dict[str, Any]:
-    out: dict[str, Any] = {"ruleId": caution.code, "level": _level(caution.severity),
-                           "message": {"text": xml_text(caution.message)}}
+def _caution_result(caution: Caution, fallback_path: str | None) -> dict[str, Any] | None:
+    """A result for a located caution, or None when it belongs in the run's properties."""
+    level = _level(caution.severity)
     if caution.path:
-        out["locations"] = [_location(caution.path, caution.line, caution.column)]
-    elif fallback_path:
-        out["locations"] = [_location(fallback_path)]
-    return out
+        location = _location(caution.path, caution.line, caution.column)
+    elif fallback_path and level != "note":
+        location = _location(fallback_path)
+    else:
+        return None
+    return {"ruleId": caution.code, "level": level,
+            "message": {"text": xml_text(caution.message)}, "locations": [location]}
 
 
 def _rule(rule_id: str, level: str) -> dict[str, Any]:
@@ -137,8 +145,16 @@ def build_log(result: CheckResult) -> dict[str, Any]:
     """The SARIF log for ``result`` as plain JSON-ready data."""
     results: list[dict[str, Any]] = []
     seen: set[str] = set()
+    remarks: list[dict[str, str]] = []
 
-    def add_caution(entry: dict[str, Any]) -> None:
+    def add_caution(caution: Caution, fallback_path: str | None) -> None:
+        entry = _caution_result(caution, fallback_path)
+        if entry is None:
+            remark = {"code": caution.code, "severity": caution.severity,
+                      "message": xml_text(caution.message)}
+            if remark not in remarks:
+                remarks.append(remark)
+            return
         key = json.dumps(entry, sort_keys=True)
         if key not in seen:
             seen.add(key)
@@ -151,9 +167,9 @@ def build_log(result: CheckResult) -> dict[str, Any]:
             if lim.status in (Status.FAIL, Status.ERROR):
                 results.append(_limit_result(spec, lim))
         for caution in spec.cautions:
-            add_caution(_caution_result(caution, spec.spec))
+            add_caution(caution, spec.spec)
     for caution in result.cautions:
-        add_caution(_caution_result(caution, None))
+        add_caution(caution, None)
 
     levels: dict[str, str] = {}
     for entry in results:
@@ -167,8 +183,13 @@ def build_log(result: CheckResult) -> dict[str, Any]:
               "rules": [_rule(r, levels[r]) for r in rule_ids]}
     run: dict[str, Any] = {"tool": {"driver": driver}, "columnKind": "unicodeCodePoints",
                            "results": results}
+    properties: dict[str, Any] = {}
     if result.created_utc:
-        run["properties"] = {"createdUtc": result.created_utc}
+        properties["createdUtc"] = result.created_utc
+    if remarks:
+        properties["cautions"] = remarks
+    if properties:
+        run["properties"] = properties
     return {"$schema": SARIF_SCHEMA, "version": "2.1.0", "runs": [run]}
 
 

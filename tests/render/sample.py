@@ -15,7 +15,8 @@ from pathlib import Path
 
 import pytest
 
-from netcheck.result import CheckResult, Caution, LimitResult, SpecResult, Status
+from netcheck.result import (SAFETY_CAUTION, CheckResult, Caution, LimitResult, SpecResult,
+                             Status)
 
 GOLD = Path(__file__).resolve().parent / "gold"
 DATA = Path(__file__).resolve().parents[1] / "data"
@@ -35,8 +36,14 @@ LINT_NODE = Caution("NC152", "node 'tap' has one connection", "warning", NOTCH_N
 LINT_SERIES = Caution("NC154", "R7 = 4.75k is off the E24 series", "warning", RX_NET, 22, 1)
 NO_POSITION = Caution("NC302", "matrix badly conditioned near 38.0 kHz; result kept",
                       "warning")
-SAFETY = Caution("safety", "Analysis of a model, not a measurement: verify prototypes.",
-                 "note")
+#: As evaluate() attaches it to every spec it could check.
+SAFETY = Caution("safety", SAFETY_CAUTION, "caution")
+#: As error_result() attaches the error that stopped a spec.
+SINGULAR = Caution("NC300", "singular circuit: node 'n3' has no path to ground at DC",
+                   "error", LP_NET, 7, 1)
+#: A run-wide caution (not tied to one spec), with a position in a shared library.
+LIBRARY = Caution("NC150", "unknown directive .temp ignored", "warning",
+                  "sample_netlists/lib/quillmere_opamps.lib", 3, 1)
 
 
 def _notch(variant: str, nominal: float, f0: float, depth: float,
@@ -59,7 +66,7 @@ def _notch(variant: str, nominal: float, f0: float, depth: float,
     status = Status.FAIL if depth_status is Status.FAIL else Status.PASS
     return SpecResult(spec=NOTCH_SPEC, netlist=NOTCH_NET,
                       title="Quillmere Instruments mains hum notch", status=status,
-                      limits=limits, cautions=(LINT_NODE,), variant=variant)
+                      limits=limits, cautions=(SAFETY, LINT_NODE), variant=variant)
 
 
 def _rx() -> SpecResult:
@@ -81,7 +88,7 @@ def _rx() -> SpecResult:
     )
     return SpecResult(spec=RX_SPEC, netlist=RX_NET, title=HOSTILE_TITLE,
                       status=Status.ERROR, limits=limits,
-                      cautions=(LINT_SERIES, NO_POSITION))
+                      cautions=(SAFETY, LINT_SERIES, NO_POSITION))
 
 
 def _lowpass() -> SpecResult:
@@ -89,7 +96,7 @@ def _lowpass() -> SpecResult:
              "node 'n3' has no path to ground at DC\n    C3 n3 n4 ``1n``\n    ^")
     return SpecResult(spec=LP_SPEC, netlist=LP_NET,
                       title="Quillmere Instruments anti-alias low-pass",
-                      status=Status.ERROR, error=error)
+                      status=Status.ERROR, error=error, cautions=(SINGULAR,))
 
 
 def sample_result(created_utc: str = "2026-03-14T09:26:53Z") -> CheckResult:
@@ -104,7 +111,7 @@ def sample_result(created_utc: str = "2026-03-14T09:26:53Z") -> CheckResult:
         ),
         tool_version="0.1.0",
         created_utc=created_utc,
-        cautions=(SAFETY,),
+        cautions=(LIBRARY,),
     )
 
 

@@ -1,0 +1,540 @@
+"""Plots for the PDF report: matplotlib ``Figure`` objects rendered to deterministic inline SVG.
+
+matplotlib is imported inside the drawing functions only (never pyplot), so importing
+this module costs nothing. The plots hold no text taken from input files: mask bands
+and failure points carry short tags (``M1``, ``F1``) that the report explains in an
+escaped HTML key below each figure.
+
+The palette is colour-blind safe and reads in greyscale: the response is near-black,
+allowed regions a pale tint without hatching, forbidden regions a sand tint with
+diagonal hatching (cross-hatched and darker where the limit failed), and every
+failure is also spelled out in words (``FAIL``) next to its marker.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from ..result import LimitResult, MaskBand, SpecResult, Status
+from ..units import format_eng, format_si
+
+__all__ = ["PALETTE", "Tag", "Plot", "tags_for", "zoom_window", "spec_plots", "FIG_WIDTH_IN"]
+
+#: Named colours of the report (plots and CSS share them; see report.css).
+PALETTE = {
+    "ink": "#1d2330",        # response curves, text (L* ~ 13)
+    "slate": "#5e6675",      # axes, grid labels (L* ~ 43)
+    "grid": "#d5d9df",       # grid lines
+    "allowed": "#dcebe6",    # allowed region tint (pale sea-green, L* ~ 92)
+    "forbid": "#f1dfc6",     # forbidden region tint (pale sand, L* ~ 90)
+    "hatch": "#8c5a24",      # forbidden hatching and bound lines (umber, L* ~ 43)
+    "fail": "#6e1d55",       # failed bands and failure markers (plum, L* ~ 25)
+    "guide": "#2c6687",      # annotations: half-power level, edges (steel blue, L* ~ 41)
+    "envelope": "#b9c3cf",   # tolerance envelope
+}
+
+#: Figure width in inches: the A4 text block of report.css (210 mm − 2 × 17 mm).
+FIG_WIDTH_IN = 176 / 25.4
+_FONT_PT = 7.5
+_GAIN_QUANTITIES = ("gain_db", "gain_re_peak_db")
+_HALF_POWER_DB = 10.0 * math.log10(2.0)
+#: unit of a limit → the curve (Curves attribute) its worst point lies on
+_UNIT_CURVE = {"dB": "gain_db", "s": "group_delay_s", "deg": "phase_deg"}
+#: limit kinds → (Curves attribute, mask quantity, axis label, unit) of extra panels
+_PANELS = {
+    "phase": ("phase_deg", "phase_deg", "Phase", "deg"),
+    "group_delay": ("group_delay_s", "group_delay_s", "Group delay", "s"),
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Tag:
+    """A short plot tag (``M1``/``F1``) and what it stands for, for the figure key."""
+
+    tag: str
+    name: str
+    text: str
+    status: Status
+
+
+@dataclass(frozen=True, slots=True)
+class Plot:
+    """One figure of the report: caption, inline SVG markup and its key."""
+
+    title: str
+    caption: str
+    svg: str
+    keys: tuple[Tag, ...] = ()
+
+
+# --------------------------------------------------------------------------- pure data
+
+
+def _offset(band: MaskBand, spec: SpecResult) -> float | None:
+    """dB to add to a mask band's bounds to put it on the absolute gain axis."""
+    if band.quantity == "gain_re_peak_db":
+        return spec.measurement("peak_gain_db")
+    return 0.0
+
+
+def _band_text(band: MaskBand, unit: str) -> str:
+    lo = "open" if band.lo is None else format_eng(band.lo, unit)
+    hi = "open" if band.hi is None else format_eng(band.hi, unit)
+    span = f"{format_si(band.f_lo_hz, 'Hz')} – {format_si(band.f_hi_hz, 'Hz')}"
+    ref = " re peak" if band.quantity == "gain_re_peak_db" else ""
+    if band.lo is not None and band.hi is not None:
+        allowed = f"allowed {lo} … {hi}{ref}"
+    elif band.lo is not None:
+        allowed = f"allowed ≥ {lo}{ref}"
+    else:
+        allowed = f"allowed ≤ {hi}{ref}"
+    return f"{span}, {allowed}"
+
+
+def _limit_for(band: MaskBand, spec: SpecResult) -> LimitResult | None:
+    for lim in spec.limits:
+        if lim.name == band.label:
+            return lim
+    return None
+
+
+def tags_for(spec: SpecResult) -> tuple[dict[int, Tag], dict[int, Tag]]:
+    """Tags of the mask bands (``M1``…) and of the failed limits' worst points (``F1``…).
+
+    Returns two dicts keyed by position in ``spec.mask`` and ``spec.limits``.
+    """
+    units = {"gain_db": "dB", "gain_re_peak_db": "dB", "phase_deg": "deg",
+             "group_delay_s": "s"}
+    masks: dict[int, Tag] = {}
+    for i, band in enumerate(spec.mask):
+        if band.quantity not in units:
+            continue
+        lim = _limit_for(band, spec)
+        status = lim.status if lim is not None else (Status.FAIL if band.failed else Status.PASS)
+        masks[i] = Tag(f"M{len(masks) + 1}", band.label, _band_text(band, units[band.quantity]),
+                       status)
+    fails: dict[int, Tag] = {}
+    for i, lim in enumerate(spec.limits):
+        if lim.status is not Status.FAIL or lim.at_hz is None or lim.measured is None:
+            continue
+        fails[i] = Tag(f"F{len(fails) + 1}", lim.name,
+                       f"worst value {format_eng(lim.measured, lim.unit)} at "
+                       f"{format_si(lim.at_hz, 'Hz', 5)}, limit {lim.bound_text}", lim.status)
+    return masks, fails
+
+
+def zoom_window(spec: SpecResult) -> tuple[float, float] | None:
+    """Frequency span (Hz) of the pass-band / resonance zoom, or None when there is none.
+
+    With half-power edges measured: the edges widened by 1.2 bandwidths each side.
+    Otherwise the union of the gain mask bands that set a minimum (pass-bands),
+    widened by a quarter of its width in log frequency.
+    """
+    f = spec.curves.frequency_hz if spec.curves is not None else None
+    if f is None or f.size < 2:
+        return None
+    f_lo, f_hi = spec.measurement("f_low_hz"), spec.measurement("f_high_hz")
+    if f_lo is not None and f_hi is not None and 0 < f_lo < f_hi:
+        bw = f_hi - f_lo
+        lo, hi = max(f[0], f_lo - 1.2 * bw), min(f[-1], f_hi + 1.2 * bw)
+    else:
+        bands = [b for b in spec.mask if b.quantity in _GAIN_QUANTITIES and b.lo is not None]
+        if not bands:
+            return None
+        blo, bhi = min(b.f_lo_hz for b in bands), max(b.f_hi_hz for b in bands)
+        if not (0 < blo < bhi):
+            return None
+        pad = 0.25 * math.log10(bhi / blo) + 0.02
+        lo, hi = max(f[0], blo / 10 ** pad), min(f[-1], bhi * 10 ** pad)
+    if not hi > lo or (lo <= f[0] and hi >= f[-1]):
+        return None
+    return float(lo), float(hi)
+
+
+def _extra_panels(spec: SpecResult) -> list[str]:
+    kinds = {lim.kind for lim in spec.limits}
+    kinds |= {k for k, p in _PANELS.items() if any(b.quantity == p[1] for b in spec.mask)}
+    return [k for k in _PANELS if k in kinds]
+
+
+# --------------------------------------------------------------------------- drawing
+
+
+def _svg(fig: Any) -> str:
+    """The figure as an SVG ``<svg>`` element, byte-identical between runs."""
+    import matplotlib
+
+    buf = io.StringIO()
+    with matplotlib.rc_context({"svg.hashsalt": "netcheck-report", "svg.fonttype": "path",
+                                "svg.image_inline": True}):
+        fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": None})
+    text = buf.getvalue()
+    return text[text.index("<svg"):]
+
+
+def _figure(height_in: float) -> Any:
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(FIG_WIDTH_IN, height_in), dpi=100)
+    return fig
+
+
+def _style(ax: Any) -> None:
+    ax.set_facecolor("white")
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+    for side in ("left", "bottom"):
+        ax.spines[side].set_color(PALETTE["slate"])
+        ax.spines[side].set_linewidth(0.6)
+    ax.tick_params(colors=PALETTE["slate"], labelcolor=PALETTE["ink"], labelsize=_FONT_PT,
+                   width=0.6, length=3)
+    ax.tick_params(which="minor", length=1.8, width=0.4)
+    ax.grid(True, which="major", color=PALETTE["grid"], linewidth=0.5)
+    ax.grid(True, which="minor", color=PALETTE["grid"], linewidth=0.25, alpha=0.6)
+    ax.set_axisbelow(True)
+
+
+def _hz_log_axis(ax: Any) -> None:
+    from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
+
+    ax.set_xscale("log")
+    ax.xaxis.set_major_locator(LogLocator(base=10.0))
+    ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: format_si(v, "Hz", 1)
+                                               if v > 0 else ""))
+    ax.xaxis.set_minor_locator(LogLocator(base=10.0, subs=np.arange(2, 10) * 0.1))
+    ax.xaxis.set_minor_formatter(NullFormatter())
+
+
+def _hz_linear_axis(ax: Any, lo: float, hi: float) -> str:
+    """Linear frequency ticks in one SI prefix; returns the axis label."""
+    from matplotlib.ticker import FuncFormatter, MaxNLocator
+
+    scale, prefix = _si_scale(max(abs(lo), abs(hi)))
+    ax.xaxis.set_major_locator(MaxNLocator(nbins=9))
+    ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v / scale:g}"))
+    return f"Frequency ({prefix}Hz, linear scale)"
+
+
+def _si_scale(mag: float) -> tuple[float, str]:
+    for s, p in ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "µ"),
+                 (1e-9, "n"), (1e-12, "p")):
+        if mag >= s:
+            return s, p
+    return 1e-12, "p"
+
+
+def _gain_limits(spec: SpecResult, lo_hz: float, hi_hz: float, zoom: bool) -> tuple[float, float]:
+    """y-range (dB) showing the curve in the span and every mask bound in it."""
+    c = spec.curves
+    sel = (c.frequency_hz >= lo_hz) & (c.frequency_hz <= hi_hz)
+    g = c.gain_db[sel & np.isfinite(c.gain_db)]
+    if g.size == 0:
+        return -60.0, 10.0
+    top = float(g.max())
+    peak = spec.measurement("peak_gain_db")
+    if zoom:
+        ref = peak if peak is not None else top
+        bottom = min(float(g.min()), ref - _HALF_POWER_DB - 3.0)
+        bottom = max(bottom, ref - 12.0)
+    else:
+        bottom = max(float(g.min()), top - 120.0)
+    values = [top, bottom]
+    for band in spec.mask:
+        off = _offset(band, spec)
+        if band.quantity not in _GAIN_QUANTITIES or off is None:
+            continue
+        if band.f_hi_hz < lo_hz or band.f_lo_hz > hi_hz:
+            continue
+        values += [v + off for v in (band.lo, band.hi) if v is not None]
+    lo, hi = min(values), max(values)
+    span = max(hi - lo, 1.0)
+    return lo - 0.12 * span, hi + 0.12 * span
+
+
+def _draw_mask(ax: Any, spec: SpecResult, masks: dict[int, Tag], quantity: tuple[str, ...],
+               scale: float, ylim: tuple[float, float], x_span: tuple[float, float],
+               drawn: list[Tag]) -> None:
+    """Allowed (tint) and forbidden (hatched) regions of each band, tagged M1, M2…"""
+    y0, y1 = ylim
+    for i, band in enumerate(spec.mask):
+        if i not in masks or band.quantity not in quantity:
+            continue
+        off = _offset(band, spec)
+        if off is None:
+            continue
+        a, b = max(band.f_lo_hz, x_span[0]), min(band.f_hi_hz, x_span[1])
+        if not b > a:
+            continue
+        failed = masks[i].status is Status.FAIL or band.failed
+        lo = None if band.lo is None else (band.lo + off) / scale
+        hi = None if band.hi is None else (band.hi + off) / scale
+        edge = PALETTE["fail"] if failed else PALETTE["hatch"]
+        hatch = "xxx" if failed else "////"
+        ax.fill_between([a, b], lo if lo is not None else y0, hi if hi is not None else y1,
+                        facecolor=PALETTE["allowed"], edgecolor="none", linewidth=0, zorder=0.5)
+        for bound, far in ((hi, y1), (lo, y0)):
+            if bound is None:
+                continue
+            ax.fill_between([a, b], bound, far, facecolor=PALETTE["forbid"], edgecolor=edge,
+                            hatch=hatch, linewidth=0, zorder=0.6)
+            ax.plot([a, b], [bound, bound], color=edge, linewidth=1.1 if failed else 0.9,
+                    solid_capstyle="butt", zorder=2)
+        drawn.append(masks[i])
+        label = masks[i].tag + (" FAIL" if failed else "")
+        y_txt = hi if hi is not None else lo
+        va = "bottom" if hi is not None else "top"
+        xm = math.sqrt(a * b) if ax.get_xscale() == "log" else 0.5 * (a + b)
+        if y_txt is not None and y0 < y_txt < y1:
+            ax.annotate(label, (xm, y_txt), xytext=(0, 3 if va == "bottom" else -3),
+                        textcoords="offset points", ha="center", va=va, fontsize=_FONT_PT - 0.5,
+                        color=edge, fontweight="bold", zorder=6,
+                        bbox={"boxstyle": "round,pad=0.15", "facecolor": "white",
+                              "edgecolor": edge, "linewidth": 0.5})
+
+
+def _fail_points(ax: Any, spec: SpecResult, fails: dict[int, Tag], curve: str, scale: float,
+                 x_span: tuple[float, float], masked: set[str], drawn: list[Tag]) -> None:
+    """Mark the worst point of each failed limit whose unit lies on ``curve``."""
+    c = spec.curves
+    f = c.frequency_hz
+    ylo, yhi = ax.get_ylim()
+    offsets = {b.label: _offset(b, spec) for b in spec.mask if b.quantity in _GAIN_QUANTITIES}
+    for i, tag in fails.items():
+        lim = spec.limits[i]
+        if not (x_span[0] <= lim.at_hz <= x_span[1]):
+            continue
+        if _UNIT_CURVE.get(lim.unit) == curve:
+            if lim.name in masked and offsets.get(lim.name) is not None:
+                y = (lim.measured + offsets[lim.name]) / scale
+            else:
+                y = float(np.interp(np.log(lim.at_hz), np.log(f), getattr(c, curve))) / scale
+        elif curve == "gain_db" and lim.unit not in _UNIT_CURVE:
+            # a frequency, Q or impedance limit: show where on the response it was found
+            y = float(np.interp(np.log(lim.at_hz), np.log(f), c.gain_db)) / scale
+        else:
+            continue
+        if not math.isfinite(y):
+            continue
+        y = min(max(y, ylo), yhi)
+        drawn.append(tag)
+        ax.plot([lim.at_hz], [y], marker="X", markersize=7, color=PALETTE["fail"],
+                markeredgecolor="white", markeredgewidth=0.7, zorder=7, linestyle="none")
+        ax.annotate(f"{tag.tag} FAIL", (lim.at_hz, y), xytext=(6, -9), textcoords="offset points",
+                    fontsize=_FONT_PT, color=PALETTE["fail"], fontweight="bold", zorder=8,
+                    bbox={"boxstyle": "round,pad=0.2", "facecolor": "white",
+                          "edgecolor": PALETTE["fail"], "linewidth": 0.6})
+
+
+def _with_exact_points(spec: SpecResult, f: np.ndarray, g: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Add the refined peak and half-power edges (exact points of the same response)."""
+    pts = []
+    peak_f, peak_g = spec.measurement("f_peak_hz"), spec.measurement("peak_gain_db")
+    if peak_f is not None and peak_g is not None:
+        pts.append((peak_f, peak_g))
+        for key in ("f_low_hz", "f_high_hz"):
+            fe = spec.measurement(key)
+            if fe is not None:
+                pts.append((fe, peak_g - _HALF_POWER_DB))
+    pts = [(x, y) for x, y in pts if math.isfinite(x) and math.isfinite(y) and f[0] < x < f[-1]]
+    if not pts:
+        return f, g
+    fx = np.concatenate([f, [p[0] for p in pts]])
+    gx = np.concatenate([g, [p[1] for p in pts]])
+    order = np.argsort(fx, kind="stable")
+    return fx[order], gx[order]
+
+
+def _gain_axes(ax: Any, spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
+               span: tuple[float, float], zoom: bool, drawn: list[Tag]) -> None:
+    c = spec.curves
+    f, g = _with_exact_points(spec, c.frequency_hz, c.gain_db)
+    ylim = _gain_limits(spec, *span, zoom)
+    ax.set_xlim(*span)
+    ax.set_ylim(*ylim)
+    _draw_mask(ax, spec, masks, _GAIN_QUANTITIES, 1.0, ylim, span, drawn)
+    if c.envelope_lo_db is not None and c.envelope_hi_db is not None:
+        ax.fill_between(c.frequency_hz, c.envelope_lo_db, c.envelope_hi_db,
+                        facecolor=PALETTE["envelope"], edgecolor="none", alpha=0.7, zorder=1,
+                        label="tolerance envelope")
+    ax.plot(f, g, color=PALETTE["ink"], linewidth=1.3, zorder=5, label="gain (nominal)")
+    masked = {spec.mask[i].label for i in masks}
+    _fail_points(ax, spec, fails, "gain_db", 1.0, span, masked, drawn)
+    ax.set_ylabel("Gain (dB)", fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
+
+
+def _annotate_resonance(ax: Any, spec: SpecResult) -> None:
+    """Half-power level, edges, centre, bandwidth and Q on the zoom."""
+    peak_f, peak_g = spec.measurement("f_peak_hz"), spec.measurement("peak_gain_db")
+    f_lo, f_hi = spec.measurement("f_low_hz"), spec.measurement("f_high_hz")
+    f_c, q, bw = (spec.measurement(k) for k in ("f_center_hz", "q", "bandwidth_hz"))
+    guide = PALETTE["guide"]
+    kw = {"fontsize": _FONT_PT, "color": guide, "zorder": 9}
+    box = {"boxstyle": "round,pad=0.2", "facecolor": "white", "edgecolor": "none", "alpha": 0.85}
+    if peak_f is not None and peak_g is not None:
+        ax.plot([peak_f], [peak_g], marker="o", markersize=4.5, color=PALETTE["ink"],
+                markerfacecolor="white", markeredgewidth=1.0, zorder=8, linestyle="none")
+        ax.annotate(f"peak {format_eng(peak_g, 'dB')} at {format_si(peak_f, 'Hz', 5)}",
+                    (peak_f, peak_g), xytext=(8, 6), textcoords="offset points",
+                    fontsize=_FONT_PT, color=PALETTE["ink"], zorder=9, bbox=box)
+    if peak_g is None or f_lo is None or f_hi is None:
+        return
+    level = peak_g - _HALF_POWER_DB
+    ax.axhline(level, color=guide, linewidth=0.8, linestyle=(0, (5, 3)), zorder=4)
+    x0, x1 = ax.get_xlim()
+    ax.annotate(f"half-power level: peak − {_HALF_POWER_DB:.2f} dB  (|H_peak|/√2)",
+                (x0, level), xytext=(4, 3), textcoords="offset points", ha="left",
+                va="bottom", bbox=box, **kw)
+    ymin = ax.get_ylim()[0]
+    for fx, name, ha in ((f_lo, "f_low", "right"), (f_hi, "f_high", "left")):
+        ax.plot([fx, fx], [ymin, level], color=guide, linewidth=0.8, linestyle=(0, (1.5, 1.5)),
+                zorder=4)
+        ax.plot([fx], [level], marker="D", markersize=3.5, color=guide, zorder=8,
+                linestyle="none")
+        ax.annotate(f"{name}\n{format_si(fx, 'Hz', 5)}", (fx, ymin), xytext=(-3 if ha == "right"
+                    else 3, 4), textcoords="offset points", ha=ha, va="bottom", bbox=box, **kw)
+    y_arrow = level - 0.35 * (level - ymin)
+    ax.annotate("", (f_lo, y_arrow), (f_hi, y_arrow),
+                arrowprops={"arrowstyle": "<->", "color": guide, "linewidth": 0.8,
+                            "shrinkA": 0, "shrinkB": 0}, zorder=8)
+    parts = [f"bandwidth {format_si(bw, 'Hz', 4)}" if bw is not None else "",
+             f"Q {q:.4g}" if q is not None else ""]
+    ax.annotate("   ".join(p for p in parts if p), (math.sqrt(f_lo * f_hi), y_arrow),
+                xytext=(0, 3), textcoords="offset points", ha="center", va="bottom",
+                bbox=box, **kw)
+    if f_c is not None:
+        ax.axvline(f_c, color=guide, linewidth=0.7, linestyle=(0, (6, 2, 1, 2)), zorder=4)
+        ax.annotate(f"f_center {format_si(f_c, 'Hz', 5)}", (f_c, ax.get_ylim()[1]),
+                    xytext=(3, -3), textcoords="offset points", ha="left", va="top",
+                    bbox=box, **kw)
+
+
+def _gain_overview(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
+                   zoom: tuple[float, float] | None, drawn: list[Tag]) -> str:
+    fig = _figure(3.0)
+    ax = fig.add_axes((0.085, 0.15, 0.9, 0.8))
+    _style(ax)
+    _hz_log_axis(ax)
+    f = spec.curves.frequency_hz
+    _gain_axes(ax, spec, masks, fails, (float(f[0]), float(f[-1])), False, drawn)
+    if zoom is not None:
+        ax.axvspan(*zoom, facecolor="none", edgecolor=PALETTE["guide"], linewidth=0.7,
+                   linestyle=(0, (3, 2)), zorder=3)
+        ax.annotate("zoom", (math.sqrt(zoom[0] * zoom[1]), ax.get_ylim()[0]), xytext=(0, 3),
+                    textcoords="offset points", ha="center", va="bottom",
+                    fontsize=_FONT_PT - 0.5, color=PALETTE["guide"], zorder=9)
+    ax.set_xlabel("Frequency (log scale)", fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
+    return _svg(fig)
+
+
+def _gain_zoom(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
+               zoom: tuple[float, float], drawn: list[Tag]) -> str:
+    fig = _figure(3.1)
+    ax = fig.add_axes((0.085, 0.15, 0.9, 0.8))
+    _style(ax)
+    _gain_axes(ax, spec, masks, fails, zoom, True, drawn)
+    label = _hz_linear_axis(ax, *zoom)
+    _annotate_resonance(ax, spec)
+    ax.set_xlabel(label, fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
+    return _svg(fig)
+
+
+def _panel_span(spec: SpecResult, quantity: str,
+                zoom: tuple[float, float] | None) -> tuple[float, float]:
+    f = spec.curves.frequency_hz
+    bands = [b for b in spec.mask if b.quantity == quantity]
+    if bands:
+        lo, hi = min(b.f_lo_hz for b in bands), max(b.f_hi_hz for b in bands)
+        pad = 0.3 * math.log10(hi / lo) + 0.02
+        return max(f[0], lo / 10 ** pad), min(f[-1], hi * 10 ** pad)
+    if zoom is not None:
+        return zoom
+    return float(f[0]), float(f[-1])
+
+
+def _phase_delay(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
+                 zoom: tuple[float, float] | None, drawn: list[Tag]) -> str:
+    kinds = _extra_panels(spec)
+    fig = _figure(1.9 * len(kinds) + 0.45)
+    c = spec.curves
+    n = len(kinds)
+    bottom_margin, top_margin = 0.42 / fig.get_figheight(), 0.08 / fig.get_figheight()
+    h = (1.0 - bottom_margin - top_margin) / n
+    for k, kind in enumerate(kinds):
+        curve, quantity, label, unit = _PANELS[kind]
+        span = _panel_span(spec, quantity, zoom)
+        ax = fig.add_axes((0.085, 1.0 - top_margin - (k + 1) * h + 0.06 * h, 0.9, h * 0.86))
+        _style(ax)
+        log = span[1] / span[0] > 3.0
+        if log:
+            _hz_log_axis(ax)
+        xlabel = "Frequency (log scale)" if log else _hz_linear_axis(ax, *span)
+        y = getattr(c, curve)
+        sel = (c.frequency_hz >= span[0]) & (c.frequency_hz <= span[1]) & np.isfinite(y)
+        scale, prefix = (1.0, "") if unit == "deg" else _si_scale(
+            float(np.nanmax(np.abs(y[sel]))) if sel.any() else 1.0)
+        vals = list(y[sel] / scale)
+        for band in spec.mask:
+            if band.quantity == quantity:
+                vals += [v / scale for v in (band.lo, band.hi) if v is not None]
+        lo, hi = (min(vals), max(vals)) if vals else (-1.0, 1.0)
+        pad = 0.12 * max(hi - lo, 1e-9 if unit == "s" else 1.0)
+        ylim = (lo - pad, hi + pad)
+        ax.set_xlim(*span)
+        ax.set_ylim(*ylim)
+        _draw_mask(ax, spec, masks, (quantity,), scale, ylim, span, drawn)
+        ax.plot(c.frequency_hz, y / scale, color=PALETTE["ink"], linewidth=1.2, zorder=5)
+        _fail_points(ax, spec, fails, curve, scale, span, {spec.mask[i].label for i in masks},
+                     drawn)
+        ax.set_ylabel(f"{label} ({prefix}{unit})", fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
+        if k == n - 1:
+            ax.set_xlabel(xlabel, fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
+    return _svg(fig)
+
+
+def _keys(drawn: list[Tag]) -> tuple[Tag, ...]:
+    """Drawn tags, each once, masks before failures, in tag order."""
+    unique = {t.tag: t for t in drawn}
+    return tuple(sorted(unique.values(), key=lambda t: (t.tag[0] != "M", int(t.tag[1:]))))
+
+
+def spec_plots(spec: SpecResult) -> tuple[Plot, ...]:
+    """The report's figures for one spec (empty when the spec has no curves)."""
+    if spec.curves is None or spec.curves.frequency_hz.size < 2:
+        return ()
+    masks, fails = tags_for(spec)
+    zoom = zoom_window(spec)
+    f = spec.curves.frequency_hz
+    drawn: list[Tag] = []
+    svg = _gain_overview(spec, masks, fails, zoom, drawn)
+    plots = [Plot("Gain over the whole sweep",
+                  f"Gain in dB against frequency, {format_si(float(f[0]), 'Hz')} to "
+                  f"{format_si(float(f[-1]), 'Hz')}, with the spec mask: allowed regions are "
+                  "tinted, forbidden regions hatched (cross-hatched where the limit failed)."
+                  + (" The dashed box marks the zoom below." if zoom else ""),
+                  svg, _keys(drawn))]
+    if zoom is not None:
+        resonant = spec.measurement("f_low_hz") is not None
+        drawn = []
+        svg = _gain_zoom(spec, masks, fails, zoom, drawn)
+        plots.append(Plot(
+            "Pass-band and resonance in detail" if resonant else "Pass-band in detail",
+            f"Gain from {format_si(zoom[0], 'Hz', 5)} to {format_si(zoom[1], 'Hz', 5)}"
+            + (", with the half-power level (peak − 3.01 dB, |H_peak|/√2), the half-power edges "
+               "f_low and f_high, the centre f_center = √(f_low·f_high), the bandwidth and Q."
+               if resonant else "."),
+            svg, _keys(drawn)))
+    panels = _extra_panels(spec)
+    if panels:
+        names = " and ".join(_PANELS[k][2].lower() for k in panels)
+        drawn = []
+        svg = _phase_delay(spec, masks, fails, zoom, drawn)
+        plots.append(Plot(names[0].upper() + names[1:],
+                          f"{names[0].upper()}{names[1:]} against frequency, for the limits on "
+                          "them (their bounds and margins are in the summary table).",
+                          svg, _keys(drawn)))
+    return tuple(plots)

@@ -1,0 +1,343 @@
+"""Spec loader: the Spec it builds, and every spec error with its key path, span and code."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from netcheck.evaluate import check_spec
+from netcheck.exceptions import CODES, SpecError
+from netcheck.limits import CornerLimit, GainLimit, ResonanceLimit
+from netcheck.result import Status
+from netcheck.spec import Spec, Sweep, load_spec, parse_spec
+
+HEAD = """\
+title = "Quillmere Instruments test filter"
+netlist = "filter.cir"
+source = "VIN"
+output = "out"
+
+[sweep]
+start = "1k"
+stop = "100k"
+points_per_decade = 50
+"""
+
+GAIN = """
+[[limits]]
+kind = "gain"
+band = ["2k", "3k"]
+max_db = 1
+"""
+
+#: A series RLC band-pass used where a spec must really be checked (f0 = 1/(2 pi sqrt(LC))).
+NETLIST = """\
+Quillmere Instruments test band-pass
+VIN in 0 AC 1
+L1 in a 10m
+C1 a out 2.5n
+R1 out 0 50
+.end
+"""
+
+
+def fail(text: str, path: str = "q.toml") -> SpecError:
+    """The SpecError that parsing ``text`` raises."""
+    with pytest.raises(SpecError) as info:
+        parse_spec(text, path)
+    return info.value
+
+
+def line_of(text: str, needle: str) -> int:
+    """1-based number of the first line of ``text`` that starts with ``needle``."""
+    return next(i for i, ln in enumerate(text.splitlines(), 1) if ln.startswith(needle))
+
+
+class TestValidSpec:
+    def test_fields(self):
+        spec = parse_spec(HEAD + GAIN, "designs/q.toml")
+        assert isinstance(spec, Spec)
+        assert spec.title == "Quillmere Instruments test filter"
+        assert Path(spec.netlist) == Path("designs/filter.cir")  # relative to the spec file
+        assert (spec.source, spec.output) == ("VIN", ("out", "0"))  # ground is the default ref
+        assert spec.sweep == Sweep(1e3, 1e5, 50)
+        assert [type(lim) for lim in spec.limits] == [GainLimit]
+
+    def test_limit_value_and_line(self):
+        spec = parse_spec(HEAD + GAIN)
+        lim = spec.limits[0]
+        assert (lim.band, lim.min_db, lim.max_db, lim.reference) == ((2e3, 3e3), None, 1.0,
+                                                                      "absolute")
+        assert lim.line == line_of(HEAD + GAIN, "[[limits]]")
+        assert lim.index == 0
+
+    def test_differential_output_and_defaults(self):
+        text = HEAD.replace('output = "out"', 'output = ["outp", "outn"]').replace(
+            "points_per_decade = 50\n", "")
+        spec = parse_spec(text)
+        assert spec.output == ("outp", "outn")
+        assert spec.sweep.points_per_decade == 100
+        assert spec.limits == ()
+        assert spec.allow_negative is False and spec.root is None
+
+    @pytest.mark.parametrize("written, value", [
+        ('"1meg"', 1e6), ('"4k7"', 4.7e3), ('"100kHz"', 1e5), ("250000", 2.5e5), ("2.5e5", 2.5e5)])
+    def test_engineering_notation(self, written, value):
+        spec = parse_spec(HEAD.replace('stop = "100k"', f"stop = {written}"))
+        assert spec.sweep.stop_hz == value
+
+    def test_sweep_grid(self):
+        # 2 decades at 50 points per decade: 101 log-spaced points, both ends exact.
+        f = parse_spec(HEAD).sweep.grid()
+        assert f.size == 101
+        assert (f[0], f[-1]) == (1e3, 1e5)
+        np.testing.assert_allclose(np.diff(np.log10(f)), 1 / 50, rtol=1e-9)
+        assert not f.flags.writeable
+
+    def test_raw_tables_are_kept_for_other_stages(self):
+        spec = parse_spec(HEAD + '\n[tolerances]\nR1 = "1%"\n')
+        assert spec.table("tolerances") == {"R1": "1%"}
+        assert spec.table("stress") is None
+
+    def test_load_spec_reads_the_file(self, tmp_path):
+        path = tmp_path / "q.toml"
+        path.write_text(HEAD + GAIN, encoding="utf-8")
+        assert load_spec(path) == parse_spec(HEAD + GAIN, str(path))
+
+
+class TestPercentages:
+    def spec(self, tolerance: str) -> ResonanceLimit:
+        text = HEAD + f'\n[[limits]]\nkind = "resonance"\ncenter = "40k"\ncenter_tolerance = {tolerance}\n'
+        return parse_spec(text).limits[0]
+
+    @pytest.mark.parametrize("written, hz", [('"2.5%"', 1000.0), ('"1 %"', 400.0),
+                                            ('"400"', 400.0), ("400", 400.0), ('"0.4k"', 400.0)])
+    def test_percent_of_the_centre_or_absolute(self, written, hz):
+        lim = self.spec(written)
+        assert lim.center == 40e3
+        assert math.isclose(lim.center_tolerance, hz, rel_tol=1e-12)
+
+    @pytest.mark.parametrize("written, message", [
+        ('"abc%"', "'abc%' is not a percentage"), ('"-1%"', "must be > 0"),
+        ('"0%"', "must be > 0"), ('"nan%"', "must be > 0"), ("0", "must be > 0")])
+    def test_bad_percentages(self, written, message):
+        err = fail(HEAD + f'\n[[limits]]\nkind = "resonance"\ncenter = "40k"\n'
+                          f"center_tolerance = {written}\n")
+        assert (err.code, err.where) == ("NC202", "limits[0].center_tolerance")
+        assert message in err.message
+
+
+class TestDidYouMean:
+    def test_unknown_top_level_key(self):
+        text = HEAD.replace("netlist =", "netlst =")
+        err = fail(text)
+        assert (err.code, err.where) == ("NC201", "netlst")
+        assert "unknown key 'netlst'; did you mean 'netlist'?" in err.message
+
+    def test_unknown_limit_key(self):
+        text = HEAD + GAIN.replace("max_db", "max_dB")
+        err = fail(text)
+        assert (err.code, err.where) == ("NC201", "limits[0].max_dB")
+        assert "did you mean 'max_db'?" in err.message
+
+    def test_unknown_key_without_a_close_match_lists_the_known_ones(self):
+        err = fail(HEAD.replace("points_per_decade", "ppd"))
+        assert (err.code, err.where) == ("NC201", "sweep.ppd")
+        assert "known keys: points_per_decade, start, stop" in err.message
+
+    def test_unknown_limit_kind(self):
+        err = fail(HEAD + GAIN.replace('kind = "gain"', 'kind = "gian"'))
+        assert (err.code, err.where) == ("NC201", "limits[0].kind")
+        assert "unknown limit kind 'gian'; did you mean 'gain'?" in err.message
+        assert "corner, gain, group_delay" in err.message  # the kinds are listed
+
+    def test_missing_limit_kind(self):
+        err = fail(HEAD + GAIN.replace('kind = "gain"\n', ""))
+        assert (err.code, err.where) == ("NC202", "limits[0].kind")
+        assert err.message.startswith("limits[0].kind: missing (required)")
+
+    @pytest.mark.parametrize("kind", ['["gain"]', "3"])
+    def test_limit_kind_of_the_wrong_type(self, kind):
+        err = fail(HEAD + GAIN.replace('kind = "gain"', f"kind = {kind}"))
+        assert (err.code, err.where) == ("NC202", "limits[0].kind")
+
+
+#: (case, TOML text, key path, code, text expected in the message)
+ERRORS = [
+    ("string expected", HEAD.replace('source = "VIN"', "source = 3"), "source", "NC202",
+     "expected a non-empty string, got 3"),
+    ("number expected", HEAD + GAIN.replace("max_db = 1", 'max_db = "loud"'),
+     "limits[0].max_db", "NC202", "'loud' is not a number"),
+    ("boolean is not a number", HEAD + GAIN.replace("max_db = 1", "max_db = true"),
+     "limits[0].max_db", "NC202", "expected a number"),
+    ("not finite", HEAD + GAIN.replace("max_db = 1", "max_db = nan"), "limits[0].max_db",
+     "NC202", "nan is not finite"),
+    ("whole number", HEAD.replace("points_per_decade = 50", "points_per_decade = 7.5"),
+     "sweep.points_per_decade", "NC202", "expected a whole number >= 2, got 7.5"),
+    ("flag", "allow_negative = 1\n" + HEAD, "allow_negative", "NC202", "expected true or false"),
+    ("sweep not a table", HEAD.split("[sweep]")[0] + "sweep = 3\n", "sweep", "NC202",
+     "expected a table"),
+    ("limits not an array", HEAD.replace("[sweep]", "limits = 3\n[sweep]"), "limits", "NC202",
+     "expected an array of tables"),
+    ("limit not a table", HEAD.replace("[sweep]", "limits = [3]\n[sweep]"), "limits[0]",
+     "NC202", "expected a table"),
+    ("output shape", HEAD.replace('output = "out"', 'output = ["a"]'), "output", "NC202",
+     "expected a node name or [positive, negative]"),
+    ("choice", HEAD + '\n[[limits]]\nkind = "corner"\nrange = ["2k", "3k"]\nside = "up"\n',
+     "limits[0].side", "NC202", "expected one of 'auto', 'high', 'low', got 'up'"),
+    ("bounds length", HEAD + '\n[[limits]]\nkind = "resonance"\nq = [1, 2, 3]\n', "limits[0].q",
+     "NC202", "expected [min, max], got 3 values"),
+    ("inverted q", HEAD + '\n[[limits]]\nkind = "resonance"\nq = [12, 10]\n', "limits[0].q",
+     "NC202", "min 12 is above max 10"),
+    ("inverted gain", HEAD + GAIN.replace("max_db = 1", "min_db = 3\nmax_db = 1"),
+     "limits[0].min_db", "NC202", "min_db 3 is above max_db 1"),
+    ("inverted sweep", HEAD.replace('start = "1k"', 'start = "200k"'), "sweep.start", "NC202",
+     "start 200k is not below stop 100k"),
+    ("empty band", HEAD + GAIN.replace('["2k", "3k"]', '["2k", "2000"]'), "limits[0].band",
+     "NC202", "band is empty"),
+    ("band outside the sweep", HEAD + GAIN.replace('["2k", "3k"]', '["50k", "400k"]'),
+     "limits[0].band", "NC202", "band 50k–400k Hz is outside the sweep 1k–100k Hz"),
+    ("band below the sweep", HEAD + GAIN.replace('["2k", "3k"]', '[500, "3k"]'),
+     "limits[0].band", "NC202", "outside the sweep"),
+    ("negative frequency", HEAD + GAIN.replace('["2k", "3k"]', '["-2k", "3k"]'),
+     "limits[0].band", "NC202", "values must be > 0"),
+    ("negative ripple", HEAD + '\n[[limits]]\nkind = "ripple"\nband = ["2k", "3k"]\n'
+                               "max_db = -1\n", "limits[0].max_db", "NC202",
+     "must not be negative"),
+    ("gain without bounds", HEAD + GAIN.replace("max_db = 1\n", ""), "limits[0]", "NC202",
+     "a gain limit needs min_db, max_db or both"),
+    ("centre without tolerance", HEAD + '\n[[limits]]\nkind = "resonance"\ncenter = "40k"\n',
+     "limits[0].center", "NC202", "give center_tolerance too"),
+    ("tolerance without centre",
+     HEAD + '\n[[limits]]\nkind = "resonance"\ncenter_tolerance = "1%"\nq = [1, 2]\n',
+     "limits[0].center_tolerance", "NC202", "needs center"),
+]
+
+MISSING = [
+    ("netlist", HEAD.replace('netlist = "filter.cir"\n', "")),
+    ("source", HEAD.replace('source = "VIN"\n', "")),
+    ("output", HEAD.replace('output = "out"\n', "")),
+    ("sweep", HEAD.split("[sweep]")[0]),
+    ("sweep.start", HEAD.replace('start = "1k"\n', "")),
+    ("sweep.stop", HEAD.replace('stop = "100k"\n', "")),
+    ("limits[0].band", HEAD + GAIN.replace('band = ["2k", "3k"]\n', "")),
+    ("limits[0].max_db", HEAD + '\n[[limits]]\nkind = "ripple"\nband = ["2k", "3k"]\n'),
+    ("limits[0].range", HEAD + '\n[[limits]]\nkind = "corner"\n'),
+    ("limits[0].range_deg", HEAD + '\n[[limits]]\nkind = "phase"\nband = ["2k", "3k"]\n'),
+]
+
+
+class TestSpecErrors:
+    @pytest.mark.parametrize("case, text, where, code, message", ERRORS,
+                             ids=[e[0] for e in ERRORS])
+    def test_error(self, case, text, where, code, message):
+        err = fail(text)
+        assert isinstance(err, ValueError)  # SpecError is also a ValueError
+        assert (err.where, err.code) == (where, code)
+        assert err.message.startswith(f"{where}: ")
+        assert message in err.message
+
+    @pytest.mark.parametrize("where, text", MISSING, ids=[m[0] for m in MISSING])
+    def test_missing_required_key(self, where, text):
+        err = fail(text)
+        assert (err.where, err.code) == (where, "NC202")
+        assert err.message.startswith(f"{where}: missing (required)")
+
+    def test_inverted_band_of_the_fourth_limit(self):
+        text = HEAD + GAIN * 3 + GAIN.replace('["2k", "3k"]', '["50k", "40k"]')
+        err = fail(text)
+        assert (err.where, err.code) == ("limits[3].band", "NC202")
+        assert err.message == "limits[3].band: start 50k is above stop 40k"
+
+    def test_format_points_at_the_key_once(self):
+        text = HEAD + GAIN * 3 + GAIN.replace('["2k", "3k"]', '["50k", "40k"]')
+        err = fail(text, "specs/q.toml")
+        line = len(text.splitlines()) - 1  # the band line of the last limit
+        head, source, caret = err.format().splitlines()
+        assert head == (f"specs/q.toml:{line}:1: error NC202: "
+                        "limits[3].band: start 50k is above stop 40k")
+        assert source.strip() == 'band = ["50k", "40k"]'
+        assert caret.strip() == "^^^^"  # under the key "band"
+        assert err.format().count("limits[3].band") == 1
+        assert (err.span.line, err.span.column) == (line, 1)
+
+    def test_missing_key_points_at_its_table(self):
+        text = HEAD.replace('stop = "100k"\n', "")
+        err = fail(text)
+        assert err.span.line == line_of(text, "[sweep]")
+
+    @pytest.mark.parametrize("snippet, line, column, what", [
+        ("x = = 3\n", 11, 5, "Invalid value"),
+        ('band = ["2k" "3k"]\n', 11, 14, "Unclosed array"),
+    ])
+    def test_bad_toml_has_line_and_column(self, snippet, line, column, what):
+        err = fail(HEAD + "\n" + snippet)
+        assert err.code == "NC200"
+        assert (err.span.line, err.span.column) == (line, column)
+        head, source, caret = err.format().splitlines()
+        assert head.startswith(f"q.toml:{line}:{column}: error NC200: not valid TOML: ")
+        assert what in head and "(at line" not in head
+        assert source.strip() == snippet.strip()
+        assert caret.index("^") == source.index(snippet.strip()) + column - 1
+
+    def test_unreadable_and_undecodable_files(self, tmp_path):
+        with pytest.raises(SpecError) as info:
+            load_spec(tmp_path / "absent.toml")
+        assert info.value.code == "NC200" and "cannot read spec" in info.value.message
+        bad = tmp_path / "latin1.toml"
+        bad.write_bytes(b'title = "caf\xe9"\n')
+        with pytest.raises(SpecError) as info:
+            load_spec(bad)
+        assert info.value.code == "NC200" and "not UTF-8" in info.value.message
+
+    def test_every_spec_code_is_documented(self):
+        for code in ("NC200", "NC201", "NC202", "NC203"):
+            assert code in CODES
+
+
+class TestReferencesToTheNetlist:
+    """Names the spec uses that the netlist does not have: error results with NC203."""
+
+    def check(self, tmp_path, source="VIN", output="out") -> object:
+        (tmp_path / "filter.cir").write_text(NETLIST)
+        spec = tmp_path / "q.toml"
+        spec.write_text(HEAD.replace('"VIN"', f'"{source}"').replace('"out"', f'"{output}"')
+                        + GAIN)
+        return check_spec(str(spec))
+
+    def test_known_names_pass(self, tmp_path):
+        assert self.check(tmp_path).status is Status.PASS
+
+    def test_unknown_source(self, tmp_path):
+        res = self.check(tmp_path, source="VX")
+        assert res.status is Status.ERROR and res.limits == ()
+        assert "error NC203" in res.error and "'VX'" in res.error
+        assert [c.code for c in res.cautions] == ["NC203"]
+        assert res.cautions[0].message.startswith("source: ")
+
+    def test_unknown_output_node(self, tmp_path):
+        res = self.check(tmp_path, output="nowhere")
+        assert res.status is Status.ERROR
+        assert "error NC203" in res.error and "'nowhere'" in res.error
+        assert res.cautions[0].code == "NC203"
+        assert res.cautions[0].message.startswith("output: ")
+
+    def test_broken_spec_becomes_an_error_result(self, tmp_path):
+        spec = tmp_path / "q.toml"
+        spec.write_text(HEAD.replace("netlist =", "netlst ="))
+        res = check_spec(str(spec))
+        assert res.status is Status.ERROR
+        assert res.error.startswith(f"{spec}:2:1: error NC201: netlst: unknown key")
+        assert (res.cautions[0].code, res.cautions[0].line) == ("NC201", 2)
+
+
+def test_corner_defaults():
+    spec = parse_spec(HEAD + '\n[[limits]]\nkind = "corner"\nrange = ["2k", "3k"]\n')
+    lim = spec.limits[0]
+    assert isinstance(lim, CornerLimit)
+    assert (lim.range, lim.level_db, lim.side, lim.reference_db) == ((2e3, 3e3), None, "auto",
+                                                                     None)
+    assert lim.name == "corner (half-power)"
