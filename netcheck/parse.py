@@ -193,6 +193,9 @@ def _syntax_error(source: SourceFile, text: str, err: UnexpectedInput) -> Netlis
         return NetlistSyntaxError("unexpected end of file", span)
     if str(tok) == "=":
         return NetlistSyntaxError("'=' needs a name before it (key=value)", span)
+    if tok.type == "_HEAD_COMMENT":  # the only terminal that starts with '*' mid-line
+        return NetlistSyntaxError("'*' starts a comment only at the beginning of a line; "
+                                  "use ';' for an inline comment", span)
     return NetlistSyntaxError(f"unexpected {str(tok)!r}", span)
 
 

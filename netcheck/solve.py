@@ -220,6 +220,7 @@ class PoleZeroEngine:
     delta_z: np.ndarray
     method: str = "pole-zero"
     fallback_points: int = field(default=0)
+    _grid: tuple | None = field(default=None, repr=False)
 
     @classmethod
     def build(cls, direct: DenseEngine, grid: np.ndarray) -> "PoleZeroEngine | None":
@@ -249,19 +250,22 @@ class PoleZeroEngine:
         h_ref = direct.values(grid[checks])
         if not np.any(np.abs(h_ref) > 0):
             return None
-        k = int(np.argmax(np.abs(h_ref)))
-        s_ref = 1j * _TWO_PI * grid[checks][k] / w
         rel = np.finfo(float).eps * 256
         eng = cls(direct, w, poles, zeros, 1.0 + 0j,
                   rel * np.maximum(np.abs(poles), 1.0), rel * np.maximum(np.abs(zeros), 1.0))
-        eng.gain = h_ref[k] / eng._evaluate_w(np.array([s_ref.imag]))[0][0]
-        h_pz, _, est = eng._evaluate(grid[checks])
-        trusted = est <= POINT_TOL
-        err = np.abs(h_pz - h_ref) / np.maximum(np.abs(h_ref), 1e-300)
-        if np.any(err[trusted] > CHECK_TOL):
+        # one evaluation of the form on the whole grid serves the gain, the check and the
+        # sweep itself (the check points are grid points)
+        shape, dshape, est = eng._evaluate(grid)
+        k = int(np.argmax(np.abs(h_ref)))
+        eng.gain = h_ref[k] / shape[checks[k]]
+        h, dh = eng.gain * shape, eng.gain * dshape
+        trusted = est[checks] <= POINT_TOL
+        err = np.abs(h[checks] - h_ref) / np.maximum(np.abs(h_ref), 1e-300)
+        if np.any(err[trusted] > CHECK_TOL) or not np.isfinite(eng.gain):
             log.info("pole-zero form disagrees with direct solves (max rel err %.2e); "
-                     "using direct solves", float(err[trusted].max()))
+                     "using direct solves", float(np.max(err[trusted], initial=0.0)))
             return None
+        eng._grid = (grid, h, dh, est)
         return eng
 
     def __post_init__(self) -> None:
@@ -307,7 +311,11 @@ class PoleZeroEngine:
 
     def transfer(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """H and dH/df; points the error estimate does not trust are solved directly."""
-        h, dh, est = self._evaluate(f)
+        cached = self._grid
+        if cached is not None and f.shape == cached[0].shape and np.array_equal(f, cached[0]):
+            h, dh, est = cached[1].copy(), cached[2].copy(), cached[3]
+        else:
+            h, dh, est = self._evaluate(f)
         redo = est > POINT_TOL
         if np.any(redo):
             self.fallback_points += int(redo.sum())
@@ -323,8 +331,8 @@ def _finite_eigs(a: np.ndarray, b: np.ndarray) -> np.ndarray | None:
     """Finite generalized eigenvalues λ of a·v = λ·b·v (QZ), or None on failure.
 
     LAPACK xGGEV returns a complex-conjugate pair of a real pencil as consecutive
-    entries, the first with positive imaginary part; that order is kept, so pairs
-    can be recognised exactly by :func:`_factor_roots`.
+    entries, the first with positive imaginary part; that order is kept, so
+    :func:`_group_roots` can recognise the pairs.
     """
     if a.shape[0] == 0:
         return np.zeros(0, dtype=complex)
@@ -338,7 +346,10 @@ def _finite_eigs(a: np.ndarray, b: np.ndarray) -> np.ndarray | None:
     if np.any((np.abs(alpha) < 1e-300) & (np.abs(beta) < 1e-300)):
         return None  # singular pencil: not a regular transfer function
     finite = np.abs(beta) * 1e12 > np.abs(alpha)
-    # a pair shares beta, so it is kept or dropped together
+    if alphai.size:  # keep or drop the two members of a pair together
+        pair_first = np.flatnonzero(alphai[:-1] > 0)
+        both = finite[pair_first] & finite[pair_first + 1]
+        finite[pair_first], finite[pair_first + 1] = both, both
     return alpha[finite] / beta[finite]
 
 
@@ -354,8 +365,12 @@ def _group_roots(roots: np.ndarray, deltas: np.ndarray) -> tuple[np.ndarray, ...
     i = 0
     while i < roots.size:
         r = complex(roots[i])
-        if r.imag > 0 and i + 1 < roots.size and roots[i + 1] == r.conjugate():
-            pairs.append(r)
+        nxt = complex(roots[i + 1]) if i + 1 < roots.size else None
+        # LAPACK returns a conjugate pair as consecutive entries (Im > 0 first); its two
+        # betas may differ slightly, so the partner is matched to rounding, then taken exact
+        if (r.imag > 0 and nxt is not None
+                and abs(nxt - r.conjugate()) <= 1e-10 * max(abs(r), 1e-300)):
+            pairs.append(complex(0.5 * (r.real + nxt.real), 0.5 * (r.imag - nxt.imag)))
             i += 2
         else:
             singles.append(r)
@@ -368,8 +383,10 @@ def _group_roots(roots: np.ndarray, deltas: np.ndarray) -> tuple[np.ndarray, ...
 
 
 def _check_indices(grid: np.ndarray) -> np.ndarray:
+    """Up to 12 grid indices spread evenly, both ends included."""
     n = grid.size
-    return np.unique(np.round(np.linspace(0, n - 1, min(n, 16))).astype(int))
+    k = min(n, 12)
+    return np.unique((np.arange(k) * (n - 1)) // max(k - 1, 1))
 
 
 def make_engine(system: System, grid: np.ndarray) -> DenseEngine | SparseEngine | PoleZeroEngine:

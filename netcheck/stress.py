@@ -299,9 +299,9 @@ class StressResult:
                 "status": self.status.value}
 
 
-def _compact(value: float, unit: str) -> str:
+def _compact(value: float, unit: str, digits: int = 4) -> str:
     """``format_si`` without trailing zeros: ``10 V``, ``9.998 V``, ``500 mA``."""
-    text = format_si(value, unit, 4)
+    text = format_si(value, unit, digits)
     num, sep, rest = text.partition(" ")
     if "." in num:
         num = num.rstrip("0").rstrip(".")
@@ -564,7 +564,7 @@ def stress_cautions(results: Sequence[StressResult]) -> list[Caution]:
             continue
         seen.add((r.part, r.quantity))
         verb = "sees" if r.quantity == "voltage" else "carries"
-        head = (f"{r.part} {verb} {format_si(r.peak, r.unit, 3)} peak at "
+        head = (f"{r.part} {verb} {_compact(r.peak, r.unit, 3)} peak at "
                 f"{format_si(r.at_hz, 'Hz', 3)}")
         if reactive:
             head += f", {ratio:.3g}× the {r.stimulus_text} input"

@@ -184,7 +184,9 @@ def wilson_interval(passed: int, n: int, z: float = 1.959963984540054) -> tuple[
     denom = 1.0 + z * z / n
     centre = (p + z * z / (2 * n)) / denom
     half = z * math.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / denom
-    return max(0.0, centre - half), min(1.0, centre + half)
+    lo = 0.0 if passed == 0 else max(0.0, centre - half)
+    hi = 1.0 if passed == n else min(1.0, centre + half)
+    return lo, hi
 
 
 def _stats(x: np.ndarray) -> dict[str, float | None]:

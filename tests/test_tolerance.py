@@ -1,0 +1,193 @@
+"""Tolerance analyses against the law of propagation of uncertainty and closed forms."""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+import pytest
+from scipy import stats
+
+from netcheck import read_netlist
+from netcheck.assemble import assemble
+from netcheck.evaluate import check_spec
+from netcheck.exceptions import SpecError
+from netcheck.result import Status
+from netcheck.tolerance import (adjoint_sensitivities, draw, parse_analysis, parse_tolerances,
+                                wilson_interval)
+
+L, C, R = 2.2e-3, 7.2e-9, 47.0
+NETLIST = f"""Quillmere test: series RLC band-pass
+V1 in 0 AC 1
+L1 in a {L!r}
+C1 a out {C!r}
+R1 out 0 {R!r}
+"""
+
+
+def _spec(tmp_path: Path, tolerances: str, analysis: str, limits: str = "") -> str:
+    (tmp_path / "t.cir").write_text(NETLIST)
+    text = f"""netlist = "t.cir"
+source = "V1"
+output = "out"
+[sweep]
+start = "10k"
+stop = "200k"
+points_per_decade = 100
+[tolerances]
+{tolerances}
+[analysis]
+{analysis}
+[[limits]]
+kind = "resonance"
+q = [1, 100]
+{limits}
+"""
+    path = tmp_path / "t.toml"
+    path.write_text(text)
+    return str(path)
+
+
+def _tol(result):
+    return dict(result.extra)["tolerance"]
+
+
+def test_monte_carlo_spread_of_f0_follows_gum(tmp_path):
+    # JCGM 100:2008 (GUM), law of propagation of uncertainty, for f0 = 1/(2 pi sqrt(LC)):
+    #   u(f0)/f0 = 1/2 sqrt(u(L)^2/L^2 + u(C)^2/C^2)
+    # with uniform tolerances +-t the standard uncertainty is t/sqrt(3) (GUM 4.3.7).
+    tl, tc = 0.03, 0.02
+    path = _spec(tmp_path, f'parts = {{ L1 = "{tl * 100}%", C1 = "{tc * 100}%" }}',
+                 'mode = ["monte_carlo"]\nsamples = 20000\nseed = 3')
+    res = check_spec(path)
+    assert res.status is Status.PASS, res.error
+    m = _tol(res)["monte_carlo"]["measurements"]["f_center_hz"]
+    expected = 0.5 * math.sqrt((tl / math.sqrt(3)) ** 2 + (tc / math.sqrt(3)) ** 2)
+    assert m["std"] / m["mean"] == pytest.approx(expected, rel=0.05)
+
+
+def test_worst_case_f0_corners_are_exact(tmp_path):
+    # f0 = 1/(2 pi sqrt(L C)) is monotone in L and C, so its extremes over +-t are at
+    # L(1-t)C(1-t) and L(1+t)C(1+t) exactly (series RLC closed form, textbook).
+    t = 0.05
+    path = _spec(tmp_path, f'parts = {{ L1 = "5%", C1 = "5%" }}', 'mode = ["worst_case"]',
+                 'center = "33.4k"\ncenter_tolerance = "20%"')
+    res = check_spec(path)
+    wc = {e["name"]: e for e in _tol(res)["worst_case"]["limits"]}["resonance: centre"]
+    hi = 1 / (2 * math.pi * math.sqrt(L * (1 - t) * C * (1 - t)))
+    lo = 1 / (2 * math.pi * math.sqrt(L * (1 + t) * C * (1 + t)))
+    assert wc["corners_max"] == pytest.approx(hi, rel=1e-9)
+    assert wc["corners_min"] == pytest.approx(lo, rel=1e-9)
+    # the linear EVA brackets f0*(1 +- t) (first order), close to but not equal to the corners
+    f0 = 1 / (2 * math.pi * math.sqrt(L * C))
+    assert wc["max"] == pytest.approx(f0 * (1 + t), rel=1e-5)
+    assert wc["eva_differs"] is True
+
+
+def test_same_seed_same_result_and_different_seed_differs(tmp_path):
+    path = _spec(tmp_path, 'default = { L = "10%", C = "5%" }',
+                 'mode = ["monte_carlo"]\nsamples = 500\nseed = 11')
+    a, b = check_spec(path), check_spec(path)
+    assert _tol(a) == _tol(b)
+    Path(path).write_text(Path(path).read_text().replace("seed = 11", "seed = 12"))
+    c = check_spec(path)
+    assert _tol(c)["monte_carlo"]["measurements"] != _tol(a)["monte_carlo"]["measurements"]
+
+
+def test_draw_is_reproducible_and_bounded():
+    parts = [("R1", 100.0, 0.01), ("C1", 1e-9, 0.05)]
+    a = draw(parts, 1000, "truncnormal", np.random.default_rng(5))
+    b = draw(parts, 1000, "truncnormal", np.random.default_rng(5))
+    assert all(np.array_equal(a[k], b[k]) for k in a)
+    assert np.all(np.abs(a["C1"] / 1e-9 - 1) <= 0.05)
+    u = draw(parts, 20000, "normal", np.random.default_rng(1))
+    # tolerance = 3 sigma for the normal distribution (common practice, no source)
+    assert np.std(u["C1"] / 1e-9 - 1) == pytest.approx(0.05 / 3, rel=0.03)
+
+
+@pytest.mark.parametrize("passed,n", [(95, 100), (0, 50), (50, 50), (1999, 2000)])
+def test_wilson_interval_matches_scipy(passed, n):
+    # independent reference: scipy.stats.binomtest(...).proportion_ci(method="wilson")
+    ci = stats.binomtest(passed, n).proportion_ci(confidence_level=0.95, method="wilson")
+    lo, hi = wilson_interval(passed, n)
+    assert lo == pytest.approx(ci.low, abs=1e-12)
+    assert hi == pytest.approx(ci.high, abs=1e-12)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_adjoint_sensitivities_match_central_differences(seed):
+    # Director & Rohrer 1969 adjoint sensitivities against central finite differences of
+    # direct solves, on random ladder-like RLC networks with a controlled source.
+    rng = np.random.default_rng(seed)
+    lines = ["random", "V1 n0 0 AC 1"]
+    for k in range(4):
+        lines.append(f"R{k} n{k} n{k + 1} {rng.uniform(10, 1000)!r}")
+        lines.append(f"C{k} n{k + 1} 0 {rng.uniform(1e-9, 1e-7)!r}")
+        lines.append(f"L{k} n{k + 1} 0 {rng.uniform(1e-4, 1e-2)!r}")
+    lines.append(f"E1 out 0 n4 0 {rng.uniform(0.5, 5)!r}")
+    lines.append("RO out 0 1k")
+    ckt = read_netlist("\n".join(lines) + "\n")
+    system = assemble(ckt, "V1", "out")
+    parts = [(e.name, e.value, 0.01) for e in ckt.elements if e.letter in "RLCE"]
+    f = np.array([1e3, 1e4, 3e4])
+    h, dh = adjoint_sensitivities(system, parts, f)
+    for k, (name, v, _) in enumerate(parts):
+        step = 1e-6 * v
+        hp = read_netlist("\n".join(lines) + "\n").ac("V1", "out", freqs=f)
+        vals_p = _solve_with(ckt, name, v + step, f)
+        vals_m = _solve_with(ckt, name, v - step, f)
+        fd = (vals_p - vals_m) / (2 * step)
+        np.testing.assert_allclose(dh[:, k], fd, rtol=1e-5, atol=1e-12 * np.abs(hp.transfer).max() / v)
+
+
+def _solve_with(ckt, name, value, f):
+    from netcheck.assemble import Stamper
+    system = assemble(ckt, "V1", "out")
+    st = Stamper(ckt, {name: value})
+    st.stamp_all()
+    g, c = st.sparse("G").toarray(), st.sparse("C").toarray()
+    a = g[None] + (2j * np.pi * f)[:, None, None] * c[None]
+    x = np.linalg.solve(a, np.broadcast_to(system.b, (f.size, system.size))[..., None])[..., 0]
+    return x @ system.l
+
+
+class TestSpecKeys:
+    def test_unknown_tolerance_key_suggests(self):
+        with pytest.raises(SpecError) as info:
+            parse_tolerances({"defualt": {}}, "s.toml")
+        assert "tolerances.defualt" in str(info.value) and "did you mean 'default'" in str(info.value)
+
+    def test_bad_letter_and_percent(self):
+        with pytest.raises(SpecError, match="tolerances.default.X"):
+            parse_tolerances({"default": {"X": "1%"}}, "s.toml")
+        with pytest.raises(SpecError, match="tolerances.parts.C1"):
+            parse_tolerances({"parts": {"C1": "150%"}}, "s.toml")
+
+    def test_analysis_modes_and_yield(self):
+        a = parse_analysis({"mode": ["monte_carlo"], "samples": 10, "seed": 2,
+                            "yield_min": 0.9}, "s.toml")
+        assert (a.modes, a.samples, a.seed, a.yield_min) == (("monte_carlo",), 10, 2, 0.9)
+        with pytest.raises(SpecError, match="analysis.mode"):
+            parse_analysis({"mode": ["everything"]}, "s.toml")
+        with pytest.raises(SpecError, match="analysis.yield_min"):
+            parse_analysis({"yield_min": 1.5}, "s.toml")
+
+    def test_unknown_part_is_an_error_result(self, tmp_path):
+        path = _spec(tmp_path, 'parts = { C9 = "1%" }', 'mode = ["monte_carlo"]\nsamples = 10')
+        res = check_spec(path)
+        assert res.status is Status.ERROR and "C9" in res.error
+
+
+def test_yield_limit_fails_when_yield_is_low(tmp_path):
+    # Q of the series section = w0 L / R = sqrt(L/C)/R = 11.76 nominal (textbook); a tight
+    # Q window around it with 10 % parts cannot reach 99 % yield.
+    path = _spec(tmp_path, 'default = { L = "10%", C = "10%", R = "5%" }',
+                 'mode = ["monte_carlo"]\nsamples = 400\nseed = 1\nyield_min = 0.99',
+                 '')
+    Path(path).write_text(Path(path).read_text().replace("q = [1, 100]", "q = [11.5, 12.0]"))
+    res = check_spec(path)
+    row = next(r for r in res.limits if r.kind == "yield")
+    assert row.status is Status.FAIL and 0.0 < row.measured < 0.99
+    mc = _tol(res)["monte_carlo"]
+    assert mc["yield"] == row.measured and mc["yield_ci"][0] <= mc["yield"] <= mc["yield_ci"][1]
