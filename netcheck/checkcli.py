@@ -28,6 +28,18 @@ def add_check_parser(sub, common: Callable[[argparse.ArgumentParser], None]) -> 
                     help="local worker processes (default: number of CPUs)")
     ck.add_argument("--cluster", metavar="ADDRESS",
                     help="run on an existing Dask distributed scheduler (tcp://host:8786)")
+    ck.add_argument("--changed-since", metavar="REV",
+                    help="check only specs whose spec, netlist or included files changed since "
+                    "git revision REV")
+    ck.add_argument("--baseline", metavar="PATH",
+                    help="compare margins with an earlier --json result")
+    ck.add_argument("--drift-db", type=float, default=0.5, metavar="DB",
+                    help="flag a dB margin that fell by more than DB (default 0.5)")
+    ck.add_argument("--drift-rel", type=float, default=0.1, metavar="FRACTION",
+                    help="flag another margin that fell by more than FRACTION of its "
+                    "baseline value (default 0.1)")
+    ck.add_argument("--fail-on-drift", action="store_true",
+                    help="exit 4 when a margin drifted (and nothing failed)")
     ck.add_argument("-v", "--verbose", action="store_true", help="show every caution")
     ck.add_argument("--color", choices=("auto", "always", "never"), default="auto")
     common(ck)
@@ -80,7 +92,7 @@ def _use_color(choice: str) -> bool:
 def run_check(args: argparse.Namespace) -> int:
     """Run ``check``: judge, render every requested output, return the exit code."""
     from . import __version__
-    from .cli import BAD_INPUT, FAIL, OK
+    from .cli import BAD_INPUT, DRIFT, FAIL, OK
     from .render import RenderOptions, get_renderer, render_to
     from .result import CheckResult, Status
 
@@ -91,6 +103,17 @@ def run_check(args: argparse.Namespace) -> int:
         print("netcheck check: no spec files found (a spec is a .toml file with a "
               "'netlist' key)", file=sys.stderr)
         return BAD_INPUT
+    if args.changed_since:
+        from .ci import affected_specs
+        affected = affected_specs(specs, args.changed_since, ".", root=args.root)
+        if not affected.paths:
+            print(f"netcheck check: no spec is affected by the {len(affected.changed_files)} "
+                  f"file(s) changed since {args.changed_since}; nothing to check")
+            return OK
+        for path, why in affected.reasons().items():
+            print(f"{path}: affected by {', '.join(why)}", file=sys.stderr)
+        specs = list(affected.paths)
+    only = set(specs) if args.changed_since else None
     from .batch import DaskExecutor, LocalExecutor, expand_jobs, run_all
     items = expand_jobs(specs)
     executor = DaskExecutor(args.cluster) if args.cluster else LocalExecutor(args.jobs)
@@ -109,6 +132,19 @@ def run_check(args: argparse.Namespace) -> int:
     if args.pdf:
         from .report.pdf import render_per_spec
         render_per_spec(result, args.pdf, plain)
+    drifted = False
+    if args.baseline:
+        from .ci import compare_baseline, load_baseline
+        from .render.jsonreport import to_dict
+        report = compare_baseline(to_dict(result), load_baseline(args.baseline),
+                                  args.drift_db, args.drift_rel, only_specs=only)
+        for d in report.drifted:
+            print(f"drift: {d.describe()}")
+        print(f"baseline {args.baseline}: {report.compared} margins compared, "
+              f"{len(report.drifted)} drifted")
+        drifted = report.has_drift
     if missing or result.status is Status.ERROR and any(s.error for s in results):
         return BAD_INPUT
-    return OK if result.status is Status.PASS else FAIL
+    if result.status is not Status.PASS:
+        return FAIL
+    return DRIFT if drifted and args.fail_on_drift else OK

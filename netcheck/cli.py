@@ -12,7 +12,7 @@ from collections.abc import Sequence
 from . import __version__
 from .exceptions import Diagnostic, NetcheckError
 
-__all__ = ["main", "OK", "FAIL", "BAD_INPUT", "INTERNAL"]
+__all__ = ["main", "OK", "FAIL", "BAD_INPUT", "INTERNAL", "DRIFT"]
 
 #: every limit passed (or the sweep ran)
 OK = 0
@@ -22,6 +22,8 @@ FAIL = 1
 BAD_INPUT = 2
 #: a bug in netcheck (the traceback is kept)
 INTERNAL = 3
+#: every limit passed but a margin drifted from the baseline (with --fail-on-drift)
+DRIFT = 4
 
 DOCS = "docs/errors.md#"
 
@@ -172,3 +174,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except BrokenPipeError:
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return OK
+    except Exception:  # a bug in netcheck: keep the traceback, say so, exit 3
+        import traceback
+        traceback.print_exc()
+        print(f"netcheck {__version__}: internal error (the traceback above is a bug in "
+              "netcheck, not a problem with your files; please report it)", file=sys.stderr)
+        return INTERNAL

@@ -43,6 +43,8 @@ CODES: dict[str, str] = {
     "NC301": "measurement could not be made",
     "NC302": "numerical trouble (warning)",
     "NC400": "could not write output",
+    "NC410": "git could not answer (--changed-since)",
+    "NC411": "baseline result file is not usable",
 }
 
 

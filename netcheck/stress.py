@@ -61,6 +61,7 @@ import numpy as np
 import scipy.linalg as sla
 from scipy.optimize import minimize_scalar
 
+from .assemble import System
 from .elements import (CCCS, CCVS, Capacitor, CurrentSource, Element, Inductor, Resistor,
                        VoltageSource)
 from .exceptions import SingularCircuitError
@@ -96,8 +97,9 @@ QUANTITIES: dict[str, tuple[str, str]] = {
 HAZARD_VOLTAGE_PEAK = 50.0
 #: a reactive part seeing more than this multiple of the stimulus is called out
 REACTIVE_RATIO = 5.0
-#: most local maxima / pole seeds refined per part
+#: most grid local maxima, and most pole frequencies, refined per part
 MAX_SEEDS = 6
+_UNITS = {q: u for q, u in QUANTITIES.values()}
 
 _TWO_PI = 2.0 * math.pi
 _VOLTAGE_KINDS = (Resistor, Capacitor, Inductor, VoltageSource, CurrentSource, CCCS, CCVS)
@@ -132,7 +134,7 @@ class StressLimit:
     @property
     def unit(self) -> str:
         """Unit of the rating: V, A or W."""
-        return {q: u for q, u in QUANTITIES.values()}[self.quantity]
+        return _UNITS[self.quantity]
 
 
 def stress_lines(text: str) -> list[int]:
@@ -252,7 +254,7 @@ class StressResult:
     @property
     def unit(self) -> str:
         """V, A or W."""
-        return {q: u for q, u in QUANTITIES.values()}[self.quantity]
+        return _UNITS[self.quantity]
 
     @property
     def ratio(self) -> float | None:
@@ -330,7 +332,7 @@ class _Probe:
         return self.scale * np.abs(q + self.const) ** self.power
 
 
-def _diff_selector(system, a: str, b: str) -> np.ndarray:
+def _diff_selector(system: System, a: str, b: str) -> np.ndarray:
     sel = np.zeros(system.size)
     for node, sign in ((a, 1.0), (b, -1.0)):
         if node in system.node_index:
@@ -338,7 +340,7 @@ def _diff_selector(system, a: str, b: str) -> np.ndarray:
     return sel
 
 
-def _probe(system, e: Element, quantity: str, amp: float) -> _Probe | str:
+def _probe(system: System, e: Element, quantity: str, amp: float) -> _Probe | str:
     """The probe for ``quantity`` on element ``e``, or why there is none."""
     kinds = {"voltage": _VOLTAGE_KINDS, "current": _CURRENT_KINDS, "power": _POWER_KINDS}
     if not isinstance(e, kinds[quantity]):
@@ -424,20 +426,23 @@ def _true_peak(probe: _Probe, grid: np.ndarray, xg: np.ndarray, cand: np.ndarray
     """(peak value, frequency) of one part: grid, pole candidates, then refinement."""
     vg = probe.values(grid, xg)
     vc = probe.values(cand, xc) if cand.size else np.zeros(0)
+    if not np.any(np.isfinite(vg)):
+        return float("nan"), float("nan")
     n = grid.size
-    seeds: list[tuple[float, float, float]] = []  # (value, lo, hi)
-    for i in range(n):
-        left = vg[i - 1] if i > 0 else -np.inf
-        right = vg[i + 1] if i + 1 < n else -np.inf
-        if vg[i] >= left and vg[i] >= right and n > 1:
-            seeds.append((vg[i], grid[max(i - 1, 0)], grid[min(i + 1, n - 1)]))
-    for fc, v in zip(cand, vc):
-        j = int(np.searchsorted(grid, fc))
-        seeds.append((v, grid[max(j - 2, 0)], grid[min(j + 1, n - 1)]))
-    best_v, best_f = -np.inf, float("nan")
-    for v, f in [(vg[i], grid[i]) for i in [int(np.nanargmax(vg))]] + list(zip(vc, cand)):
-        if v > best_v:
-            best_v, best_f = float(v), float(f)
+    # grid local maxima (a plateau counts once, at its start), with their neighbours
+    pad = np.concatenate([[-np.inf], vg, [-np.inf]])
+    top = np.flatnonzero((vg > pad[:-2]) & (vg >= pad[2:])) if n > 1 else np.zeros(0, int)
+    top = top[np.argsort(-vg[top], kind="stable")][:MAX_SEEDS]
+    seeds = [(grid[max(i - 1, 0)], grid[min(i + 1, n - 1)]) for i in top]
+    # pole frequencies: the bracket spans the grid interval holding them and one more each side
+    j = np.searchsorted(grid, cand)
+    order = np.argsort(-vc, kind="stable")[:MAX_SEEDS]
+    seeds += [(grid[max(j[k] - 2, 0)], grid[min(j[k] + 1, n - 1)]) for k in order]
+    i = int(np.nanargmax(vg))
+    best_v, best_f = float(vg[i]), float(grid[i])
+    if vc.size and np.nanmax(vc) > best_v:
+        k = int(np.nanargmax(vc))
+        best_v, best_f = float(vc[k]), float(cand[k])
 
     def value_at(f: float) -> float:
         try:
@@ -448,7 +453,7 @@ def _true_peak(probe: _Probe, grid: np.ndarray, xg: np.ndarray, cand: np.ndarray
         return out if math.isfinite(out) else 0.0
 
     done = set()
-    for v, lo, hi in sorted(seeds, key=lambda s: -s[0])[:MAX_SEEDS]:
+    for lo, hi in seeds:
         if not lo < hi or (lo, hi) in done:
             continue
         done.add((lo, hi))

@@ -4,13 +4,20 @@ from __future__ import annotations
 
 from typing import IO, Any
 
-from ..result import CheckResult, LimitResult, SpecResult, Status
+from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
 from ..units import format_eng, format_si
 
 __all__ = ["render"]
 
 _COLOURS = {Status.PASS: "32", Status.FAIL: "31;1", Status.ERROR: "35;1", Status.SKIPPED: "33"}
 _MARK = {Status.PASS: " ", Status.FAIL: "✗", Status.ERROR: "!", Status.SKIPPED: "-"}
+
+
+def _clean(text: str) -> str:
+    """``text`` with control characters shown as ``\\x1b`` escapes, so a title or a
+    message from an input file cannot move the cursor or colour the terminal."""
+    return "".join(f"\\x{ord(ch):02x}" if ord(ch) < 32 or 127 <= ord(ch) < 160 else ch
+                   for ch in text)
 
 
 def _paint(text: str, status: Status, color: bool) -> str:
@@ -22,7 +29,8 @@ def _row(lim: LimitResult) -> list[str]:
     margin = "—" if lim.margin is None else (("+" if lim.margin >= 0 else "") +
                                             format_eng(lim.margin, lim.unit))
     at = "" if lim.at_hz is None else format_si(lim.at_hz, "Hz", 5)
-    return [_MARK[lim.status], lim.status.word, lim.name, measured, lim.bound_text, margin, at]
+    return [_MARK[lim.status], lim.status.word, _clean(lim.name), measured, lim.bound_text,
+            margin, at]
 
 
 def _order(limits: tuple[LimitResult, ...]) -> list[LimitResult]:
@@ -30,10 +38,10 @@ def _order(limits: tuple[LimitResult, ...]) -> list[LimitResult]:
 
 
 def _spec_block(s: SpecResult, color: bool, verbose: bool) -> list[str]:
-    head = f"{_paint(s.status.word, s.status, color)}  {s.label}  ({s.spec})"
+    head = f"{_paint(s.status.word, s.status, color)}  {_clean(s.label)}  ({_clean(s.spec)})"
     lines = [head]
     if s.error:
-        lines += ["    " + ln for ln in s.error.splitlines()]
+        lines += ["    " + _clean(ln) for ln in s.error.splitlines()]
         return lines
     rows = [["", "", "limit", "measured", "allowed", "margin", "at"]]
     rows += [_row(lim) for lim in _order(s.limits)]
@@ -46,14 +54,20 @@ def _spec_block(s: SpecResult, color: bool, verbose: bool) -> list[str]:
             lim = _order(s.limits)[k - 1]
             text = _paint(text, lim.status, color) if lim.status is not Status.PASS else text
             if lim.status is Status.ERROR and lim.message:
-                text += "\n      " + lim.message
+                text += "\n      " + _clean(lim.message)
         lines.append(text)
-    for c in s.cautions:
+    lines += _cautions(s.cautions, verbose)
+    return lines
+
+
+def _cautions(cautions: tuple[Caution, ...], verbose: bool) -> list[str]:
+    out = []
+    for c in cautions:
         if c.code == "safety" and not verbose:
             continue
         where = f"{c.path}:{c.line}: " if c.path and c.line else ""
-        lines.append(f"  {c.severity}: {where}{c.message}")
-    return lines
+        out.append(_clean(f"  {c.severity}: {where}{c.message}"))
+    return out
 
 
 def render(result: CheckResult, stream: IO[str], options: Any = None) -> None:
@@ -62,11 +76,15 @@ def render(result: CheckResult, stream: IO[str], options: Any = None) -> None:
     verbose = bool(getattr(options, "verbose", False))
     for s in result.specs:
         stream.write("\n".join(_spec_block(s, color, verbose)) + "\n\n")
+    run_wide = _cautions(result.cautions, verbose)
+    if run_wide:
+        stream.write("\n".join(run_wide) + "\n\n")
     n = result.counts
     errored_specs = sum(1 for s in result.specs if s.error)
     stream.write(f"{_paint(result.status.word, result.status, color)}: {len(result.specs)} "
                  f"spec{'s' if len(result.specs) != 1 else ''}, {n['pass']} limits passed, "
                  f"{n['fail']} failed, {n['error']} could not be measured"
+                 + (f", {n['skipped']} not applicable" if n["skipped"] else "")
                  + (f", {errored_specs} spec{'s' if errored_specs != 1 else ''} not checked"
                     if errored_specs else "") + "\n")
     if any(c.code == "safety" for s in result.specs for c in s.cautions):

@@ -170,8 +170,8 @@ def _svg(fig: Any) -> str:
     import matplotlib
 
     buf = io.StringIO()
-    with matplotlib.rc_context({"svg.hashsalt": "netcheck-report", "svg.fonttype": "path",
-                                "svg.image_inline": True}):
+    with matplotlib.rc_context({"svg.hashsalt": "netcheck-report", "svg.fonttype": "none",
+                                "svg.image_inline": True, "font.family": "DejaVu Sans"}):
         fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": None})
     text = buf.getvalue()
     return text[text.index("<svg"):]
@@ -195,7 +195,6 @@ def _style(ax: Any) -> None:
                    width=0.6, length=3)
     ax.tick_params(which="minor", length=1.8, width=0.4)
     ax.grid(True, which="major", color=PALETTE["grid"], linewidth=0.5)
-    ax.grid(True, which="minor", color=PALETTE["grid"], linewidth=0.25, alpha=0.6)
     ax.set_axisbelow(True)
 
 
