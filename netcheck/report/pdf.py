@@ -15,6 +15,7 @@ from __future__ import annotations
 import functools
 import os
 import re
+import shutil
 import subprocess
 from dataclasses import dataclass
 from pathlib import Path
@@ -129,6 +130,10 @@ def git_state(directory: str | os.PathLike, inputs: tuple[str, ...] = ()) -> Git
     """
     env = {**os.environ, "GIT_OPTIONAL_LOCKS": "0", "LC_ALL": "C", "GIT_TERMINAL_PROMPT": "0"}
     cwd = Path(directory or ".")
+    if not cwd.is_dir():
+        return GitState(None, None, f"repository state unknown (no folder {cwd})")
+    if shutil.which("git") is None:
+        return GitState(None, None, "repository state unknown (git is not installed)")
 
     def git(*args: str) -> subprocess.CompletedProcess:
         return subprocess.run(["git", *args], cwd=cwd, env=env, capture_output=True,

@@ -170,17 +170,23 @@ def _svg(fig: Any) -> str:
     import matplotlib
 
     buf = io.StringIO()
-    with matplotlib.rc_context({"svg.hashsalt": "netcheck-report", "svg.fonttype": "none",
-                                "svg.image_inline": True, "font.family": "DejaVu Sans"}):
+    with matplotlib.rc_context(_RC):
         fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": None})
     text = buf.getvalue()
     return text[text.index("<svg"):]
 
 
+#: rcParams for drawing and saving: deterministic SVG ids, text kept as text
+_RC = {"svg.hashsalt": "netcheck-report", "svg.fonttype": "none", "svg.image_inline": True,
+       "font.family": "DejaVu Sans", "hatch.linewidth": 0.45, "axes.unicode_minus": True}
+
+
 def _figure(height_in: float) -> Any:
+    import matplotlib
     from matplotlib.figure import Figure
 
-    fig = Figure(figsize=(FIG_WIDTH_IN, height_in), dpi=100)
+    with matplotlib.rc_context(_RC):
+        fig = Figure(figsize=(FIG_WIDTH_IN, height_in), dpi=100)
     return fig
 
 
@@ -214,7 +220,7 @@ def _hz_linear_axis(ax: Any, lo: float, hi: float) -> str:
     from matplotlib.ticker import FuncFormatter, MaxNLocator
 
     scale, prefix = _si_scale(max(abs(lo), abs(hi)))
-    ax.xaxis.set_major_locator(MaxNLocator(nbins=9))
+    ax.xaxis.set_major_locator(MaxNLocator(nbins=9, steps=[1, 2, 2.5, 5, 10]))
     ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v / scale:g}"))
     return f"Frequency ({prefix}Hz, linear scale)"
 
@@ -252,7 +258,7 @@ def _gain_limits(spec: SpecResult, lo_hz: float, hi_hz: float, zoom: bool) -> tu
         values += [v + off for v in (band.lo, band.hi) if v is not None]
     lo, hi = min(values), max(values)
     span = max(hi - lo, 1.0)
-    return lo - 0.12 * span, hi + 0.12 * span
+    return lo - 0.1 * span, hi + (0.2 if zoom else 0.12) * span
 
 
 def _draw_mask(ax: Any, spec: SpecResult, masks: dict[int, Tag], quantity: tuple[str, ...],
@@ -378,8 +384,10 @@ def _annotate_resonance(ax: Any, spec: SpecResult) -> None:
         ax.plot([peak_f], [peak_g], marker="o", markersize=4.5, color=PALETTE["ink"],
                 markerfacecolor="white", markeredgewidth=1.0, zorder=8, linestyle="none")
         ax.annotate(f"peak {format_eng(peak_g, 'dB')} at {format_si(peak_f, 'Hz', 5)}",
-                    (peak_f, peak_g), xytext=(8, 6), textcoords="offset points",
-                    fontsize=_FONT_PT, color=PALETTE["ink"], zorder=9, bbox=box)
+                    (peak_f, peak_g), xytext=(48, -14), textcoords="offset points",
+                    fontsize=_FONT_PT, color=PALETTE["ink"], zorder=9, bbox=box, va="center",
+                    arrowprops={"arrowstyle": "-", "color": PALETTE["ink"], "linewidth": 0.6,
+                                "shrinkA": 0, "shrinkB": 3})
     if peak_g is None or f_lo is None or f_hi is None:
         return
     level = peak_g - _HALF_POWER_DB
@@ -402,20 +410,19 @@ def _annotate_resonance(ax: Any, spec: SpecResult) -> None:
                             "shrinkA": 0, "shrinkB": 0}, zorder=8)
     parts = [f"bandwidth {format_si(bw, 'Hz', 4)}" if bw is not None else "",
              f"Q {q:.4g}" if q is not None else ""]
-    ax.annotate("   ".join(p for p in parts if p), (math.sqrt(f_lo * f_hi), y_arrow),
+    ax.annotate("  ·  ".join(p for p in parts if p), (math.sqrt(f_lo * f_hi), y_arrow),
                 xytext=(0, 3), textcoords="offset points", ha="center", va="bottom",
                 bbox=box, **kw)
     if f_c is not None:
         ax.axvline(f_c, color=guide, linewidth=0.7, linestyle=(0, (6, 2, 1, 2)), zorder=4)
-        ax.annotate(f"f_center {format_si(f_c, 'Hz', 5)}", (f_c, ax.get_ylim()[1]),
-                    xytext=(3, -3), textcoords="offset points", ha="left", va="top",
-                    bbox=box, **kw)
+        ax.annotate(f"f_center\n{format_si(f_c, 'Hz', 5)}", (f_c, ymin), xytext=(0, 4),
+                    textcoords="offset points", ha="center", va="bottom", bbox=box, **kw)
 
 
 def _gain_overview(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
                    zoom: tuple[float, float] | None, drawn: list[Tag]) -> str:
     fig = _figure(3.0)
-    ax = fig.add_axes((0.085, 0.15, 0.9, 0.8))
+    ax = fig.add_axes((0.08, 0.15, 0.885, 0.8))
     _style(ax)
     _hz_log_axis(ax)
     f = spec.curves.frequency_hz
@@ -433,7 +440,7 @@ def _gain_overview(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag
 def _gain_zoom(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
                zoom: tuple[float, float], drawn: list[Tag]) -> str:
     fig = _figure(3.1)
-    ax = fig.add_axes((0.085, 0.15, 0.9, 0.8))
+    ax = fig.add_axes((0.08, 0.15, 0.885, 0.8))
     _style(ax)
     _gain_axes(ax, spec, masks, fails, zoom, True, drawn)
     label = _hz_linear_axis(ax, *zoom)
@@ -466,7 +473,7 @@ def _phase_delay(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
     for k, kind in enumerate(kinds):
         curve, quantity, label, unit = _PANELS[kind]
         span = _panel_span(spec, quantity, zoom)
-        ax = fig.add_axes((0.085, 1.0 - top_margin - (k + 1) * h + 0.06 * h, 0.9, h * 0.86))
+        ax = fig.add_axes((0.08, 1.0 - top_margin - (k + 1) * h + 0.06 * h, 0.885, h * 0.86))
         _style(ax)
         log = span[1] / span[0] > 3.0
         if log:

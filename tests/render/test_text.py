@@ -1,0 +1,131 @@
+"""Terminal renderer: failures first and marked, aligned columns, the count line, colour."""
+
+from __future__ import annotations
+
+import io
+
+from netcheck.render import RenderOptions, get_renderer
+from netcheck.render.text import render
+from netcheck.result import CheckResult, LimitResult, SpecResult, Status
+from netcheck.units import format_eng
+
+from .sample import HOSTILE_TITLE, compare_gold, sample_result
+
+
+def text(result: CheckResult, **options) -> str:
+    buf = io.StringIO()
+    render(result, buf, RenderOptions(**options))
+    return buf.getvalue()
+
+
+def block(out: str, title_start: str) -> list[str]:
+    """The table lines (header first) of the spec whose heading contains ``title_start``."""
+    lines = out.splitlines()
+    start = next(i for i, ln in enumerate(lines) if title_start in ln)
+    end = next(i for i in range(start + 1, len(lines)) if not lines[i].strip())
+    return lines[start + 1:end]
+
+
+def test_gold():
+    compare_gold("text.txt", text(sample_result()))
+
+
+def test_registered_as_text():
+    assert get_renderer("text") is render
+
+
+def limit_rows(lines: list[str]) -> list[str]:
+    """Table rows only: no header, no error-message continuation, no caution lines."""
+    return [ln for ln in lines[1:] if not ln.startswith("      ")
+            and not ln.lstrip().startswith(("warning:", "caution:", "error:"))]
+
+
+def test_failing_rows_first_and_marked():
+    out = text(sample_result())
+    rows = limit_rows(block(out, "RX-40k front end"))
+    assert [r[2] for r in rows] == ["!", "✗", "✗", " ", " ", " "]
+    assert [r[5:].split()[0] for r in rows] == ["ERROR", "FAIL", "FAIL", "PASS", "PASS", "PASS"]
+    # the error message follows its row
+    assert out.index("ERROR  group delay") < out.index("no sweep points inside the") < \
+        out.index("FAIL   ripple")
+
+
+def test_failures_keep_spec_order_among_themselves():
+    def lim(name, status, index):
+        return LimitResult(name, "gain", status, -1.0, None, 0.0, 1.0, "dB", 1e3, index=index)
+    spec = SpecResult("q.toml", "q.cir", "Quillmere order", Status.FAIL, limits=(
+        lim("first pass", Status.PASS, 0), lim("second fail", Status.FAIL, 1),
+        lim("third pass", Status.PASS, 2), lim("fourth fail", Status.FAIL, 3)))
+    out = text(CheckResult((spec,), "0.1.0"))
+    positions = [out.index(n) for n in ("second fail", "fourth fail", "first pass",
+                                        "third pass")]
+    assert positions == sorted(positions)
+
+
+def test_columns_are_aligned():
+    result = sample_result()
+    rx = result.specs[3]
+    lines = block(text(result), "RX-40k front end")
+    header, rows = lines[0], limit_rows(lines)
+    assert len(rows) == len(rx.limits)
+    # numbers are right-aligned: each measured/margin cell ends under the end of its heading
+    for heading, values in (("measured", [r.measured for r in rx.limits]),
+                            ("margin", [r.margin for r in rx.limits])):
+        edge = header.index(heading) + len(heading)
+        cells = {format_eng(v, r.unit) if v is not None else "—"
+                 for v, r in zip(values, rx.limits)}
+        for row in rows:
+            assert any(row[:edge].endswith(c) for c in cells), (heading, row)
+    # names are left-aligned under "limit"
+    col = header.index("limit")
+    names = {r.name for r in rx.limits}
+    for row in rows:
+        assert any(row[col:].startswith(n) for n in names), row
+
+
+def test_count_line():
+    out = text(sample_result()).splitlines()
+    assert ("ERROR: 5 specs, 13 limits passed, 3 failed, 1 could not be measured, "
+            "1 not applicable, 1 spec not checked") in out
+    one = SpecResult("q.toml", "q.cir", "Quillmere one", Status.PASS, limits=(
+        LimitResult("g", "gain", Status.PASS, -1.0, None, 0.0, 1.0, "dB", 1e3),))
+    assert text(CheckResult((one,), "0.1.0")).splitlines()[-1] == \
+        "PASS: 1 spec, 1 limits passed, 0 failed, 0 could not be measured"
+
+
+def test_unchecked_spec_shows_its_error_indented():
+    out = text(sample_result())
+    assert "    sample_netlists/sk_lowpass.cir:7:1: error NC300: singular circuit" in out
+    assert "\n        ^\n" in out  # the caret line keeps its place under the source line
+
+
+def test_cautions():
+    out = text(sample_result())
+    assert "  warning: sample_netlists/rx40k.cir:22: R7 = 4.75k is off the E24 series" in out
+    assert "  warning: matrix badly conditioned near 38.0 kHz; result kept" in out
+    # run-wide cautions are shown once, before the count line
+    assert out.count("unknown directive .temp ignored") == 1
+    # the long safety caution only with --verbose; the short reminder always
+    assert "analysis of a circuit model, not a measurement" not in out
+    assert "analysis of a circuit model, not a measurement" in text(sample_result(),
+                                                                   verbose=True)
+    assert out.rstrip().splitlines()[-1].startswith("Caution: analysis of a model")
+
+
+def test_no_escape_codes_without_colour():
+    out = text(sample_result())
+    assert "\x1b" not in out and "\x00" not in out
+    # control characters from the input are shown, not obeyed
+    assert "\\x1b[31mred\\x00" in out
+    assert HOSTILE_TITLE not in out
+
+
+def test_colour_marks_failing_rows_only():
+    out = text(sample_result(), color=True)
+    lines = block(out, "[60hz]  ")
+    fail = next(ln for ln in lines if "notch depth" in ln)
+    ok = next(ln for ln in lines if "pass-band flatness" in ln)
+    assert fail.startswith("\x1b[31;1m") and fail.endswith("\x1b[0m")
+    assert "\x1b" not in ok
+    # the word is still there: status is never shown by colour alone
+    assert "FAIL" in fail
