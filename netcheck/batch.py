@@ -9,7 +9,7 @@ import os
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Iterable, Protocol, Sequence
+from typing import Callable, Iterable, Protocol, Sequence
 
 from .exceptions import SpecError
 from .result import SpecResult
@@ -133,18 +133,33 @@ def run_job(job: Job) -> SpecResult:
     return check_spec(job.spec, dict(job.overrides) or None, job.variant, netlist=job.netlist)
 
 
-class Executor(Protocol):
-    """Maps :func:`run_job` over jobs and returns results in the jobs' order."""
+Progress = Callable[[int, int], None]
 
-    def map(self, jobs: Sequence[Job]) -> list[SpecResult]:
+
+def _tick(progress: Progress | None, done: int, total: int) -> None:
+    if progress is not None:
+        progress(done, total)
+
+
+class Executor(Protocol):
+    """Maps :func:`run_job` over jobs and returns results in the jobs' order.
+
+    ``progress(done, total)`` is called as jobs finish (for a progress display).
+    """
+
+    def map(self, jobs: Sequence[Job], progress: Progress | None = None) -> list[SpecResult]:
         ...
 
 
 class SerialExecutor:
     """Runs jobs one after another in this process."""
 
-    def map(self, jobs: Sequence[Job]) -> list[SpecResult]:
-        return [run_job(j) for j in jobs]
+    def map(self, jobs: Sequence[Job], progress: Progress | None = None) -> list[SpecResult]:
+        out = []
+        for job in jobs:
+            out.append(run_job(job))
+            _tick(progress, len(out), len(jobs))
+        return out
 
 
 class LocalExecutor:
@@ -153,12 +168,16 @@ class LocalExecutor:
     def __init__(self, workers: int | None = None) -> None:
         self.workers = workers or os.cpu_count() or 1
 
-    def map(self, jobs: Sequence[Job]) -> list[SpecResult]:
+    def map(self, jobs: Sequence[Job], progress: Progress | None = None) -> list[SpecResult]:
         if self.workers <= 1 or len(jobs) <= 1:
-            return SerialExecutor().map(jobs)
+            return SerialExecutor().map(jobs, progress)
         chunk = max(1, len(jobs) // (4 * self.workers))
+        out = []
         with ProcessPoolExecutor(max_workers=min(self.workers, len(jobs))) as pool:
-            return list(pool.map(run_job, jobs, chunksize=chunk))
+            for result in pool.map(run_job, jobs, chunksize=chunk):
+                out.append(result)
+                _tick(progress, len(out), len(jobs))
+        return out
 
 
 class DaskExecutor:
@@ -167,7 +186,7 @@ class DaskExecutor:
     def __init__(self, address: str) -> None:
         self.address = address
 
-    def map(self, jobs: Sequence[Job]) -> list[SpecResult]:
+    def map(self, jobs: Sequence[Job], progress: Progress | None = None) -> list[SpecResult]:
         try:
             from distributed import Client
         except ImportError as err:  # pragma: no cover - depends on the install
@@ -180,14 +199,19 @@ class DaskExecutor:
                             code="NC200") from None
         try:
             futures = client.map(run_job, list(jobs), pure=False)
-            return list(client.gather(futures))
+            out = []
+            for future in futures:  # in job order, so the display advances steadily
+                out.append(future.result())
+                _tick(progress, len(out), len(futures))
+            return out
         finally:
             client.close()
 
 
-def run_all(items: Iterable[Job | SpecResult], executor: Executor) -> tuple[SpecResult, ...]:
+def run_all(items: Iterable[Job | SpecResult], executor: Executor,
+            progress: Progress | None = None) -> tuple[SpecResult, ...]:
     """Run the jobs among ``items`` with ``executor``, keeping the items' order."""
     items = list(items)
     jobs = [it for it in items if isinstance(it, Job)]
-    done = iter(executor.map(jobs))
+    done = iter(executor.map(jobs, progress))
     return tuple(next(done) if isinstance(it, Job) else it for it in items)

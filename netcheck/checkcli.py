@@ -6,6 +6,7 @@ import argparse
 import datetime as _dt
 import os
 import sys
+import time
 from pathlib import Path
 from typing import Callable
 
@@ -89,6 +90,26 @@ def _use_color(choice: str) -> bool:
     return sys.stdout.isatty()
 
 
+class _Progress:
+    """A one-line progress display for a terminal (nothing is drawn on CI logs)."""
+
+    def __init__(self, stream) -> None:
+        self.stream = stream
+        self.t0 = time.perf_counter()
+
+    def __call__(self, done: int, total: int) -> None:
+        width = 30
+        fill = int(width * done / max(total, 1))
+        elapsed = time.perf_counter() - self.t0
+        self.stream.write(f"\r[{'#' * fill}{'.' * (width - fill)}] {done}/{total} "
+                          f"{elapsed:5.1f} s")
+        self.stream.flush()
+
+    def close(self) -> None:
+        self.stream.write("\r" + " " * 60 + "\r")
+        self.stream.flush()
+
+
 def run_check(args: argparse.Namespace) -> int:
     """Run ``check``: judge, render every requested output, return the exit code."""
     from . import __version__
@@ -117,10 +138,16 @@ def run_check(args: argparse.Namespace) -> int:
     from .batch import DaskExecutor, LocalExecutor, expand_jobs, run_all
     items = expand_jobs(specs)
     executor = DaskExecutor(args.cluster) if args.cluster else LocalExecutor(args.jobs)
-    results = run_all(items, executor)
+    t0 = time.perf_counter()
+    bar = _Progress(sys.stderr) if sys.stderr.isatty() and len(items) > 1 else None
+    results = run_all(items, executor, bar)
+    if bar is not None:
+        bar.close()
     result = CheckResult(results, __version__, created_utc())
     options = RenderOptions(color=_use_color(args.color), verbose=args.verbose)
     get_renderer("text")(result, sys.stdout, options)
+    print(f"checked {len(results)} spec result{'s' if len(results) != 1 else ''} in "
+          f"{time.perf_counter() - t0:.1f} s", file=sys.stderr)
     for s in results:
         if s.error:
             print(s.error, file=sys.stderr)

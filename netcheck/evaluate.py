@@ -166,6 +166,13 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None) -> SpecRe
         if issubclass(w.category, NetcheckWarning):
             cautions.append(Caution("NC302", str(w.message), "warning"))
     extra: list[tuple[str, object]] = []
+    if spec.table("stress") is not None:
+        from .stress import judge_stress, parse_stress, stress_cautions, stress_lines
+        stress_limits = parse_stress(spec.table("stress"), spec.path, stress_lines(spec.text))
+        stressed = judge_stress(stress_limits, response, index_offset=len(spec.limits))
+        limits.extend(r.to_limit_result() for r in stressed)
+        cautions.extend(stress_cautions(stressed))
+        extra.append(("stress", [r.to_json() for r in stressed]))
     envelope = (None, None)
     if spec.table("tolerances") is not None or spec.table("analysis") is not None:
         tol_rows, tol_block, envelope, tol_cautions = _tolerance(

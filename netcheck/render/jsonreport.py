@@ -10,7 +10,7 @@ import json
 import math
 from typing import IO, Any
 
-from ..result import CheckResult, LimitResult, SpecResult, finite_or_none
+from ..result import Caution, CheckResult, LimitResult, SpecResult, finite_or_none
 
 __all__ = ["render", "to_dict", "SCHEMA"]
 
@@ -37,14 +37,18 @@ def _limit(lim: LimitResult) -> dict[str, Any]:
     }
 
 
+def _caution(c: Caution) -> dict[str, Any]:
+    return {"code": c.code, "severity": c.severity, "message": c.message, "path": c.path,
+            "line": c.line, "column": c.column}
+
+
 def _spec(s: SpecResult) -> dict[str, Any]:
     out: dict[str, Any] = {
         "spec": s.spec, "netlist": s.netlist, "title": s.title, "status": s.status.value,
         "limits": [_limit(lim) for lim in s.limits],
         "measurements": {k: _num(v) for k, v in s.measurements},
         "counts": s.counts,
-        "cautions": [{"code": c.code, "severity": c.severity, "message": c.message,
-                      "path": c.path, "line": c.line, "column": c.column} for c in s.cautions],
+        "cautions": [_caution(c) for c in s.cautions],
         "inputs": [{"path": p, "sha256": h} for p, h in s.inputs],
         "sweep": {k: _num(v) for k, v in s.sweep},
     }
@@ -63,6 +67,7 @@ def to_dict(result: CheckResult) -> dict[str, Any]:
         "schema": SCHEMA, "tool_version": result.tool_version,
         "created_utc": result.created_utc or None, "status": result.status.value,
         "counts": result.counts, "specs": [_spec(s) for s in result.specs],
+        "cautions": [_caution(c) for c in result.cautions],
     }
 
 

@@ -145,6 +145,15 @@ class TestNumbers:
         assert (lim["measured"], lim["margin"], lim["at_hz"]) == (None, None, None)
 
 
+def test_cautions_of_the_spec_and_of_the_run():
+    doc = to_dict(sample_result())
+    assert [c["code"] for c in doc["specs"][3]["cautions"]] == ["safety", "NC154", "NC302"]
+    assert doc["cautions"] == [{"code": "NC150", "severity": "warning",
+                                "message": "unknown directive .temp ignored",
+                                "path": "sample_netlists/lib/quillmere_opamps.lib",
+                                "line": 3, "column": 1}]
+
+
 def test_reproducible_and_sorted():
     first, second = dumps(sample_result()), dumps(sample_result())
     assert first == second
