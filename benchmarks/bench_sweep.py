@@ -125,7 +125,7 @@ def main(argv: list[str] | None = None) -> None:
     print(f"      circuit.ac(...) incl. assembly {_harness.fmt_timing(timings['ac'])}")
     print(f"  (b) naive spsolve loop             {_harness.fmt_timing(timings['naive'])}")
     print(f"  (c) scipy.signal.freqs(b, a, w)    {_harness.fmt_timing(timings['freqs'])}")
-    print("  note: (a) also returns the exact derivative dH/df; (b) and (c) return H only")
+    print("  note: all three return H only; netcheck computes the exact dH/df when first asked for")
     print()
     r_naive, r_freqs = t_naive / t_solve, t_solve / t_freqs
     print("ratios")

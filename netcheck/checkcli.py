@@ -145,7 +145,10 @@ def run_check(args: argparse.Namespace) -> int:
         bar.close()
     result = CheckResult(results, __version__, created_utc())
     options = RenderOptions(color=_use_color(args.color), verbose=args.verbose)
-    get_renderer("text")(result, sys.stdout, options)
+    to_stdout = "-" in (args.json, args.junit, args.sarif, args.summary_md, args.pdf_combined)
+    # a document written to stdout keeps stdout to itself; the table goes to stderr
+    table_stream = sys.stderr if to_stdout else sys.stdout
+    get_renderer("text")(result, table_stream, options)
     print(f"checked {len(results)} spec result{'s' if len(results) != 1 else ''} in "
           f"{time.perf_counter() - t0:.1f} s", file=sys.stderr)
     for s in results:

@@ -56,7 +56,7 @@ class ResponseCurve:
         return cls(response, f, np.unique(seeds))
 
     def transfer(self, f_hz: np.ndarray) -> np.ndarray:
-        return self.response.at(f_hz)[0]
+        return self.response.at(f_hz, derivative=False)[0]
 
     def dtransfer(self, f_hz: np.ndarray) -> np.ndarray:
         return self.response.at(f_hz)[1]

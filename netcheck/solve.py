@@ -64,7 +64,7 @@ def validate_frequencies(freqs: object) -> np.ndarray:
     f = np.atleast_1d(np.asarray(freqs, dtype=float))
     if f.ndim != 1 or f.size == 0:
         raise ValueError("freqs: expected a non-empty 1-D array of frequencies in Hz")
-    if not np.all(np.isfinite(f)) or np.any(f <= 0):
+    if not np.isfinite(f).all() or (f <= 0).any():
         raise ValueError("freqs: every frequency must be finite and > 0 Hz")
     return f
 
@@ -74,8 +74,9 @@ class Engine(Protocol):
 
     method: str
 
-    def transfer(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """H(f) and dH/df (per Hz) at the frequencies ``f``."""
+    def transfer(self, f: np.ndarray, derivative: bool = True
+                 ) -> tuple[np.ndarray, np.ndarray | None]:
+        """H(f) and dH/df (per Hz; None unless ``derivative``) at the frequencies ``f``."""
         ...
 
 
@@ -136,11 +137,13 @@ class DenseEngine:
         """y = l·x only (no derivative)."""
         return self._solve(f, self.system.b) @ self.system.l
 
-    def transfer(self, f: np.ndarray, l: np.ndarray | None = None
-                 ) -> tuple[np.ndarray, np.ndarray]:
+    def transfer(self, f: np.ndarray, l: np.ndarray | None = None, derivative: bool = True
+                 ) -> tuple[np.ndarray, np.ndarray | None]:
         """y = l·x and dy/df by the adjoint: dy/ds = −(A⁻ᵀl)ᵀ C (A⁻¹b)."""
         l = self.system.l if l is None else l
         x = self._solve(f, self.system.b)
+        if not derivative:
+            return x @ l, None
         y = self._solve(f, l, transpose=True)
         h = x @ l
         dh_ds = -np.einsum("fi,fi->f", y, x @ self.C.T)
@@ -185,8 +188,8 @@ class SparseEngine:
             out[i] = self._factor(fi).solve(b)
         return out
 
-    def transfer(self, f: np.ndarray, l: np.ndarray | None = None
-                 ) -> tuple[np.ndarray, np.ndarray]:
+    def transfer(self, f: np.ndarray, l: np.ndarray | None = None, derivative: bool = True
+                 ) -> tuple[np.ndarray, np.ndarray | None]:
         """y = l·x and dy/df from one factorisation per frequency (adjoint solve)."""
         l = (self.system.l if l is None else l).astype(complex)
         b = self.system.b.astype(complex)
@@ -195,10 +198,11 @@ class SparseEngine:
         for i, fi in enumerate(f):
             lu = self._factor(fi)
             x = lu.solve(b)
-            y = lu.solve(l, trans="T")
             h[i] = l @ x
-            dh[i] = -(y @ (self.C @ x))
-        return h, (1j * _TWO_PI) * dh
+            if derivative:
+                y = lu.solve(l, trans="T")
+                dh[i] = -(y @ (self.C @ x))
+        return h, ((1j * _TWO_PI) * dh if derivative else None)
 
 
 @dataclass
@@ -248,20 +252,20 @@ class PoleZeroEngine:
             return None
         checks = _check_indices(grid)
         h_ref = direct.values(grid[checks])
-        if not np.any(np.abs(h_ref) > 0):
+        if not (np.abs(h_ref) > 0).any():
             return None
         rel = np.finfo(float).eps * 256
         eng = cls(direct, w, poles, zeros, 1.0 + 0j,
                   rel * np.maximum(np.abs(poles), 1.0), rel * np.maximum(np.abs(zeros), 1.0))
         # one evaluation of the form on the whole grid serves the gain, the check and the
         # sweep itself (the check points are grid points)
-        shape, dshape, est = eng._evaluate(grid)
+        shape, _, est = eng._evaluate(grid, derivative=False)
         k = int(np.argmax(np.abs(h_ref)))
         eng.gain = h_ref[k] / shape[checks[k]]
-        h, dh = eng.gain * shape, eng.gain * dshape
+        h, dh = eng.gain * shape, None
         trusted = est[checks] <= POINT_TOL
         err = np.abs(h[checks] - h_ref) / np.maximum(np.abs(h_ref), 1e-300)
-        if np.any(err[trusted] > CHECK_TOL) or not np.isfinite(eng.gain):
+        if (err[trusted] > CHECK_TOL).any() or not np.isfinite(eng.gain):
             log.info("pole-zero form disagrees with direct solves (max rel err %.2e); "
                      "using direct solves", float(np.max(err[trusted], initial=0.0)))
             return None
@@ -272,8 +276,11 @@ class PoleZeroEngine:
         self._groups = (_group_roots(self.zeros, self.delta_z),
                         _group_roots(self.poles, self.delta_p))
 
-    def _evaluate_w(self, w: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """H, d(ln H)/ds and an error estimate at s = jw (w normalised, real).
+    def _evaluate_w(self, w: np.ndarray, derivative: bool = True
+                    ) -> tuple[np.ndarray, np.ndarray | None, np.ndarray]:
+        """H, d(ln H)/ds (None unless ``derivative``) and an error estimate at s = jw.
+
+        ``w`` is the normalised (real) angular frequency.
 
         A conjugate pair is taken as the real quadratic s² − 2σs + |r|²; all roots of a
         kind are handled in one (frequency × roots) array operation.
@@ -286,40 +293,49 @@ class PoleZeroEngine:
         with np.errstate(all="ignore"):
             for sigma, mod2, singles, risky, deltas in self._groups:
                 prod = np.ones(w.shape[1], dtype=complex)
-                dlog = np.zeros(w.shape[1], dtype=complex)
+                dlog = np.zeros(w.shape[1], dtype=complex) if derivative else None
                 if sigma.size:
                     fac = (mod2[:, None] - w2) - 2j * (sigma[:, None] * w)
-                    dlog = ((2.0 * jw - 2.0 * sigma[:, None]) / fac).sum(axis=0)
+                    if derivative:
+                        dlog = ((2.0 * jw - 2.0 * sigma[:, None]) / fac).sum(axis=0)
                     prod = fac.prod(axis=0)
                 if singles.size:
                     d = jw - singles[:, None]
                     prod = prod * d.prod(axis=0)
-                    dlog = dlog + (1.0 / d).sum(axis=0)
+                    if derivative:
+                        dlog = dlog + (1.0 / d).sum(axis=0)
                 if risky.size:
                     est += (deltas[:, None] / np.abs(jw - risky[:, None])).sum(axis=0)
                 out.append((prod, dlog))
             (num, dnum), (den, dden) = out
             h = self.gain * (num / den)
-        return h, dnum - dden, est
+        return h, (dnum - dden if derivative else None), est
 
-    def _evaluate(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    def _evaluate(self, f: np.ndarray, derivative: bool = True
+                  ) -> tuple[np.ndarray, np.ndarray | None, np.ndarray]:
         w = (_TWO_PI / self.w_scale) * f
-        h, dlog, est = self._evaluate_w(w)
+        h, dlog, est = self._evaluate_w(w, derivative)
         est[~np.isfinite(h) | ~np.isfinite(est)] = np.inf
-        dh = h * dlog * (1j * _TWO_PI / self.w_scale)
+        dh = h * dlog * (1j * _TWO_PI / self.w_scale) if derivative else None
         return h, dh, est
 
-    def transfer(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    def transfer(self, f: np.ndarray, derivative: bool = True
+                 ) -> tuple[np.ndarray, np.ndarray | None]:
         """H and dH/df; points the error estimate does not trust are solved directly."""
         cached = self._grid
-        if cached is not None and f.shape == cached[0].shape and np.array_equal(f, cached[0]):
-            h, dh, est = cached[1].copy(), cached[2].copy(), cached[3]
+        if (cached is not None and (cached[2] is not None or not derivative)
+                and f.shape == cached[0].shape and np.array_equal(f, cached[0])):
+            h, est = cached[1].copy(), cached[3]
+            dh = None if cached[2] is None or not derivative else cached[2].copy()
         else:
-            h, dh, est = self._evaluate(f)
+            h, dh, est = self._evaluate(f, derivative)
         redo = est > POINT_TOL
-        if np.any(redo):
+        if redo.any():
             self.fallback_points += int(redo.sum())
-            h[redo], dh[redo] = self.direct.transfer(f[redo])
+            h_d, dh_d = self.direct.transfer(f[redo], derivative=derivative)
+            h[redo] = h_d
+            if derivative:
+                dh[redo] = dh_d
         return h, dh
 
     def solution(self, f: np.ndarray) -> np.ndarray:
@@ -336,14 +352,14 @@ def _finite_eigs(a: np.ndarray, b: np.ndarray) -> np.ndarray | None:
     """
     if a.shape[0] == 0:
         return np.zeros(0, dtype=complex)
-    if not (np.all(np.isfinite(a)) and np.all(np.isfinite(b))):
-        return None
+    # G and C come from finite stamps (values are checked when evaluated), so no
+    # finiteness check is made here
     # LAPACK xGGEV (QZ) without eigenvectors; scipy.linalg.eigvals adds only overhead here
     alphar, alphai, beta, _, _, _, info = sla.lapack.dggev(a, b, compute_vl=0, compute_vr=0)
     if info != 0:
         return None
     alpha = alphar + 1j * alphai
-    if np.any((np.abs(alpha) < 1e-300) & (np.abs(beta) < 1e-300)):
+    if ((np.abs(alpha) < 1e-300) & (np.abs(beta) < 1e-300)).any():
         return None  # singular pencil: not a regular transfer function
     finite = np.abs(beta) * 1e12 > np.abs(alpha)
     if alphai.size:  # keep or drop the two members of a pair together
@@ -420,14 +436,23 @@ class Response:
     transfer : ndarray
         Complex V(node) − V(ref) per unit stimulus (V/V or V/A).
     dtransfer : ndarray
-        Exact derivative dH/df, per Hz (from one adjoint solve, not differences).
+        Exact derivative dH/df, per Hz (from one adjoint solve, not differences; computed
+        when first asked for).
     """
 
     frequency_hz: np.ndarray
     transfer: np.ndarray
-    dtransfer: np.ndarray
     system: System
     engine: object = field(repr=False)
+    _dtransfer: np.ndarray | None = field(default=None, repr=False)
+
+    @property
+    def dtransfer(self) -> np.ndarray:
+        """Exact dH/df per Hz (one adjoint solve per point, made on first use)."""
+        if self._dtransfer is None:
+            _, dh = self.engine.transfer(self.frequency_hz, derivative=True)
+            object.__setattr__(self, "_dtransfer", _readonly(dh))
+        return self._dtransfer
 
     @property
     def method(self) -> str:
@@ -453,9 +478,16 @@ class Response:
 
     @property
     def poles_hz(self) -> np.ndarray:
-        """Poles as complex frequencies s/2π (Hz), when the pole–zero engine was used."""
+        """Poles as complex frequencies s/2π (Hz); computed from the pencil when the
+        pole–zero engine was not used (empty for systems on the sparse path)."""
         if isinstance(self.engine, PoleZeroEngine):
             return _readonly(self.engine.poles * self.engine.w_scale / _TWO_PI)
+        if isinstance(self.engine, DenseEngine):
+            g, c = self.engine.G, self.engine.C
+            w = _TWO_PI * float(np.sqrt(self.frequency_hz.min() * self.frequency_hz.max()))
+            p = _finite_eigs(g, -c * w)
+            if p is not None:
+                return _readonly(p * w / _TWO_PI)
         return _readonly(np.zeros(0, dtype=complex))
 
     @property
@@ -465,9 +497,10 @@ class Response:
             return _readonly(self.engine.zeros * self.engine.w_scale / _TWO_PI)
         return _readonly(np.zeros(0, dtype=complex))
 
-    def at(self, f_hz: object) -> tuple[np.ndarray, np.ndarray]:
-        """H and dH/df at other frequencies, with the same engine."""
-        return self.engine.transfer(validate_frequencies(f_hz))
+    def at(self, f_hz: object, derivative: bool = True
+           ) -> tuple[np.ndarray, np.ndarray | None]:
+        """H and dH/df (None unless ``derivative``) at other frequencies, same engine."""
+        return self.engine.transfer(validate_frequencies(f_hz), derivative=derivative)
 
     def solution(self, f_hz: object | None = None) -> np.ndarray:
         """Every node voltage and branch current (F × n, columns ``system.unknowns``)."""
@@ -495,5 +528,5 @@ def solve(system: System, freqs: object) -> Response:
     """
     f = validate_frequencies(freqs)
     engine = make_engine(system, f)
-    h, dh = engine.transfer(f)
-    return Response(_readonly(f), _readonly(h), _readonly(dh), system, engine)
+    h, _ = engine.transfer(f, derivative=False)
+    return Response(_readonly(f), _readonly(h), system, engine)

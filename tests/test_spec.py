@@ -10,7 +10,7 @@ import pytest
 
 from netcheck.evaluate import check_spec
 from netcheck.exceptions import CODES, SpecError
-from netcheck.limits import CornerLimit, GainLimit, ResonanceLimit
+from netcheck.limits import LIMITS, CornerLimit, GainLimit, ResonanceLimit
 from netcheck.result import Status
 from netcheck.spec import Spec, Sweep, load_spec, parse_spec
 
@@ -341,3 +341,65 @@ def test_corner_defaults():
     assert (lim.range, lim.level_db, lim.side, lim.reference_db) == ((2e3, 3e3), None, "auto",
                                                                      None)
     assert lim.name == "corner (half-power)"
+
+
+class TestSpecFormatDoc:
+    """docs/spec-format.md cannot drift from the key tables the loader reads."""
+
+    DOC = Path(__file__).resolve().parents[1] / "docs" / "spec-format.md"
+
+    @staticmethod
+    def key_table(keys: dict[str, str]) -> list[str]:
+        """The Markdown table the doc shows for a limit kind, built from its KEYS."""
+        rows = [f"| `{key}` | {text.replace('|', chr(92) + '|')} |" for key, text in keys.items()]
+        return ["| key | meaning, unit |", "|---|---|", *rows]
+
+    def text(self) -> str:
+        return self.DOC.read_text("utf-8")
+
+    def toml_blocks(self) -> list[str]:
+        parts = self.text().split("```toml\n")[1:]
+        return [p.split("```")[0] for p in parts]
+
+    @pytest.mark.parametrize("kind", sorted(LIMITS))
+    def test_every_limit_kind_has_its_generated_table(self, kind):
+        doc = self.text()
+        section = doc.split(f"### `{kind}`:")[1].split("\n### ")[0].split("\n## ")[0]
+        assert "\n".join(self.key_table(LIMITS[kind].KEYS)) in section
+        summary = LIMITS[kind].SUMMARY
+        assert summary[0].upper() + summary[1:] + "." in section
+
+    def test_every_other_key_is_named(self):
+        from netcheck import batch, stress, tolerance
+        from netcheck.spec import SWEEP_KEYS, TOP_KEYS
+
+        doc = self.text()
+        tables = [TOP_KEYS, SWEEP_KEYS, stress.KEYS, tolerance.TOLERANCE_KEYS,
+                  tolerance.ANALYSIS_KEYS, batch.VARIANT_KEYS]
+        missing = [k for t in tables for k in t if f"| `{k}` |" not in doc]
+        assert missing == []
+
+    def test_examples_are_valid_specs(self):
+        blocks = self.toml_blocks()
+        assert len(blocks) == 3
+        specs = [parse_spec(b, "specs/example.toml") for b in blocks if "netlist" in b]
+        assert {type(lim).kind for lim in specs[-1].limits} == set(LIMITS)
+
+    def test_full_example_passes_on_its_netlist(self, tmp_path):
+        # the doc says so; the netlist path is relative to specs/
+        full = self.toml_blocks()[-1]
+        spec = tmp_path / "example.toml"
+        netlist = Path(__file__).resolve().parents[1] / "sample_netlists" / "rx40k.cir"
+        spec.write_text(full.replace('"../sample_netlists/rx40k.cir"', f'"{netlist}"'))
+        result = check_spec(str(spec))
+        assert result.error is None
+        assert {r.status for r in result.limits} == {Status.PASS}
+        assert len(result.limits) == 13
+
+    def test_error_example_is_what_netcheck_prints(self):
+        text = HEAD + GAIN * 3 + GAIN.replace('["2k", "3k"]', '["50k", "40k"]')
+        shown = fail(text, "specs/rx40k.toml").format().splitlines()
+        doc = self.text()
+        example = doc.split("```text\n")[1].split("```")[0].splitlines()
+        assert example[0].split(": error ")[1] == shown[0].split(": error ")[1]
+        assert example[1:] == shown[1:]

@@ -204,35 +204,38 @@ def _order(limits: tuple[LimitResult, ...]) -> list[LimitResult]:
     return sorted(limits, key=lambda r: (-r.status.rank, r.index))
 
 
-def _verdict(s: SpecResult) -> dict[str, str]:
-    """Headline and sentence: the verdict in words, for page 1."""
+def _verdict(s: SpecResult) -> dict[str, Any]:
+    """The verdict in words for page 1: a headline and the limits that decide it."""
     n = s.counts
     total = len(s.limits)
+    plural = "s" if total != 1 else ""
     if s.error:
         first = s.error.strip().splitlines()[0] if s.error.strip() else "unknown error"
         return {"word": "NOT CHECKED", "status": "error", "symbol": "!",
-                "sentence": f"ERROR: this spec could not be checked, so nothing in it is "
-                            f"shown to be met. {first}"}
+                "headline": "ERROR: this spec could not be checked, so no limit in it is "
+                            "shown to be met.", "reasons": [first], "more": 0}
     failed = [lim for lim in _order(s.limits) if lim.status is Status.FAIL]
-    errored = [lim for lim in s.limits if lim.status is Status.ERROR]
-    parts = []
-    if failed:
-        names = "; ".join(f"{lim.name} ({format_measured(lim)} against {lim.bound_text}, "
-                          f"margin {format_margin(lim)})" for lim in failed)
-        parts.append(f"FAIL: {len(failed)} of {total} limit{'s' if total != 1 else ''} "
-                     f"failed: {names}.")
-    if errored:
-        names = "; ".join(lim.name for lim in errored)
-        parts.append(f"ERROR: {len(errored)} limit{'s' if len(errored) != 1 else ''} could "
-                     f"not be measured: {names}.")
-    if not parts:
+    errored = [lim for lim in _order(s.limits) if lim.status is Status.ERROR]
+    if failed or errored:
+        parts = []
+        if failed:
+            parts.append(f"{len(failed)} of {total} limit{plural} failed")
+        if errored:
+            parts.append(f"{len(errored)} could not be measured")
+        word = "FAIL" if failed else "ERROR"
+        headline = f"{word}: {' and '.join(parts)}."
+        items = [f"{lim.name}: {format_measured(lim)} against {lim.bound_text}, margin "
+                 f"{format_margin(lim)}" for lim in failed]
+        items += [f"{lim.name}: not measured ({lim.message or 'no value'})" for lim in errored]
+    elif total:
         skipped = f" ({n['skipped']} skipped)" if n["skipped"] else ""
-        parts.append(f"PASS: all {n['pass']} limit{'s' if n['pass'] != 1 else ''} met, "
-                     f"each with a margin of zero or more{skipped}." if total else
-                     "PASS: the spec has no limits to judge.")
-    word = s.status.word
-    return {"word": word, "status": s.status.value, "symbol": _SYMBOL[s.status],
-            "sentence": " ".join(parts)}
+        headline = f"PASS: all {n['pass']} limit{'s' if n['pass'] != 1 else ''} met{skipped}."
+        items = ["every margin is zero or more"]
+    else:
+        headline, items = "PASS: the spec has no limits to judge.", []
+    shown = 5
+    return {"word": s.status.word, "status": s.status.value, "symbol": _SYMBOL[s.status],
+            "headline": headline, "reasons": items[:shown], "more": max(0, len(items) - shown)}
 
 
 def _sweep_view(s: SpecResult) -> dict[str, Any]:

@@ -133,7 +133,7 @@ def zoom_window(spec: SpecResult) -> tuple[float, float] | None:
 
     With half-power edges measured: the edges widened by 1.2 bandwidths each side.
     Otherwise the union of the gain mask bands that set a minimum (pass-bands),
-    widened by a quarter of its width in log frequency.
+    widened by 8 % of its width in log frequency.
     """
     f = spec.curves.frequency_hz if spec.curves is not None else None
     if f is None or f.size < 2:
@@ -149,7 +149,7 @@ def zoom_window(spec: SpecResult) -> tuple[float, float] | None:
         blo, bhi = min(b.f_lo_hz for b in bands), max(b.f_hi_hz for b in bands)
         if not (0 < blo < bhi):
             return None
-        pad = 0.25 * math.log10(bhi / blo) + 0.02
+        pad = 0.08 * math.log10(bhi / blo) + 0.01
         lo, hi = max(f[0], blo / 10 ** pad), min(f[-1], bhi * 10 ** pad)
     if not hi > lo or (lo <= f[0] and hi >= f[-1]):
         return None
@@ -204,15 +204,25 @@ def _style(ax: Any) -> None:
     ax.set_axisbelow(True)
 
 
-def _hz_log_axis(ax: Any) -> None:
+def _hz_log_axis(ax: Any, lo: float, hi: float) -> None:
+    """Log frequency axis; decades labelled, and 2 and 5 as well on short spans."""
     from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
 
     ax.set_xscale("log")
-    ax.xaxis.set_major_locator(LogLocator(base=10.0))
-    ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: format_si(v, "Hz", 1)
-                                               if v > 0 else ""))
+    label = FuncFormatter(lambda v, _: _hz_text(v) if v > 0 else "")
+    if hi / lo < 200.0:
+        ax.xaxis.set_major_locator(LogLocator(base=10.0, subs=(1.0, 2.0, 5.0)))
+    else:
+        ax.xaxis.set_major_locator(LogLocator(base=10.0))
+    ax.xaxis.set_major_formatter(label)
     ax.xaxis.set_minor_locator(LogLocator(base=10.0, subs=np.arange(2, 10) * 0.1))
     ax.xaxis.set_minor_formatter(NullFormatter())
+
+
+def _hz_text(v: float) -> str:
+    """Tick label: ``20 kHz``, ``1 MHz`` (no trailing zeros)."""
+    scale, prefix = _si_scale(v * (1 + 1e-9))
+    return f"{v / scale:.3g} {prefix}Hz"
 
 
 def _hz_linear_axis(ax: Any, lo: float, hi: float) -> str:
@@ -234,30 +244,47 @@ def _si_scale(mag: float) -> tuple[float, str]:
 
 
 def _gain_limits(spec: SpecResult, lo_hz: float, hi_hz: float, zoom: bool) -> tuple[float, float]:
-    """y-range (dB) showing the curve in the span and every mask bound in it."""
+    """y-range (dB) for a gain panel over [lo_hz, hi_hz].
+
+    Whole sweep: the curve (down to 120 dB below its top) and every mask bound.
+    Resonance zoom: the peak down to 12 dB below it. Pass-band zoom: the pass-band
+    bounds and the curve inside the pass-bands only, so that flatness is readable.
+    """
     c = spec.curves
-    sel = (c.frequency_hz >= lo_hz) & (c.frequency_hz <= hi_hz)
-    g = c.gain_db[sel & np.isfinite(c.gain_db)]
+    f = c.frequency_hz
+    ok = np.isfinite(c.gain_db)
+    sel = (f >= lo_hz) & (f <= hi_hz) & ok
+    g = c.gain_db[sel]
     if g.size == 0:
         return -60.0, 10.0
-    top = float(g.max())
     peak = spec.measurement("peak_gain_db")
-    if zoom:
-        ref = peak if peak is not None else top
-        bottom = min(float(g.min()), ref - _HALF_POWER_DB - 3.0)
-        bottom = max(bottom, ref - 12.0)
+    bands = [(b, _offset(b, spec)) for b in spec.mask if b.quantity in _GAIN_QUANTITIES
+             and b.f_hi_hz >= lo_hz and b.f_lo_hz <= hi_hz]
+    bands = [(b, off) for b, off in bands if off is not None]
+    resonant = spec.measurement("f_low_hz") is not None
+    if not zoom:
+        top = float(g.max())
+        values = [top, max(float(g.min()), top - 120.0)]
+    elif resonant:
+        ref = peak if peak is not None else float(g.max())
+        values = [float(g.max()), max(min(float(g.min()), ref - _HALF_POWER_DB - 3.0),
+                                      ref - 12.0)]
     else:
-        bottom = max(float(g.min()), top - 120.0)
-    values = [top, bottom]
-    for band in spec.mask:
-        off = _offset(band, spec)
-        if band.quantity not in _GAIN_QUANTITIES or off is None:
-            continue
-        if band.f_hi_hz < lo_hz or band.f_lo_hz > hi_hz:
-            continue
-        values += [v + off for v in (band.lo, band.hi) if v is not None]
+        values = []
+        for b, _ in bands:
+            if b.lo is not None:
+                inside = (f >= b.f_lo_hz) & (f <= b.f_hi_hz) & ok
+                if inside.any():
+                    values += [float(c.gain_db[inside].min()), float(c.gain_db[inside].max())]
+        values = values or [float(g.max()), float(g.min())]
+    for b, off in bands:
+        if zoom and not resonant and b.lo is None:
+            continue  # a stop-band bound would squash the pass-band detail
+        values += [v + off for v in (b.lo, b.hi) if v is not None]
     lo, hi = min(values), max(values)
     span = max(hi - lo, 1.0)
+    if zoom and not resonant:
+        return lo - 0.35 * span, hi + 0.35 * span
     return lo - 0.1 * span, hi + (0.2 if zoom else 0.12) * span
 
 
@@ -279,7 +306,7 @@ def _draw_mask(ax: Any, spec: SpecResult, masks: dict[int, Tag], quantity: tuple
         lo = None if band.lo is None else (band.lo + off) / scale
         hi = None if band.hi is None else (band.hi + off) / scale
         edge = PALETTE["fail"] if failed else PALETTE["hatch"]
-        hatch = "xxx" if failed else "////"
+        hatch = "xx" if failed else "///"
         ax.fill_between([a, b], lo if lo is not None else y0, hi if hi is not None else y1,
                         facecolor=PALETTE["allowed"], edgecolor="none", linewidth=0, zorder=0.5)
         for bound, far in ((hi, y1), (lo, y0)):
@@ -304,11 +331,19 @@ def _draw_mask(ax: Any, spec: SpecResult, masks: dict[int, Tag], quantity: tuple
 
 def _fail_points(ax: Any, spec: SpecResult, fails: dict[int, Tag], curve: str, scale: float,
                  x_span: tuple[float, float], masked: set[str], drawn: list[Tag]) -> None:
-    """Mark the worst point of each failed limit whose unit lies on ``curve``."""
+    """Mark the worst point of each failed limit that belongs on this panel.
+
+    A limit whose unit is the panel's (dB on gain, s on group delay, deg on phase) gets
+    a cross at its worst point: exactly (at_hz, measured) when it draws a mask band,
+    else on the curve at at_hz. On the gain panel, limits in other units (frequency,
+    Q, impedance) get a wedge on the top edge at at_hz: where, not a value. Tags of
+    points that coincide share one label.
+    """
     c = spec.curves
     f = c.frequency_hz
     ylo, yhi = ax.get_ylim()
     offsets = {b.label: _offset(b, spec) for b in spec.mask if b.quantity in _GAIN_QUANTITIES}
+    groups: dict[tuple[str, float, float], list[Tag]] = {}
     for i, tag in fails.items():
         lim = spec.limits[i]
         if not (x_span[0] <= lim.at_hz <= x_span[1]):
@@ -318,21 +353,33 @@ def _fail_points(ax: Any, spec: SpecResult, fails: dict[int, Tag], curve: str, s
                 y = (lim.measured + offsets[lim.name]) / scale
             else:
                 y = float(np.interp(np.log(lim.at_hz), np.log(f), getattr(c, curve))) / scale
+            if not math.isfinite(y):
+                continue
+            where = ("point", round(math.log10(lim.at_hz), 4),
+                     round(min(max(y, ylo), yhi), 6))
         elif curve == "gain_db" and lim.unit not in _UNIT_CURVE:
-            # a frequency, Q or impedance limit: show where on the response it was found
-            y = float(np.interp(np.log(lim.at_hz), np.log(f), c.gain_db)) / scale
+            where = ("edge", round(math.log10(lim.at_hz), 4), yhi)
         else:
             continue
-        if not math.isfinite(y):
-            continue
-        y = min(max(y, ylo), yhi)
-        drawn.append(tag)
-        ax.plot([lim.at_hz], [y], marker="X", markersize=7, color=PALETTE["fail"],
-                markeredgecolor="white", markeredgewidth=0.7, zorder=7, linestyle="none")
-        ax.annotate(f"{tag.tag} FAIL", (lim.at_hz, y), xytext=(6, -9), textcoords="offset points",
-                    fontsize=_FONT_PT, color=PALETTE["fail"], fontweight="bold", zorder=8,
-                    bbox={"boxstyle": "round,pad=0.2", "facecolor": "white",
-                          "edgecolor": PALETTE["fail"], "linewidth": 0.6})
+        groups.setdefault(where, []).append(tag)
+    box = {"boxstyle": "round,pad=0.2", "facecolor": "white", "edgecolor": PALETTE["fail"],
+           "linewidth": 0.6}
+    for (kind, logx, y), tags in groups.items():
+        drawn.extend(tags)
+        x = 10.0 ** logx
+        label = " ".join(t.tag for t in tags) + " FAIL"
+        if kind == "point":
+            ax.plot([x], [y], marker="X", markersize=7, color=PALETTE["fail"],
+                    markeredgecolor="white", markeredgewidth=0.7, zorder=7, linestyle="none")
+            ax.annotate(label, (x, y), xytext=(6, -9), textcoords="offset points",
+                        fontsize=_FONT_PT, color=PALETTE["fail"], fontweight="bold", zorder=8,
+                        bbox=box)
+        else:
+            ax.plot([x], [y], marker="v", markersize=7, color=PALETTE["fail"], clip_on=False,
+                    markeredgecolor="white", markeredgewidth=0.6, zorder=7, linestyle="none")
+            ax.annotate(label, (x, y), xytext=(7, -3), textcoords="offset points", va="top",
+                        fontsize=_FONT_PT, color=PALETTE["fail"], fontweight="bold", zorder=8,
+                        bbox=box, annotation_clip=False)
 
 
 def _with_exact_points(spec: SpecResult, f: np.ndarray, g: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -424,8 +471,8 @@ def _gain_overview(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag
     fig = _figure(3.0)
     ax = fig.add_axes((0.08, 0.15, 0.885, 0.8))
     _style(ax)
-    _hz_log_axis(ax)
     f = spec.curves.frequency_hz
+    _hz_log_axis(ax, float(f[0]), float(f[-1]))
     _gain_axes(ax, spec, masks, fails, (float(f[0]), float(f[-1])), False, drawn)
     if zoom is not None:
         ax.axvspan(*zoom, facecolor="none", edgecolor=PALETTE["guide"], linewidth=0.7,
@@ -442,9 +489,14 @@ def _gain_zoom(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
     fig = _figure(3.1)
     ax = fig.add_axes((0.08, 0.15, 0.885, 0.8))
     _style(ax)
+    if zoom[1] / zoom[0] > 3.0:
+        _hz_log_axis(ax, *zoom)
+        label = "Frequency (log scale)"
+    else:
+        label = _hz_linear_axis(ax, *zoom)
     _gain_axes(ax, spec, masks, fails, zoom, True, drawn)
-    label = _hz_linear_axis(ax, *zoom)
-    _annotate_resonance(ax, spec)
+    if spec.measurement("f_low_hz") is not None:
+        _annotate_resonance(ax, spec)
     ax.set_xlabel(label, fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
     return _svg(fig)
 
@@ -477,7 +529,7 @@ def _phase_delay(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
         _style(ax)
         log = span[1] / span[0] > 3.0
         if log:
-            _hz_log_axis(ax)
+            _hz_log_axis(ax, *span)
         xlabel = "Frequency (log scale)" if log else _hz_linear_axis(ax, *span)
         y = getattr(c, curve)
         sel = (c.frequency_hz >= span[0]) & (c.frequency_hz <= span[1]) & np.isfinite(y)
