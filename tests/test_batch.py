@@ -106,3 +106,22 @@ def test_dask_local_cluster_equals_serial(family):
 def test_job_is_plain_data():
     job = Job("a.toml", "v", (("fc", 1.0),))
     assert dataclasses.replace(job) == job
+
+
+def test_family_matrix_in_text_report(family):
+    import io
+
+    from netcheck.render.text import render
+    from netcheck.result import CheckResult
+
+    results = run_all(expand_jobs([str(family)]), SerialExecutor())
+    out = io.StringIO()
+    render(CheckResult(results, "0", ""), out)
+    text = out.getvalue()
+    block = text[text.index("family "):]
+    assert "20 variants" in block
+    rows = block.splitlines()[2:22]
+    assert [r.split()[0] for r in rows] == [f"v{i:02d}" for i in range(20)]
+    # verdicts are words in every cell, not colour alone
+    assert rows[0].split()[1] == "FAIL" and "FAIL -" in rows[0]
+    assert rows[10].split()[1] == "PASS" and "PASS +" in rows[10]

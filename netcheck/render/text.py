@@ -70,12 +70,49 @@ def _cautions(cautions: tuple[Caution, ...], verbose: bool) -> list[str]:
     return out
 
 
+def _families(result: CheckResult) -> dict[str, list[SpecResult]]:
+    groups: dict[str, list[SpecResult]] = {}
+    for s in result.specs:
+        if s.variant is not None:
+            groups.setdefault(s.spec, []).append(s)
+    return {k: v for k, v in groups.items() if len(v) > 1}
+
+
+def _family_block(path: str, members: list[SpecResult]) -> list[str]:
+    """Variants × limits matrix of margins, with the verdict in words in every cell."""
+    names = list(dict.fromkeys(lim.name for s in members for lim in s.limits))
+    header = ["variant", "status"] + names
+    rows = [header]
+    for s in members:
+        by = {lim.name: lim for lim in s.limits}
+        cells = [s.variant or "", s.status.word]
+        for n in names:
+            lim = by.get(n)
+            if lim is None:
+                cells.append("—")
+            elif lim.margin is None:
+                cells.append(lim.status.word)
+            else:
+                sign = "+" if lim.margin >= 0 else ""
+                cells.append(f"{lim.status.word} {sign}{format_eng(lim.margin, lim.unit)}")
+        if s.error:
+            cells += ["(not checked)"] * (len(header) - len(cells))
+        rows.append(cells)
+    widths = [max(len(r[i]) if i < len(r) else 0 for r in rows) for i in range(len(header))]
+    out = [f"family {path}: {len(members)} variants, margins per limit"]
+    for r in rows:
+        out.append("  " + "  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip())
+    return out
+
+
 def render(result: CheckResult, stream: IO[str], options: Any = None) -> None:
     """Write the terminal report of ``result`` to ``stream``."""
     color = bool(getattr(options, "color", False))
     verbose = bool(getattr(options, "verbose", False))
     for s in result.specs:
         stream.write("\n".join(_spec_block(s, color, verbose)) + "\n\n")
+    for path, members in _families(result).items():
+        stream.write("\n".join(_family_block(path, members)) + "\n\n")
     run_wide = _cautions(result.cautions, verbose)
     if run_wide:
         stream.write("\n".join(run_wide) + "\n\n")
