@@ -118,7 +118,7 @@ def test_family_matrix_in_text_report(family):
     out = io.StringIO()
     render(CheckResult(results, "0", ""), out)
     text = out.getvalue()
-    block = text[text.index("family "):]
+    block = text[text.index("\nfamily ") + 1:]
     assert "20 variants" in block
     rows = block.splitlines()[2:22]
     assert [r.split()[0] for r in rows] == [f"v{i:02d}" for i in range(20)]
