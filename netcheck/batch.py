@@ -13,7 +13,7 @@ from typing import Callable, Iterable, Protocol, Sequence
 
 from .exceptions import SpecError
 from .result import SpecResult
-from .spec import SpecReader, load_spec
+from .spec import SpecReader, load_spec, locate
 from .units import UnitError, parse_value
 
 __all__ = ["Job", "expand_jobs", "run_job", "Executor", "SerialExecutor", "LocalExecutor",
@@ -121,7 +121,7 @@ def expand_jobs(spec_paths: Sequence[str]) -> list[Job | SpecResult]:
         try:
             jobs = _variant_jobs(path, table)
         except SpecError as err:
-            out.append(error_result(path, err))
+            out.append(error_result(path, locate(err, spec.text)))
             continue
         out.extend(jobs or [Job(path)])
     return out

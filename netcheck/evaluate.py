@@ -18,7 +18,7 @@ from .exceptions import Diagnostic, ElaborationError, NetcheckError, NetcheckWar
 from .measure import Extremum, MeasurementFailure, Resonance, peak, resonance
 from .result import SAFETY_CAUTION, Caution, Curves, SpecResult, Status, worst_status
 from .solve import Response, solve
-from .spec import Spec, load_spec
+from .spec import Spec, load_spec, locate
 
 __all__ = ["ResponseCurve", "SpecProbe", "evaluate", "check_spec", "seeds_from_roots"]
 
@@ -29,7 +29,7 @@ def seeds_from_roots(roots_hz: np.ndarray, lo: float, hi: float) -> np.ndarray:
     """Frequencies (Hz) where lightly damped poles or zeros put narrow features.
 
     For a root s/2π = σ + jν the feature sits near |ν| (and |s|/2π); only roots with
-    |ν| > |σ| (Q above 1/2) inside the sweep are kept.
+    |ν| > |σ| (Q above 1/√2) inside the sweep are kept.
     """
     if roots_hz.size == 0:
         return np.zeros(0)
@@ -290,4 +290,6 @@ def check_spec(path: str, overrides: dict[str, float] | None = None,
         circuit = elaborate(parsed, spec.allow_negative, overrides)
         return evaluate(spec, circuit, variant)
     except NetcheckError as err:
+        if isinstance(err, SpecError):
+            err = locate(err, spec.text)
         return error_result(path, err, spec.netlist, spec.title, variant)

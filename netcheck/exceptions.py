@@ -80,7 +80,9 @@ class NetcheckError(Exception):
         if self.span is not None:
             return str(self.span)
         if self.path and self.where:
-            return f"{self.path}: {self.where}"
+            # messages that already start with their key path need it only once
+            return self.path if self.message.startswith(self.where) else \
+                f"{self.path}: {self.where}"
         return self.path or self.where or "netcheck"
 
     def format(self) -> str:

@@ -232,13 +232,17 @@ def _show(v: Any) -> str:
 def _key_position(text: str, where: str) -> tuple[int, int, int] | None:
     """(line, column, width) of the key at ``where`` (``limits[3].band``, ``sweep.start``...).
 
+    ``where`` is a key path as :meth:`SpecReader.key_path` builds it; ``name[i]`` is the
+    i-th ``[[name]]`` table.
+
     A key that is not written (a missing one) points at the header of its table, and
     a table-level path (``limits[3]``) at the table header; a missing top-level key at
     the first line. None when the path cannot be found in ``text``.
     """
     head, _, key = where.partition(".")
-    if head.startswith("limits[") and head.endswith("]") and head[7:-1].isdigit():
-        table: tuple[str, int] = ("limits", int(head[7:-1]))
+    array, bracket, number = head.partition("[")
+    if bracket and number.endswith("]") and number[:-1].isdigit():
+        table: tuple[str, int] = (array, int(number[:-1]))   # limits[3], stress[0]
     elif key and head in TOP_KEYS:
         table = (head, 0)
     elif where in ("", "(top level)"):

@@ -220,18 +220,18 @@ class TestNarrowPeak:
         assert math.isclose(lim.at_hz, self.F0, rel_tol=1e-7)
         assert math.isclose(lim.margin, -3.0, rel_tol=1e-9)
 
-    @pytest.mark.xfail(strict=True, reason=(
-        "bug in netcheck/evaluate.py (ResponseCurve.of): seeds come only from "
-        "Response.poles_hz, which is empty when a sweep under solve.PZ_MIN_POINTS points "
-        "uses a direct engine, so a spike on a falling slope is missed"))
     def test_peak_on_a_slope_with_a_coarse_grid(self, tmp_path):
         # RP replaced by an inductor LP: a low-pass floor falling from 1.6 kHz, with the
         # same spike to 0 dB at f0 (Zs = jwLP || 0 = 0 there) and a notch just below it.
+        # The derivative is negative at both neighbouring grid points, so only the seeds
+        # from the circuit's poles find the spike (16 points: a direct-solve sweep).
         netlist = self.NETLIST.replace(f"RP in out {self.RP!r}", "LP in out 100u")
         result = run(tmp_path, netlist, self.SPEC.replace('["1k", "1meg"]', '["10k", "1meg"]')
                      .replace("-3", "-10"))
+        assert dict(result.sweep)["points"] == 16
         lim = only(result)
         assert abs(lim.measured) < 1e-9
+        assert math.isclose(lim.at_hz, self.F0, rel_tol=1e-7)
         assert lim.status is Status.FAIL
 
 

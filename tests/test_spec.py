@@ -110,7 +110,8 @@ class TestValidSpec:
 
 class TestPercentages:
     def spec(self, tolerance: str) -> ResonanceLimit:
-        text = HEAD + f'\n[[limits]]\nkind = "resonance"\ncenter = "40k"\ncenter_tolerance = {tolerance}\n'
+        text = HEAD + ('\n[[limits]]\nkind = "resonance"\ncenter = "40k"\n'
+                       f"center_tolerance = {tolerance}\n")
         return parse_spec(text).limits[0]
 
     @pytest.mark.parametrize("written, hz", [('"2.5%"', 1000.0), ('"1 %"', 400.0),
@@ -403,3 +404,23 @@ class TestSpecFormatDoc:
         example = doc.split("```text\n")[1].split("```")[0].splitlines()
         assert example[0].split(": error ")[1] == shown[0].split(": error ")[1]
         assert example[1:] == shown[1:]
+
+
+def test_locate_points_other_stages_errors_at_their_key():
+    # other stages (stress, tolerances) read raw tables and may locate their errors too
+    from netcheck.spec import locate
+
+    text = HEAD + '\n[[stress]]\nparts = "C*"\n\n[[stress]]\nparts = "L*"\nmax_curent = 1\n'
+    err = locate(SpecError("stress[1].max_curent: unknown key", code="NC201", path="q.toml",
+                           where="stress[1].max_curent"), text)
+    assert (err.span.line, err.span.column) == (line_of(text, "max_curent"), 1)
+    assert err.format().startswith(f"q.toml:{line_of(text, 'max_curent')}:1: error NC201: "
+                                   "stress[1].max_curent: unknown key")
+    assert (err.where, err.code) == ("stress[1].max_curent", "NC201")
+    # a missing key of the second [[stress]] table points at its header
+    err = locate(SpecError("stress[1].max_voltage: missing", path="q.toml",
+                           where="stress[1].max_voltage"), text)
+    assert err.span.line == len(HEAD.splitlines()) + 5
+    # an error that already has a span, or no key path, is returned as it is
+    plain = SpecError("cannot read spec", path="q.toml")
+    assert locate(plain, text) is plain

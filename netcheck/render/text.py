@@ -99,9 +99,9 @@ def _family_block(path: str, members: list[SpecResult]) -> list[str]:
             cells += ["(not checked)"] * (len(header) - len(cells))
         rows.append(cells)
     widths = [max(len(r[i]) if i < len(r) else 0 for r in rows) for i in range(len(header))]
-    out = [f"family {path}: {len(members)} variants, margins per limit"]
+    out = [_clean(f"family {path}: {len(members)} variants, margins per limit")]
     for r in rows:
-        out.append("  " + "  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip())
+        out.append(_clean("  " + "  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip()))
     return out
 
 
@@ -119,7 +119,8 @@ def render(result: CheckResult, stream: IO[str], options: Any = None) -> None:
     n = result.counts
     errored_specs = sum(1 for s in result.specs if s.error)
     stream.write(f"{_paint(result.status.word, result.status, color)}: {len(result.specs)} "
-                 f"spec{'s' if len(result.specs) != 1 else ''}, {n['pass']} limits passed, "
+                 f"spec{'s' if len(result.specs) != 1 else ''}, {n['pass']} "
+                 f"limit{'s' if n['pass'] != 1 else ''} passed, "
                  f"{n['fail']} failed, {n['error']} could not be measured"
                  + (f", {n['skipped']} not applicable" if n["skipped"] else "")
                  + (f", {errored_specs} spec{'s' if errored_specs != 1 else ''} not checked"

@@ -90,7 +90,7 @@ def test_count_line():
     one = SpecResult("q.toml", "q.cir", "Quillmere one", Status.PASS, limits=(
         LimitResult("g", "gain", Status.PASS, -1.0, None, 0.0, 1.0, "dB", 1e3),))
     assert text(CheckResult((one,), "0.1.0")).splitlines()[-1] == \
-        "PASS: 1 spec, 1 limits passed, 0 failed, 0 could not be measured"
+        "PASS: 1 spec, 1 limit passed, 0 failed, 0 could not be measured"
 
 
 def test_unchecked_spec_shows_its_error_indented():
