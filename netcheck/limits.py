@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING, Any, ClassVar, Protocol
 
 import numpy as np
 
-from .measure import (HALF_POWER_DB, Curve, Extremum, MeasurementFailure, Resonance,
+from .measure import (Curve, Extremum, MeasurementFailure, Resonance,
                       band_extremes, corner, ripple)
 from .result import LimitResult, MaskBand, Status
 from .spec import SpecReader, Sweep
@@ -234,13 +234,9 @@ class RippleLimit(Limit):
                             "true band extremes (Brent's method on the exact response)",
                             "", self.index, self.line),)
 
-
-def _ripple_batch(self, bp):
-    value = bp.ripple(*self.band)
-    return [(self.name, value, self.max_db - value)]
-
-
-RippleLimit.judge_batch = _ripple_batch
+    def judge_batch(self, bp):
+        value = bp.ripple(*self.band)
+        return [(self.name, value, self.max_db - value)]
 
 
 @register
@@ -380,13 +376,9 @@ class CornerLimit(Limit):
                             f"frequency where gain is {level} below {ref}",
                             "Brent's method on the exact response", self.index, self.line),)
 
-
-def _corner_batch(self, bp):
-    f = bp.corner(self.level_db, self.reference_db, self.side)
-    return [(self.name, *range_margin(self.range[0], self.range[1], f, f))]
-
-
-CornerLimit.judge_batch = _corner_batch
+    def judge_batch(self, bp):
+        f = bp.corner(self.level_db, self.reference_db, self.side)
+        return [(self.name, *range_margin(self.range[0], self.range[1], f, f))]
 
 
 @register
@@ -434,19 +426,15 @@ class GroupDelayLimit(Limit):
                 self.index, self.line))
         return tuple(out)
 
-
-def _group_delay_batch(self, bp):
-    vmin, vmax = bp.band_extremes("group_delay_s", *self.band)
-    rows = []
-    if self.max is not None or self.min is not None:
-        rows.append((self.name, *range_margin(self.min, self.max, vmin.value, vmax.value)))
-    if self.max_variation is not None:
-        var = vmax.value - vmin.value
-        rows.append((f"{self.name}: variation", var, self.max_variation - var))
-    return rows
-
-
-GroupDelayLimit.judge_batch = _group_delay_batch
+    def judge_batch(self, bp):
+        vmin, vmax = bp.band_extremes("group_delay_s", *self.band)
+        rows = []
+        if self.max is not None or self.min is not None:
+            rows.append((self.name, *range_margin(self.min, self.max, vmin.value, vmax.value)))
+        if self.max_variation is not None:
+            var = vmax.value - vmin.value
+            rows.append((f"{self.name}: variation", var, self.max_variation - var))
+        return rows
 
 
 @register
@@ -478,14 +466,10 @@ class PhaseLimit(Limit):
                             "continuously from the start of the sweep",
                             "true band extremes (bounded minimisation)", self.index, self.line),)
 
-
-def _phase_batch(self, bp):
-    vmin, vmax = bp.band_extremes("phase_deg", *self.band)
-    return [(self.name, *range_margin(self.range_deg[0], self.range_deg[1], vmin.value,
-                                      vmax.value))]
-
-
-PhaseLimit.judge_batch = _phase_batch
+    def judge_batch(self, bp):
+        vmin, vmax = bp.band_extremes("phase_deg", *self.band)
+        return [(self.name, *range_margin(self.range_deg[0], self.range_deg[1], vmin.value,
+                                          vmax.value))]
 
 
 @register
@@ -518,14 +502,10 @@ class ImpedanceLimit(Limit):
                             f"{_band_text(self.band)}", "true band extremes of the exact "
                             "input impedance", self.index, self.line),)
 
-
-def _impedance_batch(self, bp):
-    zmin, zmax = bp.band_extremes("impedance_db", *self.band)
-    return [(self.name, *range_margin(self.range[0], self.range[1],
-                                      10.0 ** (zmin.value / 20.0), 10.0 ** (zmax.value / 20.0)))]
-
-
-ImpedanceLimit.judge_batch = _impedance_batch
+    def judge_batch(self, bp):
+        zmin, zmax = bp.band_extremes("impedance_db", *self.band)
+        return [(self.name, *range_margin(self.range[0], self.range[1],
+                                          10.0 ** (zmin.value / 20.0), 10.0 ** (zmax.value / 20.0)))]
 
 
 def build_limit(table: Any, index: int, path: str, sweep: Sweep, line: int | None) -> Limit:
