@@ -359,8 +359,11 @@ def _finite_eigs(a: np.ndarray, b: np.ndarray) -> np.ndarray | None:
     if info != 0:
         return None
     alpha = alphar + 1j * alphai
-    if ((np.abs(alpha) < 1e-300) & (np.abs(beta) < 1e-300)).any():
-        return None  # singular pencil: not a regular transfer function
+    scale_a = max(float(np.abs(a).max()), 1e-300)
+    scale_b = max(float(np.abs(b).max()), 1e-300)
+    tiny = 64 * np.finfo(float).eps * a.shape[0]
+    if ((np.abs(alpha) < tiny * scale_a) & (np.abs(beta) < tiny * scale_b)).any():
+        return None  # singular pencil (det(a - λb) ≡ 0): no regular transfer function
     finite = np.abs(beta) * 1e12 > np.abs(alpha)
     if alphai.size:  # keep or drop the two members of a pair together
         pair_first = np.flatnonzero(alphai[:-1] > 0)

@@ -269,8 +269,6 @@ def test_hand_written_case_with_every_controlled_source():
         np.testing.assert_allclose(got, expected, rtol=1e-9)
 
 
-@pytest.mark.xfail(strict=True, reason="solve.make_engine returns the pole-zero engine "
-                   "without a regularity check (reported; solve.py is not ours to change)")
 def test_singular_sweep_is_refused():
     # Found by test_controlled_source_sweeps_match_sympy. The VCVS gives
     # v2 - v4 = -1.6 (v1 - v2), and KCL at n2, n4 gives v4 = -0.6 v2 (1800/3000), so the
