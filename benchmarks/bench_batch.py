@@ -13,7 +13,9 @@ run (median of interleaved repeats, after a warm-up):
 (a) 1 worker: ``SerialExecutor()`` (in this process);
 (b) 2 local worker processes: ``LocalExecutor(2)`` (a new process pool per check);
 (c) a 2-worker Dask ``LocalCluster`` on loopback: ``DaskExecutor(address)``. The cluster
-    is started once beforehand, and its start-up time is printed apart.
+    is started once beforehand, and its start-up time is printed apart;
+(d) a calibration: the same pure-Python CPU work in 1 process and in a pool of 2, which
+    shows the speed-up the machine itself allows at that moment.
 
 It prints the speed-up at 2 workers, (a)/(b) (target >= 1.7x), and Dask against local
 processes, (c)/(b) (target: within 25 %), with the CPU seconds each run used, and
@@ -32,6 +34,7 @@ import statistics
 import tempfile
 import time
 from collections import Counter
+from concurrent.futures import ProcessPoolExecutor
 from pathlib import Path
 
 import _harness  # noqa: F401  (puts the repository root on sys.path)
@@ -120,6 +123,34 @@ max_variation = "10u"
 """
 
 
+SPIN = 2_000_000  # loop count of one calibration task (about 0.1-0.2 s of pure Python)
+SPIN_TASKS = 4
+
+
+def spin(n: int) -> int:
+    """Pure-Python CPU work with no I/O and no shared state: a calibration task."""
+    x = 0
+    for i in range(n):
+        x += i * i
+    return x
+
+
+def calibrate(workers: int) -> float:
+    """Wall seconds for SPIN_TASKS calibration tasks in this process or in a new pool.
+
+    Run beside the checks, this shows what a second process gains on the machine as
+    loaded at that moment: about 2x on two idle CPUs, less when other work competes.
+    """
+    t = time.perf_counter()
+    if workers <= 1:
+        for _ in range(SPIN_TASKS):
+            spin(SPIN)
+    else:
+        with ProcessPoolExecutor(max_workers=workers) as pool:
+            list(pool.map(spin, [SPIN] * SPIN_TASKS))
+    return time.perf_counter() - t
+
+
 def cpu_seconds() -> tuple[float, float]:
     """User + system CPU seconds of this process and of its reaped children."""
     me = resource.getrusage(resource.RUSAGE_SELF)
@@ -205,15 +236,19 @@ def main(argv: list[str] | None = None) -> None:
         run_all(items[:10], ex)
         warm[name] = time.perf_counter() - t
 
+    calibrate(1), calibrate(2)
     walls: dict[str, list[float]] = {k: [] for k in executors}
     cpu: dict[str, list[float]] = {k: [] for k in executors}
+    calib: dict[int, list[float]] = {1: [], 2: []}
     results: dict[str, tuple] = {}
-    for _ in range(args.repeat):  # round-robin: a, b, c, a, b, c, ...
+    for _ in range(args.repeat):  # round-robin: a, b, c, d, a, b, c, d, ...
         for name in executors:
             wall, used, res = run(name)
             walls[name].append(wall)
             cpu[name].append(used)
             results[name] = res
+        for workers in calib:
+            calib[workers].append(calibrate(workers))
     probe.close()
     cluster.close()
 
@@ -236,6 +271,9 @@ def main(argv: list[str] | None = None) -> None:
               f"(10 jobs) {warm[name]:.2f} s")
     print("  CPU counts this process, its reaped children (the local pool) and the Dask "
           "workers")
+    c1, c2 = statistics.median(calib[1]), statistics.median(calib[2])
+    print(f"  (d) calibration, {SPIN_TASKS} pure-Python tasks: 1 process {c1:.3f} s, pool of 2 "
+          f"{c2:.3f} s")
     print()
 
     speedup = t["serial"].median / t["local2"].median
@@ -251,6 +289,8 @@ def main(argv: list[str] | None = None) -> None:
           "   (for reference)")
     print(f"  CPU seconds (a)/(b)                  {ideal:6.2f}    (1.00 means the pool adds "
           "no work; 2 free CPUs would then allow 2x)")
+    print(f"  calibration speed-up at 2 processes  {c1 / c2:6.2f}x   (what the machine allowed "
+          "during this run)")
     print()
 
     serial, local, dask = results["serial"], results["local2"], results["dask2"]

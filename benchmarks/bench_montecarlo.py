@@ -82,7 +82,7 @@ def butterworth_ladder(order: int, fc: float, r: float) -> tuple[str, dict[str, 
     """
     wc = 2 * math.pi * fc
     params = {"rs": r}
-    cards = [f"RS in n1 {{rs}}"]
+    cards = ["RS in n1 {rs}"]
     node = 1
     for k in range(1, order + 1):
         g = 2 * math.sin((2 * k - 1) * math.pi / (2 * order))

@@ -189,6 +189,9 @@ def _syntax_error(source: SourceFile, text: str, err: UnexpectedInput) -> Netlis
             msg = f"unexpected character {ch!r}"
         return NetlistSyntaxError(msg, span)
     tok = getattr(err, "token", None)
+    expected = set(getattr(err, "expected", ()) or ())
+    if expected and expected <= {"NAME", "BRACED", "STRING", "_CONTINUATION"}:  # after "="
+        return NetlistSyntaxError("'=' needs a value after it (key=value)", span)
     if tok is None or tok.type == "$END":
         return NetlistSyntaxError("unexpected end of file", span)
     if str(tok) == "=":
@@ -256,14 +259,19 @@ def _expand(stmts: tuple[Statement, ...], here: Path, root: Path, chain: list[Pa
         if Path(name).is_absolute() or name.startswith("~"):
             raise NetlistSyntaxError(f"absolute include path {name!r} refused; give a path "
                                      "relative to the including file", target.span, code="NC104")
-        path = (here / name).resolve()
+        try:
+            path = (here / name).resolve()
+            found = path.is_file()
+        except (OSError, ValueError) as err:  # a NUL byte, a name too long for the OS
+            raise NetlistSyntaxError(f"include path {name!r} cannot be used: {err}",
+                                     target.span, code="NC104") from None
         if not path.is_relative_to(root):
             raise NetlistSyntaxError(f"include {name!r} leaves the design root {root}; "
                                      "use --root to widen it", target.span, code="NC104")
         if path in chain:
             cycle = " -> ".join(p.name for p in chain[chain.index(path):] + [path])
             raise NetlistSyntaxError(f"include cycle: {cycle}", target.span, code="NC104")
-        if not path.is_file():
+        if not found:
             raise NetlistSyntaxError(f"included file {name!r} not found (looked for {path})",
                                      target.span, code="NC104")
         sub = _read(path, _display(path, root))

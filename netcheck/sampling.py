@@ -67,11 +67,13 @@ class SampleSet:
         self.l = np.asarray(system.l, float)
         self.w_scale = _TWO_PI * math.sqrt(self.grid[0] * self.grid[-1])
         self.memory_bytes = memory_bytes
+        self.counts = _root_counts(system, self.grid)
         self._build_forms()
 
     # -- direct solves ------------------------------------------------------------
     def _chunk(self, per_sample_bytes: int) -> int:
-        return max(1, int(self.memory_bytes // max(per_sample_bytes, 1)))
+        # a quarter of the budget per temporary: several live at once
+        return max(1, int(self.memory_bytes // 4 // max(per_sample_bytes, 1)))
 
     def direct(self, f: np.ndarray, rows: np.ndarray | None = None,
                l: np.ndarray | None = None) -> np.ndarray:
@@ -92,40 +94,58 @@ class SampleSet:
         return out.reshape(f.shape)
 
     # -- pole-zero forms ----------------------------------------------------------
-    def _roots(self, g: np.ndarray, c: np.ndarray) -> np.ndarray:
-        """Finite roots s (normalised) of det(g + s c) = 0 per sample; inf where none."""
-        s0 = 1j
+    def _roots(self, g: np.ndarray, c: np.ndarray, count: int) -> np.ndarray:
+        """The ``count`` finite roots s (normalised) of det(g + s c) = 0, per sample.
+
+        Eigenvalues μ of (g + s₀c)⁻¹c (real s₀ = 1) map to roots s₀ − 1/μ; infinite
+        roots are μ = 0.
+        Infinite roots of higher index come out of a standard eigensolver as small but
+        non-zero μ (of order ε^(1/k)), so a threshold cannot tell them from finite
+        roots; the number of finite roots is taken from the nominal circuit's QZ
+        decomposition instead, and the ``count`` eigenvalues of largest |μ| are kept.
+        """
+        if count == 0:
+            return np.zeros((g.shape[0], 0), dtype=complex)
+        # a real shift (right half-plane, away from the poles of a stable circuit) keeps
+        # the eigenproblem real, several times cheaper than a complex one
+        s0 = 1.0
         k = g + s0 * c
         try:
-            m = np.linalg.solve(k, c.astype(complex))
+            m = np.linalg.solve(k, c)
             mu = np.linalg.eigvals(m)
         except np.linalg.LinAlgError:
-            return np.full(g.shape[:2], np.nan, dtype=complex)
-        scale = np.abs(mu).max(axis=1, keepdims=True)
-        finite = np.abs(mu) > 1e-11 * np.maximum(scale, 1e-300)
+            return np.full((g.shape[0], count), np.nan, dtype=complex)
+        order = np.argsort(-np.abs(mu), axis=1)[:, :count]
+        kept = np.take_along_axis(mu, order, axis=1)
         with np.errstate(all="ignore"):
-            roots = np.where(finite, s0 - 1.0 / mu, np.inf)
-        return roots
+            return s0 - 1.0 / kept
 
     def _build_forms(self) -> None:
         S, n = self.S, self.n
+        if self.counts is None:  # the nominal form is not trustworthy: solve directly
+            self.poles = np.zeros((S, 0), dtype=complex)
+            self.zeros = np.zeros((S, 0), dtype=complex)
+            self.gain = np.ones(S, dtype=complex)
+            self.direct_rows = np.arange(S)
+            return
+        n_poles, n_zeros = self.counts
         cn = self.C * self.w_scale
-        poles = np.empty((S, n), dtype=complex)
-        zeros = np.empty((S, n + 1), dtype=complex)
+        poles = np.empty((S, n_poles), dtype=complex)
+        zeros = np.empty((S, n_zeros), dtype=complex)
         step = self._chunk((n + 1) ** 2 * 16 * 6)
         gb = np.zeros((min(step, S), n + 1, n + 1))
         cb = np.zeros_like(gb)
         for i in range(0, S, step):
             j = min(S, i + step)
-            poles[i:j] = self._roots(self.G[i:j], cn[i:j])
+            poles[i:j] = self._roots(self.G[i:j], cn[i:j], n_poles)
             m = j - i
             gb[:m], cb[:m] = 0.0, 0.0
             gb[:m, :n, :n], cb[:m, :n, :n] = self.G[i:j], cn[i:j]
             gb[:m, :n, n], gb[:m, n, :n] = self.b, self.l
-            zeros[i:j] = self._roots(gb[:m], cb[:m])
+            zeros[i:j] = self._roots(gb[:m], cb[:m], n_zeros)
         self.poles, self.zeros = poles, zeros
         self.gain = np.ones(S, dtype=complex)
-        checks = self.grid[np.unique(np.linspace(0, self.grid.size - 1, 4).astype(int))]
+        checks = self.grid[np.unique(np.linspace(0, self.grid.size - 1, 5).astype(int))]
         ref = np.broadcast_to(checks, (S, checks.size))
         h_direct = self.direct(ref)
         shape = self._shape(ref)
@@ -135,20 +155,12 @@ class SampleSet:
             self.gain = h_direct[pick, big] / shape[pick, big]
             err = np.abs(self.gain[:, None] * shape - h_direct) / np.abs(h_direct)
         ok = np.all(np.isfinite(err) & (err < _CHECK_TOL), axis=1)
-        ok &= np.all(np.isfinite(self.poles) | np.isinf(self.poles), axis=1)
+        ok &= np.isfinite(self.poles).all(axis=1) & np.isfinite(self.zeros).all(axis=1)
         self.direct_rows = np.flatnonzero(~ok)
 
     def _shape(self, f: np.ndarray) -> np.ndarray:
         """Π(s − z)/Π(s − p) per sample at normalised s = j·2πf/w (f shape (S, K))."""
-        s = 1j * _TWO_PI * f / self.w_scale
-        num = np.ones(f.shape, dtype=complex)
-        den = np.ones(f.shape, dtype=complex)
-        with np.errstate(all="ignore"):
-            for r in self.zeros.T:
-                num *= np.where(np.isfinite(r)[:, None], s - r[:, None], 1.0)
-            for r in self.poles.T:
-                den *= np.where(np.isfinite(r)[:, None], s - r[:, None], 1.0)
-        return num / den
+        return _shape_rows(self, f, slice(None))
 
     def transfer(self, f: np.ndarray) -> np.ndarray:
         """H per sample at per-sample frequencies ``f`` (shape (S,) or (S, K))."""
@@ -191,10 +203,24 @@ def _shape_rows(ss: SampleSet, f: np.ndarray, rows: slice) -> np.ndarray:
     den = np.ones(f.shape, dtype=complex)
     with np.errstate(all="ignore"):
         for r in ss.zeros[rows].T:
-            num *= np.where(np.isfinite(r)[:, None], s - r[:, None], 1.0)
+            num *= s - r[:, None]
         for r in ss.poles[rows].T:
-            den *= np.where(np.isfinite(r)[:, None], s - r[:, None], 1.0)
+            den *= s - r[:, None]
     return num / den
+
+
+def _root_counts(system: System, grid: np.ndarray) -> tuple[int, int] | None:
+    """Numbers of finite poles and zeros of the nominal circuit (QZ), or None."""
+    from .solve import DenseEngine, PoleZeroEngine
+
+    try:
+        with np.errstate(all="ignore"):
+            eng = PoleZeroEngine.build(DenseEngine(system), grid)
+    except (np.linalg.LinAlgError, ValueError):
+        return None
+    if eng is None:
+        return None
+    return int(eng.poles.size), int(eng.zeros.size)
 
 
 def _db(h: np.ndarray) -> np.ndarray:
@@ -289,7 +315,7 @@ class BatchProbe:
         return out[0], out[1]
 
     def _golden(self, quantity: str, a: np.ndarray, b: np.ndarray, sign: float,
-                iterations: int = 60) -> tuple[np.ndarray, np.ndarray]:
+                iterations: int = 45) -> tuple[np.ndarray, np.ndarray]:
         """Golden-section search for the max of sign·value on [a, b] (log f), per sample."""
         la, lb = np.log(a), np.log(b)
         x1 = lb - _GOLDEN * (lb - la)
@@ -317,7 +343,7 @@ class BatchProbe:
         return self.band_extremes("gain_db", lo, hi)[1]
 
     def _bisect(self, a: np.ndarray, b: np.ndarray, level: np.ndarray,
-                iterations: int = 60) -> np.ndarray:
+                iterations: int = 48) -> np.ndarray:
         """Crossing of gain through ``level`` between a and b (log f), per sample."""
         la, lb = np.log(a), np.log(b)
         ga = self._value("gain_db", a) - level

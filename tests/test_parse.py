@@ -54,6 +54,11 @@ class TestCardShape:
     def test_continuation(self, text):
         assert cards(text) == [("R1", "a", "0", "1k")]
 
+    @pytest.mark.parametrize("text", ["t\nX1 a s r=\n+ 2k\n", "t\nX1 a s r\n+ =2k\n",
+                                      "t\nX1 a s\n+ r\n+ =\n+ 2k\n"])
+    def test_continuation_around_an_equals_sign(self, text):
+        assert cards(text) == [("X1", "a", "s", "r=2k")]
+
     def test_continuation_keeps_file_positions(self):
         card = load_netlist("t\nR1 a\n* note\n+ 0 1k\n").top.cards[0]
         assert (card.fields[2].span.line, card.fields[2].span.column) == (4, 5)
@@ -117,6 +122,7 @@ class TestCardShape:
         ("t\nR1 a 0 {1k\n", "2:8", "braces"),
         ("t\nR1 a 0 '1k\n", "2:8", "unterminated string"),
         ("t\nR1 = 1k\n", "2:4", "'=' needs a name"),
+        ("t\nX1 a s r=\nR1 a 0 1\n", "2:10", "'=' needs a value"),
         ("t\n.subckt s a\nR1 a 0 1\n", "2:1", "no matching .ends"),
         ("t\n.ends\n", "2:1", "without a matching .subckt"),
         ("t\n.subckt s a\nR1 a 0 1\n.ends q\n", "4:7", ".ends q closes .subckt s"),
@@ -231,6 +237,15 @@ class TestInclude:
     def test_missing_file(self, tmp_path):
         top = write(tmp_path / "top.cir", "t\n.include \"nope.lib\"\nR0 n 0 1\n")
         with pytest.raises(NetlistSyntaxError, match="not found") as info:
+            read_netlist(str(top))
+        assert (info.value.code, str(info.value.span)) == ("NC104", f"{top}:2:10")
+
+    @pytest.mark.parametrize("name", ["lib/op\0amp.lib", "x" * 5000])
+    def test_unusable_include_name(self, tmp_path, name):
+        # found by test_fuzz.py: a NUL byte (ValueError) or a name longer than the OS
+        # allows (OSError ENAMETOOLONG) must be a positioned netlist error
+        top = write(tmp_path / "top.cir", f"t\n.include \"{name}\"\nR0 n 0 1\n")
+        with pytest.raises(NetlistSyntaxError, match="cannot be used") as info:
             read_netlist(str(top))
         assert (info.value.code, str(info.value.span)) == ("NC104", f"{top}:2:10")
 

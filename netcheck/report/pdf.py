@@ -2,10 +2,11 @@
 
 A data step (:func:`build_context`) turns the result into plain, already formatted
 values; the templates in ``templates/`` only lay them out, with autoescaping on, so
-text from netlists and specs is always shown literally. weasyprint runs with
-:class:`LockedFetcher`, which refuses every URL: the report embeds everything it
-shows (inline SVG plots, the stylesheet as a string), so no file, network or other
-resource is ever read while rendering, and nothing is attached to the PDF.
+text from netlists and specs is always shown literally. weasyprint runs with a
+LockedFetcher (:func:`locked_fetcher`) that serves only the report's own plots (SVG
+documents kept in memory under ``netcheck-embedded:`` URLs, drawn as vectors) and
+refuses every other URL, so no file, network or data resource is ever read while
+rendering, and nothing is attached to the PDF. The stylesheet is passed as a string.
 
 jinja2, weasyprint and matplotlib are imported inside functions only.
 """
@@ -70,6 +71,30 @@ def _measurement_unit(key: str) -> str:
         if key.endswith(suffix):
             return unit
     return ""
+
+
+#: characters per appendix line: the 176 mm text width at 7 pt DejaVu Sans Mono (0.602 em)
+LISTING_COLUMNS = 118
+
+
+def listing_rows(text: str, columns: int = LISTING_COLUMNS) -> list[tuple[str, str]]:
+    """(line number, text) rows of a file listing; long lines wrap without a number.
+
+    Examples
+    --------
+    >>> listing_rows("a\\tb\\n" + "x" * 20, columns=10)
+    [('1', 'a   b'), ('2', 'xxxxxxxx'), (' ', 'xxxxxxxx'), (' ', 'xxxx')]
+    """
+    lines = text.splitlines() or [""]
+    width = len(str(len(lines)))
+    room = max(8, columns - width - 1)
+    rows = []
+    for no, line in enumerate(lines, 1):
+        line = line.expandtabs(4)
+        chunks = [line[i:i + room] for i in range(0, len(line), room)] or [""]
+        rows.append((str(no).rjust(width), chunks[0]))
+        rows += [(" " * width, c) for c in chunks[1:]]
+    return rows
 
 
 def _display_path(path: str) -> str:
@@ -183,6 +208,16 @@ def git_state(directory: str | os.PathLike, inputs: tuple[str, ...] = ()) -> Git
     return GitState(commit, dirty, text, tuple(flagged))
 
 
+def _recorded_git(value: Any) -> GitState | None:
+    """A git state the result already carries (``extra["git"]``: GitState or its dict)."""
+    if isinstance(value, GitState):
+        return value
+    if isinstance(value, dict) and "text" in value:
+        return GitState(value.get("commit"), value.get("dirty"), str(value["text"]),
+                        tuple(value.get("changed_inputs", ())))
+    return None
+
+
 # --------------------------------------------------------------------------- view data
 
 
@@ -256,6 +291,7 @@ def _sweep_view(s: SpecResult) -> dict[str, Any]:
         "source": sw.get("source", "?"), "output": out_text,
         "transfer": f"{out_text} / {sw.get('source', '?')}",
         "transfer_unit": "V/V" if unit == "V" else "V/A (transimpedance)",
+        "gain_unit": "dB" if unit == "V" else "dB re 1 V/A",
     }
 
 
@@ -277,22 +313,20 @@ def _spec_view(s: SpecResult, number: int, with_plots: bool = True) -> dict[str,
         inputs.append({"path": _display_path(path), "role": role, "sha256": digest})
     design = [i["path"] for i in inputs if i["role"] != "spec"] or (
         [_display_path(s.netlist)] if s.netlist else [])
-    git = s.extra_value("git")
-    if not isinstance(git, GitState):
+    git = _recorded_git(s.extra_value("git"))
+    if git is None:
         git = git_state(Path(s.spec).parent, tuple(p for p, _ in s.inputs))
     sources = []
-    for path, text in s.source_text:
-        lines = text.splitlines() or [""]
+    for k, (path, text) in enumerate(s.source_text):
+        role = "spec" if path == s.spec else "netlist" if k == 0 else "included file"
         sources.append({"path": _display_path(path), "sha256": hashes.get(path, ""),
-                        "role": "spec" if path == s.spec else "netlist",
-                        "lines": list(enumerate(lines, 1)),
-                        "width": len(str(len(lines)))})
+                        "role": role, "rows": listing_rows(text)})
     cautions = [_caution_view(c) for c in s.cautions if c.code != "safety"]
     measurements = [{"label": _MEASUREMENTS.get(k, (k, ""))[0],
                      "value": format_eng(v, _MEASUREMENTS[k][1] if k in _MEASUREMENTS
                                          else _measurement_unit(k))}
                     for k, v in s.measurements]
-    extra = [(k, _json_text(v)) for k, v in s.extra if k != "git"]
+    extra = [(k, _extra_rows(v)) for k, v in s.extra if k not in ("git", "stress")]
     n = s.counts
     return {
         "number": number, "label": s.label, "title": s.title, "variant": s.variant,
@@ -302,20 +336,46 @@ def _spec_view(s: SpecResult, number: int, with_plots: bool = True) -> dict[str,
         "inputs": inputs, "git": git, "sweep": _sweep_view(s),
         "rows": [_limit_row(lim, s.spec) for lim in _order(s.limits)],
         "measurements": measurements, "cautions": cautions,
-        "has_safety": any(c.code == "safety" for c in s.cautions),
+        "hazards": [c for c in cautions if c["severity"] == "caution"],
         "plots": spec_plots(s) if with_plots else (), "sources": sources, "extra": extra,
         "anchor": f"spec-{number}",
     }
 
 
-def _json_text(value: Any, limit: int = 60) -> str:
-    import json
+def _extra_rows(value: Any, prefix: str = "", depth: int = 2,
+                limit: int = 16) -> list[tuple[str, str]]:
+    """A further analysis block flattened to (key, value) rows for a short overview.
 
-    text = json.dumps(value, indent=1, sort_keys=True, ensure_ascii=False, default=str)
-    lines = text.splitlines()
-    if len(lines) > limit:
-        lines = lines[:limit] + [f"… ({len(lines) - limit} more lines in the JSON result)"]
-    return "\n".join(lines)
+    Tables nest into dotted keys down to ``depth`` levels; deeper tables and arrays
+    are summarised by their size (the JSON result carries them in full).
+
+    Examples
+    --------
+    >>> _extra_rows({"modes": ["nominal"], "mc": {"samples": 200, "counts": [1, 2, 3],
+    ...              "stats": {"q": {"min": 1.0}}}})
+    [('mc.counts', '3 values'), ('mc.samples', '200'), ('mc.stats', '1 entry'), ('modes', 'nominal')]
+    """
+    rows: list[tuple[str, str]] = []
+    key = prefix[:-1] or "value"
+    if isinstance(value, dict):
+        if depth == 0:
+            rows.append((key, f"{len(value)} entr{'y' if len(value) == 1 else 'ies'}"))
+        else:
+            for k in sorted(value, key=str):
+                rows += _extra_rows(value[k], f"{prefix}{k}.", depth - 1, limit)
+    elif isinstance(value, (list, tuple)):
+        if value and all(isinstance(v, str) for v in value):
+            rows.append((key, ", ".join(value)))
+        else:
+            kind = "entries" if any(isinstance(v, (dict, list)) for v in value) else "values"
+            rows.append((key, f"{len(value)} {kind}"))
+    elif isinstance(value, float):
+        rows.append((key, f"{value:.6g}"))
+    else:
+        rows.append((key, str(value)))
+    if not prefix and len(rows) > limit:
+        rows = rows[:limit] + [("…", f"{len(rows) - limit} more in the JSON result")]
+    return rows
 
 
 def build_context(result: CheckResult, with_plots: bool = True) -> dict[str, Any]:
@@ -332,7 +392,7 @@ def build_context(result: CheckResult, with_plots: bool = True) -> dict[str, Any
     else:
         sentence = f"PASS: all {len(specs)} specs met every limit."
     return {
-        "combined": len(specs) > 1, "specs": specs, "status": result.status.value,
+        "combined": len(specs) != 1, "specs": specs, "status": result.status.value,
         "word": word, "symbol": _SYMBOL[result.status], "sentence": sentence, "counts": n,
         "date": _date_text(result.created_utc), "created_utc": result.created_utc,
         "tool_version": result.tool_version, "safety": SAFETY_CAUTION,
@@ -412,6 +472,14 @@ def _stylesheet_text() -> str:
     return resources.files("netcheck.report").joinpath("templates/report.css").read_text("utf-8")
 
 
+@functools.lru_cache(maxsize=1)
+def _stylesheet() -> Any:
+    """The parsed report stylesheet (parsed once; it refers to no URL)."""
+    from weasyprint import CSS
+
+    return CSS(string=_stylesheet_text(), url_fetcher=locked_fetcher())
+
+
 def html_to_pdf(html: str, stream: IO[bytes], fetcher: Any = None, css: str | None = None) -> None:
     """Render ``html`` with the report stylesheet as PDF into ``stream``.
 
@@ -421,7 +489,7 @@ def html_to_pdf(html: str, stream: IO[bytes], fetcher: Any = None, css: str | No
     from weasyprint import CSS, HTML
 
     fetcher = fetcher if fetcher is not None else locked_fetcher()
-    sheet = CSS(string=_stylesheet_text() if css is None else css, url_fetcher=fetcher)
+    sheet = _stylesheet() if css is None else CSS(string=css, url_fetcher=fetcher)
     HTML(string=html, url_fetcher=fetcher, base_url=None).write_pdf(
         target=stream, stylesheets=[sheet], attachments=[], pdf_identifier=False,
         presentational_hints=False)

@@ -118,12 +118,14 @@ def tags_for(spec: SpecResult) -> tuple[dict[int, Tag], dict[int, Tag]]:
         status = lim.status if lim is not None else (Status.FAIL if band.failed else Status.PASS)
         masks[i] = Tag(f"M{len(masks) + 1}", band.label, _band_text(band, units[band.quantity]),
                        status)
+    re_peak = {b.label for b in spec.mask if b.quantity == "gain_re_peak_db"}
     fails: dict[int, Tag] = {}
     for i, lim in enumerate(spec.limits):
         if lim.status is not Status.FAIL or lim.at_hz is None or lim.measured is None:
             continue
+        ref = " (re peak)" if lim.name in re_peak else ""
         fails[i] = Tag(f"F{len(fails) + 1}", lim.name,
-                       f"worst value {format_eng(lim.measured, lim.unit)} at "
+                       f"worst value {format_eng(lim.measured, lim.unit)}{ref} at "
                        f"{format_si(lim.at_hz, 'Hz', 5)}, limit {lim.bound_text}", lim.status)
     return masks, fails
 
@@ -165,6 +167,11 @@ def _extra_panels(spec: SpecResult) -> list[str]:
 # --------------------------------------------------------------------------- drawing
 
 
+#: rcParams for drawing and saving: deterministic SVG ids, text kept as text
+_RC = {"svg.hashsalt": "netcheck-report", "svg.fonttype": "none", "svg.image_inline": True,
+       "font.family": "DejaVu Sans", "hatch.linewidth": 0.45, "axes.unicode_minus": True}
+
+
 def _svg(fig: Any) -> str:
     """The figure as an SVG ``<svg>`` element, byte-identical between runs."""
     import matplotlib
@@ -174,11 +181,6 @@ def _svg(fig: Any) -> str:
         fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": None})
     text = buf.getvalue()
     return text[text.index("<svg"):]
-
-
-#: rcParams for drawing and saving: deterministic SVG ids, text kept as text
-_RC = {"svg.hashsalt": "netcheck-report", "svg.fonttype": "none", "svg.image_inline": True,
-       "font.family": "DejaVu Sans", "hatch.linewidth": 0.45, "axes.unicode_minus": True}
 
 
 def _figure(height_in: float) -> Any:
@@ -290,9 +292,20 @@ def _gain_limits(spec: SpecResult, lo_hz: float, hi_hz: float, zoom: bool) -> tu
 
 def _draw_mask(ax: Any, spec: SpecResult, masks: dict[int, Tag], quantity: tuple[str, ...],
                scale: float, ylim: tuple[float, float], x_span: tuple[float, float],
-               drawn: list[Tag]) -> None:
-    """Allowed (tint) and forbidden (hatched) regions of each band, tagged M1, M2…"""
+               drawn: list[Tag], skip: tuple[float, float] | None = None) -> None:
+    """Allowed (tint) and forbidden (hatched) regions of each band, tagged M1, M2…
+
+    Bands lying inside ``skip`` (the zoom, on the overview) are drawn but not tagged:
+    the zoom figure tags them where there is room.
+    """
     y0, y1 = ylim
+    log = ax.get_xscale() == "log"
+
+    def frac(u: float, v: float) -> float:
+        if log:
+            return math.log10(v / u) / math.log10(x_span[1] / x_span[0])
+        return (v - u) / (x_span[1] - x_span[0])
+
     for i, band in enumerate(spec.mask):
         if i not in masks or band.quantity not in quantity:
             continue
@@ -316,21 +329,27 @@ def _draw_mask(ax: Any, spec: SpecResult, masks: dict[int, Tag], quantity: tuple
                             hatch=hatch, linewidth=0, zorder=0.6)
             ax.plot([a, b], [bound, bound], color=edge, linewidth=1.1 if failed else 0.9,
                     solid_capstyle="butt", zorder=2)
+        if skip is not None and skip[0] <= band.f_lo_hz and band.f_hi_hz <= skip[1]:
+            continue
         drawn.append(masks[i])
         label = masks[i].tag + (" FAIL" if failed else "")
         y_txt = hi if hi is not None else lo
         va = "bottom" if hi is not None else "top"
-        xm = math.sqrt(a * b) if ax.get_xscale() == "log" else 0.5 * (a + b)
+        if frac(a, b) > 0.25:
+            xm, ha, dx = (math.sqrt(a * b) if log else 0.5 * (a + b)), "center", 0
+        else:
+            xm, ha, dx = a, "left", 2
         if y_txt is not None and y0 < y_txt < y1:
-            ax.annotate(label, (xm, y_txt), xytext=(0, 3 if va == "bottom" else -3),
-                        textcoords="offset points", ha="center", va=va, fontsize=_FONT_PT - 0.5,
+            ax.annotate(label, (xm, y_txt), xytext=(dx, 3 if va == "bottom" else -3),
+                        textcoords="offset points", ha=ha, va=va, fontsize=_FONT_PT - 0.5,
                         color=edge, fontweight="bold", zorder=6,
                         bbox={"boxstyle": "round,pad=0.15", "facecolor": "white",
                               "edgecolor": edge, "linewidth": 0.5})
 
 
 def _fail_points(ax: Any, spec: SpecResult, fails: dict[int, Tag], curve: str, scale: float,
-                 x_span: tuple[float, float], masked: set[str], drawn: list[Tag]) -> None:
+                 x_span: tuple[float, float], masked: set[str], drawn: list[Tag],
+                 skip: tuple[float, float] | None = None) -> None:
     """Mark the worst point of each failed limit that belongs on this panel.
 
     A limit whose unit is the panel's (dB on gain, s on group delay, deg on phase) gets
@@ -343,11 +362,13 @@ def _fail_points(ax: Any, spec: SpecResult, fails: dict[int, Tag], curve: str, s
     f = c.frequency_hz
     ylo, yhi = ax.get_ylim()
     offsets = {b.label: _offset(b, spec) for b in spec.mask if b.quantity in _GAIN_QUANTITIES}
-    groups: dict[tuple[str, float, float], list[Tag]] = {}
+    groups: dict[tuple[str, float, float], list[tuple[Tag, LimitResult]]] = {}
     for i, tag in fails.items():
         lim = spec.limits[i]
         if not (x_span[0] <= lim.at_hz <= x_span[1]):
             continue
+        if skip is not None and skip[0] <= lim.at_hz <= skip[1]:
+            continue  # marked on the zoom instead
         if _UNIT_CURVE.get(lim.unit) == curve:
             if lim.name in masked and offsets.get(lim.name) is not None:
                 y = (lim.measured + offsets[lim.name]) / scale
@@ -361,14 +382,17 @@ def _fail_points(ax: Any, spec: SpecResult, fails: dict[int, Tag], curve: str, s
             where = ("edge", round(math.log10(lim.at_hz), 4), yhi)
         else:
             continue
-        groups.setdefault(where, []).append(tag)
+        groups.setdefault(where, []).append((tag, lim))
     box = {"boxstyle": "round,pad=0.2", "facecolor": "white", "edgecolor": PALETTE["fail"],
            "linewidth": 0.6}
-    for (kind, logx, y), tags in groups.items():
-        drawn.extend(tags)
+    for (kind, logx, y), members in groups.items():
+        drawn.extend(t for t, _ in members)
         x = 10.0 ** logx
-        label = " ".join(t.tag for t in tags) + " FAIL"
+        label = " ".join(t.tag for t, _ in members) + " FAIL"
         if kind == "point":
+            if len(members) == 1:
+                lim = members[0][1]
+                label += f"  {format_eng(lim.measured, lim.unit)}"
             ax.plot([x], [y], marker="X", markersize=7, color=PALETTE["fail"],
                     markeredgecolor="white", markeredgewidth=0.7, zorder=7, linestyle="none")
             ax.annotate(label, (x, y), xytext=(6, -9), textcoords="offset points",
@@ -402,21 +426,29 @@ def _with_exact_points(spec: SpecResult, f: np.ndarray, g: np.ndarray) -> tuple[
 
 
 def _gain_axes(ax: Any, spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
-               span: tuple[float, float], zoom: bool, drawn: list[Tag]) -> None:
+               span: tuple[float, float], zoom: bool, drawn: list[Tag],
+               skip: tuple[float, float] | None = None) -> None:
     c = spec.curves
     f, g = _with_exact_points(spec, c.frequency_hz, c.gain_db)
     ylim = _gain_limits(spec, *span, zoom)
     ax.set_xlim(*span)
     ax.set_ylim(*ylim)
-    _draw_mask(ax, spec, masks, _GAIN_QUANTITIES, 1.0, ylim, span, drawn)
+    _draw_mask(ax, spec, masks, _GAIN_QUANTITIES, 1.0, ylim, span, drawn, skip)
     if c.envelope_lo_db is not None and c.envelope_hi_db is not None:
         ax.fill_between(c.frequency_hz, c.envelope_lo_db, c.envelope_hi_db,
                         facecolor=PALETTE["envelope"], edgecolor="none", alpha=0.7, zorder=1,
                         label="tolerance envelope")
     ax.plot(f, g, color=PALETTE["ink"], linewidth=1.3, zorder=5, label="gain (nominal)")
     masked = {spec.mask[i].label for i in masks}
-    _fail_points(ax, spec, fails, "gain_db", 1.0, span, masked, drawn)
-    ax.set_ylabel("Gain (dB)", fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
+    _fail_points(ax, spec, fails, "gain_db", 1.0, span, masked, drawn, skip)
+    ax.set_ylabel(_gain_label(spec), fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
+
+
+def _gain_label(spec: SpecResult) -> str:
+    """y label: dB re 1 V/V for a voltage stimulus, re 1 V/A (transimpedance) for a current."""
+    if dict(spec.sweep).get("stimulus_unit") == "A":
+        return "Gain (dB re 1 V/A)"
+    return "Gain (dB)"
 
 
 def _annotate_resonance(ax: Any, spec: SpecResult) -> None:
@@ -468,12 +500,12 @@ def _annotate_resonance(ax: Any, spec: SpecResult) -> None:
 
 def _gain_overview(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
                    zoom: tuple[float, float] | None, drawn: list[Tag]) -> str:
-    fig = _figure(3.0)
-    ax = fig.add_axes((0.08, 0.15, 0.885, 0.8))
+    fig = _figure(2.6)
+    ax = fig.add_axes((0.08, 0.16, 0.885, 0.79))
     _style(ax)
     f = spec.curves.frequency_hz
     _hz_log_axis(ax, float(f[0]), float(f[-1]))
-    _gain_axes(ax, spec, masks, fails, (float(f[0]), float(f[-1])), False, drawn)
+    _gain_axes(ax, spec, masks, fails, (float(f[0]), float(f[-1])), False, drawn, zoom)
     if zoom is not None:
         ax.axvspan(*zoom, facecolor="none", edgecolor=PALETTE["guide"], linewidth=0.7,
                    linestyle=(0, (3, 2)), zorder=3)
@@ -486,8 +518,8 @@ def _gain_overview(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag
 
 def _gain_zoom(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
                zoom: tuple[float, float], drawn: list[Tag]) -> str:
-    fig = _figure(3.1)
-    ax = fig.add_axes((0.08, 0.15, 0.885, 0.8))
+    fig = _figure(2.8)
+    ax = fig.add_axes((0.08, 0.155, 0.885, 0.795))
     _style(ax)
     if zoom[1] / zoom[0] > 3.0:
         _hz_log_axis(ax, *zoom)
@@ -517,7 +549,7 @@ def _panel_span(spec: SpecResult, quantity: str,
 def _phase_delay(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
                  zoom: tuple[float, float] | None, drawn: list[Tag]) -> str:
     kinds = _extra_panels(spec)
-    fig = _figure(1.9 * len(kinds) + 0.45)
+    fig = _figure(1.65 * len(kinds) + 0.45)
     c = spec.curves
     n = len(kinds)
     bottom_margin, top_margin = 0.42 / fig.get_figheight(), 0.08 / fig.get_figheight()
@@ -567,13 +599,17 @@ def spec_plots(spec: SpecResult) -> tuple[Plot, ...]:
     masks, fails = tags_for(spec)
     zoom = zoom_window(spec)
     f = spec.curves.frequency_hz
+    envelope = (" The grey band is the tolerance envelope: the lowest to the highest gain "
+                "over the tolerance samples at each grid frequency."
+                if spec.curves.envelope_lo_db is not None else "")
     drawn: list[Tag] = []
     svg = _gain_overview(spec, masks, fails, zoom, drawn)
     plots = [Plot("Gain over the whole sweep",
                   f"Gain in dB against frequency, {format_si(float(f[0]), 'Hz')} to "
                   f"{format_si(float(f[-1]), 'Hz')}, with the spec mask: allowed regions are "
                   "tinted, forbidden regions hatched (cross-hatched where the limit failed)."
-                  + (" The dashed box marks the zoom below." if zoom else ""),
+                  + (" The dashed box marks the zoom below; what lies inside it is tagged "
+                     "there." if zoom else "") + envelope,
                   svg, _keys(drawn))]
     if zoom is not None:
         resonant = spec.measurement("f_low_hz") is not None
@@ -584,7 +620,7 @@ def spec_plots(spec: SpecResult) -> tuple[Plot, ...]:
             f"Gain from {format_si(zoom[0], 'Hz', 5)} to {format_si(zoom[1], 'Hz', 5)}"
             + (", with the half-power level (peak − 3.01 dB, |H_peak|/√2), the half-power edges "
                "f_low and f_high, the centre f_center = √(f_low·f_high), the bandwidth and Q."
-               if resonant else "."),
+               if resonant else ".") + envelope,
             svg, _keys(drawn)))
     panels = _extra_panels(spec)
     if panels:

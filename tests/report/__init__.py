@@ -1,0 +1,1 @@
+"""Tests of the PDF compliance report (netcheck.report)."""
