@@ -32,6 +32,7 @@ class Job:
     variant: str | None = None
     overrides: tuple[tuple[str, float], ...] = ()
     netlist: str | None = None
+    table: str | None = None
 
 
 def _variant_error(path: str, where: str, message: str) -> SpecError:
@@ -63,7 +64,7 @@ def _read_table(spec_path: str, table: str) -> list[Job]:
             except UnitError as err:
                 raise _variant_error(spec_path, "variants.table",
                                      f"{csv_path}:{i}: {err}") from None
-        jobs.append(Job(spec_path, row[0].strip(), tuple(values)))
+        jobs.append(Job(spec_path, row[0].strip(), tuple(values), table=str(csv_path)))
     return jobs
 
 
@@ -128,9 +129,26 @@ def expand_jobs(spec_paths: Sequence[str]) -> list[Job | SpecResult]:
 
 
 def run_job(job: Job) -> SpecResult:
-    """Check one job (the function workers run; never raises for bad input)."""
+    """Check one job (the function workers run; never raises for bad input).
+
+    A variant from a CSV table lists the table among the result's inputs (path, SHA-256
+    and text), so reports can prove which values were used.
+    """
+    import dataclasses
+    import hashlib
+
     from .evaluate import check_spec
-    return check_spec(job.spec, dict(job.overrides) or None, job.variant, netlist=job.netlist)
+    result = check_spec(job.spec, dict(job.overrides) or None, job.variant,
+                        netlist=job.netlist)
+    if job.table is not None:
+        try:
+            text = Path(job.table).read_text("utf-8")
+        except (OSError, UnicodeDecodeError):
+            return result
+        digest = hashlib.sha256(text.encode("utf-8")).hexdigest()
+        result = dataclasses.replace(result, inputs=result.inputs + ((job.table, digest),),
+                                     source_text=result.source_text + ((job.table, text),))
+    return result
 
 
 Progress = Callable[[int, int], None]

@@ -110,6 +110,21 @@ class _Progress:
         self.stream.flush()
 
 
+def _with_provenance(results: tuple) -> tuple:
+    """Record each spec folder's git commit and dirty state in its result (``extra.git``)."""
+    import dataclasses
+
+    from .provenance import git_record
+
+    out, cache = [], {}
+    for r in results:
+        key = (str(Path(r.spec).parent), tuple(p for p, _ in r.inputs))
+        if key not in cache:
+            cache[key] = git_record(key[0], key[1])
+        out.append(dataclasses.replace(r, extra=r.extra + (("git", cache[key]),)))
+    return tuple(out)
+
+
 def run_check(args: argparse.Namespace) -> int:
     """Run ``check``: judge, render every requested output, return the exit code."""
     from . import __version__
@@ -143,6 +158,7 @@ def run_check(args: argparse.Namespace) -> int:
     results = run_all(items, executor, bar)
     if bar is not None:
         bar.close()
+    results = _with_provenance(results)
     result = CheckResult(results, __version__, created_utc())
     options = RenderOptions(color=_use_color(args.color), verbose=args.verbose)
     to_stdout = "-" in (args.json, args.junit, args.sarif, args.summary_md, args.pdf_combined)

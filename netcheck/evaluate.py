@@ -264,6 +264,16 @@ def error_result(path: str, err: NetcheckError, netlist: str = "", title: str = 
                                         err.span.column if err.span else None),))
 
 
+def _with_spec_text(result: SpecResult, path: str) -> SpecResult:
+    """Add the spec's text and SHA-256 to an error result when the file can be read."""
+    try:
+        text = Path(path).read_bytes().decode("utf-8", errors="replace")
+    except OSError:
+        return result
+    return dataclasses.replace(result, inputs=((path, _sha256(text)),),
+                               source_text=((path, text),))
+
+
 def check_spec(path: str, overrides: dict[str, float] | None = None,
                variant: str | None = None, spec: Spec | None = None,
                netlist: str | None = None) -> SpecResult:
@@ -275,7 +285,7 @@ def check_spec(path: str, overrides: dict[str, float] | None = None,
     try:
         spec = spec or load_spec(path)
     except NetcheckError as err:
-        return error_result(path, err, variant=variant)
+        return _with_spec_text(error_result(path, err, variant=variant), path)
     if netlist is not None:
         spec = dataclasses.replace(spec, netlist=netlist)
     try:
@@ -292,4 +302,4 @@ def check_spec(path: str, overrides: dict[str, float] | None = None,
     except NetcheckError as err:
         if isinstance(err, SpecError):
             err = locate(err, spec.text)
-        return error_result(path, err, spec.netlist, spec.title, variant)
+        return _with_spec_text(error_result(path, err, spec.netlist, spec.title, variant), path)

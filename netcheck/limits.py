@@ -426,6 +426,12 @@ class GroupDelayLimit(Limit):
                 self.index, self.line))
         return tuple(out)
 
+    def mask(self):
+        if self.max is None and self.min is None:
+            return ()
+        return (MaskBand(self.name, self.band[0], self.band[1], self.min, self.max,
+                         "group_delay_s"),)
+
     def judge_batch(self, bp):
         vmin, vmax = bp.band_extremes("group_delay_s", *self.band)
         rows = []
@@ -465,6 +471,10 @@ class PhaseLimit(Limit):
                             vmax, "deg", f"phase over {_band_text(self.band)}, unwrapped "
                             "continuously from the start of the sweep",
                             "true band extremes (bounded minimisation)", self.index, self.line),)
+
+    def mask(self):
+        return (MaskBand(self.name, self.band[0], self.band[1], self.range_deg[0],
+                         self.range_deg[1], "phase_deg"),)
 
     def judge_batch(self, bp):
         vmin, vmax = bp.band_extremes("phase_deg", *self.band)
