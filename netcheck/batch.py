@@ -128,6 +128,45 @@ def expand_jobs(spec_paths: Sequence[str]) -> list[Job | SpecResult]:
     return out
 
 
+_CACHE: dict[tuple, tuple] = {}
+
+
+def _stamp(path: str) -> tuple[int, int] | None:
+    try:
+        st = os.stat(path)
+    except OSError:
+        return None
+    return st.st_mtime_ns, st.st_size
+
+
+def _cached_inputs(job: Job) -> tuple[object, object]:
+    """The job's parsed spec and netlist, reused by the variants a worker runs.
+
+    Entries are keyed by path and checked against every file's modification time and
+    size, includes too, so an edited file is read again. Anything that fails to load
+    returns None and is loaded (and reported) by check_spec itself.
+    """
+    from .exceptions import NetcheckError
+    from .parse import load_netlist
+
+    try:
+        key = ("spec", job.spec)
+        hit = _CACHE.get(key)
+        if hit is None or hit[0] != _stamp(job.spec):
+            _CACHE[key] = hit = (_stamp(job.spec), load_spec(job.spec))
+        spec = hit[1]
+        netlist = job.netlist or spec.netlist
+        key = ("netlist", netlist, spec.root)
+        hit = _CACHE.get(key)
+        if hit is None or any(_stamp(p) != st for p, st in hit[0]):
+            parsed = load_netlist(netlist, spec.root)
+            stamps = tuple((src.path, _stamp(src.path)) for src in parsed.sources)
+            _CACHE[key] = hit = (stamps, parsed)
+        return spec, hit[1]
+    except NetcheckError:
+        return None, None
+
+
 def run_job(job: Job) -> SpecResult:
     """Check one job (the function workers run; never raises for bad input).
 
@@ -138,8 +177,9 @@ def run_job(job: Job) -> SpecResult:
     import hashlib
 
     from .evaluate import check_spec
-    result = check_spec(job.spec, dict(job.overrides) or None, job.variant,
-                        netlist=job.netlist)
+    spec, parsed = _cached_inputs(job)
+    result = check_spec(job.spec, dict(job.overrides) or None, job.variant, spec=spec,
+                        netlist=job.netlist, parsed=parsed)
     if job.table is not None:
         try:
             text = Path(job.table).read_text("utf-8")

@@ -13,7 +13,7 @@ import numpy as np
 
 from .assemble import System, assemble
 from .elaborate import Circuit, elaborate
-from .parse import load_netlist
+from .parse import Netlist, load_netlist
 from .exceptions import Diagnostic, ElaborationError, NetcheckError, NetcheckWarning, SpecError
 from .measure import Extremum, MeasurementFailure, Resonance, peak, resonance
 from .result import SAFETY_CAUTION, Caution, Curves, SpecResult, Status, worst_status
@@ -47,6 +47,7 @@ class ResponseCurve:
     response: Response
     grid_hz: np.ndarray
     seeds_hz: np.ndarray
+    _last: dict = field(default_factory=dict, repr=False)
 
     @classmethod
     def of(cls, response: Response) -> "ResponseCurve":
@@ -55,11 +56,21 @@ class ResponseCurve:
                                 seeds_from_roots(response.zeros_hz, f[0], f[-1])])
         return cls(response, f, np.unique(seeds))
 
+    def _both(self, f_hz: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        # measurements ask for H and dH/df at the same points one after the other:
+        # one evaluation serves both
+        f = np.asarray(f_hz, dtype=float)
+        key = f.tobytes()
+        if self._last.get("key") != key:
+            h, dh = self.response.at(f)
+            self._last.update(key=key, h=h, dh=dh)
+        return self._last["h"], self._last["dh"]
+
     def transfer(self, f_hz: np.ndarray) -> np.ndarray:
-        return self.response.at(f_hz, derivative=False)[0]
+        return self._both(f_hz)[0].copy()
 
     def dtransfer(self, f_hz: np.ndarray) -> np.ndarray:
-        return self.response.at(f_hz)[1]
+        return self._both(f_hz)[1].copy()
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -276,7 +287,7 @@ def _with_spec_text(result: SpecResult, path: str) -> SpecResult:
 
 def check_spec(path: str, overrides: dict[str, float] | None = None,
                variant: str | None = None, spec: Spec | None = None,
-               netlist: str | None = None) -> SpecResult:
+               netlist: str | None = None, parsed: "Netlist | None" = None) -> SpecResult:
     """Load, solve and judge one spec file; bad input becomes an error result, never a raise.
 
     ``overrides`` replace top-level ``.param`` values (a variant); ``netlist`` replaces the
@@ -289,7 +300,7 @@ def check_spec(path: str, overrides: dict[str, float] | None = None,
     if netlist is not None:
         spec = dataclasses.replace(spec, netlist=netlist)
     try:
-        parsed = load_netlist(spec.netlist, spec.root)
+        parsed = parsed or load_netlist(spec.netlist, spec.root)
         defined = {a.key.text.lower() for a in parsed.top.params}
         unknown = sorted(set(overrides or {}) - defined)
         if unknown:
