@@ -286,6 +286,11 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
             block["histogram"] = {"name": hist_key, "counts": counts.tolist(),
                                   "edges": edges.tolist()}
     rows = []
+    if spec.table("stress") is not None:
+        stress_block, stress_rows = stress_over_samples(
+            system, spec, values, S, analysis.memory_mib * 2**20)
+        block["stress"] = stress_block
+        rows.extend(stress_rows)
     if analysis.yield_min is not None:
         margin = y - analysis.yield_min
         rows.append(LimitResult(
@@ -457,3 +462,125 @@ def _corner_rows(system: System, spec: Spec, parts: list[tuple[str, float, float
     rows, _ = _rows_for(system, spec, values, signs.shape[0], memory)
     return {k: (float(np.nanmin(m)), float(np.nanmax(m)), float(np.nanmin(g)))
             for k, (m, g) in rows.items()}
+
+
+def with_values(circuit: Circuit, values: dict[str, float]) -> Circuit:
+    """A copy of ``circuit`` with the main value of the named elements replaced."""
+    import dataclasses
+
+    fields = ("magnitude", "gain", "k", "ac_magnitude")
+    out = []
+    for e in circuit.elements:
+        if e.name in values:
+            name = next(f for f in fields if hasattr(e, f))
+            e = dataclasses.replace(e, **{name: float(values[e.name])})
+        out.append(e)
+    return dataclasses.replace(circuit, elements=tuple(out), _index=None)
+
+
+def _full_solutions(system: System, values: dict[str, np.ndarray], rows: np.ndarray,
+                    grid: np.ndarray, memory: int) -> np.ndarray:
+    """x (R, F, n) for the sample rows, by direct solves in memory-bounded chunks."""
+    from .assemble import assemble_batch
+
+    sub = {k: v[rows] for k, v in values.items()}
+    g, c = assemble_batch(system, sub, rows.size)
+    n, f = system.size, grid.size
+    out = np.empty((rows.size, f, n), dtype=complex)
+    step = max(1, memory // 4 // (f * n * n * 16 * 2))
+    s = 1j * 2 * np.pi * grid
+    for i in range(0, rows.size, step):
+        a = g[i:i + step, None] + s[None, :, None, None] * c[i:i + step, None]
+        rhs = np.broadcast_to(system.b, a.shape[:-1])[..., None]
+        out[i:i + step] = np.linalg.solve(a, rhs)[..., 0]
+    return out
+
+
+def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray],
+                        samples: int, memory: int, candidates: int = 5
+                        ) -> tuple[list[dict[str, Any]], list[LimitResult]]:
+    """The worst part stress over the Monte Carlo samples.
+
+    Every sample is screened on the sweep grid (full solution, the nominal part's
+    probe); the ``candidates`` worst samples of each part are then rebuilt as circuits
+    of their own and judged exactly (true maximum between grid points, as at nominal).
+    """
+    from .solve import solve
+    from .stress import _matches, _probe, judge_stress, parse_stress, stress_lines
+
+    limits = parse_stress(spec.table("stress"), spec.path, stress_lines(spec.text))
+    grid = spec.sweep.grid()
+    screen: dict[tuple[int, str], np.ndarray] = {}
+    per_chunk = max(1, memory // 4 // max(grid.size * system.size * 16 * 4, 1))
+    for i in range(0, samples, per_chunk):
+        rows = np.arange(i, min(samples, i + per_chunk))
+        x = _full_solutions(system, values, rows, grid, memory)
+        for k, lim in enumerate(limits):
+            for e in system.circuit.elements:
+                if not _matches(lim.parts, e.name):
+                    continue
+                probe = _probe(system, e, lim.quantity, lim.amplitude)
+                if isinstance(probe, str):
+                    continue
+                q = x @ probe.sel
+                if probe.jw:
+                    q = q * (1j * 2 * np.pi * grid)[None, :]
+                peak = probe.scale * _vertex(np.abs(q + probe.const), grid) ** probe.power
+                key = (k, e.name)
+                screen[key] = np.concatenate([screen.get(key, np.zeros(0)), peak])
+    worst: dict[tuple[int, str], tuple[float, Any, int]] = {}
+    names = list(values)
+    for (k, part), peaks in screen.items():
+        for j in np.argsort(-peaks)[:candidates]:
+            sample = {n: float(values[n][j]) for n in names}
+            circuit = with_values(system.circuit, sample)
+            sys_j = _restamped(system, circuit)
+            res = [r for r in judge_stress([limits[k]], solve(sys_j, grid)) if r.part == part]
+            if res and res[0].peak is not None and (
+                    (k, part) not in worst or res[0].peak > worst[(k, part)][0]):
+                worst[(k, part)] = (res[0].peak, res[0], int(j))
+    block, rows_out = [], []
+    for (k, part), (_, r, j) in sorted(worst.items()):
+        entry = r.to_json()
+        entry["sample"] = j
+        block.append(entry)
+        lim = r.to_limit_result(index=len(spec.limits) + k)
+        rows_out.append(_renamed(
+            lim, name=f"Monte Carlo worst: {lim.name}",
+            definition=f"{lim.definition}; worst of {samples} samples (sample {j}), "
+                       "screened on the grid, then judged exactly"))
+    return block, rows_out
+
+
+def _vertex(values: np.ndarray, grid: np.ndarray) -> np.ndarray:
+    """Per-row peak of ``values`` (R, F), sharpened by a parabola through the largest
+    grid sample and its neighbours in (log f, log value): ranks samples far better than
+    the raw grid maximum when a resonance is narrow compared with the grid spacing."""
+    k = np.argmax(values, axis=1)
+    rows = np.arange(values.shape[0])
+    best = values[rows, k]
+    inner = (k > 0) & (k < grid.size - 1)
+    km, kp = np.clip(k - 1, 0, grid.size - 1), np.clip(k + 1, 0, grid.size - 1)
+    with np.errstate(all="ignore"):
+        y0, y1, y2 = (np.log(values[rows, j]) for j in (km, k, kp))
+        x0, x1, x2 = (np.log(grid[j]) for j in (km, k, kp))
+        d1, d2 = (y1 - y0) / (x1 - x0), (y2 - y1) / (x2 - x1)
+        curv = (d2 - d1) / (x2 - x0)
+        slope = d1 - curv * (x1 - x0)
+        xv = -slope / (2 * curv)
+        yv = y0 + slope * xv + curv * xv * xv
+        sharp = np.exp(yv)
+    ok = inner & np.isfinite(sharp) & (curv < 0) & (sharp >= best)
+    return np.where(ok, sharp, best)
+
+
+def _restamped(system: System, circuit: Circuit) -> System:
+    """``system`` re-stamped for ``circuit`` (same stimulus and output)."""
+    from .assemble import assemble
+    return assemble(circuit, system.source, system.node, system.ref)
+
+
+def _renamed(lim: LimitResult, **changes: Any) -> LimitResult:
+    """A copy of ``lim`` with ``changes``."""
+    import dataclasses
+    return dataclasses.replace(lim, **changes)

@@ -191,3 +191,26 @@ def test_yield_limit_fails_when_yield_is_low(tmp_path):
     assert row.status is Status.FAIL and 0.0 < row.measured < 0.99
     mc = _tol(res)["monte_carlo"]
     assert mc["yield"] == row.measured and mc["yield_ci"][0] <= mc["yield"] <= mc["yield_ci"][1]
+
+
+def test_monte_carlo_worst_capacitor_stress_matches_closed_form(tmp_path):
+    # Series RLC driven by A volts peak: |V_C| peaks at A Q / sqrt(1 - 1/(4 Q^2)) with
+    # Q = sqrt(L/C)/R (derived from |V_C/V_in| = 1/|1 - w^2 LC + j w RC|; textbook
+    # resonance). Q grows as C shrinks, so the worst sample is the one with the smallest C.
+    path = _spec(tmp_path, 'parts = { C1 = "5%" }',
+                 'mode = ["monte_carlo"]\nsamples = 300\nseed = 4')
+    text = Path(path).read_text() + ('\n[[stress]]\nsource_amplitude = "2"\nparts = "C1"\n'
+                                     'max_voltage = "100"\n')
+    Path(path).write_text(text)
+    res = check_spec(path)
+    mc = _tol(res)["monte_carlo"]
+    (entry,) = mc["stress"]
+    values = draw([("C1", C, 0.05)], 300, "uniform", np.random.default_rng(4))["C1"]
+    c_min = values.min()
+    assert entry["sample"] == int(np.argmin(values))
+    q = math.sqrt(L / c_min) / R
+    expected = 2 * q / math.sqrt(1 - 1 / (4 * q * q))
+    assert entry["peak"] == pytest.approx(expected, rel=1e-8)
+    nominal = next(r for r in res.limits if r.name == "stress: C1 voltage")
+    worst = next(r for r in res.limits if r.name == "Monte Carlo worst: stress: C1 voltage")
+    assert worst.measured == entry["peak"] > nominal.measured

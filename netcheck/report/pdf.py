@@ -256,7 +256,10 @@ def _spec_view(s: SpecResult, number: int, with_plots: bool = True) -> dict[str,
                      "value": format_eng(v, _MEASUREMENTS[k][1] if k in _MEASUREMENTS
                                          else _measurement_unit(k))}
                     for k, v in s.measurements]
-    extra = [(k, _extra_rows(v)) for k, v in s.extra if k not in ("git", "stress")]
+    tolerance = _tolerance_view(s, with_plots)
+    stress = _stress_view(s)
+    shown = {"git", "stress"} | ({"tolerance"} if tolerance else set())
+    extra = [(k, _extra_rows(v)) for k, v in s.extra if k not in shown]
     n = s.counts
     return {
         "number": number, "label": s.label, "title": s.title, "variant": s.variant,
@@ -268,7 +271,7 @@ def _spec_view(s: SpecResult, number: int, with_plots: bool = True) -> dict[str,
         "measurements": measurements, "cautions": cautions,
         "hazards": [c for c in cautions if c["severity"] == "caution"],
         "plots": spec_plots(s) if with_plots else (), "sources": sources, "extra": extra,
-        "anchor": f"spec-{number}",
+        "anchor": f"spec-{number}", "tolerance": tolerance, "stress": stress,
     }
 
 

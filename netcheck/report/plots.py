@@ -23,7 +23,8 @@ import numpy as np
 from ..result import LimitResult, MaskBand, SpecResult, Status
 from ..units import format_eng, format_si
 
-__all__ = ["PALETTE", "Tag", "Plot", "tags_for", "zoom_window", "spec_plots", "FIG_WIDTH_IN"]
+__all__ = ["PALETTE", "Tag", "Plot", "tags_for", "zoom_window", "spec_plots", "FIG_WIDTH_IN",
+           "histogram_plot", "family_plots", "variant_style", "VARIANT_STYLES"]
 
 #: Named colours of the report (plots and CSS share them; see report.css).
 PALETTE = {
@@ -434,14 +435,42 @@ def _gain_axes(ax: Any, spec: SpecResult, masks: dict[int, Tag], fails: dict[int
     ax.set_xlim(*span)
     ax.set_ylim(*ylim)
     _draw_mask(ax, spec, masks, _GAIN_QUANTITIES, 1.0, ylim, span, drawn, skip)
-    if c.envelope_lo_db is not None and c.envelope_hi_db is not None:
+    if _has_envelope(spec):
         ax.fill_between(c.frequency_hz, c.envelope_lo_db, c.envelope_hi_db,
-                        facecolor=PALETTE["envelope"], edgecolor="none", alpha=0.7, zorder=1,
-                        label="tolerance envelope")
-    ax.plot(f, g, color=PALETTE["ink"], linewidth=1.3, zorder=5, label="gain (nominal)")
+                        facecolor=PALETTE["envelope"], edgecolor=PALETTE["slate"],
+                        linewidth=0.35, alpha=0.7, zorder=1, label=_envelope_label(spec))
+    ax.plot(f, g, color=PALETTE["ink"], linewidth=1.3, zorder=5, label="nominal gain")
     masked = {spec.mask[i].label for i in masks}
     _fail_points(ax, spec, fails, "gain_db", 1.0, span, masked, drawn, skip)
     ax.set_ylabel(_gain_label(spec), fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
+
+
+def _has_envelope(spec: SpecResult) -> bool:
+    c = spec.curves
+    return c is not None and c.envelope_lo_db is not None and c.envelope_hi_db is not None
+
+
+def _mc_samples(spec: SpecResult) -> int | None:
+    """Number of Monte Carlo samples behind the envelope, when the result records it."""
+    tol = spec.extra_value("tolerance")
+    mc = tol.get("monte_carlo") if isinstance(tol, dict) else None
+    return mc.get("samples") if isinstance(mc, dict) else None
+
+
+def _envelope_label(spec: SpecResult) -> str:
+    n = _mc_samples(spec)
+    return f"Monte Carlo envelope, {n} samples (lowest to highest gain)" if n else \
+        "Monte Carlo envelope (lowest to highest gain over the samples)"
+
+
+def _legend_above(ax: Any, ncol: int = 2) -> None:
+    """The axes' legend in the margin above them, right-aligned, so it hides no data."""
+    handles, labels = ax.get_legend_handles_labels()
+    if not handles:
+        return
+    ax.legend(handles, labels, loc="lower right", bbox_to_anchor=(1.0, 1.0), ncol=ncol,
+              frameon=False, fontsize=_FONT_PT, borderaxespad=0.25, handlelength=2.6,
+              columnspacing=1.6, handletextpad=0.6, labelcolor=PALETTE["ink"])
 
 
 def _gain_label(spec: SpecResult) -> str:
@@ -500,12 +529,15 @@ def _annotate_resonance(ax: Any, spec: SpecResult) -> None:
 
 def _gain_overview(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
                    zoom: tuple[float, float] | None, drawn: list[Tag]) -> str:
-    fig = _figure(2.6)
-    ax = fig.add_axes((0.08, 0.16, 0.885, 0.79))
+    legend = _has_envelope(spec)
+    fig = _figure(2.75 if legend else 2.6)
+    ax = fig.add_axes((0.08, 0.15, 0.885, 0.75) if legend else (0.08, 0.16, 0.885, 0.79))
     _style(ax)
     f = spec.curves.frequency_hz
     _hz_log_axis(ax, float(f[0]), float(f[-1]))
     _gain_axes(ax, spec, masks, fails, (float(f[0]), float(f[-1])), False, drawn, zoom)
+    if legend:
+        _legend_above(ax)
     if zoom is not None:
         ax.axvspan(*zoom, facecolor="none", edgecolor=PALETTE["guide"], linewidth=0.7,
                    linestyle=(0, (3, 2)), zorder=3)
@@ -518,8 +550,9 @@ def _gain_overview(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag
 
 def _gain_zoom(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
                zoom: tuple[float, float], drawn: list[Tag]) -> str:
-    fig = _figure(2.8)
-    ax = fig.add_axes((0.08, 0.155, 0.885, 0.795))
+    legend = _has_envelope(spec)
+    fig = _figure(2.95 if legend else 2.8)
+    ax = fig.add_axes((0.08, 0.145, 0.885, 0.765) if legend else (0.08, 0.155, 0.885, 0.795))
     _style(ax)
     if zoom[1] / zoom[0] > 3.0:
         _hz_log_axis(ax, *zoom)
@@ -527,6 +560,8 @@ def _gain_zoom(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
     else:
         label = _hz_linear_axis(ax, *zoom)
     _gain_axes(ax, spec, masks, fails, zoom, True, drawn)
+    if legend:
+        _legend_above(ax)
     if spec.measurement("f_low_hz") is not None:
         _annotate_resonance(ax, spec)
     ax.set_xlabel(label, fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
@@ -599,9 +634,12 @@ def spec_plots(spec: SpecResult) -> tuple[Plot, ...]:
     masks, fails = tags_for(spec)
     zoom = zoom_window(spec)
     f = spec.curves.frequency_hz
-    envelope = (" The grey band is the tolerance envelope: the lowest to the highest gain "
-                "over the tolerance samples at each grid frequency."
-                if spec.curves.envelope_lo_db is not None else "")
+    n = _mc_samples(spec)
+    envelope = (" The grey band (named in the legend above the plot) is the Monte Carlo "
+                f"envelope: at each grid frequency, the lowest to the highest gain over the "
+                f"{f'{n} ' if n else ''}tolerance samples. The mask is judged on every sample "
+                "separately; the band only shows how far the response spreads."
+                if _has_envelope(spec) else "")
     drawn: list[Tag] = []
     svg = _gain_overview(spec, masks, fails, zoom, drawn)
     plots = [Plot("Gain over the whole sweep",
@@ -631,4 +669,266 @@ def spec_plots(spec: SpecResult) -> tuple[Plot, ...]:
                           f"{names[0].upper()}{names[1:]} against frequency, for the limits on "
                           "them (their bounds and margins are in the summary table).",
                           svg, _keys(drawn)))
+    return tuple(plots)
+
+
+# --------------------------------------------------------------------------- tolerance
+
+
+def _quantity_scale(values: list[float], unit: str) -> tuple[float, str]:
+    """(scale, axis unit) for a value axis: SI prefixes except for dB, deg and pure numbers."""
+    if unit in ("", "1", "dB", "deg") or not values:
+        return 1.0, unit
+    scale, prefix = _si_scale(max(abs(v) for v in values) or 1.0)
+    return scale, prefix + unit
+
+
+def _bound_limit(spec: SpecResult, name: str) -> LimitResult | None:
+    """The nominal limit row called ``name`` (not a yield, worst-case or stress row)."""
+    for lim in spec.limits:
+        if lim.name == name and lim.kind not in ("yield", "worst_case", "stress"):
+            return lim
+    return None
+
+
+def histogram_plot(spec: SpecResult) -> Plot | None:
+    """Histogram of the Monte Carlo samples of the deciding measurement, or None.
+
+    Reads ``extra["tolerance"]["monte_carlo"]["histogram"]`` (name, counts, edges). When
+    the name is a limit with bounds, the bounds are drawn with the forbidden side
+    hatched, as on the gain mask; the nominal value is a dashed line, and the
+    worst-case range (EVA, widened by the corners when evaluated) a bracket above the bars.
+    """
+    tol = spec.extra_value("tolerance")
+    mc = tol.get("monte_carlo") if isinstance(tol, dict) else None
+    hist = mc.get("histogram") if isinstance(mc, dict) else None
+    if not isinstance(hist, dict) or not hist.get("counts") or len(hist.get("edges", ())) < 2:
+        return None
+    counts = np.asarray(hist["counts"], float)
+    edges = np.asarray(hist["edges"], float)
+    name = str(hist.get("name", ""))
+    lim = _bound_limit(spec, name)
+    unit = lim.unit if lim is not None else ""
+    wc = next((e for e in (tol.get("worst_case") or {}).get("limits", ())
+               if e.get("name") == name), None)
+    data_lo, data_hi = float(edges[0]), float(edges[-1])
+    width = max(data_hi - data_lo, abs(data_hi) * 1e-9, 1e-300)
+    lo, hi = data_lo - 0.08 * width, data_hi + 0.08 * width
+    bounds, off_scale = [], []
+    for side, value in (("lower", None if lim is None else lim.lower),
+                        ("upper", None if lim is None else lim.upper)):
+        if value is None or not math.isfinite(value):
+            continue
+        if (data_lo - value if side == "lower" else value - data_hi) <= 3.0 * width:
+            bounds.append((side, value))
+            lo, hi = min(lo, value - 0.12 * width), max(hi, value + 0.12 * width)
+        else:
+            off_scale.append((side, value))
+    wc_range = None
+    if wc is not None and wc.get("min") is not None and wc.get("max") is not None:
+        a, b = float(wc["min"]), float(wc["max"])
+        if wc.get("corners_min") is not None:
+            a, b = min(a, float(wc["corners_min"])), max(b, float(wc["corners_max"]))
+        wc_range = (a, b)
+        lo, hi = min(lo, a - 0.04 * width), max(hi, b + 0.04 * width)
+    scale, axis_unit = _quantity_scale([lo, hi], unit)
+
+    fig = _figure(2.35)
+    ax = fig.add_axes((0.08, 0.17, 0.885, 0.70))
+    _style(ax)
+    ax.grid(False, axis="x")
+    top = float(counts.max()) * 1.32 + 1.0
+    ax.set_xlim(lo / scale, hi / scale)
+    ax.set_ylim(0.0, top)
+    ax.bar(edges[:-1] / scale, counts, width=np.diff(edges) / scale, align="edge",
+           facecolor=PALETTE["envelope"], edgecolor=PALETTE["ink"], linewidth=0.45, zorder=3,
+           label=f"samples per bin ({int(counts.sum())} in {counts.size} bins)")
+    box = {"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": "none", "alpha": 0.9}
+    for side, value in bounds:
+        x = value / scale
+        far = lo / scale if side == "lower" else hi / scale
+        ax.fill_betweenx([0.0, top], min(x, far), max(x, far), facecolor=PALETTE["forbid"],
+                         edgecolor=PALETTE["hatch"], hatch="///", linewidth=0, zorder=1)
+        ax.axvline(x, color=PALETTE["hatch"], linewidth=1.0, zorder=4)
+        ax.annotate(f"{side} limit {format_eng(value, unit)}", (x, top), xytext=(
+            -3 if side == "lower" else 3, -3), textcoords="offset points", va="top",
+            ha="right" if side == "lower" else "left", fontsize=_FONT_PT - 0.5,
+            color=PALETTE["hatch"], fontweight="bold", zorder=6, bbox=box)
+    for side, value in off_scale:
+        ax.annotate(f"{side} limit {format_eng(value, unit)} off scale "
+                    f"{'←' if side == 'lower' else '→'}",
+                    (0.0 if side == "lower" else 1.0, 0.97), xycoords="axes fraction",
+                    ha="left" if side == "lower" else "right", va="top",
+                    fontsize=_FONT_PT - 0.5, color=PALETTE["hatch"], zorder=6, bbox=box)
+    if lim is not None and lim.measured is not None and math.isfinite(lim.measured):
+        x = lim.measured / scale
+        ax.axvline(x, color=PALETTE["guide"], linewidth=0.9, linestyle=(0, (4, 2)), zorder=5,
+                   label=f"nominal {format_eng(lim.measured, unit)}")
+    if wc_range is not None:
+        y = float(counts.max()) * 1.13
+        ax.annotate("", (wc_range[0] / scale, y), (wc_range[1] / scale, y),
+                    arrowprops={"arrowstyle": "|-|,widthA=0.25,widthB=0.25",
+                                "color": PALETTE["ink"], "linewidth": 0.8,
+                                "shrinkA": 0, "shrinkB": 0}, zorder=6)
+        ax.annotate(f"worst-case range {format_eng(wc_range[0], unit)} … "
+                    f"{format_eng(wc_range[1], unit)}",
+                    (0.5 * (wc_range[0] + wc_range[1]) / scale, y), xytext=(0, 2),
+                    textcoords="offset points", ha="center", va="bottom",
+                    fontsize=_FONT_PT - 0.5, color=PALETTE["ink"], zorder=7, bbox=box)
+    _legend_above(ax)
+    ax.set_ylabel("Samples", fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
+    ax.set_xlabel(f"Measured value ({axis_unit})" if axis_unit else "Measured value",
+                  fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
+    samples = mc.get("samples")
+    caption = (f"How the {samples} Monte Carlo samples spread: the measurement of the limit "
+               "named below, binned. " if samples else "How the Monte Carlo samples spread. ")
+    if bounds or off_scale:
+        caption += "Hatched: outside the limit. "
+    if lim is not None:
+        caption += "Dashed: the nominal value. "
+    if wc_range is not None:
+        caption += ("The bracket above the bars is the worst-case range (extreme-value "
+                    "analysis" + (", widened to the corners" if wc.get("corners_min")
+                                  is not None else "") + ").")
+    status = lim.status if lim is not None else Status.PASS
+    keys = (Tag("H", name, "the measurement shown" + (
+        f", allowed {lim.bound_text}" if lim is not None else ""), status),)
+    return Plot("Spread of the deciding measurement over the samples", caption.strip(),
+                _svg(fig), keys)
+
+
+# --------------------------------------------------------------------------- families
+
+
+#: line styles of a family overlay: (dash pattern, marker, colour key, words)
+VARIANT_STYLES = (
+    ("-", "", "ink", "solid line"),
+    ((0, (6, 2.5)), "", "guide", "dashed line"),
+    ((0, (1.2, 1.6)), "", "hatch", "dotted line"),
+    ((0, (7, 2, 1.5, 2)), "", "slate", "dash-dot line"),
+    ("-", "o", "guide", "solid line with circles"),
+    ((0, (6, 2.5)), "s", "hatch", "dashed line with squares"),
+    ((0, (1.2, 1.6)), "^", "ink", "dotted line with triangles"),
+    ((0, (7, 2, 1.5, 2)), "D", "guide", "dash-dot line with diamonds"),
+)
+
+
+def variant_style(k: int) -> tuple[Any, str, str, str]:
+    """Line style of the ``k``-th variant (0-based): dash pattern, marker, colour, words.
+
+    Eight distinct styles; beyond eight the cycle repeats with thinner lines, said in words.
+    """
+    dash, marker, colour, words = VARIANT_STYLES[k % len(VARIANT_STYLES)]
+    if k >= len(VARIANT_STYLES):
+        words += ", thin"
+    return dash, marker, PALETTE[colour], words
+
+
+def _family_window(members: list[SpecResult]) -> tuple[float, float] | None:
+    wins = [w for w in (zoom_window(m) for m in members) if w is not None]
+    if not wins:
+        return None
+    return min(w[0] for w in wins), max(w[1] for w in wins)
+
+
+def _family_mask_tags(members: list[SpecResult], ref: SpecResult) -> dict[int, Tag]:
+    """The reference member's mask tags, each with the worst status over the family."""
+    masks, _ = tags_for(ref)
+    out = {}
+    for i, tag in masks.items():
+        statuses = [lim.status for m in members for lim in m.limits if lim.name == tag.name]
+        worst = max(statuses, key=lambda s: s.rank) if statuses else tag.status
+        out[i] = Tag(tag.tag, tag.name, tag.text, worst)
+    return out
+
+
+def _family_axes(ax: Any, members: list[SpecResult], ref: SpecResult, masks: dict[int, Tag],
+                 span: tuple[float, float], zoom: bool, drawn: list[Tag],
+                 skip: tuple[float, float] | None) -> None:
+    limits = [_gain_limits(m, *span, zoom) for m in members]
+    ylim = (min(a for a, _ in limits), max(b for _, b in limits))
+    ax.set_xlim(*span)
+    ax.set_ylim(*ylim)
+    _draw_mask(ax, ref, masks, _GAIN_QUANTITIES, 1.0, ylim, span, drawn, skip)
+    thin = len(members) > len(VARIANT_STYLES)
+    for k, m in enumerate(members):
+        dash, marker, colour, _ = variant_style(k)
+        f, g = m.curves.frequency_hz, m.curves.gain_db
+        sel = (f >= span[0]) & (f <= span[1])
+        every = max(1, int(sel.sum()) // 9)
+        ax.plot(f, g, color=colour, linestyle=dash, linewidth=0.9 if thin else 1.25,
+                marker=marker or None, markersize=3.6, markerfacecolor="white",
+                markeredgewidth=0.8, markevery=(int(np.argmax(sel)) + (k * every) // 3 % every,
+                                               every) if marker else None,
+                zorder=5 + 0.01 * k, label=f"V{k + 1}")
+
+
+def family_plots(members: list[SpecResult]) -> tuple[Plot, ...]:
+    """Overlay of every variant's gain against the spec mask (whole sweep, then zoom).
+
+    Variants are tagged ``V1``… in the plot (no text from input files is drawn); the
+    figure key names them, with each line style in words and the variant's verdict.
+    Members without curves (not checked) are left out. The mask is the first plotted
+    member's; bands relative to the peak are placed on that member's peak.
+    """
+    drawn_members = [m for m in members if m.curves is not None and m.curves.frequency_hz.size > 1]
+    if not drawn_members:
+        return ()
+    ref = drawn_members[0]
+    masks = _family_mask_tags(drawn_members, ref)
+    variant_keys = tuple(Tag(f"V{k + 1}", m.variant or m.label, variant_style(k)[3], m.status)
+                         for k, m in enumerate(drawn_members))
+    f = ref.curves.frequency_hz
+    full = (min(float(m.curves.frequency_hz[0]) for m in drawn_members),
+            max(float(m.curves.frequency_hz[-1]) for m in drawn_members))
+    zoom = _family_window(drawn_members)
+    if zoom is not None and zoom[0] <= full[0] and zoom[1] >= full[1]:
+        zoom = None
+    ncol = min(len(drawn_members), 8)
+    rows = math.ceil(len(drawn_members) / ncol)
+    plots = []
+    for panel in ("overview", "zoom"):
+        if panel == "zoom" and zoom is None:
+            break
+        span = full if panel == "overview" else zoom
+        extra = 0.17 * rows
+        fig = _figure(2.6 + extra)
+        h = fig.get_figheight()
+        ax = fig.add_axes((0.08, 0.42 / h, 0.885, 1.0 - (0.42 + 0.12 + 0.17 * rows) / h))
+        _style(ax)
+        if panel == "overview" or span[1] / span[0] > 3.0:
+            _hz_log_axis(ax, *span)
+            xlabel = "Frequency (log scale)"
+        else:
+            xlabel = _hz_linear_axis(ax, *span)
+        drawn: list[Tag] = []
+        _family_axes(ax, drawn_members, ref, masks, span, panel == "zoom", drawn,
+                     zoom if panel == "overview" else None)
+        if panel == "overview" and zoom is not None:
+            ax.axvspan(*zoom, facecolor="none", edgecolor=PALETTE["guide"], linewidth=0.7,
+                       linestyle=(0, (3, 2)), zorder=3)
+            ax.annotate("zoom", (math.sqrt(zoom[0] * zoom[1]), ax.get_ylim()[0]),
+                        xytext=(0, 3), textcoords="offset points", ha="center", va="bottom",
+                        fontsize=_FONT_PT - 0.5, color=PALETTE["guide"], zorder=9)
+        _legend_above(ax, ncol)
+        ax.set_ylabel(_gain_label(ref), fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
+        ax.set_xlabel(xlabel, fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
+        if panel == "overview":
+            title = "Gain of every variant over the whole sweep"
+            caption = (f"Nominal gain of the {len(drawn_members)} variants against the spec "
+                       f"mask, {format_si(full[0], 'Hz')} to {format_si(full[1], 'Hz')}. "
+                       "Each variant has its own line style (V1, V2… in the legend and the key "
+                       "below), so the curves can be told apart in greyscale. Allowed regions "
+                       "are tinted, forbidden regions hatched (cross-hatched where the limit "
+                       "failed for any variant)."
+                       + (" The dashed box marks the zoom below." if zoom else ""))
+        else:
+            title = "Pass-bands and resonances of every variant in detail"
+            caption = (f"The same curves from {format_si(span[0], 'Hz', 5)} to "
+                       f"{format_si(span[1], 'Hz', 5)}, spanning every variant's pass-band "
+                       "or half-power edges.")
+        if any(b.quantity == "gain_re_peak_db" for b in ref.mask):
+            caption += (" Bounds relative to the peak are drawn on the peak of V1; each "
+                        "variant is judged against its own peak.")
+        plots.append(Plot(title, caption, _svg(fig), _keys(drawn) + variant_keys))
     return tuple(plots)
