@@ -140,11 +140,19 @@ def _sweep(args: argparse.Namespace) -> int:
             json.dump(doc, out, indent=1, sort_keys=True)
             out.write("\n")
     else:
-        k = int(np.nanargmax(mag))
-        unit = "dB (V/V)" if src.letter == "V" else "dB (V/A)"
+        from .evaluate import ResponseCurve
+        from .measure import MeasurementFailure, peak
         from .units import format_si
+        k = int(np.nanargmax(mag))
+        f_pk, g_pk, how = float(f[k]), float(mag[k]), "grid"
+        try:  # the true peak, refined between grid points on the exact response
+            pk = peak(ResponseCurve.of(resp))
+            f_pk, g_pk, how = pk.frequency_hz, pk.value, "refined"
+        except (MeasurementFailure, ValueError):
+            pass
+        unit = "dB (V/V)" if src.letter == "V" else "dB re 1 V/A"
         print(f"{circuit.title or args.netlist}")
-        print(f"  peak gain {mag[k]:.4f} {unit} at {format_si(float(f[k]), 'Hz', 6)}")
+        print(f"  peak gain {g_pk:.4f} {unit} at {format_si(f_pk, 'Hz', 7)} ({how})")
         print(f"  {f.size} points from {format_si(args.start, 'Hz')} to "
               f"{format_si(args.stop, 'Hz')} solved in {elapsed * 1e3:.1f} ms "
               f"({resp.method}, {system.size} unknowns)")
