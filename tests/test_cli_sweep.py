@@ -207,3 +207,14 @@ class TestBadInput:
                   *[x for kv in args.items() for x in kv]])
         assert info.value.code == 2
         assert "Traceback" not in capsys.readouterr().err
+
+
+def test_summary_peak_is_refined_between_grid_points(capsys, samples):
+    # rx40k.cir sets C = 1/((2 pi fc)^2 L) with fc = 40k, so the series resonance
+    # f0 = 1/(2 pi sqrt(LC)) is exactly 40 kHz (textbook); 5 points per decade put no
+    # grid point near it, yet the summary reports it.
+    from netcheck.cli import main
+    assert main(["sweep", str(samples / "rx40k.cir"), "--source", "VIN", "--node", "out",
+                 "--start", "1k", "--stop", "1meg", "--ppd", "5"]) == 0
+    out = capsys.readouterr().out
+    assert "at 40.00000 kHz (refined)" in out
