@@ -214,3 +214,29 @@ def test_monte_carlo_worst_capacitor_stress_matches_closed_form(tmp_path):
     nominal = next(r for r in res.limits if r.name == "stress: C1 voltage")
     worst = next(r for r in res.limits if r.name == "Monte Carlo worst: stress: C1 voltage")
     assert worst.measured == entry["peak"] > nominal.measured
+
+
+def test_tolerance_and_stress_json_follow_the_schema(tmp_path):
+    # the fixed JSON contract (docs/result.schema.json, JSON Schema 2020-12, validated
+    # with the jsonschema package as an outside reference implementation)
+    import json
+
+    import jsonschema
+
+    from netcheck.render.jsonreport import to_dict
+    from netcheck.result import CheckResult
+
+    root = Path(__file__).resolve().parents[1]
+    text = (root / "specs/rx40k_tolerance.toml").read_text().replace(
+        "samples = 2000", "samples = 200").replace(
+        "../sample_netlists/rx40k.cir", str(root / "sample_netlists/rx40k.cir"))
+    spec = tmp_path / "t.toml"
+    spec.write_text(text)
+    doc = to_dict(CheckResult((check_spec(str(spec)),), "0", ""))
+    schema = json.loads((root / "docs/result.schema.json").read_text())
+    jsonschema.validate(doc, schema)
+    entry = doc["specs"][0]
+    mc, wc = entry["tolerance"]["monte_carlo"], entry["tolerance"]["worst_case"]
+    assert mc["samples"] == 200 and len(mc["yield_ci"]) == 2 and wc["method"] == "eva"
+    assert {"f_peak_hz", "q", "f_center_hz"} <= set(mc["measurements"]) & set(wc["measurements"])
+    assert entry["stress"][0]["part"] == "C1" and mc["stress"][0]["part"] == "C1"
