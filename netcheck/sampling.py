@@ -296,25 +296,60 @@ class BatchProbe:
         if key in self._cache:
             return self._cache[key]
         cols = np.flatnonzero((self.grid > lo) & (self.grid < hi))
-        f_cand = np.concatenate([[lo], self.grid[cols], [hi]])
-        S = self.ss.S
+        f_grid = np.concatenate([[lo], self.grid[cols], [hi]])
+        S, M = self.ss.S, cols.size + 2
         ends = np.stack([self._value(quantity, np.full(S, lo)),
                          self._value(quantity, np.full(S, hi))], axis=1)
         inner = self._grid_values(quantity, cols) if cols.size else np.zeros((S, 0))
-        v = np.concatenate([ends[:, :1], inner, ends[:, 1:]], axis=1)
+        # each sample's lightly damped poles, where a narrow peak may sit between grid
+        # points, are candidates too (bracketed by a few of their half-widths)
+        seeds, half = self._seeds(lo, hi)
+        seed_v = (self._value(quantity, seeds) if seeds.shape[1] else np.zeros((S, 0)))
+        v = np.concatenate([ends[:, :1], inner, ends[:, 1:], seed_v], axis=1)
+        rows = np.arange(S)
         out = []
         for sign in (-1.0, 1.0):
-            k = np.nanargmax(sign * np.where(np.isnan(v), -np.inf * sign, v), axis=1)
-            a = f_cand[np.maximum(k - 1, 0)]
-            b = f_cand[np.minimum(k + 1, f_cand.size - 1)]
+            score = np.where(np.isnan(v), -np.inf, sign * v)
+            k = np.argmax(score, axis=1)
+            on_grid = k < M
+            kg = np.minimum(k, M - 1)
+            ks = np.clip(k - M, 0, max(seeds.shape[1] - 1, 0))
+            f_at = np.where(on_grid, f_grid[kg], seeds[rows, ks] if seeds.shape[1] else 0.0)
+            a = np.where(on_grid, f_grid[np.maximum(kg - 1, 0)],
+                         np.maximum(lo, f_at * (1 - half[rows, ks])) if seeds.shape[1] else lo)
+            b = np.where(on_grid, f_grid[np.minimum(kg + 1, M - 1)],
+                         np.minimum(hi, f_at * (1 + half[rows, ks])) if seeds.shape[1] else hi)
             f_best, v_best = self._golden(quantity, a, b, sign)
-            base = v[np.arange(S), k]
+            base = v[rows, k]
             better = sign * v_best > sign * base
-            f_out = np.where(better, f_best, f_cand[k])
-            v_out = np.where(better, v_best, base)
-            out.append(BatchExtremum(f_out, v_out))
+            out.append(BatchExtremum(np.where(better, f_best, f_at),
+                                     np.where(better, v_best, base)))
         self._cache[key] = (out[0], out[1])
         return out[0], out[1]
+
+    def _seeds(self, lo: float, hi: float) -> tuple[np.ndarray, np.ndarray]:
+        """Per-sample pole frequencies (Hz) inside [lo, hi] with Q above 2, and their
+        relative half-widths; NaN-free (out-of-band entries are moved to ``lo``)."""
+        key = ("seeds", lo, hi)
+        if key in self._cache:
+            return self._cache[key]
+        p = self.ss.poles
+        if p.shape[1] == 0:
+            empty = np.zeros((self.ss.S, 0))
+            return empty, empty
+        nu = np.abs(p.imag) * self.ss.w_scale / _TWO_PI
+        with np.errstate(all="ignore"):
+            rel = np.abs(p.real) / np.abs(p.imag)
+        keep = (nu > lo) & (nu < hi) & (rel < 0.25) & np.isfinite(nu)
+        if not keep.any():
+            empty = np.zeros((self.ss.S, 0))
+            self._cache[key] = (empty, empty)
+            return empty, empty
+        cols = np.flatnonzero(keep.any(axis=0))
+        seeds = np.where(keep[:, cols], nu[:, cols], lo)
+        half = np.where(keep[:, cols], np.clip(4.0 * rel[:, cols], 1e-9, 0.5), 1e-9)
+        self._cache[key] = (seeds, half)
+        return seeds, half
 
     def _golden(self, quantity: str, a: np.ndarray, b: np.ndarray, sign: float,
                 iterations: int = 32) -> tuple[np.ndarray, np.ndarray]:

@@ -240,3 +240,39 @@ def test_tolerance_and_stress_json_follow_the_schema(tmp_path):
     assert mc["samples"] == 200 and len(mc["yield_ci"]) == 2 and wc["method"] == "eva"
     assert {"f_peak_hz", "q", "f_center_hz"} <= set(mc["measurements"]) & set(wc["measurements"])
     assert entry["stress"][0]["part"] == "C1" and mc["stress"][0]["part"] == "C1"
+
+
+def test_monte_carlo_finds_narrow_peaks_between_grid_points(tmp_path):
+    # V1 feeds R1 (output across it) through LP in parallel with a series L-C, so
+    # H = R1/(R1 + Zs), Zs = jwLP || (jwL + 1/(jwC)): Zs = 0 at w0 = 1/sqrt(LC), where
+    # |H| = 1 (0 dB) exactly, whatever L and C are, while away from w0 the response is a
+    # low-pass floor R1/|R1 + jwLP| falling through -16 dB at 10 kHz (algebra by hand).
+    # The spike is far narrower than a 5-points-per-decade grid and sits on the falling
+    # slope, away from the grid maximum, so only each sample's own pole frequencies
+    # reveal it: every sample must fail "gain <= -10 dB".
+    (tmp_path / "q.cir").write_text(
+        "Quillmere peaking section\nV1 in 0 AC 1\nLP in out 100u\nL1 in a 10m\n"
+        "C1 a out 2.5n\nR1 out 0 1\n")
+    (tmp_path / "q.toml").write_text("""netlist = "q.cir"
+source = "V1"
+output = "out"
+[sweep]
+start = "1k"
+stop = "1meg"
+points_per_decade = 5
+[tolerances]
+parts = { L1 = "5%", C1 = "5%" }
+[analysis]
+mode = ["monte_carlo"]
+samples = 200
+seed = 9
+[[limits]]
+kind = "gain"
+band = ["10k", "1meg"]
+max_db = -10
+""")
+    res = check_spec(str(tmp_path / "q.toml"))
+    mc = _tol(res)["monte_carlo"]
+    assert mc["limits"][0]["yield"] == 0.0
+    assert mc["limits"][0]["worst_measured"] == pytest.approx(0.0, abs=1e-6)
+    assert mc["limits"][0]["margin_p99"] == pytest.approx(-10.0, abs=1e-6)
