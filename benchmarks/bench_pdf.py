@@ -10,6 +10,16 @@ Measured side by side in one run (median of interleaved repeats, after a warm-up
 (b) the PDF report of that one result (plots, HTML, layout, fonts), written to memory;
 (c) both together: what ``--pdf`` adds to a check, per spec, once the libraries are loaded.
 
+Then the reports with the further analyses, again side by side (each result checked once,
+outside the timing):
+
+(d) ``specs/rx40k_tolerance.toml`` (Monte Carlo, 2000 samples; worst case; stress): the
+    tolerance section with its histogram and the envelope on both gain plots;
+(e) the combined report of the ``specs/rx40k_family.toml`` family (4 variants): the family
+    overview with the overlay figures, then every variant's own report.
+
+Both are also given per page, beside (b) per page, since their size grows with the spec.
+
 Then, in fresh interpreters (median of ``--cold`` runs), the first report of a process
 including the imports of matplotlib, jinja2 and weasyprint, beside a fresh interpreter
 that only checks. Target: a single-spec report under 1.5 s (b). The target is printed
@@ -34,6 +44,8 @@ from netcheck.report import pdf
 from netcheck.result import CheckResult
 
 SPEC = str(_harness.REPO_ROOT / "specs" / "rx40k.toml")
+TOLERANCE_SPEC = str(_harness.REPO_ROOT / "specs" / "rx40k_tolerance.toml")
+FAMILY_SPEC = str(_harness.REPO_ROOT / "specs" / "rx40k_family.toml")
 TARGET_S = 1.5
 
 _COLD = """
@@ -95,6 +107,8 @@ def main() -> None:
     print(f"target: single-spec report under {TARGET_S:g} s -> {b:.2f} s wall, "
           f"{_harness.verdict(b < TARGET_S)}; {cpu:.2f} s CPU, {_harness.verdict(cpu < TARGET_S)}")
 
+    analyses(args.repeat, result)
+
     if args.cold:
         print(f"\nfresh interpreter, median of {args.cold} (imports included):")
         check_total, _ = cold("check", args.cold)
@@ -102,6 +116,37 @@ def main() -> None:
         print(f"  check only            {_harness.fmt_seconds(check_total)}")
         print(f"  check + first PDF     {_harness.fmt_seconds(pdf_total)}  (the PDF part, with "
               f"its imports: {_harness.fmt_seconds(pdf_tail).strip()})")
+
+
+def analyses(repeat: int, single: CheckResult) -> None:
+    """(d) the tolerance report and (e) the family report, beside (b), also per page."""
+    from netcheck import batch
+
+    created = "2026-01-01T00:00:00Z"
+    tol = CheckResult((check_spec(TOLERANCE_SPEC),), __version__, created)
+    jobs = batch.expand_jobs([FAMILY_SPEC])
+    fam = CheckResult(tuple(batch.run_all(jobs, batch.SerialExecutor())), __version__, created)
+    results = {"(b) one-spec PDF": single, "(d) tolerance PDF": tol,
+               f"(e) family PDF, {len(fam.specs)} variants": fam}
+    pages = {name: _pages(r) for name, r in results.items()}
+    print("\nfurther analyses, side by side:")
+    t = _harness.compare({name: (lambda r=r: pdf.render_bytes(r)) for name, r in results.items()},
+                         repeat)
+    width = max(map(len, t))
+    for name, timing in t.items():
+        per = f"{timing.median / pages[name]:.3f} s per page" if isinstance(pages[name], int) \
+            else ""
+        print(f"{name:<{width}}  {_harness.fmt_timing(timing)}  {pages[name]} pages, {per}")
+    b = t["(b) one-spec PDF"].median
+    for name in list(t)[1:]:
+        print(f"  {name} / (b) = {t[name].median / b:.1f}x")
+
+
+def _pages(result: CheckResult) -> int | str:
+    if not _has("pypdf"):
+        return "?"
+    from pypdf import PdfReader
+    return len(PdfReader(io.BytesIO(pdf.render_bytes(result))).pages)
 
 
 def _cpu_seconds(fn) -> float:

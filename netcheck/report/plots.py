@@ -468,6 +468,8 @@ def _legend_above(ax: Any, ncol: int = 2) -> None:
     handles, labels = ax.get_legend_handles_labels()
     if not handles:
         return
+    order = sorted(range(len(labels)), key=lambda i: not labels[i].startswith("nominal"))
+    handles, labels = [handles[i] for i in order], [labels[i] for i in order]
     ax.legend(handles, labels, loc="lower right", bbox_to_anchor=(1.0, 1.0), ncol=ncol,
               frameon=False, fontsize=_FONT_PT, borderaxespad=0.25, handlelength=2.6,
               columnspacing=1.6, handletextpad=0.6, labelcolor=PALETTE["ink"])
@@ -721,7 +723,7 @@ def histogram_plot(spec: SpecResult) -> Plot | None:
             continue
         if (data_lo - value if side == "lower" else value - data_hi) <= 3.0 * width:
             bounds.append((side, value))
-            lo, hi = min(lo, value - 0.12 * width), max(hi, value + 0.12 * width)
+            lo, hi = min(lo, value - 0.2 * width), max(hi, value + 0.2 * width)
         else:
             off_scale.append((side, value))
     wc_range = None
@@ -740,9 +742,20 @@ def histogram_plot(spec: SpecResult) -> Plot | None:
     top = float(counts.max()) * 1.32 + 1.0
     ax.set_xlim(lo / scale, hi / scale)
     ax.set_ylim(0.0, top)
-    ax.bar(edges[:-1] / scale, counts, width=np.diff(edges) / scale, align="edge",
-           facecolor=PALETTE["envelope"], edgecolor=PALETTE["ink"], linewidth=0.45, zorder=3,
+    centres = 0.5 * (edges[:-1] + edges[1:])
+    outside = np.zeros(counts.size, bool)
+    for side, value in bounds + off_scale:
+        outside |= centres < value if side == "lower" else centres > value
+    inside = ~outside
+    ax.bar(edges[:-1][inside] / scale, counts[inside], width=np.diff(edges)[inside] / scale,
+           align="edge", facecolor=PALETTE["envelope"], edgecolor=PALETTE["ink"],
+           linewidth=0.45, zorder=3,
            label=f"samples per bin ({int(counts.sum())} in {counts.size} bins)")
+    if outside.any() and counts[outside].sum() > 0:
+        ax.bar(edges[:-1][outside] / scale, counts[outside], width=np.diff(edges)[outside] / scale,
+               align="edge", facecolor="white", edgecolor=PALETTE["fail"], hatch="xxxx",
+               linewidth=0.6, zorder=3,
+               label="bins outside the limit")
     box = {"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": "none", "alpha": 0.9}
     for side, value in bounds:
         x = value / scale
@@ -751,8 +764,8 @@ def histogram_plot(spec: SpecResult) -> Plot | None:
                          edgecolor=PALETTE["hatch"], hatch="///", linewidth=0, zorder=1)
         ax.axvline(x, color=PALETTE["hatch"], linewidth=1.0, zorder=4)
         ax.annotate(f"{side} limit {format_eng(value, unit)}", (x, top), xytext=(
-            -3 if side == "lower" else 3, -3), textcoords="offset points", va="top",
-            ha="right" if side == "lower" else "left", fontsize=_FONT_PT - 0.5,
+            4 if side == "lower" else -4, -3), textcoords="offset points", va="top",
+            ha="left" if side == "lower" else "right", fontsize=_FONT_PT - 0.5,
             color=PALETTE["hatch"], fontweight="bold", zorder=6, bbox=box)
     for side, value in off_scale:
         ax.annotate(f"{side} limit {format_eng(value, unit)} off scale "
@@ -775,26 +788,27 @@ def histogram_plot(spec: SpecResult) -> Plot | None:
                     (0.5 * (wc_range[0] + wc_range[1]) / scale, y), xytext=(0, 2),
                     textcoords="offset points", ha="center", va="bottom",
                     fontsize=_FONT_PT - 0.5, color=PALETTE["ink"], zorder=7, bbox=box)
-    _legend_above(ax)
+    _legend_above(ax, ncol=3)
     ax.set_ylabel("Samples", fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
     ax.set_xlabel(f"Measured value ({axis_unit})" if axis_unit else "Measured value",
                   fontsize=_FONT_PT + 0.5, color=PALETTE["ink"])
     samples = mc.get("samples")
-    caption = (f"How the {samples} Monte Carlo samples spread: the measurement of the limit "
-               "named below, binned. " if samples else "How the Monte Carlo samples spread. ")
+    caption = (f"The {samples} Monte Carlo values of this measurement, binned. " if samples
+               else "The Monte Carlo values of this measurement, binned. ")
     if bounds or off_scale:
-        caption += "Hatched: outside the limit. "
+        caption += ("Hatched background: outside the limit; cross-hatched bars: bins whose "
+                    "centre lies outside it. " if outside.any() and counts[outside].sum() > 0
+                    else "Hatched: outside the limit. ")
     if lim is not None:
         caption += "Dashed: the nominal value. "
     if wc_range is not None:
         caption += ("The bracket above the bars is the worst-case range (extreme-value "
                     "analysis" + (", widened to the corners" if wc.get("corners_min")
                                   is not None else "") + ").")
-    status = lim.status if lim is not None else Status.PASS
-    keys = (Tag("H", name, "the measurement shown" + (
-        f", allowed {lim.bound_text}" if lim is not None else ""), status),)
-    return Plot("Spread of the deciding measurement over the samples", caption.strip(),
-                _svg(fig), keys)
+    if lim is not None:
+        caption += f" Allowed: {lim.bound_text}."
+    return Plot(f"Spread of {name} over the samples (the measurement with the least mean "
+                "margin)", caption.strip(), _svg(fig))
 
 
 # --------------------------------------------------------------------------- families
@@ -851,9 +865,14 @@ def _family_axes(ax: Any, members: list[SpecResult], ref: SpecResult, masks: dic
     ax.set_ylim(*ylim)
     _draw_mask(ax, ref, masks, _GAIN_QUANTITIES, 1.0, ylim, span, drawn, skip)
     thin = len(members) > len(VARIANT_STYLES)
+    peaks: dict[float, list[tuple[int, float, float]]] = {}
     for k, m in enumerate(members):
         dash, marker, colour, _ = variant_style(k)
-        f, g = m.curves.frequency_hz, m.curves.gain_db
+        f, g = _with_exact_points(m, m.curves.frequency_hz, m.curves.gain_db)
+        fp, gp = m.measurement("f_peak_hz"), m.measurement("peak_gain_db")
+        if zoom and fp is not None and gp is not None and span[0] < fp < span[1] \
+                and ylim[0] < gp < ylim[1]:
+            peaks.setdefault(round(math.log10(fp) / 0.004), []).append((k, fp, gp))
         sel = (f >= span[0]) & (f <= span[1])
         every = max(1, int(sel.sum()) // 9)
         ax.plot(f, g, color=colour, linestyle=dash, linewidth=0.9 if thin else 1.25,
@@ -861,6 +880,14 @@ def _family_axes(ax: Any, members: list[SpecResult], ref: SpecResult, masks: dic
                 markeredgewidth=0.8, markevery=(int(np.argmax(sel)) + (k * every) // 3 % every,
                                                every) if marker else None,
                 zorder=5 + 0.01 * k, label=f"V{k + 1}")
+    box = {"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": "none", "alpha": 0.85}
+    for group in peaks.values():
+        fp = group[0][1]
+        gp = max(g for _, _, g in group)
+        ax.annotate(" ".join(f"V{k + 1}" for k, _, _ in group), (fp, gp), xytext=(0, 4),
+                    textcoords="offset points", ha="center", va="bottom",
+                    fontsize=_FONT_PT - 0.5, color=PALETTE["ink"], fontweight="bold",
+                    zorder=9, bbox=box)
 
 
 def family_plots(members: list[SpecResult]) -> tuple[Plot, ...]:
@@ -878,7 +905,6 @@ def family_plots(members: list[SpecResult]) -> tuple[Plot, ...]:
     masks = _family_mask_tags(drawn_members, ref)
     variant_keys = tuple(Tag(f"V{k + 1}", m.variant or m.label, variant_style(k)[3], m.status)
                          for k, m in enumerate(drawn_members))
-    f = ref.curves.frequency_hz
     full = (min(float(m.curves.frequency_hz[0]) for m in drawn_members),
             max(float(m.curves.frequency_hz[-1]) for m in drawn_members))
     zoom = _family_window(drawn_members)
@@ -926,7 +952,8 @@ def family_plots(members: list[SpecResult]) -> tuple[Plot, ...]:
             title = "Pass-bands and resonances of every variant in detail"
             caption = (f"The same curves from {format_si(span[0], 'Hz', 5)} to "
                        f"{format_si(span[1], 'Hz', 5)}, spanning every variant's pass-band "
-                       "or half-power edges.")
+                       "or half-power edges, each drawn through the sweep grid and its own "
+                       "refined peak and edges; each peak is tagged with its variant.")
         if any(b.quantity == "gain_re_peak_db" for b in ref.mask):
             caption += (" Bounds relative to the peak are drawn on the peak of V1; each "
                         "variant is judged against its own peak.")
