@@ -277,8 +277,16 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
              "yield": y, "yield_ci": list(ci), "ci_method": "Wilson score, 95 %",
              "limits": lim_json, "measurements": {k: _stats(v) for k, v in meas.items()},
              "parts": [{"part": n, "nominal": v, "tolerance": t} for n, v, t in parts]}
-    hist_key = min(margins, key=lambda k: margins[k].mean() if margins[k].size else 0) \
-        if margins else None
+    def deciding(k: str) -> tuple[float, float]:
+        # the limit with the lowest yield; among equals, the smallest median margin
+        # relative to the size of the measured value (so Hz, dB and Q compare fairly)
+        m, v = margins[k], measured[k]
+        fin = np.isfinite(m)
+        scale = float(np.median(np.abs(v[np.isfinite(v)]))) if np.isfinite(v).any() else 1.0
+        p50 = float(np.median(m[fin])) if fin.any() else -math.inf
+        return float((m >= 0).mean()), p50 / (scale or 1.0)
+
+    hist_key = min(margins, key=deciding) if margins else None
     if hist_key is not None:
         vals = measured[hist_key][np.isfinite(measured[hist_key])]
         if vals.size:
@@ -415,8 +423,9 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
         entry["status"] = status.value
         lim_json.append(entry)
         order = np.argsort(-np.abs(contrib))[:5]
+        relative = m0 and r.unit not in ("dB", "deg")  # a ratio of logarithms means nothing
         sens_json.append({"name": name, "unit": r.unit, "top": [
-            {"part": parts[k][0], "sensitivity": _f(dln[k] / m0) if m0 else None,
+            {"part": parts[k][0], "sensitivity": _f(dln[k] / m0) if relative else None,
              "per_unit_log": _f(dln[k]), "contribution": _f(contrib[k])} for k in order]})
         deciding = lo_v if (r.lower is not None and (r.upper is None or
                                                      lo_v - r.lower < r.upper - hi_v)) else hi_v
