@@ -90,16 +90,6 @@ def print_diagnostics(diags: Sequence[Diagnostic], quiet: bool = False) -> None:
         print(d.format(), file=sys.stderr)
 
 
-def log_grid(start: float, stop: float, ppd: int) -> "np.ndarray":
-    """Log-spaced frequencies, ``ppd`` per decade, both ends included."""
-    import numpy as np
-    decades = np.log10(stop / start)
-    n = max(2, int(round(decades * ppd)) + 1)
-    f = np.logspace(np.log10(start), np.log10(stop), n)
-    f[0], f[-1] = start, stop
-    return f
-
-
 def _sweep(args: argparse.Namespace) -> int:
     import numpy as np
 
@@ -121,7 +111,8 @@ def _sweep(args: argparse.Namespace) -> int:
         diags.append(Diagnostic("NC153", f"stimulus {src.name} has no AC value; the response "
                                 "is computed per unit stimulus", src.span))
     print_diagnostics(diags, args.quiet)
-    f = log_grid(args.start, args.stop, args.ppd)
+    from .spec import Sweep
+    f = np.array(Sweep(args.start, args.stop, args.ppd).grid())
     resp = solve(system, f)
     elapsed = time.perf_counter() - t0
     mag, ph, gd = resp.magnitude_db, resp.phase_deg, resp.group_delay_s

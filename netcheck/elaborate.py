@@ -8,7 +8,7 @@ from typing import TYPE_CHECKING, Callable
 import numpy as np
 
 from .elements import ELEMENTS, Element, Inductor, VoltageSource
-from .exceptions import Diagnostic, ElaborationError, NetcheckError
+from .exceptions import Diagnostic, ElaborationError
 from .expressions import Name, evaluate, parse_expression
 from .parse import Assign, Card, Field, Netlist, Scope, SubcktDef, load_netlist
 from .source import SourceFile, Span

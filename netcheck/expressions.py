@@ -192,7 +192,7 @@ def evaluate(expr: Expr, lookup: Callable[[Name], float]) -> float:
     match expr:
         case Num(value=value):
             return value
-        case Name(name=name):
+        case Name():
             return lookup(expr)
         case Neg(operand=operand):
             return -evaluate(operand, lookup)

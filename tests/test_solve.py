@@ -10,7 +10,7 @@ from scipy import signal
 
 from netcheck import read_netlist
 from netcheck.assemble import assemble
-from netcheck.solve import DenseEngine, SparseEngine, solve
+from netcheck.solve import DenseEngine, SparseEngine
 
 R, L, C = 50.0, 10e-3, 1.5e-9
 

@@ -71,7 +71,7 @@ def test_worst_case_f0_corners_are_exact(tmp_path):
     # f0 = 1/(2 pi sqrt(L C)) is monotone in L and C, so its extremes over +-t are at
     # L(1-t)C(1-t) and L(1+t)C(1+t) exactly (series RLC closed form, textbook).
     t = 0.05
-    path = _spec(tmp_path, f'parts = {{ L1 = "5%", C1 = "5%" }}', 'mode = ["worst_case"]',
+    path = _spec(tmp_path, 'parts = { L1 = "5%", C1 = "5%" }', 'mode = ["worst_case"]',
                  'center = "33.4k"\ncenter_tolerance = "20%"')
     res = check_spec(path)
     wc = {e["name"]: e for e in _tol(res)["worst_case"]["limits"]}["resonance: centre"]

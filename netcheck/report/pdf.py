@@ -17,9 +17,6 @@ import functools
 import math
 import os
 import re
-import shutil
-import subprocess
-from dataclasses import dataclass
 from pathlib import Path
 from typing import IO, Any
 
@@ -137,7 +134,7 @@ def report_names(specs: tuple[SpecResult, ...]) -> list[str]:
 # --------------------------------------------------------------------------- git
 
 
-from ..provenance import GIT_TIMEOUT_S, GitState, git_state  # noqa: E402  (re-exported)
+from ..provenance import GitState, git_state  # noqa: E402
 
 
 def _recorded_git(value: Any) -> GitState | None:
