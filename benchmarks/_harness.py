@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import os
 import platform
+import resource
 import statistics
 import sys
 import timeit
@@ -88,3 +89,13 @@ def header(title: str) -> None:
           f"scipy {scipy.__version__}, {os.cpu_count()} CPUs, {platform.machine()}")
     print(f"netcheck {netcheck.__version__} from {Path(netcheck.__file__).parent}")
     print()
+
+
+def maxrss_bytes() -> int:
+    """Peak resident set size of this process so far (Linux reports KiB)."""
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
+
+
+def mib(nbytes: float, decimals: int = 2) -> str:
+    """Bytes as right-aligned MiB."""
+    return f"{nbytes / 2**20:8.{decimals}f} MiB"

@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import argparse
 import math
-import resource
 import time
 import tracemalloc
 
@@ -54,15 +53,6 @@ def rc_ladder(sections: int) -> tuple[str, str]:
         lines.append(f"R{k} n{k} n{k + 1} {R_SECTION!r}")
         lines.append(f"C{k} n{k + 1} 0 {C_SECTION!r}")
     return "\n".join(lines) + "\n", f"n{sections}"
-
-
-def maxrss_bytes() -> int:
-    """Peak resident set size of this process so far (Linux reports KiB)."""
-    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
-
-
-def mib(nbytes: float) -> str:
-    return f"{nbytes / 2**20:8.2f} MiB"
 
 
 def traced_peak(system, f: np.ndarray) -> tuple[int, object]:
@@ -104,9 +94,9 @@ def main(argv: list[str] | None = None) -> None:
     # imports are not counted as growth of the peak RSS.
     warm_text, warm_out = rc_ladder(DENSE_MAX + 100)
     solve(assemble(read_netlist(warm_text), "V1", warm_out), f)
-    rss_before = maxrss_bytes()
+    rss_before = _harness.maxrss_bytes()
     resp = solve(system, f)
-    rss_after = maxrss_bytes()
+    rss_after = _harness.maxrss_bytes()
     peak, _ = traced_peak(system, f)
     print(f"engine : resp.method = {resp.method!r}")
     print()
@@ -126,14 +116,14 @@ def main(argv: list[str] | None = None) -> None:
                        for m in (system.G, system.C))
     dense_bytes = 16 * n * n
     print("memory")
-    print(f"  sparse G and C as stored (CSC)            {mib(sparse_bytes)}")
-    print(f"  tracemalloc peak during one solve()       {mib(peak)}  "
+    print(f"  sparse G and C as stored (CSC)            {_harness.mib(sparse_bytes)}")
+    print(f"  tracemalloc peak during one solve()       {_harness.mib(peak)}  "
           f"({peak / nnz_a:.0f} bytes per non-zero of G + sC)")
-    print(f"  one SuperLU factor: nnz(L) + nnz(U) = {lu.L.nnz + lu.U.nnz:<6d}{mib(lu_bytes)}"
+    print(f"  one SuperLU factor: nnz(L) + nnz(U) = {lu.L.nnz + lu.U.nnz:<6d}{_harness.mib(lu_bytes)}"
           "  (C-allocated, not traced)")
-    print(f"  process peak RSS before / after solve()   {mib(rss_before)} / {mib(rss_after)}"
+    print(f"  process peak RSS before / after solve()   {_harness.mib(rss_before)} / {_harness.mib(rss_after)}"
           f"  (+{(rss_after - rss_before) / 2**20:.2f} MiB)")
-    print(f"  for comparison: one dense complex n x n   {mib(dense_bytes)}  "
+    print(f"  for comparison: one dense complex n x n   {_harness.mib(dense_bytes)}  "
           f"({dense_bytes / max(peak, 1):.0f}x the traced peak)")
     print()
 
@@ -147,8 +137,8 @@ def main(argv: list[str] | None = None) -> None:
     for sections, sysm in rows + [(args.sections, system)]:
         p, r = traced_peak(sysm, f)
         nz = (sysm.G + sysm.C).nnz
-        print(f"  {sections:>8} {sysm.size:>6} {nz:>10} {mib(p):>13} {p / nz:>10.0f}"
-              f" {mib(16 * sysm.size ** 2):>13}  {r.method}")
+        print(f"  {sections:>8} {sysm.size:>6} {nz:>10} {_harness.mib(p):>13} {p / nz:>10.0f}"
+              f" {_harness.mib(16 * sysm.size ** 2):>13}  {r.method}")
     print()
 
     # Independent dense reference: LAPACK on the same G, C, b (not a netcheck engine).

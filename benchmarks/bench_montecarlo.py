@@ -34,7 +34,6 @@ import argparse
 import dataclasses
 import math
 import os
-import resource
 import statistics
 import tempfile
 import time
@@ -151,15 +150,6 @@ reference = "peak"
 """
 
 
-def maxrss_bytes() -> int:
-    """Peak resident set size of this process so far (Linux reports KiB)."""
-    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024
-
-
-def mib(nbytes: float) -> str:
-    return f"{nbytes / 2**20:8.1f} MiB"
-
-
 def timed(fn: Callable[[], object]) -> tuple[float, object]:
     t = time.perf_counter()
     out = fn()
@@ -247,7 +237,7 @@ def main(argv: list[str] | None = None) -> None:
     evaluate(nominal_spec, checked[0])
     print()
 
-    rss_before = maxrss_bytes()
+    rss_before = _harness.maxrss_bytes()
     rss_after = None
     t_mc, t_ac, t_solve, t_check = [], [], [], []
     block = None
@@ -255,7 +245,7 @@ def main(argv: list[str] | None = None) -> None:
         dt, (block, rows, _) = timed(lambda: monte_carlo(system, spec, parts, tol, analysis))
         t_mc.append(dt)
         if rss_after is None:
-            rss_after = maxrss_bytes()
+            rss_after = _harness.maxrss_bytes()
         t_ac.append(timed(loop_ac)[0])
         t_solve.append(timed(loop_solve)[0])
         dt, checks = timed(loop_check)
@@ -288,8 +278,8 @@ def main(argv: list[str] | None = None) -> None:
     # -- memory -------------------------------------------------------------------------
     print(f"memory (budget: analysis.memory_mib = {analysis.memory_mib} MiB)")
     grew = rss_after - rss_before
-    print(f"  peak RSS before / after the first timed monte_carlo  {mib(rss_before)} / "
-          f"{mib(rss_after)}  (+{grew / 2**20:.1f} MiB; within budget: "
+    print(f"  peak RSS before / after the first timed monte_carlo  {_harness.mib(rss_before, 1)} / "
+          f"{_harness.mib(rss_after, 1)}  (+{grew / 2**20:.1f} MiB; within budget: "
           f"{_harness.verdict(grew <= budget)})")
     end_to_end = None
     if not args.no_check_spec:
@@ -299,7 +289,7 @@ def main(argv: list[str] | None = None) -> None:
             _, peak = tracemalloc.get_traced_memory()
         finally:
             tracemalloc.stop()
-        print(f"  tracemalloc peak during check_spec(spec)            {mib(peak)}  "
+        print(f"  tracemalloc peak during check_spec(spec)            {_harness.mib(peak, 1)}  "
               f"({peak / budget * 100:.0f} % of the budget; within budget: "
               f"{_harness.verdict(peak <= budget)})")
         print(f"  check_spec wall time under tracemalloc: {dt:.2f} s (one run, not a timing; "

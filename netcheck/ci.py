@@ -27,7 +27,7 @@ from pathlib import Path
 from typing import Any
 
 from .exceptions import NetcheckError
-from .source import SourceFile
+from .source import SourceFile, read_text
 
 __all__ = [
     "GitError", "BaselineError", "AffectedSpec", "AffectedSpecs", "affected_specs",
@@ -624,15 +624,7 @@ def load_baseline(path: str | Path) -> dict[str, Any]:
         ``file:line:col`` with the line and a caret); or it is not a netcheck result.
     """
     shown = str(path)
-    try:
-        data = Path(path).read_bytes()
-    except OSError as err:
-        raise BaselineError(f"cannot read baseline: {err.strerror or err}", path=shown) from None
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as err:
-        raise BaselineError(f"baseline is not UTF-8 text ({err.reason} at byte {err.start})",
-                            path=shown) from None
+    text = read_text(path, BaselineError, "baseline", encoding="utf-8-sig")
     try:
         doc = json.loads(text)
     except json.JSONDecodeError as err:

@@ -40,8 +40,35 @@ def seeds_from_roots(roots_hz: np.ndarray, lo: float, hi: float) -> np.ndarray:
     return np.unique(cand)
 
 
+class _CachedCurve:
+    """A Curve whose ``transfer`` and ``dtransfer`` share one evaluation.
+
+    Measurements ask for H and dH/df at the same points one after the other; the last
+    evaluation is kept, so each point costs one solve. Subclasses give ``_evaluate``.
+    """
+
+    __slots__ = ()
+
+    def _evaluate(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        raise NotImplementedError
+
+    def _both(self, f_hz: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        f = np.asarray(f_hz, dtype=float)
+        key = f.tobytes()
+        if self._last.get("key") != key:
+            h, dh = self._evaluate(f)
+            self._last.update(key=key, h=h, dh=dh)
+        return self._last["h"], self._last["dh"]
+
+    def transfer(self, f_hz: np.ndarray) -> np.ndarray:
+        return self._both(f_hz)[0].copy()
+
+    def dtransfer(self, f_hz: np.ndarray) -> np.ndarray:
+        return self._both(f_hz)[1].copy()
+
+
 @dataclass(frozen=True, slots=True, eq=False)
-class ResponseCurve:
+class ResponseCurve(_CachedCurve):
     """A :class:`netcheck.measure.Curve` over a solved :class:`Response`."""
 
     response: Response
@@ -56,32 +83,20 @@ class ResponseCurve:
                                 seeds_from_roots(response.zeros_hz, f[0], f[-1])])
         return cls(response, f, np.unique(seeds))
 
-    def _both(self, f_hz: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        # measurements ask for H and dH/df at the same points one after the other:
-        # one evaluation serves both
-        f = np.asarray(f_hz, dtype=float)
-        key = f.tobytes()
-        if self._last.get("key") != key:
-            h, dh = self.response.at(f)
-            self._last.update(key=key, h=h, dh=dh)
-        return self._last["h"], self._last["dh"]
-
-    def transfer(self, f_hz: np.ndarray) -> np.ndarray:
-        return self._both(f_hz)[0].copy()
-
-    def dtransfer(self, f_hz: np.ndarray) -> np.ndarray:
-        return self._both(f_hz)[1].copy()
+    def _evaluate(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        return self.response.at(f)
 
 
 @dataclass(frozen=True, slots=True, eq=False)
-class ImpedanceCurve:
+class ImpedanceCurve(_CachedCurve):
     """Input impedance Z(f) seen by the stimulus, exact (direct solves)."""
 
     response: Response
     grid_hz: np.ndarray
     seeds_hz: np.ndarray
+    _last: dict = field(default_factory=dict, repr=False)
 
-    def _zi(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    def _evaluate(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         system = self.response.system
         engine = self.response.direct()
         if system.circuit.element(system.source).letter == "V":
@@ -89,12 +104,6 @@ class ImpedanceCurve:
             with np.errstate(all="ignore"):
                 return 1.0 / i, -di / (i * i)
         return engine.transfer(f, system.input_voltage_selector())
-
-    def transfer(self, f_hz: np.ndarray) -> np.ndarray:
-        return self._zi(np.asarray(f_hz, float))[0]
-
-    def dtransfer(self, f_hz: np.ndarray) -> np.ndarray:
-        return self._zi(np.asarray(f_hz, float))[1]
 
 
 @dataclass(eq=False)

@@ -5,7 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from pathlib import Path
 
-__all__ = ["SourceFile", "Span", "format_caret"]
+__all__ = ["SourceFile", "Span", "format_caret", "read_text"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -86,3 +86,22 @@ def format_caret(span: Span) -> str:
     width = max(1, min(width, len(text) - span.column + 2))
     pad = " " * (span.column - 1)
     return f"    {text}\n    {pad}{'^' * width}"
+
+
+def read_text(path: str | Path, error: type[Exception], what: str,
+              encoding: str = "utf-8") -> str:
+    """Read a user file strictly as text; failures raise ``error(message, path=...)``.
+
+    ``error`` is a :class:`netcheck.exceptions.NetcheckError` subclass; ``what`` names
+    the file in messages ("spec", "baseline").
+    """
+    shown = str(path)
+    try:
+        data = Path(path).read_bytes()
+    except OSError as err:
+        raise error(f"cannot read {what}: {err.strerror or err}", path=shown) from None
+    try:
+        return data.decode(encoding)
+    except UnicodeDecodeError as err:
+        raise error(f"{what} is not UTF-8 text ({err.reason} at byte {err.start})",
+                    path=shown) from None

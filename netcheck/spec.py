@@ -12,7 +12,7 @@ from typing import Any
 import numpy as np
 
 from .exceptions import SpecError
-from .source import SourceFile
+from .source import SourceFile, read_text
 from .units import UnitError, parse_value
 
 __all__ = ["Sweep", "Spec", "load_spec", "parse_spec", "SpecReader", "TOP_KEYS", "locate"]
@@ -378,14 +378,4 @@ def _build(doc: dict, text: str, path: str, build_limit: Any) -> Spec:
 
 def load_spec(path: str | Path) -> Spec:
     """Read and validate the spec file at ``path``."""
-    shown = str(path)
-    try:
-        data = Path(path).read_bytes()
-    except OSError as err:
-        raise SpecError(f"cannot read spec: {err.strerror or err}", path=shown) from None
-    try:
-        text = data.decode("utf-8")
-    except UnicodeDecodeError as err:
-        raise SpecError(f"spec is not UTF-8 text ({err.reason} at byte {err.start})",
-                        path=shown) from None
-    return parse_spec(text, shown)
+    return parse_spec(read_text(path, SpecError, "spec"), str(path))

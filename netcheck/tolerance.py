@@ -21,6 +21,7 @@ References
 
 from __future__ import annotations
 
+import dataclasses
 import fnmatch
 import itertools
 import math
@@ -475,8 +476,6 @@ def _corner_rows(system: System, spec: Spec, parts: list[tuple[str, float, float
 
 def with_values(circuit: Circuit, values: dict[str, float]) -> Circuit:
     """A copy of ``circuit`` with the main value of the named elements replaced."""
-    import dataclasses
-
     fields = ("magnitude", "gain", "k", "ac_magnitude")
     out = []
     for e in circuit.elements:
@@ -514,6 +513,7 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
     probe); the ``candidates`` worst samples of each part are then rebuilt as circuits
     of their own and judged exactly (true maximum between grid points, as at nominal).
     """
+    from .assemble import assemble
     from .solve import solve
     from .stress import _matches, _probe, judge_stress, parse_stress, stress_lines
 
@@ -543,7 +543,7 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
         for j in np.argsort(-peaks)[:candidates]:
             sample = {n: float(values[n][j]) for n in names}
             circuit = with_values(system.circuit, sample)
-            sys_j = _restamped(system, circuit)
+            sys_j = assemble(circuit, system.source, system.node, system.ref)
             res = [r for r in judge_stress([limits[k]], solve(sys_j, grid)) if r.part == part]
             if res and res[0].peak is not None and (
                     (k, part) not in worst or res[0].peak > worst[(k, part)][0]):
@@ -554,7 +554,7 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
         entry["sample"] = j
         block.append(entry)
         lim = r.to_limit_result(index=len(spec.limits) + k)
-        rows_out.append(_renamed(
+        rows_out.append(dataclasses.replace(
             lim, name=f"Monte Carlo worst: {lim.name}",
             definition=f"{lim.definition}; worst of {samples} samples (sample {j}), "
                        "screened on the grid, then judged exactly"))
@@ -581,15 +581,3 @@ def _vertex(values: np.ndarray, grid: np.ndarray) -> np.ndarray:
         sharp = np.exp(yv)
     ok = inner & np.isfinite(sharp) & (curv < 0) & (sharp >= best)
     return np.where(ok, sharp, best)
-
-
-def _restamped(system: System, circuit: Circuit) -> System:
-    """``system`` re-stamped for ``circuit`` (same stimulus and output)."""
-    from .assemble import assemble
-    return assemble(circuit, system.source, system.node, system.ref)
-
-
-def _renamed(lim: LimitResult, **changes: Any) -> LimitResult:
-    """A copy of ``lim`` with ``changes``."""
-    import dataclasses
-    return dataclasses.replace(lim, **changes)
