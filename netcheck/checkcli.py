@@ -91,23 +91,48 @@ def _use_color(choice: str) -> bool:
 
 
 class _Progress:
-    """A one-line progress display for a terminal (nothing is drawn on CI logs)."""
+    """A one-line progress display for a terminal (nothing is drawn on CI logs).
 
-    def __init__(self, stream) -> None:
+    Called with (done, total) as spec results finish, and through :mod:`netcheck.progress`
+    with (label, done, total) by long analyses inside a spec run in this process (a
+    Monte Carlo run, the worst-case corners).
+    """
+
+    WIDTH = 30
+
+    def __init__(self, stream, show_jobs: bool) -> None:
         self.stream = stream
         self.t0 = time.perf_counter()
+        self.show_jobs = show_jobs
+        self.jobs = ""
+        self.inner = ""
+        self.drawn = 0
+
+    def _bar(self, done: int, total: int) -> str:
+        fill = int(self.WIDTH * done / max(total, 1))
+        return f"[{'#' * fill}{'.' * (self.WIDTH - fill)}] {done}/{total}"
+
+    def _draw(self) -> None:
+        line = " · ".join(p for p in (self.jobs, self.inner) if p)
+        line = f"{line} {time.perf_counter() - self.t0:5.1f} s"
+        self.stream.write("\r" + line.ljust(self.drawn))
+        self.stream.flush()
+        self.drawn = max(self.drawn, len(line))
 
     def __call__(self, done: int, total: int) -> None:
-        width = 30
-        fill = int(width * done / max(total, 1))
-        elapsed = time.perf_counter() - self.t0
-        self.stream.write(f"\r[{'#' * fill}{'.' * (width - fill)}] {done}/{total} "
-                          f"{elapsed:5.1f} s")
-        self.stream.flush()
+        self.inner = ""
+        if self.show_jobs:
+            self.jobs = f"{self._bar(done, total)} specs"
+            self._draw()
+
+    def analysis(self, label: str, done: int, total: int) -> None:
+        self.inner = f"{label} {self._bar(done, total)}" if done < total else ""
+        self._draw()
 
     def close(self) -> None:
-        self.stream.write("\r" + " " * 60 + "\r")
-        self.stream.flush()
+        if self.drawn:
+            self.stream.write("\r" + " " * self.drawn + "\r")
+            self.stream.flush()
 
 
 def _with_provenance(results: tuple) -> tuple:
@@ -154,10 +179,14 @@ def run_check(args: argparse.Namespace) -> int:
     items = expand_jobs(specs)
     executor = DaskExecutor(args.cluster) if args.cluster else LocalExecutor(args.jobs)
     t0 = time.perf_counter()
-    bar = _Progress(sys.stderr) if sys.stderr.isatty() and len(items) > 1 else None
-    results = run_all(items, executor, bar)
-    if bar is not None:
+    if sys.stderr.isatty():
+        from .progress import reporting
+        bar = _Progress(sys.stderr, show_jobs=len(items) > 1)
+        with reporting(bar.analysis):
+            results = run_all(items, executor, bar)
         bar.close()
+    else:
+        results = run_all(items, executor)
     results = _with_provenance(results)
     result = CheckResult(results, __version__, created_utc())
     options = RenderOptions(color=_use_color(args.color), verbose=args.verbose)

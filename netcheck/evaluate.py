@@ -196,7 +196,7 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None) -> SpecRe
     envelope = (None, None)
     if spec.table("tolerances") is not None or spec.table("analysis") is not None:
         tol_rows, tol_block, envelope, tol_cautions = _tolerance(
-            spec, circuit, system, tuple(limits), dict(measurements))
+            spec, circuit, system, tuple(limits), dict(measurements), probe)
         limits.extend(tol_rows)
         cautions.extend(tol_cautions)
         extra.append(("tolerance", tol_block))
@@ -225,7 +225,8 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None) -> SpecRe
 
 
 def _tolerance(spec: Spec, circuit: Circuit, system: System, nominal: tuple,
-               measurements: dict[str, float]) -> tuple[list, dict, tuple, list[Caution]]:
+               measurements: dict[str, float], probe: SpecProbe
+               ) -> tuple[list, dict, tuple, list[Caution]]:
     """Run the analyses the spec asks for; (result rows, JSON block, envelope, cautions)."""
     from .tolerance import (monte_carlo, parse_analysis, parse_tolerances, toleranced_parts,
                             worst_case)
@@ -251,7 +252,7 @@ def _tolerance(spec: Spec, circuit: Circuit, system: System, nominal: tuple,
         block["monte_carlo"] = mc
         rows.extend(mc_rows)
     if "worst_case" in analysis.modes:
-        wc, wc_rows = worst_case(system, spec, parts, nominal, measurements, analysis)
+        wc, wc_rows = worst_case(system, spec, parts, nominal, measurements, analysis, probe)
         block["worst_case"] = wc
         rows.extend(wc_rows)
     return rows, block, envelope, cautions

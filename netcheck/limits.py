@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, ClassVar, Protocol
+from typing import TYPE_CHECKING, Any, ClassVar, NamedTuple, Protocol
 
 import numpy as np
 
@@ -21,8 +21,9 @@ from .units import format_eng, format_si
 
 if TYPE_CHECKING:  # pragma: no cover
     from .sampling import BatchProbe
+    from .sensitivity import AdjointSensitivity
 
-__all__ = ["Limit", "LIMITS", "register", "build_limit", "Probe", "judge_range"]
+__all__ = ["Limit", "LIMITS", "register", "build_limit", "Probe", "judge_range", "Linearised"]
 
 
 class Probe(Protocol):
@@ -97,6 +98,31 @@ def range_margin(lo: float | None, hi: float | None, vmin: np.ndarray, vmax: np.
 Rows = list[tuple[str, np.ndarray, np.ndarray]]
 
 
+def linearised_range(name: str, lo: float | None, hi: float | None, vmin: float,
+                     d_min: np.ndarray, vmax: float, d_max: np.ndarray) -> "Linearised":
+    """A band's judged minimum and maximum; a one-sided limit judges one of them only."""
+    if lo is None:
+        return Linearised(name, vmax, d_max, vmax, d_max)
+    if hi is None:
+        return Linearised(name, vmin, d_min, vmin, d_min)
+    return Linearised(name, vmin, d_min, vmax, d_max)
+
+
+class Linearised(NamedTuple):
+    """A judged quantity at nominal and its sensitivities, side by side for both bounds.
+
+    ``low``/``d_low`` is what the lower bound judges (a band minimum, say) and
+    ``high``/``d_high`` what the upper bound judges; a single value has both equal.
+    ``d_*`` are (P,) arrays of ∂M/∂ln pₖ in the unit of M.
+    """
+
+    name: str
+    low: float
+    d_low: np.ndarray
+    high: float
+    d_high: np.ndarray
+
+
 @dataclass(frozen=True, slots=True)
 class Limit:
     """Base of all limit kinds: ``name``, position in the spec, and the judging contract."""
@@ -127,6 +153,15 @@ class Limit:
 
     def judge_batch(self, bp: "BatchProbe") -> Rows:
         """Per-sample (name, measured, margin) rows, named as :meth:`judge` names them."""
+        raise NotImplementedError
+
+    def sensitivities(self, probe: Probe, adj: "AdjointSensitivity") -> list[Linearised]:
+        """Nominal value and ∂M/∂ln p of every judged quantity, named as :meth:`judge` names them.
+
+        Built from the adjoint derivatives in ``adj`` (see :mod:`netcheck.sensitivity`).
+        A kind without it is linearised by central differences in the worst case.
+        Raises :class:`MeasurementFailure` when the nominal measurement fails.
+        """
         raise NotImplementedError
 
     def error(self, message: str, unit: str = "", sub: str = "") -> LimitResult:
@@ -194,6 +229,17 @@ class GainLimit(Limit):
                                         vmax.value - off)
         return [(self.name, measured, margin)]
 
+    def sensitivities(self, probe, adj):
+        vmin, vmax = band_extremes(probe.curve, "gain_db", *self.band)
+        off, d_off = 0.0, 0.0
+        if self.reference == "peak":
+            pk = probe.peak()
+            off, d_off = pk.value, adj.extreme("gain_db", pk.frequency_hz)
+        return [linearised_range(self.name, self.min_db, self.max_db, vmin.value - off,
+                                 adj.extreme("gain_db", vmin.frequency_hz) - d_off,
+                                 vmax.value - off,
+                                 adj.extreme("gain_db", vmax.frequency_hz) - d_off)]
+
     def mask(self):
         return (MaskBand(self.name, self.band[0], self.band[1], self.min_db, self.max_db,
                          "gain_db" if self.reference == "absolute" else "gain_re_peak_db"),)
@@ -237,6 +283,11 @@ class RippleLimit(Limit):
     def judge_batch(self, bp):
         value = bp.ripple(*self.band)
         return [(self.name, value, self.max_db - value)]
+
+    def sensitivities(self, probe, adj):
+        value, vmin, vmax = ripple(probe.curve, *self.band)
+        d = adj.extreme("gain_db", vmax.frequency_hz) - adj.extreme("gain_db", vmin.frequency_hz)
+        return [Linearised(self.name, value, d, value, d)]
 
 
 @register
@@ -325,6 +376,18 @@ class ResonanceLimit(Limit):
             rows.append((f"{self.name}: Q", *range_margin(*self.q, q, q)))
         return rows
 
+    def sensitivities(self, probe, adj):
+        res = probe.resonance(self.level_db, self.band)
+        d = adj.resonance(res)
+        out = []
+        for sub, key, wanted in (("centre", "f_center_hz", self.center),
+                                 ("bandwidth", "bandwidth_hz", self.bandwidth),
+                                 ("Q", "q", self.q)):
+            if wanted is not None:
+                v = getattr(res, key)
+                out.append(Linearised(f"{self.name}: {sub}", v, d[key], v, d[key]))
+        return out
+
     def _parts(self):
         parts = []
         if self.center is not None:
@@ -379,6 +442,13 @@ class CornerLimit(Limit):
     def judge_batch(self, bp):
         f = bp.corner(self.level_db, self.reference_db, self.side)
         return [(self.name, *range_margin(self.range[0], self.range[1], f, f))]
+
+    def sensitivities(self, probe, adj):
+        f = corner(probe.curve, self.level_db, self.reference_db, self.side)
+        d_level = adj.extreme("gain_db", probe.peak().frequency_hz) \
+            if self.reference_db is None else 0.0
+        d = adj.crossing_shift(f, d_level)
+        return [Linearised(self.name, f, d, f, d)]
 
 
 @register
@@ -442,6 +512,20 @@ class GroupDelayLimit(Limit):
             rows.append((f"{self.name}: variation", var, self.max_variation - var))
         return rows
 
+    def sensitivities(self, probe, adj):
+        vmin, vmax = band_extremes(probe.curve, "group_delay_s", *self.band)
+        d_min = adj.extreme("group_delay_s", vmin.frequency_hz)
+        d_max = adj.extreme("group_delay_s", vmax.frequency_hz)
+        out = []
+        if self.max is not None or self.min is not None:
+            out.append(linearised_range(self.name, self.min, self.max, vmin.value, d_min,
+                                        vmax.value, d_max))
+        if self.max_variation is not None:
+            var = vmax.value - vmin.value
+            out.append(Linearised(f"{self.name}: variation", var, d_max - d_min, var,
+                                  d_max - d_min))
+        return out
+
 
 @register
 @dataclass(frozen=True, slots=True)
@@ -481,6 +565,12 @@ class PhaseLimit(Limit):
         return [(self.name, *range_margin(self.range_deg[0], self.range_deg[1], vmin.value,
                                           vmax.value))]
 
+    def sensitivities(self, probe, adj):
+        vmin, vmax = band_extremes(probe.curve, "phase_deg", *self.band)
+        return [linearised_range(self.name, *self.range_deg, vmin.value,
+                                 adj.extreme("phase_deg", vmin.frequency_hz), vmax.value,
+                                 adj.extreme("phase_deg", vmax.frequency_hz))]
+
 
 @register
 @dataclass(frozen=True, slots=True)
@@ -516,6 +606,13 @@ class ImpedanceLimit(Limit):
         zmin, zmax = bp.band_extremes("impedance_db", *self.band)
         return [(self.name, *range_margin(self.range[0], self.range[1],
                                           10.0 ** (zmin.value / 20.0), 10.0 ** (zmax.value / 20.0)))]
+
+    def sensitivities(self, probe, adj):
+        zmin, zmax = band_extremes(probe.impedance(), "gain_db", *self.band)
+        return [linearised_range(self.name, *self.range, 10.0 ** (zmin.value / 20.0),
+                                 adj.extreme("impedance_ohm", zmin.frequency_hz),
+                                 10.0 ** (zmax.value / 20.0),
+                                 adj.extreme("impedance_ohm", zmax.frequency_hz))]
 
 
 def build_limit(table: Any, index: int, path: str, sweep: Sweep, line: int | None) -> Limit:

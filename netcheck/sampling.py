@@ -264,7 +264,7 @@ class BatchProbe:
         lf = np.log(self.grid)
         idx = np.clip(np.searchsorted(self.grid, f) - 1, 0, self.grid.size - 2)
         t = (np.log(f) - lf[idx]) / (lf[idx + 1] - lf[idx])
-        rows = np.arange(self.ss.S)
+        rows = np.arange(self.ss.S).reshape((-1,) + (1,) * (np.ndim(f) - 1))
         return grid[rows, idx] * (1 - t) + grid[rows, idx + 1] * t
 
     def _impedance(self, f: np.ndarray) -> np.ndarray:

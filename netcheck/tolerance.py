@@ -2,12 +2,12 @@
 
 Monte Carlo draws every toleranced part for all samples at once (numpy Generator,
 seeded) and judges every limit per sample through :mod:`netcheck.sampling`, in
-memory-bounded chunks. Worst case uses normalised sensitivities from the adjoint
-method [1]_: one extra (transposed) solve per frequency gives ∂H/∂p for every
-part, ∂A/∂p coming from the element stamps by complex-step differentiation [2]_.
-The extreme-value analysis (EVA) sets each part at the tolerance end that hurts;
-RSS combines the contributions in quadrature; for up to 12 parts every corner is
-also evaluated as a check of EVA.
+memory-bounded chunks. Worst case linearises every judged quantity with the adjoint
+sensitivities of :mod:`netcheck.sensitivity` [1]_ (one transposed solve per deciding
+frequency serves every part; ∂A/∂p from the stamps by complex-step differentiation
+[2]_). The extreme-value analysis (EVA) sets each part at the tolerance end that
+hurts; RSS combines the contributions in quadrature; for up to 12 parts every corner
+is also evaluated as a check of EVA.
 
 References
 ----------
@@ -26,20 +26,27 @@ import fnmatch
 import itertools
 import math
 from dataclasses import dataclass
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from .assemble import Stamper, System
+from . import progress
+from .assemble import System
 from .elaborate import Circuit
 from .exceptions import SpecError
+from .limits import LIMITS, Linearised
+from .measure import MeasurementFailure
 from .result import LimitResult, Status
 from .sampling import BatchProbe, SampleSet
+from .sensitivity import AdjointSensitivity
 from .spec import Spec, SpecReader
 from .units import UnitError, parse_value
 
+if TYPE_CHECKING:  # pragma: no cover
+    from .evaluate import SpecProbe
+
 __all__ = ["Tolerances", "Analysis", "parse_tolerances", "parse_analysis", "toleranced_parts",
-           "draw", "wilson_interval", "monte_carlo", "adjoint_sensitivities", "worst_case",
+           "draw", "wilson_interval", "monte_carlo", "worst_case",
            "TOLERANCE_KEYS", "ANALYSIS_KEYS"]
 
 TOLERANCE_KEYS = {
@@ -227,10 +234,17 @@ def _chunk_size(system: System, spec: Spec, memory: int) -> int:
 
 
 def run_samples(system: System, spec: Spec, values: dict[str, np.ndarray], samples: int,
-                memory: int) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray],
-                                      dict[str, np.ndarray], np.ndarray, np.ndarray]:
-    """Judge every limit for each sample, in chunks; margins and measured values per row."""
+                memory: int, label: str | None = None
+                ) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray],
+                           dict[str, np.ndarray], np.ndarray, np.ndarray]:
+    """Judge every limit for each sample, in chunks; margins and measured values per row.
+
+    With a ``label``, progress is reported per chunk (:mod:`netcheck.progress`); while a
+    display listens, chunks are at most a fiftieth of the run (at least 64 samples).
+    """
     step = _chunk_size(system, spec, memory)
+    if label is not None and progress.active():
+        step = min(step, max(64, -(-samples // 50)))
     margins: dict[str, list] = {}
     measured: dict[str, list] = {}
     meas: dict[str, list] = {}
@@ -246,6 +260,8 @@ def run_samples(system: System, spec: Spec, values: dict[str, np.ndarray], sampl
             meas.setdefault(k, []).append(v)
         env_lo = lo if env_lo is None else np.fmin(env_lo, lo)
         env_hi = hi if env_hi is None else np.fmax(env_hi, hi)
+        if label is not None:
+            progress.report(label, j, samples)
     cat = lambda d: {k: np.concatenate(v) for k, v in d.items()}  # noqa: E731
     return cat(margins), cat(measured), cat(meas), env_lo, env_hi
 
@@ -258,7 +274,7 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
     S = analysis.samples
     values = draw(parts, S, tol.distribution, rng)
     margins, measured, meas, env_lo, env_hi = run_samples(
-        system, spec, values, S, analysis.memory_mib * 2**20)
+        system, spec, values, S, analysis.memory_mib * 2**20, "Monte Carlo samples")
     passed_all = np.ones(S, bool)
     lim_json = []
     for name, m in margins.items():
@@ -317,102 +333,108 @@ def _f(v: float) -> float | None:
     return v if math.isfinite(v) else None
 
 
-def adjoint_sensitivities(system: System, parts: list[tuple[str, float, float]],
-                          f_hz: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """H(f) and ∂H/∂p for every part, by the adjoint method (one transposed solve per f).
+def _measurement_sensitivities(probe: "SpecProbe", adj: AdjointSensitivity,
+                               keys: list[str]) -> dict[str, np.ndarray]:
+    """∂/∂ln p of the nominal measurements (peak, half-power edges, bandwidth, centre, Q)."""
+    out: dict[str, np.ndarray] = {}
+    try:
+        pk = probe.peak()
+    except MeasurementFailure:
+        return out
+    grid = probe.curve.grid_hz
+    out["peak_gain_db"] = adj.extreme("gain_db", pk.frequency_hz)
+    out["f_peak_hz"] = adj.peak_shift(pk.frequency_hz,
+                                      interior=grid[0] < pk.frequency_hz < grid[-1])
+    if any(k not in out for k in keys):
+        try:
+            out.update(adj.resonance(probe.resonance(None, None)))
+        except MeasurementFailure:
+            pass
+    return {k: v for k, v in out.items() if k in keys}
 
-    Returns ``h`` (F,) and ``dh`` (F, P): ∂H/∂pₖ = −yᵀ (∂G/∂pₖ + s ∂C/∂pₖ) x with
-    x = A⁻¹b and y = A⁻ᵀl; ∂G/∂pₖ, ∂C/∂pₖ by complex-step differentiation of the stamps.
+
+def _central_differences(system: System, spec: Spec, parts: list[tuple[str, float, float]],
+                         memory: int) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+    """∂M/∂ln p of every judged quantity and measurement by central differences.
+
+    Sample k has part k at (1 + h), sample P + k at (1 − h), all solved together; the
+    fallback for quantities the adjoint linearisation does not cover.
     """
-    f = np.atleast_1d(np.asarray(f_hz, float))
-    g = system.G.toarray()
-    c = system.C.toarray()
-    s = 1j * 2 * np.pi * f
-    a = g[None] + s[:, None, None] * c[None]
-    x = np.linalg.solve(a, np.broadcast_to(system.b, (f.size, system.size))[..., None])[..., 0]
-    y = np.linalg.solve(np.swapaxes(a, 1, 2),
-                        np.broadcast_to(system.l, (f.size, system.size))[..., None])[..., 0]
-    h = x @ system.l
-    dh = np.empty((f.size, len(parts)), dtype=complex)
-    for k, (name, nominal, _) in enumerate(parts):
-        step = 1e-20 * abs(nominal)
-        st = Stamper(system.circuit, {name: nominal + 1j * step})
-        st.stamp_all()
-        dg = _dense_imag(st, "G", system.size) / step
-        dc = _dense_imag(st, "C", system.size) / step
-        da = dg[None] + s[:, None, None] * dc[None]
-        dh[:, k] = -np.einsum("fi,fij,fj->f", y, da, x)
-    return h, dh
-
-
-def _dense_imag(st: Stamper, mat: str, n: int) -> np.ndarray:
-    rows, cols, vals = st.entries[mat]
-    out = np.zeros((n, n))
-    if vals:
-        np.add.at(out, (np.asarray(rows), np.asarray(cols)), np.imag(np.asarray(vals, complex)))
-    return out
-
-
-def _rows_for(system: System, spec: Spec, values: dict[str, np.ndarray], n: int,
-              memory: int) -> tuple[dict[str, tuple[np.ndarray, np.ndarray]], dict[str, np.ndarray]]:
-    margins, measured, meas, _, _ = run_samples(system, spec, values, n, memory)
-    return {k: (measured[k], margins[k]) for k in margins}, meas
-
-
-def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]],
-               nominal: tuple[LimitResult, ...], nominal_measurements: dict[str, float],
-               analysis: Analysis) -> tuple[dict[str, Any], list[LimitResult]]:
-    """Extreme-value analysis from sensitivities, RSS, and (≤ 12 parts) all corners.
-
-    Sensitivities of gain and phase limits come from the adjoint method at the
-    frequency that decides the limit (for a band extreme the envelope theorem makes
-    that exact); other measured quantities (edges, centre, Q, corners, ripple, group
-    delay, impedance) from central differences of the re-measured value, all
-    perturbed samples solved together.
-    """
-    memory = analysis.memory_mib * 2**20
-    P = len(parts)
-    rel = 1e-6
-    # sample k has part k at (1 + rel), sample P + k at (1 - rel); the rest nominal
-    pm = {}
+    P, rel = len(parts), 1e-6
+    values = {}
     for j, (name, v, _) in enumerate(parts):
         col = np.full(2 * P, v)
         col[j] = v * (1 + rel)
         col[P + j] = v * (1 - rel)
-        pm[name] = col
-    rows, meas = _rows_for(system, spec, pm, 2 * P, memory)
+        values[name] = col
+    rows, meas = _rows_for(system, spec, values, 2 * P, memory)
+    diff = lambda m: (m[:P] - m[P:]) / (2 * rel)  # noqa: E731
+    return {k: diff(m) for k, (m, _) in rows.items()}, {k: diff(v) for k, v in meas.items()}
+
+
+def _rows_for(system: System, spec: Spec, values: dict[str, np.ndarray], n: int,
+              memory: int, label: str | None = None
+              ) -> tuple[dict[str, tuple[np.ndarray, np.ndarray]], dict[str, np.ndarray]]:
+    margins, measured, meas, _, _ = run_samples(system, spec, values, n, memory, label)
+    return {k: (measured[k], margins[k]) for k in margins}, meas
+
+
+def _finite(row: Linearised) -> bool:
+    return bool(np.all(np.isfinite(row.d_low)) and np.all(np.isfinite(row.d_high)))
+
+
+def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]],
+               nominal: tuple[LimitResult, ...], nominal_measurements: dict[str, float],
+               analysis: Analysis, probe: "SpecProbe") -> tuple[dict[str, Any], list[LimitResult]]:
+    """Extreme-value analysis from adjoint sensitivities, RSS, and (≤ 12 parts) all corners.
+
+    Every judged quantity is linearised by its limit kind's ``sensitivities`` from the
+    adjoint derivatives at the frequencies that decide it (:mod:`netcheck.sensitivity`);
+    a quantity that cannot be linearised there (a kind without the method, an edge
+    where the gain is flat) falls back to central differences of the re-measured value,
+    and the row says which method it used. ``probe`` is the nominal SpecProbe.
+    """
+    memory = analysis.memory_mib * 2**20
+    P = len(parts)
     tol = np.array([t for _, _, t in parts])
+    adj = AdjointSensitivity(system, parts)
     by_name = {r.name: r for r in nominal}
-    adj_rows = {r.name: r for r in nominal if r.kind in ("gain", "phase") and r.at_hz}
-    adj = {}
-    if adj_rows:
-        fs = np.array([r.at_hz for r in adj_rows.values()])
-        h, dh = adjoint_sensitivities(system, parts, fs)
-        ratio = dh / h[:, None] * np.array([v for _, v, _ in parts])[None, :]
-        for i, (name, r) in enumerate(adj_rows.items()):
-            d = (20 / math.log(10)) * ratio[i].real if r.kind == "gain" else \
-                np.degrees(ratio[i].imag)
-            adj[name] = d  # ∂M/∂ln p
+    lin: dict[str, tuple[Linearised, str]] = {}
+    for lim in spec.limits:
+        try:
+            rows = lim.sensitivities(probe, adj)
+        except (NotImplementedError, MeasurementFailure):
+            continue
+        lin.update((row.name, (row, "adjoint")) for row in rows if _finite(row))
+    keys = [k for k in nominal_measurements if k in MEASUREMENT_KEYS]
+    d_meas = _measurement_sensitivities(probe, adj, keys)
+    judged = [r.name for r in nominal if r.index < len(spec.limits) and r.kind in LIMITS
+              and r.measured is not None and math.isfinite(r.measured)]
+    meas_method = {k: "adjoint" for k, d in d_meas.items() if np.all(np.isfinite(d))}
+    if any(n not in lin for n in judged) or any(k not in meas_method for k in keys):
+        fd_rows, fd_meas = _central_differences(system, spec, parts, memory)
+        for name in judged:
+            if name not in lin and name in fd_rows:
+                m0 = by_name[name].measured
+                lin[name] = (Linearised(name, m0, fd_rows[name], m0, fd_rows[name]),
+                             "central difference")
+        for k in keys:
+            if k not in meas_method and k in fd_meas:
+                d_meas[k], meas_method[k] = fd_meas[k], "central difference"
     out_rows, lim_json, sens_json = [], [], []
     corners = _corner_rows(system, spec, parts, memory) if 0 < P <= MAX_CORNER_PARTS else None
-    for name, (measured, _) in rows.items():
-        r = by_name.get(name)
-        if r is None or r.measured is None or not math.isfinite(r.measured):
+    for name in judged:
+        if name not in lin:
             continue
-        if name in adj:
-            dln = adj[name]
-            method = "adjoint"
-        else:
-            dln = (measured[:P] - measured[P:]) / (2 * rel)
-            method = "central difference"
-        contrib = dln * tol
-        m0 = r.measured
-        span_eva = float(np.nansum(np.abs(contrib)))
-        span_rss = float(math.sqrt(np.nansum(contrib ** 2)))
-        lo_v, hi_v = m0 - span_eva, m0 + span_eva
+        r = by_name[name]
+        row, method = lin[name]
+        c_lo, c_hi = row.d_low * tol, row.d_high * tol
+        lo_v = row.low - float(np.sum(np.abs(c_lo)))
+        hi_v = row.high + float(np.sum(np.abs(c_hi)))
         margin = _margin(r, lo_v, hi_v)
-        entry = {"name": name, "measured_nominal": m0, "min": lo_v, "max": hi_v,
-                 "rss_min": m0 - span_rss, "rss_max": m0 + span_rss, "margin": margin,
+        entry = {"name": name, "measured_nominal": r.measured, "min": lo_v, "max": hi_v,
+                 "rss_min": row.low - float(np.sqrt(np.sum(c_lo ** 2))),
+                 "rss_max": row.high + float(np.sqrt(np.sum(c_hi ** 2))), "margin": margin,
                  "sensitivity_method": method}
         if corners is not None and name in corners:
             cmin, cmax, cmargin = corners[name]
@@ -423,27 +445,30 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
         status = Status.PASS if margin >= 0 else Status.FAIL
         entry["status"] = status.value
         lim_json.append(entry)
+        lower_decides = r.lower is not None and (r.upper is None or
+                                                 lo_v - r.lower < r.upper - hi_v)
+        m0, dln = (row.low, row.d_low) if lower_decides else (row.high, row.d_high)
+        contrib = dln * tol
         order = np.argsort(-np.abs(contrib))[:5]
         relative = m0 and r.unit not in ("dB", "deg")  # a ratio of logarithms means nothing
-        sens_json.append({"name": name, "unit": r.unit, "top": [
+        sens_json.append({"name": name, "unit": r.unit, "method": method, "top": [
             {"part": parts[k][0], "sensitivity": _f(dln[k] / m0) if relative else None,
              "per_unit_log": _f(dln[k]), "contribution": _f(contrib[k])} for k in order]})
-        deciding = lo_v if (r.lower is not None and (r.upper is None or
-                                                     lo_v - r.lower < r.upper - hi_v)) else hi_v
         out_rows.append(LimitResult(
-            f"worst case: {name}", "worst_case", status, deciding, r.lower, r.upper, margin,
-            r.unit, r.at_hz, f"extreme-value analysis over {P} toleranced parts: "
+            f"worst case: {name}", "worst_case", status, lo_v if lower_decides else hi_v,
+            r.lower, r.upper, margin, r.unit, r.at_hz,
+            f"extreme-value analysis over {P} toleranced parts: "
             f"{_fmt(lo_v, r.unit)} … {_fmt(hi_v, r.unit)}" +
             (f"; all {2 ** P} corners evaluated" if corners is not None else ""),
             f"sensitivities by {method}; EVA (each part at the end that hurts)",
             "", r.index, r.line))
     meas_json = {}
-    for key, v in meas.items():
-        base = nominal_measurements.get(key)
-        d = (v[:P] - v[P:]) / (2 * rel) * tol
-        centre = base if base is not None else float(np.nanmean(v))
-        span = float(np.nansum(np.abs(d)))
-        meas_json[key] = {"min": _f(centre - span), "max": _f(centre + span)}
+    for key in keys:
+        if key in d_meas:
+            span = float(np.sum(np.abs(d_meas[key] * tol)))
+            base = nominal_measurements[key]
+            meas_json[key] = {"min": _f(base - span), "max": _f(base + span),
+                              "method": meas_method[key]}
     block = {"method": "eva", "parts": P, "limits": lim_json, "measurements": meas_json,
              "sensitivities": sens_json, "rss": True,
              "corners": None if corners is None else 2 ** P}
@@ -469,7 +494,7 @@ def _corner_rows(system: System, spec: Spec, parts: list[tuple[str, float, float
     P = len(parts)
     signs = np.array(list(itertools.product((-1.0, 1.0), repeat=P)))
     values = {name: v * (1 + t * signs[:, j]) for j, (name, v, t) in enumerate(parts)}
-    rows, _ = _rows_for(system, spec, values, signs.shape[0], memory)
+    rows, _ = _rows_for(system, spec, values, signs.shape[0], memory, "worst-case corners")
     return {k: (float(np.nanmin(m)), float(np.nanmax(m)), float(np.nanmin(g)))
             for k, (m, g) in rows.items()}
 

@@ -191,3 +191,26 @@ def test_every_diagnostic_code_has_an_entry_in_errors_md():
         assert len(entry.split()) >= 12, code  # a sentence on the meaning and the fix
     documented = {part.split('"')[0] for part in doc.split('<a id="')[1:]}
     assert documented == set(CODES)  # and no entry for a code that does not exist
+
+
+class TestProgress:
+    TOL = str(SPECS / "rx40k_tolerance.toml")
+
+    def test_monte_carlo_progress_on_a_tty(self, capsys, monkeypatch, tmp_path):
+        # one spec on a terminal: the Monte Carlo run inside it draws a bar as chunks
+        # finish, the line is cleared at the end, and the results equal a run without it
+        monkeypatch.setattr(sys.stderr, "isatty", lambda: True)
+        shown = tmp_path / "shown.json"
+        assert main(["check", self.TOL, "--json", str(shown)]) == OK
+        err = capsys.readouterr().err
+        frames = [f for f in err.split("\r") if "Monte Carlo samples [" in f]
+        counts = [int(f.split("] ")[1].split("/")[0]) for f in frames]
+        assert len(frames) >= 10 and counts == sorted(counts) and counts[-1] < 2000
+        assert err.split("\r")[-2].strip() == ""  # the bar's line is blanked before the summary
+        monkeypatch.setattr(sys.stderr, "isatty", lambda: False)
+        quiet = tmp_path / "quiet.json"
+        assert main(["check", self.TOL, "--json", str(quiet)]) == OK
+        assert "\r" not in capsys.readouterr().err  # CI logs get no bar, only the final line
+        tolerance = [json.loads(p.read_text("utf-8"))["specs"][0]["tolerance"]
+                     for p in (shown, quiet)]
+        assert tolerance[0] == tolerance[1]  # smaller chunks change no result
