@@ -1,174 +1,27 @@
 """The limit-kind table: TOML ``kind`` → Limit class (its keys, its measurement, its judge).
 
-A new limit kind is one class here, registered with :func:`register`. The spec
+A new limit kind is one class here, registered with :func:`register` (the contract,
+the registry and the judging helpers are in :mod:`netcheck._limit_base`). The spec
 loader, the docs table and the renderers all read :data:`LIMITS`; no renderer
 branches on the kind.
 """
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, ClassVar, NamedTuple, Protocol
+from typing import ClassVar
 
 import numpy as np
 
-from .measure import (Curve, Extremum, MeasurementFailure, Resonance,
-                      band_extremes, corner, ripple)
+from ._limit_base import (LIMITS, Limit, Linearised, Probe, Rows, _band_text, build_limit,
+                          judge_range, linearised_range, range_margin, register)
+from .measure import Extremum, MeasurementFailure, band_extremes, corner, ripple
 from .result import LimitResult, MaskBand, Status
-from .spec import SpecReader, Sweep
 from .units import format_eng, format_si
 
-if TYPE_CHECKING:  # pragma: no cover
-    from .sampling import BatchProbe
-    from .sensitivity import AdjointSensitivity
-
-__all__ = ["Limit", "LIMITS", "register", "build_limit", "Probe", "judge_range", "Linearised"]
-
-
-class Probe(Protocol):
-    """What a limit may measure on (built by :mod:`netcheck.evaluate`)."""
-
-    curve: Curve
-    sweep: Sweep
-
-    def impedance(self) -> Curve:
-        """The input impedance seen by the stimulus, as a curve (|Z| read as 'gain')."""
-
-    def peak(self) -> Extremum:
-        """True peak gain over the sweep."""
-
-    def resonance(self, level_db: float | None, band: tuple[float, float] | None) -> Resonance:
-        """Main resonance measured at ``level_db`` below the peak."""
-
-
-LIMITS: dict[str, type["Limit"]] = {}
-
-
-def register(cls: type["Limit"]) -> type["Limit"]:
-    """Class decorator: add a limit kind to :data:`LIMITS` under ``cls.kind``."""
-    LIMITS[cls.kind] = cls
-    return cls
-
-
-def _band_text(band: tuple[float, float]) -> str:
-    """``38.00–42.00 kHz`` (or ``500.0 Hz–2.000 kHz`` when the prefixes differ)."""
-    lo, hi = format_si(band[0], "Hz", 4), format_si(band[1], "Hz", 4)
-    lo_num, _, lo_unit = lo.partition(" ")
-    hi_num, _, hi_unit = hi.partition(" ")
-    if lo_unit == hi_unit:
-        return f"{lo_num}–{hi_num} {hi_unit}"
-    return f"{lo}–{hi}"
-
-
-def judge_range(name: str, kind: str, lo: float | None, hi: float | None, vmin: Extremum,
-                vmax: Extremum, unit: str, definition: str, method: str, index: int,
-                line: int | None) -> LimitResult:
-    """Judge min/max values against [lo, hi]; the side closest to failing decides."""
-    sides = []
-    if lo is not None:
-        sides.append((vmin.value - lo, vmin))
-    if hi is not None:
-        sides.append((hi - vmax.value, vmax))
-    margin, deciding = min(sides, key=lambda s: s[0])
-    if math.isnan(margin):
-        margin = -math.inf
-    status = Status.PASS if margin >= 0 else Status.FAIL
-    return LimitResult(name, kind, status, deciding.value, lo, hi, margin, unit,
-                       deciding.frequency_hz, definition, method, "", index, line)
-
-
-def range_margin(lo: float | None, hi: float | None, vmin: np.ndarray, vmax: np.ndarray
-                 ) -> tuple[np.ndarray, np.ndarray]:
-    """Vectorised :func:`judge_range`: per-sample deciding value and margin (NaN → −inf)."""
-    margins, values = [], []
-    if lo is not None:
-        margins.append(vmin - lo)
-        values.append(vmin)
-    if hi is not None:
-        margins.append(hi - vmax)
-        values.append(vmax)
-    m = np.stack(margins)
-    m = np.where(np.isnan(m), -np.inf, m)
-    k = np.argmin(m, axis=0)
-    cols = np.arange(m.shape[1])
-    return np.stack(values)[k, cols], m[k, cols]
-
-
-Rows = list[tuple[str, np.ndarray, np.ndarray]]
-
-
-def linearised_range(name: str, lo: float | None, hi: float | None, vmin: float,
-                     d_min: np.ndarray, vmax: float, d_max: np.ndarray) -> "Linearised":
-    """A band's judged minimum and maximum; a one-sided limit judges one of them only."""
-    if lo is None:
-        return Linearised(name, vmax, d_max, vmax, d_max)
-    if hi is None:
-        return Linearised(name, vmin, d_min, vmin, d_min)
-    return Linearised(name, vmin, d_min, vmax, d_max)
-
-
-class Linearised(NamedTuple):
-    """A judged quantity at nominal and its sensitivities, side by side for both bounds.
-
-    ``low``/``d_low`` is what the lower bound judges (a band minimum, say) and
-    ``high``/``d_high`` what the upper bound judges; a single value has both equal.
-    ``d_*`` are (P,) arrays of ∂M/∂ln pₖ in the unit of M.
-    """
-
-    name: str
-    low: float
-    d_low: np.ndarray
-    high: float
-    d_high: np.ndarray
-
-
-@dataclass(frozen=True, slots=True)
-class Limit:
-    """Base of all limit kinds: ``name``, position in the spec, and the judging contract."""
-
-    name: str
-    index: int
-    line: int | None
-
-    kind: ClassVar[str] = ""
-    #: keys this kind accepts (besides ``kind`` and ``name``) → description with unit
-    KEYS: ClassVar[dict[str, str]] = {}
-    #: one-line summary for docs
-    SUMMARY: ClassVar[str] = ""
-
-    @classmethod
-    def from_table(cls, rd: SpecReader, sweep: Sweep, name: str | None, index: int,
-                   line: int | None) -> "Limit":
-        """Build from a TOML table (``rd``), validating every key."""
-        raise NotImplementedError
-
-    def judge(self, probe: Probe) -> tuple[LimitResult, ...]:
-        """Measure and judge; one LimitResult per bound-quantity."""
-        raise NotImplementedError
-
-    def mask(self) -> tuple[MaskBand, ...]:
-        """Regions this limit draws on the gain plot (empty if none)."""
-        return ()
-
-    def judge_batch(self, bp: "BatchProbe") -> Rows:
-        """Per-sample (name, measured, margin) rows, named as :meth:`judge` names them."""
-        raise NotImplementedError
-
-    def sensitivities(self, probe: Probe, adj: "AdjointSensitivity") -> list[Linearised]:
-        """Nominal value and ∂M/∂ln p of every judged quantity, named as :meth:`judge` names them.
-
-        Built from the adjoint derivatives in ``adj`` (see :mod:`netcheck.sensitivity`).
-        A kind without it is linearised by central differences in the worst case.
-        Raises :class:`MeasurementFailure` when the nominal measurement fails.
-        """
-        raise NotImplementedError
-
-    def error(self, message: str, unit: str = "", sub: str = "") -> LimitResult:
-        """A LimitResult for a measurement that could not be made."""
-        name = f"{self.name}: {sub}" if sub else self.name
-        return LimitResult(name, self.kind, Status.ERROR, None, None, None, None, unit, None,
-                           "", "", message, self.index, self.line)
+__all__ = ["Limit", "LIMITS", "register", "build_limit", "Probe", "judge_range", "Linearised",
+           "range_margin", "linearised_range", "Rows", "GainLimit", "RippleLimit",
+           "ResonanceLimit", "CornerLimit", "GroupDelayLimit", "PhaseLimit", "ImpedanceLimit"]
 
 
 @register
@@ -613,25 +466,3 @@ class ImpedanceLimit(Limit):
                                  adj.extreme("impedance_ohm", zmin.frequency_hz),
                                  10.0 ** (zmax.value / 20.0),
                                  adj.extreme("impedance_ohm", zmax.frequency_hz))]
-
-
-def build_limit(table: Any, index: int, path: str, sweep: Sweep, line: int | None) -> Limit:
-    """Validate one ``[[limits]]`` table and build its Limit."""
-    where = f"limits[{index}]"
-    if not isinstance(table, dict):
-        SpecReader({}, where, path, {}).fail("", "expected a table")
-    kind = table.get("kind")
-    kinds = ", ".join(sorted(LIMITS))
-    if kind is None:
-        SpecReader({}, where, path, {}).fail("kind", f"missing (required): one of {kinds}")
-    if not isinstance(kind, str) or kind not in LIMITS:
-        import difflib
-        close = difflib.get_close_matches(str(kind), list(LIMITS), n=1)
-        hint = f"; did you mean {close[0]!r}?" if close else ""
-        SpecReader({}, where, path, {}).fail(
-            "kind", f"unknown limit kind {kind!r}{hint} (kinds: {kinds})",
-            code="NC201" if isinstance(kind, str) else "NC202")
-    cls = LIMITS[kind]
-    rd = SpecReader(table, where, path, {"kind": "", "name": "", **cls.KEYS})
-    name = rd.text("name")
-    return cls.from_table(rd, sweep, name, index, line)
