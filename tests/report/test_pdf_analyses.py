@@ -35,7 +35,7 @@ def signed(value: float, unit: str) -> str:
 
 
 def pct(x: float) -> str:
-    """A fraction as a percentage with two decimals (written out here, not taken from pdf.py)."""
+    """A fraction as a percentage with two decimals (written out here, not by the report code)."""
     return f"{100 * x:.2f} %"
 
 

@@ -1,0 +1,300 @@
+"""Gain-axis pieces shared by the spec and family figures: tags, zoom, mask regions, failures.
+
+The plots hold no text taken from input files: mask bands and failure points carry
+short tags (``M1``, ``F1``) that the report explains in an escaped HTML key below each
+figure. Allowed regions are a pale tint without hatching, forbidden regions a sand tint
+with diagonal hatching (cross-hatched and darker where the limit failed), and every
+failure is also spelled out in words (``FAIL``) next to its marker.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from ..result import LimitResult, MaskBand, SpecResult, Status
+from ..units import format_eng, format_si
+from .plot_base import FONT_PT, PALETTE, Tag
+
+__all__ = ["GAIN_QUANTITIES", "HALF_POWER_DB", "tags_for", "zoom_window", "gain_limits",
+           "draw_mask", "fail_points", "with_exact_points", "gain_label"]
+
+#: mask quantities drawn on the gain axis
+GAIN_QUANTITIES = ("gain_db", "gain_re_peak_db")
+#: the half-power level below the peak, dB: 10·log10(2)
+HALF_POWER_DB = 10.0 * math.log10(2.0)
+#: unit of a limit → the curve (Curves attribute) its worst point lies on
+_UNIT_CURVE = {"dB": "gain_db", "s": "group_delay_s", "deg": "phase_deg"}
+
+
+def _offset(band: MaskBand, spec: SpecResult) -> float | None:
+    """dB to add to a mask band's bounds to put it on the absolute gain axis."""
+    if band.quantity == "gain_re_peak_db":
+        return spec.measurement("peak_gain_db")
+    return 0.0
+
+
+def _band_text(band: MaskBand, unit: str) -> str:
+    lo = "open" if band.lo is None else format_eng(band.lo, unit)
+    hi = "open" if band.hi is None else format_eng(band.hi, unit)
+    span = f"{format_si(band.f_lo_hz, 'Hz')} – {format_si(band.f_hi_hz, 'Hz')}"
+    ref = " re peak" if band.quantity == "gain_re_peak_db" else ""
+    if band.lo is not None and band.hi is not None:
+        allowed = f"allowed {lo} … {hi}{ref}"
+    elif band.lo is not None:
+        allowed = f"allowed ≥ {lo}{ref}"
+    else:
+        allowed = f"allowed ≤ {hi}{ref}"
+    return f"{span}, {allowed}"
+
+
+def _limit_for(band: MaskBand, spec: SpecResult) -> LimitResult | None:
+    for lim in spec.limits:
+        if lim.name == band.label:
+            return lim
+    return None
+
+
+def tags_for(spec: SpecResult) -> tuple[dict[int, Tag], dict[int, Tag]]:
+    """Tags of the mask bands (``M1``…) and of the failed limits' worst points (``F1``…).
+
+    Returns two dicts keyed by position in ``spec.mask`` and ``spec.limits``.
+    """
+    units = {"gain_db": "dB", "gain_re_peak_db": "dB", "phase_deg": "deg",
+             "group_delay_s": "s"}
+    masks: dict[int, Tag] = {}
+    for i, band in enumerate(spec.mask):
+        if band.quantity not in units:
+            continue
+        lim = _limit_for(band, spec)
+        status = lim.status if lim is not None else (Status.FAIL if band.failed else Status.PASS)
+        masks[i] = Tag(f"M{len(masks) + 1}", band.label, _band_text(band, units[band.quantity]),
+                       status)
+    re_peak = {b.label for b in spec.mask if b.quantity == "gain_re_peak_db"}
+    fails: dict[int, Tag] = {}
+    for i, lim in enumerate(spec.limits):
+        if lim.status is not Status.FAIL or lim.at_hz is None or lim.measured is None:
+            continue
+        ref = " (re peak)" if lim.name in re_peak else ""
+        fails[i] = Tag(f"F{len(fails) + 1}", lim.name,
+                       f"worst value {format_eng(lim.measured, lim.unit)}{ref} at "
+                       f"{format_si(lim.at_hz, 'Hz', 5)}, limit {lim.bound_text}", lim.status)
+    return masks, fails
+
+
+def zoom_window(spec: SpecResult) -> tuple[float, float] | None:
+    """Frequency span (Hz) of the pass-band / resonance zoom, or None when there is none.
+
+    With half-power edges measured: the edges widened by 1.2 bandwidths each side.
+    Otherwise the union of the gain mask bands that set a minimum (pass-bands),
+    widened by 8 % of its width in log frequency.
+    """
+    f = spec.curves.frequency_hz if spec.curves is not None else None
+    if f is None or f.size < 2:
+        return None
+    f_lo, f_hi = spec.measurement("f_low_hz"), spec.measurement("f_high_hz")
+    if f_lo is not None and f_hi is not None and 0 < f_lo < f_hi:
+        bw = f_hi - f_lo
+        lo, hi = max(f[0], f_lo - 1.2 * bw), min(f[-1], f_hi + 1.2 * bw)
+    else:
+        bands = [b for b in spec.mask if b.quantity in GAIN_QUANTITIES and b.lo is not None]
+        if not bands:
+            return None
+        blo, bhi = min(b.f_lo_hz for b in bands), max(b.f_hi_hz for b in bands)
+        if not (0 < blo < bhi):
+            return None
+        pad = 0.08 * math.log10(bhi / blo) + 0.01
+        lo, hi = max(f[0], blo / 10 ** pad), min(f[-1], bhi * 10 ** pad)
+    if not hi > lo or (lo <= f[0] and hi >= f[-1]):
+        return None
+    return float(lo), float(hi)
+
+
+def gain_limits(spec: SpecResult, lo_hz: float, hi_hz: float, zoom: bool) -> tuple[float, float]:
+    """y-range (dB) for a gain panel over [lo_hz, hi_hz].
+
+    Whole sweep: the curve (down to 120 dB below its top) and every mask bound.
+    Resonance zoom: the peak down to 12 dB below it. Pass-band zoom: the pass-band
+    bounds and the curve inside the pass-bands only, so that flatness is readable.
+    """
+    c = spec.curves
+    f = c.frequency_hz
+    ok = np.isfinite(c.gain_db)
+    sel = (f >= lo_hz) & (f <= hi_hz) & ok
+    g = c.gain_db[sel]
+    if g.size == 0:
+        return -60.0, 10.0
+    peak = spec.measurement("peak_gain_db")
+    bands = [(b, _offset(b, spec)) for b in spec.mask if b.quantity in GAIN_QUANTITIES
+             and b.f_hi_hz >= lo_hz and b.f_lo_hz <= hi_hz]
+    bands = [(b, off) for b, off in bands if off is not None]
+    resonant = spec.measurement("f_low_hz") is not None
+    if not zoom:
+        top = float(g.max())
+        values = [top, max(float(g.min()), top - 120.0)]
+    elif resonant:
+        ref = peak if peak is not None else float(g.max())
+        values = [float(g.max()), max(min(float(g.min()), ref - HALF_POWER_DB - 3.0),
+                                      ref - 12.0)]
+    else:
+        values = []
+        for b, _ in bands:
+            if b.lo is not None:
+                inside = (f >= b.f_lo_hz) & (f <= b.f_hi_hz) & ok
+                if inside.any():
+                    values += [float(c.gain_db[inside].min()), float(c.gain_db[inside].max())]
+        values = values or [float(g.max()), float(g.min())]
+    for b, off in bands:
+        if zoom and not resonant and b.lo is None:
+            continue  # a stop-band bound would squash the pass-band detail
+        values += [v + off for v in (b.lo, b.hi) if v is not None]
+    lo, hi = min(values), max(values)
+    span = max(hi - lo, 1.0)
+    if zoom and not resonant:
+        return lo - 0.35 * span, hi + 0.35 * span
+    return lo - 0.1 * span, hi + (0.2 if zoom else 0.12) * span
+
+
+def draw_mask(ax: Any, spec: SpecResult, masks: dict[int, Tag], quantity: tuple[str, ...],
+              scale: float, ylim: tuple[float, float], x_span: tuple[float, float],
+              drawn: list[Tag], skip: tuple[float, float] | None = None) -> None:
+    """Allowed (tint) and forbidden (hatched) regions of each band, tagged M1, M2…
+
+    Bands lying inside ``skip`` (the zoom, on the overview) are drawn but not tagged:
+    the zoom figure tags them where there is room.
+    """
+    y0, y1 = ylim
+    log = ax.get_xscale() == "log"
+
+    def frac(u: float, v: float) -> float:
+        if log:
+            return math.log10(v / u) / math.log10(x_span[1] / x_span[0])
+        return (v - u) / (x_span[1] - x_span[0])
+
+    for i, band in enumerate(spec.mask):
+        if i not in masks or band.quantity not in quantity:
+            continue
+        off = _offset(band, spec)
+        if off is None:
+            continue
+        a, b = max(band.f_lo_hz, x_span[0]), min(band.f_hi_hz, x_span[1])
+        if not b > a:
+            continue
+        failed = masks[i].status is Status.FAIL or band.failed
+        lo = None if band.lo is None else (band.lo + off) / scale
+        hi = None if band.hi is None else (band.hi + off) / scale
+        edge = PALETTE["fail"] if failed else PALETTE["hatch"]
+        hatch = "xx" if failed else "///"
+        ax.fill_between([a, b], lo if lo is not None else y0, hi if hi is not None else y1,
+                        facecolor=PALETTE["allowed"], edgecolor="none", linewidth=0, zorder=0.5)
+        for bound, far in ((hi, y1), (lo, y0)):
+            if bound is None:
+                continue
+            ax.fill_between([a, b], bound, far, facecolor=PALETTE["forbid"], edgecolor=edge,
+                            hatch=hatch, linewidth=0, zorder=0.6)
+            ax.plot([a, b], [bound, bound], color=edge, linewidth=1.1 if failed else 0.9,
+                    solid_capstyle="butt", zorder=2)
+        if skip is not None and skip[0] <= band.f_lo_hz and band.f_hi_hz <= skip[1]:
+            continue
+        drawn.append(masks[i])
+        label = masks[i].tag + (" FAIL" if failed else "")
+        y_txt = hi if hi is not None else lo
+        va = "bottom" if hi is not None else "top"
+        if frac(a, b) > 0.25:
+            xm, ha, dx = (math.sqrt(a * b) if log else 0.5 * (a + b)), "center", 0
+        else:
+            xm, ha, dx = a, "left", 2
+        if y_txt is not None and y0 < y_txt < y1:
+            ax.annotate(label, (xm, y_txt), xytext=(dx, 3 if va == "bottom" else -3),
+                        textcoords="offset points", ha=ha, va=va, fontsize=FONT_PT - 0.5,
+                        color=edge, fontweight="bold", zorder=6,
+                        bbox={"boxstyle": "round,pad=0.15", "facecolor": "white",
+                              "edgecolor": edge, "linewidth": 0.5})
+
+
+def fail_points(ax: Any, spec: SpecResult, fails: dict[int, Tag], curve: str, scale: float,
+                x_span: tuple[float, float], masked: set[str], drawn: list[Tag],
+                skip: tuple[float, float] | None = None) -> None:
+    """Mark the worst point of each failed limit that belongs on this panel.
+
+    A limit whose unit is the panel's (dB on gain, s on group delay, deg on phase) gets
+    a cross at its worst point: exactly (at_hz, measured) when it draws a mask band,
+    else on the curve at at_hz. On the gain panel, limits in other units (frequency,
+    Q, impedance) get a wedge on the top edge at at_hz: where, not a value. Tags of
+    points that coincide share one label.
+    """
+    c = spec.curves
+    f = c.frequency_hz
+    ylo, yhi = ax.get_ylim()
+    offsets = {b.label: _offset(b, spec) for b in spec.mask if b.quantity in GAIN_QUANTITIES}
+    groups: dict[tuple[str, float, float], list[tuple[Tag, LimitResult]]] = {}
+    for i, tag in fails.items():
+        lim = spec.limits[i]
+        if not (x_span[0] <= lim.at_hz <= x_span[1]):
+            continue
+        if skip is not None and skip[0] <= lim.at_hz <= skip[1]:
+            continue  # marked on the zoom instead
+        if _UNIT_CURVE.get(lim.unit) == curve:
+            if lim.name in masked and offsets.get(lim.name) is not None:
+                y = (lim.measured + offsets[lim.name]) / scale
+            else:
+                y = float(np.interp(np.log(lim.at_hz), np.log(f), getattr(c, curve))) / scale
+            if not math.isfinite(y):
+                continue
+            where = ("point", round(math.log10(lim.at_hz), 4),
+                     round(min(max(y, ylo), yhi), 6))
+        elif curve == "gain_db" and lim.unit not in _UNIT_CURVE:
+            where = ("edge", round(math.log10(lim.at_hz), 4), yhi)
+        else:
+            continue
+        groups.setdefault(where, []).append((tag, lim))
+    box = {"boxstyle": "round,pad=0.2", "facecolor": "white", "edgecolor": PALETTE["fail"],
+           "linewidth": 0.6}
+    for (kind, logx, y), members in groups.items():
+        drawn.extend(t for t, _ in members)
+        x = 10.0 ** logx
+        label = " ".join(t.tag for t, _ in members) + " FAIL"
+        if kind == "point":
+            if len(members) == 1:
+                lim = members[0][1]
+                label += f"  {format_eng(lim.measured, lim.unit)}"
+            ax.plot([x], [y], marker="X", markersize=7, color=PALETTE["fail"],
+                    markeredgecolor="white", markeredgewidth=0.7, zorder=7, linestyle="none")
+            ax.annotate(label, (x, y), xytext=(6, -9), textcoords="offset points",
+                        fontsize=FONT_PT, color=PALETTE["fail"], fontweight="bold", zorder=8,
+                        bbox=box)
+        else:
+            ax.plot([x], [y], marker="v", markersize=7, color=PALETTE["fail"], clip_on=False,
+                    markeredgecolor="white", markeredgewidth=0.6, zorder=7, linestyle="none")
+            ax.annotate(label, (x, y), xytext=(7, -3), textcoords="offset points", va="top",
+                        fontsize=FONT_PT, color=PALETTE["fail"], fontweight="bold", zorder=8,
+                        bbox=box, annotation_clip=False)
+
+
+def with_exact_points(spec: SpecResult, f: np.ndarray,
+                      g: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Add the refined peak and half-power edges (exact points of the same response)."""
+    pts = []
+    peak_f, peak_g = spec.measurement("f_peak_hz"), spec.measurement("peak_gain_db")
+    if peak_f is not None and peak_g is not None:
+        pts.append((peak_f, peak_g))
+        for key in ("f_low_hz", "f_high_hz"):
+            fe = spec.measurement(key)
+            if fe is not None:
+                pts.append((fe, peak_g - HALF_POWER_DB))
+    pts = [(x, y) for x, y in pts if math.isfinite(x) and math.isfinite(y) and f[0] < x < f[-1]]
+    if not pts:
+        return f, g
+    fx = np.concatenate([f, [p[0] for p in pts]])
+    gx = np.concatenate([g, [p[1] for p in pts]])
+    order = np.argsort(fx, kind="stable")
+    return fx[order], gx[order]
+
+
+def gain_label(spec: SpecResult) -> str:
+    """y label: dB re 1 V/V for a voltage stimulus, re 1 V/A (transimpedance) for a current."""
+    if dict(spec.sweep).get("stimulus_unit") == "A":
+        return "Gain (dB re 1 V/A)"
+    return "Gain (dB)"

@@ -1,0 +1,233 @@
+"""View data of the tolerance section: Monte Carlo yield, worst case, sensitivities."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from ..result import LimitResult, SpecResult, Status
+from ..units import format_eng
+from .formatting import (MEASUREMENTS, caution_view, coefficient, format_fraction,
+                         format_interval, format_margin, format_range, signed, status_view,
+                         tolerance_text, unit_of)
+from .lookup import analysis_block, nominal_limits
+
+__all__ = ["tolerance_view", "SAMPLE_COLUMNS"]
+
+_MODE_WORDS = {"nominal": "nominal", "worst_case": "worst case (EVA, RSS, corners)",
+               "monte_carlo": "Monte Carlo"}
+_DISTRIBUTIONS = {
+    "uniform": "uniform: every value between the tolerance ends equally likely",
+    "normal": "normal, with the tolerance at 3 standard deviations",
+    "truncnormal": "normal (tolerance at 3 standard deviations), cut at the tolerance ends",
+}
+_PART_UNITS = {"R": "Ω", "C": "F", "L": "H"}
+#: worst samples per table of part values
+SAMPLE_COLUMNS = 4
+#: toleranced parts up to which the worst case also evaluates every corner
+_MAX_CORNER_PARTS = 12
+
+
+def _part_unit(name: str) -> str:
+    return _PART_UNITS.get(name.rsplit(".", 1)[-1][:1].upper(), "")
+
+
+def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, LimitResult],
+                      wc: dict[str, Any] | None) -> dict[str, Any]:
+    n = int(mc.get("samples") or 0)
+    y = mc.get("yield")
+    ci = mc.get("yield_ci") or [None, None]
+    passed = round(y * n) if y is not None else None
+    yrow = next((lim for lim in s.limits if lim.kind == "yield"), None)
+    if yrow is not None and yrow.lower is not None:
+        required = {"text": f"required ≥ {format_fraction(yrow.lower)}",
+                    **status_view(yrow.status),
+                    "margin": f"{format_margin(yrow)} ({signed(100.0 * (yrow.margin or 0.0), '')} "
+                              "percentage points)" if yrow.margin is not None else "—"}
+        below = ci[0] is not None and ci[0] < yrow.lower
+    else:
+        required, below = None, False
+    parts = [{"part": p["part"], "nominal": format_eng(p["nominal"], _part_unit(p["part"])),
+              "tolerance": tolerance_text(p.get("tolerance"))} for p in mc.get("parts", ())]
+    nominal_values = {p["part"]: p["nominal"] for p in mc.get("parts", ())}
+    limits, samples = [], {}
+    for e in mc.get("limits", ()):
+        lim = nominal.get(e["name"])
+        unit = lim.unit if lim is not None else ""
+        worst = e.get("worst_sample")
+        limits.append({
+            "name": e["name"], "yield": format_fraction(e.get("yield")),
+            "ci": format_interval(e.get("yield_ci")),
+            "p01": signed(e.get("margin_p01"), unit), "p50": signed(e.get("margin_p50"), unit),
+            "p99": signed(e.get("margin_p99"), unit),
+            "worst": "—" if worst is None else f"#{worst}",
+            "worst_measured": "—" if e.get("worst_measured") is None else
+            format_eng(e["worst_measured"], unit),
+            "all_inside": e.get("yield") == 1.0})
+        if worst is not None:
+            entry = samples.setdefault(worst, {"sample": worst, "limits": [],
+                                               "values": e.get("worst_values") or {}})
+            entry["limits"].append(e["name"])
+    sample_list = list(samples.values())
+    names = list(nominal_values) or sorted({k for e in sample_list for k in e["values"]})
+    worst_tables = []
+    for i in range(0, len(sample_list), SAMPLE_COLUMNS):
+        chunk = sample_list[i:i + SAMPLE_COLUMNS]
+        rows = []
+        for part in names:
+            cells = []
+            for e in chunk:
+                v = e["values"].get(part)
+                base = nominal_values.get(part)
+                dev = "" if v is None or not base else f"{100.0 * (v / base - 1.0):+.2f} %"
+                cells.append({"value": "—" if v is None else format_eng(v, _part_unit(part)),
+                              "deviation": dev})
+            rows.append({"part": part, "nominal": "—" if part not in nominal_values else
+                         format_eng(nominal_values[part], _part_unit(part)), "cells": cells})
+        worst_tables.append({"samples": chunk, "rows": rows})
+    spread = []
+    meas = mc.get("measurements") or {}
+    wc_meas = (wc or {}).get("measurements") or {}
+    keys = [k for k in MEASUREMENTS if k in meas] + [k for k in meas if k not in MEASUREMENTS]
+    for key in keys:
+        st, unit = meas[key], unit_of(key)
+        if st.get("mean") is None:
+            continue
+        w = wc_meas.get(key) or {}
+        nominal_value = s.measurement(key)
+        spread.append({
+            "label": MEASUREMENTS.get(key, (key, ""))[0],
+            "nominal": "—" if nominal_value is None else format_eng(nominal_value, unit),
+            "mean": format_eng(st["mean"], unit), "std": format_eng(st["std"], unit),
+            "p": format_range(st.get("p01"), st.get("p99"), unit),
+            "minmax": format_range(st.get("min"), st.get("max"), unit),
+            "eva": format_range(w.get("min"), w.get("max"), unit)})
+    return {
+        "samples": n, "seed": mc.get("seed"), "passed": passed,
+        "failed": None if passed is None else n - passed,
+        "distribution": _DISTRIBUTIONS.get(mc.get("distribution"), str(mc.get("distribution"))),
+        "yield": format_fraction(y), "ci": format_interval(ci),
+        "ci_lo": format_fraction(ci[0]), "ci_hi": format_fraction(ci[1]),
+        "ci_method": mc.get("ci_method") or "not recorded", "required": required,
+        "below": below, "parts": parts, "limits": limits, "worst_tables": worst_tables,
+        "spread": spread, "has_eva_spread": any(r["eva"] != "—" for r in spread),
+    }
+
+
+def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, LimitResult],
+                     tolerances: dict[str, float]) -> dict[str, Any]:
+    by_name = {lim.name: lim for lim in s.limits if lim.kind == "worst_case"}
+    n_parts = wc.get("parts")
+    corners = wc.get("corners")
+    rows, differences = [], []
+    entries = {e["name"]: e for e in wc.get("limits", ())}
+    for e in wc.get("limits", ()):
+        lim = nominal.get(e["name"])
+        unit = lim.unit if lim is not None else ""
+        final = by_name.get(f"worst case: {e['name']}")
+        status = final.status if final is not None else Status(e.get("status", "pass"))
+        has_corners = e.get("corners_min") is not None
+        margin = final.margin if final is not None else min(
+            [v for v in (e.get("margin"), e.get("corners_margin")) if v is not None],
+            default=None)
+        rows.append({
+            "name": e["name"], "nominal": format_eng(e["measured_nominal"], unit),
+            "eva": format_range(e.get("min"), e.get("max"), unit),
+            "rss": format_range(e.get("rss_min"), e.get("rss_max"), unit),
+            "corners": format_range(e.get("corners_min"), e.get("corners_max"), unit)
+            if has_corners else "—",
+            "allowed": lim.bound_text if lim is not None else "—",
+            "eva_margin": signed(e.get("margin"), unit),
+            "corners_margin": signed(e.get("corners_margin"), unit) if has_corners else "—",
+            "margin": signed(margin, unit), **status_view(status)})
+        if not has_corners:
+            continue
+        eva_m, cor_m = e.get("margin"), e.get("corners_margin")
+        head = (f"EVA gives {format_range(e.get('min'), e.get('max'), unit)} (margin "
+                f"{signed(eva_m, unit)}); the corners give "
+                f"{format_range(e.get('corners_min'), e.get('corners_max'), unit)} (margin "
+                f"{signed(cor_m, unit)}).")
+        text = head + " " + _eva_versus_corners(e, unit)
+        differences.append({"name": e["name"], "text": text, "differs": bool(e.get("eva_differs"))})
+    sens = []
+    for block in wc.get("sensitivities", ()):
+        unit = block.get("unit", "")
+        e = entries.get(block["name"], {})
+        half = None
+        if e.get("max") is not None and e.get("measured_nominal") is not None:
+            half = e["max"] - e["measured_nominal"]
+        log_unit = unit in ("dB", "deg")
+        items = []
+        for item in block.get("top", ()):
+            d = item.get("per_unit_log")
+            c = item.get("contribution")
+            tol = tolerances.get(item["part"])
+            if tol is None and d and c is not None:
+                tol = c / d
+            direction = "—" if d is None else "value rises" if d > 0 else "value falls" \
+                if d < 0 else "no effect"
+            items.append({
+                "part": item["part"], "direction": direction,
+                "normalised": "—" if log_unit else coefficient(item.get("sensitivity")),
+                "per_percent": signed(None if d is None else d / 100.0, unit),
+                "tolerance": tolerance_text(tol), "contribution": signed(c, unit),
+                "share": "—" if c is None or not half else f"{100.0 * abs(c) / half:.1f} %"})
+        sens.append({"name": block["name"], "unit": unit or "(dimensionless)",
+                     "method": e.get("sensitivity_method", "not recorded"),
+                     "log_unit": log_unit, "rows": items,
+                     "more": max(0, (n_parts or 0) - len(items))})
+    return {"parts": n_parts, "corners": corners, "rows": rows, "differences": differences,
+            "sensitivities": sens, "rss": bool(wc.get("rss")),
+            "any_log_unit": any(b["log_unit"] for b in sens),
+            "corner_text": f"all {corners} corners (every part at either tolerance end) were "
+                           "also evaluated" if corners else
+                           f"corners were not evaluated (more than "
+                           f"{_MAX_CORNER_PARTS} toleranced parts)"}
+
+
+def _eva_versus_corners(e: dict[str, Any], unit: str) -> str:
+    """Which of EVA and the corners decides a worst-case limit, and by how much, in words."""
+    eva_m, cor_m = e.get("margin"), e.get("corners_margin")
+    if not e.get("eva_differs") or eva_m is None or cor_m is None:
+        return "They agree."
+    gap = abs(eva_m - cor_m)
+    scale = max(abs(eva_m), abs(cor_m), abs((e.get("max") or 0.0) - (e.get("min") or 0.0)),
+                1e-300)
+    if cor_m < eva_m:
+        lead = f"The corners come {format_eng(gap, unit)} closer to the limit and decide."
+        why = ("Over these tolerances the response is not linear in the parts, so the "
+               "first-order sum behind EVA understates the worst corner.")
+    else:
+        lead = f"EVA comes {format_eng(gap, unit)} closer to the limit and decides."
+        why = ("No corner reaches as far as the first-order sum of every part's worst "
+               "effect: EVA is the more cautious here.")
+    if gap < 0.01 * scale:
+        why = ("The two agree to within 1 % of the margin, so over these tolerances the "
+               "response is close to linear in the parts.")
+    return f"{lead} {why}"
+
+
+def tolerance_view(s: SpecResult, with_plots: bool = True) -> dict[str, Any] | None:
+    """The tolerance section: Monte Carlo yield, worst case and sensitivities, formatted.
+
+    None when the spec carries no tolerance block. With ``with_plots``, the section holds
+    the histogram of the deciding measurement (matplotlib is imported only then).
+    """
+    tol = analysis_block(s, "tolerance")
+    if tol is None:
+        return None
+    from .plot_tolerance import histogram_plot
+
+    nominal = nominal_limits(s)
+    mc = analysis_block(s, "tolerance", "monte_carlo")
+    wc = analysis_block(s, "tolerance", "worst_case")
+    tolerances = {p["part"]: p.get("tolerance") for p in (mc or {}).get("parts", ())}
+    plot = histogram_plot(s) if with_plots and mc is not None else None
+    modes = [m for m in tol.get("modes", ()) if isinstance(m, str)]
+    return {
+        "modes": ", ".join(_MODE_WORDS.get(m, m) for m in modes) or "none recorded",
+        "parts": tol.get("parts", 0),
+        "mc": None if mc is None else _monte_carlo_view(s, mc, nominal, wc),
+        "wc": None if wc is None else _worst_case_view(s, wc, nominal, tolerances),
+        "plots": (plot,) if plot is not None else (),
+        "cautions": [caution_view(c) for c in s.cautions if c.code in ("NC202",)],
+    }
