@@ -33,6 +33,13 @@ class Probe(Protocol):
     def impedance(self) -> Curve:
         """The input impedance seen by the stimulus, as a curve (|Z| read as 'gain')."""
 
+    def extremes(self, quantity: str, lo_hz: float, hi_hz: float) -> tuple[Extremum, Extremum]:
+        """True minimum and maximum over [lo_hz, hi_hz] of 'gain_db', 'phase_deg',
+        'group_delay_s' (of the response) or 'impedance_db' (20 log10 |Z_in|)."""
+
+    def corner(self, level_db: float | None, reference_db: float | None, side: str) -> float:
+        """Low- or high-pass edge, Hz (see :func:`netcheck.measure.corner`)."""
+
     def peak(self) -> Extremum:
         """True peak gain over the sweep."""
 

@@ -15,7 +15,8 @@ from .assemble import System, assemble
 from .elaborate import Circuit, elaborate
 from .parse import Netlist, load_netlist
 from .exceptions import Diagnostic, ElaborationError, NetcheckError, NetcheckWarning, SpecError
-from .measure import Extremum, MeasurementFailure, Resonance, peak, resonance
+from .measure import (Extremum, MeasurementFailure, Resonance, band_extremes, corner, peak,
+                      resonance)
 from .result import SAFETY_CAUTION, Caution, Curves, SpecResult, Status, worst_status
 from .solve import Response, solve
 from .spec import Spec, load_spec, locate
@@ -114,6 +115,7 @@ class SpecProbe:
     sweep: object
     _peak: Extremum | None = None
     _res: dict = field(default_factory=dict)
+    _ext: dict = field(default_factory=dict)
     _imp: ImpedanceCurve | None = None
 
     def peak(self) -> Extremum:
@@ -127,6 +129,23 @@ class SpecProbe:
             lo, hi = band if band else (None, None)
             self._res[key] = resonance(self.curve, level_db, lo, hi)
         return self._res[key]
+
+    def corner(self, level_db: float | None, reference_db: float | None, side: str) -> float:
+        """Low- or high-pass edge (see :func:`netcheck.measure.corner`), measured once."""
+        key = ("corner", level_db, reference_db, side)
+        if key not in self._ext:
+            self._ext[key] = corner(self.curve, level_db, reference_db, side, top=self.peak())
+        return self._ext[key]
+
+    def extremes(self, quantity: str, lo_hz: float, hi_hz: float) -> tuple[Extremum, Extremum]:
+        """Band extremes of ``quantity`` (see :class:`netcheck.limits.Probe`), measured once."""
+        key = (quantity, lo_hz, hi_hz)
+        if key not in self._ext:
+            if quantity == "impedance_db":
+                self._ext[key] = band_extremes(self.impedance(), "gain_db", lo_hz, hi_hz)
+            else:
+                self._ext[key] = band_extremes(self.curve, quantity, lo_hz, hi_hz)
+        return self._ext[key]
 
     def impedance(self) -> ImpedanceCurve:
         if self._imp is None:

@@ -15,7 +15,7 @@ import numpy as np
 
 from ._limit_base import (LIMITS, Limit, Linearised, Probe, Rows, _band_text, build_limit,
                           judge_range, linearised_range, range_margin, register)
-from .measure import Extremum, MeasurementFailure, band_extremes, corner, ripple
+from .measure import Extremum, MeasurementFailure
 from .result import LimitResult, MaskBand, Status
 from .units import format_eng, format_si
 
@@ -60,7 +60,7 @@ class GainLimit(Limit):
 
     def judge(self, probe):
         try:
-            vmin, vmax = band_extremes(probe.curve, "gain_db", *self.band)
+            vmin, vmax = probe.extremes("gain_db", *self.band)
             offset = probe.peak().value if self.reference == "peak" else 0.0
         except MeasurementFailure as err:
             return (self.error(str(err), "dB"),)
@@ -83,7 +83,7 @@ class GainLimit(Limit):
         return [(self.name, measured, margin)]
 
     def sensitivities(self, probe, adj):
-        vmin, vmax = band_extremes(probe.curve, "gain_db", *self.band)
+        vmin, vmax = probe.extremes("gain_db", *self.band)
         off, d_off = 0.0, 0.0
         if self.reference == "peak":
             pk = probe.peak()
@@ -121,7 +121,8 @@ class RippleLimit(Limit):
 
     def judge(self, probe):
         try:
-            value, vmin, vmax = ripple(probe.curve, *self.band)
+            vmin, vmax = probe.extremes("gain_db", *self.band)
+            value = vmax.value - vmin.value
         except MeasurementFailure as err:
             return (self.error(str(err), "dB"),)
         margin = self.max_db - value
@@ -138,7 +139,8 @@ class RippleLimit(Limit):
         return [(self.name, value, self.max_db - value)]
 
     def sensitivities(self, probe, adj):
-        value, vmin, vmax = ripple(probe.curve, *self.band)
+        vmin, vmax = probe.extremes("gain_db", *self.band)
+        value = vmax.value - vmin.value
         d = adj.extreme("gain_db", vmax.frequency_hz) - adj.extreme("gain_db", vmin.frequency_hz)
         return [Linearised(self.name, value, d, value, d)]
 
@@ -282,7 +284,7 @@ class CornerLimit(Limit):
 
     def judge(self, probe):
         try:
-            f = corner(probe.curve, self.level_db, self.reference_db, self.side)
+            f = probe.corner(self.level_db, self.reference_db, self.side)
         except MeasurementFailure as err:
             return (self.error(str(err), "Hz"),)
         e = Extremum(f, f)
@@ -297,7 +299,7 @@ class CornerLimit(Limit):
         return [(self.name, *range_margin(self.range[0], self.range[1], f, f))]
 
     def sensitivities(self, probe, adj):
-        f = corner(probe.curve, self.level_db, self.reference_db, self.side)
+        f = probe.corner(self.level_db, self.reference_db, self.side)
         d_level = adj.extreme("gain_db", probe.peak().frequency_hz) \
             if self.reference_db is None else 0.0
         d = adj.crossing_shift(f, d_level)
@@ -330,7 +332,7 @@ class GroupDelayLimit(Limit):
 
     def judge(self, probe):
         try:
-            vmin, vmax = band_extremes(probe.curve, "group_delay_s", *self.band)
+            vmin, vmax = probe.extremes("group_delay_s", *self.band)
         except MeasurementFailure as err:
             return (self.error(str(err), "s"),)
         out = []
@@ -366,7 +368,7 @@ class GroupDelayLimit(Limit):
         return rows
 
     def sensitivities(self, probe, adj):
-        vmin, vmax = band_extremes(probe.curve, "group_delay_s", *self.band)
+        vmin, vmax = probe.extremes("group_delay_s", *self.band)
         d_min = adj.extreme("group_delay_s", vmin.frequency_hz)
         d_max = adj.extreme("group_delay_s", vmax.frequency_hz)
         out = []
@@ -401,7 +403,7 @@ class PhaseLimit(Limit):
 
     def judge(self, probe):
         try:
-            vmin, vmax = band_extremes(probe.curve, "phase_deg", *self.band)
+            vmin, vmax = probe.extremes("phase_deg", *self.band)
         except MeasurementFailure as err:
             return (self.error(str(err), "deg"),)
         return (judge_range(self.name, self.kind, self.range_deg[0], self.range_deg[1], vmin,
@@ -419,7 +421,7 @@ class PhaseLimit(Limit):
                                           vmax.value))]
 
     def sensitivities(self, probe, adj):
-        vmin, vmax = band_extremes(probe.curve, "phase_deg", *self.band)
+        vmin, vmax = probe.extremes("phase_deg", *self.band)
         return [linearised_range(self.name, *self.range_deg, vmin.value,
                                  adj.extreme("phase_deg", vmin.frequency_hz), vmax.value,
                                  adj.extreme("phase_deg", vmax.frequency_hz))]
@@ -446,7 +448,7 @@ class ImpedanceLimit(Limit):
 
     def judge(self, probe):
         try:
-            zmin, zmax = band_extremes(probe.impedance(), "gain_db", *self.band)
+            zmin, zmax = probe.extremes("impedance_db", *self.band)
         except MeasurementFailure as err:
             return (self.error(str(err), "Ω"),)
         to_ohm = lambda e: Extremum(e.frequency_hz, 10.0 ** (e.value / 20.0))  # noqa: E731
@@ -461,7 +463,7 @@ class ImpedanceLimit(Limit):
                                           10.0 ** (zmin.value / 20.0), 10.0 ** (zmax.value / 20.0)))]
 
     def sensitivities(self, probe, adj):
-        zmin, zmax = band_extremes(probe.impedance(), "gain_db", *self.band)
+        zmin, zmax = probe.extremes("impedance_db", *self.band)
         return [linearised_range(self.name, *self.range, 10.0 ** (zmin.value / 20.0),
                                  adj.extreme("impedance_ohm", zmin.frequency_hz),
                                  10.0 ** (zmax.value / 20.0),

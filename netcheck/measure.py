@@ -231,7 +231,8 @@ def resonance(
 
 
 def corner(
-    curve: Curve, level_db: float | None = None, reference_db: float | None = None, side: Side = "auto"
+    curve: Curve, level_db: float | None = None, reference_db: float | None = None, side: Side = "auto",
+    top: Extremum | None = None,
 ) -> float:
     """Edge frequency of a low-pass or high-pass response.
 
@@ -249,6 +250,8 @@ def corner(
     side : {"auto", "low", "high"}
         "high": edge above the pass-band (low-pass corner); "low": edge below it
         (high-pass corner); "auto": whichever of the two exists within the sweep.
+    top : Extremum or None
+        ``peak(curve)`` when the caller has it already (it is measured otherwise).
 
     Returns
     -------
@@ -270,7 +273,7 @@ def corner(
     drop = _drop(level_db)
     ref = None if reference_db is None else _number("reference_db", reference_db)
     grid = _checked_grid(curve.grid_hz)
-    top = peak(curve)
+    top = peak(curve) if top is None else top
     ref = top.value if ref is None else ref
     target = ref - drop
     fp = top.frequency_hz

@@ -13,7 +13,8 @@ import numpy as np
 import pytest
 
 from netcheck.limits import LIMITS, Limit, build_limit, judge_range
-from netcheck.measure import HALF_POWER_DB, Extremum, FunctionCurve, peak, resonance
+from netcheck.measure import (HALF_POWER_DB, Extremum, FunctionCurve, band_extremes, corner,
+                              peak, resonance)
 from netcheck.result import LimitResult, MaskBand, Status
 from netcheck.spec import SpecReader, Sweep
 
@@ -39,6 +40,14 @@ class Probe:
 
     def impedance(self):
         return self._z
+
+    def corner(self, level_db, reference_db, side):
+        return corner(self.curve, level_db, reference_db, side)
+
+    def extremes(self, quantity, lo, hi):
+        if quantity == "impedance_db":
+            return band_extremes(self._z, "gain_db", lo, hi)
+        return band_extremes(self.curve, quantity, lo, hi)
 
 
 # First-order RC low-pass, corner FC: H = 1 / (1 + j f/FC) (any circuits text).

@@ -1,0 +1,137 @@
+"""Worst-case sensitivities: adjoint linearisation against central differences, side by side.
+
+Run from the repository root::
+
+    python benchmarks/bench_worstcase.py [--orders 7 15 31] [--repeat 5]
+
+For doubly terminated Butterworth LC ladders of several orders (every part toleranced,
+so P = order + 2), with a pass-band, a corner, a resonance-free stop-band and a group
+delay limit, this times
+
+(a) what the worst case now does: every limit kind's ``sensitivities(probe, adj)`` from
+    :class:`netcheck.sensitivity.AdjointSensitivity` — four solves per deciding
+    frequency, none per part — on a probe the nominal judging has already measured
+    (as in ``check``);
+(b) central differences of every re-measured quantity: 2P perturbed samples, all solved
+    together by the Monte Carlo machinery (the former method for most kinds);
+
+and prints the ratio (b)/(a) and the largest difference between the two sets of
+sensitivities, relative to each row's largest. Nothing is asserted.
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import tempfile
+from pathlib import Path
+
+import _harness
+import numpy as np
+
+from netcheck.assemble import assemble
+from netcheck.elaborate import elaborate
+from netcheck.evaluate import ResponseCurve, SpecProbe
+from netcheck.parse import load_netlist
+from netcheck.sensitivity import AdjointSensitivity
+from netcheck.solve import solve
+from netcheck.spec import load_spec
+from netcheck.tolerance import (_central_differences, parse_tolerances, toleranced_parts)
+
+R0, FC = 600.0, 20e3
+
+
+def ladder(order: int) -> str:
+    """Butterworth prototype g_k = 2 sin((2k − 1)π/2n), equal terminations (Matthaei,
+    Young & Jones 1964, eq. 4.05-1), scaled to R0 and FC; shunt C first."""
+    wc = 2 * math.pi * FC
+    cards, node = [f"RS in n1 {R0!r}"], 1
+    for k in range(1, order + 1):
+        g = 2 * math.sin((2 * k - 1) * math.pi / (2 * order))
+        if k % 2:
+            cards.append(f"C{k} n{node} 0 {g / (R0 * wc)!r}")
+        else:
+            cards.append(f"L{k} n{node} n{node + 1} {g * R0 / wc!r}")
+            node += 1
+    out = f"n{node}"
+    return "\n".join([f"Quillmere Instruments ladder, order {order}", "VIN in 0 AC 1",
+                      *cards, f"RL {out} 0 {R0!r}", ".end"]) + "\n", out
+
+
+def spec(netlist: str, out: str) -> str:
+    return f"""netlist = "{netlist}"
+source = "VIN"
+output = "{out}"
+[sweep]
+start = "1k"
+stop = "1meg"
+points_per_decade = 133
+[tolerances]
+default = {{ R = "1%", C = "5%", L = "5%" }}
+[analysis]
+mode = ["worst_case"]
+[[limits]]
+kind = "gain"
+band = ["1k", "15k"]
+min_db = -6.3
+max_db = -5.7
+[[limits]]
+kind = "corner"
+side = "high"
+range = ["19k", "21k"]
+[[limits]]
+kind = "gain"
+band = ["45k", "1meg"]
+max_db = -20
+reference = "peak"
+[[limits]]
+kind = "group_delay"
+band = ["1k", "15k"]
+max_variation = 1e-3
+"""
+
+
+def main(argv: list[str] | None = None) -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--orders", type=int, nargs="+", default=[7, 15, 31])
+    ap.add_argument("--repeat", type=int, default=5)
+    args = ap.parse_args(argv)
+    _harness.header("netcheck worst-case sensitivities: adjoint vs central differences")
+    tmp = tempfile.TemporaryDirectory(prefix="netcheck-bench-wc-")
+    print(f"{'order':>5} {'parts':>5} {'adjoint (a)':>13} {'central diff (b)':>17} "
+          f"{'(b)/(a)':>8} {'max rel. diff':>14}")
+    for order in args.orders:
+        text, out = ladder(order)
+        root = Path(tmp.name)
+        (root / f"l{order}.cir").write_text(text, "utf-8")
+        path = root / f"l{order}.toml"
+        path.write_text(spec(f"l{order}.cir", out), "utf-8")
+        sp = load_spec(path)
+        circuit = elaborate(load_netlist(sp.netlist, sp.root), sp.allow_negative)
+        system = assemble(circuit, sp.source, *sp.output)
+        parts = toleranced_parts(parse_tolerances(sp.table("tolerances"), sp.path), circuit)
+        probe = SpecProbe(ResponseCurve.of(solve(system, sp.sweep.grid())), sp.sweep)
+        # the nominal check has measured everything before the worst case runs
+        judged = {r.name: r.measured for lim in sp.limits for r in lim.judge(probe)}
+
+        def adjoint() -> dict[str, np.ndarray]:
+            adj = AdjointSensitivity(system, parts)  # fresh: no cached factorisations
+            # the side whose nominal value the judge reports is what central differences see
+            return {r.name: r.d_low if r.low == judged[r.name] else r.d_high
+                    for lim in sp.limits for r in lim.sensitivities(probe, adj)}
+
+        def central() -> dict[str, np.ndarray]:
+            return _central_differences(system, sp, parts, 2**30)[0]
+
+        t = _harness.compare({"a": adjoint, "b": central}, args.repeat)
+        a, b = adjoint(), central()
+        diff = max(float(np.max(np.abs(a[k] - b[k])) / max(np.max(np.abs(b[k])), 1e-300))
+                   for k in a)
+        print(f"{order:>5} {len(parts):>5} {_harness.fmt_seconds(t['a'].median):>13} "
+              f"{_harness.fmt_seconds(t['b'].median):>17} "
+              f"{t['b'].median / t['a'].median:>7.1f}× {diff:>14.2e}")
+    tmp.cleanup()
+
+
+if __name__ == "__main__":
+    main()
