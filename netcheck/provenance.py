@@ -9,14 +9,12 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 from typing import Any
 
+from .source import display_path
+
 __all__ = ["GitState", "git_state", "GIT_TIMEOUT_S", "git_record"]
 
 #: seconds allowed for each git command
 GIT_TIMEOUT_S = 5.0
-
-
-def _display_path(path: str) -> str:
-    return os.path.normpath(path) if path else path
 
 
 @dataclass(frozen=True, slots=True)
@@ -79,12 +77,12 @@ def git_state(directory: str | os.PathLike, inputs: tuple[str, ...] = ()) -> Git
         try:
             rel = Path(p).resolve().relative_to(root)
         except (ValueError, OSError):
-            flagged.append(f"{_display_path(p)} (outside the repository)")
+            flagged.append(f"{display_path(p)} (outside the repository)")
             continue
         code = changed.get(rel.as_posix())
         if code is not None:
             what = "untracked" if code == "??" else "uncommitted changes"
-            flagged.append(f"{_display_path(p)} ({what})")
+            flagged.append(f"{display_path(p)} ({what})")
     dirty = bool(changed)
     text = (f"commit {commit}" if commit else "no commit yet") + (
         "; working tree has uncommitted changes" if dirty else "; working tree clean")

@@ -2,10 +2,20 @@
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass, field
 from pathlib import Path
 
-__all__ = ["SourceFile", "Span", "format_caret", "read_text"]
+__all__ = ["SourceFile", "Span", "format_caret", "read_text", "display_path"]
+
+
+def display_path(path: str) -> str:
+    """A path as reports and notes show it (normalised; empty stays empty).
+
+    >>> display_path("specs/../sample_netlists/rx40k.cir"), display_path("")
+    ('sample_netlists/rx40k.cir', '')
+    """
+    return os.path.normpath(path) if path else path
 
 
 @dataclass(frozen=True, slots=True)

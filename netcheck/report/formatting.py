@@ -3,11 +3,11 @@
 from __future__ import annotations
 
 import math
-import os
 import re
 from typing import Any
 
 from ..result import LimitResult, Status
+from ..source import display_path
 from ..units import format_eng
 
 __all__ = ["SYMBOL", "MEASUREMENTS", "status_view", "format_measured", "format_margin",
@@ -129,11 +129,6 @@ def coefficient(x: float | None) -> str:
 def tolerance_text(t: float | None) -> str:
     """A relative part tolerance as ``±5 %`` (``—`` when none)."""
     return "—" if t is None else f"±{100.0 * t:.4g} %"
-
-
-def display_path(path: str) -> str:
-    """A path as the report shows it (normalised; empty stays empty)."""
-    return os.path.normpath(path) if path else path
 
 
 def date_text(created_utc: str) -> str:
