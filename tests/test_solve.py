@@ -132,3 +132,32 @@ def test_response_arrays_are_read_only():
         resp.transfer[0] = 0
     with pytest.raises(ValueError):
         resp.magnitude_db[0] = 0
+
+
+def test_sparse_path_finds_a_narrow_peak_between_grid_points():
+    # A 600-resistor chain (no current flows: it feeds an ideal buffer, so its gain is
+    # exactly 1) makes the system large enough for the sparse path; the buffer drives a
+    # series RLC with Q ~ 2000. Series RLC closed form (textbook): the peak is at
+    # f0 = 1/(2 pi sqrt(LC)) with |H| = 1 (0 dB), and the poles are
+    # s = -R/(2L) +- j sqrt(1/(LC) - (R/2L)^2).
+    from netcheck.evaluate import ResponseCurve
+    from netcheck.measure import peak
+    from netcheck.solve import solve
+
+    lq, cq, rq = 2.2e-3, 7.2e-9, 0.276
+    lines = ["Quillmere test: long chain into a sharp resonator", "V1 n0 0 AC 1"]
+    lines += [f"R{k} n{k} n{k + 1} 1" for k in range(600)]
+    lines += ["E1 b 0 n600 0 1", f"LQ b x {lq!r}", f"CQ x out {cq!r}", f"RQ out 0 {rq!r}"]
+    system = assemble(read_netlist("\n".join(lines) + "\n"), "V1", "out")
+    grid = np.geomspace(1e3, 1e6, 61)
+    response = solve(system, grid)
+    assert response.method == "sparse"
+    assert response.magnitude_db.max() < -20  # the grid alone misses the peak
+    f0 = 1 / (2 * math.pi * math.sqrt(lq * cq))
+    sigma, nu = -rq / (2 * lq), math.sqrt(1 / (lq * cq) - (rq / (2 * lq)) ** 2)
+    poles = response.poles_hz
+    nearest = poles[np.argmin(np.abs(poles - complex(sigma, nu) / (2 * math.pi)))]
+    assert nearest == pytest.approx(complex(sigma, nu) / (2 * math.pi), rel=1e-9)
+    top = peak(ResponseCurve.of(response))
+    assert top.frequency_hz == pytest.approx(f0, rel=1e-9)
+    assert top.value == pytest.approx(0.0, abs=1e-9)
