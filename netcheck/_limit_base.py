@@ -17,7 +17,7 @@ from .spec import SpecReader, Sweep
 from .units import format_si
 
 if TYPE_CHECKING:  # pragma: no cover
-    from .sampling import BatchProbe
+    from .sample_probe import BatchProbe
     from .sensitivity import AdjointSensitivity
 
 __all__ = ["Limit", "LIMITS", "register", "build_limit", "Probe", "judge_range",

@@ -1,4 +1,4 @@
-"""Many parameter samples of one circuit at once: batched MNA, pole–zero forms, measurements.
+"""Many parameter samples of one circuit at once: batched MNA and pole–zero forms.
 
 Every array has the sample axis first, then frequency. Each sample's response is
 put in pole–zero form from the eigenvalues of the shift-inverted pencil
@@ -6,41 +6,39 @@ M = (G + s₀C)⁻¹C (eigenvalue μ ↔ pole s₀ − 1/μ), which numpy evalua
 samples in one stacked call; zeros come from the same transform of the pencil
 bordered with b and l. Each sample's form is checked against direct solves at a
 few frequencies, and a sample that disagrees is solved directly instead.
-Measurements refine the grid by golden-section search and bisection, vectorised
-over samples.
+
+Gain comes from the form in real arithmetic, |jω − r|² = (ω − Im r)² + (Re r)² per
+root, without complex temporaries, in row chunks that stay in cache; the form also
+gives the exact first and second derivatives of the gain in ln f. The complex
+response is built only when a phase is asked for. The measurements over samples are
+:class:`BatchProbe` (in :mod:`netcheck.sample_probe`).
 
 References
 ----------
 .. [1] C.-W. Ho, A. E. Ruehli and P. A. Brennan, "The modified nodal approach to
    network analysis", IEEE Trans. Circuits and Systems 22(6), 1975.
-.. [2] J. Kiefer, "Sequential minimax search for a maximum", Proc. AMS 4, 1953
-   (golden-section search).
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from typing import Mapping
 
 import numpy as np
 
 from .assemble import System, assemble_batch
-from .measure import HALF_POWER_DB
 
-__all__ = ["SampleSet", "BatchProbe", "BatchExtremum"]
+
+__all__ = ["SampleSet"]
 
 _TWO_PI = 2.0 * math.pi
 _CHECK_TOL = 1e-7
-_GOLDEN = (math.sqrt(5.0) - 1.0) / 2.0
+_DB = 10.0 / math.log(10.0)  # dB per neper of |H|²
+_BLOCK = 1 << 16  # elements per row chunk of grid work: a few such arrays stay in cache
+_GROUP = 8  # root factors per product block (numerator and denominator alternate)
+_EPS = float(np.finfo(float).eps)
 
-
-@dataclass(frozen=True, slots=True)
-class BatchExtremum:
-    """Per-sample extremum: frequency (Hz) and value, each shape (S,)."""
-
-    frequency_hz: np.ndarray
-    value: np.ndarray
+Rows = slice | np.ndarray  # rows of the per-sample root arrays
 
 
 class SampleSet:
@@ -69,6 +67,28 @@ class SampleSet:
         self.memory_bytes = memory_bytes
         self.counts = _root_counts(system, self.grid)
         self._build_forms()
+        # real views of the roots for |jω − r|² = (ω − Im r)² + (Re r)²
+        self._zi, self._zr2 = self.zeros.imag.copy(), self.zeros.real ** 2
+        self._pi, self._pr2 = self.poles.imag.copy(), self.poles.real ** 2
+        with np.errstate(all="ignore"):
+            self._gain_db = 20.0 * np.log10(np.abs(self.gain))
+            g2 = np.abs(self.gain) ** 2
+        # |gain|² enters the product where it is comfortably representable, else in dB
+        fits = np.isfinite(g2) & (g2 > 1e-150) & (g2 < 1e150)
+        self._g2 = np.where(fits, g2, 1.0)
+        self._gdb_rest = np.where(fits, 0.0, self._gain_db)
+        self._g_rest = not fits.all()
+
+    def solve_directly(self, rows: np.ndarray) -> None:
+        """Solve the samples ``rows`` directly from now on (their form is not used).
+
+        Sets ``direct_rows`` (sorted), ``form_rows`` (the others) and the mask
+        ``fallback``; :meth:`_build_forms` calls it for the samples whose form failed.
+        """
+        self.fallback = np.zeros(self.S, bool)
+        self.fallback[np.asarray(rows, int)] = True
+        self.direct_rows = np.flatnonzero(self.fallback)
+        self.form_rows = np.flatnonzero(~self.fallback)
 
     # -- direct solves ------------------------------------------------------------
     def _chunk(self, per_sample_bytes: int) -> int:
@@ -78,19 +98,21 @@ class SampleSet:
     def direct(self, f: np.ndarray, rows: np.ndarray | None = None,
                l: np.ndarray | None = None) -> np.ndarray:
         """y = l·x by direct solves; ``f`` is (R,) or (R, K) for the samples ``rows``."""
-        rows = np.arange(self.S) if rows is None else rows
         f = np.asarray(f, float)
         flat = f.reshape(f.shape[0], -1)
         l = self.l if l is None else l
         out = np.empty(flat.shape, dtype=complex)
-        k = flat.shape[1]
-        step = self._chunk(k * self.n * self.n * 16 * 3)
-        for i in range(0, rows.size, step):
-            r = rows[i:i + step]
-            s = 1j * _TWO_PI * flat[i:i + step]
-            a = self.G[r][:, None] + s[..., None, None] * self.C[r][:, None]
+        k, n = flat.shape[1], self.n
+        step = self._chunk(k * n * n * 16 * 2)
+        for i in range(0, flat.shape[0], step):
+            j = min(flat.shape[0], i + step)
+            r = slice(i, j) if rows is None else rows[i:j]
+            # A = G + jωC built in place: real part G, imaginary part ωC
+            a = np.empty((j - i, k, n, n), dtype=complex)
+            a.real[...] = self.G[r][:, None]
+            np.multiply((_TWO_PI * flat[i:j])[..., None, None], self.C[r][:, None], out=a.imag)
             x = np.linalg.solve(a, np.broadcast_to(self.b, a.shape[:-1])[..., None])[..., 0]
-            out[i:i + step] = x @ l
+            out[i:j] = x @ l
         return out.reshape(f.shape)
 
     # -- pole-zero forms ----------------------------------------------------------
@@ -103,6 +125,11 @@ class SampleSet:
         non-zero μ (of order ε^(1/k)), so a threshold cannot tell them from finite
         roots; the number of finite roots is taken from the nominal circuit's QZ
         decomposition instead, and the ``count`` eigenvalues of largest |μ| are kept.
+
+        A column j of c that is zero in every sample (a node without capacitance, a
+        source current) is a zero column of M as well, so M is block lower triangular
+        after a permutation and its other eigenvalues are exactly those of M[J, J] over
+        the remaining columns J: only that smaller matrix is formed and decomposed.
         """
         if count == 0:
             return np.zeros((g.shape[0], 0), dtype=complex)
@@ -110,13 +137,19 @@ class SampleSet:
         # the eigenproblem real, several times cheaper than a complex one
         s0 = 1.0
         k = g + s0 * c
+        cols = np.flatnonzero(np.any(c != 0.0, axis=(0, 1)))
+        if cols.size < count:
+            cols = np.arange(c.shape[-1])
         try:
-            m = np.linalg.solve(k, c)
+            m = np.linalg.solve(k, c[:, :, cols])[:, cols, :]
             mu = np.linalg.eigvals(m)
         except np.linalg.LinAlgError:
             return np.full((g.shape[0], count), np.nan, dtype=complex)
-        order = np.argsort(-np.abs(mu), axis=1)[:, :count]
-        kept = np.take_along_axis(mu, order, axis=1)
+        if mu.shape[1] == count:
+            kept = mu
+        else:
+            order = np.argsort(-np.abs(mu), axis=1)[:, :count]
+            kept = np.take_along_axis(mu, order, axis=1)
         with np.errstate(all="ignore"):
             return s0 - 1.0 / kept
 
@@ -126,7 +159,7 @@ class SampleSet:
             self.poles = np.zeros((S, 0), dtype=complex)
             self.zeros = np.zeros((S, 0), dtype=complex)
             self.gain = np.ones(S, dtype=complex)
-            self.direct_rows = np.arange(S)
+            self.solve_directly(np.arange(S))
             return
         n_poles, n_zeros = self.counts
         cn = self.C * self.w_scale
@@ -138,6 +171,8 @@ class SampleSet:
         for i in range(0, S, step):
             j = min(S, i + step)
             poles[i:j] = self._roots(self.G[i:j], cn[i:j], n_poles)
+            if n_zeros == 0:
+                continue
             m = j - i
             gb[:m], cb[:m] = 0.0, 0.0
             gb[:m, :n, :n], cb[:m, :n, :n] = self.G[i:j], cn[i:j]
@@ -158,57 +193,193 @@ class SampleSet:
             err = np.abs(self.gain[:, None] * shape - h_direct) / np.abs(h_direct)
         ok = np.all(np.isfinite(err) & (err < _CHECK_TOL), axis=1)
         ok &= np.isfinite(self.poles).all(axis=1) & np.isfinite(self.zeros).all(axis=1)
-        self.direct_rows = np.flatnonzero(~ok)
+        self.solve_directly(np.flatnonzero(~ok))
 
     def _shape(self, f: np.ndarray) -> np.ndarray:
         """Π(s − z)/Π(s − p) per sample at normalised s = j·2πf/w (f shape (S, K))."""
         return _shape_rows(self, f, slice(None))
 
-    def transfer(self, f: np.ndarray) -> np.ndarray:
-        """H per sample at per-sample frequencies ``f`` (shape (S,) or (S, K))."""
+    def transfer(self, f: np.ndarray, rows: np.ndarray | None = None) -> np.ndarray:
+        """H per sample at per-sample frequencies ``f`` (shape (R,) or (R, K)) for the
+        samples ``rows`` (default: all S)."""
         f = np.asarray(f, float)
-        flat = f.reshape(self.S, -1)
-        h = self.gain[:, None] * self._shape(flat)
-        if self.direct_rows.size:
-            h[self.direct_rows] = self.direct(flat[self.direct_rows], self.direct_rows)
+        sel, idx = _select(self.S, rows)
+        flat = f.reshape(idx.size, -1)
+        h = self.gain[sel, None] * _shape_rows(self, flat, sel)
+        fall = np.flatnonzero(self.fallback[idx])
+        if fall.size:
+            h[fall] = self.direct(flat[fall], idx[fall])
         return h.reshape(f.shape)
 
     def grid_transfer(self) -> np.ndarray:
         """H on the sweep grid, shape (S, F)."""
         out = np.empty((self.S, self.grid.size), dtype=complex)
-        step = self._chunk(self.grid.size * (self.n + 2) * 16 * 2)
+        step = max(1, _BLOCK // 2 // self.grid.size)
         for i in range(0, self.S, step):
             j = min(self.S, i + step)
-            sub = np.broadcast_to(self.grid, (j - i, self.grid.size))
-            out[i:j] = self.gain[i:j, None] * _shape_rows(self, sub, slice(i, j))
+            out[i:j] = _shape_rows(self, self.grid, slice(i, j))
+            out[i:j] *= self.gain[i:j, None]
         if self.direct_rows.size:
             out[self.direct_rows] = self.direct(
                 np.broadcast_to(self.grid, (self.direct_rows.size, self.grid.size)),
                 self.direct_rows)
         return out
 
-    def group_delay(self, f: np.ndarray, h: np.ndarray | None = None) -> np.ndarray:
+    def grid_gain_db(self) -> np.ndarray:
+        """Gain 10·log10|H|² (dB) on the sweep grid, shape (S, F), in real arithmetic."""
+        F = self.grid.size
+        out = np.empty((self.S, F))
+        if self.form_rows.size:
+            w = _TWO_PI * self.grid / self.w_scale
+            step = max(1, _BLOCK // F)
+            for i in range(0, self.S, step):
+                j = min(self.S, i + step)
+                self._form_db(w, slice(i, j), out[i:j])
+        if self.direct_rows.size:
+            out[self.direct_rows] = _db(self.direct(
+                np.broadcast_to(self.grid, (self.direct_rows.size, F)), self.direct_rows))
+        return out
+
+    def gain_db(self, f: np.ndarray, rows: np.ndarray | None = None) -> np.ndarray:
+        """Gain (dB) per sample at per-sample frequencies ``f`` ((R,) or (R, K))."""
+        f = np.asarray(f, float)
+        sel, idx = _select(self.S, rows)
+        flat = f.reshape(idx.size, -1)
+        out = np.empty(flat.shape)
+        self._form_db(_TWO_PI * flat / self.w_scale, sel, out)
+        fall = np.flatnonzero(self.fallback[idx])
+        if fall.size:
+            out[fall] = _db(self.direct(flat[fall], idx[fall]))
+        return out.reshape(f.shape)
+
+    def _form_db(self, w: np.ndarray, rows: Rows, out: np.ndarray) -> None:
+        """Write 10·log10|H|² of the form at normalised ω (w: (K,) shared or (R, K)) to out.
+
+        One logarithm per point: |gain|² times the ratio of the products of the factors
+        |jω − r|² (so a gain near 0 dB keeps its relative accuracy), formed in blocks of
+        ``_GROUP`` roots with numerator and denominator blocks alternating; a row that
+        still over- or underflows is redone with one logarithm per factor.
+        """
+        num = _factor_blocks(w, self._zi[rows], self._zr2[rows], out.shape)
+        den = _factor_blocks(w, self._pi[rows], self._pr2[rows], out.shape)
+        g2 = self._g2[rows][:, None]
+        with np.errstate(all="ignore"):
+            if len(num) == 1 and len(den) == 1:
+                np.divide(num[0], den[0], out=out)
+                out *= g2
+            elif not num and len(den) == 1:
+                np.divide(g2, den[0], out=out)
+            elif len(num) == 1 and not den:
+                np.multiply(num[0], g2, out=out)
+            else:  # many roots: numerator and denominator blocks alternate
+                out[...] = g2
+                for k in range(max(len(num), len(den))):
+                    if k < len(num):
+                        out *= num[k]
+                    if k < len(den):
+                        out /= den[k]
+            np.log10(out, out=out)
+            out *= 10.0
+            if self._g_rest:
+                out += self._gdb_rest[rows][:, None]
+            bad = np.flatnonzero(~np.isfinite(out).all(axis=1))
+            if bad.size:  # rare: one logarithm per factor
+                wb = w if w.ndim == 1 else w[bad]
+                acc = np.broadcast_to(self._gain_db[rows][bad, None], out[bad].shape).copy()
+                for im, r2, sgn in ((self._zi[rows], self._zr2[rows], 10.0),
+                                    (self._pi[rows], self._pr2[rows], -10.0)):
+                    for k in range(im.shape[1]):
+                        acc += sgn * np.log10((wb - im[bad, k, None]) ** 2 + r2[bad, k, None])
+                out[bad] = acc
+
+    def gain_slopes(self, f: np.ndarray, rows: np.ndarray, second: bool = True
+                    ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, np.ndarray]:
+        """Gain (dB), its first two derivatives with respect to ln f, and a bound on the
+        rounding error of the first, from the form.
+
+        For the samples ``rows`` (all with a trusted form) at frequencies ``f`` (R,):
+        with q = (ω − Im r)² + (Re r)² per root, d ln q/dω = 2(ω − Im r)/q and
+        d² ln q/dω² = 2((Re r)² − (ω − Im r)²)/q²; zeros count +, poles −, and
+        d/d ln f = ω d/dω. The bound is a few ε times the sum of the absolute terms and
+        of their sensitivity to the rounding of ω − Im r (large next to a sharp peak).
+        """
+        w = _TWO_PI * f / self.w_scale
+        v, t1, s1 = np.zeros(f.shape), np.zeros(f.shape), np.zeros(f.shape)
+        t2 = np.zeros(f.shape) if second else None
+        with np.errstate(all="ignore"):
+            for im, r2, sgn in ((self._zi, self._zr2, 1.0), (self._pi, self._pr2, -1.0)):
+                if im.shape[1] == 0:
+                    continue
+                b = im[rows]
+                d = w[:, None] - b
+                a2 = r2[rows]
+                q = d * d + a2
+                v += sgn * np.log(q).sum(axis=1)
+                u = 2.0 * d / q
+                t1 += sgn * u.sum(axis=1)
+                # |u| and its sensitivity to the rounding of d = ω − Im r
+                s1 += (np.abs(u) + 2.0 * (w[:, None] + np.abs(b)) / q).sum(axis=1)
+                if second:
+                    t2 += sgn * (2.0 * (a2 - d * d) / (q * q)).sum(axis=1)
+            g = _DB * v + self._gain_db[rows]
+            d1 = _DB * w * t1
+            d2 = _DB * w * (t1 + w * t2) if second else None
+            err = (8 + self._pi.shape[1] + self._zi.shape[1]) * _EPS * _DB * w * s1
+        return g, d1, d2, err
+
+    def group_delay(self, f: np.ndarray, h: np.ndarray | None = None,
+                    rows: np.ndarray | None = None) -> np.ndarray:
         """Group delay −dφ/dω (s) per sample, by a symmetric complex-phase difference.
 
         The relative step is 1e-6 of the frequency; the error is O(step²) relative.
         """
         f = np.asarray(f, float)
         d = f * 1e-6
-        hp, hm = self.transfer(f + d), self.transfer(f - d)
+        hp, hm = self.transfer(f + d, rows), self.transfer(f - d, rows)
         with np.errstate(all="ignore"):
             return -np.angle(hp / hm) / (_TWO_PI * 2 * d)
 
 
-def _shape_rows(ss: SampleSet, f: np.ndarray, rows: slice) -> np.ndarray:
+def _select(S: int, rows: np.ndarray | None) -> tuple[Rows, np.ndarray]:
+    """An indexer for the root arrays (a slice when all rows) and the row numbers."""
+    if rows is None:
+        return slice(None), np.arange(S)
+    rows = np.asarray(rows)
+    return rows, rows
+
+
+def _factor_blocks(w: np.ndarray, im: np.ndarray, r2: np.ndarray, shape: tuple[int, ...]
+                   ) -> list[np.ndarray]:
+    """Products Π (w − Im r)² + (Re r)² over groups of ``_GROUP`` roots, each ``shape``."""
+    blocks = []
+    tmp = np.empty(shape) if im.shape[1] > 1 else None
+    for k0 in range(0, im.shape[1], _GROUP):
+        acc = np.empty(shape)
+        for k in range(k0, min(k0 + _GROUP, im.shape[1])):
+            t = acc if k == k0 else tmp
+            np.subtract(w, im[:, k, None], out=t)
+            np.multiply(t, t, out=t)
+            t += r2[:, k, None]
+            if t is not acc:
+                acc *= t
+        blocks.append(acc)
+    return blocks
+
+
+def _shape_rows(ss: SampleSet, f: np.ndarray, rows: Rows) -> np.ndarray:
     s = 1j * _TWO_PI * f / ss.w_scale
-    num = np.ones(f.shape, dtype=complex)
-    den = np.ones(f.shape, dtype=complex)
+    zeros, poles = ss.zeros[rows], ss.poles[rows]
+    shape = (poles.shape[0], s.shape[-1])
+    num = np.ones(shape, dtype=complex)
+    den = np.ones(shape, dtype=complex)
+    tmp = np.empty(shape, dtype=complex)
     with np.errstate(all="ignore"):
-        for r in ss.zeros[rows].T:
-            num *= s - r[:, None]
-        for r in ss.poles[rows].T:
-            den *= s - r[:, None]
-    return num / den
+        for r in zeros.T:
+            num *= np.subtract(s, r[:, None], out=tmp)
+        for r in poles.T:
+            den *= np.subtract(s, r[:, None], out=tmp)
+        num /= den
+    return num
 
 
 def _root_counts(system: System, grid: np.ndarray) -> tuple[int, int] | None:
@@ -229,233 +400,3 @@ def _db(h: np.ndarray) -> np.ndarray:
     with np.errstate(divide="ignore"):
         return 10.0 * np.log10(h.real * h.real + h.imag * h.imag)
 
-
-class BatchProbe:
-    """Vectorised counterparts of the nominal measurements, over a :class:`SampleSet`."""
-
-    def __init__(self, ss: SampleSet) -> None:
-        self.ss = ss
-        self.grid = ss.grid
-        self.h = ss.grid_transfer()
-        self.gain = _db(self.h)
-        self._cache: dict = {}
-
-    # quantity evaluators at per-sample frequencies (S,) -------------------------
-    def _value(self, quantity: str, f: np.ndarray) -> np.ndarray:
-        if quantity == "gain_db":
-            return _db(self.ss.transfer(f))
-        if quantity == "group_delay_s":
-            return self.ss.group_delay(f)
-        if quantity == "impedance_db":
-            return _db(self._impedance(f))
-        if quantity == "phase_deg":
-            ref = self._phase_ref(f)
-            ph = np.degrees(np.angle(self.ss.transfer(f)))
-            return ph + 360.0 * np.round((ref - ph) / 360.0)
-        raise ValueError(quantity)
-
-    def _phase_grid(self) -> np.ndarray:
-        if "phase" not in self._cache:
-            self._cache["phase"] = np.degrees(np.unwrap(np.angle(self.h), axis=1))
-        return self._cache["phase"]
-
-    def _phase_ref(self, f: np.ndarray) -> np.ndarray:
-        grid = self._phase_grid()
-        lf = np.log(self.grid)
-        idx = np.clip(np.searchsorted(self.grid, f) - 1, 0, self.grid.size - 2)
-        t = (np.log(f) - lf[idx]) / (lf[idx + 1] - lf[idx])
-        rows = np.arange(self.ss.S).reshape((-1,) + (1,) * (np.ndim(f) - 1))
-        return grid[rows, idx] * (1 - t) + grid[rows, idx + 1] * t
-
-    def _impedance(self, f: np.ndarray) -> np.ndarray:
-        system = self.ss.system
-        flat = np.asarray(f, float).reshape(self.ss.S, -1)
-        if system.circuit.element(system.source).letter == "V":
-            i = self.ss.direct(flat, l=system.input_current_selector())
-            with np.errstate(all="ignore"):
-                z = 1.0 / i
-        else:
-            z = self.ss.direct(flat, l=system.input_voltage_selector())
-        return z.reshape(np.shape(f))
-
-    def _grid_values(self, quantity: str, cols: np.ndarray) -> np.ndarray:
-        if quantity == "gain_db":
-            return self.gain[:, cols]
-        if quantity == "phase_deg":
-            return self._phase_grid()[:, cols]
-        f = np.broadcast_to(self.grid[cols], (self.ss.S, cols.size))
-        if quantity == "group_delay_s":
-            return self.ss.group_delay(np.ascontiguousarray(f))
-        return _db(self._impedance(np.ascontiguousarray(f)))
-
-    # measurements ---------------------------------------------------------------
-    def band_extremes(self, quantity: str, lo: float, hi: float
-                      ) -> tuple[BatchExtremum, BatchExtremum]:
-        """True min and max of ``quantity`` over [lo, hi] per sample."""
-        key = ("band", quantity, lo, hi)
-        if key in self._cache:
-            return self._cache[key]
-        cols = np.flatnonzero((self.grid > lo) & (self.grid < hi))
-        f_grid = np.concatenate([[lo], self.grid[cols], [hi]])
-        S, M = self.ss.S, cols.size + 2
-        ends = np.stack([self._value(quantity, np.full(S, lo)),
-                         self._value(quantity, np.full(S, hi))], axis=1)
-        inner = self._grid_values(quantity, cols) if cols.size else np.zeros((S, 0))
-        # each sample's lightly damped poles, where a narrow peak may sit between grid
-        # points, are candidates too (bracketed by a few of their half-widths)
-        seeds, half = self._seeds(lo, hi)
-        seed_v = (self._value(quantity, seeds) if seeds.shape[1] else np.zeros((S, 0)))
-        v = np.concatenate([ends[:, :1], inner, ends[:, 1:], seed_v], axis=1)
-        rows = np.arange(S)
-        out = []
-        for sign in (-1.0, 1.0):
-            score = np.where(np.isnan(v), -np.inf, sign * v)
-            k = np.argmax(score, axis=1)
-            on_grid = k < M
-            kg = np.minimum(k, M - 1)
-            ks = np.clip(k - M, 0, max(seeds.shape[1] - 1, 0))
-            f_at = np.where(on_grid, f_grid[kg], seeds[rows, ks] if seeds.shape[1] else 0.0)
-            a = np.where(on_grid, f_grid[np.maximum(kg - 1, 0)],
-                         np.maximum(lo, f_at * (1 - half[rows, ks])) if seeds.shape[1] else lo)
-            b = np.where(on_grid, f_grid[np.minimum(kg + 1, M - 1)],
-                         np.minimum(hi, f_at * (1 + half[rows, ks])) if seeds.shape[1] else hi)
-            f_best, v_best = self._golden(quantity, a, b, sign)
-            base = v[rows, k]
-            better = sign * v_best > sign * base
-            out.append(BatchExtremum(np.where(better, f_best, f_at),
-                                     np.where(better, v_best, base)))
-        self._cache[key] = (out[0], out[1])
-        return out[0], out[1]
-
-    def _seeds(self, lo: float, hi: float) -> tuple[np.ndarray, np.ndarray]:
-        """Per-sample pole frequencies (Hz) inside [lo, hi] with Q above 2, and their
-        relative half-widths; NaN-free (out-of-band entries are moved to ``lo``)."""
-        key = ("seeds", lo, hi)
-        if key in self._cache:
-            return self._cache[key]
-        p = self.ss.poles
-        if p.shape[1] == 0:
-            empty = np.zeros((self.ss.S, 0))
-            return empty, empty
-        nu = np.abs(p.imag) * self.ss.w_scale / _TWO_PI
-        with np.errstate(all="ignore"):
-            rel = np.abs(p.real) / np.abs(p.imag)
-        keep = (nu > lo) & (nu < hi) & (rel < 0.25) & np.isfinite(nu)
-        if not keep.any():
-            empty = np.zeros((self.ss.S, 0))
-            self._cache[key] = (empty, empty)
-            return empty, empty
-        cols = np.flatnonzero(keep.any(axis=0))
-        seeds = np.where(keep[:, cols], nu[:, cols], lo)
-        half = np.where(keep[:, cols], np.clip(4.0 * rel[:, cols], 1e-9, 0.5), 1e-9)
-        self._cache[key] = (seeds, half)
-        return seeds, half
-
-    def _golden(self, quantity: str, a: np.ndarray, b: np.ndarray, sign: float,
-                iterations: int = 32) -> tuple[np.ndarray, np.ndarray]:
-        """Golden-section search for the max of sign·value on [a, b] (log f), per sample.
-
-        32 steps shrink a bracket of two grid steps by 0.618³² ≈ 2e-7; the value at a
-        smooth extremum is then exact to rounding (its error is second order).
-        """
-        la, lb = np.log(a), np.log(b)
-        x1 = lb - _GOLDEN * (lb - la)
-        x2 = la + _GOLDEN * (lb - la)
-        f1 = sign * self._value(quantity, np.exp(x1))
-        f2 = sign * self._value(quantity, np.exp(x2))
-        for _ in range(iterations):
-            left = f1 > f2  # the max is in [la, x2]
-            lb = np.where(left, x2, lb)
-            la = np.where(left, la, x1)
-            nx1 = lb - _GOLDEN * (lb - la)
-            nx2 = la + _GOLDEN * (lb - la)
-            x_new = np.where(left, nx1, nx2)
-            f_new = sign * self._value(quantity, np.exp(x_new))
-            f2, f1 = np.where(left, f1, f_new), np.where(left, f_new, f2)
-            x2, x1 = np.where(left, x1, nx2), np.where(left, nx1, x2)
-        best = np.where(f1 > f2, x1, x2)
-        f = np.exp(best)
-        return f, self._value(quantity, f)
-
-    def peak(self, lo: float | None = None, hi: float | None = None) -> BatchExtremum:
-        """True peak gain per sample (over the sweep, or [lo, hi])."""
-        lo = self.grid[0] if lo is None else lo
-        hi = self.grid[-1] if hi is None else hi
-        return self.band_extremes("gain_db", lo, hi)[1]
-
-    def _bisect(self, a: np.ndarray, b: np.ndarray, level: np.ndarray,
-                iterations: int = 40) -> np.ndarray:
-        """Crossing of gain through ``level`` between a and b (log f), per sample.
-
-        40 halvings of a one-grid-step bracket locate the crossing to ~1e-14 relative.
-        """
-        la, lb = np.log(a), np.log(b)
-        ga = self._value("gain_db", a) - level
-        for _ in range(iterations):
-            mid = 0.5 * (la + lb)
-            gm = self._value("gain_db", np.exp(mid)) - level
-            same = np.sign(gm) == np.sign(ga)
-            la = np.where(same, mid, la)
-            ga = np.where(same, gm, ga)
-            lb = np.where(same, lb, mid)
-        return np.exp(0.5 * (la + lb))
-
-    def _edge(self, start_f: np.ndarray, level: np.ndarray, direction: str) -> np.ndarray:
-        """First crossing of ``level`` moving from ``start_f`` up or down; NaN if none."""
-        below = self.gain < level[:, None]
-        f = self.grid
-        if direction == "up":
-            mask = below & (f[None, :] > start_f[:, None])
-            idx = np.argmax(mask, axis=1)
-            found = mask[np.arange(self.ss.S), idx]
-            a = np.where(idx > 0, f[np.maximum(idx - 1, 0)], f[0])
-            a = np.maximum(a, start_f)
-            b = f[idx]
-        else:
-            mask = below & (f[None, :] < start_f[:, None])
-            rev = mask[:, ::-1]
-            idx = f.size - 1 - np.argmax(rev, axis=1)
-            found = mask[np.arange(self.ss.S), idx]
-            a = f[idx]
-            b = np.where(idx < f.size - 1, f[np.minimum(idx + 1, f.size - 1)], f[-1])
-            b = np.minimum(b, start_f)
-        a = np.where(found, a, f[0])
-        b = np.where(found, b, f[-1])
-        out = self._bisect(a, b, level)
-        return np.where(found, out, np.nan)
-
-    def resonance(self, level_db: float | None, band: tuple[float, float] | None
-                  ) -> dict[str, np.ndarray]:
-        """Per-sample f_peak, peak gain, edges, bandwidth, f_center and Q (NaN if absent)."""
-        key = ("res", level_db, band)
-        if key in self._cache:
-            return self._cache[key]
-        pk = self.peak(*(band or (None, None)))
-        level = pk.value - (HALF_POWER_DB if level_db is None else level_db)
-        lo_edge = self._edge(pk.frequency_hz, level, "down")
-        hi_edge = self._edge(pk.frequency_hz, level, "up")
-        bw = hi_edge - lo_edge
-        fc = np.sqrt(lo_edge * hi_edge)
-        out = {"f_peak_hz": pk.frequency_hz, "peak_gain_db": pk.value, "f_low_hz": lo_edge,
-               "f_high_hz": hi_edge, "bandwidth_hz": bw, "f_center_hz": fc, "q": fc / bw}
-        self._cache[key] = out
-        return out
-
-    def corner(self, level_db: float | None, reference_db: float | None, side: str
-               ) -> np.ndarray:
-        """Per-sample corner frequency (NaN where none or ambiguous)."""
-        pk = self.peak()
-        ref = pk.value if reference_db is None else np.full(self.ss.S, reference_db)
-        level = ref - (HALF_POWER_DB if level_db is None else level_db)
-        up = self._edge(pk.frequency_hz, level, "up")
-        down = self._edge(pk.frequency_hz, level, "down")
-        if side == "high":
-            return up
-        if side == "low":
-            return down
-        return np.where(np.isnan(up), down, np.where(np.isnan(down), up, np.nan))
-
-    def ripple(self, lo: float, hi: float) -> np.ndarray:
-        """Per-sample max − min gain over [lo, hi], dB."""
-        vmin, vmax = self.band_extremes("gain_db", lo, hi)
-        return vmax.value - vmin.value

@@ -37,7 +37,8 @@ from .exceptions import SpecError
 from .limits import LIMITS, Linearised
 from .measure import MeasurementFailure
 from .result import LimitResult, Status
-from .sampling import BatchProbe, SampleSet
+from .sample_probe import BatchProbe
+from .sampling import SampleSet
 from .sensitivity import AdjointSensitivity
 from .spec import Spec, SpecReader
 from .units import UnitError, parse_value
