@@ -259,7 +259,8 @@ def _tolerance(spec: Spec, circuit: Circuit, system: System, nominal: tuple,
     envelope: tuple = (None, None)
     from .eseries import check_preferred
     preferred = [(n, circuit.element(n).letter, v, t, circuit.element(n).span)
-                 for n, v, t in parts if circuit.element(n).letter in "RLC" and t <= 0.2]
+                 for n, v, t in parts
+                 if circuit.element(n).letter in "RLC" and t <= 0.2 and v > 0]
     for d in check_preferred(preferred):
         cautions.append(_diag_caution(d))
     if not parts and set(analysis.modes) - {"nominal"}:

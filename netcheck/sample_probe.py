@@ -33,6 +33,7 @@ __all__ = ["BatchProbe", "BatchExtremum"]
 _GOLDEN = (math.sqrt(5.0) - 1.0) / 2.0
 _NEWTON_STEPS = 60  # cap; bisection alone would shrink a bracket by 2⁻⁶⁰
 _XTOL = 4.0 * float(np.finfo(float).eps)  # relative step in ln f that ends a search
+_END_TOL = 1e-12  # a peak this close (relative) to a band end is at the end
 
 
 @dataclass(frozen=True, slots=True)
@@ -390,6 +391,12 @@ class BatchProbe:
         fc = np.sqrt(lo_edge * hi_edge)
         out = {"f_peak_hz": pk.frequency_hz, "peak_gain_db": pk.value, "f_low_hz": lo_edge,
                "f_high_hz": hi_edge, "bandwidth_hz": bw, "f_center_hz": fc, "q": fc / bw}
+        # as in the nominal measurement, a highest gain at an end of the band is no
+        # resonance peak: nothing of it can be measured for that sample
+        lo, hi = band or (float(self.grid[0]), float(self.grid[-1]))
+        at_end = ((pk.frequency_hz <= lo * (1 + _END_TOL)) | (pk.frequency_hz >= hi * (1 - _END_TOL)))
+        if at_end.any():
+            out = {k: np.where(at_end, np.nan, v) for k, v in out.items()}
         self._cache[key] = out
         return out
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import difflib
 import math
 import tomllib
@@ -239,6 +240,9 @@ def _key_position(text: str, where: str) -> tuple[int, int, int] | None:
     a table-level path (``limits[3]``) at the table header; a missing top-level key at
     the first line. None when the path cannot be found in ``text``.
     """
+    nested = _nested_key_position(text, where)
+    if nested is not None:
+        return nested
     head, _, key = where.partition(".")
     array, bracket, number = head.partition("[")
     if bracket and number.endswith("]") and number[:-1].isdigit():
@@ -272,6 +276,36 @@ def _key_position(text: str, where: str) -> tuple[int, int, int] | None:
     if header is not None:
         return header
     return (1, 1, 1) if table == ("", 0) else None
+
+
+def _nested_key_position(text: str, where: str) -> tuple[int, int, int] | None:
+    """Position of a key two or more levels down (``tolerances.parts.R1``), or None.
+
+    Tries the deepest table header first (``[tolerances.parts]`` holding ``R1 = ``),
+    then the line of each enclosing key (``parts = { R1 = ... }`` in ``[tolerances]``,
+    or a dotted ``parts.R1 = `` there). Array paths (``limits[2].x``) are left to the
+    general search.
+    """
+    segments = where.split(".")
+    if len(segments) < 3 or "[" in where:
+        return None
+    for cut in range(len(segments) - 1, 0, -1):
+        section, key = ".".join(segments[:cut]), segments[cut]
+        dotted = ".".join(segments[cut:])
+        current = ""
+        for number, line in enumerate(text.splitlines(), 1):
+            stripped = line.strip()
+            if stripped.startswith("["):
+                current = stripped.strip("[").split("]")[0].strip()
+                continue
+            if current != section or "=" not in stripped:
+                continue
+            name = stripped.split("=")[0].strip()
+            if name.strip("\"'") in (key, dotted) or name.replace('"', "").replace(
+                    "'", "") == dotted:
+                column = len(line) - len(line.lstrip()) + 1
+                return (number, column, len(name))
+    return None
 
 
 def locate(err: SpecError, text: str) -> SpecError:
@@ -363,9 +397,23 @@ def _build(doc: dict, text: str, path: str, build_limit: Any) -> Spec:
         top.fail("limits", "expected an array of tables ([[limits]])")
     lines = limit_lines(text)
     limits = []
+    first: dict[str, int] = {}
     for i, table in enumerate(raw_limits):
         line = lines[i] if i < len(lines) else None
-        limits.append(build_limit(table, i, path, sweep, line))
+        lim = build_limit(table, i, path, sweep, line)
+        if lim.name in first:
+            if "name" in table:
+                j = first[lim.name]
+                at = f" (line {lines[j]})" if j < len(lines) else ""
+                keys = {"kind": "", "name": "", **type(lim).KEYS}
+                SpecReader(table, f"limits[{i}]", path, keys).fail(
+                    "name", f"{lim.name!r} is already the name of limits[{j}]{at}; results "
+                    "are told apart by name (tolerance analyses, JUnit, baselines), so give "
+                    "each limit its own")
+            # two limits left with the same default name: the later says where it is
+            lim = dataclasses.replace(lim, name=f"{lim.name} (limits[{i}])")
+        first[lim.name] = i
+        limits.append(lim)
     root = top.text("root")
     tables = tuple((k, doc[k]) for k in ("tolerances", "analysis", "stress", "variants")
                    if k in doc)

@@ -315,7 +315,10 @@ class _Probe:
     """One part's quantity as a linear function of the MNA solution x (per unit stimulus).
 
     q(f) = const + (j2πf if ``jw`` else 1) · (x(f) · sel), and the judged value is
-    ``scale`` · |q|^``power``.
+    ``scale`` · |q|^``power``. That value is proportional to the part's own value
+    raised to ``own`` (−1 for a resistor's current or power, +1 for a capacitor's
+    current or a CCCS's, 0 otherwise) at a given solution x, so a sampled part value p
+    scales it by (p / nominal)^``own``.
     """
 
     sel: np.ndarray
@@ -323,6 +326,7 @@ class _Probe:
     const: complex
     scale: float
     power: int
+    own: int = 0
 
     def values(self, f: np.ndarray, x: np.ndarray) -> np.ndarray:
         """Judged values at frequencies ``f`` (Hz) from solutions ``x`` (F × n)."""
@@ -351,15 +355,15 @@ def _probe(system: System, e: Element, quantity: str, amp: float) -> _Probe | st
     if quantity == "voltage":
         return _Probe(v, False, 0j, amp, 1)
     if quantity == "power":  # P = |V|²/(2R) for peak |V| [3]
-        return _Probe(v, False, 0j, amp * amp / (2.0 * e.value), 2)
+        return _Probe(v, False, 0j, amp * amp / (2.0 * e.value), 2, -1)
     if isinstance(e, Resistor):
-        return _Probe(v / e.value, False, 0j, amp, 1)
+        return _Probe(v / e.value, False, 0j, amp, 1, -1)
     if isinstance(e, Capacitor):
-        return _Probe(v * e.value, True, 0j, amp, 1)
+        return _Probe(v * e.value, True, 0j, amp, 1, 1)
     if isinstance(e, CCCS):
         sel = np.zeros(n)
         sel[system.branch_index[e.control]] = e.gain
-        return _Probe(sel, False, 0j, amp, 1)
+        return _Probe(sel, False, 0j, amp, 1, 1)
     if isinstance(e, CurrentSource):
         active = 1.0 if e.name == system.source else 0.0  # other sources are zeroed
         return _Probe(np.zeros(n), False, complex(active), amp, 1)

@@ -41,7 +41,6 @@ from .sample_probe import BatchProbe
 from .sampling import SampleSet
 from .sensitivity import AdjointSensitivity
 from .spec import Spec, SpecReader
-from .units import UnitError, parse_value
 
 if TYPE_CHECKING:  # pragma: no cover
     from .evaluate import SpecProbe
@@ -64,6 +63,8 @@ ANALYSIS_KEYS = {
 }
 MODES = ("nominal", "worst_case", "monte_carlo")
 MAX_CORNER_PARTS = 12
+#: Monte Carlo stress: samples screened within this fraction below a rating are judged exactly
+BORDER = 0.05
 
 
 @dataclass(frozen=True, slots=True)
@@ -93,10 +94,7 @@ def _fraction(rd: SpecReader, key: str, raw: Any) -> float:
         except ValueError:
             rd.fail(key, f"{raw!r} is not a percentage")
     else:
-        try:
-            value = parse_value(raw, key)
-        except UnitError as err:
-            rd.fail(key, str(err))
+        value = rd.number(key, value=raw)
     if not 0 <= value < 1:
         rd.fail(key, f"tolerance must be between 0 % and 100 %, got {raw!r}")
     return value
@@ -137,20 +135,47 @@ def parse_analysis(table: Any, path: str) -> Analysis:
                     y, rd.integer("memory_mib", 1024, minimum=16))
 
 
+def _is_glob(pattern: str) -> bool:
+    return any(ch in pattern for ch in "*?[")
+
+
 def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>"
                      ) -> list[tuple[str, float, float]]:
-    """(name, nominal value, tolerance) for every part with a non-zero tolerance."""
+    """(name, nominal value, tolerance) for every part with a non-zero tolerance.
+
+    Letter defaults apply first, then globs of ``parts`` in the order written, then
+    exact part names, so an exact name always wins. Independent sources are never
+    toleranced (the response is per unit stimulus: the drive level belongs in
+    ``[[stress]] source_amplitude``); naming one is an error, and globs pass over
+    them. A coupling factor may not be toleranced beyond |k| = 1.
+    """
     default = dict(tol.default)
     out: dict[str, tuple[float, float]] = {}
     for e in circuit.elements:
         if e.letter in default and default[e.letter] > 0:
             out[e.name] = (e.value, default[e.letter])
-    for pattern, t in tol.parts:
+    ordered = sorted(tol.parts, key=lambda item: not _is_glob(item[0]))  # stable: globs first
+    for pattern, t in ordered:
+        where = f"tolerances.parts.{pattern}"
         hits = [e for e in circuit.elements if fnmatch.fnmatchcase(e.name, pattern)]
         if not hits:
-            raise SpecError(f"tolerances.parts.{pattern}: no part called {pattern} in the "
-                            "netlist", code="NC203", path=path, where=f"tolerances.parts.{pattern}")
+            raise SpecError(f"{where}: no part called {pattern} in the netlist",
+                            code="NC203", path=path, where=where)
+        sources = [e for e in hits if e.letter in ("V", "I")]
+        if sources and not _is_glob(pattern):
+            raise SpecError(f"{where}: {pattern} is an independent source; responses are "
+                            "per unit stimulus, so its tolerance would change nothing (give "
+                            "the drive level as [[stress]] source_amplitude)", code="NC202",
+                            path=path, where=where)
         for e in hits:
+            if e in sources:
+                continue
+            if e.letter == "K" and t > 0 and abs(e.value) * (1 + t) > 1:
+                raise SpecError(
+                    f"{where}: a {t:.4g} tolerance lets the coupling factor of {e.name} "
+                    f"({e.value:g}) reach {abs(e.value) * (1 + t):.4g}, above 1, which no "
+                    f"pair of coils can have; at most {(1 / abs(e.value) - 1) * 100:.3g} % "
+                    "fits", code="NC202", path=path, where=where)
             if t > 0:
                 out[e.name] = (e.value, t)
             else:
@@ -159,7 +184,7 @@ def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>"
 
 
 def draw(parts: list[tuple[str, float, float]], samples: int, distribution: str,
-         rng: np.random.Generator) -> dict[str, np.ndarray]:
+         rng: np.random.Generator, path: str = "<spec>") -> dict[str, np.ndarray]:
     """Sampled values (S,) per part: nominal × (1 + t·u) with u from ``distribution``.
 
     ``uniform``: u ~ U(−1, 1); ``normal``: u ~ N(0, 1/3²) (tolerance = 3σ);
@@ -175,7 +200,16 @@ def draw(parts: list[tuple[str, float, float]], samples: int, distribution: str,
             while bad.any():
                 u[bad] = rng.standard_normal(int(bad.sum())) / 3.0
                 bad = np.abs(u) > 1.0
-    return {name: nominal * (1.0 + t * u[:, j]) for j, (name, nominal, t) in enumerate(parts)}
+    values = {name: nominal * (1.0 + t * u[:, j]) for j, (name, nominal, t) in enumerate(parts)}
+    for name, nominal, t in parts:
+        bad = int(np.count_nonzero(values[name] * nominal <= 0))
+        if bad:  # only the untruncated normal reaches past ±100 %
+            raise SpecError(
+                f"tolerances.distribution: 'normal' with {t * 100:g} % (3σ) on {name} drew "
+                f"{'a value' if bad == 1 else f'{bad} values'} of {name} at or beyond zero "
+                f"in {samples} samples; use 'truncnormal' (cut at ± the tolerance) or a "
+                "smaller tolerance", code="NC202", path=path, where="tolerances.distribution")
+    return values
 
 
 def wilson_interval(passed: int, n: int, z: float = 1.959963984540054) -> tuple[float, float]:
@@ -273,22 +307,42 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
     """Monte Carlo yield: the JSON block, result rows (yield limits) and the gain envelope."""
     rng = np.random.default_rng(analysis.seed)
     S = analysis.samples
-    values = draw(parts, S, tol.distribution, rng)
+    memory = analysis.memory_mib * 2**20
+    # kept for every sample: the drawn values, a measured value and a margin per judged
+    # quantity (a resonance limit judges up to three) and the summary measurements
+    kept = 8 * S * (len(parts) + 2 * 3 * max(len(spec.limits), 1) + len(MEASUREMENT_KEYS))
+    if kept > memory:
+        raise SpecError(
+            f"analysis.samples: {S} samples need about {kept / 2**20:.0f} MiB for their "
+            f"values and results alone, over memory_mib = {analysis.memory_mib}; lower "
+            "samples (the 95 % interval of a yield narrows as 1/√samples) or raise "
+            "memory_mib", code="NC202", path=spec.path, where="analysis.samples")
+    values = draw(parts, S, tol.distribution, rng, spec.path)
     margins, measured, meas, env_lo, env_hi = run_samples(
         system, spec, values, S, analysis.memory_mib * 2**20, "Monte Carlo samples")
+    rows: list[LimitResult] = []
+    stress_block, stress_ok = None, {}
+    if spec.table("stress") is not None:
+        stress_block, stress_rows, stress_ok = stress_over_samples(
+            system, spec, values, S, analysis.memory_mib * 2**20)
+        rows.extend(stress_rows)
     passed_all = np.ones(S, bool)
     lim_json = []
-    for name, m in margins.items():
-        ok = m >= 0
+    # stress rows: screened on the grid, samples near or over a rating judged exactly
+    judged = [(name, m, measured[name], m >= 0) for name, m in margins.items()]
+    judged += [(name, m, v, ok) for name, (ok, m, v) in stress_ok.items()]
+    for name, m, v, ok in judged:
         passed_all &= ok
-        p01, p50, p99 = (float(v) for v in np.percentile(np.where(np.isfinite(m), m, -1e300),
-                                                         [1, 50, 99]))
+        # unmeasurable samples rank lowest (−inf); "lower" picks sample values, so a
+        # percentile among them is −inf, written as null
+        p01, p50, p99 = (_f(x) for x in np.percentile(np.where(np.isnan(m), -np.inf, m),
+                                                      [1, 50, 99], method="lower"))
         worst = int(np.argmin(np.where(np.isfinite(m), m, -np.inf)))
         lim_json.append({"name": name, "yield": float(ok.mean()),
                          "yield_ci": list(wilson_interval(int(ok.sum()), S)),
                          "margin_p01": p01, "margin_p50": p50, "margin_p99": p99,
-                         "worst_sample": worst, "worst_measured": _f(measured[name][worst]),
-                         "worst_values": {k: float(v[worst]) for k, v in values.items()}})
+                         "worst_sample": worst, "worst_measured": _f(v[worst]),
+                         "worst_values": {k: float(x[worst]) for k, x in values.items()}})
     y = float(passed_all.mean())
     ci = wilson_interval(int(passed_all.sum()), S)
     block = {"samples": S, "seed": analysis.seed, "distribution": tol.distribution,
@@ -311,18 +365,15 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
             counts, edges = np.histogram(vals, bins=30)
             block["histogram"] = {"name": hist_key, "counts": counts.tolist(),
                                   "edges": edges.tolist()}
-    rows = []
-    if spec.table("stress") is not None:
-        stress_block, stress_rows = stress_over_samples(
-            system, spec, values, S, analysis.memory_mib * 2**20)
+    if stress_block is not None:
         block["stress"] = stress_block
-        rows.extend(stress_rows)
     if analysis.yield_min is not None:
         margin = y - analysis.yield_min
         rows.append(LimitResult(
             "Monte Carlo yield (all limits)", "yield",
             Status.PASS if margin >= 0 else Status.FAIL, y, analysis.yield_min, None, margin,
-            "", None, f"fraction of {S} samples passing every limit ({tol.distribution} "
+            "", None, f"fraction of {S} samples passing every limit and every part-stress "
+            f"rating ({tol.distribution} "
             f"tolerances, seed {analysis.seed}); 95 % Wilson interval {ci[0]:.4f}–{ci[1]:.4f}",
             "Monte Carlo, all samples solved together (pole–zero forms checked against direct "
             "solves), every limit judged per sample", "", len(spec.limits), None))
@@ -437,13 +488,20 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
                  "rss_min": row.low - float(np.sqrt(np.sum(c_lo ** 2))),
                  "rss_max": row.high + float(np.sqrt(np.sum(c_hi ** 2))), "margin": margin,
                  "sensitivity_method": method}
+        lost = 0
         if corners is not None and name in corners:
-            cmin, cmax, cmargin = corners[name]
-            entry.update(corners_min=cmin, corners_max=cmax, corners_margin=cmargin,
-                         eva_differs=bool(abs(cmargin - margin) > 1e-6 * max(1.0, abs(margin))))
-            margin = min(margin, cmargin)
-            lo_v, hi_v = min(lo_v, cmin), max(hi_v, cmax)
+            cmin, cmax, cmargin, lost = corners[name]
+            entry.update(corners_min=_f(cmin), corners_max=_f(cmax),
+                         corners_margin=_f(cmargin), corners_unmeasurable=lost,
+                         eva_differs=bool(math.isfinite(cmargin) and abs(cmargin - margin)
+                                          > 1e-6 * max(1.0, abs(margin))))
+            if math.isfinite(cmargin):
+                margin = min(margin, cmargin)
+                lo_v, hi_v = min(lo_v, cmin), max(hi_v, cmax)
         status = Status.PASS if margin >= 0 else Status.FAIL
+        if lost:  # the worst case is not established where the quantity is not there
+            status = Status.ERROR
+            entry["margin"] = None
         entry["status"] = status.value
         lim_json.append(entry)
         lower_decides = r.lower is not None and (r.upper is None or
@@ -455,13 +513,21 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
         sens_json.append({"name": name, "unit": r.unit, "method": method, "top": [
             {"part": parts[k][0], "sensitivity": _f(dln[k] / m0) if relative else None,
              "per_unit_log": _f(dln[k]), "contribution": _f(contrib[k])} for k in order]})
+        definition = (f"extreme-value analysis over {P} toleranced parts: "
+                      f"{_fmt(lo_v, r.unit)} … {_fmt(hi_v, r.unit)}" +
+                      (f"; all {2 ** P} corners evaluated" if corners is not None else ""))
+        method_text = f"sensitivities by {method}; EVA (each part at the end that hurts)"
+        if lost:
+            out_rows.append(LimitResult(
+                f"worst case: {name}", "worst_case", status, None, r.lower, r.upper, None,
+                r.unit, r.at_hz, definition, method_text,
+                f"cannot be measured at {lost} of the {2 ** P} tolerance corners (the "
+                "feature leaves the sweep or the band there), so no worst case is "
+                "established; widen the sweep or tighten the tolerances", r.index, r.line))
+            continue
         out_rows.append(LimitResult(
             f"worst case: {name}", "worst_case", status, lo_v if lower_decides else hi_v,
-            r.lower, r.upper, margin, r.unit, r.at_hz,
-            f"extreme-value analysis over {P} toleranced parts: "
-            f"{_fmt(lo_v, r.unit)} … {_fmt(hi_v, r.unit)}" +
-            (f"; all {2 ** P} corners evaluated" if corners is not None else ""),
-            f"sensitivities by {method}; EVA (each part at the end that hurts)",
+            r.lower, r.upper, margin, r.unit, r.at_hz, definition, method_text,
             "", r.index, r.line))
     meas_json = {}
     for key in keys:
@@ -491,13 +557,25 @@ def _margin(r: LimitResult, lo_v: float, hi_v: float) -> float:
 
 
 def _corner_rows(system: System, spec: Spec, parts: list[tuple[str, float, float]],
-                 memory: int) -> dict[str, tuple[float, float, float]]:
+                 memory: int) -> dict[str, tuple[float, float, float, int]]:
+    """Per judged quantity over all 2^P corners: (min, max, worst margin, unmeasurable).
+
+    Corners where the quantity cannot be measured are left out of min, max and margin
+    (NaN when none is left) and counted.
+    """
     P = len(parts)
     signs = np.array(list(itertools.product((-1.0, 1.0), repeat=P)))
     values = {name: v * (1 + t * signs[:, j]) for j, (name, v, t) in enumerate(parts)}
     rows, _ = _rows_for(system, spec, values, signs.shape[0], memory, "worst-case corners")
-    return {k: (float(np.nanmin(m)), float(np.nanmax(m)), float(np.nanmin(g)))
-            for k, (m, g) in rows.items()}
+    out = {}
+    for k, (m, g) in rows.items():
+        ok = np.isfinite(m) & np.isfinite(g)
+        if ok.any():
+            out[k] = (float(m[ok].min()), float(m[ok].max()), float(g[ok].min()),
+                      int((~ok).sum()))
+        else:
+            out[k] = (math.nan, math.nan, math.nan, int(m.size))
+    return out
 
 
 def with_values(circuit: Circuit, values: dict[str, float]) -> Circuit:
@@ -532,12 +610,17 @@ def _full_solutions(system: System, values: dict[str, np.ndarray], rows: np.ndar
 
 def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray],
                         samples: int, memory: int, candidates: int = 5
-                        ) -> tuple[list[dict[str, Any]], list[LimitResult]]:
-    """The worst part stress over the Monte Carlo samples.
+                        ) -> tuple[list[dict[str, Any]], list[LimitResult], np.ndarray]:
+    """The worst part stress over the Monte Carlo samples, and which samples pass it.
 
-    Every sample is screened on the sweep grid (full solution, the nominal part's
-    probe); the ``candidates`` worst samples of each part are then rebuilt as circuits
-    of their own and judged exactly (true maximum between grid points, as at nominal).
+    Every sample is screened on the sweep grid (full solution, scaled by the sample's
+    own part value). A sample whose grid maximum already exceeds a rating fails it
+    (the true maximum is at least that); one whose sharpened estimate stays below
+    (1 − ``BORDER``) of the rating passes; every sample in between, and the
+    ``candidates`` worst of each part, is rebuilt as a circuit of its own and judged
+    exactly (true maximum between grid points, as at nominal). Returns the JSON block,
+    the "Monte Carlo worst" rows and, per stress row name, (S,) arrays of: inside the
+    rating, margin and peak (the sharpened grid estimate, exact where judged).
     """
     from .assemble import assemble
     from .solve import solve
@@ -545,7 +628,7 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
 
     limits = parse_stress(spec.table("stress"), spec.path, stress_lines(spec.text))
     grid = spec.sweep.grid()
-    screen: dict[tuple[int, str], np.ndarray] = {}
+    screen: dict[tuple[int, str], list[np.ndarray]] = {}
     per_chunk = max(1, memory // 4 // max(grid.size * system.size * 16 * 4, 1))
     for i in range(0, samples, per_chunk):
         rows = np.arange(i, min(samples, i + per_chunk))
@@ -560,20 +643,41 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
                 q = x @ probe.sel
                 if probe.jw:
                     q = q * (1j * 2 * np.pi * grid)[None, :]
-                peak = probe.scale * _vertex(np.abs(q + probe.const), grid) ** probe.power
-                key = (k, e.name)
-                screen[key] = np.concatenate([screen.get(key, np.zeros(0)), peak])
+                mag = np.abs(q + probe.const)
+                own = (values[e.name][rows] / e.value) ** probe.own \
+                    if probe.own and e.name in values else 1.0
+                scale = probe.scale * own
+                both = np.stack([np.max(mag, axis=1), _vertex(mag, grid)])
+                screen.setdefault((k, e.name), []).append(scale * both ** probe.power)
+    passed: dict[tuple[int, str], tuple[np.ndarray, np.ndarray, np.ndarray]] = {}
     worst: dict[tuple[int, str], tuple[float, Any, int]] = {}
     names = list(values)
-    for (k, part), peaks in screen.items():
-        for j in np.argsort(-peaks)[:candidates]:
+    exact: dict[tuple[int, int], dict[str, Any]] = {}
+
+    def judged(j: int, k: int, part: str) -> Any:
+        if (j, k) not in exact:
             sample = {n: float(values[n][j]) for n in names}
-            circuit = with_values(system.circuit, sample)
-            sys_j = assemble(circuit, system.source, system.node, system.ref)
-            res = [r for r in judge_stress([limits[k]], solve(sys_j, grid)) if r.part == part]
-            if res and res[0].peak is not None and (
-                    (k, part) not in worst or res[0].peak > worst[(k, part)][0]):
-                worst[(k, part)] = (res[0].peak, res[0], int(j))
+            sys_j = assemble(with_values(system.circuit, sample), system.source,
+                             system.node, system.ref)
+            exact[(j, k)] = {r.part: r for r in judge_stress([limits[k]], solve(sys_j, grid))}
+        return exact[(j, k)].get(part)
+
+    for (k, part), chunks in screen.items():
+        grid_max, estimate = np.concatenate(chunks, axis=1)
+        rating = limits[k].rating
+        ok = ~(grid_max > rating)
+        peak = np.maximum(estimate, grid_max)
+        margin = rating - peak
+        passed[(k, part)] = (ok, margin, peak)
+        border = np.flatnonzero((estimate >= rating * (1.0 - BORDER)) & ~(grid_max > rating))
+        for j in sorted(set(np.argsort(-estimate)[:candidates].tolist()) | set(border.tolist())):
+            r = judged(int(j), k, part)
+            if r is None or r.peak is None:
+                continue
+            peak[j], margin[j] = r.peak, r.rating - r.peak
+            ok[j] = r.status is Status.PASS
+            if (k, part) not in worst or r.peak > worst[(k, part)][0]:
+                worst[(k, part)] = (r.peak, r, int(j))
     block, rows_out = [], []
     for (k, part), (_, r, j) in sorted(worst.items()):
         entry = r.to_json()
@@ -584,7 +688,9 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
             lim, name=f"Monte Carlo worst: {lim.name}",
             definition=f"{lim.definition}; worst of {samples} samples (sample {j}), "
                        "screened on the grid, then judged exactly"))
-    return block, rows_out
+    quantity = {k: lim.quantity for k, lim in enumerate(limits)}
+    return block, rows_out, {f"stress: {part} {quantity[k]}": arrays
+                             for (k, part), arrays in sorted(passed.items())}
 
 
 def _vertex(values: np.ndarray, grid: np.ndarray) -> np.ndarray:

@@ -50,9 +50,9 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
               "tolerance": tolerance_text(p.get("tolerance"))} for p in mc.get("parts", ())]
     nominal_values = {p["part"]: p["nominal"] for p in mc.get("parts", ())}
     limits, samples = [], {}
+    units = {lim.name: lim.unit for lim in s.limits}  # stress rows too
     for e in mc.get("limits", ()):
-        lim = nominal.get(e["name"])
-        unit = lim.unit if lim is not None else ""
+        unit = units.get(e["name"], "")
         worst = e.get("worst_sample")
         limits.append({
             "name": e["name"], "yield": format_fraction(e.get("yield")),
@@ -102,6 +102,7 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
             "minmax": format_range(st.get("min"), st.get("max"), unit),
             "eva": format_range(w.get("min"), w.get("max"), unit)})
     return {
+        "has_stress": any(r["name"].startswith("stress: ") for r in limits),
         "samples": n, "seed": mc.get("seed"), "passed": passed,
         "failed": None if passed is None else n - passed,
         "distribution": _DISTRIBUTIONS.get(mc.get("distribution"), str(mc.get("distribution"))),
@@ -187,6 +188,11 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
 def _eva_versus_corners(e: dict[str, Any], unit: str) -> str:
     """Which of EVA and the corners decides a worst-case limit, and by how much, in words."""
     eva_m, cor_m = e.get("margin"), e.get("corners_margin")
+    lost = e.get("corners_unmeasurable") or 0
+    if lost:
+        return (f"The quantity cannot be measured at {lost} "
+                f"corner{'s' if lost != 1 else ''} (the corners' range covers the others), "
+                "so no worst case is established.")
     if not e.get("eva_differs") or eva_m is None or cor_m is None:
         return "They agree."
     gap = abs(eva_m - cor_m)
