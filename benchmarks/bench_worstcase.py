@@ -36,7 +36,8 @@ from netcheck.parse import load_netlist
 from netcheck.sensitivity import AdjointSensitivity
 from netcheck.solve import solve
 from netcheck.spec import load_spec
-from netcheck.tolerance import (_central_differences, parse_tolerances, toleranced_parts)
+from netcheck.tolerance import parse_tolerances, toleranced_parts
+from netcheck.worstcase import _central_differences
 
 R0, FC = 600.0, 20e3
 

@@ -247,8 +247,8 @@ def _tolerance(spec: Spec, circuit: Circuit, system: System, nominal: tuple,
                measurements: dict[str, float], probe: SpecProbe
                ) -> tuple[list, dict, tuple, list[Caution]]:
     """Run the analyses the spec asks for; (result rows, JSON block, envelope, cautions)."""
-    from .tolerance import (monte_carlo, parse_analysis, parse_tolerances, toleranced_parts,
-                            worst_case)
+    from .tolerance import monte_carlo, parse_analysis, parse_tolerances, toleranced_parts
+    from .worstcase import worst_case
 
     analysis = parse_analysis(spec.table("analysis") or {}, spec.path)
     tol = parse_tolerances(spec.table("tolerances") or {}, spec.path)

@@ -6,6 +6,7 @@ from typing import Any
 
 from ..result import LimitResult, SpecResult, Status
 from ..units import format_eng
+from ..worstcase import MAX_CORNER_PARTS
 from .formatting import (MEASUREMENTS, caution_view, coefficient, format_fraction,
                          format_interval, format_margin, format_range, signed, status_view,
                          tolerance_text, unit_of)
@@ -23,8 +24,6 @@ _DISTRIBUTIONS = {
 _PART_UNITS = {"R": "Ω", "C": "F", "L": "H"}
 #: worst samples per table of part values
 SAMPLE_COLUMNS = 4
-#: toleranced parts up to which the worst case also evaluates every corner
-_MAX_CORNER_PARTS = 12
 
 
 def _part_unit(name: str) -> str:
@@ -182,7 +181,7 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
             "corner_text": f"all {corners} corners (every part at either tolerance end) were "
                            "also evaluated" if corners else
                            f"corners were not evaluated (more than "
-                           f"{_MAX_CORNER_PARTS} toleranced parts)"}
+                           f"{MAX_CORNER_PARTS} toleranced parts)"}
 
 
 def _eva_versus_corners(e: dict[str, Any], unit: str) -> str:
