@@ -264,7 +264,7 @@ def _tolerance(spec: Spec, circuit: Circuit, system: System, nominal: tuple,
     for d in check_preferred(preferred):
         cautions.append(_diag_caution(d))
     if not parts and set(analysis.modes) - {"nominal"}:
-        cautions.append(Caution("NC202", "tolerance analysis asked for, but no part has a "
+        cautions.append(Caution("NC250", "tolerance analysis asked for, but no part has a "
                                 "tolerance ([tolerances] default/parts)", "warning", spec.path))
         return rows, block, envelope, cautions
     if "monte_carlo" in analysis.modes:

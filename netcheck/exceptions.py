@@ -39,6 +39,7 @@ CODES: dict[str, str] = {
     "NC201": "unknown spec key",
     "NC202": "wrong type or value in spec",
     "NC203": "spec refers to something that does not exist",
+    "NC250": "spec asks for an analysis with nothing to analyse (warning)",
     "NC300": "singular circuit",
     "NC301": "measurement could not be made",
     "NC302": "numerical trouble (warning)",

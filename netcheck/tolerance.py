@@ -43,7 +43,7 @@ ANALYSIS_KEYS = {
     "mode": "any of 'nominal', 'worst_case', 'monte_carlo'",
     "samples": "Monte Carlo samples (default 2000)",
     "seed": "random seed, for reproducible samples (default 1)",
-    "yield_min": "overall pass fraction required, 0..1 (default: none)",
+    "yield_min": "overall pass fraction required, 0..1 or a percentage such as \"95%\" (default: none)",
     "memory_mib": "memory budget for Monte Carlo chunks, MiB (default 1024)",
 }
 MODES = ("nominal", "worst_case", "monte_carlo")
@@ -109,7 +109,14 @@ def parse_analysis(table: Any, path: str) -> Analysis:
         mode = [mode]
     if not isinstance(mode, list) or not mode or any(m not in MODES for m in mode):
         rd.fail("mode", f"expected a list drawn from {', '.join(MODES)}, got {mode!r}")
-    y = rd.number("yield_min")
+    raw_y = rd.raw("yield_min")
+    if isinstance(raw_y, str) and raw_y.strip().endswith("%"):
+        try:
+            y = float(raw_y.strip()[:-1]) / 100.0
+        except ValueError:
+            rd.fail("yield_min", f"{raw_y!r} is not a percentage")
+    else:
+        y = rd.number("yield_min")
     if y is not None and not 0 < y <= 1:
         rd.fail("yield_min", "must be a fraction in (0, 1]")
     seed = rd.raw("seed", 1)

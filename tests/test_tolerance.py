@@ -167,6 +167,10 @@ class TestSpecKeys:
             parse_analysis({"mode": ["everything"]}, "s.toml")
         with pytest.raises(SpecError, match="analysis.yield_min"):
             parse_analysis({"yield_min": 1.5}, "s.toml")
+        assert parse_analysis({"yield_min": "95 %"}, "s.toml").yield_min == pytest.approx(0.95)
+        for bad in ("150%", "ninety%"):
+            with pytest.raises(SpecError, match="analysis.yield_min"):
+                parse_analysis({"yield_min": bad}, "s.toml")
 
     def test_unknown_part_is_an_error_result(self, tmp_path):
         path = _spec(tmp_path, 'parts = { C9 = "1%" }', 'mode = ["monte_carlo"]\nsamples = 10')

@@ -153,7 +153,8 @@ def test_zero_tolerances_warn_that_no_analysis_ran(tmp_path):
     res = check_spec(path)
     assert res.status is Status.PASS
     assert "worst_case" not in _tol(res) and "monte_carlo" not in _tol(res)
-    assert any("no part has a tolerance" in c.message for c in res.cautions)
+    assert any("no part has a tolerance" in c.message and c.code == "NC250"
+               for c in res.cautions)
 
 
 def test_zero_tolerance_per_part_removes_it_from_the_default(tmp_path):
