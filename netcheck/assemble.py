@@ -167,14 +167,25 @@ class Stamper:
         return sp.csc_matrix((data, (np.asarray(rows, int), np.asarray(cols, int))),
                              shape=(self.n, self.n))
 
+    def batch_entries(self, mat: str, samples: int, dtype: Any = float
+                      ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """The entries of ``mat``: rows (k,), columns (k,) and values (samples, k).
+
+        Repeated (row, column) pairs are kept; they add up when the matrix is formed.
+        """
+        rows, cols, vals = self.entries[mat]
+        if not vals:
+            return np.zeros(0, int), np.zeros(0, int), np.zeros((samples, 0), dtype=dtype)
+        v = np.stack([np.broadcast_to(np.asarray(x, dtype=dtype), (samples,)) for x in vals],
+                     axis=1)
+        return np.asarray(rows, int), np.asarray(cols, int), v
+
     def dense_batch(self, mat: str, samples: int, dtype: Any = float) -> np.ndarray:
         """The entries of ``mat`` as a dense (samples, n, n) array."""
         out = np.zeros((samples, self.n, self.n), dtype=dtype)
-        rows, cols, vals = self.entries[mat]
-        if vals:
-            v = np.stack([np.broadcast_to(np.asarray(x, dtype=dtype), (samples,))
-                          for x in vals], axis=1)
-            np.add.at(out, (slice(None), np.asarray(rows), np.asarray(cols)), v)
+        rows, cols, v = self.batch_entries(mat, samples, dtype)
+        if rows.size:
+            np.add.at(out, (slice(None), rows, cols), v)
         return out
 
 

@@ -25,11 +25,14 @@ import math
 from typing import Mapping
 
 import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
 
-from .assemble import System, assemble_batch
+from .assemble import Stamper, System, assemble_batch
+from .solve import DENSE_MAX
 
 
-__all__ = ["SampleSet"]
+__all__ = ["SampleSet", "SparseBatch"]
 
 _TWO_PI = 2.0 * math.pi
 _CHECK_TOL = 1e-7
@@ -37,6 +40,9 @@ _DB = 10.0 / math.log(10.0)  # dB per neper of |H|²
 _BLOCK = 1 << 16  # elements per row chunk of grid work: a few such arrays stay in cache
 _GROUP = 8  # root factors per product block (numerator and denominator alternate)
 _EPS = float(np.finfo(float).eps)
+#: systems with more unknowns take the per-sample sparse path (see :class:`SparseBatch`),
+#: as the nominal solve does
+SPARSE_ABOVE = DENSE_MAX
 
 Rows = slice | np.ndarray  # rows of the per-sample root arrays
 
@@ -60,12 +66,18 @@ class SampleSet:
                  grid: np.ndarray, memory_bytes: int = 2**30) -> None:
         self.system, self.S, self.grid = system, samples, np.asarray(grid, float)
         self.n = system.size
-        self.G, self.C = assemble_batch(system, values, samples)
         self.b = np.asarray(system.b, float)
         self.l = np.asarray(system.l, float)
         self.w_scale = _TWO_PI * math.sqrt(self.grid[0] * self.grid[-1])
         self.memory_bytes = memory_bytes
-        self.counts = _root_counts(system, self.grid)
+        # large systems: one sparse pattern, every sample solved directly by SuperLU
+        self.sparse = SparseBatch(system, values, samples) if self.n > SPARSE_ABOVE else None
+        if self.sparse is None:
+            self.G, self.C = assemble_batch(system, values, samples)
+            self.counts = _root_counts(system, self.grid)
+        else:
+            self.G = self.C = None
+            self.counts = None
         self._build_forms()
         # real views of the roots for |jω − r|² = (ω − Im r)² + (Re r)²
         self._zi, self._zr2 = self.zeros.imag.copy(), self.zeros.real ** 2
@@ -101,6 +113,11 @@ class SampleSet:
         f = np.asarray(f, float)
         flat = f.reshape(f.shape[0], -1)
         l = self.l if l is None else l
+        if self.sparse is not None:
+            idx = np.arange(flat.shape[0]) if rows is None else np.asarray(rows)
+            return np.stack([self.sparse.solutions(int(r), flat[i]) @ l
+                             for i, r in enumerate(idx)]).reshape(f.shape) if idx.size else \
+                np.zeros(f.shape, dtype=complex)
         out = np.empty(flat.shape, dtype=complex)
         k, n = flat.shape[1], self.n
         step = self._chunk(k * n * n * 16 * 2)
@@ -338,6 +355,49 @@ class SampleSet:
         hp, hm = self.transfer(f + d, rows), self.transfer(f - d, rows)
         with np.errstate(all="ignore"):
             return -np.angle(hp / hm) / (_TWO_PI * 2 * d)
+
+
+class SparseBatch:
+    """S samples of G + jωC on one sparsity pattern, for systems too large for dense arrays.
+
+    The entries of every sample are summed once into CSC data arrays (S, nnz) on the
+    pattern shared by all samples; a solve forms one sample's matrix at one frequency
+    and factors it with SuperLU. The loop runs over factorisations, which are the work.
+    """
+
+    def __init__(self, system: System, values: Mapping[str, np.ndarray], samples: int
+                 ) -> None:
+        st = Stamper(system.circuit, values)
+        st.stamp_all()
+        n = self.n = system.size
+        rg, cg, vg = st.batch_entries("G", samples)
+        rc, cc, vc = st.batch_entries("C", samples)
+        keys, where = np.unique(np.concatenate([cg * n + rg, cc * n + rc]),
+                                return_inverse=True)
+        self.indices = (keys % n).astype(np.int32)
+        self.indptr = np.searchsorted(keys // n, np.arange(n + 1)).astype(np.int32)
+        self.g = np.zeros((samples, keys.size))
+        self.c = np.zeros((samples, keys.size))
+        np.add.at(self.g, (slice(None), where[:rg.size]), vg)
+        np.add.at(self.c, (slice(None), where[rg.size:]), vc)
+        self.b = np.asarray(system.b, complex)
+
+    def factor(self, row: int, f_hz: float):
+        """SuperLU factors of sample ``row``'s G + j2πfC (RuntimeError when singular)."""
+        data = self.g[row] + (1j * _TWO_PI * f_hz) * self.c[row]
+        a = sp.csc_matrix((data, self.indices, self.indptr), shape=(self.n, self.n))
+        return spla.splu(a, permc_spec="COLAMD")
+
+    def solutions(self, row: int, f_hz: np.ndarray) -> np.ndarray:
+        """x (K, n) of sample ``row`` at the frequencies ``f_hz`` (K,); NaN where singular."""
+        f = np.atleast_1d(np.asarray(f_hz, float))
+        out = np.empty((f.size, self.n), dtype=complex)
+        for k, fk in enumerate(f):
+            try:
+                out[k] = self.factor(row, float(fk)).solve(self.b)
+            except RuntimeError:
+                out[k] = np.nan
+        return out
 
 
 def _select(S: int, rows: np.ndarray | None) -> tuple[Rows, np.ndarray]:

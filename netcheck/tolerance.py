@@ -253,9 +253,12 @@ def _judge_chunk(system: System, spec: Spec, values: dict[str, np.ndarray], n: i
 
 
 def _chunk_size(system: System, spec: Spec, memory: int) -> int:
+    from .solve import DENSE_MAX
+
     f = spec.sweep.grid().size
     n = system.size + 1
-    per = 16 * (6 * f + 8 * n * n) + 16 * f * 6
+    # dense: batched (n+1)² matrices; sparse: each sample's pattern data (a few n)
+    per = 16 * (6 * f + (8 * n * n if system.size <= DENSE_MAX else 16 * n)) + 16 * f * 6
     return max(1, min(20000, memory // per))
 
 
@@ -393,7 +396,13 @@ def _full_solutions(system: System, values: dict[str, np.ndarray], rows: np.ndar
     """x (R, F, n) for the sample rows, by direct solves in memory-bounded chunks."""
     from .assemble import assemble_batch
 
+    from .sampling import SparseBatch
+    from .solve import DENSE_MAX
+
     sub = {k: v[rows] for k, v in values.items()}
+    if system.size > DENSE_MAX:
+        batch = SparseBatch(system, sub, rows.size)
+        return np.stack([batch.solutions(i, grid) for i in range(rows.size)])
     g, c = assemble_batch(system, sub, rows.size)
     n, f = system.size, grid.size
     out = np.empty((rows.size, f, n), dtype=complex)

@@ -296,3 +296,35 @@ def test_monte_carlo_phase_limit_matches_per_sample_checks(tmp_path):
         one = with_values(ckt, {n: v[k] for n, v in values.items()})
         r = {x.name: x for x in evaluate(plain, one).limits}[name]
         assert measured[name][k] == pytest.approx(r.measured, abs=1e-6)
+
+
+def test_monte_carlo_on_the_sparse_path_matches_per_sample_checks(tmp_path):
+    # A system over 300 unknowns takes the sparse path: each sample is factored by
+    # SuperLU on one shared pattern. Its batched verdicts and measurements must equal a
+    # nominal check of each sample's own circuit (which uses scipy's SuperLU directly).
+    from netcheck.solve import DENSE_MAX
+    from netcheck.spec import load_spec
+    from netcheck.tolerance import run_samples, with_values
+    from netcheck.evaluate import evaluate
+    chain = "\n".join(f"RC{k} n{k} n{k + 1} 1" for k in range(DENSE_MAX))
+    net = (f"Quillmere test: long chain into a series RLC\nV1 n0 0 AC 1\n{chain}\n"
+           f"E1 b 0 n{DENSE_MAX} 0 1\nL1 b a {L!r}\nC1 a out {C!r}\nR1 out 0 {R!r}\n")
+    (tmp_path / "big.cir").write_text(net)
+    path = tmp_path / "big.toml"
+    path.write_text(Path(_spec(tmp_path, "", "")).read_text().replace('"t.cir"', '"big.cir"'))
+    spec = load_spec(path)
+    ckt = read_netlist(net)
+    system = assemble(ckt, "V1", "out")
+    assert system.size > DENSE_MAX
+    values = draw([("C1", C, 0.05), ("L1", L, 0.05), ("R1", R, 0.05)], 4, "uniform",
+                  np.random.default_rng(8))
+    margins, measured, meas, _, _ = run_samples(system, spec, values, 4, 2**28)
+    plain = dataclasses.replace(spec, text="")
+    for k in range(4):
+        one = evaluate(plain, with_values(ckt, {n: v[k] for n, v in values.items()}))
+        r = {x.name: x for x in one.limits}["resonance: Q"]
+        assert measured["resonance: Q"][k] == pytest.approx(r.measured, rel=1e-9)
+        assert margins["resonance: Q"][k] == pytest.approx(r.margin, rel=1e-9, abs=1e-12)
+        # and against the closed form Q = (1/R) sqrt(L/C) of the series RLC (textbook)
+        q = math.sqrt(values["L1"][k] / values["C1"][k]) / values["R1"][k]
+        assert measured["resonance: Q"][k] == pytest.approx(q, rel=1e-9)
