@@ -152,6 +152,10 @@ class Limit:
         """Measure and judge; one LimitResult per bound-quantity."""
         raise NotImplementedError
 
+    def result_names(self) -> tuple[str, ...]:
+        """Names of the results :meth:`judge` gives (they must be unique in a spec)."""
+        return (self.name,)
+
     def mask(self) -> tuple[MaskBand, ...]:
         """Regions this limit draws on the gain plot (empty if none)."""
         return ()

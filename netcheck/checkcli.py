@@ -182,9 +182,11 @@ def run_check(args: argparse.Namespace) -> int:
     if sys.stderr.isatty():
         from .progress import reporting
         bar = _Progress(sys.stderr, show_jobs=len(items) > 1)
-        with reporting(bar.analysis):
-            results = run_all(items, executor, bar)
-        bar.close()
+        try:
+            with reporting(bar.analysis):
+                results = run_all(items, executor, bar)
+        finally:
+            bar.close()
     else:
         results = run_all(items, executor)
     results = _with_provenance(results)

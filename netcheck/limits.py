@@ -243,6 +243,9 @@ class ResonanceLimit(Limit):
                 out.append(Linearised(f"{self.name}: {sub}", v, d[key], v, d[key]))
         return out
 
+    def result_names(self):
+        return tuple(f"{self.name}: {sub}" for sub, _ in self._parts())
+
     def _parts(self):
         parts = []
         if self.center is not None:
@@ -350,6 +353,10 @@ class GroupDelayLimit(Limit):
                 f"max − min group delay over {_band_text(self.band)}", method, "",
                 self.index, self.line))
         return tuple(out)
+
+    def result_names(self):
+        names = (self.name,) if self.max is not None or self.min is not None else ()
+        return names + ((f"{self.name}: variation",) if self.max_variation is not None else ())
 
     def mask(self):
         if self.max is None and self.min is None:

@@ -148,7 +148,13 @@ class AdjointSensitivity:
             c_dot = lambda v: self._cd @ v  # noqa: E731
             ct_dot = lambda v: self._cd.T @ v  # noqa: E731
         else:
-            lu_s = spla.splu((self._g + s * self._c).tocsc().astype(complex))
+            try:
+                lu_s = spla.splu((self._g + s * self._c).tocsc().astype(complex))
+            except RuntimeError:  # singular here: nothing to linearise (callers fall back)
+                nan = np.full(len(self.parts), np.nan, dtype=complex)
+                out = (complex(np.nan), complex(np.nan), complex(np.nan), nan, nan)
+                self._cache[key] = out
+                return out
 
             def solve(rhs: np.ndarray, trans: int) -> np.ndarray:
                 return lu_s.solve(rhs, trans="T" if trans else "N")

@@ -296,7 +296,8 @@ def _nested_key_position(text: str, where: str) -> tuple[int, int, int] | None:
         for number, line in enumerate(text.splitlines(), 1):
             stripped = line.strip()
             if stripped.startswith("["):
-                current = stripped.strip("[").split("]")[0].strip()
+                header = stripped.strip("[").split("]")[0]
+                current = ".".join(part.strip().strip("\"'") for part in header.split("."))
                 continue
             if current != section or "=" not in stripped:
                 continue
@@ -397,22 +398,24 @@ def _build(doc: dict, text: str, path: str, build_limit: Any) -> Spec:
         top.fail("limits", "expected an array of tables ([[limits]])")
     lines = limit_lines(text)
     limits = []
-    first: dict[str, int] = {}
+    first: dict[str, int] = {}  # result name → index of the limit that gives it
     for i, table in enumerate(raw_limits):
         line = lines[i] if i < len(lines) else None
         lim = build_limit(table, i, path, sweep, line)
-        if lim.name in first:
-            if "name" in table:
-                j = first[lim.name]
-                at = f" (line {lines[j]})" if j < len(lines) else ""
-                keys = {"kind": "", "name": "", **type(lim).KEYS}
-                SpecReader(table, f"limits[{i}]", path, keys).fail(
-                    "name", f"{lim.name!r} is already the name of limits[{j}]{at}; results "
-                    "are told apart by name (tolerance analyses, JUnit, baselines), so give "
-                    "each limit its own")
-            # two limits left with the same default name: the later says where it is
+        taken = [n for n in lim.result_names() if n in first]
+        if taken and "name" not in table:
+            # a default name that is already taken: the later limit says where it is
             lim = dataclasses.replace(lim, name=f"{lim.name} (limits[{i}])")
-        first[lim.name] = i
+            taken = [n for n in lim.result_names() if n in first]
+        if taken:
+            j = first[taken[0]]
+            at = f" (line {lines[j]})" if j < len(lines) else ""
+            keys = {"kind": "", "name": "", **type(lim).KEYS}
+            SpecReader(table, f"limits[{i}]", path, keys).fail(
+                "name", f"this limit's result {taken[0]!r} has the name of a result of "
+                f"limits[{j}]{at}; results are told apart by name (tolerance analyses, "
+                "JUnit, baselines), so give each limit its own")
+        first.update((n, i) for n in lim.result_names())
         limits.append(lim)
     root = top.text("root")
     tables = tuple((k, doc[k]) for k in ("tolerances", "analysis", "stress", "variants")

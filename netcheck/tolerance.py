@@ -171,6 +171,14 @@ def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>"
                 out[e.name] = (e.value, t)
             else:
                 out.pop(e.name, None)
+    for name, (v, t) in out.items():
+        if v == 0:
+            pattern = next((p for p, _ in reversed(ordered)
+                            if fnmatch.fnmatchcase(name, p)), None)
+            where = f"tolerances.parts.{pattern}" if pattern else "tolerances.default"
+            raise SpecError(f"{where}: {name} has the value 0, which a relative tolerance "
+                            "cannot move; drop its tolerance", code="NC202", path=path,
+                            where=where)
     return [(name, v, t) for name, (v, t) in sorted(out.items())]
 
 
@@ -417,45 +425,65 @@ def _full_solutions(system: System, values: dict[str, np.ndarray], rows: np.ndar
 
 def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray],
                         samples: int, memory: int, candidates: int = 5
-                        ) -> tuple[list[dict[str, Any]], list[LimitResult], np.ndarray]:
+                        ) -> tuple[list[dict[str, Any]], list[LimitResult],
+                                   dict[str, tuple[np.ndarray, np.ndarray, np.ndarray]]]:
     """The worst part stress over the Monte Carlo samples, and which samples pass it.
 
-    Every sample is screened on the sweep grid (full solution, scaled by the sample's
-    own part value). A sample whose grid maximum already exceeds a rating fails it
-    (the true maximum is at least that); one whose sharpened estimate stays below
+    Every sample is screened on the sweep grid, made denser around the nominal
+    resonances over the spread of the samples (full solution, scaled by the sample's
+    own part value). A sample whose screened maximum already exceeds a rating fails it
+    (the true maximum is at least that); one whose sharpened estimate, raised by the
+    factor the screen falls short of the exact peak at nominal, stays below
     (1 − ``BORDER``) of the rating passes; every sample in between, and the
     ``candidates`` worst of each part, is rebuilt as a circuit of its own and judged
     exactly (true maximum between grid points, as at nominal). Returns the JSON block,
     the "Monte Carlo worst" rows and, per stress row name, (S,) arrays of: inside the
-    rating, margin and peak (the sharpened grid estimate, exact where judged).
+    rating, margin and peak (exact where judged, else the screened maximum, which the
+    true peak can only exceed).
     """
     from .assemble import assemble
     from .solve import solve
-    from .stress import _matches, _probe, judge_stress, parse_stress, stress_lines
+    from .stress import (_matches, _pole_frequencies, _probe, judge_stress, parse_stress,
+                         stress_lines)
 
     limits = parse_stress(spec.table("stress"), spec.path, stress_lines(spec.text))
     grid = spec.sweep.grid()
+    nominal = solve(system, grid)
+    # the screen is denser around the nominal resonances, over the spread of the samples
+    spread = max((float(np.max(np.abs(v / system.circuit.element(n).value - 1.0)))
+                  for n, v in values.items()), default=0.0)
+    near = (_pole_frequencies(nominal)[:, None]
+            * (1.0 + 1.5 * spread * np.linspace(-1.0, 1.0, 25))[None, :]).ravel()
+    screen_f = np.unique(np.concatenate([grid, near[(near > grid[0]) & (near < grid[-1])]]))
+    probes = [(k, e, p) for k, lim in enumerate(limits) for e in system.circuit.elements
+              if _matches(lim.parts, e.name)
+              and not isinstance(p := _probe(system, e, lim.quantity, lim.amplitude), str)]
+
+    def screened(x: np.ndarray, rows: np.ndarray | None) -> dict[tuple[int, str], np.ndarray]:
+        out = {}
+        for k, e, probe in probes:
+            q = x @ probe.sel
+            if probe.jw:
+                q = q * (1j * 2 * np.pi * screen_f)[None, :]
+            mag = np.abs(q + probe.const)
+            own = (values[e.name][rows] / e.value) ** probe.own \
+                if rows is not None and probe.own and e.name in values else 1.0
+            both = np.stack([np.max(mag, axis=1), _vertex(mag, screen_f)])
+            out[(k, e.name)] = probe.scale * own * both ** probe.power
+        return out
+
+    # how far the screen falls short of the exact peak at nominal widens the border
+    exact = {(k, r.part): r.peak for k in range(len(limits))
+             for r in judge_stress([limits[k]], nominal) if r.peak is not None}
+    short = {key: max(1.0, exact[key] / est[1, 0]) if key in exact and est[1, 0] > 0 else 1.0
+             for key, est in screened(nominal.solution(screen_f)[None], None).items()}
     screen: dict[tuple[int, str], list[np.ndarray]] = {}
-    per_chunk = max(1, memory // 4 // max(grid.size * system.size * 16 * 4, 1))
+    per_chunk = max(1, memory // 4 // max(screen_f.size * system.size * 16 * 4, 1))
     for i in range(0, samples, per_chunk):
         rows = np.arange(i, min(samples, i + per_chunk))
-        x = _full_solutions(system, values, rows, grid, memory)
-        for k, lim in enumerate(limits):
-            for e in system.circuit.elements:
-                if not _matches(lim.parts, e.name):
-                    continue
-                probe = _probe(system, e, lim.quantity, lim.amplitude)
-                if isinstance(probe, str):
-                    continue
-                q = x @ probe.sel
-                if probe.jw:
-                    q = q * (1j * 2 * np.pi * grid)[None, :]
-                mag = np.abs(q + probe.const)
-                own = (values[e.name][rows] / e.value) ** probe.own \
-                    if probe.own and e.name in values else 1.0
-                scale = probe.scale * own
-                both = np.stack([np.max(mag, axis=1), _vertex(mag, grid)])
-                screen.setdefault((k, e.name), []).append(scale * both ** probe.power)
+        x = _full_solutions(system, values, rows, screen_f, memory)
+        for key, both in screened(x, rows).items():
+            screen.setdefault(key, []).append(both)
     passed: dict[tuple[int, str], tuple[np.ndarray, np.ndarray, np.ndarray]] = {}
     worst: dict[tuple[int, str], tuple[float, Any, int]] = {}
     names = list(values)
@@ -473,10 +501,11 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
         grid_max, estimate = np.concatenate(chunks, axis=1)
         rating = limits[k].rating
         ok = ~(grid_max > rating)
-        peak = np.maximum(estimate, grid_max)
+        peak = grid_max.copy()  # a lower bound of the true peak; exact values below
         margin = rating - peak
         passed[(k, part)] = (ok, margin, peak)
-        border = np.flatnonzero((estimate >= rating * (1.0 - BORDER)) & ~(grid_max > rating))
+        border = np.flatnonzero((estimate * short[(k, part)] >= rating * (1.0 - BORDER))
+                                & ~(grid_max > rating))
         for j in sorted(set(np.argsort(-estimate)[:candidates].tolist()) | set(border.tolist())):
             r = judged(int(j), k, part)
             if r is None or r.peak is None:

@@ -4,7 +4,8 @@ Every judged quantity is linearised by its limit kind's ``sensitivities`` from t
 adjoint derivatives of :mod:`netcheck.sensitivity` at the frequencies that decide it
 (Director & Rohrer [1]_). EVA sets each part at the tolerance end that moves the
 quantity towards each bound and adds the first-order effects; RSS adds them in
-quadrature, for comparison. With up to :data:`MAX_CORNER_PARTS` toleranced parts every
+quadrature, for comparison. With up to :data:`MAX_CORNER_PARTS` toleranced parts
+(:data:`MAX_CORNER_PARTS_SPARSE` on the sparse path, where each corner costs a sweep) every
 corner (each part at either end) is also judged, through the Monte Carlo machinery,
 and the worse of EVA and the corners decides.
 
@@ -33,10 +34,12 @@ from .tolerance import MEASUREMENT_KEYS, Analysis, _f, run_samples
 if TYPE_CHECKING:  # pragma: no cover
     from .evaluate import SpecProbe
 
-__all__ = ["worst_case", "MAX_CORNER_PARTS"]
+__all__ = ["worst_case", "MAX_CORNER_PARTS", "MAX_CORNER_PARTS_SPARSE"]
 
 #: corners are enumerated (2^P of them) up to this many toleranced parts
 MAX_CORNER_PARTS = 12
+#: the same for systems on the sparse path, where every corner is a sweep of its own
+MAX_CORNER_PARTS_SPARSE = 6
 
 
 def _measurement_sensitivities(probe: "SpecProbe", adj: AdjointSensitivity,
@@ -128,12 +131,25 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
             if k not in meas_method and k in fd_meas:
                 d_meas[k], meas_method[k] = fd_meas[k], "central difference"
     out_rows, lim_json, sens_json = [], [], []
-    corners = _corner_rows(system, spec, parts, memory) if 0 < P <= MAX_CORNER_PARTS else None
+    from .solve import DENSE_MAX
+
+    cap = MAX_CORNER_PARTS if system.size <= DENSE_MAX else MAX_CORNER_PARTS_SPARSE
+    corners = _corner_rows(system, spec, parts, memory) if 0 < P <= cap else None
     for name in judged:
         if name not in lin:
             continue
         r = by_name[name]
         row, method = lin[name]
+        if not _finite(row):  # not even the differences gave a finite slope
+            lim_json.append({"name": name, "measured_nominal": r.measured, "min": None,
+                             "max": None, "margin": None, "status": Status.ERROR.value,
+                             "sensitivity_method": method})
+            out_rows.append(LimitResult(
+                f"worst case: {name}", "worst_case", Status.ERROR, None, r.lower, r.upper,
+                None, r.unit, r.at_hz, "", "", "the sensitivities of this quantity could not "
+                "be computed (the circuit is singular or the measurement jumps where the "
+                "parts move)", r.index, r.line))
+            continue
         c_lo, c_hi = row.d_low * tol, row.d_high * tol
         lo_v = row.low - float(np.sum(np.abs(c_lo)))
         hi_v = row.high + float(np.sum(np.abs(c_hi)))
@@ -192,7 +208,7 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
                               "method": meas_method[key]}
     block = {"method": "eva", "parts": P, "limits": lim_json, "measurements": meas_json,
              "sensitivities": sens_json, "rss": True,
-             "corners": None if corners is None else 2 ** P}
+             "corners": None if corners is None else 2 ** P, "corner_cap": cap}
     return block, out_rows
 
 

@@ -424,3 +424,36 @@ def test_locate_points_other_stages_errors_at_their_key():
     # an error that already has a span, or no key path, is returned as it is
     plain = SpecError("cannot read spec", path="q.toml")
     assert locate(plain, text) is plain
+
+
+class TestResultNames:
+    """Results are told apart by name (tolerance analyses, JUnit, baselines)."""
+
+    def test_repeated_default_names_are_told_apart(self):
+        spec = parse_spec(HEAD + GAIN + GAIN, "q.toml")
+        names = [lim.name for lim in spec.limits]
+        assert names[1] == f"{names[0]} (limits[1])"
+
+    def test_a_given_name_may_not_repeat(self):
+        text = HEAD + GAIN.replace('kind = "gain"', 'kind = "gain"\nname = "flat"') * 2
+        err = fail(text)
+        assert err.where == "limits[1].name" and "limits[0]" in err.message
+        second = [i for i, ln in enumerate(text.splitlines(), 1) if ln == 'name = "flat"'][1]
+        assert err.span.line == second
+
+    def test_a_name_may_not_repeat_a_sub_result_of_another_limit(self):
+        text = HEAD + """
+[[limits]]
+kind = "group_delay"
+name = "delay"
+band = ["2k", "3k"]
+max_variation = 1e-3
+
+[[limits]]
+kind = "gain"
+name = "delay: variation"
+band = ["2k", "3k"]
+max_db = 1
+"""
+        err = fail(text)
+        assert err.where == "limits[1].name" and "'delay: variation'" in err.message

@@ -714,3 +714,55 @@ def test_exact_part_name_wins_over_a_glob_or_the_overlap_is_reported(tmp_path):
     tol = {p["part"]: p["tolerance"] for p in _tol(res)["monte_carlo"]["parts"]}
     warned = any("R1" in c.message and "R*" in c.message for c in res.cautions)
     assert tol["R1"] == pytest.approx(0.01) or warned
+
+
+def test_monte_carlo_stress_finds_a_peak_narrower_than_the_grid(tmp_path):
+    # A lossless parallel LC behind 100 kOhm: at f0 = 1/(2 pi sqrt(LC)) the tank's
+    # impedance is infinite (textbook), so every sample's capacitor sees the full 1 V
+    # input, far above the 0.5 V rating, whatever L and C are. The sweep has only 10
+    # points per decade, so the peak sits between grid points in almost every sample.
+    net = """Quillmere test: lossless tank behind a large resistor
+V1 in 0 AC 1
+R1 in out 100k
+L1 out 0 1m
+C1 out 0 100n
+"""
+    body = ('[tolerances]\ndefault = { C = "1%", L = "1%" }\n[analysis]\n'
+            'mode = ["monte_carlo"]\nsamples = 200\n[[limits]]\nkind = "gain"\n'
+            'band = ["1k", "2k"]\nmax_db = 0\n' + _stress("1", "C1", 'max_voltage = "0.5"'))
+    res = check_spec(_spec(tmp_path, body, netlist=net, sweep=("1k", "100k", 10)))
+    mc = _tol(res)["monte_carlo"]
+    stress = {e["name"]: e for e in mc["limits"]}["stress: C1 voltage"]
+    assert stress["yield"] == 0.0 and mc["yield"] == 0.0
+    assert stress["worst_measured"] == pytest.approx(1.0, rel=1e-6)
+
+
+def test_a_zero_valued_part_cannot_take_a_tolerance(tmp_path):
+    net = SERIES_RLC + "E1 x 0 out 0 0\nRX x 0 1k\n"
+    path = _spec(tmp_path, '[tolerances]\nparts = { E1 = "5%" }\n[analysis]\n'
+                 'mode = ["monte_carlo"]\nsamples = 20\n' + Q_LIMIT, netlist=net)
+    _refused(check_spec(path), "tolerances.parts.E1", "value 0")
+
+
+def test_error_in_a_sub_table_with_spaced_header_has_its_line(tmp_path):
+    path = _spec(tmp_path, '[tolerances . parts]\nR1 = "abc%"\n' + Q_LIMIT)
+    res = check_spec(path)
+    assert f"t.toml:{_line_of(path, 'R1 = ')}:" in res.error
+
+
+def test_corners_on_the_sparse_path_stop_at_a_lower_cap(tmp_path):
+    # every corner of a system on the sparse path is a sweep of its own: 2^7 = 128 of
+    # them is more than the cap of 6 parts there, so EVA alone decides
+    from netcheck.solve import DENSE_MAX
+    from netcheck.worstcase import MAX_CORNER_PARTS_SPARSE
+    chain = "\n".join(f"RC{k} n{k} n{k + 1} 1" for k in range(DENSE_MAX))
+    net = (f"Quillmere test: long chain into a series RLC\nV1 n0 0 AC 1\n{chain}\n"
+           f"E1 b 0 n{DENSE_MAX} 0 1\nL1 b a {L!r}\nC1 a out {C!r}\nR1 out 0 {R!r}\n"
+           "R2 out 0 1meg\nR3 out 0 2meg\nR4 out 0 3meg\nR5 out 0 4meg\n")
+    parts = ", ".join(f'{p} = "1%"' for p in ("L1", "C1", "R1", "R2", "R3", "R4", "R5"))
+    path = _spec(tmp_path, f'[tolerances]\nparts = {{ {parts} }}\n[analysis]\n'
+                 'mode = ["worst_case"]\n' + Q_LIMIT, netlist=net)
+    wc = _tol(check_spec(path))["worst_case"]
+    assert MAX_CORNER_PARTS_SPARSE < 7
+    assert wc["corners"] is None and wc["corner_cap"] == MAX_CORNER_PARTS_SPARSE
+    assert wc["limits"][0]["sensitivity_method"] == "adjoint"  # EVA still runs

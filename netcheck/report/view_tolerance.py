@@ -181,7 +181,7 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
             "corner_text": f"all {corners} corners (every part at either tolerance end) were "
                            "also evaluated" if corners else
                            f"corners were not evaluated (more than "
-                           f"{MAX_CORNER_PARTS} toleranced parts)"}
+                           f"{wc.get('corner_cap', MAX_CORNER_PARTS)} toleranced parts)"}
 
 
 def _eva_versus_corners(e: dict[str, Any], unit: str) -> str:
