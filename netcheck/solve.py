@@ -22,7 +22,6 @@ References
 from __future__ import annotations
 
 import logging
-import math
 import warnings
 from dataclasses import dataclass, field
 from typing import Protocol
@@ -32,18 +31,17 @@ import scipy.linalg as sla
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
+from ._sparse_poles import sparse_poles
 from .assemble import System
 from .exceptions import NetcheckWarning, SingularCircuitError
 
 __all__ = ["Response", "solve", "make_engine", "DenseEngine", "SparseEngine",
-           "PoleZeroEngine", "DENSE_MAX", "CHECK_TOL"]
+           "PoleZeroEngine", "DENSE_MAX", "CHECK_TOL", "sparse_poles"]
 
 log = logging.getLogger(__name__)
 
 #: largest system solved with dense LAPACK (larger ones take the sparse path)
 DENSE_MAX = 300
-#: poles found per shift on the sparse path (seeds for narrow features)
-SPARSE_POLES_PER_SHIFT = 6
 #: fewest points for which the pole–zero engine is worth building
 PZ_MIN_POINTS = 40
 #: complex relative error allowed between the pole–zero form and direct solves;
@@ -206,51 +204,6 @@ class SparseEngine:
                 y = lu.solve(l, trans="T")
                 dh[i] = -(y @ (self.C @ x))
         return h, ((1j * _TWO_PI) * dh if derivative else None)
-
-
-def sparse_poles(G: sp.csc_matrix, C: sp.csc_matrix, f_lo: float, f_hi: float,
-                 per_shift: int = SPARSE_POLES_PER_SHIFT) -> np.ndarray:
-    """Poles s/2π (Hz) of det(G + sC) = 0 nearest the jω axis over [f_lo, f_hi].
-
-    Shift-invert Arnoldi: at shifts σ = j2πf, one per decade of the band and at both
-    ends, ARPACK finds the ``per_shift`` eigenvalues μ of largest modulus of
-    (G + σC)⁻¹C; each gives the pole s = σ − 1/μ, and the largest |μ| are the poles
-    nearest σ (infinite poles, μ = 0, never qualify). Best effort: a shift where the
-    matrix is singular or ARPACK fails contributes what converged, or nothing.
-
-    References
-    ----------
-    R. B. Lehoucq, D. C. Sorensen and C. Yang, *ARPACK Users' Guide*, SIAM, 1998, §3.3
-    (shift-invert spectral transformation).
-    """
-    n = G.shape[0]
-    k = min(per_shift, n - 2)
-    if k < 1 or not (0 < f_lo <= f_hi):
-        return np.zeros(0, dtype=complex)
-    count = max(2, int(math.ceil(math.log10(f_hi / f_lo) - 1e-9)) + 1)
-    found = []
-    for fs in np.geomspace(f_lo, f_hi, count):
-        sigma = 1j * _TWO_PI * fs
-        try:
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore")
-                lu = spla.splu((G + sigma * C).tocsc(), permc_spec="COLAMD")
-        except RuntimeError:
-            continue  # the shift is itself (numerically) a pole
-        op = spla.LinearOperator((n, n), matvec=lambda v, lu=lu: lu.solve(C @ v),
-                                 dtype=complex)
-        try:
-            mu = spla.eigs(op, k=k, which="LM", return_eigenvectors=False,
-                           v0=np.ones(n, dtype=complex))
-        except spla.ArpackNoConvergence as err:
-            mu = err.eigenvalues
-        except spla.ArpackError:
-            continue
-        mu = mu[np.abs(mu) > 0]
-        found.append(sigma - 1.0 / mu)
-    if not found:
-        return np.zeros(0, dtype=complex)
-    return np.concatenate(found) / _TWO_PI
 
 
 @dataclass
@@ -531,8 +484,9 @@ class Response:
     @property
     def poles_hz(self) -> np.ndarray:
         """Poles as complex frequencies s/2π (Hz): all of them from the pencil on the
-        dense paths; on the sparse path the few nearest the jω axis at one shift per
-        decade of the sweep (:func:`sparse_poles`), which is what the seeds need."""
+        dense paths; on the sparse path every lightly damped one (Q > 1/√2) of the
+        sweep, found by adaptive shift-invert Arnoldi (:func:`sparse_poles`), with others
+        met on the way — what the seeds need."""
         if isinstance(self.engine, PoleZeroEngine):
             return _readonly(self.engine.poles * self.engine.w_scale / _TWO_PI)
         if isinstance(self.engine, DenseEngine):

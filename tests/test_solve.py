@@ -9,7 +9,7 @@ import pytest
 from scipy import signal
 
 from netcheck import read_netlist
-from netcheck.assemble import assemble
+from netcheck.assemble import System, assemble
 from netcheck.solve import DenseEngine, SparseEngine
 
 R, L, C = 50.0, 10e-3, 1.5e-9
@@ -161,3 +161,175 @@ def test_sparse_path_finds_a_narrow_peak_between_grid_points():
     top = peak(ResponseCurve.of(response))
     assert top.frequency_hz == pytest.approx(f0, rel=1e-9)
     assert top.value == pytest.approx(0.0, abs=1e-9)
+
+
+# --- sparse pole search: every lightly damped pole of the sweep --------------------------
+
+
+def quillmere_comb(branch_hz: np.ndarray, q: np.ndarray, sections: int = 320) -> str:
+    """Quillmere Instruments QC comb filter: series L-C-R branches from ``in`` to ``out``.
+
+    Branch k resonates near branch_hz[k] with quality factor q[k] (L = 0.8 H, C from
+    f = 1/(2 pi sqrt(LC)), R = 2 pi f L / q); an RC line of ``sections`` sections hung
+    on ``in`` (an input cable model) makes the system large enough for the sparse path.
+    """
+    lines = ["Quillmere Instruments QC comb filter", "V1 in 0 AC 1", "R1 in out 100k",
+             "R2 out 0 1k", "RH in n0 1k"]
+    for k, (f, qk) in enumerate(zip(branch_hz, q)):
+        w = 2 * math.pi * float(f)
+        lines += [f"LX{k} in m{k} 0.8", f"CX{k} m{k} x{k} {1 / (w * w * 0.8)!r}",
+                  f"RX{k} x{k} out {w * 0.8 / float(qk)!r}"]
+    lines += [f"RL{i} n{i} n{i + 1} 1k\nCL{i} n{i + 1} 0 1n" for i in range(sections)]
+    return "\n".join(lines) + "\n"
+
+
+def lightly_damped_in_sweep(system: System, lo: float, hi: float) -> np.ndarray:
+    """Reference poles (Hz): scipy.linalg.eigvals of the dense pencil (G, -C), i.e. the
+    roots of det(G + sC) = 0, kept as netcheck.evaluate.seeds_from_roots keeps them
+    (Im > 0, |Im| > |Re|, and |Im| or |s| inside [lo, hi])."""
+    import scipy.linalg as sla
+
+    p = sla.eigvals(system.G.toarray(), -system.C.toarray())
+    p = p[np.isfinite(p)] / (2 * np.pi)
+    p = p[(p.imag > 0) & (np.abs(p.imag) > np.abs(p.real))]
+    inside = ((p.imag >= lo) & (p.imag <= hi)) | ((np.abs(p) >= lo) & (np.abs(p) <= hi))
+    return p[inside]
+
+
+def assert_found(found: np.ndarray, reference: np.ndarray, rel: float = 1e-6) -> None:
+    """Every reference pole is within ``rel`` (relative) of a found one, and no two
+    reference poles are so close that one could stand in for the other."""
+    gaps = np.abs(reference[:, None] - reference[None, :]) / np.abs(reference)[:, None]
+    assert gaps[~np.eye(reference.size, dtype=bool)].min() > 1000 * rel
+    err = np.abs(found[None, :] - reference[:, None]).min(axis=1) / np.abs(reference)
+    assert (err < rel).all(), reference[err >= rel]
+
+
+def count_factorisations(monkeypatch: pytest.MonkeyPatch) -> list[int]:
+    """A list that grows by one at every SuperLU factorisation netcheck.solve makes."""
+    import scipy.sparse.linalg as spla
+
+    from netcheck import solve as solve_module
+
+    calls: list[int] = []
+    real_splu = spla.splu
+    monkeypatch.setattr(solve_module.spla, "splu",
+                        lambda *a, **k: calls.append(1) or real_splu(*a, **k))
+    return calls
+
+
+def test_sparse_path_finds_every_pole_of_a_crowded_comb(monkeypatch: pytest.MonkeyPatch
+                                                         ) -> None:
+    # 14 sharp branches over 10-100 kHz, more than six to a decade; the sharpest
+    # (R = 1 ohm, Q ~ 1.7e5) near 34.1 kHz makes the peak. 366 unknowns: sparse path.
+    from netcheck import solve as solve_module
+    from netcheck.evaluate import ResponseCurve
+    from netcheck.measure import peak
+
+    branch_hz = np.geomspace(10e3, 100e3, 16)[1:-1]
+    q = 2 * np.pi * branch_hz * 0.8 / 300.0
+    q[7] = 2 * np.pi * branch_hz[7] * 0.8 / 1.0
+    system = assemble(read_netlist(quillmere_comb(branch_hz, q)), "V1", "out")
+    grid = np.geomspace(1e3, 1e6, 41)  # 41 points: the dense path below is pole-zero
+    sparse = solve_module.solve(system, grid)
+    assert sparse.method == "sparse"
+    poles = sparse.poles_hz
+    # reference: scipy.linalg.eigvals of the dense pencil (QZ is good to ~1e-9 here)
+    reference = lightly_damped_in_sweep(system, grid[0], grid[-1])
+    assert reference.size == 14
+    assert_found(poles, reference)
+    # the same poles again, bit for bit: the start vector is fixed
+    assert np.array_equal(solve_module.solve(system, grid).poles_hz, poles)
+    top = peak(ResponseCurve.of(sparse))
+
+    # reference: the dense path on the same equations, its seeds from all the QZ poles
+    monkeypatch.setattr(solve_module, "DENSE_MAX", 10**6)
+    dense = solve_module.solve(system, grid)
+    assert dense.method != "sparse"
+    top_dense = peak(ResponseCurve.of(dense))
+    assert abs(top_dense.frequency_hz - branch_hz[7]) < 1e-3 * branch_hz[7]
+    assert top.value == pytest.approx(top_dense.value, abs=1e-9)
+    assert top.frequency_hz == pytest.approx(top_dense.frequency_hz, rel=1e-9)
+
+
+def test_sparse_poles_cover_the_cone_when_more_crowd_than_one_shift_may_ask_for() -> None:
+    # 60 sharp branches (Q = 40) and 20 broad ones (Q = 0.75 to 1, poles near the 45
+    # degree line) over 5-100 kHz: more lightly damped poles within reach of one shift
+    # than the 48 it may ask for, so sectors are halved. Called on the pencil directly.
+    from netcheck.solve import sparse_poles
+
+    sharp = np.geomspace(10e3, 100e3, 60)
+    broad = np.geomspace(5e3, 50e3, 20)
+    q = np.concatenate([np.full(60, 40.0), np.linspace(0.75, 1.0, 20)])
+    system = assemble(read_netlist(quillmere_comb(np.concatenate([sharp, broad]), q, 10)),
+                      "V1", "out")
+    found = sparse_poles(system.G.tocsc(), system.C.tocsc(), 1e3, 1e6)
+    # reference: scipy.linalg.eigvals of the dense pencil
+    reference = lightly_damped_in_sweep(system, 1e3, 1e6)
+    assert reference.size == 80
+    assert_found(found, reference)
+
+
+def test_sparse_poles_stop_at_the_shift_cap(monkeypatch: pytest.MonkeyPatch,
+                                            caplog: pytest.LogCaptureFixture) -> None:
+    # Checked against the contract in the sparse_poles docstring: no more factorisations
+    # than SPARSE_POLES_MAX_SHIFTS, and a debug message when the search stops short.
+    import logging
+
+    from netcheck import _sparse_poles as search
+
+    branch_hz = np.geomspace(10e3, 100e3, 60)
+    system = assemble(read_netlist(quillmere_comb(branch_hz, np.full(60, 40.0), 10)),
+                      "V1", "out")
+    factorisations = count_factorisations(monkeypatch)
+    monkeypatch.setattr(search, "SPARSE_POLES_MAX_SHIFTS", 3)
+    with caplog.at_level(logging.DEBUG, logger="netcheck._sparse_poles"):
+        found = search.sparse_poles(system.G.tocsc(), system.C.tocsc(), 1e3, 1e6)
+    assert len(factorisations) == 3
+    assert found.size > 0
+    assert any("stopped at 3 shifts" in r.getMessage() for r in caplog.records)
+
+
+def test_sparse_poles_of_a_long_rc_ladder_take_one_shift_per_decade_at_most(
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    # Uniform RC ladder, N sections of R and C, open at the end: its poles are
+    # s_m = -(2 - 2 cos((2m - 1) pi / (2N + 1))) / (RC), m = 1..N, the eigenvalues of
+    # its tridiagonal nodal matrix (standard result for the tridiagonal Toeplitz matrix
+    # with its last diagonal entry 1). All real: none is lightly damped, and a real pole
+    # never has to be inside a search disc, so there is at most one shift per decade of
+    # search radii (sparse_poles docstring) however many real poles crowd there.
+    from netcheck.solve import sparse_poles
+
+    n_sec, r, c = 2000, 1.0, 100e-12
+    lines = ["Quillmere Instruments QL-2000 sensor lead", "V1 n0 0 AC 1"]
+    for k in range(n_sec):
+        lines += [f"R{k} n{k} n{k + 1} {r!r}", f"C{k} n{k + 1} 0 {c!r}"]
+    system = assemble(read_netlist("\n".join(lines) + "\n"), "V1", f"n{n_sec}")
+    factorisations = count_factorisations(monkeypatch)
+    found = sparse_poles(system.G.tocsc(), system.C.tocsc(), 10.0, 1e6)
+    m = np.arange(1, n_sec + 1)
+    closed = -(2 - 2 * np.cos((2 * m - 1) * np.pi / (2 * n_sec + 1))) / (r * c) / (2 * np.pi)
+    assert found.size > 0
+    err = np.abs(found[:, None] - closed[None, :]).min(axis=1) / np.abs(found)
+    assert err.max() < 1e-9
+    assert 1 <= len(factorisations) <= math.ceil(math.log10(math.sqrt(2) * 1e6 / 10.0))
+
+
+def test_sparse_poles_find_the_antisymmetric_mode_of_a_symmetric_circuit() -> None:
+    # Two identical series L-C branches from `in`, each with R to ground, on a 100-section
+    # RC line: the differential mode (branch currents opposite, V(in) = 0) is a series RLC
+    # loop on its own, with poles s = -R/(2L) +- j sqrt(1/(LC) - (R/2L)^2) (series RLC
+    # closed form, textbook). The source cannot excite it, but it is a pole of the circuit
+    # (it shows once the twins differ, as in a Monte Carlo sample) and must be found.
+    from netcheck.solve import sparse_poles
+
+    lq, cq, rq = 10e-3, 10e-9, 2.0
+    lines = ["Quillmere Instruments twin resonator", "V1 src 0 AC 1", "RS src in 50",
+             f"LA in ma {lq!r}", f"CA ma a {cq!r}", f"RA a 0 {rq!r}",
+             f"LB in mb {lq!r}", f"CB mb b {cq!r}", f"RB b 0 {rq!r}", "RH in n0 1k"]
+    lines += [f"RL{i} n{i} n{i + 1} 1k\nCL{i} n{i + 1} 0 1n" for i in range(100)]
+    system = assemble(read_netlist("\n".join(lines) + "\n"), "V1", "a")
+    found = sparse_poles(system.G.tocsc(), system.C.tocsc(), 1e3, 1e5)
+    sigma, nu = -rq / (2 * lq), math.sqrt(1 / (lq * cq) - (rq / (2 * lq)) ** 2)
+    expected = complex(sigma, nu) / (2 * math.pi)
+    assert np.abs(found - expected).min() < 1e-9 * abs(expected)
