@@ -1,8 +1,11 @@
 """Measurements over many samples at once: the vectorised twins of the nominal ones.
 
 A :class:`BatchProbe` works on a :class:`~netcheck.sampling.SampleSet`: grid values
-first, plus each sample's lightly damped pole frequencies as candidates, then
-refinement of the best candidate inside the bracket of its neighbours. For gain on
+first, plus each sample's lightly damped pole and zero frequencies as candidates (for
+a sample solved directly, the nominal poles followed into it), then refinement of the
+best candidate inside the bracket of its neighbours. An edge is bracketed from the
+first grid point past the start below the level, or from an earlier seed below it (a
+narrow dip between grid points), as the nominal search does. For gain on
 samples with a pole–zero form, extremes and crossings are refined by Newton steps on
 the exact derivatives of the form, safeguarded by bisection; other quantities, and
 samples solved directly, use golden-section search and bisection. Every result that
@@ -193,19 +196,26 @@ class BatchProbe:
         return f, v
 
     def _seeds(self, lo: float, hi: float) -> tuple[np.ndarray, np.ndarray]:
-        """Per-sample pole frequencies (Hz) inside [lo, hi] with Q above 2, and their
-        relative half-widths; NaN-free (out-of-band entries are moved to ``lo``)."""
+        """Per-sample pole and zero frequencies (Hz) inside [lo, hi] with Q above 2, and
+        their relative half-widths; NaN-free (out-of-band entries are moved to ``lo``).
+
+        Cached per band."""
         key = ("seeds", lo, hi)
         if key in self._cache:
             return self._cache[key]
-        p = self.ss.poles
+        # the poles and zeros of the samples with a form (a zero near the axis is a
+        # narrow dip even between heavily damped poles); the nominal poles followed
+        # into each sample solved directly (:meth:`SampleSet.direct_seeds`)
+        p = np.concatenate([self.ss.poles, self.ss.zeros, self.ss.direct_seeds()], axis=1)
         if p.shape[1] == 0:
             empty = np.zeros((self.ss.S, 0))
+            self._cache[key] = (empty, empty)
             return empty, empty
         nu = np.abs(p.imag) * self.ss.w_scale / _TWO_PI
         with np.errstate(all="ignore"):
             rel = np.abs(p.real) / np.abs(p.imag)
-        keep = (nu > lo) & (nu < hi) & (rel < 0.25) & np.isfinite(nu)
+        # one of each conjugate pair (Im > 0); the other gives the same frequency
+        keep = (p.imag > 0) & (nu > lo) & (nu < hi) & (rel < 0.25) & np.isfinite(nu)
         if not keep.any():
             empty = np.zeros((self.ss.S, 0))
             self._cache[key] = (empty, empty)
@@ -339,7 +349,9 @@ class BatchProbe:
         return np.exp(x)
 
     def _edge(self, start_f: np.ndarray, level: np.ndarray, direction: str) -> np.ndarray:
-        """First crossing of ``level`` moving from ``start_f`` up or down; NaN if none."""
+        """First crossing of ``level`` moving from ``start_f`` up or down; NaN if none.
+
+        Bracketed by the grid (:meth:`_hidden_dips` adds dips between grid points)."""
         below = self.gain < level[:, None]
         f = self.grid
         if direction == "up":
@@ -357,6 +369,7 @@ class BatchProbe:
             a = f[idx]
             b = np.where(idx < f.size - 1, f[np.minimum(idx + 1, f.size - 1)], f[-1])
             b = np.minimum(b, start_f)
+        self._hidden_dips(start_f, level, direction == "up", found, a, b)
         out = np.full(self.ss.S, np.nan)
         form = np.flatnonzero(found & ~self.ss.fallback)
         fall = np.flatnonzero(found & self.ss.fallback)
@@ -365,6 +378,52 @@ class BatchProbe:
         if fall.size:
             out[fall] = self._bisect(a[fall], b[fall], level[fall], fall)
         return out
+
+    def _hidden_dips(self, start_f: np.ndarray, level: np.ndarray, up: bool,
+                     found: np.ndarray, a: np.ndarray, b: np.ndarray) -> None:
+        """Move the brackets (a, b) of :meth:`_edge` to a crossing hidden between grid
+        points, in place.
+
+        A narrow dip (a trap, a notch) can fall below the level between two grid points
+        that are both above it; the nominal search finds it from the seeds and the
+        exact slope. Here each sample's seeds between the start and its first grid
+        point below the level (the end of the sweep if none) are tried: at the first
+        one below the level, moving away from the start, the crossing is bracketed by
+        the grid point (or the start) before it and the seed itself.
+        """
+        seeds, seed_g = self._sweep_seeds()
+        if not seeds.shape[1]:
+            return
+        f = self.grid
+        if up:
+            stop = np.where(found, b, f[-1])
+            inside = (seeds > start_f[:, None]) & (seeds < stop[:, None])
+        else:
+            stop = np.where(found, a, f[0])
+            inside = (seeds < start_f[:, None]) & (seeds > stop[:, None])
+        hit = inside & (seed_g < level[:, None])
+        rows = np.flatnonzero(hit.any(axis=1))
+        if not rows.size:
+            return
+        key = np.where(hit[rows], seeds[rows], np.inf if up else -np.inf)
+        fs = key.min(axis=1) if up else key.max(axis=1)
+        if up:  # the grid points between the start and the seed are above the level
+            k = np.searchsorted(f, fs) - 1
+            a[rows] = np.where(k >= 0, np.maximum(f[np.maximum(k, 0)], start_f[rows]),
+                               start_f[rows])
+            b[rows] = fs
+        else:
+            k = np.searchsorted(f, fs, side="right")
+            a[rows] = fs
+            b[rows] = np.where(k < f.size, np.minimum(f[np.minimum(k, f.size - 1)],
+                                                      start_f[rows]), start_f[rows])
+        found[rows] = True
+
+    def _sweep_seeds(self) -> tuple[np.ndarray, np.ndarray]:
+        """Each sample's seeds over the whole sweep and the gain there (cached)."""
+        lo, hi = float(self.grid[0]), float(self.grid[-1])
+        _, _, _, seeds, _, seed_g = self._candidates("gain_db", lo, hi)
+        return seeds, seed_g
 
     def _peak_edge(self, band: tuple[float, float] | None, reference_db: float | None,
                    level_db: float | None, direction: str) -> np.ndarray:
@@ -375,7 +434,11 @@ class BatchProbe:
             pk = self.peak(*(band or (None, None)))
             ref = pk.value if reference_db is None else np.full(self.ss.S, reference_db)
             level = ref - (HALF_POWER_DB if level_db is None else level_db)
-            self._cache[key] = self._edge(pk.frequency_hz, level, direction)
+            edge = self._edge(pk.frequency_hz, level, direction)
+            # as in the nominal corner: a peak not above the level has no edge (a fixed
+            # reference above the pass-band), not the first grid point past the peak
+            edge[~(pk.value > level)] = np.nan
+            self._cache[key] = edge
         return self._cache[key]
 
     def resonance(self, level_db: float | None, band: tuple[float, float] | None

@@ -5,7 +5,8 @@ put in pole–zero form from the eigenvalues of the shift-inverted pencil
 M = (G + s₀C)⁻¹C (eigenvalue μ ↔ pole s₀ − 1/μ), which numpy evaluates for all
 samples in one stacked call; zeros come from the same transform of the pencil
 bordered with b and l. Each sample's form is checked against direct solves at a
-few frequencies, and a sample that disagrees is solved directly instead.
+few frequencies, and a sample that disagrees is solved directly instead; such
+samples get pole seeds by following the nominal poles (:meth:`SampleSet.direct_seeds`).
 
 Gain comes from the form in real arithmetic, |jω − r|² = (ω − Im r)² + (Re r)² per
 root, without complex temporaries, in row chunks that stay in cache; the form also
@@ -17,6 +18,8 @@ References
 ----------
 .. [1] C.-W. Ho, A. E. Ruehli and P. A. Brennan, "The modified nodal approach to
    network analysis", IEEE Trans. Circuits and Systems 22(6), 1975.
+.. [2] Y. Saad, *Numerical Methods for Large Eigenvalue Problems*, 2nd ed., SIAM, 2011
+   (inverse iteration and Rayleigh-quotient iteration).
 """
 
 from __future__ import annotations
@@ -25,11 +28,12 @@ import math
 from typing import Mapping
 
 import numpy as np
+import scipy.linalg as sla
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
 from .assemble import Stamper, System, assemble_batch
-from .solve import DENSE_MAX
+from .solve import DENSE_MAX, sparse_poles
 
 
 __all__ = ["SampleSet", "SparseBatch"]
@@ -43,8 +47,15 @@ _EPS = float(np.finfo(float).eps)
 #: systems with more unknowns take the per-sample sparse path (see :class:`SparseBatch`),
 #: as the nominal solve does
 SPARSE_ABOVE = DENSE_MAX
+#: nominal poles followed into each directly solved sample (the least damped), steps
+#: per pole and sample, and the damping |Re p|/|Im p| below which one is followed
+SEED_POLES_MAX = 24
+SEED_STEPS = 4
+_SEED_REL = 0.3
+_SEED_CONVERGED = 1e-4  # a pole moving by less than this of its damping |Re p| stops
 
 Rows = slice | np.ndarray  # rows of the per-sample root arrays
+_LAST_SEEDS: tuple | None = None  # ((system, f_lo, f_hi), nominal seed poles)
 
 
 class SampleSet:
@@ -72,12 +83,12 @@ class SampleSet:
         self.memory_bytes = memory_bytes
         # large systems: one sparse pattern, every sample solved directly by SuperLU
         self.sparse = SparseBatch(system, values, samples) if self.n > SPARSE_ABOVE else None
+        # counts of finite roots and the poles (rad/s, for direct_seeds) from the nominal QZ
         if self.sparse is None:
             self.G, self.C = assemble_batch(system, values, samples)
-            self.counts = _root_counts(system, self.grid)
+            self.counts, self._nominal_s = _nominal_form(system, self.grid)
         else:
-            self.G = self.C = None
-            self.counts = None
+            self.G = self.C = self.counts = self._nominal_s = None
         self._build_forms()
         # real views of the roots for |jω − r|² = (ω − Im r)² + (Re r)²
         self._zi, self._zr2 = self.zeros.imag.copy(), self.zeros.real ** 2
@@ -101,6 +112,7 @@ class SampleSet:
         self.fallback[np.asarray(rows, int)] = True
         self.direct_rows = np.flatnonzero(self.fallback)
         self.form_rows = np.flatnonzero(~self.fallback)
+        self._seed_cache: np.ndarray | None = None
 
     # -- direct solves ------------------------------------------------------------
     def _chunk(self, per_sample_bytes: int) -> int:
@@ -356,6 +368,117 @@ class SampleSet:
         with np.errstate(all="ignore"):
             return -np.angle(hp / hm) / (_TWO_PI * 2 * d)
 
+    # -- pole seeds of directly solved samples -------------------------------------
+    def direct_seeds(self) -> np.ndarray:
+        """Lightly damped poles (S, P) of the samples in ``direct_rows``, normalised like
+        ``poles``, NaN in the other rows: their seeds, as a form's roots are.
+
+        The nominal circuit's least damped poles (Im p > 0, |Re p|/|Im p| < 0.3,
+        |Im p|/2π within a factor 1.5 of the sweep; at most :data:`SEED_POLES_MAX`) are
+        followed into each direct sample by Rayleigh-quotient iteration [2]_ on the
+        shift-inverted pencil: from the nominal pole s and eigenvector x,
+        w = (G + sC)⁻¹Cx, μ = xᴴw/xᴴx, s ← s − 1/μ, x ← w/‖w‖, at most
+        :data:`SEED_STEPS` times, until s moves by less than 1e-4 of |Re s|
+        (quadratic convergence: typically three steps).
+
+        Cost, on first use: the nominal poles (its QZ if made, else one QZ of the nominal
+        pencil, or :func:`netcheck.solve.sparse_poles` when sparse; kept for the next
+        set of the same system), 2·P factorisations for their eigenvectors, and at most
+        R·P·SEED_STEPS (≤ 96 R) factorisations of the n×n pencil for R direct samples.
+        """
+        if self._seed_cache is not None:
+            return self._seed_cache
+        rows = self.direct_rows
+        s0 = self._nominal_seed_poles() if rows.size else np.zeros(0, complex)
+        P = s0.size
+        out = self._seed_cache = np.full((self.S, P), np.nan, dtype=complex)
+        if P:
+            x0, flat = self._nominal_vectors(s0), np.empty(rows.size * P, dtype=complex)
+            block = self._chunk(self.n * 128)
+            for i in range(0, flat.size, block):  # (sample, pole) pairs, memory-bounded
+                k = np.arange(i, min(flat.size, i + block))
+                r, s, x, act = rows[k // P], s0[k % P], x0[k % P], np.arange(k.size)
+                for _ in range(SEED_STEPS):
+                    if act.size:
+                        w = self._pair_solve(r[act], s[act], x[act])
+                        s[act], x[act], more = _rq_update(s[act], x[act], w)
+                        act = act[more]
+                flat[k] = s
+            out[rows] = flat.reshape(rows.size, P) / self.w_scale
+        return out
+
+    def _nominal_seed_poles(self) -> np.ndarray:
+        """The nominal poles (rad/s) :meth:`direct_seeds` follows (the last system's are
+        kept: Monte Carlo builds a set per chunk of samples of one system)."""
+        global _LAST_SEEDS
+        key, last = (self.system, float(self.grid[0]), float(self.grid[-1])), _LAST_SEEDS
+        if last is not None and last[0] == key:  # one read: safe if threads share it
+            return last[1].copy()
+        s = self._nominal_s
+        if s is None and self.sparse is None:
+            g, c = self.system.G.toarray(), self.system.C.toarray()
+            try:  # QZ of the nominal pencil (G, −C w): poles normalised by w
+                ab = sla.eigvals(g, -c * self.w_scale, homogeneous_eigvals=True,
+                                 check_finite=False)
+            except (np.linalg.LinAlgError, ValueError):
+                return np.zeros(0, complex)
+            fin = np.abs(ab[1]) * 1e12 > np.abs(ab[0])
+            s = ab[0][fin] / ab[1][fin] * self.w_scale
+        elif s is None:
+            s = _TWO_PI * sparse_poles(self.system.G, self.system.C,
+                                       float(self.grid[0]), float(self.grid[-1]))
+        s = np.asarray(s, complex)
+        s = s[np.isfinite(s) & (s.imag > 0)]
+        nu, rel = s.imag / _TWO_PI, np.abs(s.real) / s.imag
+        keep = (rel < _SEED_REL) & (nu > self.grid[0] / 1.5) & (nu < self.grid[-1] * 1.5)
+        kept: list[complex] = []  # one of each (the sparse search may find a pole twice)
+        for p in s[keep][np.argsort(rel[keep], kind="stable")]:
+            if len(kept) < SEED_POLES_MAX and all(abs(p - q) > 1e-6 * abs(p) for q in kept):
+                kept.append(complex(p))
+        out = np.array(kept, dtype=complex)
+        _LAST_SEEDS = (key, out.copy())
+        return out
+
+    def _nominal_vectors(self, s0: np.ndarray) -> np.ndarray:
+        """Nominal eigenvectors at the poles ``s0``: two inverse-iteration steps each."""
+        g, c = self.system.G.tocsc(), self.system.C.tocsc()
+        rng = np.random.default_rng(12345)  # fixed start vectors: reproducible runs
+        x = _unit(rng.standard_normal((s0.size, self.n))
+                  + 1j * rng.standard_normal((s0.size, self.n)))
+        for k in range(s0.size):
+            try:
+                lu = spla.splu((g + s0[k] * c).tocsc(), permc_spec="COLAMD")
+            except RuntimeError:
+                continue  # exactly singular there: keep the start vector
+            for _ in range(2):
+                x[k] = _unit(lu.solve(c @ x[k]))
+        return np.nan_to_num(x)
+
+    def _pair_solve(self, rows: np.ndarray, s: np.ndarray, x: np.ndarray) -> np.ndarray:
+        """w = (G + sC)⁻¹Cx with each sample ``rows[i]``'s matrices at s[i], for x[i];
+        NaN where singular."""
+        if self.sparse is not None:
+            w = np.full(x.shape, np.nan, dtype=complex)
+            for i, r in enumerate(rows):
+                c = sp.csc_matrix((self.sparse.c[r], self.sparse.indices, self.sparse.indptr),
+                                  shape=(self.n, self.n))
+                try:
+                    w[i] = self.sparse.factor_at(int(r), complex(s[i])).solve(c @ x[i])
+                except RuntimeError:
+                    pass
+            return w
+        w = np.empty(x.shape, dtype=complex)
+        step = self._chunk(self.n * self.n * 48)
+        for i in range(0, rows.size, step):
+            c = self.C[rows[i:i + step]]
+            a = self.G[rows[i:i + step]] + s[i:i + step, None, None] * c
+            try:
+                w[i:i + step] = np.linalg.solve(
+                    a, np.einsum("mij,mj->mi", c, x[i:i + step])[..., None])[..., 0]
+            except np.linalg.LinAlgError:  # a pole hit exactly: these shifts stay
+                w[i:i + step] = np.nan
+        return w
+
 
 class SparseBatch:
     """S samples of G + jωC on one sparsity pattern, for systems too large for dense arrays.
@@ -384,7 +507,12 @@ class SparseBatch:
 
     def factor(self, row: int, f_hz: float):
         """SuperLU factors of sample ``row``'s G + j2πfC (RuntimeError when singular)."""
-        data = self.g[row] + (1j * _TWO_PI * f_hz) * self.c[row]
+        return self.factor_at(row, 1j * _TWO_PI * f_hz)
+
+    def factor_at(self, row: int, s: complex):
+        """SuperLU factors of sample ``row``'s G + sC at complex s (RuntimeError when
+        singular)."""
+        data = self.g[row] + s * self.c[row]
         a = sp.csc_matrix((data, self.indices, self.indptr), shape=(self.n, self.n))
         return spla.splu(a, permc_spec="COLAMD")
 
@@ -442,18 +570,38 @@ def _shape_rows(ss: SampleSet, f: np.ndarray, rows: Rows) -> np.ndarray:
     return num
 
 
-def _root_counts(system: System, grid: np.ndarray) -> tuple[int, int] | None:
-    """Numbers of finite poles and zeros of the nominal circuit (QZ), or None."""
+def _nominal_form(system: System, grid: np.ndarray
+                  ) -> tuple[tuple[int, int] | None, np.ndarray | None]:
+    """Numbers of finite poles and zeros of the nominal circuit (QZ) and its poles
+    (rad/s); (None, None) when its pole–zero form is not trusted."""
     from .solve import DenseEngine, PoleZeroEngine
 
     try:
         with np.errstate(all="ignore"):
             eng = PoleZeroEngine.build(DenseEngine(system), grid)
     except (np.linalg.LinAlgError, ValueError):
-        return None
+        eng = None
     if eng is None:
-        return None
-    return int(eng.poles.size), int(eng.zeros.size)
+        return None, None
+    return (int(eng.poles.size), int(eng.zeros.size)), eng.poles * eng.w_scale
+
+
+def _unit(x: np.ndarray) -> np.ndarray:
+    return x / np.linalg.norm(x, axis=-1, keepdims=True)
+
+
+def _rq_update(s: np.ndarray, x: np.ndarray, w: np.ndarray
+               ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """One Rayleigh-quotient step from w = (G + sC)⁻¹Cx: the new shifts and unit
+    vectors, and which are still moving (a failed step keeps s and stops)."""
+    with np.errstate(all="ignore"):
+        mu = np.einsum("mi,mi->m", x.conj(), w) / np.einsum("mi,mi->m", x.conj(), x)
+        ds = -1.0 / mu
+        ok = np.isfinite(ds) & np.isfinite(w).all(axis=1)
+        s_new = np.where(ok, s + ds, s)
+        x_new = np.where(ok[:, None], _unit(w), x)
+    more = ok & (np.abs(ds) > _SEED_CONVERGED * np.abs(s_new.real) + 1e-12 * np.abs(s_new))
+    return s_new, x_new, more
 
 
 def _db(h: np.ndarray) -> np.ndarray:
