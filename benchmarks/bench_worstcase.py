@@ -22,11 +22,11 @@ sensitivities, relative to each row's largest. Nothing is asserted.
 from __future__ import annotations
 
 import argparse
-import math
 import tempfile
 from pathlib import Path
 
 import _harness
+from bench_sweep import butterworth_ladder  # the same prototype ladder, scaled
 import numpy as np
 
 from netcheck.assemble import assemble
@@ -42,26 +42,9 @@ from netcheck.worstcase import _central_differences
 R0, FC = 600.0, 20e3
 
 
-def ladder(order: int) -> str:
-    """Butterworth prototype g_k = 2 sin((2k − 1)π/2n), equal terminations (Matthaei,
-    Young & Jones 1964, eq. 4.05-1), scaled to R0 and FC; shunt C first."""
-    wc = 2 * math.pi * FC
-    cards, node = [f"RS in n1 {R0!r}"], 1
-    for k in range(1, order + 1):
-        g = 2 * math.sin((2 * k - 1) * math.pi / (2 * order))
-        if k % 2:
-            cards.append(f"C{k} n{node} 0 {g / (R0 * wc)!r}")
-        else:
-            cards.append(f"L{k} n{node} n{node + 1} {g * R0 / wc!r}")
-            node += 1
-    out = f"n{node}"
-    return "\n".join([f"Quillmere Instruments ladder, order {order}", "VIN in 0 AC 1",
-                      *cards, f"RL {out} 0 {R0!r}", ".end"]) + "\n", out
-
-
 def spec(netlist: str, out: str) -> str:
     return f"""netlist = "{netlist}"
-source = "VIN"
+source = "V1"
 output = "{out}"
 [sweep]
 start = "1k"
@@ -102,7 +85,7 @@ def main(argv: list[str] | None = None) -> None:
     print(f"{'order':>5} {'parts':>5} {'adjoint (a)':>13} {'central diff (b)':>17} "
           f"{'(b)/(a)':>8} {'max rel. diff':>14}")
     for order in args.orders:
-        text, out = ladder(order)
+        text, out = butterworth_ladder(order, FC, R0)
         root = Path(tmp.name)
         (root / f"l{order}.cir").write_text(text, "utf-8")
         path = root / f"l{order}.toml"

@@ -268,7 +268,8 @@ def _tolerance(spec: Spec, circuit: Circuit, system: System, nominal: tuple,
                                 "tolerance ([tolerances] default/parts)", "warning", spec.path))
         return rows, block, envelope, cautions
     if "monte_carlo" in analysis.modes:
-        mc, mc_rows, envelope = monte_carlo(system, spec, parts, tol, analysis)
+        mc, mc_rows, envelope = monte_carlo(system, spec, parts, tol, analysis,
+                                            probe.curve.response)
         block["monte_carlo"] = mc
         rows.extend(mc_rows)
     if "worst_case" in analysis.modes:

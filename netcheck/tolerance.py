@@ -304,9 +304,13 @@ def run_samples(system: System, spec: Spec, values: dict[str, np.ndarray], sampl
 
 
 def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]],
-                tol: Tolerances, analysis: Analysis) -> tuple[dict[str, Any], list[LimitResult],
-                                                              tuple[np.ndarray, np.ndarray]]:
-    """Monte Carlo yield: the JSON block, result rows (yield limits) and the gain envelope."""
+                tol: Tolerances, analysis: Analysis, nominal: Any = None
+                ) -> tuple[dict[str, Any], list[LimitResult], tuple[np.ndarray, np.ndarray]]:
+    """Monte Carlo yield: the JSON block, result rows (yield limits) and the gain envelope.
+
+    ``nominal`` is the nominal :class:`~netcheck.solve.Response` on the sweep grid when
+    the caller has it (it is solved otherwise).
+    """
     rng = np.random.default_rng(analysis.seed)
     S = analysis.samples
     memory = analysis.memory_mib * 2**20
@@ -326,7 +330,7 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
     stress_block, stress_ok = None, {}
     if spec.table("stress") is not None:
         stress_block, stress_rows, stress_ok = stress_over_samples(
-            system, spec, values, S, analysis.memory_mib * 2**20)
+            system, spec, values, S, analysis.memory_mib * 2**20, nominal=nominal)
         rows.extend(stress_rows)
     passed_all = np.ones(S, bool)
     lim_json = []
@@ -424,7 +428,8 @@ def _full_solutions(system: System, values: dict[str, np.ndarray], rows: np.ndar
 
 
 def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray],
-                        samples: int, memory: int, candidates: int = 5
+                        samples: int, memory: int, candidates: int = 5,
+                        nominal: Any = None
                         ) -> tuple[list[dict[str, Any]], list[LimitResult],
                                    dict[str, tuple[np.ndarray, np.ndarray, np.ndarray]]]:
     """The worst part stress over the Monte Carlo samples, and which samples pass it.
@@ -448,7 +453,8 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
 
     limits = parse_stress(spec.table("stress"), spec.path, stress_lines(spec.text))
     grid = spec.sweep.grid()
-    nominal = solve(system, grid)
+    if nominal is None:
+        nominal = solve(system, grid)
     # the screen is denser around the nominal resonances, over the spread of the samples
     spread = max((float(np.max(np.abs(v / system.circuit.element(n).value - 1.0)))
                   for n, v in values.items()), default=0.0)

@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 from scipy import signal
 
+from circuits import butterworth_ladder, chebyshev_g, ladder_netlist
 from netcheck.evaluate import check_spec
 from netcheck.result import SpecResult, Status
 
@@ -79,24 +80,6 @@ class TestSeriesRLC:
         assert result.status is Status.PASS
 
 
-def butterworth_ladder(order: int, fc: float, r: float = 50.0) -> tuple[str, str]:
-    """Doubly terminated Butterworth LC ladder, shunt-C first (copy of the builder in
-    tests/test_solve.py). Prototype g_k = 2 sin((2k-1) pi / 2n) (Butterworth 1930; the
-    ladder values as tabulated in Matthaei, Young & Jones 1964, §4.05, from memory)."""
-    wc = TWO_PI * fc
-    lines = ["Quillmere Instruments Butterworth ladder", "V1 in 0 AC 1", f"RS in n1 {r!r}"]
-    node = 1
-    for k in range(1, order + 1):
-        g = 2 * math.sin((2 * k - 1) * math.pi / (2 * order))
-        if k % 2:
-            lines.append(f"C{k} n{node} 0 {g / (r * wc)!r}")
-        else:
-            lines.append(f"L{k} n{node} n{node + 1} {g * r / wc!r}")
-            node += 1
-    lines.append(f"RL n{node} 0 {r!r}")
-    return "\n".join(lines) + "\n", f"n{node}"
-
-
 class TestButterworth:
     # |H(j w)|^2 = H0^2 / (1 + (w/wc)^(2n)) (Butterworth 1930; any filter handbook), so the
     # gain is half the pass-band power exactly at the design corner wc.
@@ -121,32 +104,11 @@ class TestButterworth:
 
 def chebyshev_ladder(order: int, ripple_db: float, fc: float, r: float = 50.0
                      ) -> tuple[str, str]:
-    """Doubly terminated Chebyshev type I LC ladder (odd order: equal terminations).
-
-    Prototype values from the recursion (Matthaei, Young & Jones 1964, §4.05, eqs. 4.05-3
-    to 4.05-5, from memory): beta = ln coth(A/17.37), gamma = sinh(beta/2n),
-    a_k = sin((2k-1)pi/2n), b_k = gamma^2 + sin^2(k pi/n), g_1 = 2 a_1/gamma,
-    g_k = 4 a_(k-1) a_k / (b_(k-1) g_(k-1)). The test checks them against scipy.signal.
-    """
+    """Doubly terminated Chebyshev type I LC ladder (odd order: equal terminations);
+    prototype values from :func:`circuits.chebyshev_g`, checked against scipy.signal."""
     assert order % 2 == 1
-    beta = math.log(1 / math.tanh(ripple_db / (40 / math.log(10))))
-    gamma = math.sinh(beta / (2 * order))
-    a = [math.sin((2 * k - 1) * math.pi / (2 * order)) for k in range(1, order + 1)]
-    b = [gamma ** 2 + math.sin(k * math.pi / order) ** 2 for k in range(1, order + 1)]
-    g = [2 * a[0] / gamma]
-    for k in range(1, order):
-        g.append(4 * a[k - 1] * a[k] / (b[k - 1] * g[k - 1]))
-    wc = TWO_PI * fc
-    lines = ["Quillmere Instruments Chebyshev ladder", "V1 in 0 AC 1", f"RS in n1 {r!r}"]
-    node = 1
-    for k, gk in enumerate(g, 1):
-        if k % 2:
-            lines.append(f"C{k} n{node} 0 {gk / (r * wc)!r}")
-        else:
-            lines.append(f"L{k} n{node} n{node + 1} {gk * r / wc!r}")
-            node += 1
-    lines.append(f"RL n{node} 0 {r!r}")
-    return "\n".join(lines) + "\n", f"n{node}"
+    return ladder_netlist(chebyshev_g(order, ripple_db), fc, r,
+                          "Quillmere Instruments Chebyshev ladder")
 
 
 class TestChebyshev:

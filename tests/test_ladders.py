@@ -8,47 +8,8 @@ import numpy as np
 import pytest
 from scipy import signal
 
+from circuits import chebyshev_g, ladder_netlist
 from netcheck import read_netlist
-
-
-def chebyshev_g(order: int, ripple_db: float) -> list[float]:
-    """Chebyshev type I low-pass prototype element values g_1..g_n (g_0 = 1).
-
-    Matthaei, Young & Jones, "Microwave Filters, Impedance-Matching Networks, and
-    Coupling Structures" (1964), eq. 4.05-5; the same recursion in Williams & Taylor,
-    "Electronic Filter Design Handbook" (from memory):
-
-        beta  = ln(coth(L_Ar / 17.37))          (17.37 = 40 / ln 10, kept exact here)
-        gamma = sinh(beta / 2n)
-        a_k   = sin((2k - 1) pi / 2n),  b_k = gamma^2 + sin^2(k pi / n)
-        g_1   = 2 a_1 / gamma,  g_k = 4 a_(k-1) a_k / (b_(k-1) g_(k-1))
-
-    For odd n the load g_(n+1) = 1, so both terminations are equal.
-    """
-    beta = math.log(1.0 / math.tanh(ripple_db / (40.0 / math.log(10.0))))
-    gamma = math.sinh(beta / (2 * order))
-    a = [math.sin((2 * k - 1) * math.pi / (2 * order)) for k in range(1, order + 1)]
-    b = [gamma ** 2 + math.sin(k * math.pi / order) ** 2 for k in range(1, order + 1)]
-    g = [2 * a[0] / gamma]
-    for k in range(2, order + 1):
-        g.append(4 * a[k - 2] * a[k - 1] / (b[k - 2] * g[k - 2]))
-    return g
-
-
-def ladder_netlist(g: list[float], fc: float, r: float) -> tuple[str, str]:
-    """Doubly terminated ladder, shunt C first: C_k = g_k/(R wc), L_k = g_k R/wc."""
-    wc = 2 * math.pi * fc
-    lines = ["Quillmere Instruments - Chebyshev ladder under test", "VIN in 0 AC 1",
-             f"RSRC in n1 {r!r}"]
-    node = 1
-    for k, gk in enumerate(g, start=1):
-        if k % 2:
-            lines.append(f"C{k} n{node} 0 {gk / (r * wc)!r}")
-        else:
-            lines.append(f"L{k} n{node} n{node + 1} {gk * r / wc!r}")
-            node += 1
-    lines.append(f"RLOAD n{node} 0 {r!r}")
-    return "\n".join(lines) + "\n", f"n{node}"
 
 
 class TestChebyshevPrototype:
@@ -68,7 +29,7 @@ class TestChebyshevLadder:
         fc, r = 10e3, 600.0
         text, out = ladder_netlist(chebyshev_g(order, ripple), fc, r)
         f = np.logspace(2, 6, 1500)
-        resp = read_netlist(text).ac("VIN", out, freqs=f)
+        resp = read_netlist(text).ac("V1", out, freqs=f)
         # Independent reference: scipy.signal.cheby1(analog=True) (ripple band edge at
         # wc, odd order so |H(0)| = 1) evaluated with scipy.signal.freqs. Equal source
         # and load resistances halve the voltage: -20 log10 2 = -6.02 dB.
@@ -93,7 +54,7 @@ class TestChebyshevLadder:
         fc = 10e3
         text, out = ladder_netlist(chebyshev_g(order, ripple), fc, 50.0)
         f = np.logspace(3, 5, 400)
-        resp = read_netlist(text).ac("VIN", out, freqs=f)
+        resp = read_netlist(text).ac("V1", out, freqs=f)
         b, a = signal.cheby1(order, ripple, 2 * math.pi * fc, analog=True)
         s = 2j * math.pi * f
         dlog = (np.polyval(np.polyder(b), s) / np.polyval(b, s)

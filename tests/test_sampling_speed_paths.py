@@ -10,13 +10,12 @@ import pytest
 import sympy as sp
 from scipy import signal
 
-from circuits import C, L, R
+from circuits import C, L, R, butterworth_g, chebyshev_g, ladder_netlist
 from circuits import SERIES_RLC
 from netcheck import read_netlist, sampling
 from netcheck.assemble import assemble
 from netcheck.sample_probe import BatchProbe
 from netcheck.sampling import SampleSet
-from test_ladders import chebyshev_g, ladder_netlist
 
 HALF_POWER = 10.0 * math.log10(2.0)
 
@@ -30,7 +29,7 @@ def _scaled_ladder(g: list[float], fc: float, r: float, u: np.ndarray, f: np.nda
     """
     text, out = ladder_netlist(g, fc, r)
     ckt = read_netlist(text)
-    system = assemble(ckt, "VIN", out)
+    system = assemble(ckt, "V1", out)
     values = {e.name: e.value / u for e in ckt.elements if e.letter in "LC"}
     return SampleSet(system, values, u.size, f)
 
@@ -38,11 +37,6 @@ def _scaled_ladder(g: list[float], fc: float, r: float, u: np.ndarray, f: np.nda
 def _rlc(lv: np.ndarray, cv: np.ndarray, f: np.ndarray) -> SampleSet:
     system = assemble(read_netlist(SERIES_RLC), "V1", "out")
     return SampleSet(system, {"L1": lv, "C1": cv}, lv.size, f)
-
-
-def _butterworth_g(n: int) -> list[float]:
-    # g_k = 2 sin((2k - 1)π/(2n)): Matthaei, Young & Jones (1964), eq. (4.05-1)
-    return [2 * math.sin((2 * k - 1) * math.pi / (2 * n)) for k in range(1, n + 1)]
 
 
 def _butterworth_db(f: np.ndarray, fc: np.ndarray, n: int) -> np.ndarray:
@@ -59,7 +53,7 @@ class TestRealArithmeticGain:
         fc = 20e3
         u = np.random.default_rng(3).uniform(0.8, 1.25, 12)
         f = np.logspace(3, np.log10(top), 121)
-        ss = _scaled_ladder(_butterworth_g(n), fc, 600.0, u, f)
+        ss = _scaled_ladder(butterworth_g(n), fc, 600.0, u, f)
         assert ss.direct_rows.size == 0
         ref = _butterworth_db(f[None, :], fc * u[:, None], n)
         assert ref.min() < -200  # deep into the stop-band, where cancellation would show
@@ -87,7 +81,7 @@ class TestRealArithmeticGain:
         n, fc = 5, 1e3
         u = np.array([0.9, 1.0, 1.1])
         f = np.logspace(1, 5, 41)
-        ss = _scaled_ladder(_butterworth_g(n), fc, 50.0, u, f)
+        ss = _scaled_ladder(butterworth_g(n), fc, 50.0, u, f)
         real = sampling._factor_blocks
         hit = []
 
@@ -120,7 +114,7 @@ class TestPoles:
     def test_ladder_poles_are_butterworth_poles(self):
         n, fc = 7, 20e3
         u = np.random.default_rng(7).uniform(0.9, 1.1, 5)
-        ss = _scaled_ladder(_butterworth_g(n), fc, 600.0, u, np.logspace(3, 6, 61))
+        ss = _scaled_ladder(butterworth_g(n), fc, 600.0, u, np.logspace(3, 6, 61))
         # the source node and source current carry no capacitance: the eigenproblem
         # is formed on the remaining columns only
         assert (~np.any(ss.C != 0, axis=(0, 1))).sum() == 2

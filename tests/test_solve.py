@@ -8,6 +8,7 @@ import numpy as np
 import pytest
 from scipy import signal
 
+from circuits import butterworth_ladder
 from netcheck import read_netlist
 from netcheck.assemble import System, assemble
 from netcheck.solve import DenseEngine, SparseEngine
@@ -59,26 +60,6 @@ class TestSeriesRLC:
         # dH/dw of the closed form: -R j(L + 1/(w^2 C)) / (R + jX)^2
         dh_dw = -R * 1j * (L + 1 / (w * w * C)) / (R + 1j * (w * L - 1 / (w * C))) ** 2
         np.testing.assert_allclose(dh, dh_dw * 2 * np.pi, rtol=1e-9)
-
-
-def butterworth_ladder(order: int, fc: float, r: float = 50.0) -> tuple[str, str]:
-    """Doubly terminated Butterworth LC ladder, shunt-C first.
-
-    Prototype values g_k = 2 sin((2k-1) pi / (2n)) (Matthaei, Young & Jones 1964, §4.05;
-    from memory), impedance-scaled to r and frequency-scaled to fc.
-    """
-    wc = 2 * np.pi * fc
-    lines = ["butterworth ladder", "V1 in 0 AC 1", f"RS in n1 {r!r}"]
-    node = 1
-    for k in range(1, order + 1):
-        g = 2 * math.sin((2 * k - 1) * math.pi / (2 * order))
-        if k % 2:
-            lines.append(f"C{k} n{node} 0 {g / (r * wc)!r}")
-        else:
-            lines.append(f"L{k} n{node} n{node + 1} {g * r / wc!r}")
-            node += 1
-    lines.append(f"RL n{node} 0 {r!r}")
-    return "\n".join(lines) + "\n", f"n{node}"
 
 
 class TestButterworthLadder:
