@@ -248,7 +248,8 @@ class DaskExecutor:
         try:
             from distributed import Client
         except ImportError as err:  # pragma: no cover - depends on the install
-            raise SpecError("--cluster needs dask distributed: pip install 'netcheck[cluster]'",
+            raise SpecError("--cluster needs Dask distributed, which is not installed: run "
+                            "pip install '.[cluster]' in the netcheck checkout",
                             code="NC200") from err
         try:
             client = Client(self.address, timeout="20s", set_as_default=False)

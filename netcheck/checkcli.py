@@ -157,6 +157,9 @@ def run_check(args: argparse.Namespace) -> int:
     from .render import RenderOptions, get_renderer, render_to
     from .result import CheckResult, Status
 
+    if args.pdf or args.pdf_combined:  # say what is missing before any work is done
+        from .report.pdf import require_libraries
+        require_libraries()
     specs, missing = find_specs(args.paths)
     for m in missing:
         print(f"{m}: error NC200: no such file or directory", file=sys.stderr)

@@ -9,10 +9,11 @@ from .source import Span, format_caret
 __all__ = [
     "NetcheckError", "NetlistSyntaxError", "ElaborationError", "SpecError",
     "SingularCircuitError", "MeasurementError", "RenderError", "NetcheckWarning",
-    "Diagnostic", "CODES",
+    "Diagnostic", "CODES", "INTERNAL_CODE",
 ]
 
-#: Stable diagnostic codes. NC1xx netlist, NC2xx spec, NC3xx solve/measure, NC4xx output.
+#: Stable diagnostic codes. NC1xx netlist, NC2xx spec, NC3xx solve/measure, NC4xx output
+#: and runs, NC5xx netcheck itself.
 CODES: dict[str, str] = {
     "NC100": "netlist syntax error",
     "NC101": "bad value or expression",
@@ -30,6 +31,8 @@ CODES: dict[str, str] = {
     "NC113": "cut-set of current sources",
     "NC114": "bad coupling",
     "NC115": "unknown node",
+    "NC116": "design over a size budget (elements, nesting depth)",
+    "NC117": "input file unusable (not a regular file, too large, not UTF-8 text)",
     "NC150": "unknown directive (warning)",
     "NC151": "probable milli/mega mix-up (warning)",
     "NC152": "node with one connection (warning)",
@@ -39,14 +42,25 @@ CODES: dict[str, str] = {
     "NC201": "unknown spec key",
     "NC202": "wrong type or value in spec",
     "NC203": "spec refers to something that does not exist",
+    "NC204": "spec path leaves the design root",
+    "NC205": "spec over a budget (sweep points, nesting, table rows)",
     "NC250": "spec asks for an analysis with nothing to analyse (warning)",
     "NC300": "singular circuit",
     "NC301": "measurement could not be made",
     "NC302": "numerical trouble (warning)",
     "NC400": "could not write output",
+    "NC401": "output refused (an input of the run, a device or FIFO, two outputs to -)",
+    "NC402": "bad command-line value",
     "NC410": "git could not answer (--changed-since)",
     "NC411": "baseline result file is not usable",
+    "NC420": "worker process lost (killed, or out of memory)",
+    "NC421": "out of memory or recursion depth while checking",
+    "NC500": "internal error in netcheck (a bug)",
 }
+
+
+#: the code of a result that a bug in netcheck cost (exit status 3)
+INTERNAL_CODE = "NC500"
 
 
 class NetcheckError(Exception):

@@ -6,7 +6,40 @@ import os
 from dataclasses import dataclass, field
 from pathlib import Path
 
-__all__ = ["SourceFile", "Span", "format_caret", "read_text", "display_path"]
+__all__ = ["SourceFile", "Span", "format_caret", "read_text", "display_path", "printable",
+           "MESSAGE_MAX"]
+
+#: the most characters of user text (a name, a line, a value) one message quotes
+MESSAGE_MAX = 200
+
+# C0 and C1 control characters except tab, and DEL: a terminal acts on them (colours,
+# cursor moves, window titles), so text from an input file never reaches it raw
+_CONTROL = {c: f"\\x{c:02x}" for c in (*range(0x00, 0x09), *range(0x0A, 0x20),
+                                        *range(0x7F, 0xA0))}
+_CONTROL.update({0x2028: "\\u2028", 0x2029: "\\u2029", 0x202E: "\\u202e",
+                 0x202D: "\\u202d", 0x2066: "\\u2066", 0x2067: "\\u2067",
+                 0x2068: "\\u2068", 0x2069: "\\u2069"})
+
+
+def printable(text: str, limit: int | None = MESSAGE_MAX) -> str:
+    """``text`` made safe to print: control characters escaped, cut to ``limit`` characters.
+
+    Text from netlists and specs (names, titles, source lines) is quoted in messages
+    and on the terminal; an escape sequence in it must not act on the terminal, and a
+    50 MB line must not become a 50 MB message. Bidirectional overrides are escaped
+    too, so what is shown is what is in the file. A cut is marked with the number of
+    characters left out.
+
+    >>> print(printable("R1" + chr(27) + "[2J a b 1k"))
+    R1\\x1b[2J a b 1k
+    >>> printable("x" * 30, limit=10)
+    'xxxxxxxxxx… (20 more characters)'
+    """
+    extra = 0
+    if limit is not None and len(text) > limit:
+        text, extra = text[:limit], len(text) - limit
+    text = text.translate(_CONTROL)
+    return f"{text}… ({extra} more characters)" if extra else text
 
 
 def display_path(path: str) -> str:

@@ -495,8 +495,7 @@ def test_sparse_circuit_worst_case_and_monte_carlo(tmp_path):
 
 
 def test_full_run_json_junit_and_pdf(tmp_path, capsys):
-    pytest.importorskip("weasyprint")
-    pypdf = pytest.importorskip("pypdf")
+    import pypdf
     body = (TOL3 + '[analysis]\nmode = ["nominal", "worst_case", "monte_carlo"]\n'
             "samples = 64\nyield_min = 0.5\n" + '[[limits]]\nkind = "resonance"\n'
             'center = "40k"\ncenter_tolerance = "3%"\nq = [10, 14]\n'

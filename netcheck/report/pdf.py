@@ -14,12 +14,17 @@ jinja2, weasyprint and matplotlib are imported inside functions only.
 
 from __future__ import annotations
 
+import contextlib
+import datetime as _dt
 import functools
 import os
 import re
+import threading
+from collections.abc import Iterator
 from pathlib import Path
 from typing import IO, Any
 
+from ..exceptions import RenderError
 from ..provenance import GitState, git_state
 from ..result import CheckResult, SpecResult
 from .context import build_context
@@ -27,9 +32,41 @@ from .formatting import (format_fraction, format_interval, format_margin, format
                          format_range)
 
 __all__ = ["render", "render_per_spec", "render_bytes", "report_names", "build_context",
-           "git_state", "GitState", "locked_fetcher", "html_to_pdf", "format_margin",
-           "format_fraction", "format_interval", "format_range",
+           "git_state", "GitState", "locked_fetcher", "html_to_pdf", "font_clock",
+           "require_libraries",
+           "format_margin", "format_fraction", "format_interval", "format_range",
            "format_measured"]
+
+
+#: what to install when the Pango library, which weasyprint loads at import, is missing
+PANGO_HINT = ("install the Pango library (Debian/Ubuntu: apt-get install libpango-1.0-0 "
+              "libpangoft2-1.0-0 libharfbuzz-subset0; Fedora: dnf install pango)")
+
+
+def require_libraries() -> None:
+    """Import the libraries the report needs, or say in one line what to install.
+
+    jinja2, weasyprint and matplotlib are ordinary dependencies of netcheck, so they are
+    missing only from a broken install; weasyprint also needs the Pango system library,
+    which pip cannot install.
+
+    Raises
+    ------
+    RenderError
+        Naming the missing package or library and how to install it.
+    """
+    for name in ("jinja2", "matplotlib", "weasyprint"):
+        try:
+            __import__(name)
+        except ImportError as err:
+            raise RenderError(
+                f"the PDF report needs the Python package {err.name or name}, which is not "
+                "installed: reinstall netcheck with pip (it is one of its dependencies)",
+                code="NC400") from None
+        except OSError as err:  # weasyprint could not load a system library
+            detail = " ".join(str(err).split())[:200]
+            raise RenderError(f"the PDF report cannot load a system library ({detail}): "
+                              f"{PANGO_HINT}", code="NC400") from None
 
 
 def _slug(text: str) -> str:
@@ -144,19 +181,63 @@ def _stylesheet() -> Any:
     return CSS(string=_stylesheet_text(), url_fetcher=locked_fetcher())
 
 
-def html_to_pdf(html: str, stream: IO[bytes], fetcher: Any = None, css: str | None = None) -> None:
+_CLOCK_LOCK = threading.Lock()
+
+
+def _epoch_seconds(created_utc: str) -> int:
+    """Seconds since 1970 of a ``YYYY-MM-DDTHH:MM:SSZ`` stamp; 0 when there is none.
+
+    >>> _epoch_seconds("2026-01-01T00:00:00Z"), _epoch_seconds("")
+    (1767225600, 0)
+    """
+    try:
+        t = _dt.datetime.strptime(created_utc, "%Y-%m-%dT%H:%M:%SZ")
+    except (TypeError, ValueError):
+        return 0
+    return int(t.replace(tzinfo=_dt.timezone.utc).timestamp())
+
+
+@contextlib.contextmanager
+def font_clock(created_utc: str) -> Iterator[None]:
+    """Pin the time stamped into embedded font subsets to the report's own time.
+
+    Without HarfBuzz's subsetter (libharfbuzz-subset0), weasyprint subsets fonts with
+    fontTools, whose ``TTFont.save`` writes the current time into each subset's
+    ``head.modified`` field, so two runs a second apart gave different PDF bytes.
+    fontTools takes that time from ``SOURCE_DATE_EPOCH`` when it is set (the
+    reproducible-builds convention), so it is set, for the duration of the rendering
+    only, to the report's creation time (which itself comes from ``SOURCE_DATE_EPOCH``
+    or the clock, once per run). HarfBuzz's subsetter keeps the font's own stamp; the
+    report is reproducible either way. The previous value is restored afterwards.
+    """
+    with _CLOCK_LOCK:
+        old = os.environ.get("SOURCE_DATE_EPOCH")
+        os.environ["SOURCE_DATE_EPOCH"] = str(_epoch_seconds(created_utc))
+        try:
+            yield
+        finally:
+            if old is None:
+                os.environ.pop("SOURCE_DATE_EPOCH", None)
+            else:
+                os.environ["SOURCE_DATE_EPOCH"] = old
+
+
+def html_to_pdf(html: str, stream: IO[bytes], fetcher: Any = None, css: str | None = None,
+                created_utc: str = "") -> None:
     """Render ``html`` with the report stylesheet as PDF into ``stream``.
 
     ``fetcher`` (default: a LockedFetcher with no resources) answers every URL request;
-    nothing is attached to the PDF.
+    nothing is attached to the PDF. ``created_utc`` (``YYYY-MM-DDTHH:MM:SSZ``) is the
+    time stamped into embedded fonts (see :func:`font_clock`).
     """
     from weasyprint import CSS, HTML
 
     fetcher = fetcher if fetcher is not None else locked_fetcher()
     sheet = _stylesheet() if css is None else CSS(string=css, url_fetcher=fetcher)
-    HTML(string=html, url_fetcher=fetcher, base_url=None).write_pdf(
-        target=stream, stylesheets=[sheet], attachments=[], pdf_identifier=False,
-        presentational_hints=False)
+    with font_clock(created_utc):
+        HTML(string=html, url_fetcher=fetcher, base_url=None).write_pdf(
+            target=stream, stylesheets=[sheet], attachments=[], pdf_identifier=False,
+            presentational_hints=False)
 
 
 def render_html(result: CheckResult) -> tuple[str, dict[str, tuple[bytes, str]]]:
@@ -178,7 +259,7 @@ def render(result: CheckResult, stream: IO[bytes], options: Any = None,
         fetcher = locked_fetcher(resources)
     else:
         fetcher.resources = dict(resources)
-    html_to_pdf(html, stream, fetcher)
+    html_to_pdf(html, stream, fetcher, created_utc=result.created_utc)
 
 
 def render_bytes(result: CheckResult, fetcher: Any = None) -> bytes:

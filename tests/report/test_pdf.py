@@ -15,17 +15,13 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from pypdf import PdfReader
 
-pytest.importorskip("weasyprint")
-pytest.importorskip("pypdf")
-
-from pypdf import PdfReader  # noqa: E402
-
-from netcheck.evaluate import check_spec  # noqa: E402
-from netcheck.render.jsonreport import to_dict  # noqa: E402
-from netcheck.report import pdf  # noqa: E402
-from netcheck.result import Caution, CheckResult, Status  # noqa: E402
-from netcheck.units import format_eng  # noqa: E402
+from netcheck.evaluate import check_spec
+from netcheck.render.jsonreport import to_dict
+from netcheck.report import pdf
+from netcheck.result import Caution, CheckResult, Status
+from netcheck.units import format_eng
 
 ROOT = Path(__file__).resolve().parents[2]
 CREATED = "2026-01-01T00:00:00Z"
@@ -295,19 +291,52 @@ class TestFiles:
         assert sorted(p.name for p in (tmp_path / "out").iterdir()) == sorted(names)
         assert "NOT CHECKED" in pdf_text((tmp_path / "out" / "rx.pdf").read_bytes(), slice(0, 1))
 
-    def test_byte_identical_across_processes(self, passing, tmp_path):
-        """Another interpreter (another hash seed) renders the same result to the same bytes."""
+    # The font subsetter weasyprint uses depends on the machine: HarfBuzz's
+    # (libharfbuzz-subset0) when it is installed, fontTools' otherwise. fontTools stamps
+    # the time it writes a subset into the font's head.modified field, so the report
+    # pins that time (pdf.font_clock). Each case renders in two other interpreters
+    # (other hash seeds) whose clocks read 400 days apart.
+    @pytest.mark.parametrize("subsetter", ["fonttools", "harfbuzz"])
+    def test_byte_identical_across_processes(self, passing, tmp_path, subsetter):
+        """Other interpreters, other hash seeds, other clocks: the same bytes."""
+        from weasyprint.pdf import fonts
+
+        if subsetter == "harfbuzz" and fonts.harfbuzz_subset is None:
+            pytest.skip("libharfbuzz-subset0 is not installed here (.ci/run installs it)")
         with open(tmp_path / "result.pickle", "wb") as f:
             pickle.dump(passing.result, f)
-        code = ("import pickle, sys; from netcheck.report import pdf; "
-                "r = pickle.load(open(sys.argv[1], 'rb')); "
-                "open(sys.argv[2], 'wb').write(pdf.render_bytes(r))")
-        env = {**os.environ, "PYTHONHASHSEED": "12345",
-               "PYTHONPATH": os.pathsep.join([str(ROOT), os.environ.get("PYTHONPATH", "")])}
-        subprocess.run([sys.executable, "-c", code, str(tmp_path / "result.pickle"),
-                        str(tmp_path / "again.pdf")], cwd=ROOT, env=env, check=True,
-                       capture_output=True, timeout=120)
-        assert (tmp_path / "again.pdf").read_bytes() == passing.data
+        code = ("import pickle, sys, time\n"
+                "from weasyprint.pdf import fonts\n"
+                "if sys.argv[3] == 'fonttools':\n"
+                "    fonts.harfbuzz_subset = None\n"
+                "real = time.time\n"
+                "time.time = lambda: real() + float(sys.argv[4])\n"
+                "from netcheck.report import pdf\n"
+                "r = pickle.load(open(sys.argv[1], 'rb'))\n"
+                "open(sys.argv[2], 'wb').write(pdf.render_bytes(r))\n")
+        env = {k: v for k, v in os.environ.items() if k != "SOURCE_DATE_EPOCH"}
+        env["PYTHONPATH"] = os.pathsep.join([str(ROOT), os.environ.get("PYTHONPATH", "")])
+        outputs = []
+        for seed, shift in (("12345", "0"), ("54321", str(400 * 86400))):
+            out = tmp_path / f"again-{seed}.pdf"
+            subprocess.run([sys.executable, "-c", code, str(tmp_path / "result.pickle"),
+                            str(out), subsetter, shift], cwd=ROOT,
+                           env={**env, "PYTHONHASHSEED": seed}, check=True,
+                           capture_output=True, timeout=120)
+            outputs.append(out.read_bytes())
+        assert outputs[0] == outputs[1]
+        if subsetter == ("harfbuzz" if fonts.harfbuzz_subset is not None else "fonttools"):
+            assert outputs[0] == passing.data  # the subsetter this process used too
+
+    def test_font_clock_restores_the_environment(self, monkeypatch):
+        monkeypatch.setenv("SOURCE_DATE_EPOCH", "")
+        with pdf.font_clock(CREATED):
+            assert os.environ["SOURCE_DATE_EPOCH"] == EPOCH
+        assert os.environ["SOURCE_DATE_EPOCH"] == ""
+        monkeypatch.delenv("SOURCE_DATE_EPOCH")
+        with pdf.font_clock(""):
+            assert os.environ["SOURCE_DATE_EPOCH"] == "0"
+        assert "SOURCE_DATE_EPOCH" not in os.environ
 
     def test_dates_come_from_the_result(self, passing, monkeypatch):
         from netcheck.checkcli import created_utc

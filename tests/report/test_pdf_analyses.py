@@ -9,16 +9,13 @@ from pathlib import Path
 
 import pytest
 
-pytest.importorskip("weasyprint")
-pytest.importorskip("pypdf")
+from pypdf import PdfReader
 
-from pypdf import PdfReader  # noqa: E402
-
-from netcheck.evaluate import check_spec  # noqa: E402
-from netcheck.render.jsonreport import to_dict  # noqa: E402
-from netcheck.report import pdf, plots  # noqa: E402
-from netcheck.result import CheckResult, Status  # noqa: E402
-from netcheck.units import format_eng, format_si  # noqa: E402
+from netcheck.evaluate import check_spec
+from netcheck.render.jsonreport import to_dict
+from netcheck.report import pdf, plots
+from netcheck.result import CheckResult, Status
+from netcheck.units import format_eng, format_si
 
 ROOT = Path(__file__).resolve().parents[2]
 CREATED = "2026-01-01T00:00:00Z"

@@ -10,11 +10,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-pytest.importorskip("matplotlib")
-
-from netcheck.evaluate import check_spec  # noqa: E402
-from netcheck.report import plots  # noqa: E402
-from netcheck.result import Curves, LimitResult, MaskBand, SpecResult, Status  # noqa: E402
+from netcheck.evaluate import check_spec
+from netcheck.report import plots
+from netcheck.result import Curves, LimitResult, MaskBand, SpecResult, Status
 
 ROOT = Path(__file__).resolve().parents[2]
 FC = 1e3  # Hz, corner of the synthetic first-order low-pass
