@@ -11,6 +11,7 @@ import scipy.sparse as sp
 from .elaborate import GROUND, Circuit
 from .elements import CurrentSource, VoltageSource
 from .exceptions import ElaborationError
+from .source import printable, quoted
 
 __all__ = ["System", "Stamper", "assemble", "assemble_batch", "unknown_names"]
 
@@ -192,12 +193,15 @@ class Stamper:
 def _stimulus_and_output(circuit: Circuit, source: str, node: str, ref: str,
                          st: Stamper) -> np.ndarray:
     if not circuit.has_element(source):
-        known = ", ".join(e.name for e in circuit.elements if e.letter in "VI") or "none"
-        raise ElaborationError(f"stimulus source {source!r} is not in the netlist "
+        names = [printable(e.name, 60) for e in circuit.elements if e.letter in "VI"]
+        known = (", ".join(names[:10]) + (f" and {len(names) - 10:,} more"
+                                          if len(names) > 10 else "")) or "none"
+        raise ElaborationError(f"stimulus source {quoted(source)} is not in the netlist "
                                f"(independent sources: {known})", code="NC107")
     src = circuit.element(source)
     if not isinstance(src, (VoltageSource, CurrentSource)):
-        raise ElaborationError(f"stimulus {src.name} is not an independent V or I source",
+        raise ElaborationError(f"stimulus {printable(src.name)} is not an independent V or I "
+                               "source",
                                src.span, code="NC107")
     src.excite(st)
     sel = np.zeros(st.n)
@@ -207,7 +211,7 @@ def _stimulus_and_output(circuit: Circuit, source: str, node: str, ref: str,
         if key == GROUND:
             continue
         if key not in st.nodes:
-            raise ElaborationError(f"output node {name!r} is not in the netlist",
+            raise ElaborationError(f"output node {quoted(name)} is not in the netlist",
                                    code="NC115")
         sel[st.nodes[key]] += sign
     return sel

@@ -8,19 +8,23 @@ from typing import TYPE_CHECKING, Callable
 import numpy as np
 
 from .elements import ELEMENTS, Element, Inductor, VoltageSource
-from .exceptions import Diagnostic, ElaborationError
+from .exceptions import CODES, Diagnostic, ElaborationError
 from .expressions import Name, evaluate, parse_expression
-from .parse import Assign, Card, Field, Netlist, Scope, SubcktDef, load_netlist
-from .source import SourceFile, Span
+from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef, _arrows,
+                    check_size, load_netlist)
+from .source import SourceFile, Span, printable, quoted
 from .topology import check_topology, lint_nodes
 
 if TYPE_CHECKING:  # pragma: no cover
     from .solve import Response
 
-__all__ = ["Circuit", "elaborate", "read_netlist", "CardReader", "GROUND"]
+__all__ = ["Circuit", "elaborate", "read_netlist", "CardReader", "GROUND", "ELEMENTS_MAX",
+           "DIAGNOSTICS_PER_CODE", "summarise_diagnostics"]
 
 GROUND = "0"
 _GROUND_ALIASES = frozenset({"0", "gnd"})
+#: the most warnings of one code a circuit keeps; the rest are counted in one more
+DIAGNOSTICS_PER_CODE = 10
 
 
 @dataclass(frozen=True, slots=True)
@@ -89,6 +93,9 @@ class Env:
         self.exprs: dict[str, tuple[Field, "Env"]] = {}
         self.values: dict[str, float] = {}
         self.active: list[str] = []
+        # parsed expressions by field, shared by every scope of one elaboration: a card
+        # inside a subcircuit is parsed once, however many instances there are
+        self.parsed: dict[int, tuple[Field, object]] = parent.parsed if parent else {}
 
     def fix(self, key: str, value: float) -> None:
         """Bind ``key`` to a number (a variant's override of a ``.param``)."""
@@ -99,7 +106,7 @@ class Env:
         """Bind ``key`` to ``value`` (evaluated lazily in ``where``, default self)."""
         key = assign.key.text.lower()
         if assign.key.kind != "word" or not key.replace("_", "a").isalnum() or key[0].isdigit():
-            raise ElaborationError(f"{assign.key.text!r} is not a parameter name",
+            raise ElaborationError(f"{quoted(assign.key.text)} is not a parameter name",
                                    assign.key.span, code="NC101")
         self.exprs[key] = (assign.value, where or self)
         self.values.pop(key, None)
@@ -113,14 +120,14 @@ class Env:
             env = env.parent
         if ref.name == "pi":
             return float(np.pi)
-        raise ElaborationError(f"undefined parameter {ref.name!r}", ref.span, code="NC102")
+        raise ElaborationError(f"undefined parameter {quoted(ref.name)}", ref.span, code="NC102")
 
     def _get(self, key: str, used_at: Span) -> float:
         if key in self.values:
             return self.values[key]
         if key in self.active:
-            cycle = " -> ".join(self.active[self.active.index(key):] + [key])
-            raise ElaborationError(f"parameter {key!r} is defined in terms of itself "
+            cycle = _arrows(self.active[self.active.index(key):] + [key])
+            raise ElaborationError(f"parameter {quoted(key)} is defined in terms of itself "
                                    f"({cycle})", used_at, code="NC103")
         fld, where = self.exprs[key]
         self.active.append(key)
@@ -135,7 +142,13 @@ class Env:
         """Evaluate a value field (a quantity, a parameter name or an ``{expression}``)."""
         if fld.kind == "string" and not fld.expr_text.strip():
             raise ElaborationError("empty value", fld.span, code="NC101")
-        expr = parse_expression(fld.expr_text, fld.span.source, fld.span.line, fld.expr_column)
+        got = self.parsed.get(id(fld))
+        if got is not None and got[0] is fld:
+            expr = got[1]
+        else:
+            expr = parse_expression(fld.expr_text, fld.span.source, fld.span.line,
+                                    fld.expr_column)
+            self.parsed[id(fld)] = (fld, expr)
         try:
             return evaluate(expr, self.lookup)
         except RecursionError:
@@ -156,12 +169,12 @@ class CardReader:
 
     def _next(self, what: str) -> Field:
         if self.pos >= len(self.items):
-            raise ElaborationError(f"{self.card.name.text}: missing {what}", self._end_span(),
+            raise ElaborationError(f"{_name(self.card)}: missing {what}", self._end_span(),
                                    code="NC105")
         item = self.items[self.pos]
         if isinstance(item, Assign):
-            raise ElaborationError(f"{self.card.name.text}: expected {what}, found "
-                                   f"{item.key.text}=...", item.span, code="NC105")
+            raise ElaborationError(f"{_name(self.card)}: expected {what}, found "
+                                   f"{printable(item.key.text)}=...", item.span, code="NC105")
         self.pos += 1
         return item
 
@@ -212,17 +225,16 @@ class CardReader:
     def unexpected(self, hint: str) -> None:
         """Raise for the next field."""
         item = self.items[self.pos]
-        raise ElaborationError(f"{self.card.name.text}: {hint}", item.span, code="NC105")
+        raise ElaborationError(f"{_name(self.card)}: {hint}", item.span, code="NC105")
 
     def finish(self) -> None:
         """Refuse left-over fields."""
         if self.more():
             item = self.items[self.pos]
-            raise ElaborationError(f"{self.card.name.text}: unexpected extra field "
-                                   f"{item.span.source.line_text(item.span.line)[item.span.column - 1:item.span.end_column - 1]!r}"
-                                   if item.span.line == item.span.end_line else
-                                   f"{self.card.name.text}: unexpected extra field",
-                                   item.span, code="NC105")
+            text = item.text if isinstance(item, Field) else \
+                f"{item.key.text}={item.value.text}"
+            raise ElaborationError(f"{_name(self.card)}: unexpected extra field "
+                                   f"{quoted(text)}", item.span, code="NC105")
 
 
 @dataclass
@@ -257,6 +269,7 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
         top_env.define(assign)
     for key, value in (overrides or {}).items():
         top_env.fix(key, value)
+    check_size(netlist.top)
     flat = _Flat(diags=list(netlist.diagnostics))
     _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative)
     elements = tuple(flat.elements)
@@ -266,7 +279,56 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     flat.diags.extend(lint_nodes(flat.node_spans))
     where = netlist.top.params[0].span if netlist.top.params else None
     params = tuple(sorted((k, top_env._get(k, where)) for k in top_env.exprs))
-    return Circuit(netlist.title, elements, nodes, netlist.sources, tuple(flat.diags), params)
+    return Circuit(netlist.title, elements, nodes, netlist.sources,
+                   summarise_diagnostics(flat.diags), params)
+
+
+def summarise_diagnostics(diags: list[Diagnostic], keep: int = DIAGNOSTICS_PER_CODE
+                          ) -> tuple[Diagnostic, ...]:
+    """At most ``keep`` diagnostics of each code, in order, and one summary per code cut.
+
+    20,000 dangling nodes must not become 20,000 warnings on the terminal, in JSON and in
+    the PDF: the summary (same code and severity) says how many more there were and sits
+    at the first one left out.
+
+    Examples
+    --------
+    >>> src = SourceFile("f.cir", "t\\n")
+    >>> many = [Diagnostic("NC152", f"node 'n{i}' has only one connection", src.span(1, 1))
+    ...         for i in range(25)]
+    >>> out = summarise_diagnostics(many)
+    >>> len(out), out[-1].message  # doctest: +NORMALIZE_WHITESPACE
+    (11, '15 more NC152 warnings (node with one connection) not listed, the first of them
+    here; netcheck lists the first 10 of each code')
+    """
+    seen: dict[str, int] = {}
+    first_cut: dict[str, Diagnostic] = {}
+    out: list[Diagnostic] = []
+    for d in diags:
+        seen[d.code] = seen.get(d.code, 0) + 1
+        if seen[d.code] <= keep:
+            out.append(d)
+        else:
+            first_cut.setdefault(d.code, d)
+    for code, d in first_cut.items():
+        what = CODES.get(code, "").removesuffix(" (warning)")
+        label = f"{d.severity}s" if d.severity.endswith(("warning", "note", "error")) else \
+            "diagnostics"
+        out.append(Diagnostic(code, f"{seen[code] - keep:,} more {code} {label} "
+                              f"({what}) not listed, the first of them here; netcheck lists "
+                              f"the first {keep} of each code", d.span, d.severity))
+    return tuple(out)
+
+
+def _name(card: Card) -> str:
+    """A card's name as messages show it (escaped, bounded)."""
+    return printable(card.name.text, 80)
+
+
+def _list(names: list[str], most: int = 10) -> str:
+    """Up to ``most`` names, comma separated and bounded, and how many more."""
+    shown = ", ".join(printable(n, 60) for n in names[:most])
+    return shown + (f" and {len(names) - most:,} more" if len(names) > most else "")
 
 
 def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
@@ -278,14 +340,15 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
         key = sub.name.text.lower()
         if key in here:
             first = here[key].name.span
-            raise ElaborationError(f"subcircuit {sub.name.text!r} defined twice (first at "
-                                   f"{first.path}:{first.line})", sub.name.span, code="NC106")
+            raise ElaborationError(f"subcircuit {quoted(sub.name.text)} defined twice (first "
+                                   f"at {printable(first.path)}:{first.line})", sub.name.span,
+                                   code="NC106")
         here[key] = defs[key] = sub
         ports: dict[str, Field] = {}
         for port in sub.ports:
             if port.text.lower() in ports:
-                raise ElaborationError(f"subcircuit {sub.name.text!r} lists port "
-                                       f"{port.text!r} twice", port.span, code="NC106")
+                raise ElaborationError(f"subcircuit {quoted(sub.name.text)} lists port "
+                                       f"{quoted(port.text)} twice", port.span, code="NC106")
             ports[port.text.lower()] = port
 
     def node_of(fld: Field) -> str:
@@ -306,8 +369,9 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
         full = (prefix + card.name.text).upper()
         if full in flat.names:
             first = flat.names[full]
-            raise ElaborationError(f"duplicate element name {full} (first defined at "
-                                   f"{first.path}:{first.line})", card.name.span, code="NC106")
+            raise ElaborationError(f"duplicate element name {printable(full)} (first defined "
+                                   f"at {printable(first.path)}:{first.line})", card.name.span,
+                                   code="NC106")
         flat.names[full] = card.name.span
         letter = card.letter
         if letter == "X":
@@ -317,7 +381,8 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
         cls = ELEMENTS.get(letter)
         if cls is None:
             known = ", ".join(sorted(ELEMENTS) + ["X"])
-            raise ElaborationError(f"unknown element letter {letter!r} in {card.name.text!r} "
+            raise ElaborationError(f"unknown element letter {quoted(letter)} in "
+                                   f"{quoted(card.name.text)} "
                                    f"(netcheck knows {known})", card.name.span, code="NC105")
         element = cls.from_card(CardReader(card, full, env, node_of, ref_of))
         if cls.passive:
@@ -333,21 +398,20 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
     assigns = [f for f in card.fields if isinstance(f, Assign)]
     words = [w for w in words if w.text.lower() not in ("params:", "params")]
     if not words:
-        raise ElaborationError(f"{card.name.text}: missing subcircuit name", card.span,
+        raise ElaborationError(f"{_name(card)}: missing subcircuit name", card.span,
                                code="NC105")
     sub_field, node_fields = words[-1], words[:-1]
     sub = defs.get(sub_field.text.lower())
     if sub is None:
-        known = ", ".join(sorted(d.name.text for d in defs.values())) or "none defined"
-        raise ElaborationError(f"undefined subcircuit {sub_field.text!r} (known: {known})",
-                               sub_field.span, code="NC107")
+        known = _list(sorted(d.name.text for d in defs.values())) or "none defined"
+        raise ElaborationError(f"undefined subcircuit {quoted(sub_field.text)} (known: "
+                               f"{known})", sub_field.span, code="NC107")
     key = sub.name.text.lower()
     if key in stack:
-        chain = " -> ".join(stack + (key,))
-        raise ElaborationError(f"subcircuit {sub.name.text!r} instantiates itself ({chain})",
-                               card.name.span, code="NC109")
+        raise ElaborationError(f"subcircuit {quoted(sub.name.text)} instantiates itself "
+                               f"({_arrows(stack + (key,))})", card.name.span, code="NC109")
     if len(node_fields) != len(sub.ports):
-        raise ElaborationError(f"{card.name.text}: subcircuit {sub.name.text} has "
+        raise ElaborationError(f"{_name(card)}: subcircuit {printable(sub.name.text)} has "
                                f"{len(sub.ports)} port(s), got {len(node_fields)} node(s)",
                                card.span, code="NC108")
     child_map: dict[str, str] = {}
@@ -361,8 +425,9 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
     declared = {a.key.text.lower() for a in sub.params}
     for assign in assigns:
         if assign.key.text.lower() not in declared and declared:
-            raise ElaborationError(f"subcircuit {sub.name.text} has no parameter "
-                                   f"{assign.key.text!r} (it has {', '.join(sorted(declared))})",
+            raise ElaborationError(f"subcircuit {printable(sub.name.text)} has no parameter "
+                                   f"{quoted(assign.key.text)} (it has "
+                                   f"{_list(sorted(declared))})",
                                    assign.key.span, code="NC102")
         child.define(assign, where=env)
     _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
@@ -373,11 +438,12 @@ def _check_passive(element: Element, card: Card, allow_negative: bool) -> None:
     value = element.value
     span = card.fields[2].span if len(card.fields) > 2 else card.span
     if value == 0:
-        raise ElaborationError(f"{element.name} has value 0; a zero {type(element).__name__.lower()}"
+        raise ElaborationError(f"{printable(element.name)} has value 0; a zero "
+                               f"{type(element).__name__.lower()}"
                                " cannot be solved (use a small value or remove it)", span,
                                code="NC110")
     if value < 0 and not allow_negative:
-        raise ElaborationError(f"{element.name} has negative value {value:g}; pass "
+        raise ElaborationError(f"{printable(element.name)} has negative value {value:g}; pass "
                                "--allow-negative (allow_negative=True) if this is intended",
                                span, code="NC110")
 
@@ -397,8 +463,9 @@ def _lint_value(element: Element, card: Card, flat: _Flat) -> None:
     if suffix[:1] == "M" and not suffix.lower().startswith(("meg", "mil")):
         what = "milliohms" if element.letter == "R" else "millihenries"
         flat.diags.append(Diagnostic(
-            "NC151", f"{element.name} = {text} reads as {element.value:g} ({what}: SPICE "
-            f"'M' is milli); write {text[:i]}meg if mega was meant", fld.span))
+            "NC151", f"{printable(element.name)} = {printable(text)} reads as "
+            f"{element.value:g} ({what}: SPICE 'M' is milli); write "
+            f"{printable(text[:i])}meg if mega was meant", fld.span))
 
 
 def _check_references(elements: tuple[Element, ...]) -> None:
@@ -411,16 +478,18 @@ def _check_references(elements: tuple[Element, ...]) -> None:
                 kind = "inductor" if want is Inductor else "voltage source"
                 found = "" if target is None else (f" ({ref} is not "
                                                    f"{'an' if want is Inductor else 'a'} {kind})")
-                raise ElaborationError(f"{e.name} refers to {kind} {ref.split('.')[-1]}, "
+                raise ElaborationError(f"{printable(e.name)} refers to {kind} "
+                                       f"{printable(ref.split('.')[-1])}, "
                                        f"which is not defined in its scope{found}", e.span,
                                        code="NC107" if e.letter != "K" else "NC114")
         if e.letter == "K":
             k = e.value
             if not -1.0 <= k <= 1.0:
-                raise ElaborationError(f"{e.name}: coupling coefficient {k:g} is outside "
-                                       "[-1, 1]", e.span, code="NC114")
+                raise ElaborationError(f"{printable(e.name)}: coupling coefficient {k:g} is "
+                                       "outside [-1, 1]", e.span, code="NC114")
             if e.inductors[0] == e.inductors[1]:
-                raise ElaborationError(f"{e.name} couples {e.inductors[0]} to itself", e.span,
+                raise ElaborationError(f"{printable(e.name)} couples "
+                                       f"{printable(e.inductors[0])} to itself", e.span,
                                        code="NC114")
 
 

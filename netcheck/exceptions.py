@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .source import Span, format_caret
+from .source import Span, format_caret, printable
 
 __all__ = [
     "NetcheckError", "NetlistSyntaxError", "ElaborationError", "SpecError",
@@ -61,6 +61,8 @@ CODES: dict[str, str] = {
 
 #: the code of a result that a bug in netcheck cost (exit status 3)
 INTERNAL_CODE = "NC500"
+#: the most characters of a location or a message one formatted diagnostic shows
+TEXT_MAX = 1000
 
 
 class NetcheckError(Exception):
@@ -101,8 +103,14 @@ class NetcheckError(Exception):
         return self.path or self.where or "netcheck"
 
     def format(self) -> str:
-        """Compiler-style message: location, code, message, source line and caret."""
-        head = f"{self.location()}: error {self.code}: {self.message}"
+        """Compiler-style message: location, code, message, source line and caret.
+
+        Text from input files (the path, names quoted in the message, the source line)
+        is shown through :func:`netcheck.source.printable` and bounded, so it cannot act
+        on a terminal or flood it.
+        """
+        head = (f"{printable(self.location(), TEXT_MAX)}: error {self.code}: "
+                f"{printable(self.message, TEXT_MAX)}")
         if self.span is not None:
             caret = format_caret(self.span)
             if caret:
@@ -163,9 +171,10 @@ class Diagnostic:
     severity: str = "warning"
 
     def format(self) -> str:
-        """Compiler-style text, like :meth:`NetcheckError.format`."""
+        """Compiler-style text, like :meth:`NetcheckError.format` (escaped, bounded)."""
         where = str(self.span) if self.span is not None else "netcheck"
-        head = f"{where}: {self.severity} {self.code}: {self.message}"
+        head = (f"{printable(where, TEXT_MAX)}: {self.severity} {self.code}: "
+                f"{printable(self.message, TEXT_MAX)}")
         if self.span is not None:
             caret = format_caret(self.span)
             if caret:

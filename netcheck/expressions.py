@@ -11,11 +11,11 @@ from lark.exceptions import LarkError, UnexpectedCharacters, UnexpectedInput, Vi
 
 from ._grammars import parser
 from .exceptions import ElaborationError, NetlistSyntaxError
-from .source import SourceFile, Span
+from .source import SourceFile, Span, quoted
 from .units import UnitError, parse_quantity
 
 __all__ = ["Expr", "Num", "Name", "Call", "BinOp", "Neg", "parse_expression", "FUNCTIONS",
-           "CONSTANTS"]
+           "CONSTANTS", "EXPR_MAX"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -71,6 +71,8 @@ FUNCTIONS: dict[str, tuple[int, int, Callable[..., float]]] = {
     "min": (1, 64, lambda *a: min(a)), "max": (1, 64, lambda *a: max(a)),
 }
 CONSTANTS: dict[str, float] = {"pi": math.pi}
+#: the longest expression read, in characters (its parse tree grows with its length)
+EXPR_MAX = 10_000
 
 
 def _binop(op: str) -> Callable[..., Expr]:
@@ -108,7 +110,8 @@ class _ToAst(Transformer):
         fname = str(func).lower()
         if fname not in FUNCTIONS:
             raise NetlistSyntaxError(
-                f"unknown function {str(func)!r}; available: {', '.join(sorted(FUNCTIONS))}",
+                f"unknown function {quoted(str(func), 60)}; available: "
+                f"{', '.join(sorted(FUNCTIONS))}",
                 span, code="NC101")
         lo, hi, _ = FUNCTIONS[fname]
         if not lo <= len(args) <= hi:
@@ -143,6 +146,10 @@ def parse_expression(text: str, source: SourceFile, line: int, column: int) -> E
     """
     if not text.strip():
         raise NetlistSyntaxError("empty expression", source.span(line, column), code="NC101")
+    if len(text) > EXPR_MAX:
+        raise NetlistSyntaxError(f"expression is {len(text):,} characters long, over the "
+                                 f"budget of {EXPR_MAX:,}; split it with .param",
+                                 source.span(line, column), code="NC101")
     try:
         tree = parser("expr.lark").parse(text)
     except UnexpectedInput as err:
@@ -153,11 +160,11 @@ def parse_expression(text: str, source: SourceFile, line: int, column: int) -> E
             hint = ""
             if bad in ".[]'\"":
                 hint = " (expressions hold numbers, parameter names, + - * / ^ and functions only)"
-            msg = f"unexpected {bad!r} in expression{hint}"
+            msg = f"unexpected {quoted(bad)} in expression{hint}"
         else:
             tok = getattr(err, "token", None)
             msg = ("expression ends too early" if tok is None or tok.type == "$END"
-                   else f"unexpected {str(tok)!r} in expression")
+                   else f"unexpected {quoted(str(tok), 60)} in expression")
         raise NetlistSyntaxError(msg, span, code="NC101") from None
     except LarkError as err:
         raise NetlistSyntaxError(f"bad expression: {err}", source.span(line, column),

@@ -34,6 +34,7 @@ import scipy.sparse.linalg as spla
 from ._sparse_poles import sparse_poles
 from .assemble import System
 from .exceptions import NetcheckWarning, SingularCircuitError
+from .source import printable
 
 __all__ = ["Response", "solve", "make_engine", "DenseEngine", "SparseEngine",
            "PoleZeroEngine", "DENSE_MAX", "CHECK_TOL", "sparse_poles"]
@@ -82,14 +83,71 @@ class Engine(Protocol):
 
 
 def _singular_error(system: System, a: np.ndarray, f_hz: float) -> SingularCircuitError:
+    """NC300 for a dense ``a`` = G + j2πfC: its null vector names the unknowns involved."""
     _, sv, vh = np.linalg.svd(a)
     rcond = sv[-1] / sv[0] if sv[0] > 0 else 0.0
-    null = np.abs(vh[-1])
-    worst = [system.unknowns[i] for i in np.argsort(null)[::-1][:4] if null[i] > 1e-3]
+    return _singular(system, f_hz, np.abs(vh[-1]), f"reciprocal condition {rcond:.1e}")
+
+
+def _sparse_singular_error(system: System, a: sp.csc_matrix, f_hz: float,
+                           detail: str) -> SingularCircuitError:
+    """NC300 for a sparse ``a`` that SuperLU found singular.
+
+    The unknowns involved come from two steps of inverse iteration on ``a`` shifted by
+    1e-10 of its largest entry: one more factorisation, only on this error path.
+    """
+    n = a.shape[0]
+    weights = None
+    scale = float(abs(a).max()) if a.nnz else 1.0
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            lu = spla.splu((a + sp.identity(n, format="csc") * (1e-10 * (scale or 1.0))).tocsc(),
+                           permc_spec="COLAMD")
+            x = lu.solve(np.exp(2j * np.pi * ((np.arange(1, n + 1) * 0.6180339887) % 1.0)))
+            x = lu.solve(x / np.abs(x).max())
+        if np.isfinite(x).all() and np.abs(x).max() > 0:
+            weights = np.abs(x) / np.abs(x).max()
+    except (RuntimeError, ValueError):
+        pass
+    if weights is None:  # at least the rows and columns with no entries at all
+        empty = np.asarray((abs(a).sum(axis=0) == 0)).ravel() | \
+            np.asarray((abs(a).sum(axis=1) == 0)).ravel()
+        weights = empty.astype(float)
+    return _singular(system, f_hz, weights, printable(detail, 80))
+
+
+def _singular(system: System, f_hz: float, weights: np.ndarray, detail: str
+              ) -> SingularCircuitError:
+    """The error naming the unknowns with the largest ``weights`` (a null vector) and
+    the elements touching them, placed at the element most involved."""
+    order = [int(i) for i in np.argsort(weights)[::-1][:4] if weights[i] > 1e-3]
+    unknowns = ", ".join(printable(system.unknowns[i], 60) for i in order) or "not known"
+    touched = _elements_involved(system, weights)
+    span = touched[0].span if touched else None
+    parts = ", ".join(f"{printable(e.name, 60)} (" + ("line " if e.span.path == span.path else
+                      f"{printable(e.span.path, 100)}:") + f"{e.span.line})" for e in touched)
+    elements = f"; the elements touching them most are {parts}" if parts else ""
+    sources = system.circuit.sources
+    path = sources[0].path if span is None and sources else None
     return SingularCircuitError(
-        f"the circuit equations are singular at {f_hz:.6g} Hz (reciprocal condition "
-        f"{rcond:.1e}); the unknowns most involved are {', '.join(worst)}. Look for parts "
-        "that leave these nodes undetermined (open loops, ideal sources in conflict).")
+        f"the circuit equations are singular at {f_hz:.6g} Hz ({detail}); the unknowns most "
+        f"involved are {unknowns}{elements}. Look for parts that leave these nodes "
+        "undetermined (open loops, ideal sources in conflict).", span, path=path)
+
+
+def _elements_involved(system: System, weights: np.ndarray, most: int = 4) -> list:
+    """Up to ``most`` elements by the summed weight of the unknowns they touch (their
+    nodes and their own branch current), largest first, netlist order between equals."""
+    scored = []
+    for k, e in enumerate(system.circuit.elements):
+        rows = {system.node_index[n] for n in e.nodes if n in system.node_index}
+        if e.name in system.branch_index:
+            rows.add(system.branch_index[e.name])
+        score = float(sum(weights[r] for r in rows))
+        if score > 1e-3:
+            scored.append((-score, k, e))
+    return [e for _, _, e in sorted(scored, key=lambda t: t[:2])[:most]]
 
 
 class DenseEngine:
@@ -176,9 +234,7 @@ class SparseEngine:
                 warnings.simplefilter("error", sp.SparseEfficiencyWarning)
                 return spla.splu(a, permc_spec="COLAMD")
         except RuntimeError as err:
-            raise SingularCircuitError(
-                f"the circuit equations are singular at {f:.6g} Hz ({err}); look for parts "
-                "that leave nodes undetermined (open loops, ideal sources in conflict)") from None
+            raise _sparse_singular_error(self.system, a, f, str(err)) from None
 
     def solution(self, f: np.ndarray) -> np.ndarray:
         """Full solution x (F × n)."""

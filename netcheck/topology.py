@@ -6,7 +6,7 @@ from collections.abc import Iterable
 
 from .elements import Element
 from .exceptions import Diagnostic, ElaborationError
-from .source import Span
+from .source import Span, printable, quoted
 
 __all__ = ["check_topology", "lint_nodes"]
 
@@ -43,7 +43,7 @@ def _groups(sets: _Sets, nodes: Iterable[str]) -> dict[str, list[str]]:
 
 
 def _names(nodes: list[str]) -> str:
-    shown = ", ".join(nodes[:6])
+    shown = ", ".join(printable(n, 60) for n in nodes[:6])
     return shown + (f" and {len(nodes) - 6} more" if len(nodes) > 6 else "")
 
 
@@ -77,7 +77,8 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
         if root != ground:
             culprit = first_touch[group[0]]
             sense_only = all(n not in culprit.terminals for n in group)
-            why = (f" (it connects only to the controlling input of {culprit.name})"
+            why = (f" (it connects only to the controlling input of "
+                   f"{printable(culprit.name, 80)})"
                    if sense_only and len(group) == 1 else "")
             raise ElaborationError(
                 f"node{'s' if len(group) > 1 else ''} {_names(group)} "
@@ -90,8 +91,9 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
             a, b = e.terminals
             if not loops.union(a, b):
                 raise ElaborationError(
-                    f"{e.name} closes a loop of voltage-defined elements (V, E, H) between "
-                    f"nodes {a} and {b}; the loop current is undetermined", e.span,
+                    f"{printable(e.name, 80)} closes a loop of voltage-defined elements (V, E, "
+                    f"H) between nodes {printable(a, 60)} and {printable(b, 60)}; the loop "
+                    "current is undetermined", e.span,
                     code="NC112")
 
     passive = _Sets()
@@ -110,7 +112,8 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
             raise ElaborationError(
                 f"node{'s' if len(group) > 1 else ''} {_names(group)} "
                 f"connect{'' if len(group) > 1 else 's'} to the rest only "
-                f"through current sources (a cut-set of current sources, e.g. {culprit.name}); "
+                "through current sources (a cut-set of current sources, e.g. "
+                f"{printable(culprit.name, 80)}); "
                 "their voltage is undetermined", culprit.span, code="NC113")
 
 
@@ -119,5 +122,6 @@ def lint_nodes(node_spans: dict[str, list[Span]]) -> list[Diagnostic]:
     out = []
     for node, spans in node_spans.items():
         if node != GROUND and len(spans) == 1:
-            out.append(Diagnostic("NC152", f"node {node!r} has only one connection", spans[0]))
+            out.append(Diagnostic("NC152", f"node {quoted(node, 80)} has only one connection",
+                                  spans[0]))
     return out

@@ -1,16 +1,33 @@
-"""Engineering notation in (``4k7``, ``10uF``, ``1meg``) and out (``38.000 kHz``)."""
+"""Engineering notation in (``4k7``, ``10uF``, ``1meg``) and out (``38.000 kHz``).
+
+The rule for reading a quantity: a decimal number, then at most one scale suffix (f p n
+u µ m k meg g t, case-insensitive, or mil), then unit letters, which are ignored
+(``10uF``, ``1kOhm``, ``10kHz``; ``1fF`` is one femtofarad). Unit letters must not start
+with a second scale suffix: ``1kk``, ``1uu``, ``1megk`` or ``1kmeg`` are refused rather
+than read as ``1k``, ``1u``, ``1meg`` and ``1k``, unless the letters are a unit word
+that happens to start with a scale letter (:data:`UNIT_WORDS`: ``F``, ``Fd``, ``farad``,
+``mho``). The IEC 60062 letter-and-digit codes (``4k7``, ``2n2``, ``4R7``) follow the
+same rule for their unit letters.
+"""
 
 from __future__ import annotations
 
 import math
 from decimal import Decimal, DecimalException
 
-__all__ = ["SCALE", "parse_quantity", "parse_value", "format_eng", "format_si", "UnitError"]
+from .source import printable, quoted
+
+__all__ = ["SCALE", "UNIT_WORDS", "parse_quantity", "parse_value", "format_eng", "format_si",
+           "UnitError"]
 
 #: Classic SPICE scale letters (case-insensitive; ``m`` is milli, ``meg`` mega).
 SCALE: dict[str, int] = {
     "f": -15, "p": -12, "n": -9, "u": -6, "µ": -6, "m": -3, "k": 3, "g": 9, "t": 12,
 }
+#: Unit words (lower case) that start with a scale letter but may follow a scale suffix:
+#: ``10uF`` is 10 µ(farad), not 10 µ·femto. Other letters after a scale suffix that
+#: start with one are refused (``1kk``).
+UNIT_WORDS = frozenset({"f", "fd", "farad", "farads", "mho", "mhos"})
 _MEG = 6
 _DIGITS = "0123456789"
 
@@ -54,7 +71,7 @@ def _scaled(digits: str, exponent: int) -> float:
 
 def _finite(value: float, text: str) -> float:
     if not math.isfinite(value):
-        raise UnitError(f"{text!r} is too large to be a value")
+        raise UnitError(f"{quoted(text)} is too large to be a value")
     return value
 
 
@@ -100,17 +117,21 @@ def parse_quantity(text: str) -> float:
     (1e-05, 1000000.0, 4700.0)
     >>> parse_quantity("1M")   # milli, as in SPICE
     0.001
+    >>> parse_quantity("1kk")
+    Traceback (most recent call last):
+    ...
+    netcheck.units.UnitError: '1kk': 'k' after the scale suffix 'k' is a second scale suffix; ...
     """
     s = text.strip()
     n = _scan_mantissa(s)
     if n == 0:
-        raise UnitError(f"{text!r} is not a number")
+        raise UnitError(f"{quoted(text)} is not a number")
     mantissa, rest = s[:n], s[n:]
     value = float(mantissa)
     if not rest:
         return _finite(value, text)
     if not (rest[0].isalpha() or rest[0] == "µ"):
-        raise UnitError(f"unexpected {rest[0]!r} after the number in {text!r}")
+        raise UnitError(f"unexpected {quoted(rest[0])} after the number in {quoted(text)}")
     # IEC 60062 letter-and-digit code: <digits><letter><digits>[unit]
     letter = rest[0]
     k = 1
@@ -121,7 +142,8 @@ def parse_quantity(text: str) -> float:
     exponent, used = _scale_of(rest)
     tail = rest[used:]
     if any(not (ch.isalpha() or ch == "µ") for ch in tail):
-        raise UnitError(f"unexpected characters {tail!r} in {text!r}")
+        raise UnitError(f"unexpected characters {quoted(tail)} in {quoted(text)}")
+    _check_unit(text, rest[:used], tail)
     if exponent is None:
         return _finite(value * 25.4e-6, text)
     return _finite(_scaled(mantissa, exponent), text)
@@ -130,11 +152,11 @@ def parse_quantity(text: str) -> float:
 def _rkm(text: str, mantissa: str, letter: str, decimals: str, unit: str) -> float:
     """Value of an IEC 60062 code such as ``4k7`` (mantissa, letter, decimals)."""
     if not mantissa.lstrip("+-").isdigit():
-        raise UnitError(f"{text!r} mixes a decimal point or exponent with the "
+        raise UnitError(f"{quoted(text)} mixes a decimal point or exponent with the "
                         f"letter-and-digit code; write {mantissa}{letter} or use one form")
     low = letter.lower()
     if low == "m":
-        raise UnitError(f"{text!r} is ambiguous: the IEC 60062 code reads {letter} as "
+        raise UnitError(f"{quoted(text)} is ambiguous: the IEC 60062 code reads {letter} as "
                         f"mega, SPICE reads it as milli; write {mantissa}.{decimals}meg "
                         f"or {mantissa}.{decimals}m")
     if low in ("r", "e"):
@@ -142,10 +164,20 @@ def _rkm(text: str, mantissa: str, letter: str, decimals: str, unit: str) -> flo
     elif low in SCALE:
         exponent = SCALE[low]
     else:
-        raise UnitError(f"{text!r}: {letter!r} is not a scale letter")
+        raise UnitError(f"{quoted(text)}: {quoted(letter)} is not a scale letter")
     if any(not ch.isalpha() for ch in unit):
-        raise UnitError(f"unexpected characters {unit!r} in {text!r}")
+        raise UnitError(f"unexpected characters {quoted(unit)} in {quoted(text)}")
+    _check_unit(text, letter, unit)
     return _scaled(f"{mantissa}.{decimals}", exponent)
+
+
+def _check_unit(text: str, scale: str, unit: str) -> None:
+    """Refuse unit letters that start with a second scale suffix (``1kk``, ``4k7k``)."""
+    if not unit or unit.lower() in UNIT_WORDS or _scale_of(unit) == (0, 0):
+        return
+    second = unit[:_scale_of(unit)[1]]
+    raise UnitError(f"{quoted(text)}: {quoted(second)} after the scale suffix {quoted(scale)} "
+                    "is a second scale suffix; write one (1meg, not 1kk)")
 
 
 def parse_value(value: object, what: str = "value") -> float:
@@ -157,10 +189,10 @@ def parse_value(value: object, what: str = "value") -> float:
     (38000.0, 2.5)
     """
     if isinstance(value, bool):
-        raise UnitError(f"{what}: expected a number, got {value!r}")
+        raise UnitError(f"{what}: expected a number, got {printable(repr(value), 60)}")
     if isinstance(value, (int, float)):
         if not math.isfinite(value):
-            raise UnitError(f"{what}: {value!r} is not finite")
+            raise UnitError(f"{what}: {printable(repr(value), 60)} is not finite")
         return float(value)
     if isinstance(value, str):
         return parse_quantity(value)

@@ -147,6 +147,47 @@ class TestRefused:
     def test_unit_error_is_a_value_error(self):
         assert issubclass(UnitError, ValueError)
 
+    def test_long_token_gives_a_bounded_message(self):
+        with pytest.raises(UnitError) as info:
+            parse_quantity("1" + "x" * 100_000 + "!")
+        assert len(str(info.value)) < 600 and "more characters" in str(info.value)
+
+
+class TestSecondScaleSuffix:
+    # The rule decided for netcheck (units.py docstring): one scale suffix, then unit
+    # letters that are ignored, unless they start with a second scale suffix and are
+    # not a unit word. Before, "1kk" was silently read as 1k.
+    @pytest.mark.parametrize("text,second,first", [
+        ("1kk", "k", "k"), ("1uu", "u", "u"), ("1megk", "k", "meg"), ("1kmeg", "meg", "k"),
+        ("1KK", "K", "K"), ("2.2nn", "n", "n"), ("1µµ", "µ", "µ"), ("1kmil", "mil", "k"),
+        ("1kkHz", "k", "k"), ("1mm", "m", "m"), ("3tg", "g", "t"), ("1e3kp", "p", "k"),
+        ("4k7k", "k", "k"), ("2n2p", "p", "n"), ("4R7meg", "meg", "R"),
+    ])
+    def test_refused_and_named(self, text, second, first):
+        with pytest.raises(UnitError) as info:
+            parse_quantity(text)
+        assert str(info.value) == (f"'{text}': '{second}' after the scale suffix '{first}' is "
+                                   "a second scale suffix; write one (1meg, not 1kk)")
+
+    @pytest.mark.parametrize("text,value", [
+        # farad written after a scale letter, in either case, and its old abbreviation
+        ("1fF", 1e-15), ("10pf", 1e-11), ("10uF", 1e-05), ("10uFd", 1e-05),
+        ("47nFarad", 4.7e-08), ("1mmho", 1e-03), ("10kHz", 10000.0), ("1kOhm", 1000.0),
+        ("2kΩ", 2000.0), ("1megohm", 1e6), ("5mA", 5e-3), ("3V", 3.0), ("1uH", 1e-6),
+        ("10F", 1e-14), ("1mils", 25.4e-6),
+    ])
+    def test_unit_words_still_follow_a_scale(self, text, value):
+        # values are the decimal literals (Python float(), correctly rounded); the units
+        # carry no scale (common practice, no source)
+        assert parse_quantity(text) == pytest.approx(value, rel=1e-15)
+
+    def test_in_a_netlist_it_is_positioned(self):
+        from netcheck import NetcheckError, read_netlist
+
+        with pytest.raises(NetcheckError) as info:
+            read_netlist("t\nV1 in 0 AC 1\nR1 in 0 {2*1kk}\n")
+        assert (info.value.code, str(info.value.span)) == ("NC101", "<text>:3:12")
+
 
 class TestParseValue:
     def test_numbers_and_strings(self):
