@@ -4,19 +4,24 @@ from __future__ import annotations
 
 import json
 import math
+import os
 import posixpath
+import stat
 from collections.abc import Iterable
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 from .exceptions import NetcheckError
-from .source import SourceFile, read_text
+from .source import SourceFile, printable, read_text
 
 __all__ = [
     "BaselineError", "SpecRef", "LimitRef", "LimitDrift", "DriftReport", "compare_baseline",
-    "load_baseline", "validate_result",
+    "load_baseline", "validate_result", "BASELINE_MAX_BYTES",
 ]
+
+#: the largest baseline file read (a result of thousands of specs is a few MB)
+BASELINE_MAX_BYTES = 256 * 1024 * 1024
 
 
 class BaselineError(NetcheckError, ValueError):
@@ -156,10 +161,11 @@ def validate_result(doc: Any, path: str = "<result>") -> None:
                                     f"(expected \"{SCHEMA}\")")
     if schema != SCHEMA:
         family = isinstance(schema, str) and schema.startswith("netcheck.result/")
-        raise _fail(path, "schema", (f"result format {schema!r} is not the {SCHEMA!r} this "
+        shown = printable(repr(schema), 80)
+        raise _fail(path, "schema", (f"result format {shown} is not the {SCHEMA!r} this "
                                      "netcheck reads; regenerate the baseline with this version"
                                      if family else
-                                     f"not a netcheck result: schema is {schema!r}, "
+                                     f"not a netcheck result: schema is {shown}, "
                                      f"expected {SCHEMA!r}"))
     specs = doc.get("specs")
     if not isinstance(specs, list):
@@ -188,11 +194,18 @@ def _margin(value: Any, path: str, where: str) -> float | None:
     if value is None:
         return None
     if isinstance(value, (int, float)) and not isinstance(value, bool):
-        out = float(value)
-        return None if math.isnan(out) else out
-    if value in ("inf", "-inf"):
+        try:
+            out = float(value)
+        except OverflowError:  # an integer too large for a float
+            out = math.inf if value > 0 else -math.inf
+        if math.isnan(out):
+            raise _fail(path, where, "NaN is not a margin: a limit that was not measured has "
+                                     "null")
+        return out
+    if isinstance(value, str) and value in ("inf", "-inf"):
         return float(value)
-    raise _fail(path, where, f"expected a number, \"inf\", \"-inf\" or null, got {value!r}")
+    shown = printable(repr(value), 60)
+    raise _fail(path, where, f"expected a number, \"inf\", \"-inf\" or null, got {shown}")
 
 
 def _norm(spec_path: str) -> str:
@@ -358,12 +371,42 @@ def load_baseline(path: str | Path) -> dict[str, Any]:
         The file cannot be read or is not UTF-8; it is not valid JSON (located as
         ``file:line:col`` with the line and a caret); or it is not a netcheck result.
     """
-    shown = str(path)
+    shown = printable(str(path))
+    _check_regular(path, shown)
     text = read_text(path, BaselineError, "baseline", encoding="utf-8-sig")
     try:
-        doc = json.loads(text)
+        doc = json.loads(text, parse_constant=_no_constant)
     except json.JSONDecodeError as err:
         span = SourceFile(shown, text).span(err.lineno, err.colno)
         raise BaselineError(f"not valid JSON: {err.msg}", span, path=shown) from None
+    except RecursionError:
+        raise BaselineError("not a netcheck result: arrays or objects nested too deeply "
+                            "to read", path=shown) from None
+    except MemoryError:
+        raise BaselineError("not usable: too large to read into memory", path=shown) from None
+    except ValueError as err:  # a number too long to convert, a NaN or Infinity
+        raise BaselineError(f"not valid JSON: {printable(str(err), 120)}", path=shown) from None
     validate_result(doc, shown)
     return doc
+
+
+def _no_constant(name: str) -> Any:
+    raise ValueError(f"{name} is not a JSON number (netcheck writes null for a margin that "
+                     "was not measured and \"inf\" for an infinite one)")
+
+
+def _check_regular(path: str | Path, shown: str) -> None:
+    """Refuse a baseline that is not a regular file (a FIFO would block, a device never
+    ends) or is larger than :data:`BASELINE_MAX_BYTES`, before anything is read."""
+    try:
+        st = os.stat(path)
+    except OSError:
+        return  # read_text reports a missing or unreadable file in its own words
+    if not stat.S_ISREG(st.st_mode):
+        kind = "a folder" if stat.S_ISDIR(st.st_mode) else "a FIFO" if \
+            stat.S_ISFIFO(st.st_mode) else "a device or other special file"
+        raise BaselineError(f"cannot read baseline: it is {kind}, not a regular file",
+                            path=shown)
+    if st.st_size > BASELINE_MAX_BYTES:
+        raise BaselineError(f"cannot read baseline: {st.st_size} bytes is more than the "
+                            f"{BASELINE_MAX_BYTES} a result file may have", path=shown)

@@ -11,6 +11,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from .exceptions import NetcheckError
+from .source import printable
 
 __all__ = ["GitError", "AffectedSpec", "AffectedSpecs", "affected_specs", "GIT_TIMEOUT_S"]
 
@@ -88,13 +89,18 @@ class _Inputs:
     error: str | None = None        # the spec itself failed to load
 
 
-def _run(args: Sequence[str], cwd: str, timeout: float) -> subprocess.CompletedProcess:
-    """Run ``git ARGS`` in ``cwd``; only failures to start or finish raise :class:`GitError`."""
+def _run(args: Sequence[str], cwd: str, timeout: float,
+         overrides: Sequence[tuple[str, str]] = ()) -> subprocess.CompletedProcess:
+    """Run ``git ARGS`` in ``cwd``; only failures to start or finish raise :class:`GitError`.
+
+    git runs through :func:`netcheck.provenance.run_git`: nothing the repository's
+    configuration names (monitor hook, filter drivers, external diff...) is started.
+    """
+    from .provenance import run_git
+
     shown = "git " + " ".join(args)
-    env = {**os.environ, "GIT_OPTIONAL_LOCKS": "0", "LC_ALL": "C"}
     try:
-        return subprocess.run(["git", *args], cwd=cwd, capture_output=True, env=env,
-                              timeout=timeout, check=False)
+        return run_git(args, cwd, timeout, overrides)
     except FileNotFoundError:
         raise GitError("git is not installed or not on PATH; --changed-since needs it",
                        path=cwd) from None
@@ -104,15 +110,16 @@ def _run(args: Sequence[str], cwd: str, timeout: float) -> subprocess.CompletedP
         raise GitError(f"cannot run '{shown}': {err.strerror or err}", path=cwd) from None
 
 
-def _git(args: Sequence[str], cwd: str, timeout: float) -> bytes:
+def _git(args: Sequence[str], cwd: str, timeout: float,
+         overrides: Sequence[tuple[str, str]] = ()) -> bytes:
     """Run ``git ARGS`` in ``cwd`` and return its stdout, or raise :class:`GitError`."""
-    proc = _run(args, cwd, timeout)
+    proc = _run(args, cwd, timeout, overrides)
     if proc.returncode != 0:
         lines = [ln for ln in proc.stderr.decode("utf-8", "replace").splitlines() if ln.strip()]
-        detail = lines[-1].strip() if lines else f"exit status {proc.returncode}"
+        detail = printable(lines[-1].strip()) if lines else f"exit status {proc.returncode}"
         if "not a git repository" in detail:
-            raise GitError(f"{cwd} is not inside a git work tree", path=cwd)
-        raise GitError(f"'git {' '.join(args)}' failed: {detail}", path=cwd)
+            raise GitError(f"{printable(cwd)} is not inside a git work tree", path=cwd)
+        raise GitError(f"'git {printable(' '.join(args))}' failed: {detail}", path=cwd)
     return proc.stdout
 
 
@@ -223,17 +230,28 @@ def affected_specs(spec_paths: Sequence[str], rev: str, repo_dir: str = ".", *,
     """
     if not isinstance(rev, str) or not rev.strip() or rev.startswith("-") \
             or any(c in rev for c in "\0\n"):
-        raise GitError(f"{rev!r} is not a git revision", path=str(repo_dir))
+        raise GitError(f"{printable(repr(rev), 120)} is not a git revision", path=str(repo_dir))
     if not Path(repo_dir).is_dir():
-        raise GitError(f"repository directory {repo_dir} does not exist", path=str(repo_dir))
+        raise GitError(f"repository directory {printable(str(repo_dir))} does not exist",
+                       path=str(repo_dir))
+    from .provenance import filter_overrides
+
     top = os.fsdecode(_git(["rev-parse", "--show-toplevel"], str(repo_dir), timeout)).strip()
-    if _run(["rev-parse", "--verify", "--quiet", f"{rev}^{{commit}}"], top, timeout).returncode:
-        raise GitError(f"unknown git revision {rev!r} (in a shallow CI checkout, fetch it "
-                       "first, e.g. 'git fetch origin main')", path=top)
-    changed = set(_split_z(_git(["diff", "--name-only", "--no-renames", "-z", rev, "--"],
-                                top, timeout)))
+    try:
+        safe = filter_overrides(top, timeout)
+    except subprocess.TimeoutExpired:
+        raise GitError(f"'git config' did not finish within {timeout:g} s", path=top) from None
+    except OSError as err:
+        raise GitError(f"cannot run 'git config': {err.strerror or err}", path=top) from None
+    if _run(["rev-parse", "--verify", "--quiet", f"{rev}^{{commit}}"], top, timeout,
+            safe).returncode:
+        raise GitError(f"unknown git revision {printable(repr(rev), 120)} (in a shallow CI "
+                       "checkout, fetch it first, e.g. 'git fetch origin main')", path=top)
+    changed = set(_split_z(_git(["diff", "--name-only", "--no-renames", "--no-ext-diff",
+                                 "--no-textconv", "--ignore-submodules=dirty", "-z", rev, "--"],
+                                top, timeout, safe)))
     changed |= set(_split_z(_git(["ls-files", "--others", "--exclude-standard", "-z"],
-                                 top, timeout)))
+                                 top, timeout, safe)))
     changed_files = tuple(sorted(p.replace(os.sep, "/") for p in changed))
     by_key: dict[str, str] = {}
     for rel in changed_files:

@@ -1,20 +1,48 @@
-"""The ``netcheck check`` sub-command (wired in by :mod:`netcheck.cli`)."""
+"""The ``netcheck check`` sub-command (wired in by :mod:`netcheck.cli`).
+
+What a broken input costs: a spec, path or variant that cannot be used becomes an error
+result (reported, every other spec still judged, status 2); an output that cannot be
+written is reported and every other output is still written (status 2); a bug in
+netcheck while checking one spec, or while writing one output, is reported with its
+traceback and everything else is still written (status 3). Outputs are checked before
+the run: an output that would replace an input, a device or a FIFO is refused at once.
+"""
 
 from __future__ import annotations
 
 import argparse
 import datetime as _dt
 import os
+import stat
 import sys
 import time
 from pathlib import Path
-from typing import Callable
+from typing import Callable, NamedTuple
 
-__all__ = ["add_check_parser", "run_check", "find_specs", "created_utc"]
+from . import source as _source
+from .cli import safe_text
+from .source import printable
+
+__all__ = ["add_check_parser", "run_check", "find_specs", "created_utc", "SCAN_MAX_BYTES",
+           "MAX_JOBS_PER_CPU"]
+
+#: the most bytes of a ``.toml`` file read while scanning a folder for specs (the spec
+#: loader's own limit); a larger file is not read, and is named in a warning
+SCAN_MAX_BYTES = getattr(_source, "FILE_MAX_BYTES", 16 * 2**20)
+
+#: --jobs is capped at this many worker processes per CPU
+MAX_JOBS_PER_CPU = 4
+
+#: (option, renderer, attribute) of every single-file output of ``check``
+FILE_OUTPUTS = (("--json", "json", "json"), ("--junit", "junit", "junit"),
+                ("--sarif", "sarif", "sarif"), ("--summary-md", "markdown", "summary_md"),
+                ("--pdf-combined", "pdf", "pdf_combined"))
 
 
 def add_check_parser(sub, common: Callable[[argparse.ArgumentParser], None]) -> None:
     """Register ``check`` and its options."""
+    from .cli import cluster_address, job_count, threshold
+
     ck = sub.add_parser("check", help="judge spec files against their netlists",
                         description="Judge every limit of every spec; exit 0 when all pass, "
                         "1 when a limit fails, 2 when an input is bad.")
@@ -25,18 +53,20 @@ def add_check_parser(sub, common: Callable[[argparse.ArgumentParser], None]) -> 
     ck.add_argument("--summary-md", metavar="PATH", help="write a Markdown summary")
     ck.add_argument("--pdf", metavar="DIR", help="write one PDF report per spec into DIR")
     ck.add_argument("--pdf-combined", metavar="FILE", help="write one PDF for all specs")
-    ck.add_argument("--jobs", type=int, metavar="N", default=None,
-                    help="local worker processes (default: number of CPUs)")
-    ck.add_argument("--cluster", metavar="ADDRESS",
-                    help="run on an existing Dask distributed scheduler (tcp://host:8786)")
+    ck.add_argument("--jobs", type=job_count, metavar="N", default=None,
+                    help="local worker processes, at least 1 (default: number of CPUs; "
+                    f"at most {MAX_JOBS_PER_CPU} per CPU are started)")
+    ck.add_argument("--cluster", type=cluster_address, metavar="ADDRESS",
+                    help="run on an existing Dask distributed scheduler "
+                    "(tcp://HOST:PORT or tls://HOST:PORT)")
     ck.add_argument("--changed-since", metavar="REV",
                     help="check only specs whose spec, netlist or included files changed since "
                     "git revision REV")
     ck.add_argument("--baseline", metavar="PATH",
                     help="compare margins with an earlier --json result")
-    ck.add_argument("--drift-db", type=float, default=0.5, metavar="DB",
+    ck.add_argument("--drift-db", type=threshold, default=0.5, metavar="DB",
                     help="flag a dB margin that fell by more than DB (default 0.5)")
-    ck.add_argument("--drift-rel", type=float, default=0.1, metavar="FRACTION",
+    ck.add_argument("--drift-rel", type=threshold, default=0.1, metavar="FRACTION",
                     help="flag another margin that fell by more than FRACTION of its "
                     "baseline value (default 0.1)")
     ck.add_argument("--fail-on-drift", action="store_true",
@@ -46,26 +76,97 @@ def add_check_parser(sub, common: Callable[[argparse.ArgumentParser], None]) -> 
     common(ck)
 
 
-def find_specs(paths: list[str]) -> tuple[list[str], list[str]]:
-    """Spec files named or found (recursively, ``*.toml`` declaring ``netlist``) in ``paths``.
+_TOO_BIG = "too big"
 
-    Returns the spec paths (sorted within each directory) and paths that do not exist.
+
+def _toml_declares_netlist(path: str) -> bool | None | str:
+    """Whether the TOML file at ``path`` has a top-level ``netlist`` key.
+
+    None when that cannot be told without the loader (not a regular file, not UTF-8,
+    not TOML, nested too deeply): such a file is listed so that the loader reports what
+    is wrong with it. ``_TOO_BIG`` for a file over :data:`SCAN_MAX_BYTES`, which is not
+    read. Nothing but a regular file is ever opened.
     """
     import tomllib
 
+    try:
+        if not stat.S_ISREG(os.stat(path).st_mode):
+            return None
+        flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0) \
+            | getattr(os, "O_CLOEXEC", 0)
+        fd = os.open(path, flags)
+    except (OSError, ValueError):
+        return None
+    try:
+        st = os.fstat(fd)
+        if not stat.S_ISREG(st.st_mode):
+            return None
+        if st.st_size > SCAN_MAX_BYTES:
+            return _TOO_BIG
+        chunks, size = [], 0
+        while size <= SCAN_MAX_BYTES:
+            chunk = os.read(fd, 1 << 16)
+            if not chunk:
+                break
+            chunks.append(chunk)
+            size += len(chunk)
+    except OSError:
+        return None
+    finally:
+        os.close(fd)
+    if size > SCAN_MAX_BYTES:  # it grew while it was read
+        return _TOO_BIG
+    try:
+        doc = tomllib.loads(b"".join(chunks).decode("utf-8"))
+    except (UnicodeDecodeError, tomllib.TOMLDecodeError, RecursionError, MemoryError,
+            ValueError):
+        return None
+    return isinstance(doc, dict) and "netlist" in doc
+
+
+def _walk_toml(folder: Path, notes: list[str] | None) -> list[Path]:
+    """Every ``*.toml`` entry under ``folder`` that is not a folder (links to folders are
+    not followed, so a link loop cannot hold the scan)."""
+    found: list[Path] = []
+
+    def unreadable(err: OSError) -> None:
+        if notes is not None:
+            notes.append(f"{printable(str(err.filename or folder))}: warning: folder cannot "
+                         f"be read ({err.strerror or err}); specs in it are not checked")
+
+    for top, _dirs, files in os.walk(folder, onerror=unreadable, followlinks=False):
+        found.extend(Path(top) / name for name in files if name.endswith(".toml"))
+    return sorted(found)
+
+
+def find_specs(paths: list[str], notes: list[str] | None = None) -> tuple[list[str], list[str]]:
+    """Spec files named or found (recursively, ``*.toml`` declaring ``netlist``) in ``paths``.
+
+    Returns the spec paths (sorted within each directory) and paths that do not exist.
+    A ``.toml`` file met in a folder is opened only when it is a regular file, and at
+    most :data:`SCAN_MAX_BYTES` of it is read; one that cannot be read or parsed (a
+    FIFO, a device, broken or too deeply nested TOML) is listed, so the check reports
+    it. Files over that size and folders that cannot be read are named in ``notes``.
+    """
     specs, missing = [], []
     for p in paths:
         path = Path(p)
-        if path.is_dir():
-            for f in sorted(path.rglob("*.toml")):
-                try:
-                    doc = tomllib.loads(f.read_text("utf-8"))
-                except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
-                    specs.append(str(f))  # let the loader report what is wrong with it
-                    continue
-                if "netlist" in doc:
+        try:
+            is_dir = path.is_dir()
+            exists = is_dir or path.exists()
+        except (OSError, ValueError):
+            is_dir, exists = False, False
+        if is_dir:
+            for f in _walk_toml(path, notes):
+                found = _toml_declares_netlist(str(f))
+                if found is _TOO_BIG:
+                    if notes is not None:
+                        notes.append(f"{printable(str(f))}: warning: larger than "
+                                     f"{SCAN_MAX_BYTES} bytes, so not read and not checked "
+                                     "as a spec")
+                elif found is not False:
                     specs.append(str(f))
-        elif path.exists():
+        elif exists:
             specs.append(str(path))
         else:
             missing.append(p)
@@ -73,11 +174,19 @@ def find_specs(paths: list[str]) -> tuple[list[str], list[str]]:
 
 
 def created_utc() -> str:
-    """Report time: from SOURCE_DATE_EPOCH when set (reproducible builds), else now."""
-    epoch = os.environ.get("SOURCE_DATE_EPOCH")
-    if epoch and epoch.strip().isdigit():
-        t = _dt.datetime.fromtimestamp(int(epoch), _dt.timezone.utc)
-    else:
+    """Report time: from SOURCE_DATE_EPOCH when set (reproducible builds), else now.
+
+    The command line has already refused a value that is not a whole number of
+    seconds (and dropped an empty one); a value that still cannot be used here means now.
+    """
+    epoch = os.environ.get("SOURCE_DATE_EPOCH", "").strip()
+    t = None
+    if epoch.isascii() and epoch.isdigit():
+        try:
+            t = _dt.datetime.fromtimestamp(int(epoch), _dt.timezone.utc)
+        except (OverflowError, OSError, ValueError):
+            t = None
+    if t is None:
         t = _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0)
     return t.strftime("%Y-%m-%dT%H:%M:%SZ")
 
@@ -88,51 +197,6 @@ def _use_color(choice: str) -> bool:
     if choice == "never" or os.environ.get("NO_COLOR"):
         return False
     return sys.stdout.isatty()
-
-
-class _Progress:
-    """A one-line progress display for a terminal (nothing is drawn on CI logs).
-
-    Called with (done, total) as spec results finish, and through :mod:`netcheck.progress`
-    with (label, done, total) by long analyses inside a spec run in this process (a
-    Monte Carlo run, the worst-case corners).
-    """
-
-    WIDTH = 30
-
-    def __init__(self, stream, show_jobs: bool) -> None:
-        self.stream = stream
-        self.t0 = time.perf_counter()
-        self.show_jobs = show_jobs
-        self.jobs = ""
-        self.inner = ""
-        self.drawn = 0
-
-    def _bar(self, done: int, total: int) -> str:
-        fill = int(self.WIDTH * done / max(total, 1))
-        return f"[{'#' * fill}{'.' * (self.WIDTH - fill)}] {done}/{total}"
-
-    def _draw(self) -> None:
-        line = " · ".join(p for p in (self.jobs, self.inner) if p)
-        line = f"{line} {time.perf_counter() - self.t0:5.1f} s"
-        self.stream.write("\r" + line.ljust(self.drawn))
-        self.stream.flush()
-        self.drawn = max(self.drawn, len(line))
-
-    def __call__(self, done: int, total: int) -> None:
-        self.inner = ""
-        if self.show_jobs:
-            self.jobs = f"{self._bar(done, total)} specs"
-            self._draw()
-
-    def analysis(self, label: str, done: int, total: int) -> None:
-        self.inner = f"{label} {self._bar(done, total)}" if done < total else ""
-        self._draw()
-
-    def close(self) -> None:
-        if self.drawn:
-            self.stream.write("\r" + " " * self.drawn + "\r")
-            self.stream.flush()
 
 
 def _with_provenance(results: tuple) -> tuple:
@@ -150,80 +214,385 @@ def _with_provenance(results: tuple) -> tuple:
     return tuple(out)
 
 
-def run_check(args: argparse.Namespace) -> int:
-    """Run ``check``: judge, render every requested output, return the exit code."""
-    from . import __version__
-    from .cli import BAD_INPUT, DRIFT, FAIL, OK
-    from .render import RenderOptions, get_renderer, render_to
-    from .result import CheckResult, Status
+def _workers(args: argparse.Namespace, say: Callable[[str], None]) -> int | None:
+    """The local worker count: --jobs, capped at MAX_JOBS_PER_CPU per CPU (with a note)."""
+    if args.jobs is None:
+        return None
+    cpus = os.cpu_count() or 1
+    cap = MAX_JOBS_PER_CPU * cpus
+    if args.jobs > cap:
+        say(f"netcheck check: note: --jobs {args.jobs} is more than {MAX_JOBS_PER_CPU} per CPU "
+            f"({cpus} CPU{'s' if cpus != 1 else ''}); using at most {cap} worker processes")
+        return cap
+    return args.jobs
 
-    if args.pdf or args.pdf_combined:  # say what is missing before any work is done
-        from .report.pdf import require_libraries
-        require_libraries()
-    specs, missing = find_specs(args.paths)
-    for m in missing:
-        print(f"{m}: error NC200: no such file or directory", file=sys.stderr)
-    if not specs and not missing:
-        print("netcheck check: no spec files found (a spec is a .toml file with a "
-              "'netlist' key)", file=sys.stderr)
-        return BAD_INPUT
-    if args.changed_since:
+
+class _Output(NamedTuple):
+    option: str   # "--json"
+    fmt: str      # renderer name
+    path: str     # file path or "-"
+
+
+def _not_regular(path: str) -> str | None:
+    """Why ``path`` cannot be read as a spec without opening it, or None when it can."""
+    try:
+        mode = os.stat(path).st_mode
+    except OSError:
+        return None  # the loader reports a file that cannot be read in its own words
+    if stat.S_ISREG(mode):
+        return None
+    kind = ("a folder" if stat.S_ISDIR(mode) else "a FIFO (named pipe)" if stat.S_ISFIFO(mode)
+            else "a device" if stat.S_ISCHR(mode) or stat.S_ISBLK(mode) else "a socket"
+            if stat.S_ISSOCK(mode) else "a special file")
+    return f"it is {kind}, not a regular file; it was not read"
+
+
+class _Run:
+    """The state of one ``check`` run: what to write, and what went wrong so far."""
+
+    def __init__(self, args: argparse.Namespace) -> None:
+        from .outputs import OutputGuard
+
+        self.args = args
+        self.bad_input = False
+        self.internal = False
+        self.outputs: list[_Output] = []
+        self.pdf_dir: str | None = args.pdf
+        self.guard = OutputGuard()
+        self.only: set[str] | None = None
+
+    # -- messages ---------------------------------------------------------------------
+    def note(self, text: str) -> None:
+        """A warning or note (not shown with --quiet)."""
+        if not self.args.quiet:
+            print(safe_text(text), file=sys.stderr)
+
+    def error_text(self, text: str) -> None:
+        """An error message from an input (already counted elsewhere)."""
+        print(safe_text(text), file=sys.stderr)
+
+    def error(self, err: Exception) -> None:
+        """A bad input or an output that cannot be written: say so; the status becomes 2."""
+        from .exceptions import NetcheckError
+
+        self.bad_input = True
+        self.error_text(err.format() if isinstance(err, NetcheckError) else str(err))
+
+    def bug(self, what: str, exc: BaseException | None = None) -> None:
+        """A bug in netcheck: print the traceback and carry on; the status becomes 3."""
+        import traceback
+
+        from . import __version__
+
+        self.internal = True
+        if exc is None:
+            traceback.print_exc()
+        else:
+            traceback.print_exception(exc)
+        print(f"netcheck {__version__}: internal error while {what} (the traceback above is "
+              "a bug in netcheck, not a problem with your files; please report it); the "
+              "other results and outputs are still written", file=sys.stderr)
+
+    # -- outputs ----------------------------------------------------------------------
+    def plan_outputs(self, table: tuple[tuple[str, str, str], ...]) -> None:
+        """Check every requested output that can be checked before the run; refuse the
+        ones that cannot be written (each is reported, the others are kept)."""
+        from .exceptions import RenderError
+        from .outputs import check_output_path
+
+        args = self.args
+        to_stdout = [opt for opt, _, attr in table if getattr(args, attr) == "-"]
+        if self.pdf_dir == "-":
+            self.error(RenderError("output refused: --pdf writes one file per spec into a "
+                                   "folder; standard output ('-') cannot hold them (use "
+                                   "--pdf-combined - for one PDF on standard output)",
+                                   code="NC401", path="--pdf"))
+            self.pdf_dir = None
+        for opt, fmt, attr in table:
+            path = getattr(args, attr)
+            if not path:
+                continue
+            if path == "-" and len(to_stdout) > 1:
+                self.error(RenderError(
+                    f"output refused: {' and '.join(to_stdout)} "
+                    f"{'both' if len(to_stdout) == 2 else 'all'} ask for standard output "
+                    "('-'); only one output can go there, give the others file paths",
+                    code="NC401", path=opt))
+                continue
+            try:
+                check_output_path(path)
+                self.guard.claim(path, opt)
+            except RenderError as err:
+                self.error(err)
+                continue
+            self.outputs.append(_Output(opt, fmt, path))
+        if self.pdf_dir:
+            try:
+                check_output_path(self.pdf_dir, folder=True)
+            except RenderError as err:
+                self.error(err)
+                self.pdf_dir = None
+
+    def wants_pdf(self) -> bool:
+        """Whether a PDF output is still to be written."""
+        return self.pdf_dir is not None or any(o.fmt == "pdf" for o in self.outputs)
+
+    def _recheck_outputs(self) -> None:
+        from .exceptions import RenderError
+
+        kept = []
+        for o in self.outputs:
+            try:
+                self.guard.check(o.path)
+            except RenderError as err:
+                self.error(err)
+                continue
+            kept.append(o)
+        self.outputs = kept
+
+    def check_outputs_before(self, specs: list[str]) -> None:
+        """Refuse at once an output that names a file the run will read (a spec, its
+        netlist, an include, a variant table), as far as that is known before the run."""
+        if not self.outputs:
+            return
+        from ._changed_since import _spec_inputs
+
+        self.guard.add_inputs(specs, "spec")
+        for spec in specs:
+            if _not_regular(spec) is not None:
+                continue
+            try:
+                files = _spec_inputs(spec, self.args.root).files
+            except Exception:  # noqa: BLE001 - the run itself reports what is wrong
+                continue
+            self.guard.add_inputs(files, "input")
+        self._recheck_outputs()
+
+    def write_outputs(self, result) -> None:
+        """Write every output still planned; one that fails does not stop the others."""
+        from .exceptions import NetcheckError, RenderError
+        from .render import RenderOptions, render_to
+
+        for s in result.specs:
+            self.guard.add_inputs((p for p, _ in s.inputs), "input")
+        plain = RenderOptions(verbose=self.args.verbose)
+        for o in self.outputs:
+            try:
+                render_to(o.fmt, result, o.path, plain, guard=self.guard)
+            except NetcheckError as err:
+                self.error(err)
+            except OSError as err:  # standard output closed, or full
+                self.error(RenderError(f"cannot write output: {err.strerror or err}",
+                                       path=f"{o.option} {o.path}"))
+            except Exception:  # noqa: BLE001 - a bug: report it, write the others
+                self.bug(f"writing {o.option} {printable(o.path)}")
+        if self.pdf_dir:
+            from .report.pdf import render_per_spec
+
+            def failed(path: Path, exc: BaseException) -> None:
+                if isinstance(exc, NetcheckError):
+                    self.error(exc)
+                else:
+                    self.bug(f"writing {printable(str(path))}", exc)
+            try:
+                render_per_spec(result, self.pdf_dir, plain, guard=self.guard, on_error=failed)
+            except NetcheckError as err:
+                self.error(err)
+            except Exception:  # noqa: BLE001
+                self.bug(f"writing --pdf {printable(self.pdf_dir)}")
+
+    def show_table(self, result, color: bool) -> None:
+        """The terminal table (on stderr when a document goes to stdout); none when
+        nothing was checked."""
+        from .render import RenderOptions, get_renderer
+
+        if not result.specs:
+            return
+        to_stdout = any(o.path == "-" for o in self.outputs)
+        stream = sys.stderr if to_stdout else sys.stdout
+        options = RenderOptions(color=color, verbose=self.args.verbose)
+        try:
+            get_renderer("text")(result, stream, options)
+            stream.flush()
+        except BrokenPipeError:  # the reader went away: the outputs are still written
+            os.dup2(os.open(os.devnull, os.O_WRONLY), stream.fileno())
+        except Exception:  # noqa: BLE001
+            self.bug("showing the result table")
+
+    # -- inputs -----------------------------------------------------------------------
+    def load_baseline(self) -> dict | None:
+        """The baseline document, read before the run so a bad one is reported at once
+        (the run goes on; there is then no comparison and the status is 2)."""
+        if not self.args.baseline:
+            return None
+        from .ci import load_baseline
+        from .exceptions import NetcheckError
+
+        self.guard.add_inputs([self.args.baseline], "baseline")
+        self._recheck_outputs()
+        try:
+            return load_baseline(self.args.baseline)
+        except NetcheckError as err:
+            self.error(err)
+            return None
+
+    def changed_since(self, specs: list[str]) -> list[str]:
+        """With --changed-since, the affected specs only (git failures raise NC410)."""
+        rev = self.args.changed_since
+        if not rev:
+            return specs
         from .ci import affected_specs
-        affected = affected_specs(specs, args.changed_since, ".", root=args.root)
+
+        affected = affected_specs(specs, rev, ".", root=self.args.root)
         if not affected.paths:
             print(f"netcheck check: no spec is affected by the {len(affected.changed_files)} "
-                  f"file(s) changed since {args.changed_since}; nothing to check")
-            return OK
+                  f"file(s) changed since {printable(rev)}; nothing to check")
         for path, why in affected.reasons().items():
-            print(f"{path}: affected by {', '.join(why)}", file=sys.stderr)
-        specs = list(affected.paths)
-    only = set(specs) if args.changed_since else None
-    from .batch import DaskExecutor, LocalExecutor, expand_jobs, run_all
-    items = expand_jobs(specs)
-    executor = DaskExecutor(args.cluster) if args.cluster else LocalExecutor(args.jobs)
-    t0 = time.perf_counter()
-    if sys.stderr.isatty():
-        from .progress import reporting
-        bar = _Progress(sys.stderr, show_jobs=len(items) > 1)
+            self.note(f"{path}: affected by {', '.join(why) or 'its own load error'}")
+        self.only = set(affected.paths)
+        return list(affected.paths)
+
+    def _expand(self, spec: str) -> list:
+        import inspect
+
+        from .batch import expand_jobs
+        from .evaluate import error_result
+        from .exceptions import INTERNAL_CODE, NetcheckError
+
+        kwargs = {}
+        if "design_root" in inspect.signature(expand_jobs).parameters:
+            kwargs["design_root"] = self.args.root
+        try:
+            return list(expand_jobs([spec], **kwargs))
+        except NetcheckError as err:
+            return [error_result(spec, err)]
+        except Exception as exc:  # noqa: BLE001
+            self.bug(f"reading {printable(spec)}")
+            return [error_result(spec, NetcheckError(
+                f"internal error in netcheck: {type(exc).__name__}: {exc}",
+                code=INTERNAL_CODE, path=spec))]
+
+    def judge(self, specs: list[str], missing: list[str], found_none: bool,
+              workers: int | None) -> tuple:
+        """Every result, in order: the specs' (or their variants'), then the paths that
+        named nothing. Whatever goes wrong becomes an error result."""
+        from .batch import DaskExecutor, Job, LocalExecutor, run_all
+        from .evaluate import error_result
+        from .exceptions import INTERNAL_CODE, NetcheckError, SpecError
+
+        items: list = []
+        for spec in specs:
+            why = _not_regular(spec)
+            if why is not None:
+                items.append(error_result(spec, NetcheckError(f"cannot read spec: {why}",
+                                                              code="NC117", path=spec)))
+            else:
+                items.extend(self._expand(spec))
+        jobs = [it for it in items if isinstance(it, Job)]
+        executor = DaskExecutor(self.args.cluster) if self.args.cluster else \
+            LocalExecutor(workers)
+        try:
+            results = list(self._run_all(run_all, items, executor, len(jobs)))
+        except NetcheckError as err:  # the executor itself failed (a cluster unreachable)
+            results = [error_result(it.spec, err, variant=it.variant)
+                       if isinstance(it, Job) else it for it in items]
+        except Exception as exc:  # noqa: BLE001
+            self.bug("checking the specs")
+            bug = f"internal error in netcheck: {type(exc).__name__}: {exc}"
+            results = [error_result(it.spec, NetcheckError(bug, code=INTERNAL_CODE,
+                                                           path=it.spec), variant=it.variant)
+                       if isinstance(it, Job) else it for it in items]
+        for m in missing:
+            results.append(error_result(m, SpecError("no such file or folder", code="NC200",
+                                                     path=m)))
+        if found_none:
+            for p in self.args.paths:
+                results.append(error_result(p, SpecError(
+                    "no spec files found (a spec is a .toml file with a 'netlist' key)",
+                    code="NC200", path=p)))
+        if any(c.code == INTERNAL_CODE for r in results for c in r.cautions):
+            self.internal = True
+        return tuple(results)
+
+    @staticmethod
+    def _run_all(run_all, items: list, executor, n_jobs: int) -> tuple:
+        if not sys.stderr.isatty():
+            return run_all(items, executor)
+        from .progress import TerminalBar, reporting
+        bar = TerminalBar(sys.stderr, show_jobs=n_jobs > 1)
         try:
             with reporting(bar.analysis):
-                results = run_all(items, executor, bar)
+                return run_all(items, executor, bar)
         finally:
             bar.close()
-    else:
-        results = run_all(items, executor)
-    results = _with_provenance(results)
+
+    def compare(self, result, baseline: dict | None) -> bool:
+        """Compare with the baseline (if one was read); True when a margin drifted."""
+        if baseline is None:
+            return False
+        from .ci import compare_baseline
+        from .exceptions import NetcheckError
+        from .render.jsonreport import to_dict
+
+        try:
+            report = compare_baseline(to_dict(result), baseline, self.args.drift_db,
+                                      self.args.drift_rel, only_specs=self.only)
+        except NetcheckError as err:
+            self.error(err)
+            return False
+        for d in report.drifted:
+            print(safe_text(f"drift: {d.describe()}"))
+        print(f"baseline {printable(self.args.baseline)}: {report.compared} margins compared, "
+              f"{len(report.drifted)} drifted")
+        return report.has_drift
+
+
+def run_check(args: argparse.Namespace) -> int:
+    """Run ``check``: judge, render every requested output, return the exit code.
+
+    Every requested output is written whatever happened to the specs (an output that
+    was refused or failed is reported). Status: 3 when a bug in netcheck cost a result
+    or an output, else 2 when an input, argument or output was bad, else 1 when a limit
+    failed or could not be measured, else 4 for drift with ``--fail-on-drift``, else 0.
+    """
+    from . import __version__
+    from .cli import BAD_INPUT, DRIFT, FAIL, INTERNAL, OK
+    from .result import CheckResult, Status
+
+    run = _Run(args)
+    run.plan_outputs(FILE_OUTPUTS)
+    if run.wants_pdf():  # say what is missing before any work is done
+        from .report.pdf import require_libraries
+        require_libraries()
+    workers = _workers(args, run.note)
+    baseline = run.load_baseline()
+    notes: list[str] = []
+    specs, missing = find_specs(args.paths, notes)
+    for n in notes:
+        run.note(n)
+    found_none = not specs and not missing
+    specs = run.changed_since(specs)
+    run.check_outputs_before(specs)
+    t0 = time.perf_counter()
+    results = run.judge(specs, missing, found_none, workers)
+    if results:
+        try:
+            results = _with_provenance(results)
+        except Exception:  # noqa: BLE001 - the results stand without their git record
+            run.bug("recording the git state")
     result = CheckResult(results, __version__, created_utc())
-    options = RenderOptions(color=_use_color(args.color), verbose=args.verbose)
-    to_stdout = "-" in (args.json, args.junit, args.sarif, args.summary_md, args.pdf_combined)
-    # a document written to stdout keeps stdout to itself; the table goes to stderr
-    table_stream = sys.stderr if to_stdout else sys.stdout
-    get_renderer("text")(result, table_stream, options)
-    print(f"checked {len(results)} spec result{'s' if len(results) != 1 else ''} in "
-          f"{time.perf_counter() - t0:.1f} s", file=sys.stderr)
+    run.show_table(result, _use_color(args.color))
+    if results:
+        print(f"checked {len(results)} spec result{'s' if len(results) != 1 else ''} in "
+              f"{time.perf_counter() - t0:.1f} s", file=sys.stderr)
     for s in results:
         if s.error:
-            print(s.error, file=sys.stderr)
-    plain = RenderOptions(verbose=args.verbose)
-    for fmt, path in (("json", args.json), ("junit", args.junit), ("sarif", args.sarif),
-                      ("markdown", args.summary_md), ("pdf", args.pdf_combined)):
-        if path:
-            render_to(fmt, result, path, plain)
-    if args.pdf:
-        from .report.pdf import render_per_spec
-        render_per_spec(result, args.pdf, plain)
-    drifted = False
-    if args.baseline:
-        from .ci import compare_baseline, load_baseline
-        from .render.jsonreport import to_dict
-        report = compare_baseline(to_dict(result), load_baseline(args.baseline),
-                                  args.drift_db, args.drift_rel, only_specs=only)
-        for d in report.drifted:
-            print(f"drift: {d.describe()}")
-        print(f"baseline {args.baseline}: {report.compared} margins compared, "
-              f"{len(report.drifted)} drifted")
-        drifted = report.has_drift
-    if missing or result.status is Status.ERROR and any(s.error for s in results):
+            run.error_text(s.error)
+    run.write_outputs(result)
+    drifted = run.compare(result, baseline)
+    if run.internal:
+        return INTERNAL
+    if run.bad_input or any(s.error for s in results):
         return BAD_INPUT
     if result.status is not Status.PASS:
         return FAIL

@@ -1,18 +1,30 @@
-"""The ``netcheck`` command: argument parsing, output and named exit codes."""
+"""The ``netcheck`` command: argument parsing, output and named exit codes.
+
+Everything printed that came from an input (names, titles, paths, messages) goes
+through :func:`safe_text`: control characters and bidirectional overrides are shown as
+escapes, lines and line counts are bounded. A bad command-line value is an ``NC402``
+error (status 2) that says what is accepted; SIGTERM ends the run like Ctrl-C, so no
+temporary file is left behind.
+"""
 
 from __future__ import annotations
 
 import argparse
 import json
+import math
 import os
+import re
+import signal
 import sys
 import time
 from collections.abc import Sequence
 
 from . import __version__
 from .exceptions import Diagnostic, NetcheckError
+from .source import printable
 
-__all__ = ["main", "OK", "FAIL", "BAD_INPUT", "INTERNAL", "DRIFT"]
+__all__ = ["main", "OK", "FAIL", "BAD_INPUT", "INTERNAL", "DRIFT", "TERMINATED", "safe_text",
+           "job_count", "threshold", "cluster_address", "LINE_MAX", "LINES_MAX"]
 
 #: every limit passed (or the sweep ran)
 OK = 0
@@ -24,8 +36,32 @@ BAD_INPUT = 2
 INTERNAL = 3
 #: every limit passed but a margin drifted from the baseline (with --fail-on-drift)
 DRIFT = 4
+#: stopped by Ctrl-C (128 + SIGINT) or by SIGTERM (128 + SIGTERM)
+INTERRUPTED, TERMINATED = 130, 143
 
 DOCS = "docs/errors.md#"
+
+#: the most characters of one printed line that carries text from an input
+LINE_MAX = 1000
+#: the most lines of one printed message (the rest are counted, not shown)
+LINES_MAX = 60
+
+#: the latest SOURCE_DATE_EPOCH accepted (the last second of the year 9999)
+EPOCH_MAX = 253402300799
+
+
+def safe_text(text: str) -> str:
+    """``text`` made safe to print: each line through :func:`netcheck.source.printable`
+    (escapes shown, length bounded), at most :data:`LINES_MAX` lines.
+
+    >>> print(safe_text("a.cir:1:1: error NC100: R1" + chr(27) + "]0;title" + chr(7)))
+    a.cir:1:1: error NC100: R1\\x1b]0;title\\x07
+    """
+    lines = str(text).split("\n")
+    out = [printable(ln, LINE_MAX) for ln in lines[:LINES_MAX]]
+    if len(lines) > LINES_MAX:
+        out.append(f"… ({len(lines) - LINES_MAX} more lines)")
+    return "\n".join(out)
 
 
 def _eng(text: str) -> float:
@@ -36,19 +72,70 @@ def _eng(text: str) -> float:
         raise argparse.ArgumentTypeError(str(err)) from None
 
 
+def _shown(text: str) -> str:
+    return printable(repr(text), 60)
+
+
 def _positive_int(text: str) -> int:
     try:
         value = int(text)
     except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+        raise argparse.ArgumentTypeError(f"{_shown(text)} is not a whole number") from None
     if value < 1:
-        raise argparse.ArgumentTypeError("must be at least 1")
+        raise argparse.ArgumentTypeError(f"must be at least 1 (got {value})")
     return value
+
+
+def job_count(text: str) -> int:
+    """``--jobs``: a whole number of worker processes, at least 1."""
+    return _positive_int(text)
+
+
+def threshold(text: str) -> float:
+    """``--drift-db``/``--drift-rel``: a finite number, zero or more."""
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{_shown(text)} is not a number; give a finite "
+                                         "number, zero or more") from None
+    if not math.isfinite(value) or value < 0:
+        raise argparse.ArgumentTypeError(f"{_shown(text)} is not accepted; give a finite "
+                                         "number, zero or more")
+    return value
+
+
+_HOST = re.compile(r"^(?:\[[0-9A-Fa-f:.]+\]|[A-Za-z0-9](?:[A-Za-z0-9.-]{0,251}[A-Za-z0-9])?)$")
+
+
+def cluster_address(text: str) -> str:
+    """``--cluster``: ``tcp://HOST:PORT`` or ``tls://HOST:PORT`` and nothing else.
+
+    >>> cluster_address("tcp://scheduler.quillmere.invalid:8786")
+    'tcp://scheduler.quillmere.invalid:8786'
+    """
+    accepted = "give tcp://HOST:PORT or tls://HOST:PORT (a Dask scheduler address)"
+    scheme, sep, rest = text.partition("://")
+    if not sep or scheme not in ("tcp", "tls"):
+        raise argparse.ArgumentTypeError(f"{_shown(text)} is not accepted: {accepted}")
+    host, colon, port = rest.rpartition(":")
+    if not colon or not _HOST.match(host) or not port.isascii() or not port.isdigit() \
+            or not 1 <= int(port) <= 65535:
+        raise argparse.ArgumentTypeError(f"{_shown(text)} is not accepted: {accepted}, "
+                                         "with a port from 1 to 65535 and no path")
+    return text
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse with netcheck's error format: ``netcheck check: error NC402: ...``."""
+
+    def error(self, message: str) -> None:  # type: ignore[override]
+        self.print_usage(sys.stderr)
+        self.exit(BAD_INPUT, f"{self.prog}: error NC402: {safe_text(message)}\n")
 
 
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser (exposed for documentation and tests)."""
-    ap = argparse.ArgumentParser(prog="netcheck", description=(
+    ap = _Parser(prog="netcheck", description=(
         "Prove that filter netlists meet their frequency-response spec."))
     ap.add_argument("--version", action="version", version=f"netcheck {__version__}")
     sub = ap.add_subparsers(dest="command", required=True, metavar="COMMAND")
@@ -87,21 +174,58 @@ def print_diagnostics(diags: Sequence[Diagnostic], quiet: bool = False) -> None:
     if quiet:
         return
     for d in diags:
-        print(d.format(), file=sys.stderr)
+        print(safe_text(d.format()), file=sys.stderr)
+
+
+#: the sweep the command line accepts when :func:`netcheck.spec.validate_sweep` is absent
+SWEEP_MAX_HZ = 1e15
+SWEEP_MAX_POINTS = 1_000_000
+
+
+def _sweep_problem(start: float, stop: float, ppd: int) -> NetcheckError | None:
+    """Why ``--start/--stop/--ppd`` cannot be swept (NC402 or the spec's NC205), or None."""
+    if not (math.isfinite(start) and math.isfinite(stop) and 0 < start < stop):
+        return NetcheckError(f"need 0 < --start < --stop, both finite (got {start:g}, "
+                             f"{stop:g})", code="NC402", path="netcheck sweep")
+    from . import spec as spec_module
+
+    validate = getattr(spec_module, "validate_sweep", None)
+    if validate is not None:
+        try:
+            validate(start, stop, ppd)
+        except NetcheckError as err:  # its words name spec keys; say which options they are
+            return NetcheckError(f"{err.message} (the sweep of --start, --stop and --ppd)",
+                                 code=err.code, path="netcheck sweep")
+        return None
+    if stop > SWEEP_MAX_HZ:
+        return NetcheckError(f"--stop {stop:g} Hz is above the {SWEEP_MAX_HZ:g} Hz netcheck "
+                             "solves", code="NC402", path="netcheck sweep")
+    points = math.log10(stop / start) * ppd + 1
+    if points > SWEEP_MAX_POINTS:
+        return NetcheckError(f"--start {start:g}, --stop {stop:g} and --ppd {ppd} ask for "
+                             f"about {points:.3g} points; at most {SWEEP_MAX_POINTS} are "
+                             "solved (lower --ppd or narrow the band)", code="NC402",
+                             path="netcheck sweep")
+    return None
 
 
 def _sweep(args: argparse.Namespace) -> int:
     import numpy as np
 
     from .elaborate import read_netlist
-    from .outputs import open_output
+    from .outputs import OutputGuard, check_output_path, open_output
     from .solve import solve
     from .assemble import assemble
 
-    if not (0 < args.start < args.stop):
-        print(f"netcheck sweep: error: need 0 < --start < --stop (got {args.start:g}, "
-              f"{args.stop:g})", file=sys.stderr)
+    problem = _sweep_problem(args.start, args.stop, args.ppd)
+    if problem is not None:
+        print(safe_text(problem.format()), file=sys.stderr)
         return BAD_INPUT
+    target = args.csv or args.json
+    guard = OutputGuard([args.netlist], "netlist")
+    if target:  # an output that cannot be written is refused before any work is done
+        check_output_path(target)
+        guard.check(target)
     t0 = time.perf_counter()
     circuit = read_netlist(args.netlist, root=args.root, allow_negative=args.allow_negative)
     system = assemble(circuit, args.source, args.node, args.ref)
@@ -116,8 +240,10 @@ def _sweep(args: argparse.Namespace) -> int:
     resp = solve(system, f)
     elapsed = time.perf_counter() - t0
     mag, ph, gd = resp.magnitude_db, resp.phase_deg, resp.group_delay_s
+    guard.add_inputs((src_file.path for src_file in getattr(circuit, "sources", ())),
+                     "included file")
     if args.csv:
-        with open_output(args.csv) as out:
+        with open_output(args.csv, guard=guard) as out:
             out.write("frequency_hz,magnitude_db,phase_deg,group_delay_s\n")
             for row in zip(f, mag, ph, gd):
                 out.write(",".join(repr(float(v)) for v in row) + "\n")
@@ -127,7 +253,7 @@ def _sweep(args: argparse.Namespace) -> int:
                "ref": args.ref, "method": resp.method,
                "frequency_hz": f.tolist(), "magnitude_db": [_num(v) for v in mag],
                "phase_deg": ph.tolist(), "group_delay_s": [_num(v) for v in gd]}
-        with open_output(args.json) as out:
+        with open_output(args.json, guard=guard) as out:
             json.dump(doc, out, indent=1, sort_keys=True)
             out.write("\n")
     else:
@@ -142,7 +268,7 @@ def _sweep(args: argparse.Namespace) -> int:
         except (MeasurementFailure, ValueError):
             pass
         unit = "dB (V/V)" if src.letter == "V" else "dB re 1 V/A"
-        print(f"{circuit.title or args.netlist}")
+        print(printable(circuit.title or args.netlist))
         print(f"  peak gain {g_pk:.4f} {unit} at {format_si(f_pk, 'Hz', 7)} ({how})")
         print(f"  {f.size} points from {format_si(args.start, 'Hz')} to "
               f"{format_si(args.stop, 'Hz')} solved in {elapsed * 1e3:.1f} ms "
@@ -155,21 +281,90 @@ def _num(v: float) -> float | None:
     return None if not math.isfinite(v) else float(v)
 
 
+class _Terminated(BaseException):
+    """SIGTERM, raised in the main thread so that clean-up (``finally`` blocks) runs."""
+
+
+def _install_sigterm() -> object:
+    """Turn SIGTERM into :class:`_Terminated` in this process; return the old handler.
+
+    A worker process forked from this one gets the default action back and is ended by
+    the signal as usual. Outside the main thread nothing is installed (None returned).
+    """
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        return None
+    main_pid = os.getpid()
+
+    def handler(signum: int, frame: object) -> None:
+        if os.getpid() != main_pid:
+            signal.signal(signal.SIGTERM, signal.SIG_DFL)
+            os.kill(os.getpid(), signal.SIGTERM)
+            return
+        raise _Terminated()
+
+    try:
+        return signal.signal(signal.SIGTERM, handler)
+    except (ValueError, OSError):
+        return None
+
+
+def _settle_source_date_epoch(quiet: bool) -> NetcheckError | None:
+    """Check ``SOURCE_DATE_EPOCH`` once for the whole run.
+
+    Empty (what a failed ``$(git log ...)`` gives): removed from the environment, so no
+    library that reads it (the report clock, matplotlib, font subsetting, numpy) fails
+    on it, with one warning line. Not a whole number of seconds, negative, or after the
+    year 9999: an ``NC402`` error, returned.
+    """
+    raw = os.environ.get("SOURCE_DATE_EPOCH")
+    if raw is None:
+        return None
+    value = raw.strip()
+    if not value:
+        del os.environ["SOURCE_DATE_EPOCH"]
+        if not quiet:
+            print("netcheck: warning: SOURCE_DATE_EPOCH is set but empty; it is ignored and "
+                  "reports carry the current time", file=sys.stderr)
+        return None
+    if value.isascii() and value.isdigit():
+        if int(value) <= EPOCH_MAX:
+            return None
+        why = "is after the year 9999"
+    elif value[:1] == "-" and value[1:].isascii() and value[1:].isdigit():
+        why = "is negative"
+    else:
+        why = "is not a whole number"
+    return NetcheckError(f"SOURCE_DATE_EPOCH={printable(repr(raw), 60)} {why}; give the "
+                         "report time as whole seconds since 1970-01-01 UTC (for example "
+                         "the commit time, git log -1 --format=%ct), or leave it unset",
+                         code="NC402", path="netcheck")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run netcheck; return the exit code (see module constants)."""
     parser = build_parser()
     args = parser.parse_args(argv)
+    problem = _settle_source_date_epoch(bool(getattr(args, "quiet", False)))
+    if problem is not None:
+        print(safe_text(problem.format()), file=sys.stderr)
+        return BAD_INPUT
+    previous = _install_sigterm()
     try:
         if args.command == "sweep":
             return _sweep(args)
         from .checkcli import run_check
         return run_check(args)
     except NetcheckError as err:
-        print(err.format(), file=sys.stderr)
+        print(safe_text(err.format()), file=sys.stderr)
         return BAD_INPUT
     except KeyboardInterrupt:
         print("netcheck: interrupted", file=sys.stderr)
-        return 130
+        return INTERRUPTED
+    except _Terminated:
+        print("netcheck: stopped by SIGTERM", file=sys.stderr)
+        return TERMINATED
     except BrokenPipeError:
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return OK
@@ -179,3 +374,17 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"netcheck {__version__}: internal error (the traceback above is a bug in "
               "netcheck, not a problem with your files; please report it)", file=sys.stderr)
         return INTERNAL
+    finally:
+        from .outputs import remove_partial_files
+        if previous is not None:  # a second SIGTERM must not interrupt the clean-up
+            _set_sigterm(signal.SIG_IGN)
+        remove_partial_files()
+        if previous is not None:
+            _set_sigterm(previous)
+
+
+def _set_sigterm(handler: object) -> None:
+    try:
+        signal.signal(signal.SIGTERM, handler)  # type: ignore[arg-type]
+    except (ValueError, OSError, TypeError):
+        pass

@@ -14,11 +14,14 @@ the batch display counts their finished jobs instead).
 
 from __future__ import annotations
 
+import time
 from contextlib import contextmanager
 from contextvars import ContextVar
-from typing import Callable, Iterator
+from typing import IO, Callable, Iterator
 
-__all__ = ["Report", "reporting", "report", "active"]
+from .source import printable
+
+__all__ = ["Report", "reporting", "report", "active", "TerminalBar"]
 
 #: ``callback(label, done, total)``
 Report = Callable[[str, int, int], None]
@@ -46,3 +49,48 @@ def report(label: str, done: int, total: int) -> None:
 def active() -> bool:
     """Whether a display is listening (long loops may then work in smaller steps)."""
     return _current.get() is not None
+
+
+class TerminalBar:
+    """A one-line progress display for a terminal (nothing is drawn on CI logs).
+
+    Called with (done, total) as spec results finish, and through :mod:`netcheck.progress`
+    with (label, done, total) by long analyses inside a spec run in this process (a
+    Monte Carlo run, the worst-case corners).
+    """
+
+    WIDTH = 30
+
+    def __init__(self, stream: IO[str], show_jobs: bool) -> None:
+        self.stream = stream
+        self.t0 = time.perf_counter()
+        self.show_jobs = show_jobs
+        self.jobs = ""
+        self.inner = ""
+        self.drawn = 0
+
+    def _bar(self, done: int, total: int) -> str:
+        fill = int(self.WIDTH * done / max(total, 1))
+        return f"[{'#' * fill}{'.' * (self.WIDTH - fill)}] {done}/{total}"
+
+    def _draw(self) -> None:
+        line = " · ".join(p for p in (self.jobs, self.inner) if p)
+        line = f"{printable(line)} {time.perf_counter() - self.t0:5.1f} s"
+        self.stream.write("\r" + line.ljust(self.drawn))
+        self.stream.flush()
+        self.drawn = max(self.drawn, len(line))
+
+    def __call__(self, done: int, total: int) -> None:
+        self.inner = ""
+        if self.show_jobs:
+            self.jobs = f"{self._bar(done, total)} specs"
+            self._draw()
+
+    def analysis(self, label: str, done: int, total: int) -> None:
+        self.inner = f"{label} {self._bar(done, total)}" if done < total else ""
+        self._draw()
+
+    def close(self) -> None:
+        if self.drawn:
+            self.stream.write("\r" + " " * self.drawn + "\r")
+            self.stream.flush()

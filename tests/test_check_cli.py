@@ -153,16 +153,20 @@ class TestColour:
         assert (ANSI in capsys.readouterr().out) is coloured
 
 
-def test_internal_error_exit_code(monkeypatch, capsys):
-    # a bug (any exception that is not a NetcheckError) keeps its traceback and exits 3
+def test_internal_error_exit_code(monkeypatch, capsys, tmp_path):
+    # a bug (any exception that is not a NetcheckError) is reported with its traceback,
+    # every output is still written, and the exit status is 3
     import netcheck.evaluate
 
     def boom(*args, **kwargs):
         raise RuntimeError("simulated bug")
     monkeypatch.setattr(netcheck.evaluate, "check_spec", boom)
-    assert main(["check", ONE]) == INTERNAL
+    assert main(["check", ONE, "--json", str(tmp_path / "r.json")]) == INTERNAL
     err = capsys.readouterr().err
-    assert "Traceback" in err and "RuntimeError: simulated bug" in err
+    assert "RuntimeError: simulated bug" in err
+    doc = json.loads((tmp_path / "r.json").read_text("utf-8"))
+    assert doc["specs"][0]["status"] == "error"
+    assert "NC500" in {c["code"] for c in doc["specs"][0]["cautions"]}
 
 
 @pytest.mark.parametrize("args, code", [(["specs/sk_lowpass.toml", "specs/rx40k.toml"], OK),

@@ -110,7 +110,7 @@ class TestJson:
     def test_csv_and_json_are_exclusive(self, capsys, samples):
         with pytest.raises(SystemExit) as info:
             main(["sweep", str(samples / "rx40k.cir"), "--source", "VIN", "--node", "out",
-                  "--start", "1k", "--stop", "2k", "--ppd", "1", "--csv", "-", "--json", "-"])
+                  "--start", "1k", "--stop", "2k", "--ppd", "2", "--csv", "-", "--json", "-"])
         assert info.value.code == 2
 
 
@@ -151,7 +151,7 @@ class TestStimulus:
         path = tmp_path / "w.cir"
         path.write_text("warn\nV1 in 0 1\nR1 in out 1M\nR2 out 0 1k\n")
         args = [str(path), "--source", "V1", "--node", "out", "--start", "1k", "--stop",
-                "10k", "--ppd", "1", "--csv", "-"]
+                "10k", "--ppd", "2", "--csv", "-"]
         code, out, err = sweep(capsys, *args)
         assert code == OK and out.startswith(HEADER)
         assert f"{path}:3:11: warning NC151" in err
@@ -167,7 +167,7 @@ class TestBadInput:
     def test_bad_netlist(self, capsys, name, where):
         path = BAD / name
         code, out, err = sweep(capsys, str(path), "--source", "VIN", "--node", "out",
-                               "--start", "1k", "--stop", "10k", "--ppd", "1", "--csv", "-")
+                               "--start", "1k", "--stop", "10k", "--ppd", "2", "--csv", "-")
         assert code == BAD_INPUT
         assert out == ""
         lines = err.split("\n")
@@ -182,25 +182,25 @@ class TestBadInput:
     ])
     def test_bad_request(self, capsys, samples, extra, message):
         code, out, err = sweep(capsys, str(samples / "rx40k.cir"), *extra, "--start", "1k",
-                               "--stop", "10k", "--ppd", "1")
+                               "--stop", "10k", "--ppd", "2")
         assert code == BAD_INPUT and out == ""
         assert message in err and "Traceback" not in err
 
     def test_missing_file(self, capsys, tmp_path):
         code, _, err = sweep(capsys, str(tmp_path / "nope.cir"), "--source", "V1", "--node",
-                             "a", "--start", "1k", "--stop", "10k", "--ppd", "1")
+                             "a", "--start", "1k", "--stop", "10k", "--ppd", "2")
         assert code == BAD_INPUT
         assert "error NC104: cannot read netlist" in err
 
     def test_start_not_below_stop(self, capsys, samples):
         code, _, err = sweep(capsys, str(samples / "rx40k.cir"), "--source", "VIN", "--node",
-                             "out", "--start", "10k", "--stop", "1k", "--ppd", "1")
+                             "out", "--start", "10k", "--stop", "1k", "--ppd", "2")
         assert code == BAD_INPUT and "--start < --stop" in err
 
     @pytest.mark.parametrize("flag,value", [("--start", "abc"), ("--stop", "1M5"),
                                             ("--ppd", "0"), ("--ppd", "2.5")])
     def test_bad_argument_values(self, capsys, samples, flag, value):
-        args = {"--start": "1k", "--stop": "10k", "--ppd": "1"}
+        args = {"--start": "1k", "--stop": "10k", "--ppd": "2"}
         args[flag] = value
         with pytest.raises(SystemExit) as info:
             main(["sweep", str(samples / "rx40k.cir"), "--source", "VIN", "--node", "out",

@@ -42,9 +42,15 @@ def get_renderer(name: str) -> Callable[[CheckResult, IO, RenderOptions], None]:
 
 
 def render_to(name: str, result: CheckResult, path: str,
-              options: RenderOptions | None = None) -> None:
-    """Render ``result`` as ``name`` into ``path`` (``-`` = stdout), atomically."""
+              options: RenderOptions | None = None, *, guard: Any = None) -> None:
+    """Render ``result`` as ``name`` into ``path`` (``-`` = stdout), atomically.
+
+    ``guard`` (an :class:`netcheck.outputs.OutputGuard`) holds the run's inputs, which
+    ``path`` may not name. Raises :class:`netcheck.exceptions.RenderError` when the file
+    is refused or cannot be written; a file that was there is then left as it was.
+    """
     from ..outputs import open_output
     _, binary = RENDERERS[name]
-    with open_output(path, binary=binary) as stream:
-        get_renderer(name)(result, stream, options or RenderOptions())
+    renderer = get_renderer(name)
+    with open_output(path, binary=binary, guard=guard) as stream:
+        renderer(result, stream, options or RenderOptions())

@@ -35,6 +35,11 @@ __all__ = ["render", "md_text"]
 # text never stands in this layout.
 _SPECIAL = frozenset("\\`*_[]<>|~&$")
 
+# line separators and bidirectional embeddings, overrides and isolates: shown as escapes,
+# so what the summary shows is what is in the file (a terminal given ``--summary-md -``
+# or a rendered page cannot reorder it)
+_INVISIBLE = frozenset("\u2028\u2029\u202a\u202b\u202c\u202d\u202e\u2066\u2067\u2068\u2069")
+
 _VERDICT = {
     Status.PASS: "every limit is met",
     Status.FAIL: "some limits are not met",
@@ -62,7 +67,7 @@ def md_text(value: object) -> str:
             out.append(" ")
         elif ord(ch) < 0x20 or 0x7f <= ord(ch) < 0xa0:
             out.append(f"\\x{ord(ch):02x}")
-        elif 0xd800 <= ord(ch) < 0xe000:
+        elif 0xd800 <= ord(ch) < 0xe000 or ch in _INVISIBLE:
             out.append(f"\\u{ord(ch):04x}")
         else:
             out.append(ch)
@@ -76,7 +81,8 @@ def _fenced(text: str) -> list[str]:
         run = run + 1 if ch == "`" else 0
         longest = max(longest, run)
     fence = "`" * max(3, longest + 1)
-    body = "".join(f"\\x{ord(c):02x}" if ord(c) < 0x20 and c not in "\n\t" else c
+    body = "".join(f"\\x{ord(c):02x}" if (ord(c) < 0x20 and c not in "\n\t")
+                   or 0x7f <= ord(c) < 0xa0 else f"\\u{ord(c):04x}" if c in _INVISIBLE else c
                    for c in text.rstrip("\n"))
     return [fence + "text", body, fence]
 

@@ -5,19 +5,34 @@ from __future__ import annotations
 from typing import IO, Any
 
 from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
+from ..source import MESSAGE_MAX, printable
 from ..units import format_eng, format_si
 
-__all__ = ["render"]
+__all__ = ["render", "LINE_MAX", "ERROR_LINES_MAX"]
+
+#: the most characters of one printed line made of user text (a message, an error line)
+LINE_MAX = 1000
+#: the most lines of one error message shown in the table (the rest are counted)
+ERROR_LINES_MAX = 40
 
 _COLOURS = {Status.PASS: "32", Status.FAIL: "31;1", Status.ERROR: "35;1", Status.SKIPPED: "33"}
 _MARK = {Status.PASS: " ", Status.FAIL: "✗", Status.ERROR: "!", Status.SKIPPED: "-"}
 
 
-def _clean(text: str) -> str:
-    """``text`` with control characters shown as ``\\x1b`` escapes, so a title or a
-    message from an input file cannot move the cursor or colour the terminal."""
-    return "".join(f"\\x{ord(ch):02x}" if ord(ch) < 32 or 127 <= ord(ch) < 160 else ch
-                   for ch in text)
+def _clean(text: str, limit: int = MESSAGE_MAX) -> str:
+    """``text`` with control characters (and bidirectional overrides) shown as escapes,
+    so a title or a message from an input file cannot move the cursor, colour the
+    terminal or reorder what is shown; cut to ``limit`` characters."""
+    return printable(text, limit)
+
+
+def _lines(text: str) -> list[str]:
+    """A multi-line message from an input, each line made safe, at most ERROR_LINES_MAX."""
+    lines = text.split("\n")  # only newlines break lines; other separators are escaped
+    out = [_clean(ln, LINE_MAX) for ln in lines[:ERROR_LINES_MAX]]
+    if len(lines) > ERROR_LINES_MAX:
+        out.append(f"… ({len(lines) - ERROR_LINES_MAX} more lines)")
+    return out
 
 
 def _paint(text: str, status: Status, color: bool) -> str:
@@ -41,7 +56,7 @@ def _spec_block(s: SpecResult, color: bool, verbose: bool) -> list[str]:
     head = f"{_paint(s.status.word, s.status, color)}  {_clean(s.label)}  ({_clean(s.spec)})"
     lines = [head]
     if s.error:
-        lines += ["    " + _clean(ln) for ln in s.error.splitlines()]
+        lines += ["    " + ln for ln in _lines(s.error)]
         return lines
     rows = [["", "", "limit", "measured", "allowed", "margin", "at"]]
     rows += [_row(lim) for lim in _order(s.limits)]
@@ -54,7 +69,7 @@ def _spec_block(s: SpecResult, color: bool, verbose: bool) -> list[str]:
             lim = _order(s.limits)[k - 1]
             text = _paint(text, lim.status, color) if lim.status is not Status.PASS else text
             if lim.status is Status.ERROR and lim.message:
-                text += "\n      " + _clean(lim.message)
+                text += "".join("\n      " + ln for ln in _lines(lim.message))
         lines.append(text)
     lines += _cautions(s.cautions, verbose)
     return lines
@@ -66,7 +81,7 @@ def _cautions(cautions: tuple[Caution, ...], verbose: bool) -> list[str]:
         if c.code == "safety" and not verbose:
             continue
         where = f"{c.path}:{c.line}: " if c.path and c.line else ""
-        out.append(_clean(f"  {c.severity}: {where}{c.message}"))
+        out.append(_clean(f"  {c.severity}: {where}{c.message}", LINE_MAX))
     return out
 
 
@@ -81,11 +96,11 @@ def _families(result: CheckResult) -> dict[str, list[SpecResult]]:
 def _family_block(path: str, members: list[SpecResult]) -> list[str]:
     """Variants × limits matrix of margins, with the verdict in words in every cell."""
     names = list(dict.fromkeys(lim.name for s in members for lim in s.limits))
-    header = ["variant", "status"] + names
+    header = ["variant", "status"] + [_clean(n) for n in names]
     rows = [header]
     for s in members:
         by = {lim.name: lim for lim in s.limits}
-        cells = [s.variant or "", s.status.word]
+        cells = [_clean(s.variant or ""), s.status.word]
         for n in names:
             lim = by.get(n)
             if lim is None:
@@ -99,9 +114,9 @@ def _family_block(path: str, members: list[SpecResult]) -> list[str]:
             cells += ["(not checked)"] * (len(header) - len(cells))
         rows.append(cells)
     widths = [max(len(r[i]) if i < len(r) else 0 for r in rows) for i in range(len(header))]
-    out = [_clean(f"family {path}: {len(members)} variants, margins per limit")]
+    out = [f"family {_clean(path)}: {len(members)} variants, margins per limit"]
     for r in rows:
-        out.append(_clean("  " + "  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip()))
+        out.append("  " + "  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip())
     return out
 
 

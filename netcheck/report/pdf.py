@@ -272,15 +272,42 @@ def render_bytes(result: CheckResult, fetcher: Any = None) -> bytes:
 
 
 def render_per_spec(result: CheckResult, directory: str | os.PathLike,
-                    options: Any = None) -> list[Path]:
-    """One PDF per spec in ``directory`` (see :func:`report_names`); returns the paths."""
+                    options: Any = None, *, guard: Any = None,
+                    on_error: Any = None) -> list[Path]:
+    """One PDF per spec in ``directory`` (see :func:`report_names`); returns the paths written.
+
+    Parameters
+    ----------
+    result : CheckResult
+    directory : str or path-like
+        The folder (created if needed).
+    options : RenderOptions, optional
+    guard : netcheck.outputs.OutputGuard, optional
+        The run's inputs and other outputs: a report file that would replace one of
+        them is refused (``NC401``) and the next is written.
+    on_error : callable, optional
+        ``on_error(path, exception)`` for a report that could not be written (refused,
+        a write error, or a bug while rendering it); the others are still written.
+        Without it the first such exception is raised after all the others are written.
+    """
     from ..outputs import open_output
 
-    written = []
+    written, failures = [], []
     for s, name in zip(result.specs, report_names(result.specs)):
         one = CheckResult((s,), result.tool_version, result.created_utc, result.cautions)
         path = Path(directory) / name
-        with open_output(path, binary=True) as stream:
-            render(one, stream, options)
+        try:
+            if guard is not None:
+                guard.claim(path, "--pdf")
+            with open_output(path, binary=True) as stream:
+                render(one, stream, options)
+        except Exception as exc:  # noqa: BLE001 - one report's trouble spares the others
+            if on_error is None:
+                failures.append(exc)
+            else:
+                on_error(path, exc)
+            continue
         written.append(path)
+    if failures:
+        raise failures[0]
     return written

@@ -129,3 +129,44 @@ def test_colour_marks_failing_rows_only():
     assert "\x1b" not in ok
     # the word is still there: status is never shown by colour alone
     assert "FAIL" in fail
+
+
+def _one(title: str = "Quillmere one", name: str = "g", error: str | None = None,
+         variant: str | None = None, message: str = "") -> SpecResult:
+    status = Status.ERROR if error or message else Status.PASS
+    lims = () if error else (LimitResult(name, "gain", status, -1.0, None, 0.0, 1.0, "dB", 1e3,
+                                         message=message),)
+    return SpecResult("q.toml", "q.cir", title, status, limits=lims, error=error,
+                      variant=variant)
+
+
+def test_bidirectional_overrides_and_line_separators_are_shown_escaped():
+    # U+202E would make a terminal show the rest of the line backwards; U+2028 and
+    # U+0085 would break it. Only "\n" ends a line of an error message.
+    out = text(CheckResult((_one("Quillmere \u202egnirts", "lim\u2066it"),
+                            _one(error="q.toml:1:1: error NC100: a\u2028b\x85c\nnext line"),),
+                           "0.1.0"))
+    for ch in ("\u202e", "\u2066", "\u2028", "\x85"):
+        assert ch not in out
+    assert "Quillmere \\u202egnirts" in out and "lim\\u2066it" in out
+    assert "    q.toml:1:1: error NC100: a\\u2028b\\x85c\n    next line" in out
+
+
+def test_long_text_from_inputs_is_bounded():
+    long_title = "Quillmere " + "T" * 100_000
+    long_error = "\n".join(f"q.toml:{i}:1: error NC100: " + "e" * 5000 for i in range(1, 500))
+    out = text(CheckResult((_one(long_title), _one(error=long_error),
+                            _one(message="m" * 50_000)), "0.1.0"))
+    assert "(99810 more characters)" in out  # the title is cut at 200 characters
+    assert max(len(line) for line in out.splitlines()) < 1200
+    assert "… (459 more lines)" in out and out.count("error NC100") == 40
+
+
+def test_family_matrix_escapes_variant_and_limit_names():
+    members = tuple(_one(name="a\x1b[5mb", variant=v) for v in ("x\x1b[1m", "y"))
+    out = text(CheckResult(members, "0.1.0"))
+    assert "\x1b" not in out
+    matrix = out[out.index("family q.toml"):].splitlines()
+    assert "a\\x1b[5mb" in matrix[1] and matrix[2].lstrip().startswith("x\\x1b[1m")
+    # columns stay aligned on the escaped text
+    assert matrix[1].index("a\\x1b[5mb") == matrix[2].index("PASS +")
