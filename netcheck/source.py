@@ -39,9 +39,10 @@ UNUSABLE_CODE = "NC117"
 # cursor moves, window titles), so text from an input file never reaches it raw
 _CONTROL = {c: f"\\x{c:02x}" for c in (*range(0x00, 0x09), *range(0x0A, 0x20),
                                         *range(0x7F, 0xA0))}
-_CONTROL.update({0x2028: "\\u2028", 0x2029: "\\u2029", 0x202E: "\\u202e",
-                 0x202D: "\\u202d", 0x2066: "\\u2066", 0x2067: "\\u2067",
-                 0x2068: "\\u2068", 0x2069: "\\u2069"})
+# line and paragraph separators, and every bidirectional mark, embedding, override and
+# isolate (Unicode Standard Annex #9): they reorder what a terminal shows
+_CONTROL.update({c: f"\\u{c:04x}" for c in (0x061C, 0x200E, 0x200F, *range(0x2028, 0x202F),
+                                             *range(0x2066, 0x206A))})
 
 
 def printable(text: str, limit: int | None = MESSAGE_MAX) -> str:
