@@ -21,7 +21,11 @@ from .result import SAFETY_CAUTION, Caution, Curves, SpecResult, Status, worst_s
 from .solve import Response, solve
 from .spec import Spec, load_spec, locate
 
-__all__ = ["ResponseCurve", "SpecProbe", "evaluate", "check_spec", "seeds_from_roots"]
+__all__ = ["ResponseCurve", "SpecProbe", "evaluate", "check_spec", "seeds_from_roots",
+           "error_result", "failure_result", "TRACEBACK_MAX"]
+
+#: the most characters of a traceback an internal-error result keeps (its last ones)
+TRACEBACK_MAX = 4000
 
 _TWO_PI = 2.0 * math.pi
 
@@ -306,11 +310,50 @@ def error_result(path: str, err: NetcheckError, netlist: str = "", title: str = 
                                         err.span.column if err.span else None),))
 
 
+def failure_result(path: str, exc: BaseException, variant: str | None = None,
+                   netlist: str = "", title: str = "") -> SpecResult:
+    """A SpecResult for a check stopped by an exception that is not a NetcheckError.
+
+    MemoryError and RecursionError mean the input asked for more than the machine or
+    the interpreter's stack has: NC421, bad input. Anything else is a bug in netcheck:
+    NC500 (:data:`netcheck.exceptions.INTERNAL_CODE`), and the error text ends with the
+    traceback (its last :data:`TRACEBACK_MAX` characters).
+    """
+    import traceback
+
+    if isinstance(exc, (MemoryError, RecursionError)):
+        what = "ran out of memory" if isinstance(exc, MemoryError) else \
+            "ran out of recursion depth"
+        message = (f"{what} while checking ({type(exc).__name__}); the spec or netlist asks "
+                   "for more than this machine gives one check: lower the sweep points, "
+                   "Monte Carlo samples or memory_mib, or split the design")
+        err = NetcheckError(message, code="NC421", path=path)
+        tail = ""
+    else:
+        from .exceptions import INTERNAL_CODE
+        shown = str(exc).splitlines()[0][:300] if str(exc) else ""
+        message = (f"internal error in netcheck (a bug), {type(exc).__name__}"
+                   f"{': ' + shown if shown else ''}; please report it with this traceback")
+        err = NetcheckError(message, code=INTERNAL_CODE, path=path)
+        tail = "".join(traceback.format_exception(exc))
+        if len(tail) > TRACEBACK_MAX:
+            tail = "… " + tail[-TRACEBACK_MAX:]
+        tail = "\n" + tail.rstrip("\n")
+    result = error_result(path, err, netlist, title, variant)
+    return dataclasses.replace(result, error=result.error + tail)
+
+
 def _with_spec_text(result: SpecResult, path: str) -> SpecResult:
-    """Add the spec's text and SHA-256 to an error result when the file can be read."""
+    """Add the spec's text and SHA-256 to an error result when the file can be read.
+
+    Read through :func:`netcheck.source.read_text`, so a FIFO, a device or a file over
+    the size budget is not read here either.
+    """
+    from .source import read_text
+
     try:
-        text = Path(path).read_bytes().decode("utf-8", errors="replace")
-    except OSError:
+        text = read_text(path, SpecError, "spec")
+    except NetcheckError:
         return result
     return dataclasses.replace(result, inputs=((path, _sha256(text)),),
                                source_text=((path, text),))
@@ -318,17 +361,39 @@ def _with_spec_text(result: SpecResult, path: str) -> SpecResult:
 
 def check_spec(path: str, overrides: dict[str, float] | None = None,
                variant: str | None = None, spec: Spec | None = None,
-               netlist: str | None = None, parsed: "Netlist | None" = None) -> SpecResult:
-    """Load, solve and judge one spec file; bad input becomes an error result, never a raise.
+               netlist: str | None = None, parsed: "Netlist | None" = None,
+               design_root: str | None = None) -> SpecResult:
+    """Load, solve and judge one spec file; never raises (but KeyboardInterrupt).
 
     ``overrides`` replace top-level ``.param`` values (a variant); ``netlist`` replaces the
-    spec's netlist path (a family of netlists sharing one spec).
+    spec's netlist path (a family of netlists sharing one spec) and must lie inside the
+    spec's design root, like every path the spec names (``design_root``: the explicit
+    root, ``--root``; see :func:`netcheck.spec.design_root`). Bad input becomes an error
+    result with its code; running out of memory or recursion depth NC421; any other
+    exception, a bug, NC500 with the traceback (:func:`failure_result`).
     """
     try:
-        spec = spec or load_spec(path)
+        return _check(path, overrides, variant, spec, netlist, parsed, design_root)
+    except Exception as exc:  # noqa: BLE001 - a bug or exhaustion costs this spec only
+        return failure_result(path, exc, variant, netlist or "")
+
+
+def _check(path: str, overrides: dict[str, float] | None, variant: str | None,
+           spec: Spec | None, netlist: str | None, parsed: "Netlist | None",
+           design_root: str | None) -> SpecResult:
+    """:func:`check_spec` without its guard against unexpected exceptions."""
+    try:
+        spec = spec or load_spec(path, design_root)
     except NetcheckError as err:
         return _with_spec_text(error_result(path, err, variant=variant), path)
-    if netlist is not None:
+    if netlist is not None:  # a family member: inside the design root like the rest
+        from .spec import confine, resolve_design_root
+        try:
+            root, why = resolve_design_root(path, design_root)
+            confine(netlist, Path(), "variants.netlists", path, root, why)
+        except SpecError as err:
+            return _with_spec_text(error_result(path, locate(err, spec.text),
+                                                variant=variant), path)
         spec = dataclasses.replace(spec, netlist=netlist)
     try:
         parsed = parsed or load_netlist(spec.netlist, spec.root)

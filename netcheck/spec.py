@@ -12,11 +12,19 @@ from typing import Any
 
 import numpy as np
 
+from ._spec_guard import (MAX_FREQUENCY_HZ, MAX_LIMITS, MAX_NESTING, MAX_SWEEP_POINTS,
+                          MIN_FREQUENCY_HZ, MIN_SWEEP_POINTS, check_count, confine,
+                          design_root, inside_root, nesting_depth, resolve_design_root,
+                          table_depth, validate_sweep)
 from .exceptions import SpecError
 from .source import SourceFile, read_text
 from .units import UnitError, parse_value
 
-__all__ = ["Sweep", "Spec", "load_spec", "parse_spec", "SpecReader", "TOP_KEYS", "locate"]
+__all__ = ["Sweep", "Spec", "load_spec", "parse_spec", "read_toml", "validate_sweep",
+           "design_root", "inside_root", "SpecReader", "TOP_KEYS", "locate",
+           "MAX_SWEEP_POINTS", "MIN_SWEEP_POINTS", "MAX_FREQUENCY_HZ", "MIN_FREQUENCY_HZ",
+           "MAX_NESTING", "MAX_LIMITS"]
+
 
 #: Top-level keys of a spec and what they hold (for docs, did-you-mean and the loader).
 TOP_KEYS: dict[str, str] = {
@@ -69,10 +77,51 @@ class Spec:
     allow_negative: bool = False
     text: str = field(default="", repr=False)
     tables: tuple[tuple[str, Any], ...] = field(default=(), repr=False)
+    design_root: str | None = None
 
     def table(self, key: str) -> Any:
         """A raw top-level table handled by another module (tolerances, stress...)."""
         return dict(self.tables).get(key)
+
+
+def _decode(text: str, path: str) -> dict:
+    """The TOML document of ``text``; nesting over the budget is refused first (NC205)."""
+    depth, over = nesting_depth(text)
+    if over >= 0:
+        line = text.count("\n", 0, over) + 1
+        column = over - (text.rfind("\n", 0, over) + 1) + 1
+        raise SpecError(f"arrays and inline tables nest {depth} deep, over the nesting "
+                        f"budget of {MAX_NESTING}", SourceFile(path, text).span(line, column),
+                        code="NC205", path=path)
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as err:
+        raise _toml_error(path, text, err) from None
+    except RecursionError:
+        raise SpecError(f"the TOML nests too deeply to read (nesting budget {MAX_NESTING})",
+                        code="NC205", path=path) from None
+    depth = table_depth(doc)
+    if depth > MAX_NESTING:
+        raise SpecError(f"tables nest more than {MAX_NESTING} deep (dotted keys or table "
+                        f"headers), over the nesting budget of {MAX_NESTING}", code="NC205",
+                        path=path)
+    return doc
+
+
+def read_toml(path: str | Path) -> dict:
+    """The decoded TOML document of the file at ``path`` (a spec, or a candidate spec).
+
+    Read through :func:`netcheck.source.read_text` (a regular file within the size
+    budget, UTF-8); nesting deeper than :data:`MAX_NESTING` is refused before the TOML
+    reader runs.
+
+    Raises
+    ------
+    SpecError
+        Naming the file: unreadable or unusable, not TOML (with line and column) or
+        nested too deeply (NC205).
+    """
+    return _decode(read_text(path, SpecError, "spec"), str(path))
 
 
 class SpecReader:
@@ -348,8 +397,11 @@ def limit_lines(text: str) -> list[int]:
     return out
 
 
-def parse_spec(text: str, path: str = "<spec>") -> Spec:
+def parse_spec(text: str, path: str = "<spec>", design_root: str | None = None) -> Spec:
     """Validate spec ``text`` (the TOML of a spec file at ``path``).
+
+    Every path the spec names (``netlist``, ``root``) must resolve inside the design
+    root (see :func:`design_root`; ``design_root`` is the explicit one, ``--root``).
 
     Raises
     ------
@@ -358,21 +410,21 @@ def parse_spec(text: str, path: str = "<spec>") -> Spec:
     """
     from .limits import build_limit
 
+    doc = _decode(text, path)
     try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as err:
-        raise _toml_error(path, text, err) from None
-    try:
-        return _build(doc, text, path, build_limit)
+        return _build(doc, text, path, build_limit, design_root)
     except SpecError as err:
         raise locate(err, text) from None
 
 
-def _build(doc: dict, text: str, path: str, build_limit: Any) -> Spec:
+def _build(doc: dict, text: str, path: str, build_limit: Any,
+           explicit_root: str | None = None) -> Spec:
     """The Spec of a decoded TOML document (errors carry key paths, not yet spans)."""
     top = SpecReader(doc, "", path, TOP_KEYS)
     base = Path(path).parent
+    root_dir, why = resolve_design_root(path, explicit_root)
     netlist = top.text("netlist", required=True)
+    confine(netlist, base, "netlist", path, root_dir, why)
     source = top.text("source", required=True)
     out_raw = top.raw("output")
     if out_raw is None:
@@ -392,10 +444,16 @@ def _build(doc: dict, text: str, path: str, build_limit: Any) -> Spec:
     stop = sw.number("stop", required=True, positive=True)
     if start >= stop:
         sw.fail("start", f"start {_show(sw.raw('start'))} is not below stop {_show(sw.raw('stop'))}")
-    sweep = Sweep(start, stop, sw.integer("points_per_decade", 100, minimum=2))
+    ppd = sw.integer("points_per_decade", 100, minimum=2)
+    try:
+        validate_sweep(start, stop, ppd)
+    except SpecError as err:
+        sw.fail((err.where or "").removeprefix("sweep."), err.message, code=err.code)
+    sweep = Sweep(start, stop, ppd)
     raw_limits = top.raw("limits", [])
     if not isinstance(raw_limits, list):
         top.fail("limits", "expected an array of tables ([[limits]])")
+    check_count(raw_limits, "limits", path)
     lines = limit_lines(text)
     limits = []
     first: dict[str, int] = {}  # result name → index of the limit that gives it
@@ -418,15 +476,22 @@ def _build(doc: dict, text: str, path: str, build_limit: Any) -> Spec:
         first.update((n, i) for n in lim.result_names())
         limits.append(lim)
     root = top.text("root")
+    if root:
+        confine(root, base, "root", path, root_dir, why)
     tables = tuple((k, doc[k]) for k in ("tolerances", "analysis", "stress", "variants")
                    if k in doc)
     return Spec(
         path=path, title=top.text("title", default="") or "",
         netlist=str(base / netlist), source=source, output=output, sweep=sweep,
         limits=tuple(limits), root=str(base / root) if root else None,
-        allow_negative=top.flag("allow_negative"), text=text, tables=tables)
+        allow_negative=top.flag("allow_negative"), text=text, tables=tables,
+        design_root=str(root_dir))
 
 
-def load_spec(path: str | Path) -> Spec:
-    """Read and validate the spec file at ``path``."""
-    return parse_spec(read_text(path, SpecError, "spec"), str(path))
+def load_spec(path: str | Path, design_root: str | None = None) -> Spec:
+    """Read and validate the spec file at ``path`` (see :func:`parse_spec`).
+
+    The file is read through :func:`netcheck.source.read_text` and decoded as
+    :func:`read_toml` does (nesting over budget refused before the TOML reader runs).
+    """
+    return parse_spec(read_text(path, SpecError, "spec"), str(path), design_root)

@@ -198,6 +198,8 @@ def parse_stress(tables: Any, path: str, lines: Sequence[int] | None = None
     """
     if not isinstance(tables, list):
         SpecReader({}, "", path, {}).fail("stress", "expected an array of tables ([[stress]])")
+    from ._spec_guard import check_count
+    check_count(tables, "stress", path)
     out: list[StressLimit] = []
     previous: tuple[float, bool] | None = None
     for i, table in enumerate(tables):

@@ -16,6 +16,7 @@ from __future__ import annotations
 import dataclasses
 import fnmatch
 import math
+import os
 from dataclasses import dataclass
 from typing import Any
 
@@ -32,7 +33,7 @@ from .spec import Spec, SpecReader
 
 __all__ = ["Tolerances", "Analysis", "parse_tolerances", "parse_analysis", "toleranced_parts",
            "draw", "wilson_interval", "monte_carlo", "with_values", "run_samples",
-           "TOLERANCE_KEYS", "ANALYSIS_KEYS"]
+           "machine_memory_bytes", "TOLERANCE_KEYS", "ANALYSIS_KEYS", "MEMORY_SHARE"]
 
 TOLERANCE_KEYS = {
     "default": "tolerance by element letter, e.g. { R = \"1%\", C = \"5%\", L = \"10%\" }",
@@ -47,6 +48,8 @@ ANALYSIS_KEYS = {
     "memory_mib": "memory budget for Monte Carlo chunks, MiB (default 1024)",
 }
 MODES = ("nominal", "worst_case", "monte_carlo")
+#: the largest share of the machine's memory ``memory_mib`` may claim (it is capped there)
+MEMORY_SHARE = 0.5
 #: Monte Carlo stress: samples screened within this fraction below a rating are judged exactly
 BORDER = 0.05
 
@@ -69,6 +72,51 @@ class Analysis:
     seed: int = 1
     yield_min: float | None = None
     memory_mib: int = 1024
+    #: memory_mib as the spec gave it, when it was capped to the machine's memory
+    requested_mib: int | None = None
+
+    def budget_text(self) -> str:
+        """``memory_mib = 1024``, or ``memory_mib = 99999 (capped at 3911 MiB, ...)``."""
+        if self.requested_mib is None:
+            return f"memory_mib = {self.memory_mib}"
+        return (f"memory_mib = {self.requested_mib} (capped at {self.memory_mib} MiB, "
+                f"{MEMORY_SHARE:.0%} of the memory this machine gives netcheck)")
+
+
+def machine_memory_bytes() -> int | None:
+    """The memory this process may use, bytes: the least of physical memory, the
+    container's (cgroup) limit and the address-space limit; None when none is known."""
+    found = []
+    try:
+        found.append(os.sysconf("SC_PHYS_PAGES") * os.sysconf("SC_PAGE_SIZE"))
+    except (AttributeError, ValueError, OSError):  # not a POSIX system
+        pass
+    for limit in ("/sys/fs/cgroup/memory.max", "/sys/fs/cgroup/memory/memory.limit_in_bytes"):
+        try:
+            with open(limit, encoding="ascii") as fh:
+                text = fh.read(64).strip()
+        except (OSError, ValueError):
+            continue
+        if text.isdigit():
+            found.append(int(text))
+    try:
+        import resource
+        soft = resource.getrlimit(resource.RLIMIT_AS)[0]
+        if soft != resource.RLIM_INFINITY and soft > 0:
+            found.append(soft)
+    except (ImportError, OSError, ValueError):
+        pass
+    found = [f for f in found if f > 0]
+    return min(found) if found else None
+
+
+def _capped_memory(requested: int) -> tuple[int, int | None]:
+    """(memory_mib to use, the requested value when it was capped, else None)."""
+    machine = machine_memory_bytes()
+    if machine is None:
+        return requested, None
+    cap = max(16, int(machine * MEMORY_SHARE) // 2**20)
+    return (cap, requested) if requested > cap else (requested, None)
 
 
 def _fraction(rd: SpecReader, key: str, raw: Any) -> float:
@@ -122,8 +170,9 @@ def parse_analysis(table: Any, path: str) -> Analysis:
     seed = rd.raw("seed", 1)
     if isinstance(seed, bool) or not isinstance(seed, int) or seed < 0:
         rd.fail("seed", f"expected a whole number >= 0, got {seed!r}")
+    memory, requested = _capped_memory(rd.integer("memory_mib", 1024, minimum=16))
     return Analysis(tuple(dict.fromkeys(mode)), rd.integer("samples", 2000, minimum=2), seed,
-                    y, rd.integer("memory_mib", 1024, minimum=16))
+                    y, memory, requested)
 
 
 def _is_glob(pattern: str) -> bool:
@@ -320,9 +369,9 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
     if kept > memory:
         raise SpecError(
             f"analysis.samples: {S} samples need about {kept / 2**20:.0f} MiB for their "
-            f"values and results alone, over memory_mib = {analysis.memory_mib}; lower "
+            f"values and results alone, over the budget {analysis.budget_text()}; lower "
             "samples (the 95 % interval of a yield narrows as 1/√samples) or raise "
-            "memory_mib", code="NC202", path=spec.path, where="analysis.samples")
+            "memory_mib", code="NC205", path=spec.path, where="analysis.samples")
     values = draw(parts, S, tol.distribution, rng, spec.path)
     margins, measured, meas, env_lo, env_hi = run_samples(
         system, spec, values, S, analysis.memory_mib * 2**20, "Monte Carlo samples")

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import dataclasses
+import os
 from pathlib import Path
 
 import pytest
@@ -57,10 +58,14 @@ def test_family_of_20_equals_single_runs(family):
     results = run_all(items, SerialExecutor())
     for job, res in zip(items, results):
         single = check_spec(str(family), dict(job.overrides), job.variant)
-        # the family result also names the CSV table among its inputs; all else is equal
+        # the family result also names the CSV table among its inputs, with its own row
+        # (where it is in the table); all else is equal
         assert res.inputs[:-1] == single.inputs and res.inputs[-1][0].endswith("f.csv")
-        assert dataclasses.replace(res, inputs=single.inputs,
-                                   source_text=single.source_text) == single
+        assert res.extra[-1] == ("variant_row", {"table": res.inputs[-1][0],
+                                                 "row": int(job.variant[1:]) + 2,
+                                                 "sha256": res.inputs[-1][1]})
+        assert dataclasses.replace(res, inputs=single.inputs, source_text=single.source_text,
+                                   extra=single.extra) == single
         assert res.variant == job.variant
     # the variants really differ: the centre moves with fc (f0 = 1/(2 pi sqrt(LC)), textbook)
     centres = [r.measurement("f_center_hz") for r in results]
@@ -99,6 +104,17 @@ def test_dask_local_cluster_equals_serial(family):
     distributed = pytest.importorskip("distributed")
     from netcheck.batch import DaskExecutor
 
+    # the nanny sets PYTHONHASHSEED, thread counts and more in this process's environment,
+    # which child processes of later tests would inherit: put it back afterwards
+    saved = dict(os.environ)
+    try:
+        _run_on_local_cluster(distributed, DaskExecutor, family)
+    finally:
+        os.environ.clear()
+        os.environ.update(saved)
+
+
+def _run_on_local_cluster(distributed, DaskExecutor, family) -> None:
     items = [j for j in expand_jobs([str(family)])][:6]
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
                                   dashboard_address=None, host="127.0.0.1") as cluster:

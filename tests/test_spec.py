@@ -390,8 +390,10 @@ class TestSpecFormatDoc:
         # the doc says so; the netlist path is relative to specs/
         full = self.toml_blocks()[-1]
         spec = tmp_path / "example.toml"
+        # a copy beside the spec: a path out of the spec's design root would be refused
         netlist = Path(__file__).resolve().parents[1] / "sample_netlists" / "rx40k.cir"
-        spec.write_text(full.replace('"../sample_netlists/rx40k.cir"', f'"{netlist}"'))
+        (tmp_path / "rx40k.cir").write_bytes(netlist.read_bytes())
+        spec.write_text(full.replace('"../sample_netlists/rx40k.cir"', '"rx40k.cir"'))
         result = check_spec(str(spec))
         assert result.error is None
         assert {r.status for r in result.limits} == {Status.PASS}
