@@ -153,10 +153,10 @@ def _netlist_files(netlist: str, root: str | None) -> tuple[list[str], bool]:
 
 def _spec_inputs(spec_path: str, root: str | None = None) -> _Inputs:
     """Every file the check of ``spec_path`` reads, as far as it can be known."""
-    from .spec import load_spec
+    from .spec import inside_root, load_spec
 
     try:
-        spec = load_spec(spec_path)
+        spec = load_spec(spec_path, root)
     except NetcheckError as err:
         return _Inputs((spec_path,), error=_one_line(err))
     files, incomplete = [spec_path], False
@@ -172,7 +172,10 @@ def _spec_inputs(spec_path: str, root: str | None = None) -> _Inputs:
         for pattern in raw if isinstance(raw, list) else ():
             if isinstance(pattern, str):
                 patterns.extend(_keys(str(base / pattern)))
-                netlists.extend(sorted(glob.glob(str(base / pattern))))
+                # only what the check itself may read: matches inside the design root
+                netlists.extend(m for m in sorted(glob.glob(str(base / pattern)))
+                                if spec.design_root is None
+                                or inside_root(m, spec.design_root))
     for netlist in dict.fromkeys(netlists):
         got, failed = _netlist_files(netlist, spec.root or root)
         files.extend(got)

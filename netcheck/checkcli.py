@@ -453,17 +453,12 @@ class _Run:
         return list(affected.paths)
 
     def _expand(self, spec: str) -> list:
-        import inspect
-
         from .batch import expand_jobs
         from .evaluate import error_result
         from .exceptions import INTERNAL_CODE, NetcheckError
 
-        kwargs = {}
-        if "design_root" in inspect.signature(expand_jobs).parameters:
-            kwargs["design_root"] = self.args.root
         try:
-            return list(expand_jobs([spec], **kwargs))
+            return list(expand_jobs([spec], design_root=self.args.root))
         except NetcheckError as err:
             return [error_result(spec, err)]
         except Exception as exc:  # noqa: BLE001

@@ -162,8 +162,15 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _common(p: argparse.ArgumentParser) -> None:
-    p.add_argument("--root", metavar="DIR",
-                   help="design root that .include may not leave (default: netlist's folder)")
+    if p.prog.endswith(" check"):
+        p.add_argument("--root", metavar="DIR",
+                       help="design root that every file a spec names must lie in (default: "
+                       "the git work tree holding the spec, else the current folder if it "
+                       "holds it, else the spec's folder)")
+    else:
+        p.add_argument("--root", metavar="DIR",
+                       help="design root that .include may not leave (default: the "
+                       "netlist's folder)")
     p.add_argument("--allow-negative", action="store_true",
                    help="accept negative R, L and C values (behavioural models)")
     p.add_argument("-q", "--quiet", action="store_true", help="no warnings, summary only")
@@ -177,35 +184,18 @@ def print_diagnostics(diags: Sequence[Diagnostic], quiet: bool = False) -> None:
         print(safe_text(d.format()), file=sys.stderr)
 
 
-#: the sweep the command line accepts when :func:`netcheck.spec.validate_sweep` is absent
-SWEEP_MAX_HZ = 1e15
-SWEEP_MAX_POINTS = 1_000_000
-
-
 def _sweep_problem(start: float, stop: float, ppd: int) -> NetcheckError | None:
-    """Why ``--start/--stop/--ppd`` cannot be swept (NC402 or the spec's NC205), or None."""
+    """Why ``--start/--stop/--ppd`` cannot be swept (NC402, or the spec budgets' NC205)."""
     if not (math.isfinite(start) and math.isfinite(stop) and 0 < start < stop):
         return NetcheckError(f"need 0 < --start < --stop, both finite (got {start:g}, "
                              f"{stop:g})", code="NC402", path="netcheck sweep")
-    from . import spec as spec_module
+    from .spec import validate_sweep
 
-    validate = getattr(spec_module, "validate_sweep", None)
-    if validate is not None:
-        try:
-            validate(start, stop, ppd)
-        except NetcheckError as err:  # its words name spec keys; say which options they are
-            return NetcheckError(f"{err.message} (the sweep of --start, --stop and --ppd)",
-                                 code=err.code, path="netcheck sweep")
-        return None
-    if stop > SWEEP_MAX_HZ:
-        return NetcheckError(f"--stop {stop:g} Hz is above the {SWEEP_MAX_HZ:g} Hz netcheck "
-                             "solves", code="NC402", path="netcheck sweep")
-    points = math.log10(stop / start) * ppd + 1
-    if points > SWEEP_MAX_POINTS:
-        return NetcheckError(f"--start {start:g}, --stop {stop:g} and --ppd {ppd} ask for "
-                             f"about {points:.3g} points; at most {SWEEP_MAX_POINTS} are "
-                             "solved (lower --ppd or narrow the band)", code="NC402",
-                             path="netcheck sweep")
+    try:
+        validate_sweep(start, stop, ppd)
+    except NetcheckError as err:  # its words name spec keys; say which options they are
+        return NetcheckError(f"{err.message} (the sweep of --start, --stop and --ppd)",
+                             code=err.code, path="netcheck sweep")
     return None
 
 
