@@ -40,6 +40,17 @@ def _refused(path: str | os.PathLike, message: str) -> RenderError:
     return RenderError(f"output refused: {message}", code="NC401", path=shown)
 
 
+
+def _stat_or_none(target: Path) -> os.stat_result | None:
+    """``os.stat(target)``, None when nothing is there; other failures are NC400."""
+    try:
+        return os.stat(target)
+    except FileNotFoundError:
+        return None
+    except OSError as err:
+        raise _cannot(target, err.strerror or str(err)) from None
+
+
 def _cannot(path: str | os.PathLike, message: str) -> RenderError:
     return RenderError(f"cannot write output: {message}", code="NC400",
                        path=printable(str(path)))
@@ -160,12 +171,7 @@ def check_output_path(path: str | os.PathLike, folder: bool = False) -> None:
     if str(path) == "-":
         return
     target = Path(path)
-    try:
-        st = os.stat(target)
-    except FileNotFoundError:
-        st = None
-    except OSError as err:
-        raise _cannot(path, err.strerror or str(err)) from None
+    st = _stat_or_none(target)
     if st is not None:
         if folder:
             if not stat.S_ISDIR(st.st_mode):
@@ -262,12 +268,7 @@ def open_output(path: str | os.PathLike, binary: bool = False, *,
             yield stream
         return
     target = Path(path)
-    try:
-        st = os.stat(target)
-    except FileNotFoundError:
-        st = None
-    except OSError as err:
-        raise _cannot(target, err.strerror or str(err)) from None
+    st = _stat_or_none(target)
     if st is not None and not stat.S_ISREG(st.st_mode):
         raise _refused(target, f"this path is {_kind(st.st_mode)}; netcheck writes only "
                                "regular files")
