@@ -8,6 +8,7 @@ process that dies costs only the job it was running (NC420).
 from __future__ import annotations
 
 import csv
+import dataclasses
 import glob
 import hashlib
 import io
@@ -62,6 +63,7 @@ class Job:
     row: int | None = None
     row_text: str = ""
     table_sha256: str = ""
+    allow_negative: bool = False
 
 
 def _variant_error(path: str, where: str, message: str, code: str = "NC202") -> SpecError:
@@ -239,14 +241,25 @@ def _variant_jobs(spec_path: str, table: object, design_root: str | None = None)
     return jobs
 
 
-def expand_jobs(spec_paths: Sequence[str], design_root: str | None = None
-                ) -> list[Job | SpecResult]:
+def expand_jobs(spec_paths: Sequence[str], design_root: str | None = None,
+                allow_negative: bool = False) -> list[Job | SpecResult]:
     """One Job per spec, or per variant of a spec that declares ``[variants]``.
 
     Never raises: a spec whose variants are broken, over a budget or outside the design
     root (``design_root``: the explicit root, ``--root``) yields an error SpecResult in
-    its place; running out of memory NC421, a bug NC500.
+    its place; running out of memory NC421, a bug NC500. ``allow_negative`` (the command
+    line's ``--allow-negative``) accepts negative R, L and C values in every job, as a
+    spec's own ``allow_negative = true`` does for that spec.
     """
+    out = _expand_jobs(spec_paths, design_root)
+    if allow_negative:
+        out = [dataclasses.replace(j, allow_negative=True) if isinstance(j, Job) else j
+               for j in out]
+    return out
+
+
+def _expand_jobs(spec_paths: Sequence[str], design_root: str | None
+                 ) -> list[Job | SpecResult]:
     from .evaluate import error_result, failure_result
 
     out: list[Job | SpecResult] = []
@@ -339,7 +352,8 @@ def run_job(job: Job) -> SpecResult:
     try:
         spec, parsed = _cached_inputs(job)
         result = check_spec(job.spec, dict(job.overrides) or None, job.variant, spec=spec,
-                            netlist=job.netlist, parsed=parsed, design_root=job.design_root)
+                            netlist=job.netlist, parsed=parsed, design_root=job.design_root,
+                            allow_negative=job.allow_negative)
         if job.table is not None:
             where = {"table": job.table, "row": job.row, "sha256": job.table_sha256}
             result = dataclasses.replace(

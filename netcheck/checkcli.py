@@ -139,15 +139,24 @@ def _walk_toml(folder: Path, notes: list[str] | None) -> list[Path]:
     return sorted(found)
 
 
-def find_specs(paths: list[str], notes: list[str] | None = None) -> tuple[list[str], list[str]]:
+def find_specs(paths: list[str], notes: list[str] | None = None,
+               root: str | None = None) -> tuple[list[str], list[str]]:
     """Spec files named or found (recursively, ``*.toml`` declaring ``netlist``) in ``paths``.
 
     Returns the spec paths (sorted within each directory) and paths that do not exist.
-    A ``.toml`` file met in a folder is opened only when it is a regular file, and at
-    most :data:`SCAN_MAX_BYTES` of it is read; one that cannot be read or parsed (a
-    FIFO, a device, broken or too deeply nested TOML) is listed, so the check reports
-    it. Files over that size and folders that cannot be read are named in ``notes``.
+    A ``.toml`` file met in a folder is opened only when it resolves inside the design
+    root (``root``, the command line's ``--root``, else the one
+    :func:`netcheck._spec_guard.resolve_design_root` chooses for it): a link from the
+    scanned folder to a file elsewhere (``env.toml -> /proc/self/environ``) is named in
+    ``notes`` and never read, so nothing of it can be quoted in a report. It is opened
+    only when it is a regular file, and at most :data:`SCAN_MAX_BYTES` of it is read;
+    one that cannot be read or parsed (a FIFO, a device, broken or too deeply nested
+    TOML) is listed, so the check reports it. Files over that size and folders that
+    cannot be read are named in ``notes``. A file named on the command line is the
+    user's explicit choice and is listed as named.
     """
+    from ._spec_guard import inside_root, resolve_design_root
+
     specs, missing = [], []
     for p in paths:
         path = Path(p)
@@ -158,6 +167,18 @@ def find_specs(paths: list[str], notes: list[str] | None = None) -> tuple[list[s
             is_dir, exists = False, False
         if is_dir:
             for f in _walk_toml(path, notes):
+                try:
+                    where, _why = resolve_design_root(f, root)
+                    inside = inside_root(f, where)
+                except (OSError, ValueError):
+                    inside = False
+                if not inside:
+                    if notes is not None:
+                        notes.append(f"{printable(str(f))}: warning: a link to a file outside "
+                                     "the design root; not read and not checked (name it on "
+                                     "the command line, or widen the root with --root DIR, "
+                                     "to check it)")
+                    continue
                 found = _toml_declares_netlist(str(f))
                 if found is _TOO_BIG:
                     if notes is not None:
@@ -260,6 +281,9 @@ class _Run:
         self.pdf_dir: str | None = args.pdf
         self.guard = OutputGuard()
         self.only: set[str] | None = None
+        #: errors of the run itself (an unusable baseline, git unable to say what
+        #: changed), as error results, so that every report shows them
+        self.run_errors: list = []
 
     # -- messages ---------------------------------------------------------------------
     def note(self, text: str) -> None:
@@ -277,6 +301,14 @@ class _Run:
 
         self.bad_input = True
         self.error_text(err.format() if isinstance(err, NetcheckError) else str(err))
+
+    def run_error(self, what: str, title: str, err: Exception) -> None:
+        """An error of the run itself (not of one spec): said now, and carried into every
+        report as an error result named ``what`` (so no report can read as a pass)."""
+        from .evaluate import error_result
+
+        self.error(err)
+        self.run_errors.append(error_result(what, err, title=title))
 
     def bug(self, what: str, exc: BaseException | None = None) -> None:
         """A bug in netcheck: print the traceback and carry on; the status becomes 3."""
@@ -339,11 +371,13 @@ class _Run:
 
     def _recheck_outputs(self) -> None:
         from .exceptions import RenderError
+        from .outputs import check_not_design_file
 
         kept = []
         for o in self.outputs:
             try:
                 self.guard.check(o.path)
+                check_not_design_file(o.path)
             except RenderError as err:
                 self.error(err)
                 continue
@@ -352,7 +386,9 @@ class _Run:
 
     def check_outputs_before(self, specs: list[str]) -> None:
         """Refuse at once an output that names a file the run will read (a spec, its
-        netlist, an include, a variant table), as far as that is known before the run."""
+        netlist, an include, a variant table), as far as that is known before the run,
+        or that may be a design file the run does not read (a ``.cir`` or ``.toml`` name,
+        a CSV table netcheck did not write)."""
         if not self.outputs:
             return
         from ._changed_since import _spec_inputs
@@ -433,17 +469,31 @@ class _Run:
         try:
             return load_baseline(self.args.baseline)
         except NetcheckError as err:
-            self.error(err)
+            self.run_error(f"--baseline {self.args.baseline}",
+                           "Baseline not usable: margins not compared", err)
             return None
 
     def changed_since(self, specs: list[str]) -> list[str]:
-        """With --changed-since, the affected specs only (git failures raise NC410)."""
+        """With --changed-since, the affected specs only.
+
+        When git cannot say what changed (NC410), the error is carried into every report
+        and *every* spec is checked: skipping specs on a failed comparison could hide a
+        failure.
+        """
         rev = self.args.changed_since
-        if not rev:
+        if rev is None:
             return specs
         from .ci import affected_specs
+        from .exceptions import NetcheckError
 
-        affected = affected_specs(specs, rev, ".", root=self.args.root)
+        try:
+            affected = affected_specs(specs, rev, ".", root=self.args.root)
+        except NetcheckError as err:
+            self.run_error(f"--changed-since {rev}",
+                           "Changed files unknown: every spec checked", err)
+            self.note("netcheck check: note: git could not say what changed, so every spec "
+                      "is checked")
+            return specs
         if not affected.paths:
             print(f"netcheck check: no spec is affected by the {len(affected.changed_files)} "
                   f"file(s) changed since {printable(rev)}; nothing to check")
@@ -458,7 +508,8 @@ class _Run:
         from .exceptions import INTERNAL_CODE, NetcheckError
 
         try:
-            return list(expand_jobs([spec], design_root=self.args.root))
+            return list(expand_jobs([spec], design_root=self.args.root,
+                                    allow_negative=self.args.allow_negative))
         except NetcheckError as err:
             return [error_result(spec, err)]
         except Exception as exc:  # noqa: BLE001
@@ -521,19 +572,25 @@ class _Run:
         finally:
             bar.close()
 
-    def compare(self, result, baseline: dict | None) -> bool:
-        """Compare with the baseline (if one was read); True when a margin drifted."""
+    def compare(self, result, baseline: dict | None):
+        """Compare with the baseline (if one was read); the drift report, or None."""
         if baseline is None:
-            return False
+            return None
         from .ci import compare_baseline
         from .exceptions import NetcheckError
         from .render.jsonreport import to_dict
 
         try:
-            report = compare_baseline(to_dict(result), baseline, self.args.drift_db,
-                                      self.args.drift_rel, only_specs=self.only)
+            return compare_baseline(to_dict(result), baseline, self.args.drift_db,
+                                    self.args.drift_rel, only_specs=self.only)
         except NetcheckError as err:
-            self.error(err)
+            self.run_error(f"--baseline {self.args.baseline}",
+                           "Baseline not usable: margins not compared", err)
+            return None
+
+    def show_drift(self, report) -> bool:
+        """Print the drift report (if any); True when a margin drifted."""
+        if report is None:
             return False
         for d in report.drifted:
             print(safe_text(f"drift: {d.describe()}"))
@@ -562,7 +619,7 @@ def run_check(args: argparse.Namespace) -> int:
     workers = _workers(args, run.note)
     baseline = run.load_baseline()
     notes: list[str] = []
-    specs, missing = find_specs(args.paths, notes)
+    specs, missing = find_specs(args.paths, notes, args.root)
     for n in notes:
         run.note(n)
     found_none = not specs and not missing
@@ -575,16 +632,22 @@ def run_check(args: argparse.Namespace) -> int:
             results = _with_provenance(results)
         except Exception:  # noqa: BLE001 - the results stand without their git record
             run.bug("recording the git state")
+    checked = len(results)
     result = CheckResult(results, __version__, created_utc())
+    drift = run.compare(result, baseline)  # before the reports: its errors go in them
+    if run.run_errors:
+        results = tuple(run.run_errors) + results
+        result = CheckResult(results, __version__, result.created_utc)
     run.show_table(result, _use_color(args.color))
-    if results:
-        print(f"checked {len(results)} spec result{'s' if len(results) != 1 else ''} in "
+    if checked:
+        print(f"checked {checked} spec result{'s' if checked != 1 else ''} in "
               f"{time.perf_counter() - t0:.1f} s", file=sys.stderr)
+    said = {id(r) for r in run.run_errors}  # those were said when they happened
     for s in results:
-        if s.error:
+        if s.error and id(s) not in said:
             run.error_text(s.error)
     run.write_outputs(result)
-    drifted = run.compare(result, baseline)
+    drifted = run.show_drift(drift)
     if run.internal:
         return INTERNAL
     if run.bad_input or any(s.error for s in results):

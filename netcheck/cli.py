@@ -15,6 +15,7 @@ import math
 import os
 import re
 import signal
+import stat
 import sys
 import time
 from collections.abc import Sequence
@@ -203,7 +204,7 @@ def _sweep(args: argparse.Namespace) -> int:
     import numpy as np
 
     from .elaborate import read_netlist
-    from .outputs import OutputGuard, check_output_path, open_output
+    from .outputs import OutputGuard, check_not_design_file, check_output_path, open_output
     from .solve import solve
     from .assemble import assemble
 
@@ -216,6 +217,7 @@ def _sweep(args: argparse.Namespace) -> int:
     if target:  # an output that cannot be written is refused before any work is done
         check_output_path(target)
         guard.check(target)
+        check_not_design_file(target)
     t0 = time.perf_counter()
     circuit = read_netlist(args.netlist, root=args.root, allow_negative=args.allow_negative)
     system = assemble(circuit, args.source, args.node, args.ref)
@@ -271,33 +273,49 @@ def _num(v: float) -> float | None:
     return None if not math.isfinite(v) else float(v)
 
 
-class _Terminated(BaseException):
-    """SIGTERM, raised in the main thread so that clean-up (``finally`` blocks) runs."""
+def _install_stop_handlers() -> dict[int, object]:
+    """Turn SIGTERM and SIGINT into :class:`netcheck.outputs.Stopped` in this process.
 
-
-def _install_sigterm() -> object:
-    """Turn SIGTERM into :class:`_Terminated` in this process; return the old handler.
-
-    A worker process forked from this one gets the default action back and is ended by
-    the signal as usual. Outside the main thread nothing is installed (None returned).
+    Each handler first *records* the stop (:func:`netcheck.outputs.request_stop`), then
+    raises, so ``finally`` blocks clean up; a library that swallows the exception (some
+    drawing code catches everything) cannot make the run carry on as if nothing had
+    happened: no output is renamed into place after a stop, and the exit status is
+    128 + the signal. A worker process forked from this one gets the default action
+    back and is ended by the signal as usual. Outside the main thread nothing is
+    installed. Returns the previous handlers.
     """
     import threading
 
+    from .outputs import Stopped, request_stop
+
     if threading.current_thread() is not threading.main_thread():
-        return None
+        return {}
     main_pid = os.getpid()
 
     def handler(signum: int, frame: object) -> None:
         if os.getpid() != main_pid:
-            signal.signal(signal.SIGTERM, signal.SIG_DFL)
-            os.kill(os.getpid(), signal.SIGTERM)
+            signal.signal(signum, signal.SIG_DFL)
+            os.kill(os.getpid(), signum)
             return
-        raise _Terminated()
+        request_stop(signum)
+        raise Stopped(signum)
 
-    try:
-        return signal.signal(signal.SIGTERM, handler)
-    except (ValueError, OSError):
-        return None
+    previous: dict[int, object] = {}
+    for signum in (signal.SIGTERM, signal.SIGINT):
+        try:
+            previous[signum] = signal.signal(signum, handler)
+        except (ValueError, OSError):
+            pass
+    return previous
+
+
+def _stopped_status(signum: int) -> int:
+    if signum == signal.SIGTERM:
+        print("netcheck: stopped by SIGTERM; no output was completed after it",
+              file=sys.stderr)
+        return TERMINATED
+    print("netcheck: interrupted; no output was completed after it", file=sys.stderr)
+    return INTERRUPTED
 
 
 def _settle_source_date_epoch(quiet: bool) -> NetcheckError | None:
@@ -332,6 +350,30 @@ def _settle_source_date_epoch(quiet: bool) -> NetcheckError | None:
                          code="NC402", path="netcheck")
 
 
+def _root_problem(root: str | None) -> NetcheckError | None:
+    """Why ``--root DIR`` cannot be the design root (NC402), or None."""
+    if root is None:
+        return None
+    why = None
+    if not root:
+        why = "is empty"
+    else:
+        try:
+            st = os.stat(root)
+        except FileNotFoundError:
+            why = "does not exist"
+        except (OSError, ValueError) as err:
+            why = f"cannot be used ({getattr(err, 'strerror', None) or err})"
+        else:
+            if not stat.S_ISDIR(st.st_mode):
+                why = "is not a folder"
+    if why is None:
+        return None
+    return NetcheckError(f"--root {printable(repr(root), 120)} {why}; give the folder that "
+                         "holds the design (every file a spec names must be inside it)",
+                         code="NC402", path="netcheck")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run netcheck; return the exit code (see module constants)."""
     parser = build_parser()
@@ -340,21 +382,29 @@ def main(argv: Sequence[str] | None = None) -> int:
     if problem is not None:
         print(safe_text(problem.format()), file=sys.stderr)
         return BAD_INPUT
-    previous = _install_sigterm()
+    from .outputs import Stopped, clear_stop, stop_requested
+
+    clear_stop()
+    problem = _root_problem(getattr(args, "root", None))
+    if problem is not None:
+        print(safe_text(problem.format()), file=sys.stderr)
+        return BAD_INPUT
+    previous = _install_stop_handlers()
     try:
         if args.command == "sweep":
-            return _sweep(args)
-        from .checkcli import run_check
-        return run_check(args)
+            status = _sweep(args)
+        else:
+            from .checkcli import run_check
+            status = run_check(args)
+        signum = stop_requested()  # a stop that some library swallowed
+        return status if signum is None else _stopped_status(signum)
     except NetcheckError as err:
         print(safe_text(err.format()), file=sys.stderr)
         return BAD_INPUT
     except KeyboardInterrupt:
-        print("netcheck: interrupted", file=sys.stderr)
-        return INTERRUPTED
-    except _Terminated:
-        print("netcheck: stopped by SIGTERM", file=sys.stderr)
-        return TERMINATED
+        return _stopped_status(signal.SIGINT)
+    except Stopped as stop:
+        return _stopped_status(stop.signum)
     except BrokenPipeError:
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return OK
@@ -366,15 +416,15 @@ def main(argv: Sequence[str] | None = None) -> int:
         return INTERNAL
     finally:
         from .outputs import remove_partial_files
-        if previous is not None:  # a second SIGTERM must not interrupt the clean-up
-            _set_sigterm(signal.SIG_IGN)
+        for signum in previous:  # a second signal must not interrupt the clean-up
+            _set_handler(signum, signal.SIG_IGN)
         remove_partial_files()
-        if previous is not None:
-            _set_sigterm(previous)
+        for signum, handler in previous.items():
+            _set_handler(signum, handler)
 
 
-def _set_sigterm(handler: object) -> None:
+def _set_handler(signum: int, handler: object) -> None:
     try:
-        signal.signal(signal.SIGTERM, handler)  # type: ignore[arg-type]
+        signal.signal(signum, handler)  # type: ignore[arg-type]
     except (ValueError, OSError, TypeError):
         pass

@@ -362,7 +362,7 @@ def _with_spec_text(result: SpecResult, path: str) -> SpecResult:
 def check_spec(path: str, overrides: dict[str, float] | None = None,
                variant: str | None = None, spec: Spec | None = None,
                netlist: str | None = None, parsed: "Netlist | None" = None,
-               design_root: str | None = None) -> SpecResult:
+               design_root: str | None = None, allow_negative: bool = False) -> SpecResult:
     """Load, solve and judge one spec file; never raises (but KeyboardInterrupt).
 
     ``overrides`` replace top-level ``.param`` values (a variant); ``netlist`` replaces the
@@ -371,21 +371,26 @@ def check_spec(path: str, overrides: dict[str, float] | None = None,
     root, ``--root``; see :func:`netcheck.spec.design_root`). Bad input becomes an error
     result with its code; running out of memory or recursion depth NC421; any other
     exception, a bug, NC500 with the traceback (:func:`failure_result`).
+    ``allow_negative`` (``--allow-negative``) accepts negative R, L and C values as the
+    spec's own ``allow_negative = true`` does.
     """
     try:
-        return _check(path, overrides, variant, spec, netlist, parsed, design_root)
+        return _check(path, overrides, variant, spec, netlist, parsed, design_root,
+                      allow_negative)
     except Exception as exc:  # noqa: BLE001 - a bug or exhaustion costs this spec only
         return failure_result(path, exc, variant, netlist or "")
 
 
 def _check(path: str, overrides: dict[str, float] | None, variant: str | None,
            spec: Spec | None, netlist: str | None, parsed: "Netlist | None",
-           design_root: str | None) -> SpecResult:
+           design_root: str | None, allow_negative: bool = False) -> SpecResult:
     """:func:`check_spec` without its guard against unexpected exceptions."""
     try:
         spec = spec or load_spec(path, design_root)
     except NetcheckError as err:
         return _with_spec_text(error_result(path, err, variant=variant), path)
+    if allow_negative and not spec.allow_negative:
+        spec = dataclasses.replace(spec, allow_negative=True)
     if netlist is not None:  # a family member: inside the design root like the rest
         from .spec import confine, resolve_design_root
         try:

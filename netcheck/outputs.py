@@ -1,7 +1,9 @@
 """The one place output files are written: ``-`` is stdout, files are replaced atomically.
 
 An output never takes the place of something the user keeps. :func:`open_output`
-refuses (``NC401``) a path that is a folder, a device, a FIFO or a socket, and, given an
+refuses (``NC401``) a path that is a folder, a device, a FIFO or a socket, a name with a
+design file's suffix (:data:`DESIGN_SUFFIXES`), an existing CSV table netcheck did not
+write, and, given an
 :class:`OutputGuard`, a path that names one of the run's inputs (by its path, the file
 a link leads to, or its device and inode number) or another output of the same run. A
 file is written under a temporary ``.NAME.*.part`` name in the same folder and renamed
@@ -28,17 +30,101 @@ from .exceptions import RenderError
 from .source import display_path, printable
 
 __all__ = ["open_output", "OutputGuard", "check_output_path", "remove_partial_files",
-           "new_file_mode"]
+           "new_file_mode", "check_not_design_file", "Stopped", "request_stop", "stop_requested", "raise_if_stopped"]
 
 #: temporary files being written now (removed by :func:`remove_partial_files` on exit)
 _PENDING: set[str] = set()
 _PENDING_LOCK = threading.Lock()
+
+#: the signal that asked the run to stop (SIGINT or SIGTERM), once one has arrived
+_STOP: list[int] = []
+
+
+class Stopped(BaseException):
+    """The run was asked to stop by a signal (``signum``); no output is completed after it.
+
+    A BaseException, so that ordinary error handling does not take it for a failure of
+    one output. Some libraries catch every exception while they draw (an image inside a
+    PDF, for example) and so can swallow it; the stop is therefore also *remembered*
+    (:func:`request_stop`), and :func:`open_output` checks it before an output is
+    renamed into place.
+    """
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signum)
+        self.signum = signum
+
+
+def request_stop(signum: int) -> None:
+    """Remember that the run must stop (called from the signal handlers)."""
+    if not _STOP:
+        _STOP.append(signum)
+
+
+def stop_requested() -> int | None:
+    """The signal that asked the run to stop, or None."""
+    return _STOP[0] if _STOP else None
+
+
+def raise_if_stopped() -> None:
+    """Raise :class:`Stopped` when a stop was requested (even if it was swallowed)."""
+    if _STOP:
+        raise Stopped(_STOP[0])
+
+
+def clear_stop() -> None:
+    """Forget a stop request (the start of a new run in the same process: tests)."""
+    _STOP.clear()
 
 
 def _refused(path: str | os.PathLike, message: str) -> RenderError:
     shown = printable(str(path))
     return RenderError(f"output refused: {message}", code="NC401", path=shown)
 
+
+
+#: suffixes of design files (specs, netlists, includes, model libraries): an output never
+#: takes such a name, whether or not a file of that name exists, and whether or not this
+#: run reads it (a design file of another spec, or one skipped by a filter, is still the
+#: user's work)
+DESIGN_SUFFIXES = frozenset({".toml", ".cir", ".ckt", ".net", ".netlist", ".sp", ".spi",
+                             ".spice", ".lib", ".inc", ".mod", ".sub", ".subckt", ".cmp",
+                             ".asc", ".sch"})
+
+#: the first line of every CSV file netcheck writes (``sweep --csv``); an existing CSV
+#: file that does not start with it (a variants table, a measurement) is not replaced
+CSV_HEADER = "frequency_hz,magnitude_db,phase_deg,group_delay_s"
+
+
+def _design_file(path: str | os.PathLike, st: os.stat_result | None) -> str | None:
+    """Why ``path`` may be a design file the user keeps (so no output may replace it)."""
+    suffix = Path(path).suffix.lower()
+    if suffix in DESIGN_SUFFIXES:
+        return (f"a {suffix} name is a design file's (spec, netlist or library); "
+                "netcheck writes reports only: give the output a name of its own, such as "
+                "result.json")
+    if suffix in (".csv", ".tsv") and st is not None and stat.S_ISREG(st.st_mode):
+        try:
+            with open(path, "rb") as fh:
+                head = fh.read(len(CSV_HEADER) + 2)
+        except OSError:
+            head = b""
+        if not head.decode("utf-8", "replace").startswith(CSV_HEADER):
+            return ("this existing table was not written by netcheck (a variants table or "
+                    "a measurement?), so it is not replaced: choose another path, or remove "
+                    "it first")
+    return None
+
+
+def check_not_design_file(path: str | os.PathLike) -> None:
+    """Refuse (``NC401``) an output path that may be a design file the user keeps: a
+    name with a design file's suffix (:data:`DESIGN_SUFFIXES`), or an existing CSV
+    table that netcheck did not write. ``-`` always passes."""
+    if str(path) == "-":
+        return
+    why = _design_file(path, _stat_or_none(Path(path)))
+    if why is not None:
+        raise _refused(path, why)
 
 
 def _stat_or_none(target: Path) -> os.stat_result | None:
@@ -274,6 +360,7 @@ def open_output(path: str | os.PathLike, binary: bool = False, *,
                                "regular files")
     if guard is not None:
         guard.check(target)
+    check_not_design_file(target)
     tmp = None
     try:
         try:
@@ -291,6 +378,7 @@ def open_output(path: str | os.PathLike, binary: bool = False, *,
             stream.flush()
             os.fsync(stream.fileno())
         _settle_mode(tmp, st)
+        raise_if_stopped()  # a stop swallowed while the output was drawn still counts
         os.replace(tmp, target)
         with _PENDING_LOCK:
             _PENDING.discard(tmp)
