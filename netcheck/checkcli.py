@@ -446,7 +446,8 @@ class _Run:
             return
         to_stdout = any(o.path == "-" for o in self.outputs)
         stream = sys.stderr if to_stdout else sys.stdout
-        options = RenderOptions(color=color, verbose=self.args.verbose)
+        options = RenderOptions(color=color, verbose=self.args.verbose,
+                                quiet=self.args.quiet)
         try:
             get_renderer("text")(result, stream, options)
             stream.flush()

@@ -174,7 +174,9 @@ def _common(p: argparse.ArgumentParser) -> None:
                        "netlist's folder)")
     p.add_argument("--allow-negative", action="store_true",
                    help="accept negative R, L and C values (behavioural models)")
-    p.add_argument("-q", "--quiet", action="store_true", help="no warnings, summary only")
+    p.add_argument("-q", "--quiet", action="store_true",
+                   help="no warnings; of the result table, only the specs that did not pass "
+                   "and the summary line")
 
 
 def print_diagnostics(diags: Sequence[Diagnostic], quiet: bool = False) -> None:

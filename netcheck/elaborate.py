@@ -19,12 +19,20 @@ if TYPE_CHECKING:  # pragma: no cover
     from .solve import Response
 
 __all__ = ["Circuit", "elaborate", "read_netlist", "CardReader", "GROUND", "ELEMENTS_MAX",
-           "DIAGNOSTICS_PER_CODE", "summarise_diagnostics"]
+           "DIAGNOSTICS_PER_CODE", "summarise_diagnostics", "VALUE_MAX", "VALUE_MIN"]
 
 GROUND = "0"
 _GROUND_ALIASES = frozenset({"0", "gnd"})
 #: the most warnings of one code a circuit keeps; the rest are counted in one more
 DIAGNOSTICS_PER_CODE = 10
+#: largest magnitude of a value that is stamped into the circuit matrix (R, L, C, the gain
+#: of E, F, G, H and the coefficient of K); NC118 above it. With frequencies from 1e-6 to
+#: 1e15 Hz (the sweep budget), 1/R, ωL, ωC and a gain then stay between about 6e-206 and
+#: 7e215, so every entry of G + jωC is a normal double with more than 1e90 of headroom
+#: on either side of the floating-point range for the sums and products a solve forms
+VALUE_MAX = 1e200
+#: smallest magnitude of a non-zero stamped value (see :data:`VALUE_MAX`)
+VALUE_MIN = 1e-200
 
 
 @dataclass(frozen=True, slots=True)
@@ -387,6 +395,7 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
         element = cls.from_card(CardReader(card, full, env, node_of, ref_of))
         if cls.passive:
             _check_passive(element, card, allow_negative)
+        _check_range(element, card)
         flat.elements.append(element)
         _lint_value(element, card, flat)
 
@@ -446,6 +455,34 @@ def _check_passive(element: Element, card: Card, allow_negative: bool) -> None:
         raise ElaborationError(f"{printable(element.name)} has negative value {value:g}; pass "
                                "--allow-negative (allow_negative=True) if this is intended",
                                span, code="NC110")
+
+
+#: what an out-of-range value of each letter would make overflow or vanish
+_RANGE_WHY = {
+    "R": "its conductance 1/R", "L": "its reactance ωL", "C": "its susceptance ωC",
+    "K": "its mutual inductance", "E": "its gain", "F": "its gain", "G": "its gain",
+    "H": "its gain",
+}
+
+
+def _check_range(element: Element, card: Card) -> None:
+    """NC118 for a stamped value whose magnitude is non-zero but outside
+    [:data:`VALUE_MIN`, :data:`VALUE_MAX`] (independent sources stamp no value)."""
+    why = _RANGE_WHY.get(element.letter)
+    if why is None:
+        return
+    size = abs(element.value)
+    if size == 0 or VALUE_MIN <= size <= VALUE_MAX:
+        return
+    fields = [f for f in card.fields if isinstance(f, Field)]
+    span = fields[-1].span if fields else card.span
+    unit = f" {element.unit}" if element.unit else ""
+    side = "above" if size > VALUE_MAX else "below"
+    raise ElaborationError(
+        f"{printable(element.name)} = {element.value:g}{unit} is {side} the range of part "
+        f"values netcheck solves (magnitude {VALUE_MIN:g} to {VALUE_MAX:g}): {why} would "
+        "leave floating-point range in the circuit matrix; give a value inside the range",
+        span, code="NC118")
 
 
 def _lint_value(element: Element, card: Card, flat: _Flat) -> None:

@@ -17,7 +17,7 @@ from .source import SourceFile, Span, printable, quoted
 __all__ = ["Field", "Assign", "Card", "Directive", "Scope", "SubcktDef", "Netlist",
            "parse_statements", "load_netlist", "KNOWN_DIRECTIVES", "TOKENS_MAX",
            "INCLUDE_DEPTH_MAX", "INCLUDES_MAX", "INCLUDE_TEXT_MAX", "SUBCKT_DEPTH_MAX",
-           "ELEMENTS_MAX", "check_size"]
+           "ELEMENTS_MAX", "TITLE_MAX", "check_size", "bounded_title"]
 
 # Size budgets of one netlist with its includes (NC116). Each is checked before the work
 # it bounds is done; real designs stay far below them.
@@ -34,6 +34,9 @@ INCLUDE_TEXT_MAX = 64 * 2**20
 SUBCKT_DEPTH_MAX = 64
 #: the most elements a design may flatten into; counted before flattening
 ELEMENTS_MAX = 1_000_000
+#: the most characters of the title line kept (it names the design in every report);
+#: a longer one is cut there and marked with the count left out, never refused
+TITLE_MAX = 1_000
 
 #: Dot-directives netcheck acts on; any other directive is warned about (NC150) and skipped.
 KNOWN_DIRECTIVES = frozenset({"subckt", "ends", "param", "include", "end"})
@@ -146,6 +149,23 @@ def _item(source: SourceFile, node: Tree) -> Item:
     return Field(str(node.data), str(tok), _token_span(source, tok))
 
 
+def bounded_title(line: str, limit: int = TITLE_MAX) -> str:
+    """A netlist's title line as kept: stripped, cut at ``limit`` characters.
+
+    The cut is marked with ``…`` and the number of characters left out, so a report
+    shows that the title went on (the file itself is unchanged).
+
+    >>> bounded_title("  Quillmere Instruments - notch, rev A ")
+    'Quillmere Instruments - notch, rev A'
+    >>> bounded_title("Quillmere " * 3, limit=12)
+    'Quillmere Qu… (17 more characters)'
+    """
+    title = line.strip()
+    if len(title) > limit:
+        return f"{title[:limit].rstrip()}… ({len(title) - limit:,} more characters)"
+    return title
+
+
 def parse_statements(source: SourceFile, has_title: bool = True) -> tuple[str, tuple[Statement, ...]]:
     """Parse a netlist file's text into its title and statements.
 
@@ -192,7 +212,7 @@ def _parse_text(source: SourceFile, has_title: bool, allowed: int
     if has_title:
         title, nl, rest = text.partition("\n")
         text = nl + rest  # keep the newline so line numbers stay true
-        title = title.strip()
+        title = bounded_title(title)
     used = 0
     try:
         run = parser("netlist.lark").parse_interactive(text)
@@ -372,6 +392,9 @@ def _include_path(st: Directive, here: Path, chain: tuple[Path, ...], root: Path
                                  st.span, code="NC104")
     target = st.fields[0]
     name = target.expr_text
+    if not name.strip():
+        raise NetlistSyntaxError('empty file name in .include; give the file to include, '
+                                 'e.g. .include "parts.lib"', target.span, code="NC104")
     if Path(name).is_absolute() or name.startswith("~"):
         raise NetlistSyntaxError(f"absolute include path {quoted(name)} refused; give a path "
                                  "relative to the including file", target.span, code="NC104")

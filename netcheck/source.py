@@ -24,7 +24,7 @@ from pathlib import Path
 from typing import Any
 
 __all__ = ["SourceFile", "Span", "format_caret", "read_text", "display_path", "printable",
-           "quoted", "MESSAGE_MAX", "FILE_MAX_BYTES", "CARET_WINDOW", "UNUSABLE_CODE"]
+           "quoted", "clip", "MESSAGE_MAX", "FILE_MAX_BYTES", "CARET_WINDOW", "UNUSABLE_CODE"]
 
 #: the most characters of user text (a name, a line, a value) one message quotes
 MESSAGE_MAX = 200
@@ -43,6 +43,20 @@ _CONTROL = {c: f"\\x{c:02x}" for c in (*range(0x00, 0x09), *range(0x0A, 0x20),
 # isolate (Unicode Standard Annex #9): they reorder what a terminal shows
 _CONTROL.update({c: f"\\u{c:04x}" for c in (0x061C, 0x200E, 0x200F, *range(0x2028, 0x202F),
                                              *range(0x2066, 0x206A))})
+
+
+def clip(text: str, limit: int | None) -> str:
+    """``text`` cut to ``limit`` characters, the cut marked with the count left out.
+
+    Nothing is escaped (a renderer that escapes for its own format uses this); see
+    :func:`printable` for text bound for a terminal or a message.
+
+    >>> clip("Quillmere Instruments", 9), clip("rx40k", 9), clip("rx40k", None)
+    ('Quillmere… (12 more characters)', 'rx40k', 'rx40k')
+    """
+    if limit is None or len(text) <= limit:
+        return text
+    return f"{text[:limit]}… ({len(text) - limit:,} more characters)"
 
 
 def printable(text: str, limit: int | None = MESSAGE_MAX) -> str:

@@ -5,6 +5,7 @@ from __future__ import annotations
 import dataclasses
 import difflib
 import math
+import re
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -12,18 +13,20 @@ from typing import Any
 
 import numpy as np
 
-from ._spec_guard import (MAX_FREQUENCY_HZ, MAX_LIMITS, MAX_NESTING, MAX_SWEEP_POINTS,
-                          MIN_FREQUENCY_HZ, MIN_SWEEP_POINTS, check_count, confine,
-                          design_root, inside_root, nesting_depth, resolve_design_root,
-                          table_depth, validate_sweep)
-from .exceptions import SpecError
-from .source import SourceFile, read_text
+from ._spec_guard import (MAX_FREQUENCY_HZ, MAX_LIMITS, MAX_NESTING, MAX_PATH_CHARS,
+                          MAX_SWEEP_POINTS, MAX_TEXT_CHARS, MIN_FREQUENCY_HZ,
+                          MIN_SWEEP_POINTS, check_count, check_text, check_text_lengths,
+                          confine, design_root, inside_root, key_path_at, long_string,
+                          nesting_depth, resolve_design_root, table_depth, text_budget,
+                          validate_sweep, whole_number)
+from .exceptions import TEXT_MAX, SpecError
+from .source import UNUSABLE_CODE, SourceFile, printable, read_text
 from .units import UnitError, parse_value
 
 __all__ = ["Sweep", "Spec", "load_spec", "parse_spec", "read_toml", "validate_sweep",
            "design_root", "inside_root", "SpecReader", "TOP_KEYS", "locate",
            "MAX_SWEEP_POINTS", "MIN_SWEEP_POINTS", "MAX_FREQUENCY_HZ", "MIN_FREQUENCY_HZ",
-           "MAX_NESTING", "MAX_LIMITS"]
+           "MAX_NESTING", "MAX_LIMITS", "MAX_TEXT_CHARS", "MAX_PATH_CHARS"]
 
 
 #: Top-level keys of a spec and what they hold (for docs, did-you-mean and the loader).
@@ -84,8 +87,36 @@ class Spec:
         return dict(self.tables).get(key)
 
 
+_LONE_CR = re.compile(r"\r(?!\n)")
+
+
+def _lone_cr(text: str, path: str) -> None:
+    """Refuse a carriage return that is not part of a CR LF pair (NC117).
+
+    TOML ends lines with LF or CR LF only, so a spec saved with classic Mac OS line
+    ends (a lone CR) would otherwise get the TOML reader's bare "invalid statement".
+    """
+    found = _LONE_CR.search(text)
+    if found is None:
+        return
+    pos = found.start()
+    line = text.count("\n", 0, pos) + 1
+    column = pos - (text.rfind("\n", 0, pos) + 1) + 1
+    raise SpecError("the spec has lone carriage-return (CR) line ends (classic Mac OS); "
+                    "TOML reads LF or CR LF line ends only: save the file with LF or CR LF "
+                    "line ends", SourceFile(path, text).span(line, column),
+                    code=UNUSABLE_CODE, path=path)
+
+
 def _decode(text: str, path: str) -> dict:
-    """The TOML document of ``text``; nesting over the budget is refused first (NC205)."""
+    """The TOML document of ``text``, its budgets checked.
+
+    Lone-CR line ends are refused (NC117), and nesting and string literals over their
+    budgets (NC205), before the TOML reader runs; text values and keys over their length
+    budget after it (NC205, located at the key:
+    :func:`netcheck._spec_guard.check_text_lengths`).
+    """
+    _lone_cr(text, path)
     depth, over = nesting_depth(text)
     if over >= 0:
         line = text.count("\n", 0, over) + 1
@@ -93,6 +124,17 @@ def _decode(text: str, path: str) -> dict:
         raise SpecError(f"arrays and inline tables nest {depth} deep, over the nesting "
                         f"budget of {MAX_NESTING}", SourceFile(path, text).span(line, column),
                         code="NC205", path=path)
+    at, length, kind = long_string(text)
+    if at >= 0:
+        where = key_path_at(text, at)
+        budget, what = text_budget(where) if kind == "string" else \
+            (MAX_TEXT_CHARS, "one key of a spec")
+        line = text.count("\n", 0, at) + 1
+        column = at - (text.rfind("\n", 0, at) + 1) + 1
+        raise SpecError(f"{where + ': ' if where else ''}a {kind} of {length:,} characters as "
+                        f"written, over the budget of {budget:,} characters for {what}; "
+                        "shorten it", SourceFile(path, text).span(line, column), code="NC205",
+                        path=path, where=where or None)
     try:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as err:
@@ -105,6 +147,10 @@ def _decode(text: str, path: str) -> dict:
         raise SpecError(f"tables nest more than {MAX_NESTING} deep (dotted keys or table "
                         f"headers), over the nesting budget of {MAX_NESTING}", code="NC205",
                         path=path)
+    try:
+        check_text_lengths(doc, path)
+    except SpecError as err:
+        raise locate(err, text) from None
     return doc
 
 
@@ -112,14 +158,15 @@ def read_toml(path: str | Path) -> dict:
     """The decoded TOML document of the file at ``path`` (a spec, or a candidate spec).
 
     Read through :func:`netcheck.source.read_text` (a regular file within the size
-    budget, UTF-8); nesting deeper than :data:`MAX_NESTING` is refused before the TOML
-    reader runs.
+    budget, UTF-8); lone-CR line ends and nesting deeper than :data:`MAX_NESTING` are
+    refused before the TOML reader runs, text longer than its budget
+    (:data:`MAX_TEXT_CHARS`, :data:`MAX_PATH_CHARS` for paths) after it.
 
     Raises
     ------
     SpecError
-        Naming the file: unreadable or unusable, not TOML (with line and column) or
-        nested too deeply (NC205).
+        Naming the file: unreadable or unusable (NC117, lone-CR line ends among them),
+        not TOML (with line and column), nested too deeply or text too long (NC205).
     """
     return _decode(read_text(path, SpecError, "spec"), str(path))
 
@@ -145,9 +192,15 @@ class SpecReader:
         return f"{self.where}.{key}" if self.where else key
 
     def fail(self, key: str, message: str, code: str = "NC202") -> None:
-        """Raise a SpecError located at ``key``."""
+        """Raise a SpecError located at ``key``.
+
+        The message is bounded (:data:`netcheck.exceptions.TEXT_MAX` characters, a cut
+        marked), since it may quote a value from the spec and travels whole into the
+        JSON, JUnit and SARIF outputs.
+        """
         where = self.key_path(key)
-        raise SpecError(f"{where}: {message}", code=code, path=self.path, where=where)
+        raise SpecError(printable(f"{where}: {message}", TEXT_MAX), code=code,
+                        path=self.path, where=where)
 
     def has(self, key: str) -> bool:
         """True if ``key`` is present."""
@@ -158,7 +211,12 @@ class SpecReader:
         return self.table.get(key, default)
 
     def text(self, key: str, default: str | None = None, required: bool = False) -> str | None:
-        """A string value."""
+        """A non-empty string value, within its length budget (NC205).
+
+        :data:`MAX_TEXT_CHARS` characters, :data:`MAX_PATH_CHARS` for a path
+        (:func:`netcheck._spec_guard.check_text`); a whole spec has every text checked
+        as it is read (:func:`read_toml`), this covers tables built otherwise.
+        """
         if key not in self.table:
             if required:
                 self.fail(key, "missing (required)")
@@ -166,6 +224,7 @@ class SpecReader:
         value = self.table[key]
         if not isinstance(value, str) or not value.strip():
             self.fail(key, f"expected a non-empty string, got {value!r}")
+        check_text(value, self.key_path(key), self.path)
         return value
 
     def flag(self, key: str, default: bool = False) -> bool:
@@ -195,11 +254,17 @@ class SpecReader:
         return out
 
     def integer(self, key: str, default: int, minimum: int = 1) -> int:
-        """A whole number ≥ ``minimum``."""
+        """A whole number ≥ ``minimum``: a TOML integer, or a whole-valued float (``1e4``).
+
+        A float such as ``1e9`` is the whole number it writes, so it meets the budget
+        of its key (NC205, with the number and the budget) like ``1000000000`` does,
+        not a type error; ``7.5`` is refused as not whole.
+        """
         value = self.table.get(key, default)
-        if isinstance(value, bool) or not isinstance(value, int) or value < minimum:
+        whole = whole_number(value)
+        if whole is None or whole < minimum:
             self.fail(key, f"expected a whole number >= {minimum}, got {value!r}")
-        return value
+        return whole
 
     def percent_or_value(self, key: str, reference: float) -> float | None:
         """``"1%"`` (relative to ``reference``) or an absolute value; returns the absolute."""

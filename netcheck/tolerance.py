@@ -32,7 +32,7 @@ from .sampling import SampleSet
 from .spec import Spec, SpecReader
 
 __all__ = ["Tolerances", "Analysis", "parse_tolerances", "parse_analysis", "toleranced_parts",
-           "draw", "wilson_interval", "monte_carlo", "with_values", "run_samples",
+           "draw", "wilson_interval", "interval_text", "monte_carlo", "with_values", "run_samples",
            "machine_memory_bytes", "TOLERANCE_KEYS", "ANALYSIS_KEYS", "MEMORY_SHARE"]
 
 TOLERANCE_KEYS = {
@@ -280,14 +280,35 @@ def wilson_interval(passed: int, n: int, z: float = 1.959963984540054) -> tuple[
     return lo, hi
 
 
-def _stats(x: np.ndarray) -> dict[str, float | None]:
+def _stats(x: np.ndarray) -> dict[str, float | int | None]:
+    """Summary of the samples where ``x`` could be measured (finite), and how many.
+
+    ``n`` is the number of samples the figures are taken over and ``samples`` the
+    number drawn: a measurement that exists only in some samples (an edge of a peak that
+    is interior in half of them, say) summarises those alone, and says so.
+    """
+    total = int(x.size)
     x = x[np.isfinite(x)]
     if x.size == 0:
-        return {k: None for k in ("mean", "std", "p01", "p50", "p99", "min", "max")}
+        return {**{k: None for k in ("mean", "std", "p01", "p50", "p99", "min", "max")},
+                "n": 0, "samples": total}
     p01, p50, p99 = np.percentile(x, [1, 50, 99])
     return {"mean": float(x.mean()), "std": float(x.std(ddof=1)) if x.size > 1 else 0.0,
             "p01": float(p01), "p50": float(p50), "p99": float(p99),
-            "min": float(x.min()), "max": float(x.max())}
+            "min": float(x.min()), "max": float(x.max()), "n": int(x.size), "samples": total}
+
+
+def interval_text(passed: int, n: int, what: str = "passed") -> str:
+    """How many samples passed, of how many, with the yield's 95 % Wilson interval [3]_.
+
+    Examples
+    --------
+    >>> interval_text(1990, 2000)
+    '1990 of 2000 samples passed; 95 % interval 99.08 % – 99.73 % (Wilson score)'
+    """
+    lo, hi = wilson_interval(passed, n)
+    return (f"{passed} of {n} samples {what}; 95 % interval {100 * lo:.2f} % – "
+            f"{100 * hi:.2f} % (Wilson score)")
 
 
 MEASUREMENT_KEYS = ("f_peak_hz", "peak_gain_db", "f_low_hz", "f_high_hz", "bandwidth_hz",
@@ -387,6 +408,9 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
     judged = [(name, m, measured[name], m >= 0) for name, m in margins.items()]
     judged += [(name, m, v, ok) for name, (ok, m, v) in stress_ok.items()]
     for name, m, v, ok in judged:
+        # a sample where the quantity could not be measured fails the limit (its margin
+        # is NaN or −inf, never ≥ 0): it counts against the yield, here and overall
+        ok = ok & ~np.isnan(m) & ~np.isnan(v)
         passed_all &= ok
         # unmeasurable samples rank lowest (−inf); "lower" picks sample values, so a
         # percentile among them is −inf, written as null
@@ -395,6 +419,8 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
         worst = int(np.argmin(np.where(np.isfinite(m), m, -np.inf)))
         lim_json.append({"name": name, "yield": float(ok.mean()),
                          "yield_ci": list(wilson_interval(int(ok.sum()), S)),
+                         "passed": int(ok.sum()), "samples": S,
+                         "measured_in": int(np.count_nonzero(np.isfinite(v))),
                          "margin_p01": p01, "margin_p50": p50, "margin_p99": p99,
                          "worst_sample": worst, "worst_measured": _f(v[worst]),
                          "worst_values": {k: float(x[worst]) for k, x in values.items()}})
@@ -418,10 +444,16 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
         vals = measured[hist_key][np.isfinite(measured[hist_key])]
         if vals.size:
             counts, edges = np.histogram(vals, bins=30)
+            # the binned values' own summary, over the same samples as the bars, and the
+            # key figure that holds the very same values (if one does)
+            same = next((k for k, x in meas.items()
+                         if np.array_equal(x, measured[hist_key], equal_nan=True)), None)
             block["histogram"] = {"name": hist_key, "counts": counts.tolist(),
-                                  "edges": edges.tolist()}
+                                  "edges": edges.tolist(), "n": int(vals.size), "samples": S,
+                                  "stats": _stats(measured[hist_key]), "same_as": same}
     if stress_block is not None:
         block["stress"] = stress_block
+    block["passed"] = int(passed_all.sum())
     if analysis.yield_min is not None:
         margin = y - analysis.yield_min
         rows.append(LimitResult(
@@ -431,7 +463,10 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
             f"rating ({tol.distribution} "
             f"tolerances, seed {analysis.seed}); 95 % Wilson interval {ci[0]:.4f}–{ci[1]:.4f}",
             "Monte Carlo, all samples solved together (pole–zero forms checked against direct "
-            "solves), every limit judged per sample", "", len(spec.limits), None))
+            "solves), every limit judged per sample; a sample where a quantity cannot be "
+            "measured fails its limit", interval_text(int(passed_all.sum()), S,
+                                                      "met every limit"),
+            len(spec.limits), None))
     return block, rows, (env_lo, env_hi)
 
 

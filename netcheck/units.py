@@ -17,8 +17,8 @@ from decimal import Decimal, DecimalException
 
 from .source import printable, quoted
 
-__all__ = ["SCALE", "UNIT_WORDS", "parse_quantity", "parse_value", "format_eng", "format_si",
-           "UnitError"]
+__all__ = ["SCALE", "UNIT_WORDS", "RELATIVE_UNITS", "parse_quantity", "parse_value",
+           "parse_relative", "relative_unit", "format_eng", "format_si", "UnitError"]
 
 #: Classic SPICE scale letters (case-insensitive; ``m`` is milli, ``meg`` mega).
 SCALE: dict[str, int] = {
@@ -180,6 +180,18 @@ def _check_unit(text: str, scale: str, unit: str) -> None:
                     "is a second scale suffix; write one (1meg, not 1kk)")
 
 
+def _number(value: object, what: str) -> float | None:
+    """``value`` as a float when it is a TOML number (finite), None when it is not a
+    number at all; a boolean or a non-finite number is refused."""
+    if isinstance(value, bool):
+        raise UnitError(f"{what}: expected a number, got {printable(repr(value), 60)}")
+    if isinstance(value, (int, float)):
+        if not math.isfinite(value):
+            raise UnitError(f"{what}: {printable(repr(value), 60)} is not finite")
+        return float(value)
+    return None
+
+
 def parse_value(value: object, what: str = "value") -> float:
     """Parse a spec value: a number, or a string of engineering notation.
 
@@ -188,15 +200,84 @@ def parse_value(value: object, what: str = "value") -> float:
     >>> parse_value("38k"), parse_value(2.5)
     (38000.0, 2.5)
     """
-    if isinstance(value, bool):
-        raise UnitError(f"{what}: expected a number, got {printable(repr(value), 60)}")
-    if isinstance(value, (int, float)):
-        if not math.isfinite(value):
-            raise UnitError(f"{what}: {printable(repr(value), 60)} is not finite")
-        return float(value)
+    number = _number(value, what)
+    if number is not None:
+        return number
     if isinstance(value, str):
         return parse_quantity(value)
     raise UnitError(f"{what}: expected a number or a string like '10k', got {type(value).__name__}")
+
+
+#: units of a relative quantity (a tolerance, a fraction of a value): their own units,
+#: never engineering prefixes (``20ppm`` is 20e-6, not 20 pico-something)
+#: (the number each unit divides by, so that 50 ppm is exactly 50 / 1e6)
+RELATIVE_UNITS: dict[str, float] = {"%": 1e2, "ppm": 1e6, "ppb": 1e9}
+
+
+def relative_unit(text: str) -> tuple[float, float] | None:
+    """(number, divisor) of ``text`` written with a relative unit (``1%``, ``20 ppm``,
+    ``5ppb``; case-insensitive, space allowed), or None when it has none.
+
+    Raises
+    ------
+    UnitError
+        When the unit is there but the number before it is not a number.
+
+    Examples
+    --------
+    >>> relative_unit("20ppm"), relative_unit("1.5 %"), relative_unit("10k")
+    ((20.0, 1000000.0), (1.5, 100.0), None)
+    """
+    s = text.strip()
+    low = s.lower()
+    for unit, factor in RELATIVE_UNITS.items():
+        if low.endswith(unit):
+            number = s[:len(s) - len(unit)].strip()
+            try:
+                value = float(number)
+            except ValueError:
+                raise UnitError(f"{quoted(text)}: {quoted(number)} before {unit} is not a "
+                                "number") from None
+            if not math.isfinite(value):
+                raise UnitError(f"{quoted(text)} is not finite")
+            return value, factor
+    return None
+
+
+def parse_relative(value: object, what: str = "value") -> float:
+    """A relative quantity as a fraction: a plain number (``0.01``), or a string with a
+    relative unit (``"1%"``, ``"50ppm"``, ``"10 ppb"``).
+
+    A string with an engineering suffix (``"5p"``, ``"20m"``) is refused: a relative
+    quantity has no scale prefix, and reading ``"20p"`` as 2e-11 would hide a typo.
+
+    Examples
+    --------
+    >>> parse_relative("1%"), parse_relative("50ppm"), parse_relative(0.02)
+    (0.01, 5e-05, 0.02)
+    >>> parse_relative("20p", "tolerance")
+    Traceback (most recent call last):
+    ...
+    netcheck.units.UnitError: tolerance: '20p' is relative: write a percentage ('1%'), ...
+    """
+    number = _number(value, what)
+    if number is not None:
+        return number
+    if isinstance(value, str):
+        found = relative_unit(value)
+        if found is not None:
+            return found[0] / found[1]
+        try:
+            plain = float(value.strip())
+        except ValueError:
+            raise UnitError(f"{what}: {quoted(value)} is relative: write a percentage "
+                            "('1%'), parts per million ('50ppm'), parts per billion "
+                            "('10ppb') or a plain fraction (0.01)") from None
+        if math.isfinite(plain):
+            return plain
+        raise UnitError(f"{what}: {quoted(value)} is not finite")
+    raise UnitError(f"{what}: expected a number or a string like '1%' or '50ppm', got "
+                    f"{type(value).__name__}")
 
 
 _PREFIXES = [(1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"),

@@ -6,8 +6,25 @@ adjoint derivatives of :mod:`netcheck.sensitivity` at the frequencies that decid
 quantity towards each bound and adds the first-order effects; RSS adds them in
 quadrature, for comparison. With up to :data:`MAX_CORNER_PARTS` toleranced parts
 (:data:`MAX_CORNER_PARTS_SPARSE` on the sparse path, where each corner costs a sweep) every
-corner (each part at either end) is also judged, through the Monte Carlo machinery,
-and the worse of EVA and the corners decides.
+corner (each part at either end) is also judged, through the Monte Carlo machinery.
+
+Which decides. A quantity monotone in each part over the tolerance box takes its extremes
+at corners, so there the corners are exact and EVA (first order) is only an estimate,
+too wide where the quantity is convex (Q ∝ 1/R: 1/(1 + t) > 1 − t) and too narrow where
+it is concave. So, with every corner evaluated, the quantity (or, failing that, its
+margin) is checked for monotonicity in each part (:func:`_not_monotone`): exact values
+at the corners, at the 2P face centres (each part alone at either end) and at the
+nominal must change one way along every box edge and along both halves of each axis
+through the nominal. When that holds, the corners decide alone. When it does not, or
+the corners were not evaluated, neither is known to bound the quantity and the worse of
+EVA and the corners decides, as before. Every row says which decided (``decided_by``
+in the JSON block, the row's message in words).
+
+The check samples the derivative's sign at 2^(P−1) + 2 secants per part spanning the
+whole box; a quantity that turned back and forth between all of them would escape it.
+That takes a feature moving through the band inside the box and back out, which the
+face centres (where the feature must still be measurable: the row is an error where it
+is not) make unlikely for tolerances of a few per cent.
 
 References
 ----------
@@ -19,7 +36,7 @@ from __future__ import annotations
 
 import itertools
 import math
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, NamedTuple
 
 import numpy as np
 
@@ -34,7 +51,7 @@ from .tolerance import MEASUREMENT_KEYS, Analysis, _f, run_samples
 if TYPE_CHECKING:  # pragma: no cover
     from .evaluate import SpecProbe
 
-__all__ = ["worst_case", "MAX_CORNER_PARTS", "MAX_CORNER_PARTS_SPARSE"]
+__all__ = ["worst_case", "decided_text", "MAX_CORNER_PARTS", "MAX_CORNER_PARTS_SPARSE", "FLAT"]
 
 #: corners are enumerated (2^P of them) up to this many toleranced parts
 MAX_CORNER_PARTS = 12
@@ -135,6 +152,7 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
 
     cap = MAX_CORNER_PARTS if system.size <= DENSE_MAX else MAX_CORNER_PARTS_SPARSE
     corners = _corner_rows(system, spec, parts, memory) if 0 < P <= cap else None
+    names = [p[0] for p in parts]
     for name in judged:
         if name not in lin:
             continue
@@ -143,7 +161,7 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
         if not _finite(row):  # not even the differences gave a finite slope
             lim_json.append({"name": name, "measured_nominal": r.measured, "min": None,
                              "max": None, "margin": None, "status": Status.ERROR.value,
-                             "sensitivity_method": method})
+                             "sensitivity_method": method, "decided_by": None})
             out_rows.append(LimitResult(
                 f"worst case: {name}", "worst_case", Status.ERROR, None, r.lower, r.upper,
                 None, r.unit, r.at_hz, "", "", "the sensitivities of this quantity could not "
@@ -157,22 +175,44 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
         entry = {"name": name, "measured_nominal": r.measured, "min": lo_v, "max": hi_v,
                  "rss_min": row.low - float(np.sqrt(np.sum(c_lo ** 2))),
                  "rss_max": row.high + float(np.sqrt(np.sum(c_hi ** 2))), "margin": margin,
-                 "sensitivity_method": method}
-        lost = 0
+                 "sensitivity_method": method, "monotone": None, "not_monotone_in": []}
+        lost, inside, decided, monotone, why = 0, 0, "linear estimate", None, []
         if corners is not None and name in corners:
-            cmin, cmax, cmargin, lost = corners[name]
-            entry.update(corners_min=_f(cmin), corners_max=_f(cmax),
-                         corners_margin=_f(cmargin), corners_unmeasurable=lost,
-                         eva_differs=bool(math.isfinite(cmargin) and abs(cmargin - margin)
-                                          > 1e-6 * max(1.0, abs(margin))))
-            if math.isfinite(cmargin):
-                margin = min(margin, cmargin)
-                lo_v, hi_v = min(lo_v, cmin), max(hi_v, cmax)
+            cor = corners[name]
+            lost, inside = cor.lost, cor.lost_faces
+            # the value alone decides the margin only for one judged value with both
+            # bounds on it (a centre, a Q); else the margin itself must be monotone
+            single = (method == "adjoint" and row.low == row.high
+                      and np.array_equal(row.d_low, row.d_high))
+            bad = cor.bad_margin if not single else \
+                min(cor.bad_margin, cor.bad_value, key=len)
+            monotone = not bad and not lost and not inside
+            why = [names[j] for j in bad]
+            entry.update(corners_min=_f(cor.min), corners_max=_f(cor.max),
+                         corners_margin=_f(cor.margin), corners_unmeasurable=lost,
+                         faces_unmeasurable=inside,
+                         eva_differs=bool(math.isfinite(cor.margin) and abs(cor.margin - margin)
+                                          > 1e-6 * max(1.0, abs(margin))),
+                         monotone=monotone, not_monotone_in=why)
+            if math.isfinite(cor.margin):
+                if monotone:
+                    # every corner evaluated and the quantity moves one way with each part
+                    # over the whole box: its extremes lie at corners, which decide alone
+                    margin, lo_v, hi_v, decided = cor.margin, cor.min, cor.max, "corners"
+                else:  # not shown monotone: the worse of the two, as neither is a bound
+                    if cor.margin < margin:
+                        decided = "corners"
+                    margin = min(margin, cor.margin)
+                    lo_v, hi_v = min(lo_v, cor.min), max(hi_v, cor.max)
         status = Status.PASS if margin >= 0 else Status.FAIL
-        if lost:  # the worst case is not established where the quantity is not there
+        gone = bool(lost or inside)
+        if gone:  # the worst case is not established where the quantity is not there
             status = Status.ERROR
             entry["margin"] = None
-        entry["status"] = status.value
+            decided = None
+        entry.update(status=status.value, decided_by=decided,
+                     worst_min=None if gone else _f(lo_v), worst_max=None if gone else _f(hi_v),
+                     worst_margin=None if gone else _f(margin))
         lim_json.append(entry)
         lower_decides = r.lower is not None and (r.upper is None or
                                                  lo_v - r.lower < r.upper - hi_v)
@@ -184,21 +224,25 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
             {"part": parts[k][0], "sensitivity": _f(dln[k] / m0) if relative else None,
              "per_unit_log": _f(dln[k]), "contribution": _f(contrib[k])} for k in order]})
         definition = (f"extreme-value analysis over {P} toleranced parts: "
-                      f"{_fmt(lo_v, r.unit)} … {_fmt(hi_v, r.unit)}" +
+                      f"{_fmt(entry['min'], r.unit)} … {_fmt(entry['max'], r.unit)}" +
                       (f"; all {2 ** P} corners evaluated" if corners is not None else ""))
         method_text = f"sensitivities by {method}; EVA (each part at the end that hurts)"
-        if lost:
+        if gone:
+            where = (f"{lost} of the {2 ** P} tolerance corners" if lost else
+                     f"{inside} of the {2 * P} face centres of the tolerance box (each part "
+                     "alone at a tolerance end)")
             out_rows.append(LimitResult(
                 f"worst case: {name}", "worst_case", status, None, r.lower, r.upper, None,
                 r.unit, r.at_hz, definition, method_text,
-                f"cannot be measured at {lost} of the {2 ** P} tolerance corners (the "
-                "feature leaves the sweep or the band there), so no worst case is "
-                "established; widen the sweep or tighten the tolerances", r.index, r.line))
+                f"cannot be measured at {where} (the feature leaves the sweep or the band "
+                "there), so no worst case is established; widen the sweep or tighten the "
+                "tolerances", r.index, r.line))
             continue
         out_rows.append(LimitResult(
             f"worst case: {name}", "worst_case", status, lo_v if lower_decides else hi_v,
             r.lower, r.upper, margin, r.unit, r.at_hz, definition, method_text,
-            "", r.index, r.line))
+            decided_text(decided, P, cap, monotone, why, corners is not None),
+            r.index, r.line))
     meas_json = {}
     for key in keys:
         if key in d_meas:
@@ -226,23 +270,102 @@ def _margin(r: LimitResult, lo_v: float, hi_v: float) -> float:
     return float(min(sides)) if sides else math.inf
 
 
-def _corner_rows(system: System, spec: Spec, parts: list[tuple[str, float, float]],
-                 memory: int) -> dict[str, tuple[float, float, float, int]]:
-    """Per judged quantity over all 2^P corners: (min, max, worst margin, unmeasurable).
+class _Corners(NamedTuple):
+    """One judged quantity over the tolerance box (see :func:`_corner_rows`)."""
 
-    Corners where the quantity cannot be measured are left out of min, max and margin
-    (NaN when none is left) and counted.
+    min: float
+    max: float
+    margin: float
+    lost: int
+    lost_faces: int
+    bad_value: list[int]
+    bad_margin: list[int]
+
+
+#: differences within this fraction of the largest value measured count as no change
+#: (the refined measurements agree to about 1e-12 relative; a reversal this small moves
+#: an extreme by no more than this)
+FLAT = 1e-9
+
+
+def _not_monotone(v: np.ndarray, P: int, eps: float) -> list[int]:
+    """The parts in which ``v`` is not shown monotone over the tolerance box.
+
+    ``v`` holds a quantity at the 2^P corners (in :func:`itertools.product` order, each
+    part at −t then +t), then each part alone at −t, then each alone at +t (the face
+    centres), then the nominal. Part j is shown monotone when every difference along it
+    has one sign: the 2^(P−1) box edges between corners that differ in j alone, and the
+    two halves of the axis through the nominal (face centre − nominal, nominal − other
+    face centre). Differences within ``eps`` count as no change.
+    """
+    n = 2 ** P
+    c = v[:n].reshape((2,) * P)
+    minus, plus, centre = v[n:n + P], v[n + P:n + 2 * P], v[-1]
+    bad = []
+    for j in range(P):
+        d = np.concatenate([(np.take(c, 1, axis=j) - np.take(c, 0, axis=j)).ravel(),
+                            [plus[j] - centre, centre - minus[j]]])
+        if not np.all(np.isfinite(d)) or (np.any(d > eps) and np.any(d < -eps)):
+            bad.append(j)
+    return bad
+
+
+def _corner_rows(system: System, spec: Spec, parts: list[tuple[str, float, float]],
+                 memory: int) -> dict[str, _Corners]:
+    """Every judged quantity over all 2^P corners, with a check that the corners decide.
+
+    Per quantity: the least and greatest value and the worst margin over the corners
+    (corners where it cannot be measured are left out, NaN when none is left, and
+    counted), and the parts in which the value, and the margin, are not shown monotone
+    (:func:`_not_monotone`, from exact solutions at the corners, the 2P face centres and
+    the nominal, solved together with the corners).
     """
     P = len(parts)
     signs = np.array(list(itertools.product((-1.0, 1.0), repeat=P)))
-    values = {name: v * (1 + t * signs[:, j]) for j, (name, v, t) in enumerate(parts)}
-    rows, _ = _rows_for(system, spec, values, signs.shape[0], memory, "worst-case corners")
+    faces = np.vstack([-np.eye(P), np.eye(P), np.zeros((1, P))])
+    points = np.vstack([signs, faces])
+    values = {name: v * (1 + t * points[:, j]) for j, (name, v, t) in enumerate(parts)}
+    rows, _ = _rows_for(system, spec, values, points.shape[0], memory, "worst-case corners")
+    n = signs.shape[0]
     out = {}
     for k, (m, g) in rows.items():
         ok = np.isfinite(m) & np.isfinite(g)
-        if ok.any():
-            out[k] = (float(m[ok].min()), float(m[ok].max()), float(g[ok].min()),
-                      int((~ok).sum()))
+        lost, lost_faces = int((~ok[:n]).sum()), int((~ok[n:]).sum())
+        scale = float(np.max(np.abs(m[ok]))) if ok.any() else 0.0
+        eps = FLAT * scale
+        bad_v = _not_monotone(np.where(ok, m, np.nan), P, eps)
+        bad_g = _not_monotone(np.where(ok, g, np.nan), P, eps)
+        c = ok[:n]
+        if c.any():
+            out[k] = _Corners(float(m[:n][c].min()), float(m[:n][c].max()),
+                              float(g[:n][c].min()), lost, lost_faces, bad_v, bad_g)
         else:
-            out[k] = (math.nan, math.nan, math.nan, int(m.size))
+            out[k] = _Corners(math.nan, math.nan, math.nan, lost, lost_faces, bad_v, bad_g)
     return out
+
+
+def decided_text(decided: str | None, parts: int, cap: int, monotone: bool | None,
+                 why: list[str], corners: bool) -> str:
+    """What decided a worst-case verdict, in a few words (the row's message).
+
+    Examples
+    --------
+    >>> decided_text("corners", 3, 12, True, [], True)
+    'decided by the corners (all 8; monotone in every part over the tolerance box)'
+    >>> decided_text("linear estimate", 2, 12, False, ["L1"], True)
+    'decided by the linear estimate (EVA), the more cautious of EVA and the 4 corners:
+    not shown monotone in L1'
+    """
+    if decided is None:
+        return ""
+    n = 2 ** parts
+    if monotone:
+        return f"decided by the corners (all {n}; monotone in every part over the tolerance box)"
+    if not corners:
+        return (f"decided by the linear estimate (EVA): corners not evaluated ({parts} "
+                f"toleranced parts, more than {cap})")
+    where = (f" in {', '.join(why[:4])}" + (f" and {len(why) - 4} more" if len(why) > 4
+                                            else "")) if why else ""
+    which = "the corners" if decided == "corners" else "the linear estimate (EVA)"
+    return f"decided by {which}, the more cautious of EVA and the {n} corners: not shown " \
+           f"monotone{where}"

@@ -65,3 +65,16 @@ def ladder_netlist(g: list[float], fc: float, r: float = 50.0,
 def butterworth_ladder(order: int, fc: float, r: float = 50.0) -> tuple[str, str]:
     """Doubly terminated Butterworth LC ladder (see :func:`butterworth_g`)."""
     return ladder_netlist(butterworth_g(order), fc, r, "Quillmere Instruments Butterworth ladder")
+
+
+def split_rc_chain(n: int) -> str:
+    """V1 → n-1 resistors of 100 Ω in series → out, C1 = 100 nF from out to ground: an RC
+    low-pass with n toleranced parts (corner 1/(2π·(n-1)·100 Ω·100 nF))."""
+    lines = ["Quillmere test: RC low-pass with a split resistor", "V1 in 0 AC 1"]
+    prev = "in"
+    for i in range(n - 1):
+        nxt = "out" if i == n - 2 else f"n{i + 1}"
+        lines.append(f"R{i + 1} {prev} {nxt} 100")
+        prev = nxt
+    lines.append("C1 out 0 100n")
+    return "\n".join(lines) + "\n"

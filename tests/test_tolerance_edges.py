@@ -18,7 +18,7 @@ import jsonschema
 import pytest
 
 from circuits import C, L, R
-from circuits import SERIES_RLC
+from circuits import SERIES_RLC, split_rc_chain as _chain
 from netcheck.cli import main
 from netcheck.evaluate import check_spec
 from netcheck.result import Status
@@ -308,18 +308,6 @@ def test_rc_corner_worst_case_is_exact_at_the_corners_and_rss_follows_gum(tmp_pa
     row = _rows(res, "worst case: ")["worst case: corner (half-power)"]
     assert row.measured == entry["corners_max"]
     assert row.margin == pytest.approx(2000 - entry["corners_max"], rel=1e-12)
-
-
-def _chain(n: int) -> str:
-    """V1 → n-1 resistors of 100 Ω in series → out, C1 = 100 nF from out to ground."""
-    lines = ["Quillmere test: RC low-pass with a split resistor", "V1 in 0 AC 1"]
-    prev = "in"
-    for i in range(n - 1):
-        nxt = "out" if i == n - 2 else f"n{i + 1}"
-        lines.append(f"R{i + 1} {prev} {nxt} 100")
-        prev = nxt
-    lines.append("C1 out 0 100n")
-    return "\n".join(lines) + "\n"
 
 
 @pytest.mark.parametrize("n, corners", [(12, 4096), (13, None)])

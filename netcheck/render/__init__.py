@@ -12,7 +12,17 @@ from typing import IO, Any, Callable
 
 from ..result import CheckResult
 
-__all__ = ["RENDERERS", "RenderOptions", "get_renderer", "render_to"]
+__all__ = ["RENDERERS", "RenderOptions", "get_renderer", "render_to", "NAME_SHOWN_MAX",
+           "TEXT_SHOWN_MAX"]
+
+#: The most characters of a name or title (a spec's title, a limit's or variant's name)
+#: the Markdown summary and the PDF report show; a cut is marked with the count left
+#: out. The spec loader already refuses longer than 1,000 (NC205); this keeps headings
+#: and table cells readable, and a report cheap, whatever the result holds.
+NAME_SHOWN_MAX = 200
+#: The most characters of any other text from the inputs (a path, a message, an error
+#: with its traceback) the Markdown summary and the PDF report show in one place.
+TEXT_SHOWN_MAX = 8_192
 
 #: format name → (``module:function``, binary output?)
 RENDERERS: dict[str, tuple[str, bool]] = {
@@ -31,6 +41,8 @@ class RenderOptions:
 
     color: bool = False
     verbose: bool = False
+    #: terminal only: show the specs that did not pass and the summary (``--quiet``)
+    quiet: bool = False
     extra: dict[str, Any] = field(default_factory=dict)
 
 

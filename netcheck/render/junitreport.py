@@ -18,6 +18,8 @@ Mapping
 * ``SpecResult.error`` (the spec could not be checked) → an extra testcase named
   ``spec`` (classname ``<spec path>.spec``) holding an ``<error>``.
 * Cautions (the spec's, then the run's) → the suite's ``<system-out>``, one a line.
+* Suite properties: ``spec``, ``netlist`` (left out when the spec could not be loaded,
+  so no netlist is known), ``title``, ``variant`` (for a variant), ``netcheck.version``.
 
 Every text and attribute value passes through :func:`xml_text`, which replaces the
 characters XML 1.0 does not allow (C0 controls other than tab, newline and carriage
@@ -139,7 +141,9 @@ def _suite(root: ET.Element, spec: SpecResult, result: CheckResult) -> dict[str,
     suite = _sub(root, "testsuite", **attrs)
 
     props = _sub(suite, "properties")
-    entries = [("spec", spec.spec), ("netlist", spec.netlist), ("title", spec.title)]
+    # a spec that could not be loaded names no netlist: no empty property for it
+    entries = [("spec", spec.spec)] + ([("netlist", spec.netlist)] if spec.netlist else [])
+    entries.append(("title", spec.title))
     if spec.variant is not None:
         entries.append(("variant", spec.variant))
     entries.append(("netcheck.version", result.tool_version))

@@ -15,6 +15,10 @@ Layout (GitHub-flavoured Markdown tables; every status is a word, never a colour
 Text that comes from the user's files (titles, names, paths, messages) goes through
 :func:`md_text`, which backslash-escapes Markdown punctuation (``|`` included, so
 table cells stay intact), folds line breaks and shows control characters as ``\\xNN``.
+It is bounded too: names and titles to :data:`~netcheck.render.NAME_SHOWN_MAX`
+characters (:func:`md_name`), anything else to :data:`~netcheck.render.TEXT_SHOWN_MAX`,
+each cut marked with the count left out. A spec that could not be loaded has no
+netlist, and its section says so instead of naming one.
 """
 
 from __future__ import annotations
@@ -22,11 +26,12 @@ from __future__ import annotations
 from typing import IO
 
 from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
+from ..source import clip
 from ..units import format_eng
-from . import RenderOptions
+from . import NAME_SHOWN_MAX, TEXT_SHOWN_MAX, RenderOptions
 from .junitreport import signed
 
-__all__ = ["render", "md_text"]
+__all__ = ["render", "md_text", "md_name"]
 
 # Punctuation that opens or closes inline Markdown anywhere in a line: code, emphasis,
 # links/images, raw HTML, entities, GFM strikethrough and table cells, math. CommonMark
@@ -47,8 +52,10 @@ _VERDICT = {
 }
 
 
-def md_text(value: object) -> str:
+def md_text(value: object, limit: int | None = TEXT_SHOWN_MAX) -> str:
     r"""``value`` as inline Markdown text that renders exactly as written.
+
+    Cut to ``limit`` characters first (the cut marked with the count left out).
 
     Examples
     --------
@@ -56,9 +63,11 @@ def md_text(value: object) -> str:
     'a\\|b \\*c\\*'
     >>> md_text("two\nlines\x1b")
     'two lines\\x1b'
+    >>> md_text("Quillmere_Instruments", 9)
+    'Quillmere… (12 more characters)'
     """
     out = []
-    for ch in str(value):
+    for ch in clip(str(value), limit):
         if ch in "\r\n":
             out.append(" ")
         elif ch in _SPECIAL:
@@ -72,6 +81,12 @@ def md_text(value: object) -> str:
         else:
             out.append(ch)
     return "".join(out)
+
+
+def md_name(value: object) -> str:
+    """A name or title (a spec's label, a limit's or variant's name) as :func:`md_text`
+    shows it, cut at :data:`~netcheck.render.NAME_SHOWN_MAX` characters."""
+    return md_text(value, NAME_SHOWN_MAX)
 
 
 def _fenced(text: str) -> list[str]:
@@ -95,12 +110,13 @@ def _limit_row(lim: LimitResult) -> str:
     measured = "—" if lim.measured is None else format_eng(lim.measured, lim.unit)
     margin = "—" if lim.margin is None else signed(lim.margin, lim.unit)
     at = "—" if lim.at_hz is None else format_eng(lim.at_hz, "Hz")
-    return _row([lim.status.word, md_text(lim.name), measured, lim.bound_text, margin, at])
+    return _row([lim.status.word, md_name(lim.name), measured, lim.bound_text, margin, at])
 
 
 def _spec_section(spec: SpecResult) -> list[str]:
-    lines = [f"### {spec.status.word}: {md_text(spec.label)}", "",
-             f"Spec {md_text(spec.spec)}, netlist {md_text(spec.netlist)}.", ""]
+    files = (f"Spec {md_text(spec.spec)}, netlist {md_text(spec.netlist)}." if spec.netlist
+             else f"Spec {md_text(spec.spec)}; netlist unknown (spec not loaded).")
+    lines = [f"### {spec.status.word}: {md_name(spec.label)}", "", files, ""]
     if spec.error is not None:
         lines += ["Could not be checked:", ""] + _fenced(spec.error) + [""]
     if spec.limits:
@@ -113,9 +129,11 @@ def _spec_section(spec: SpecResult) -> list[str]:
         ordered = sorted(spec.limits, key=lambda lim: (-lim.status.rank, lim.index))
         lines += [_limit_row(lim) for lim in ordered]
         lines.append("")
-        notes = [lim for lim in ordered if lim.message and lim.status is not Status.PASS]
+        # a tolerance verdict says what decided it (and a yield its interval) even when met
+        notes = [lim for lim in ordered if lim.message and (
+            lim.status is not Status.PASS or lim.kind in ("yield", "worst_case"))]
         if notes:
-            lines += [f"- {lim.status.word} {md_text(lim.name)}: {md_text(lim.message)}"
+            lines += [f"- {lim.status.word} {md_name(lim.name)}: {md_text(lim.message)}"
                       for lim in notes]
             lines.append("")
     return lines
@@ -150,11 +168,11 @@ def _matrix(path: str, members: list[SpecResult]) -> list[str]:
             if lim.name not in names:
                 names.append(lim.name)
     lines = [f"### Family: {md_text(path)}", "",
-             _row(["Variant", "Verdict"] + [md_text(n) for n in names]),
+             _row(["Variant", "Verdict"] + [md_name(n) for n in names]),
              "|---|---|" + "---:|" * len(names)]
     for spec in members:
         cells = [_cell([lim for lim in spec.limits if lim.name == n]) for n in names]
-        variant = "—" if spec.variant is None else md_text(spec.variant)
+        variant = "—" if spec.variant is None else md_name(spec.variant)
         lines.append(_row([variant, spec.status.word] + cells))
     return lines + [""]
 
@@ -189,7 +207,7 @@ def _cautions(result: CheckResult) -> list[str]:
         text = (f"- {md_text(caution.severity.upper())} {md_text(caution.code)}"
                 f"{_where(caution)}: {md_text(caution.message)}")
         if labels and set(labels) != everyone:
-            text += " (" + "; ".join(md_text(label) for label in labels) + ")"
+            text += " (" + "; ".join(md_name(label) for label in labels) + ")"
         items.append(text)
     lines = ["## Cautions", ""] + items + [""] if items else []
     for message in safety:

@@ -17,6 +17,8 @@ ERROR_LINES_MAX = 40
 
 _COLOURS = {Status.PASS: "32", Status.FAIL: "31;1", Status.ERROR: "35;1", Status.SKIPPED: "33"}
 _MARK = {Status.PASS: " ", Status.FAIL: "✗", Status.ERROR: "!", Status.SKIPPED: "-"}
+#: row kinds whose message is shown whatever their status
+_SAYS_HOW = ("yield", "worst_case")
 
 
 def _clean(text: str, limit: int = MESSAGE_MAX) -> str:
@@ -68,7 +70,9 @@ def _spec_block(s: SpecResult, color: bool, verbose: bool) -> list[str]:
         if k > 0:
             lim = _order(s.limits)[k - 1]
             text = _paint(text, lim.status, color) if lim.status is not Status.PASS else text
-            if lim.status is Status.ERROR and lim.message:
+            # an error says why; a tolerance verdict what decided it (yield: of how many
+            # samples, with its interval; worst case: the corners or the linear estimate)
+            if lim.message and (lim.status is Status.ERROR or lim.kind in _SAYS_HOW):
                 text += "".join("\n      " + ln for ln in _lines(lim.message))
         lines.append(text)
     lines += _cautions(s.cautions, verbose)
@@ -124,10 +128,13 @@ def render(result: CheckResult, stream: IO[str], options: Any = None) -> None:
     """Write the terminal report of ``result`` to ``stream``."""
     color = bool(getattr(options, "color", False))
     verbose = bool(getattr(options, "verbose", False))
+    quiet = bool(getattr(options, "quiet", False))  # only what did not pass, and the summary
     for s in result.specs:
-        stream.write("\n".join(_spec_block(s, color, verbose)) + "\n\n")
+        if not (quiet and s.status is Status.PASS):
+            stream.write("\n".join(_spec_block(s, color, verbose)) + "\n\n")
     for path, members in _families(result).items():
-        stream.write("\n".join(_family_block(path, members)) + "\n\n")
+        if not (quiet and all(m.status is Status.PASS for m in members)):
+            stream.write("\n".join(_family_block(path, members)) + "\n\n")
     run_wide = _cautions(result.cautions, verbose)
     if run_wide:
         stream.write("\n".join(run_wide) + "\n\n")

@@ -8,8 +8,9 @@ from typing import Any
 from ..provenance import GitState, git_state
 from ..result import SAFETY_CAUTION, CheckResult, LimitResult, SpecResult, Status
 from ..units import format_eng, format_si
-from .formatting import (MEASUREMENTS, caution_view, date_text, display_path,
-                         format_margin, format_measured, listing_rows, status_view, unit_of)
+from .formatting import (LISTING_ROWS_MAX, LISTING_TOTAL_MAX, MEASUREMENTS, caution_view,
+                         date_text, display_path, format_margin, format_measured, listing,
+                         shown_name, status_view, unit_of)
 from .view_family import family_views
 from .view_stress import stress_view
 from .view_tolerance import tolerance_view
@@ -73,9 +74,10 @@ def _verdict(s: SpecResult) -> dict[str, Any]:
             parts.append(f"{len(errored)} could not be measured")
         word = "FAIL" if failed else "ERROR"
         headline = f"{word}: {' and '.join(parts)}."
-        items = [f"{lim.name}: {format_measured(lim)} against {lim.bound_text}, margin "
-                 f"{format_margin(lim)}" for lim in failed]
-        items += [f"{lim.name}: not measured ({lim.message or 'no value'})" for lim in errored]
+        items = [f"{shown_name(lim.name)}: {format_measured(lim)} against {lim.bound_text}, "
+                 f"margin {format_margin(lim)}" for lim in failed]
+        items += [f"{shown_name(lim.name)}: not measured ({lim.message or 'no value'})"
+                  for lim in errored]
     elif total:
         skipped = f" ({n['skipped']} skipped)" if n["skipped"] else ""
         headline = f"PASS: all {n['pass']} limit{'s' if n['pass'] != 1 else ''} met{skipped}."
@@ -125,9 +127,12 @@ def _spec_view(s: SpecResult, number: int, with_plots: bool = True) -> dict[str,
     git = _recorded_git(s.extra_value("git"))
     if git is None:
         git = git_state(Path(s.spec).parent, tuple(p for p, _ in s.inputs))
-    sources = [{"path": display_path(path), "sha256": hashes.get(path, ""),
-                "role": _role(s, k, path), "rows": listing_rows(text)}
-               for k, (path, text) in enumerate(s.source_text)]
+    sources, rows_left = [], LISTING_TOTAL_MAX
+    for k, (path, text) in enumerate(s.source_text):
+        shown = listing(text, max_rows=min(LISTING_ROWS_MAX, rows_left))
+        rows_left -= len(shown["rows"])
+        sources.append({"path": display_path(path), "sha256": hashes.get(path, ""),
+                        "role": _role(s, k, path), **shown})
     cautions = [caution_view(c) for c in s.cautions if c.code != "safety"]
     measurements = [{"label": MEASUREMENTS.get(k, (k, ""))[0], "value": format_eng(v, unit_of(k))}
                     for k, v in s.measurements]
@@ -210,7 +215,8 @@ def build_context(result: CheckResult, with_plots: bool = True) -> dict[str, Any
     if not result.specs:
         sentence = "No specs were checked."
     elif failing:
-        names = "; ".join(f"{v['label']} ({v['verdict']['word']})" for v in failing)
+        names = "; ".join(f"{shown_name(v['label'])} ({v['verdict']['word']})"
+                          for v in failing)
         sentence = (f"{word}: {len(failing)} of {len(specs)} specs did not pass: {names}.")
     else:
         sentence = f"PASS: all {len(specs)} specs met every limit."
@@ -220,6 +226,6 @@ def build_context(result: CheckResult, with_plots: bool = True) -> dict[str, Any
         "date": date_text(result.created_utc), "created_utc": result.created_utc,
         "tool_version": result.tool_version, "safety": SAFETY_CAUTION,
         "run_cautions": [caution_view(c) for c in result.cautions if c.code != "safety"],
-        "title": specs[0]["label"] if len(specs) == 1 else
+        "title": shown_name(specs[0]["label"]) if len(specs) == 1 else
         f"Compliance report: {len(specs)} specs",
     }

@@ -6,14 +6,17 @@ import math
 import re
 from typing import Any
 
+from ..render import NAME_SHOWN_MAX, TEXT_SHOWN_MAX
 from ..result import LimitResult, Status
-from ..source import display_path
+from ..source import clip, display_path
 from ..units import format_eng
 
 __all__ = ["SYMBOL", "MEASUREMENTS", "status_view", "format_measured", "format_margin",
            "unit_of", "signed", "format_fraction", "format_interval", "format_range",
            "coefficient", "tolerance_text", "display_path", "date_text", "caution_view",
-           "LISTING_COLUMNS", "listing_rows"]
+           "LISTING_COLUMNS", "LISTING_ROWS_MAX", "LISTING_TOTAL_MAX", "LISTING_LINE_ROWS",
+           "listing_rows", "listing",
+           "shown_name", "NAME_SHOWN_MAX", "TEXT_SHOWN_MAX"]
 
 SYMBOL = {Status.PASS: "✓", Status.FAIL: "✗", Status.ERROR: "!", Status.SKIPPED: "–"}
 #: measurement key → (label, unit) for the key-figures and spread tables
@@ -27,6 +30,17 @@ MEASUREMENTS = {
 }
 #: margins beyond this are the Monte Carlo block's stand-in for "not measured" samples
 _ABSURD = 1e200
+
+
+def shown_name(text: Any) -> str:
+    """A name or title as the report shows it: cut at
+    :data:`~netcheck.render.NAME_SHOWN_MAX` characters, the cut marked with the count left
+    out (the ``name`` filter of the templates).
+
+    >>> shown_name("q" * 300)[195:]
+    'qqqqq… (100 more characters)'
+    """
+    return clip(str(text), NAME_SHOWN_MAX)
 
 
 def status_view(status: Status) -> dict[str, str]:
@@ -148,6 +162,13 @@ def caution_view(c: Any) -> dict[str, str]:
 
 #: characters per appendix line: the 176 mm text width at 7 pt DejaVu Sans Mono (0.602 em)
 LISTING_COLUMNS = 118
+#: the most rows the appendix lists of one input file (about 12 pages; each row costs
+#: the PDF a few milliseconds, and an input may be 16 MiB)
+LISTING_ROWS_MAX = 1_000
+#: the most rows the appendix lists of all the input files of one spec together
+LISTING_TOTAL_MAX = 4_000
+#: the most rows one long line wraps into; the rest of it is counted, not listed
+LISTING_LINE_ROWS = 20
 
 
 def listing_rows(text: str, columns: int = LISTING_COLUMNS) -> list[tuple[str, str]]:
@@ -158,13 +179,44 @@ def listing_rows(text: str, columns: int = LISTING_COLUMNS) -> list[tuple[str, s
     >>> listing_rows("a\\tb\\n" + "x" * 20, columns=10)
     [('1', 'a   b'), ('2', 'xxxxxxxx'), (' ', 'xxxxxxxx'), (' ', 'xxxx')]
     """
+    return listing(text, columns, None, None)["rows"]
+
+
+def listing(text: str, columns: int = LISTING_COLUMNS, max_rows: int | None = LISTING_ROWS_MAX,
+            line_rows: int | None = LISTING_LINE_ROWS) -> dict[str, Any]:
+    """A file listing of at most ``max_rows`` rows: ``rows`` as :func:`listing_rows` makes
+    them, and ``cut``, a sentence saying what is left out (empty when nothing is).
+
+    A line that would wrap into more than ``line_rows`` rows shows that many, then a row
+    counting the characters of it not shown.
+
+    Examples
+    --------
+    >>> view = listing("a\\n" + "x" * 20 + "\\nb\\nc", columns=10, max_rows=3)
+    >>> view["rows"]
+    [('1', 'a'), ('2', 'xxxxxxxx'), (' ', 'xxxxxxxx')]
+    >>> view["cut"]
+    'Listing cut after 3 rows: the rest of line 2 and 2 more lines are not shown; the SHA-256 is of the whole file.'
+    >>> listing("y" * 30 + "\\nz", columns=10, line_rows=2)["rows"]
+    [('1', 'yyyyyyyy'), (' ', 'yyyyyyyy'), (' ', '… 14 more characters of line 1 not shown'), ('2', 'z')]
+    """
     lines = text.splitlines() or [""]
     width = len(str(len(lines)))
     room = max(8, columns - width - 1)
-    rows = []
+    rows: list[tuple[str, str]] = []
     for no, line in enumerate(lines, 1):
         line = line.expandtabs(4)
-        chunks = [line[i:i + room] for i in range(0, len(line), room)] or [""]
-        rows.append((str(no).rjust(width), chunks[0]))
-        rows += [(" " * width, c) for c in chunks[1:]]
-    return rows
+        for k, i in enumerate(range(0, max(len(line), 1), room)):
+            if max_rows is not None and len(rows) >= max_rows:
+                rest = len(lines) - no
+                partial = f"the rest of line {no} and " if i else ""
+                more = rest if i else rest + 1
+                what = f"{partial}{more:,} more line{'s' if more != 1 else ''}"
+                return {"rows": rows, "cut": f"Listing cut after {len(rows):,} rows: {what} "
+                        "are not shown; the SHA-256 is of the whole file."}
+            if line_rows is not None and k == line_rows:
+                rows.append((" " * width, f"… {len(line) - i:,} more characters of line "
+                                          f"{no} not shown"))
+                break
+            rows.append((str(no).rjust(width) if i == 0 else " " * width, line[i:i + room]))
+    return {"rows": rows, "cut": ""}

@@ -9,6 +9,12 @@ memory under ``netcheck-embedded:`` URLs, drawn as vectors) and refuses every ot
 so no file, network or data resource is ever read while rendering, and nothing is
 attached to the PDF. The stylesheet is passed as a string.
 
+Text from the inputs is bounded so that no input makes the layout slow: names and
+titles (the templates' ``name`` filter) to :data:`~netcheck.render.NAME_SHOWN_MAX`
+characters, any other printed text to :data:`~netcheck.render.TEXT_SHOWN_MAX`, and the
+appendix listings to :data:`~netcheck.report.formatting.LISTING_ROWS_MAX` rows a file
+(:data:`~netcheck.report.formatting.LISTING_TOTAL_MAX` a spec); every cut says so.
+
 jinja2, weasyprint and matplotlib are imported inside functions only.
 """
 
@@ -28,8 +34,10 @@ from ..exceptions import RenderError
 from ..provenance import GitState, git_state
 from ..result import CheckResult, SpecResult
 from .context import build_context
+from ..render import TEXT_SHOWN_MAX
+from ..source import clip
 from .formatting import (format_fraction, format_interval, format_margin, format_measured,
-                         format_range)
+                         format_range, shown_name)
 
 __all__ = ["render", "render_per_spec", "render_bytes", "report_names", "build_context",
            "git_state", "GitState", "locked_fetcher", "html_to_pdf", "font_clock",
@@ -156,13 +164,27 @@ def _embed_plots(context: dict[str, Any]) -> dict[str, tuple[bytes, str]]:
     return resources
 
 
+def _bounded(value: Any) -> Any:
+    """Every text a template prints, cut at :data:`~netcheck.render.TEXT_SHOWN_MAX`
+    characters (the cut marked): a net under the views' own bounds, so no text from an
+    input can make the layout take minutes. Markup (already escaped) passes as it is."""
+    if isinstance(value, str) and len(value) > TEXT_SHOWN_MAX and \
+            not hasattr(value, "__html__"):
+        return clip(value, TEXT_SHOWN_MAX)
+    return value
+
+
 @functools.lru_cache(maxsize=1)
 def _environment() -> Any:
+    """The templates' environment: autoescaping, every printed text bounded
+    (:func:`_bounded`), and the ``name`` filter for names and titles
+    (:func:`~netcheck.report.formatting.shown_name`)."""
     import jinja2
 
     env = jinja2.Environment(loader=jinja2.PackageLoader("netcheck.report", "templates"),
                              autoescape=True, undefined=jinja2.StrictUndefined,
-                             trim_blocks=True, lstrip_blocks=True)
+                             trim_blocks=True, lstrip_blocks=True, finalize=_bounded)
+    env.filters["name"] = shown_name
     return env
 
 

@@ -68,7 +68,9 @@ def histogram_plot(spec: SpecResult) -> Plot | None:
     Reads ``extra["tolerance"]["monte_carlo"]["histogram"]`` (name, counts, edges). When
     the name is a limit with bounds, the bounds are drawn with the forbidden side
     hatched, as on the gain mask; the nominal value is a dashed line, and the
-    worst-case range (EVA, widened by the corners when evaluated) a bracket above the bars.
+    worst-case range (what decided the worst-case verdict: the corners, or the worse of
+    EVA and the corners) a bracket above the bars. The bars are the samples where the
+    quantity could be measured; the legend and the caption say how many of all.
     """
     mc = analysis_block(spec, "tolerance", "monte_carlo")
     hist = analysis_block(spec, "tolerance", "monte_carlo", "histogram")
@@ -76,6 +78,8 @@ def histogram_plot(spec: SpecResult) -> Plot | None:
         return None
     counts = np.asarray(hist["counts"], float)
     edges = np.asarray(hist["edges"], float)
+    binned = int(hist.get("n", counts.sum()))
+    total = int(hist.get("samples") or (mc or {}).get("samples") or 0)
     name = str(hist.get("name", ""))
     lim = nominal_limits(spec).get(name)
     unit = lim.unit if lim is not None else ""
@@ -95,11 +99,16 @@ def histogram_plot(spec: SpecResult) -> Plot | None:
         else:
             off_scale.append((side, value))
     wc_range = None
-    if wc is not None and wc.get("min") is not None and wc.get("max") is not None:
+    if wc is not None and wc.get("worst_min") is not None and wc.get("worst_max") is not None:
+        wc_range = (float(wc["worst_min"]), float(wc["worst_max"]))
+    elif wc is not None and "decided_by" not in wc and wc.get("min") is not None \
+            and wc.get("max") is not None:  # a result written before worst_min/max
         a, b = float(wc["min"]), float(wc["max"])
         if wc.get("corners_min") is not None:
             a, b = min(a, float(wc["corners_min"])), max(b, float(wc["corners_max"]))
         wc_range = (a, b)
+    if wc_range is not None:
+        a, b = wc_range
         lo, hi = min(lo, a - 0.04 * width), max(hi, b + 0.04 * width)
     scale, axis_unit = _quantity_scale([lo, hi], unit)
 
@@ -118,7 +127,8 @@ def histogram_plot(spec: SpecResult) -> Plot | None:
     ax.bar(edges[:-1][inside] / scale, counts[inside], width=np.diff(edges)[inside] / scale,
            align="edge", facecolor=PALETTE["envelope"], edgecolor=PALETTE["ink"],
            linewidth=0.45, zorder=3,
-           label=f"samples per bin ({int(counts.sum())} in {counts.size} bins)")
+           label=f"samples per bin ({binned}{f' of {total}' if total else ''} in "
+                 f"{counts.size} bins)")
     if outside.any() and counts[outside].sum() > 0:
         ax.bar(edges[:-1][outside] / scale, counts[outside], width=np.diff(edges)[outside] / scale,
                align="edge", facecolor="white", edgecolor=PALETTE["fail"], hatch="xxxx",
@@ -160,9 +170,15 @@ def histogram_plot(spec: SpecResult) -> Plot | None:
     ax.set_ylabel("Samples", fontsize=FONT_PT + 0.5, color=PALETTE["ink"])
     ax.set_xlabel(f"Measured value ({axis_unit})" if axis_unit else "Measured value",
                   fontsize=FONT_PT + 0.5, color=PALETTE["ink"])
-    samples = mc.get("samples")
-    caption = (f"The {samples} Monte Carlo values of this measurement, binned. " if samples
-               else "The Monte Carlo values of this measurement, binned. ")
+    if total and binned < total:
+        caption = (f"The {binned} of {total} Monte Carlo samples where this could be "
+                   f"measured, binned; in the other {total - binned} it could not (the "
+                   "feature left the sweep or the band), so they fail the limit and are not "
+                   "drawn. ")
+    elif total:
+        caption = f"The {total} Monte Carlo values of this measurement, binned. "
+    else:
+        caption = "The Monte Carlo values of this measurement, binned. "
     if bounds or off_scale:
         caption += ("Hatched background: outside the limit; cross-hatched bars: bins whose "
                     "centre lies outside it. " if outside.any() and counts[outside].sum() > 0
@@ -170,9 +186,11 @@ def histogram_plot(spec: SpecResult) -> Plot | None:
     if lim is not None:
         caption += "Dashed: the nominal value. "
     if wc_range is not None:
-        caption += ("The bracket above the bars is the worst-case range (extreme-value "
-                    "analysis" + (", widened to the corners" if wc.get("corners_min")
-                                  is not None else "") + ").")
+        caption += ("The bracket above the bars is the worst-case range, " + (
+            "from the corners, which decide here (the quantity is monotone in every part)."
+            if wc.get("decided_by") == "corners" and wc.get("monotone") else
+            "the wider of extreme-value analysis and the corners." if wc.get("corners_min")
+            is not None else "from extreme-value analysis (corners not evaluated)."))
     if lim is not None:
         caption += f" Allowed: {lim.bound_text}."
     return Plot(f"Spread of {name} over the samples (the measurement with the least mean "

@@ -6,7 +6,7 @@ import math
 from typing import Any
 
 from ..result import CheckResult, LimitResult, Status
-from .formatting import display_path, format_margin, status_view
+from .formatting import display_path, format_margin, shown_name, status_view
 
 __all__ = ["family_views", "FAMILY_COLUMNS"]
 
@@ -57,7 +57,7 @@ def family_views(result: CheckResult, views: list[dict[str, Any]],
                      if lim.name == n and lim.margin is not None and math.isfinite(lim.margin)]
             if found:
                 lim, _ = min(found, key=lambda x: x[0].margin)
-                tied = [m.variant or m.label for x, m in found
+                tied = [shown_name(m.variant or m.label) for x, m in found
                         if abs(x.margin - lim.margin) <= 1e-9 * max(1.0, abs(lim.margin))]
                 closest.append(f"{format_margin(lim)} ({', '.join(tied)})")
             else:
@@ -70,7 +70,8 @@ def family_views(result: CheckResult, views: list[dict[str, Any]],
         bad = [r for r in rows if r["status"] in ("fail", "error")]
         if bad:
             sentence = (f"{len(bad)} of {len(rows)} variants did not pass: "
-                        + "; ".join(f"{r['variant']} ({r['word']})" for r in bad) + ".")
+                        + "; ".join(f"{shown_name(r['variant'])} ({r['word']})" for r in bad)
+                        + ".")
         else:
             sentence = f"All {len(rows)} variants met every limit."
         status = max((m.status for m in members), key=lambda x: x.rank)

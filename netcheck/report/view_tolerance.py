@@ -22,6 +22,8 @@ _DISTRIBUTIONS = {
     "truncnormal": "normal (tolerance at 3 standard deviations), cut at the tolerance ends",
 }
 _PART_UNITS = {"R": "Ω", "C": "F", "L": "H"}
+#: the worst-case JSON's ``decided_by`` as the table words it
+_DECIDED = {"corners": "corners", "linear estimate": "EVA"}
 #: worst samples per table of part values
 SAMPLE_COLUMNS = 4
 
@@ -35,7 +37,9 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
     n = int(mc.get("samples") or 0)
     y = mc.get("yield")
     ci = mc.get("yield_ci") or [None, None]
-    passed = round(y * n) if y is not None else None
+    passed = mc.get("passed")
+    if passed is None:  # a result written before the count was recorded
+        passed = round(y * n) if y is not None else None
     yrow = next((lim for lim in s.limits if lim.kind == "yield"), None)
     if yrow is not None and yrow.lower is not None:
         required = {"text": f"required ≥ {format_fraction(yrow.lower)}",
@@ -53,8 +57,11 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
     for e in mc.get("limits", ()):
         unit = units.get(e["name"], "")
         worst = e.get("worst_sample")
+        measured_in = e.get("measured_in")
         limits.append({
             "name": e["name"], "yield": format_fraction(e.get("yield")),
+            "measured_in": "—" if measured_in is None else f"{measured_in} of {n}",
+            "unmeasured": 0 if measured_in is None else n - measured_in,
             "ci": format_interval(e.get("yield_ci")),
             "p01": signed(e.get("margin_p01"), unit), "p50": signed(e.get("margin_p50"), unit),
             "p99": signed(e.get("margin_p99"), unit),
@@ -86,20 +93,29 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
     spread = []
     meas = mc.get("measurements") or {}
     wc_meas = (wc or {}).get("measurements") or {}
+    hist = mc.get("histogram") or {}
+    same = hist.get("same_as")
     keys = [k for k in MEASUREMENTS if k in meas] + [k for k in meas if k not in MEASUREMENTS]
+    never = []  # key figures measured in no sample: named, not tabled
     for key in keys:
         st, unit = meas[key], unit_of(key)
         if st.get("mean") is None:
+            never.append(MEASUREMENTS.get(key, (key, ""))[0])
             continue
         w = wc_meas.get(key) or {}
         nominal_value = s.measurement(key)
-        spread.append({
-            "label": MEASUREMENTS.get(key, (key, ""))[0],
-            "nominal": "—" if nominal_value is None else format_eng(nominal_value, unit),
-            "mean": format_eng(st["mean"], unit), "std": format_eng(st["std"], unit),
-            "p": format_range(st.get("p01"), st.get("p99"), unit),
-            "minmax": format_range(st.get("min"), st.get("max"), unit),
-            "eva": format_range(w.get("min"), w.get("max"), unit)})
+        spread.append(_spread_row(
+            MEASUREMENTS.get(key, (key, ""))[0], st, unit, n,
+            "—" if nominal_value is None else format_eng(nominal_value, unit),
+            format_range(w.get("min"), w.get("max"), unit), key == same))
+    if hist.get("stats") and same is None:
+        # the histogram's quantity is no key figure: its own row, over the same samples
+        lim = nominal.get(hist.get("name", ""))
+        unit = lim.unit if lim is not None else ""
+        spread.insert(0, _spread_row(
+            str(hist["name"]), hist["stats"], unit, n,
+            "—" if lim is None or lim.measured is None else format_eng(lim.measured, unit),
+            "—", True))
     return {
         "has_stress": any(r["name"].startswith("stress: ") for r in limits),
         "samples": n, "seed": mc.get("seed"), "passed": passed,
@@ -110,7 +126,29 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
         "ci_method": mc.get("ci_method") or "not recorded", "required": required,
         "below": below, "parts": parts, "limits": limits, "worst_tables": worst_tables,
         "spread": spread, "has_eva_spread": any(r["eva"] != "—" for r in spread),
+        "partial": any(r["partial"] for r in spread), "never": never,
+        "unmeasured": any(r["unmeasured"] for r in limits),
+        "histogram_n": None if not hist.get("counts") else
+        f"{hist.get('n', int(sum(hist['counts'])))} of {n}",
     }
+
+
+def _spread_row(label: str, st: dict[str, Any], unit: str, samples: int, nominal: str,
+                eva: str, in_histogram: bool) -> dict[str, Any]:
+    """One row of the key-figures table: the figures over the samples where the quantity
+    was measured, with how many those are (``n of N``)."""
+    count = st.get("n")
+    if count is None:  # a result written before the count was recorded
+        count = samples if st.get("mean") is not None else 0
+    total = st.get("samples") or samples
+    dash = st.get("mean") is None
+    return {"label": label, "nominal": nominal,
+            "mean": "—" if dash else format_eng(st["mean"], unit),
+            "std": "—" if dash else format_eng(st["std"], unit),
+            "p": format_range(st.get("p01"), st.get("p99"), unit),
+            "minmax": format_range(st.get("min"), st.get("max"), unit), "eva": eva,
+            "n": f"{count} of {total}", "partial": count < total,
+            "in_histogram": in_histogram}
 
 
 def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, LimitResult],
@@ -138,7 +176,8 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
             "allowed": lim.bound_text if lim is not None else "—",
             "eva_margin": signed(e.get("margin"), unit),
             "corners_margin": signed(e.get("corners_margin"), unit) if has_corners else "—",
-            "margin": signed(margin, unit), **status_view(status)})
+            "margin": signed(margin, unit), "decided": _DECIDED.get(e.get("decided_by"), ""),
+            **status_view(status)})
         if not has_corners:
             continue
         eva_m, cor_m = e.get("margin"), e.get("corners_margin")
@@ -185,18 +224,33 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
 
 
 def _eva_versus_corners(e: dict[str, Any], unit: str) -> str:
-    """Which of EVA and the corners decides a worst-case limit, and by how much, in words."""
+    """Which of EVA and the corners decides a worst-case limit, and why, in words."""
     eva_m, cor_m = e.get("margin"), e.get("corners_margin")
     lost = e.get("corners_unmeasurable") or 0
+    inside = e.get("faces_unmeasurable") or 0
     if lost:
         return (f"The quantity cannot be measured at {lost} "
                 f"corner{'s' if lost != 1 else ''} (the corners' range covers the others), "
                 "so no worst case is established.")
+    if inside:
+        return (f"The quantity cannot be measured at {inside} face "
+                f"centre{'s' if inside != 1 else ''} of the tolerance box (a part alone at "
+                "a tolerance end), so no worst case is established.")
+    monotone = e.get("monotone")
+    shown = "Monotone in every part: the corners decide."
     if not e.get("eva_differs") or eva_m is None or cor_m is None:
-        return "They agree."
+        return "They agree." + (f" {shown}" if monotone else "")
     gap = abs(eva_m - cor_m)
     scale = max(abs(eva_m), abs(cor_m), abs((e.get("max") or 0.0) - (e.get("min") or 0.0)),
                 1e-300)
+    close = gap < 0.01 * scale
+    if monotone:
+        if cor_m < eva_m:
+            lead = f"The corners come {format_eng(gap, unit)} closer to the limit."
+        else:
+            lead = (f"EVA comes {format_eng(gap, unit)} closer to the limit; no point of "
+                    "the box does.")
+        return f"{lead} {shown}"
     if cor_m < eva_m:
         lead = f"The corners come {format_eng(gap, unit)} closer to the limit and decide."
         why = ("Over these tolerances the response is not linear in the parts, so the "
@@ -205,9 +259,14 @@ def _eva_versus_corners(e: dict[str, Any], unit: str) -> str:
         lead = f"EVA comes {format_eng(gap, unit)} closer to the limit and decides."
         why = ("No corner reaches as far as the first-order sum of every part's worst "
                "effect: EVA is the more cautious here.")
-    if gap < 0.01 * scale:
+    if close:
         why = ("The two agree to within 1 % of the margin, so over these tolerances the "
                "response is close to linear in the parts.")
+    parts = e.get("not_monotone_in") or []
+    if monotone is False:
+        named = f" in {', '.join(parts)}" if parts else ""
+        why += (f" The quantity is not shown monotone{named} over the tolerance box, so "
+                "neither is known to bound it and the more cautious decides.")
     return f"{lead} {why}"
 
 

@@ -326,3 +326,14 @@ def test_unusable_root_is_an_argument_error(tmp_path, capsys, make, why, command
     err = capsys.readouterr().err
     assert "error NC402: --root" in err and why in err
     no_traceback(err)
+
+
+# ------------------------------------------------------------------------------ --quiet
+def test_quiet_shows_only_what_did_not_pass_and_the_summary(tmp_path, capsys):
+    good = design(tmp_path / "good")
+    bad = design(tmp_path / "bad", SPEC.replace("min_db = -0.5", "min_db = 0.05"))
+    assert main(["check", str(good), str(bad), "-q"]) == 1
+    out = capsys.readouterr().out
+    assert f"({bad})" in out
+    assert f"({good})" not in out
+    assert "FAIL: 2 specs, 1 limit passed, 1 failed, 0 could not be measured" in out

@@ -489,7 +489,9 @@ class TestNesting:
         assert err.span.column == 5 + MAX_NESTING
 
     def test_brackets_in_strings_and_comments_do_not_count(self, tmp_path):
-        many = "[" * 5000
+        # 900 brackets: far over the nesting budget, within the 1,000-character text
+        # budget of a title or name (MAX_TEXT_CHARS)
+        many = "[" * 900
         text = (f'title = "{many}"\n# {many}\n' + SPEC.format(netlist="rc.cir", ppd=20)
                 + f"[[limits]]\nkind = 'gain'\nname = '''{many}\n'''\nband = ['10', '20']\n"
                 f'max_db = 1\n[[limits]]\nkind = "gain"\nname = """{many}\\"""\n"""\n'
