@@ -15,6 +15,7 @@ import numpy as np
 
 from ._limit_base import (LIMITS, Limit, Linearised, Probe, Rows, _band_text, build_limit,
                           judge_range, linearised_range, range_margin, register)
+from ._spec_guard import MIN_FREQUENCY_HZ
 from .measure import Extremum, MeasurementFailure
 from .result import LimitResult, MaskBand, Status
 from .units import format_eng, format_si
@@ -161,7 +162,8 @@ class ResonanceLimit(Limit):
     SUMMARY: ClassVar[str] = "centre frequency, half-power bandwidth and Q of the main peak"
     KEYS: ClassVar[dict[str, str]] = {
         "center": "expected centre frequency f_center = sqrt(f_low f_high), Hz",
-        "center_tolerance": "allowed deviation of the centre: '1%' or Hz (needs center)",
+        "center_tolerance": "allowed deviation of the centre: '1%', '20ppm', '5ppb' or Hz "
+                            "(needs center)",
         "bandwidth": "[min, max] bandwidth f_high - f_low, Hz (or {min=, max=})",
         "q": "[min, max] Q = f_center / bandwidth (or {min=, max=})",
         "level_db": "edges this many dB below the peak (default: half-power, 10 log10 2 dB)",
@@ -171,7 +173,7 @@ class ResonanceLimit(Limit):
     @classmethod
     def from_table(cls, rd, sweep, name, index, line):
         center = rd.number("center", positive=True)
-        tol = rd.percent_or_value("center_tolerance", center or 0.0)
+        tol = rd.percent_or_value("center_tolerance", center or 0.0, MIN_FREQUENCY_HZ, "Hz")
         if tol is not None and center is None:
             rd.fail("center_tolerance", "needs center")
         if center is not None and tol is None:

@@ -21,7 +21,7 @@ from ._spec_guard import (MAX_FREQUENCY_HZ, MAX_LIMITS, MAX_NESTING, MAX_PATH_CH
                           validate_sweep, whole_number)
 from .exceptions import TEXT_MAX, SpecError
 from .source import UNUSABLE_CODE, SourceFile, printable, read_text
-from .units import UnitError, parse_value
+from .units import UnitError, parse_relative, parse_value, relative_unit
 
 __all__ = ["Sweep", "Spec", "load_spec", "parse_spec", "read_toml", "validate_sweep",
            "design_root", "inside_root", "SpecReader", "TOP_KEYS", "locate",
@@ -244,6 +244,15 @@ class SpecReader:
                 return default
             value = self.table[key]
         what = label or key
+        if isinstance(value, str):
+            try:
+                relative = relative_unit(value)
+            except UnitError:
+                relative = None
+            if relative is not None:
+                self.fail(key, f"{value!r} is relative; {what} takes an absolute value "
+                               "(percent, ppm and ppb apply only where a tolerance is asked "
+                               "for)")
         try:
             out = parse_value(value, what)
         except UnitError as err:
@@ -266,20 +275,47 @@ class SpecReader:
             self.fail(key, f"expected a whole number >= {minimum}, got {value!r}")
         return whole
 
-    def percent_or_value(self, key: str, reference: float) -> float | None:
-        """``"1%"`` (relative to ``reference``) or an absolute value; returns the absolute."""
+    def percent_or_value(self, key: str, reference: float, floor: float = 0.0,
+                         unit: str = "") -> float | None:
+        """A tolerance relative to ``reference`` (``"1%"``, ``"20ppm"``, ``"5ppb"``) or an
+        absolute value (``"20"``, ``"1.5k"``); returns the absolute.
+
+        Percent, ppm and ppb are units of their own, never engineering prefixes: before
+        them, ``"20ppm"`` was read as 20 pico. An absolute value below ``floor`` (such
+        as ``"20p"`` for a frequency, 2e-11) is refused as the likely typo it is.
+        """
         if key not in self.table:
             return None
         value = self.table[key]
-        if isinstance(value, str) and value.strip().endswith("%"):
+        if isinstance(value, str):
             try:
-                pct = float(value.strip()[:-1])
-            except ValueError:
-                self.fail(key, f"{value!r} is not a percentage")
-            if not math.isfinite(pct) or pct <= 0:
-                self.fail(key, f"must be > 0, got {value!r}")
-            return abs(reference) * pct / 100.0
-        return self.number(key, positive=True)
+                found = relative_unit(value)
+            except UnitError as err:
+                self.fail(key, str(err))
+            if found is not None:
+                number, divisor = found
+                if number <= 0:
+                    self.fail(key, f"must be > 0, got {value!r}")
+                return abs(reference) * number / divisor
+        out = self.number(key, positive=True)
+        if out is not None and out < floor:
+            self.fail(key, f"{value!r} is {out:g} {unit}, below the smallest meaningful value "
+                           f"({floor:g} {unit}); for a relative tolerance write a unit: "
+                           "'1%', '20ppm' or '5ppb'")
+        return out
+
+    def relative(self, key: str, value: Any = None) -> float | None:
+        """A relative quantity as a fraction: ``0.01``, ``"1%"``, ``"50ppm"``, ``"10ppb"``
+        (an engineering suffix such as ``"5p"`` is refused: it has no meaning here)."""
+        if value is None:
+            if key not in self.table:
+                return None
+            value = self.table[key]
+        try:
+            return parse_relative(value, key)
+        except UnitError as err:
+            msg = str(err)
+            self.fail(key, msg[len(key) + 2:] if msg.startswith(f"{key}: ") else msg)
 
     def bounds(self, key: str, positive: bool = False, required: bool = False,
                ends: tuple[str, str] = ("min", "max")

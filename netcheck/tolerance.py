@@ -36,7 +36,8 @@ __all__ = ["Tolerances", "Analysis", "parse_tolerances", "parse_analysis", "tole
            "machine_memory_bytes", "TOLERANCE_KEYS", "ANALYSIS_KEYS", "MEMORY_SHARE"]
 
 TOLERANCE_KEYS = {
-    "default": "tolerance by element letter, e.g. { R = \"1%\", C = \"5%\", L = \"10%\" }",
+    "default": "tolerance by element letter, e.g. { R = \"1%\", C = \"5%\", L = \"10%\" } "
+               "(%, ppm, ppb or a fraction)",
     "parts": "tolerance per part (hierarchical names, globs allowed), e.g. { C3 = \"2%\" }",
     "distribution": "'uniform', 'normal' (tolerance = 3 sigma) or 'truncnormal' (normal cut at ±tolerance)",
 }
@@ -120,13 +121,8 @@ def _capped_memory(requested: int) -> tuple[int, int | None]:
 
 
 def _fraction(rd: SpecReader, key: str, raw: Any) -> float:
-    if isinstance(raw, str) and raw.strip().endswith("%"):
-        try:
-            value = float(raw.strip()[:-1]) / 100.0
-        except ValueError:
-            rd.fail(key, f"{raw!r} is not a percentage")
-    else:
-        value = rd.number(key, value=raw)
+    """A part tolerance: ``0.01``, ``"1%"``, ``"50ppm"`` or ``"10ppb"``."""
+    value = rd.relative(key, raw)
     if not 0 <= value < 1:
         rd.fail(key, f"tolerance must be between 0 % and 100 %, got {raw!r}")
     return value
@@ -157,14 +153,7 @@ def parse_analysis(table: Any, path: str) -> Analysis:
         mode = [mode]
     if not isinstance(mode, list) or not mode or any(m not in MODES for m in mode):
         rd.fail("mode", f"expected a list drawn from {', '.join(MODES)}, got {mode!r}")
-    raw_y = rd.raw("yield_min")
-    if isinstance(raw_y, str) and raw_y.strip().endswith("%"):
-        try:
-            y = float(raw_y.strip()[:-1]) / 100.0
-        except ValueError:
-            rd.fail("yield_min", f"{raw_y!r} is not a percentage")
-    else:
-        y = rd.number("yield_min")
+    y = rd.relative("yield_min")
     if y is not None and not 0 < y <= 1:
         rd.fail("yield_min", "must be a fraction in (0, 1]")
     seed = rd.raw("seed", 1)

@@ -258,7 +258,7 @@ def parse_relative(value: object, what: str = "value") -> float:
     >>> parse_relative("20p", "tolerance")
     Traceback (most recent call last):
     ...
-    netcheck.units.UnitError: tolerance: '20p' is relative: write a percentage ('1%'), ...
+    netcheck.units.UnitError: tolerance: '20p' is not a relative quantity: write a percentage ('1%'), ...
     """
     number = _number(value, what)
     if number is not None:
@@ -270,7 +270,7 @@ def parse_relative(value: object, what: str = "value") -> float:
         try:
             plain = float(value.strip())
         except ValueError:
-            raise UnitError(f"{what}: {quoted(value)} is relative: write a percentage "
+            raise UnitError(f"{what}: {quoted(value)} is not a relative quantity: write a percentage "
                             "('1%'), parts per million ('50ppm'), parts per billion "
                             "('10ppb') or a plain fraction (0.01)") from None
         if math.isfinite(plain):

@@ -122,8 +122,9 @@ class TestPercentages:
         assert math.isclose(lim.center_tolerance, hz, rel_tol=1e-12)
 
     @pytest.mark.parametrize("written, message", [
-        ('"abc%"', "'abc%' is not a percentage"), ('"-1%"', "must be > 0"),
-        ('"0%"', "must be > 0"), ('"nan%"', "must be > 0"), ("0", "must be > 0")])
+        ('"abc%"', "'abc' before % is not a number"), ('"-1%"', "must be > 0"),
+        ('"0%"', "must be > 0"), ('"nan%"', "'nan%' is not finite"), ("0", "must be > 0"),
+        ('"-5ppm"', "must be > 0"), ('"20p"', "for a relative tolerance write a unit")])
     def test_bad_percentages(self, written, message):
         err = fail(HEAD + f'\n[[limits]]\nkind = "resonance"\ncenter = "40k"\n'
                           f"center_tolerance = {written}\n")

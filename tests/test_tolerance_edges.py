@@ -109,8 +109,9 @@ def _second_order_peak(q: float) -> float:
     ('"100%"', "between 0 % and 100 %"),
     ('"-5%"', "between 0 % and 100 %"),
     ("5", "between 0 % and 100 %"),          # a bare 5 would be 500 %
-    ('"abc%"', "not a percentage"),
-    ('"nan%"', "between 0 % and 100 %"),
+    ('"abc%"', "'abc' before % is not a number"),
+    ('"nan%"', "is not finite"),
+    ('"5p"', "not a relative quantity"),     # a scale suffix, not a unit of tolerance
     ("true", "expected a number"),
     ("[1]", "expected a number"),
 ])
