@@ -28,6 +28,9 @@ class Curve(Protocol):
     grid_hz, seeds_hz : numpy.ndarray
         Strictly increasing, non-negative 1-D sweep grid, Hz; extra frequencies, Hz, near
         which narrow features may hide (e.g. Im(pole) / 2 pi of lightly damped poles; may be empty).
+
+    A curve may also carry ``poles_hz`` and ``zeros_hz`` (complex s/2π, Hz) and
+    ``roots_complete`` (bool): the measurements then find every extreme from them.
     """
 
     @property
@@ -55,16 +58,32 @@ class FunctionCurve:
         Map a 1-D float array of frequencies (Hz) to complex H and to complex dH/df (per Hz).
     seeds_hz : numpy.ndarray, optional
         Frequencies (Hz) where narrow features may hide; empty by default.
+    poles_hz, zeros_hz : numpy.ndarray or None, optional
+        The poles and zeros of H as complex frequencies s/2π (Hz), when known: the
+        measurements then seed from them and find every extreme between grid points
+        (see :func:`netcheck.measure.stationary_points`). None (default): not known.
+    roots_complete : bool, optional
+        Whether ``poles_hz`` and ``zeros_hz`` hold every finite root (default True).
     """
 
     grid_hz: np.ndarray
     transfer_fn: Callable[[np.ndarray], np.ndarray]
     dtransfer_fn: Callable[[np.ndarray], np.ndarray]
     seeds_hz: np.ndarray = field(default_factory=lambda: np.empty(0))
+    poles_hz: np.ndarray | None = None
+    zeros_hz: np.ndarray | None = None
+    roots_complete: bool = True
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "grid_hz", _checked_grid(self.grid_hz))
         object.__setattr__(self, "seeds_hz", _checked_seeds(self.seeds_hz))
+        for name in ("poles_hz", "zeros_hz"):
+            roots = getattr(self, name)
+            if roots is not None:
+                roots = np.asarray(roots, dtype=complex).ravel()
+                if not np.all(np.isfinite(roots)):
+                    raise ValueError(f"{name} must hold finite complex frequencies in Hz")
+                object.__setattr__(self, name, roots)
 
     def transfer(self, f_hz: np.ndarray) -> np.ndarray:
         """Complex H at ``f_hz`` (Hz)."""

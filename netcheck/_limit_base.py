@@ -5,23 +5,26 @@ The kinds themselves live in :mod:`netcheck.limits`, which is the public face of
 
 from __future__ import annotations
 
+import dataclasses
 import math
+import warnings
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, ClassVar, NamedTuple, Protocol
 
 import numpy as np
 
-from .measure import Curve, Extremum, Resonance
+from .measure import Curve, Extremum, MeasurementFailure, Resonance
 from .result import LimitResult, MaskBand, Status
 from .spec import SpecReader, Sweep
-from .units import format_si
+from .units import format_eng, format_si, format_span
 
 if TYPE_CHECKING:  # pragma: no cover
     from .sample_probe import BatchProbe
     from .sensitivity import AdjointSensitivity
 
 __all__ = ["Limit", "LIMITS", "register", "build_limit", "Probe", "judge_range",
-           "range_margin", "Linearised", "linearised_range", "Rows"]
+           "range_margin", "Linearised", "linearised_range", "Rows", "gain_floor_db",
+           "at_floor", "RELATIVE_FLOOR_DB"]
 
 
 class Probe(Protocol):
@@ -57,13 +60,101 @@ def register(cls: type["Limit"]) -> type["Limit"]:
 
 
 def _band_text(band: tuple[float, float]) -> str:
-    """``38.00–42.00 kHz`` (or ``500.0 Hz–2.000 kHz`` when the prefixes differ)."""
-    lo, hi = format_si(band[0], "Hz", 4), format_si(band[1], "Hz", 4)
-    lo_num, _, lo_unit = lo.partition(" ")
-    hi_num, _, hi_unit = hi.partition(" ")
-    if lo_unit == hi_unit:
-        return f"{lo_num}–{hi_num} {hi_unit}"
-    return f"{lo}–{hi}"
+    """``38.00–42.00 kHz`` (or ``500.0 Hz–2.000 kHz`` when the prefixes differ); a
+    narrow band with as many figures as tell its ends apart (``9.99998–10.00002 MHz``)."""
+    return format_span(band[0], band[1], "Hz")
+
+
+#: The floor of a gain relative to the largest gain of the sweep, dB: 10⁻¹⁵ of the
+#: largest |H|, a few units in the last place of a double (2.2·10⁻¹⁶ is one).
+RELATIVE_FLOOR_DB = -300.0
+#: A gain this far below the peak (dB) has its rounding floor computed; above it, no
+#: solve of a circuit that can be solved at all (condition below 10¹⁰) is near its floor.
+_FLOOR_SCREEN_DB = 100.0
+_UNIT_ROUNDOFF = 2.0 ** -53
+
+
+def _rounding_bound(system: Any, f_hz: float) -> float | None:
+    """The largest |H| the rounding of a direct solve at ``f_hz`` can make of nothing.
+
+    LU with partial pivoting solves a slightly different system, (A + ΔA)x̂ = b with
+    |ΔA| ≤ γ₃ₙ|L̂||Û| ≈ γ₃ₙ|A| elementwise (Higham, Accuracy and Stability of Numerical
+    Algorithms, 2nd ed. 2002, ch. 9; γₖ = ku/(1 − ku), u the unit roundoff), so the
+    output H = lᵀx moves by δH = −wᵀΔA x̂ with the adjoint w = A⁻ᵀl (first order): at
+    most γ₃ₙ·|w|ᵀ|A||x̂|. A computed |H| within this bound cannot be told from 0.
+    """
+    import scipy.sparse.linalg as sla
+
+    a = (system.G + (2j * math.pi * f_hz) * system.C).tocsc()
+    n = a.shape[0]
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            lu = sla.splu(a)
+            x = lu.solve(np.asarray(system.b, dtype=complex))
+            w = lu.solve(np.asarray(system.l, dtype=complex), trans="T")
+    except (RuntimeError, ValueError):  # singular exactly here: no bound to be had
+        return None
+    gamma = 3 * n * _UNIT_ROUNDOFF / (1.0 - 3 * n * _UNIT_ROUNDOFF)
+    bound = gamma * float(np.abs(w) @ (abs(a) @ np.abs(x)))
+    return bound if math.isfinite(bound) and bound > 0 else None
+
+
+def gain_floor_db(probe: Probe, f_hz: float | None, gain_db: float) -> float | None:
+    """The numerical floor of the gain at ``f_hz``, dB, when ``gain_db`` (the computed
+    gain there) lies at or below it; None when it does not (or no floor can be had).
+
+    The floor is the larger of the rounding bound of a direct solve at ``f_hz``
+    (:func:`_rounding_bound`) and :data:`RELATIVE_FLOOR_DB` below the peak gain of the
+    sweep. Below it the computed gain is rounding noise: the true gain may be anything
+    from 0 (no transmission, −∞ dB) up to the floor. The bound is computed only for a
+    gain :data:`_FLOOR_SCREEN_DB` or more below the peak (or −∞).
+    """
+    if f_hz is None or not math.isfinite(f_hz) or math.isnan(gain_db):
+        return None
+    try:
+        peak_db = probe.peak().value
+    except MeasurementFailure:
+        peak_db = None
+    if peak_db is not None and not math.isfinite(peak_db):
+        peak_db = None
+    if peak_db is not None and gain_db > peak_db - _FLOOR_SCREEN_DB:
+        return None
+    floors = [] if peak_db is None else [peak_db + RELATIVE_FLOOR_DB]
+    system = getattr(getattr(getattr(probe, "curve", None), "response", None), "system", None)
+    if system is not None:
+        bound = _rounding_bound(system, f_hz)
+        if bound is not None:
+            floors.append(20.0 * math.log10(bound))
+    if not floors or gain_db > max(floors):
+        return None
+    return max(floors)
+
+
+def at_floor(r: LimitResult, floor: float, what: str = "gain") -> LimitResult:
+    """``r`` (a judged gain at or below the numerical floor ``floor``, in ``r.unit``)
+    with the floor recorded and the verdict the floor allows.
+
+    The true value lies anywhere at or below the floor. On an upper bound at or above
+    the floor it certainly passes (margin at least ``upper − floor``); on a lower bound
+    above the floor it certainly fails (margin at most ``floor − lower``). A bound below
+    the floor cannot be judged: the result is an error, its margin unknown.
+    """
+    floor = math.ceil(floor * 10.0) / 10.0  # to 0.1 dB, upwards: still a floor
+    on_upper = r.upper is not None and (r.lower is None or r.margin == r.upper - r.measured)
+    bound = r.upper if on_upper else r.lower
+    decided = (bound >= floor) if on_upper else (bound > floor)
+    at = format_si(r.at_hz, "Hz", 5)
+    message = (f"no transmission to within the numerical floor: at {at} the {what} is below "
+               f"{format_eng(floor, r.unit)}, the floor of the solve there, so it cannot be "
+               "told from an exact transmission zero")
+    if decided:
+        return dataclasses.replace(r, floor=floor, message=message)
+    word = "upper" if on_upper else "lower"
+    return dataclasses.replace(
+        r, status=Status.ERROR, margin=None, floor=floor,
+        message=f"{message}; the {word} bound {format_eng(bound, r.unit)} lies below that "
+                "floor, so whether it is met cannot be told")
 
 
 def judge_range(name: str, kind: str, lo: float | None, hi: float | None, vmin: Extremum,

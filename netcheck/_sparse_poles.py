@@ -107,6 +107,8 @@ def sparse_poles(G: sp.csc_matrix, C: sp.csc_matrix, f_lo: float, f_hi: float,
     k_min = min(per_shift, k_cap)
     if k_min < 1 or not (0 < f_lo <= f_hi):
         return np.zeros(0, dtype=complex)
+    if not (np.isfinite(G.data).all() and np.isfinite(C.data).all()):
+        return np.zeros(0, dtype=complex)  # no pencil to search (the solve says why)
     r_lo, r_hi = _TWO_PI * f_lo, _TWO_PI * math.sqrt(2.0) * f_hi
     # start vector: fixed but generic (a constant one has no component along the
     # antisymmetric modes of a symmetric circuit, which then show only through rounding)
@@ -186,7 +188,7 @@ def _poles_near(G: sp.csc_matrix, C: sp.csc_matrix, sigma: complex, need: float,
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             lu = spla.splu((G + sigma * C).tocsc(), permc_spec="COLAMD")
-    except RuntimeError:
+    except (RuntimeError, ValueError):
         return np.zeros(0, dtype=complex), 0.0  # the shift is itself (numerically) a pole
     op = spla.LinearOperator((n, n), matvec=lambda v: lu.solve(C @ v), dtype=complex)
     kept: list[np.ndarray] = []
@@ -200,7 +202,7 @@ def _poles_near(G: sp.csc_matrix, C: sp.csc_matrix, sigma: complex, need: float,
                                maxiter=SPARSE_POLES_MAX_RESTARTS)
         except spla.ArpackNoConvergence as err:
             mu, complete = np.asarray(err.eigenvalues, dtype=complex), False
-        except spla.ArpackError:
+        except (spla.ArpackError, ValueError, FloatingPointError):
             mu, complete = np.zeros(0, dtype=complex), False
         mu = mu[np.isfinite(mu)]
         big = mu[np.abs(mu) > 0]

@@ -13,7 +13,8 @@ from .elements import CurrentSource, VoltageSource
 from .exceptions import ElaborationError
 from .source import printable, quoted
 
-__all__ = ["System", "Stamper", "assemble", "assemble_batch", "unknown_names"]
+__all__ = ["System", "Stamper", "assemble", "assemble_batch", "unknown_names",
+           "element_entries"]
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -247,3 +248,31 @@ def assemble_batch(system: System, values: Mapping[str, np.ndarray], samples: in
     st = Stamper(system.circuit, values)
     st.stamp_all()
     return st.dense_batch("G", samples, dtype), st.dense_batch("C", samples, dtype)
+
+
+def element_entries(circuit: Circuit) -> list[tuple[Any, float, float, frozenset[int]]]:
+    """Each element's share of the matrices: (element, largest |G| entry it stamps,
+    largest |C| entry it stamps, the rows and columns it touches).
+
+    For naming the parts behind a circuit matrix that is not finite; the sizes are
+    computed with overflow allowed (inf for a conductance 1/R that overflows).
+    """
+    st = Stamper(circuit)
+    out = []
+    with np.errstate(all="ignore"):
+        for e in circuit.elements:
+            start = {m: len(st.entries[m][2]) for m in ("G", "C")}
+            try:
+                e.stamp(st, st.value_of(e.name))
+            except (ArithmeticError, ValueError, KeyError):
+                out.append((e, np.inf, 0.0, frozenset()))
+                continue
+            sizes, where = [], set()
+            for m in ("G", "C"):
+                rows, cols, vals = st.entries[m]
+                new = vals[start[m]:]
+                sizes.append(max((abs(float(v)) for v in new), default=0.0))
+                where.update(rows[start[m]:])
+                where.update(cols[start[m]:])
+            out.append((e, sizes[0], sizes[1], frozenset(where)))
+    return out

@@ -2,8 +2,9 @@
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Callable
+from typing import TYPE_CHECKING, Callable, Collection
 
 import numpy as np
 
@@ -18,8 +19,9 @@ from .topology import check_topology, lint_nodes
 if TYPE_CHECKING:  # pragma: no cover
     from .solve import Response
 
-__all__ = ["Circuit", "elaborate", "read_netlist", "CardReader", "GROUND", "ELEMENTS_MAX",
-           "DIAGNOSTICS_PER_CODE", "summarise_diagnostics", "VALUE_MAX", "VALUE_MIN"]
+__all__ = ["Circuit", "PartModel", "elaborate", "read_netlist", "CardReader", "GROUND",
+           "ELEMENTS_MAX", "DIAGNOSTICS_PER_CODE", "summarise_diagnostics", "VALUE_MAX",
+           "VALUE_MIN", "subckt_names"]
 
 GROUND = "0"
 _GROUND_ALIASES = frozenset({"0", "gnd"})
@@ -36,6 +38,43 @@ VALUE_MIN = 1e-200
 
 
 @dataclass(frozen=True, slots=True)
+class PartModel:
+    """One instance of a subcircuit that models a single physical part.
+
+    A quartz crystal written as a motional arm in parallel with its holder capacitance
+    is one part with two terminals, not four parts: the elements inside such an instance
+    are model parameters (the spec's ``part_models`` names the subcircuits). What a
+    physical part sees is at its ports: the voltage between each pair of them and the
+    current into each.
+
+    Attributes
+    ----------
+    name : str
+        The instance's full name, upper case (``X1``, ``X2.X1``); every element inside
+        is called ``<name>.<...>``.
+    subckt : str
+        The subcircuit's name as its ``.subckt`` line writes it.
+    ports : tuple of str
+        The port names as the ``.subckt`` line writes them.
+    nodes : tuple of str
+        The circuit node each port is connected to (``0`` is ground).
+    through : tuple of (str, int, int)
+        ``(element, node position, port position)`` for every node of an element inside
+        that is reached through a port: exact even where two ports share one node or a
+        port is grounded while the model also uses ground inside.
+    span : Span or None
+        The instance card's name.
+    """
+
+    name: str
+    subckt: str
+    ports: tuple[str, ...]
+    nodes: tuple[str, ...]
+    through: tuple[tuple[str, int, int], ...] = ()
+    span: Span | None = None
+
+
+@dataclass(frozen=True, slots=True)
 class Circuit:
     """A flat circuit: elements with hierarchical names (``X1.X2.C3``) and node names.
 
@@ -48,7 +87,10 @@ class Circuit:
     sources: tuple[SourceFile, ...] = ()
     diagnostics: tuple[Diagnostic, ...] = ()
     params: tuple[tuple[str, float], ...] = ()
+    #: instances of subcircuits that model one physical part each (:class:`PartModel`)
+    part_models: tuple[PartModel, ...] = ()
     _index: dict = field(default=None, compare=False, repr=False)
+    _models: dict = field(default=None, compare=False, repr=False)
 
     def element(self, name: str) -> Element:
         """The element called ``name`` (case-insensitive); KeyError if none."""
@@ -57,6 +99,26 @@ class Circuit:
             index = {e.name: e for e in self.elements}
             object.__setattr__(self, "_index", index)
         return index[name.upper()]
+
+    def part_model_of(self, name: str) -> PartModel | None:
+        """The part model the element called ``name`` is inside, or None.
+
+        Elements inside an instance are named ``<instance>.<...>``, so the dotted
+        prefixes of ``name`` are the instances it is inside; the outermost part model
+        among them holds it.
+        """
+        if not self.part_models:
+            return None
+        by_name = self._models
+        if by_name is None:
+            by_name = {m.name: m for m in self.part_models}
+            object.__setattr__(self, "_models", by_name)
+        parts = name.upper().split(".")
+        for i in range(1, len(parts)):
+            model = by_name.get(".".join(parts[:i]))
+            if model is not None:
+                return model
+        return None
 
     def has_element(self, name: str) -> bool:
         """True if an element called ``name`` exists."""
@@ -251,10 +313,36 @@ class _Flat:
     names: dict[str, Span] = field(default_factory=dict)
     node_spans: dict[str, list[Span]] = field(default_factory=dict)
     diags: list[Diagnostic] = field(default_factory=list)
+    #: lower-case names of the subcircuits whose instances are part models
+    models: frozenset[str] = frozenset()
+    #: the part models found, in the order they were expanded
+    found: list[PartModel] = field(default_factory=list)
+    #: how many part-model instances the expansion is inside (the outermost one counts)
+    depth: int = 0
+
+
+def subckt_names(netlist: Netlist) -> tuple[str, ...]:
+    """The names of every ``.subckt`` the netlist defines, at any depth, as written.
+
+    Examples
+    --------
+    >>> from .parse import load_netlist
+    >>> subckt_names(load_netlist("t\\n.subckt QX10 a b\\nC0 a b 5p\\n.ends\\nR1 a 0 1\\n"))
+    ('QX10',)
+    """
+    out: list[str] = []
+    stack = [netlist.top]
+    while stack:
+        scope = stack.pop()
+        for sub in scope.subckts:
+            out.append(sub.name.text)
+            stack.append(sub.body)
+    return tuple(dict.fromkeys(out))
 
 
 def elaborate(netlist: Netlist, allow_negative: bool = False,
-              overrides: dict[str, float] | None = None) -> Circuit:
+              overrides: dict[str, float] | None = None,
+              part_models: Collection[str] = ()) -> Circuit:
     """Flatten ``netlist`` into a :class:`Circuit` and check it can be solved.
 
     Parameters
@@ -265,6 +353,11 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
         Accept negative R, L and C (for behavioural models); zero is never accepted.
     overrides : dict, optional
         Global ``.param`` values replacing the netlist's (variants of a family).
+    part_models : collection of str, optional
+        Names of subcircuits (case-insensitive) whose every instance models one
+        physical part (the spec's ``part_models``): each instance is recorded as a
+        :class:`PartModel` in :attr:`Circuit.part_models`. A part model inside another
+        one is part of the outer one's model.
 
     Raises
     ------
@@ -278,7 +371,8 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     for key, value in (overrides or {}).items():
         top_env.fix(key, value)
     check_size(netlist.top)
-    flat = _Flat(diags=list(netlist.diagnostics))
+    flat = _Flat(diags=list(netlist.diagnostics),
+                 models=frozenset(n.lower() for n in part_models))
     _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative)
     elements = tuple(flat.elements)
     _check_references(elements)
@@ -288,7 +382,7 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     where = netlist.top.params[0].span if netlist.top.params else None
     params = tuple(sorted((k, top_env._get(k, where)) for k in top_env.exprs))
     return Circuit(netlist.title, elements, nodes, netlist.sources,
-                   summarise_diagnostics(flat.diags), params)
+                   summarise_diagnostics(flat.diags), params, tuple(flat.found))
 
 
 def summarise_diagnostics(diags: list[Diagnostic], keep: int = DIAGNOSTICS_PER_CODE
@@ -439,8 +533,41 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
                                    f"{_list(sorted(declared))})",
                                    assign.key.span, code="NC102")
         child.define(assign, where=env)
-    _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
-                 allow_negative)
+    if key not in flat.models or flat.depth:
+        _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
+                     allow_negative)
+        return
+    # a part model: each port gets a stand-in node of its own while the body expands,
+    # so every element node reached through a port is known by port, then the stand-ins
+    # are replaced by the nodes the ports connect to
+    outside = [child_map[p.text.lower()] for p in sub.ports]
+    stand_in = {}
+    for i, port in enumerate(sub.ports):
+        alias = f"{full.lower()}.\0{i}"   # NUL: no netlist can write this node name
+        child_map[port.text.lower()] = alias
+        stand_in[alias] = i
+    start = len(flat.elements)
+    flat.depth += 1
+    try:
+        _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
+                     allow_negative)
+    finally:
+        flat.depth -= 1
+    through: list[tuple[str, int, int]] = []
+    for k in range(start, len(flat.elements)):
+        e = flat.elements[k]
+        if not any(n in stand_in for n in e.nodes):
+            continue
+        through.extend((e.name, j, stand_in[n]) for j, n in enumerate(e.nodes)
+                       if n in stand_in)
+        flat.elements[k] = dataclasses.replace(
+            e, nodes=tuple(outside[stand_in[n]] if n in stand_in else n for n in e.nodes))
+    for alias, i in stand_in.items():
+        spans = flat.node_spans.pop(alias, None)
+        if spans:
+            flat.node_spans.setdefault(outside[i], []).extend(spans)
+    flat.found.append(PartModel(full, sub.name.text, tuple(p.text for p in sub.ports),
+                                tuple(outside), tuple(through), card.name.span))
 
 
 def _check_passive(element: Element, card: Card, allow_negative: bool) -> None:

@@ -16,7 +16,7 @@ from .elaborate import Circuit, elaborate
 from .parse import Netlist, load_netlist
 from .exceptions import Diagnostic, ElaborationError, NetcheckError, NetcheckWarning, SpecError
 from .measure import (Extremum, MeasurementFailure, Resonance, band_extremes, corner, peak,
-                      resonance)
+                      resonance, root_seeds)
 from .result import SAFETY_CAUTION, Caution, Curves, SpecResult, Status, worst_status
 from .solve import Response, solve
 from .spec import Spec, load_spec, locate
@@ -34,15 +34,9 @@ def seeds_from_roots(roots_hz: np.ndarray, lo: float, hi: float) -> np.ndarray:
     """Frequencies (Hz) where lightly damped poles or zeros put narrow features.
 
     For a root s/2π = σ + jν the feature sits near |ν| (and |s|/2π); only roots with
-    |ν| > |σ| (Q above 1/√2) inside the sweep are kept.
+    |ν| > |σ| (Q above 1/√2) inside the sweep are kept (:func:`netcheck.measure.root_seeds`).
     """
-    if roots_hz.size == 0:
-        return np.zeros(0)
-    r = roots_hz[roots_hz.imag > 0]
-    r = r[np.abs(r.imag) > np.abs(r.real)]
-    cand = np.concatenate([np.abs(r.imag), np.abs(r)])
-    cand = cand[(cand >= lo) & (cand <= hi)]
-    return np.unique(cand)
+    return root_seeds(roots_hz, lo, hi)
 
 
 class _CachedCurve:
@@ -79,14 +73,20 @@ class ResponseCurve(_CachedCurve):
     response: Response
     grid_hz: np.ndarray
     seeds_hz: np.ndarray
+    poles_hz: np.ndarray | None = None
+    zeros_hz: np.ndarray | None = None
+    roots_complete: bool = False
     _last: dict = field(default_factory=dict, repr=False)
 
     @classmethod
     def of(cls, response: Response) -> "ResponseCurve":
+        """The curve of ``response``, seeded by its poles and zeros on every engine
+        (:meth:`Response.roots_hz`), whatever the number of sweep points."""
         f = response.frequency_hz
-        seeds = np.concatenate([seeds_from_roots(response.poles_hz, f[0], f[-1]),
-                                seeds_from_roots(response.zeros_hz, f[0], f[-1])])
-        return cls(response, f, np.unique(seeds))
+        poles, zeros, complete = response.roots_hz()
+        seeds = np.concatenate([seeds_from_roots(poles, f[0], f[-1]),
+                                seeds_from_roots(zeros, f[0], f[-1])])
+        return cls(response, f, np.unique(seeds), poles, zeros, complete)
 
     def _evaluate(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         return self.response.at(f)
@@ -99,7 +99,22 @@ class ImpedanceCurve(_CachedCurve):
     response: Response
     grid_hz: np.ndarray
     seeds_hz: np.ndarray
+    poles_hz: np.ndarray | None = None
+    zeros_hz: np.ndarray | None = None
+    roots_complete: bool = False
     _last: dict = field(default_factory=dict, repr=False)
+
+    @classmethod
+    def of(cls, response: Response, seeds_hz: np.ndarray) -> "ImpedanceCurve":
+        """Z(f) of ``response``'s circuit, with the roots of the current (V stimulus;
+        |Z| = 1/|I| turns where |I| does) or of the voltage (I stimulus) at the input."""
+        system = response.system
+        if system.circuit.element(system.source).letter == "V":
+            sel = system.input_current_selector()
+        else:
+            sel = system.input_voltage_selector()
+        poles, zeros, complete = response.roots_hz(sel)
+        return cls(response, response.frequency_hz, seeds_hz, poles, zeros, complete)
 
     def _evaluate(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         system = self.response.system
@@ -153,8 +168,7 @@ class SpecProbe:
 
     def impedance(self) -> ImpedanceCurve:
         if self._imp is None:
-            self._imp = ImpedanceCurve(self.curve.response, self.curve.grid_hz,
-                                       self.curve.seeds_hz)
+            self._imp = ImpedanceCurve.of(self.curve.response, self.curve.seeds_hz)
         return self._imp
 
 
@@ -264,7 +278,9 @@ def _tolerance(spec: Spec, circuit: Circuit, system: System, nominal: tuple,
     from .eseries import check_preferred
     preferred = [(n, circuit.element(n).letter, v, t, circuit.element(n).span)
                  for n, v, t in parts
-                 if circuit.element(n).letter in "RLC" and t <= 0.2 and v > 0]
+                 if circuit.element(n).letter in "RLC" and t <= 0.2 and v > 0
+                 # part_models: a model's parameters are not parts bought by E-series value
+                 and circuit.part_model_of(n) is None]
     for d in check_preferred(preferred):
         cautions.append(_diag_caution(d))
     if not parts and set(analysis.modes) - {"nominal"}:
@@ -409,7 +425,9 @@ def _check(path: str, overrides: dict[str, float] | None, variant: str | None,
                             f"netlist does not define with .param (it defines "
                             f"{', '.join(sorted(defined)) or 'none'})", code="NC203",
                             path=path, where="variants")
-        circuit = elaborate(parsed, spec.allow_negative, overrides)
+        # part_models: the spec's part-model subcircuits, checked against this netlist
+        from .spec import part_models
+        circuit = elaborate(parsed, spec.allow_negative, overrides, part_models(spec, parsed))
         return evaluate(spec, circuit, variant)
     except NetcheckError as err:
         if isinstance(err, SpecError):

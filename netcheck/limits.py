@@ -13,8 +13,9 @@ from typing import ClassVar
 
 import numpy as np
 
-from ._limit_base import (LIMITS, Limit, Linearised, Probe, Rows, _band_text, build_limit,
-                          judge_range, linearised_range, range_margin, register)
+from ._limit_base import (LIMITS, Limit, Linearised, Probe, Rows, _band_text, at_floor,
+                          build_limit, gain_floor_db, judge_range, linearised_range,
+                          range_margin, register)
 from ._spec_guard import MIN_FREQUENCY_HZ
 from .measure import Extremum, MeasurementFailure
 from .result import LimitResult, MaskBand, Status
@@ -70,11 +71,16 @@ class GainLimit(Limit):
         re = " re the peak gain" if self.reference == "peak" else ""
         which = "minimum and maximum" if self.min_db is not None and self.max_db is not None \
             else "minimum" if self.min_db is not None else "maximum"
-        return (judge_range(
+        r = judge_range(
             self.name, self.kind, self.min_db, self.max_db, vmin, vmax, "dB",
             f"true {which} of gain{re} over {_band_text(self.band)}",
             "grid samples and pole/zero seeds refined by Brent's method on the exact derivative",
-            self.index, self.line),)
+            self.index, self.line)
+        # a gain at the numerical floor (an exact transmission zero) is not a number
+        floor = gain_floor_db(probe, r.at_hz, r.measured + offset)
+        if floor is not None:
+            r = at_floor(r, floor - offset, "gain" + re)
+        return (r,)
 
     def judge_batch(self, bp):
         vmin, vmax = bp.band_extremes("gain_db", *self.band)

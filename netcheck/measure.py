@@ -10,11 +10,12 @@ import numpy as np
 from ._curve import (HALF_POWER_DB, Curve, Extremum, FunctionCurve, MeasurementFailure, Resonance, _band,
                      _checked_grid, _drop, _hz, _in_sweep, _number, _query)
 from ._refine import (_TWO_PI, _best, _evaluate, _find_crossing, _gain_from, _log_derivative, _phase_track,
-                      _sample_points, _values)
+                      _sample_points, _values, root_seeds, stationary_points)
 
 __all__ = [
     "HALF_POWER_DB", "Curve", "Extremum", "FunctionCurve", "MeasurementFailure", "Resonance", "band_extremes",
-    "corner", "crossing", "gain_db", "group_delay_s", "peak", "phase_deg", "resonance", "ripple",
+    "corner", "crossing", "gain_db", "group_delay_s", "peak", "phase_deg", "resonance", "ripple", "root_seeds",
+    "stationary_points",
 ]
 
 Quantity = Literal["gain_db", "phase_deg", "group_delay_s"]
@@ -31,7 +32,11 @@ def band_extremes(curve: Curve, quantity: Quantity, lo_hz: float, hi_hz: float) 
     """True minimum and maximum of a real quantity over the closed band [lo_hz, hi_hz].
 
     Samples the grid points inside the band, both band ends, the seeds and a geometric
-    cluster of probe points around each seed, in one batch.  Every sign change of the
+    cluster of probe points around each seed, in one batch.  A curve that carries its
+    poles and zeros (``poles_hz`` and ``zeros_hz``, as the responses netcheck solves
+    do) adds the seeds they give and every stationary point of ``quantity`` inside the
+    band, located from them whatever the grid density (:func:`stationary_points`),
+    with probe points around each.  Every sign change of the
     exact derivative between neighbouring samples is refined by Brent root-finding
     (gain and phase); group delay, which has no exact derivative here, is refined by
     bounded Brent minimisation on log-frequency around each sampled local extremum.
@@ -63,7 +68,7 @@ def band_extremes(curve: Curve, quantity: Quantity, lo_hz: float, hi_hz: float) 
     if quantity not in _QUANTITIES:
         raise ValueError(f"quantity must be one of {', '.join(_QUANTITIES)}; got {quantity!r}")
     grid, lo, hi = _band(curve, _number("lo_hz", lo_hz), _number("hi_hz", hi_hz))
-    f = _sample_points(curve, grid, lo, hi)
+    f = _sample_points(curve, grid, lo, hi, quantity)
     h, dh = _evaluate(curve, f)
     track = _phase_track(curve, grid) if quantity == "phase_deg" else None
     v, d = _values(quantity, f, h, dh, track)

@@ -5,9 +5,12 @@ from __future__ import annotations
 import enum
 import math
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
+
+if TYPE_CHECKING:  # pragma: no cover
+    from .units import RowText
 
 __all__ = ["Status", "LimitResult", "Caution", "Curves", "MaskBand", "SpecResult",
            "CheckResult", "worst_status", "SAFETY_CAUTION"]
@@ -48,6 +51,12 @@ class LimitResult:
     ``margin`` is signed, in ``unit``: positive means inside the limit by that much.
     ``lower``/``upper`` are the bounds (None where open); ``at_hz`` is where the
     deciding (worst) value occurred.
+
+    ``floor`` is set (in ``unit``) only when ``measured`` lies at or below the numerical
+    floor of the solve at ``at_hz``: a gain there cannot be told from no transmission at
+    all (an exact transmission zero), so ``measured`` and ``margin`` are rounding noise;
+    the reports print the value as below the floor and the margin as the bound it
+    certainly meets (see :func:`netcheck.units.row_text`).
     """
 
     name: str
@@ -64,20 +73,25 @@ class LimitResult:
     message: str = ""
     index: int = 0
     line: int | None = None
+    floor: float | None = None
+
+    @property
+    def below_floor(self) -> bool:
+        """Whether the measured value cannot be told from none (see ``floor``)."""
+        return self.floor is not None
+
+    @property
+    def figures(self) -> "RowText":
+        """Measured value, bounds, margin and frequency as every report prints them, with
+        as many figures as tell the row's values apart (:func:`netcheck.units.row_text`)."""
+        from .units import row_text
+        return row_text(self.measured, self.lower, self.upper, self.margin, self.unit,
+                        self.at_hz, self.floor)
 
     @property
     def bound_text(self) -> str:
         """The limit as text, e.g. ``-1.000 dB … 0.500 dB`` or ``≤ 200.0 µs``."""
-        from .units import format_eng
-        lo = None if self.lower is None else format_eng(self.lower, self.unit)
-        hi = None if self.upper is None else format_eng(self.upper, self.unit)
-        if lo is not None and hi is not None:
-            return f"{lo} … {hi}"
-        if lo is not None:
-            return f"≥ {lo}"
-        if hi is not None:
-            return f"≤ {hi}"
-        return "—"
+        return self.figures.bound
 
 
 @dataclass(frozen=True, slots=True)

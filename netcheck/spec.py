@@ -26,7 +26,7 @@ from .units import UnitError, parse_relative, parse_value, relative_unit
 __all__ = ["Sweep", "Spec", "load_spec", "parse_spec", "read_toml", "validate_sweep",
            "design_root", "inside_root", "SpecReader", "TOP_KEYS", "locate",
            "MAX_SWEEP_POINTS", "MIN_SWEEP_POINTS", "MAX_FREQUENCY_HZ", "MIN_FREQUENCY_HZ",
-           "MAX_NESTING", "MAX_LIMITS", "MAX_TEXT_CHARS", "MAX_PATH_CHARS"]
+           "MAX_NESTING", "MAX_LIMITS", "MAX_TEXT_CHARS", "MAX_PATH_CHARS", "part_models"]
 
 
 #: Top-level keys of a spec and what they hold (for docs, did-you-mean and the loader).
@@ -43,6 +43,8 @@ TOP_KEYS: dict[str, str] = {
     "analysis": "nominal / worst case / Monte Carlo settings",
     "stress": "array of part-stress limits",
     "variants": "variant family",
+    "part_models": "subcircuits that each model one physical part (names, globs allowed), "
+                   "e.g. [\"QX10\"]: no E-series lint inside, stress judged at the ports",
 }
 SWEEP_KEYS = {"start": "Hz", "stop": "Hz", "points_per_decade": "count"}
 
@@ -81,6 +83,8 @@ class Spec:
     text: str = field(default="", repr=False)
     tables: tuple[tuple[str, Any], ...] = field(default=(), repr=False)
     design_root: str | None = None
+    #: subcircuit names (fnmatch globs, case-insensitive) that each model one physical part
+    part_models: tuple[str, ...] = ()
 
     def table(self, key: str) -> Any:
         """A raw top-level table handled by another module (tolerances, stress...)."""
@@ -586,7 +590,63 @@ def _build(doc: dict, text: str, path: str, build_limit: Any,
         netlist=str(base / netlist), source=source, output=output, sweep=sweep,
         limits=tuple(limits), root=str(base / root) if root else None,
         allow_negative=top.flag("allow_negative"), text=text, tables=tables,
-        design_root=str(root_dir))
+        design_root=str(root_dir), part_models=_part_models(top, path))
+
+
+def _part_models(top: SpecReader, path: str) -> tuple[str, ...]:
+    """The ``part_models`` key: one subcircuit name or an array of them (globs allowed)."""
+    key = "part_models"
+    raw = top.raw(key)
+    if raw is None:
+        return ()
+    items = [raw] if isinstance(raw, str) else raw
+    if not isinstance(items, list):
+        top.fail(key, f"expected a subcircuit name or an array of them, e.g. [\"QX10\"], "
+                      f"got {type(raw).__name__}")
+    if len(items) > MAX_LIMITS:
+        top.fail(key, f"{len(items):,} names, over the budget of {MAX_LIMITS:,} a spec",
+                 code="NC205")
+    for i, item in enumerate(items):
+        if not isinstance(item, str) or not item.strip():
+            top.fail(key, f"entry {i + 1}: expected a subcircuit name, got {item!r}")
+        check_text(item, key, path)
+    return tuple(item.strip() for item in items)
+
+
+def part_models(spec: Spec, netlist: Any) -> frozenset[str]:
+    """The subcircuits of ``netlist`` that ``spec.part_models`` names, lower case.
+
+    Each entry is a subcircuit name or an fnmatch glob over the names the netlist's
+    ``.subckt`` lines define (at any depth), case-insensitive. An entry that names no
+    subcircuit of the netlist is an error: a misspelt model name would otherwise leave
+    its internals judged as parts without a word.
+
+    Raises
+    ------
+    SpecError
+        NC203 at ``part_models``, naming the entry, the netlist and what it defines.
+    """
+    if not spec.part_models:
+        return frozenset()
+    import fnmatch
+
+    from .elaborate import subckt_names
+
+    defined = subckt_names(netlist)
+    lower = {name.lower(): name for name in defined}
+    out: set[str] = set()
+    for entry in spec.part_models:
+        hits = fnmatch.filter(lower, entry.lower())
+        if not hits:
+            shown = ", ".join(printable(n, 60) for n in defined[:10])
+            more = f" and {len(defined) - 10:,} more" if len(defined) > 10 else ""
+            known = f"it defines {shown}{more}" if defined else "it defines no subcircuit"
+            raise SpecError(printable(
+                f"part_models: no subcircuit {entry!r} in the netlist "
+                f"{Path(spec.netlist).name} ({known}); name the .subckt of each part model",
+                TEXT_MAX), code="NC203", path=spec.path, where="part_models")
+        out.update(hits)
+    return frozenset(out)
 
 
 def load_spec(path: str | Path, design_root: str | None = None) -> Spec:

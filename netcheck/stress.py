@@ -40,6 +40,20 @@ Globs use :func:`fnmatch.fnmatchcase` on the upper-cased full hierarchical
 name: ``*`` also crosses the dots, so ``C*`` matches top-level capacitors,
 ``X1.*`` everything inside instance X1, and ``*C3`` also matches ``X1.C3``.
 
+Part models
+-----------
+An instance of a subcircuit the spec's ``part_models`` names (a quartz crystal
+written as Rm, Lm, Cm in series, in parallel with C0) is one physical part: the
+elements inside are model parameters, not parts, and no glob matches them. The
+part itself is matched by its instance name (``X1``, ``X*``) and judged at its
+ports: ``max_voltage`` on the voltage between each pair of ports (part
+``X1 (a–b)``), ``max_current`` on the current into each port (part ``X1 (a)``, the
+sum of the currents of the elements inside that the port reaches, so ports that
+share a node are still told apart); ``max_power`` is not judged on a model. The
+hazardous-voltage caution follows the results, so it comes from physical parts
+and model ports, never from a node inside a model (the motional capacitor of a
+crystal holds kilovolts that exist nowhere a probe could touch).
+
 References
 ----------
 .. [1] C.-W. Ho, A. E. Ruehli and P. A. Brennan, "The modified nodal approach to
@@ -62,8 +76,9 @@ import scipy.linalg as sla
 from scipy.optimize import minimize_scalar
 
 from .assemble import System
-from .elements import (CCCS, CCVS, Capacitor, CurrentSource, Element, Inductor, Resistor,
-                       VoltageSource)
+from .elaborate import PartModel
+from .elements import (CCCS, CCVS, VCCS, Capacitor, CurrentSource, Element, Inductor,
+                       Resistor, VoltageSource)
 from .exceptions import SingularCircuitError
 from .result import Caution, LimitResult, Status, finite_or_none
 from .solve import DENSE_MAX, Response
@@ -71,7 +86,8 @@ from .spec import SpecReader
 from .units import format_si
 
 __all__ = ["KEYS", "QUANTITIES", "StressLimit", "StressResult", "parse_stress", "judge_stress",
-           "stress_cautions", "stress_lines", "HAZARD_VOLTAGE_PEAK", "REACTIVE_RATIO"]
+           "stress_cautions", "stress_lines", "stress_probes", "HAZARD_VOLTAGE_PEAK",
+           "REACTIVE_RATIO"]
 
 #: Keys of a ``[[stress]]`` table and what they hold (for docs, did-you-mean and the loader).
 KEYS: dict[str, str] = {
@@ -79,10 +95,12 @@ KEYS: dict[str, str] = {
                         "'rms:7.07' is RMS (×√2), 'peak:10' explicit; omitted: inherited "
                         "from the previous [[stress]] table",
     "parts": "glob over part names (case-insensitive fnmatch on the full hierarchical name, "
-             "e.g. 'C*', 'X1.*', '*L2')",
-    "max_voltage": "largest allowed peak |V| across each matching part, V (any two-terminal part)",
+             "e.g. 'C*', 'X1.*', '*L2'); a part model (part_models) is one part, matched by "
+             "its instance name ('X1') and judged at its ports",
+    "max_voltage": "largest allowed peak |V| across each matching part, V (any two-terminal "
+                   "part; between each pair of ports of a part model)",
     "max_current": "largest allowed peak |I| through each matching part, A "
-                   "(R, L, C, V, I, F, H)",
+                   "(R, L, C, V, I, F, H; into each port of a part model)",
     "max_power": "largest allowed average dissipation |I|²R/2 (peak |I|), W (resistors only)",
 }
 
@@ -252,6 +270,9 @@ class StressResult:
     pattern: str = ""
     index: int = 0
     line: int | None = None
+    #: for a part model (``element`` "X"): its subcircuit and the ports judged
+    model: str = ""
+    ports: tuple[str, ...] = ()
 
     @property
     def unit(self) -> str:
@@ -277,6 +298,12 @@ class StressResult:
     def definition(self) -> str:
         """What was measured, in words."""
         stim = f"for a {self.stimulus_text} stimulus, true maximum over the sweep"
+        if self.model and self.ports:
+            who = f"{self.part.split(' ', 1)[0]} (part model {self.model})"
+            if self.quantity == "voltage":
+                return (f"peak |V| between ports {self.ports[0]} and {self.ports[-1]} of "
+                        f"{who} {stim}")
+            return f"peak |I| into port {self.ports[0]} of {who} {stim}"
         if self.quantity == "voltage":
             return f"peak |V| across {self.part} {stim}"
         if self.quantity == "current":
@@ -316,11 +343,11 @@ def _compact(value: float, unit: str, digits: int = 4) -> str:
 class _Probe:
     """One part's quantity as a linear function of the MNA solution x (per unit stimulus).
 
-    q(f) = const + (j2πf if ``jw`` else 1) · (x(f) · sel), and the judged value is
-    ``scale`` · |q|^``power``. That value is proportional to the part's own value
-    raised to ``own`` (−1 for a resistor's current or power, +1 for a capacitor's
-    current or a CCCS's, 0 otherwise) at a given solution x, so a sampled part value p
-    scales it by (p / nominal)^``own``.
+    q(f) = const + (j2πf if ``jw`` else 1) · (x(f) · sel) [+ j2πf · (x(f) · ``sel_jw``)],
+    and the judged value is ``scale`` · |q|^``power``. That value is proportional to the
+    part's own value raised to ``own`` (−1 for a resistor's current or power, +1 for a
+    capacitor's current or a CCCS's, 0 otherwise) at a given solution x, so a sampled
+    part value p scales it by (p / nominal)^``own``.
     """
 
     sel: np.ndarray
@@ -329,12 +356,16 @@ class _Probe:
     scale: float
     power: int
     own: int = 0
+    #: a second selector multiplied by j2πf (the capacitors in a part model's port current)
+    sel_jw: np.ndarray | None = None
 
     def values(self, f: np.ndarray, x: np.ndarray) -> np.ndarray:
         """Judged values at frequencies ``f`` (Hz) from solutions ``x`` (F × n)."""
         q = x @ self.sel
         if self.jw:
             q = q * (1j * _TWO_PI * f)
+        if self.sel_jw is not None:
+            q = q + (x @ self.sel_jw) * (1j * _TWO_PI * f)
         return self.scale * np.abs(q + self.const) ** self.power
 
 
@@ -348,6 +379,10 @@ def _diff_selector(system: System, a: str, b: str) -> np.ndarray:
 
 def _probe(system: System, e: Element, quantity: str, amp: float) -> _Probe | str:
     """The probe for ``quantity`` on element ``e``, or why there is none."""
+    model = system.circuit.part_model_of(e.name)
+    if model is not None:
+        return (f"{e.name} is inside {model.name}, a model of one part ({model.subckt}, "
+                f"part_models): the part is judged at its ports, as {model.name}")
     kinds = {"voltage": _VOLTAGE_KINDS, "current": _CURRENT_KINDS, "power": _POWER_KINDS}
     if not isinstance(e, kinds[quantity]):
         return (f"{quantity} is judged on {_KIND_TEXT[quantity]}; {e.name} is a "
@@ -372,6 +407,115 @@ def _probe(system: System, e: Element, quantity: str, amp: float) -> _Probe | st
     sel = np.zeros(n)
     sel[system.branch_index[e.name]] = 1.0
     return _Probe(sel, False, 0j, amp, 1)
+
+
+def _element_current(system: System, e: Element
+                     ) -> tuple[np.ndarray, np.ndarray, complex] | None:
+    """The current through ``e`` from its first node to its second, per unit stimulus:
+    ``(sel, sel_jw, const)`` with I = x·sel + j2πf·(x·sel_jw) + const; None for K."""
+    n = system.size
+    zero = np.zeros(n)
+    if isinstance(e, Resistor):
+        return _diff_selector(system, *e.terminals) / e.value, zero, 0j
+    if isinstance(e, Capacitor):
+        return zero, _diff_selector(system, *e.terminals) * e.value, 0j
+    if isinstance(e, VCCS):  # gm·(v_c+ − v_c−) flows n+ → n−
+        return _diff_selector(system, e.nodes[2], e.nodes[3]) * e.gain, zero, 0j
+    if isinstance(e, CCCS):
+        sel = np.zeros(n)
+        sel[system.branch_index[e.control]] = e.gain
+        return sel, zero, 0j
+    if isinstance(e, CurrentSource):
+        return zero, zero, complex(1.0 if e.name == system.source else 0.0)
+    if e.has_branch:  # L, V, E, H: the branch current leaves the first node [1]
+        sel = np.zeros(n)
+        sel[system.branch_index[e.name]] = 1.0
+        return sel, zero, 0j
+    return None
+
+
+def _model_probes(system: System, model: PartModel, quantity: str, amp: float
+                  ) -> list[tuple[tuple[str, ...], _Probe]] | str:
+    """(ports, probe) for each quantity at the ports of a part model, or why there is none.
+
+    Voltage: V(port i) − V(port j) for each pair i < j. Current: the current into port
+    i, the sum over the element nodes reached through it of the current entering the
+    element there (+I at its first node, −I at its second; the controlling nodes of E
+    and G draw none).
+    """
+    if quantity == "power":
+        return (f"power is judged on resistors; {model.name} is a model of one part "
+                f"({model.subckt}, part_models): rate its port voltage or current")
+    if quantity == "voltage":
+        if len(model.ports) < 2:
+            return (f"{model.name} ({model.subckt}, part_models) has one port: a voltage is "
+                    "judged between two ports")
+        return [((model.ports[i], model.ports[j]),
+                 _Probe(_diff_selector(system, model.nodes[i], model.nodes[j]), False, 0j,
+                        amp, 1))
+                for i in range(len(model.ports)) for j in range(i + 1, len(model.ports))]
+    circuit = system.circuit
+    out = []
+    for i, port in enumerate(model.ports):
+        sel, sel_jw, const = np.zeros(system.size), np.zeros(system.size), 0j
+        for name, node, at in model.through:
+            if at != i or node > 1:
+                continue
+            current = _element_current(system, circuit.element(name))
+            if current is None:
+                continue
+            sign = 1.0 if node == 0 else -1.0
+            sel += sign * current[0]
+            sel_jw += sign * current[1]
+            const += sign * current[2]
+        out.append(((port,), _Probe(sel, False, const, amp, 1, 0, sel_jw)))
+    return out
+
+
+def _parts(circuit) -> list:
+    """What a glob can match, in netlist order: each element outside the part models,
+    and each part model (at the place of its first element)."""
+    out: list = []
+    seen: set[str] = set()
+    for e in circuit.elements:
+        model = circuit.part_model_of(e.name)
+        if model is None:
+            out.append(e)
+        elif model.name not in seen:
+            seen.add(model.name)
+            out.append(model)
+    out.extend(m for m in circuit.part_models if m.name not in seen)
+    return out
+
+
+def _targets(system: System, lim: StressLimit) -> list[tuple[str, str, dict, _Probe | str]]:
+    """What ``lim`` judges: (result part name, element letter, extra StressResult fields,
+    probe or why there is none) for every part its glob matches, in netlist order; a part
+    model gives one entry per port pair (voltage) or port (current)."""
+    out: list[tuple[str, str, dict, _Probe | str]] = []
+    for p in _parts(system.circuit):
+        if not _matches(lim.parts, p.name):
+            continue
+        if not isinstance(p, PartModel):
+            out.append((p.name, p.letter, {}, _probe(system, p, lim.quantity, lim.amplitude)))
+            continue
+        probes = _model_probes(system, p, lim.quantity, lim.amplitude)
+        if isinstance(probes, str):
+            out.append((p.name, "X", dict(model=p.subckt), probes))
+            continue
+        out.extend((f"{p.name} ({'–'.join(ports)})", "X", dict(model=p.subckt, ports=ports),
+                    probe) for ports, probe in probes)
+    return out
+
+
+def stress_probes(system: System, lim: StressLimit
+                  ) -> list[tuple[str, Element | None, _Probe]]:
+    """(result part name, element or None for a part model's port, probe) for every part
+    ``lim`` judges that has a probe: the same parts and names as :func:`judge_stress`,
+    for a screen over many samples (a port's probe may carry ``sel_jw``)."""
+    circuit = system.circuit
+    return [(name, None if letter == "X" else circuit.element(name), probe)
+            for name, letter, _, probe in _targets(system, lim) if not isinstance(probe, str)]
 
 
 def _pole_frequencies(response: Response) -> np.ndarray:
@@ -523,36 +667,47 @@ def judge_stress(limits: Sequence[StressLimit], response: Response, index_offset
         base = dict(quantity=lim.quantity, rating=lim.rating, amplitude=lim.amplitude,
                     stimulus_unit=stim_unit, rms=lim.rms, pattern=lim.parts,
                     index=lim.index + index_offset, line=lim.line)
-        matched = [e for e in circuit.elements if _matches(lim.parts, e.name)]
-        if not matched:
+        targets = _targets(system, lim)
+        if not targets:
             out.append(StressResult(part=lim.parts, peak=None, margin=None, at_hz=None,
-                                    status=Status.ERROR, message=(
-                                        f"parts glob {lim.parts!r} matches no part of the "
-                                        "circuit (globs match full hierarchical names, "
-                                        "e.g. 'X1.C*' or '*C3')"), **base))
+                                    status=Status.ERROR, message=_no_match(lim.parts, circuit),
+                                    **base))
             continue
-        for e in matched:
-            probe = _probe(system, e, lim.quantity, lim.amplitude)
+        for name, letter, extra, probe in targets:
             if isinstance(probe, str):
-                out.append(StressResult(part=e.name, peak=None, margin=None, at_hz=None,
-                                        status=Status.ERROR, message=probe, element=e.letter,
-                                        **base))
+                out.append(StressResult(part=name, peak=None, margin=None, at_hz=None,
+                                        status=Status.ERROR, message=probe, element=letter,
+                                        **extra, **base))
                 continue
             if xg is None:
                 xg = np.asarray(response.solution())
                 cand, xc = _solve_at(engine, _pole_frequencies(response))
             peak, at = _true_peak(probe, grid, xg, cand, xc, engine)
             if not math.isfinite(peak):
-                out.append(StressResult(part=e.name, peak=None, margin=None, at_hz=None,
-                                        status=Status.ERROR, element=e.letter, message=(
-                                            f"the {lim.quantity} of {e.name} is not finite "
-                                            "on the sweep"), **base))
+                out.append(StressResult(part=name, peak=None, margin=None, at_hz=None,
+                                        status=Status.ERROR, element=letter, message=(
+                                            f"the {lim.quantity} of {name} is not finite "
+                                            "on the sweep"), **extra, **base))
                 continue
             margin = lim.rating - peak
-            out.append(StressResult(part=e.name, peak=peak, margin=margin, at_hz=at,
+            out.append(StressResult(part=name, peak=peak, margin=margin, at_hz=at,
                                     status=Status.PASS if margin >= 0 else Status.FAIL,
-                                    element=e.letter, **base))
+                                    element=letter, **extra, **base))
     return tuple(out)
+
+
+def _no_match(pattern: str, circuit) -> str:
+    """Why a ``parts`` glob matched nothing (and what to write when it names model insides)."""
+    inside = sorted({m.name for e in circuit.elements if _matches(pattern, e.name)
+                     and (m := circuit.part_model_of(e.name)) is not None})
+    if inside:
+        shown = ", ".join(inside[:5]) + (f" and {len(inside) - 5} more" if len(inside) > 5 else "")
+        what = "a model of one part" if len(inside) == 1 else "each a model of one part"
+        return (f"parts glob {pattern!r} matches only elements inside {shown}, {what} "
+                "(part_models): a model's elements are not parts; judge the part at its "
+                f"ports with parts = {inside[0]!r}")
+    return (f"parts glob {pattern!r} matches no part of the circuit (globs match full "
+            "hierarchical names, e.g. 'X1.C*' or '*C3')")
 
 
 def stress_cautions(results: Sequence[StressResult]) -> list[Caution]:
@@ -561,7 +716,9 @@ def stress_cautions(results: Sequence[StressResult]) -> list[Caution]:
     A caution is raised when a part sees more than :data:`HAZARD_VOLTAGE_PEAK` volts
     peak, or when an inductor or capacitor sees more than :data:`REACTIVE_RATIO` times
     the stimulus amplitude (voltage for a voltage stimulus, current for a current
-    stimulus). One caution per part and quantity, in result order.
+    stimulus). One caution per part and quantity, in result order. Only what
+    :func:`judge_stress` judged can raise one: physical parts and the ports of part
+    models, never an element inside a part model.
     """
     out: list[Caution] = []
     seen: set[tuple[str, str]] = set()

@@ -521,8 +521,7 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
     """
     from .assemble import assemble
     from .solve import solve
-    from .stress import (_matches, _pole_frequencies, _probe, judge_stress, parse_stress,
-                         stress_lines)
+    from .stress import _pole_frequencies, judge_stress, parse_stress, stress_lines, stress_probes
 
     limits = parse_stress(spec.table("stress"), spec.path, stress_lines(spec.text))
     grid = spec.sweep.grid()
@@ -534,21 +533,23 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
     near = (_pole_frequencies(nominal)[:, None]
             * (1.0 + 1.5 * spread * np.linspace(-1.0, 1.0, 25))[None, :]).ravel()
     screen_f = np.unique(np.concatenate([grid, near[(near > grid[0]) & (near < grid[-1])]]))
-    probes = [(k, e, p) for k, lim in enumerate(limits) for e in system.circuit.elements
-              if _matches(lim.parts, e.name)
-              and not isinstance(p := _probe(system, e, lim.quantity, lim.amplitude), str)]
+    # every part [[stress]] judges, part-model ports included (part_models)
+    probes = [(k, name, e, p) for k, lim in enumerate(limits)
+              for name, e, p in stress_probes(system, lim)]
 
     def screened(x: np.ndarray, rows: np.ndarray | None) -> dict[tuple[int, str], np.ndarray]:
         out = {}
-        for k, e, probe in probes:
+        for k, name, e, probe in probes:
             q = x @ probe.sel
             if probe.jw:
                 q = q * (1j * 2 * np.pi * screen_f)[None, :]
+            if probe.sel_jw is not None:
+                q = q + (x @ probe.sel_jw) * (1j * 2 * np.pi * screen_f)[None, :]
             mag = np.abs(q + probe.const)
             own = (values[e.name][rows] / e.value) ** probe.own \
-                if rows is not None and probe.own and e.name in values else 1.0
+                if rows is not None and probe.own and e is not None and e.name in values else 1.0
             both = np.stack([np.max(mag, axis=1), _vertex(mag, screen_f)])
-            out[(k, e.name)] = probe.scale * own * both ** probe.power
+            out[(k, name)] = probe.scale * own * both ** probe.power
         return out
 
     # how far the screen falls short of the exact peak at nominal widens the border

@@ -28,13 +28,16 @@ def _num(v: Any) -> Any:
 
 
 def _limit(lim: LimitResult) -> dict[str, Any]:
-    return {
+    out = {
         "name": lim.name, "kind": lim.kind, "status": lim.status.value,
         "measured": _num(lim.measured), "limit": [_num(lim.lower), _num(lim.upper)],
         "limit_text": lim.bound_text, "margin": _num(lim.margin), "unit": lim.unit,
         "at_hz": finite_or_none(lim.at_hz), "definition": lim.definition,
         "method": lim.method, "message": lim.message, "spec_line": lim.line,
     }
+    if lim.below_floor:  # measured and margin are rounding noise: the value is ≤ floor
+        out.update(below_floor=True, floor=_num(lim.floor))
+    return out
 
 
 def _caution(c: Caution) -> dict[str, Any]:

@@ -14,7 +14,10 @@ Mapping
   JUnit consumers split the classname at its last dot, so the spec file becomes the
   package and the limit kind the class.
 * ``Status.FAIL`` → ``<failure>``, ``Status.ERROR`` → ``<error>`` (the measurement could
-  not be made), ``Status.SKIPPED`` → ``<skipped>``.
+  not be made), ``Status.SKIPPED`` → ``<skipped>``. A met limit whose message says how
+  it was met (a yield with its interval, a worst case with what decided it, a gain at
+  the numerical floor of the solve: no transmission) has it in the testcase's
+  ``<system-out>``.
 * ``SpecResult.error`` (the spec could not be checked) → an extra testcase named
   ``spec`` (classname ``<spec path>.spec``) holding an ``<error>``.
 * Cautions (the spec's, then the run's) → the suite's ``<system-out>``, one a line.
@@ -34,7 +37,7 @@ import xml.etree.ElementTree as ET
 from typing import IO
 
 from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
-from ..units import format_eng
+from ..units import signed_eng
 from . import RenderOptions
 
 __all__ = ["render", "xml_text", "limit_summary", "caution_line", "signed"]
@@ -43,6 +46,8 @@ __all__ = ["render", "xml_text", "limit_summary", "caution_line", "signed"]
 _ILLEGAL_XML = re.compile("[^\t\n\r\x20-\ud7ff\ue000-\ufffd\U00010000-\U0010ffff]")
 
 _CHILD = {Status.FAIL: "failure", Status.ERROR: "error", Status.SKIPPED: "skipped"}
+#: row kinds whose message says how a met verdict was reached (shown even when met)
+_SAYS_HOW = ("yield", "worst_case")
 
 
 def _visible(match: re.Match[str]) -> str:
@@ -64,18 +69,17 @@ def xml_text(value: object) -> str:
 
 
 def signed(value: float, unit: str) -> str:
-    """``format_eng`` with a ``+`` on positive values (margins read as inside/outside)."""
-    text = format_eng(value, unit)
-    return f"+{text}" if value is not None and value > 0 else text
+    """``format_eng`` with a ``+`` on values ≥ 0 (margins read as inside/outside)."""
+    return signed_eng(value, unit)
 
 
 def limit_summary(lim: LimitResult) -> str:
-    """``measured X, limit Y, margin Z at F`` for one limit result."""
-    measured = "—" if lim.measured is None else format_eng(lim.measured, lim.unit)
-    margin = "—" if lim.margin is None else signed(lim.margin, lim.unit)
-    text = f"measured {measured}, limit {lim.bound_text}, margin {margin}"
-    if lim.at_hz is not None:
-        text += f" at {format_eng(lim.at_hz, 'Hz')}"
+    """``measured X, limit Y, margin Z at F`` for one limit result, with as many figures
+    as tell the bounds and the value apart (:attr:`LimitResult.figures`)."""
+    fig = lim.figures
+    text = f"measured {fig.measured}, limit {fig.bound}, margin {fig.margin}"
+    if fig.at:
+        text += f" at {fig.at}"
     return text
 
 
@@ -121,6 +125,11 @@ def _testcase(suite: ET.Element, classname: str, lim: LimitResult) -> None:
     case = _sub(suite, "testcase", classname=classname, name=lim.name)
     child = _CHILD.get(lim.status)
     if child is None:
+        # a met limit says how when that is part of the verdict: a yield its interval, a
+        # worst case what decided it, a gain at the numerical floor that it is no number
+        if lim.message and (lim.kind in _SAYS_HOW or lim.below_floor):
+            out = _sub(case, "system-out")
+            out.text = xml_text(f"{limit_summary(lim)}\n{lim.message}\n")
         return
     message = _message(lim)
     outcome = _sub(case, child, message=message)

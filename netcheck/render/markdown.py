@@ -27,9 +27,7 @@ from typing import IO
 
 from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
 from ..source import clip
-from ..units import format_eng
 from . import NAME_SHOWN_MAX, TEXT_SHOWN_MAX, RenderOptions
-from .junitreport import signed
 
 __all__ = ["render", "md_text", "md_name"]
 
@@ -107,10 +105,9 @@ def _row(cells: list[str]) -> str:
 
 
 def _limit_row(lim: LimitResult) -> str:
-    measured = "—" if lim.measured is None else format_eng(lim.measured, lim.unit)
-    margin = "—" if lim.margin is None else signed(lim.margin, lim.unit)
-    at = "—" if lim.at_hz is None else format_eng(lim.at_hz, "Hz")
-    return _row([lim.status.word, md_name(lim.name), measured, lim.bound_text, margin, at])
+    fig = lim.figures  # as many figures as tell the bounds and the value apart
+    return _row([lim.status.word, md_name(lim.name), fig.measured, fig.bound, fig.margin,
+                 fig.at or "—"])
 
 
 def _spec_section(spec: SpecResult) -> list[str]:
@@ -129,9 +126,11 @@ def _spec_section(spec: SpecResult) -> list[str]:
         ordered = sorted(spec.limits, key=lambda lim: (-lim.status.rank, lim.index))
         lines += [_limit_row(lim) for lim in ordered]
         lines.append("")
-        # a tolerance verdict says what decided it (and a yield its interval) even when met
+        # a tolerance verdict says what decided it (and a yield its interval) even when
+        # met, and so does a gain at the numerical floor
         notes = [lim for lim in ordered if lim.message and (
-            lim.status is not Status.PASS or lim.kind in ("yield", "worst_case"))]
+            lim.status is not Status.PASS or lim.kind in ("yield", "worst_case")
+            or lim.below_floor)]
         if notes:
             lines += [f"- {lim.status.word} {md_name(lim.name)}: {md_text(lim.message)}"
                       for lim in notes]
@@ -144,7 +143,7 @@ def _cell(found: list[LimitResult]) -> str:
         return "—"
     parts = []
     for lim in found:
-        margin = "" if lim.margin is None else " " + signed(lim.margin, lim.unit)
+        margin = "" if lim.margin is None else " " + lim.figures.margin
         parts.append(lim.status.word + margin)
     return "; ".join(parts)
 

@@ -95,6 +95,8 @@ def _limit_result(spec: SpecResult, lim: LimitResult) -> dict[str, Any]:
         "upper": finite_or_none(lim.upper), "margin": finite_or_none(lim.margin),
         "atHz": finite_or_none(lim.at_hz),
     }
+    if lim.below_floor:  # the measured value is rounding noise below this floor
+        props.update(belowFloor=True, floor=finite_or_none(lim.floor))
     return {
         "ruleId": rule, "level": "error", "message": {"text": xml_text(text)},
         "locations": [_location(spec.spec, lim.line)],

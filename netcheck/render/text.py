@@ -6,7 +6,6 @@ from typing import IO, Any
 
 from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
 from ..source import MESSAGE_MAX, printable
-from ..units import format_eng, format_si
 
 __all__ = ["render", "LINE_MAX", "ERROR_LINES_MAX"]
 
@@ -42,12 +41,16 @@ def _paint(text: str, status: Status, color: bool) -> str:
 
 
 def _row(lim: LimitResult) -> list[str]:
-    measured = "—" if lim.measured is None else format_eng(lim.measured, lim.unit)
-    margin = "—" if lim.margin is None else (("+" if lim.margin >= 0 else "") +
-                                            format_eng(lim.margin, lim.unit))
-    at = "" if lim.at_hz is None else format_si(lim.at_hz, "Hz", 5)
-    return [_MARK[lim.status], lim.status.word, _clean(lim.name), measured, lim.bound_text,
-            margin, at]
+    fig = lim.figures  # as many figures as tell the bounds and the value apart
+    return [_MARK[lim.status], lim.status.word, _clean(lim.name), fig.measured, fig.bound,
+            fig.margin, fig.at]
+
+
+def _says_why(lim: LimitResult) -> bool:
+    """Whether the row's message is shown under it whatever its status: an error says
+    why, a tolerance verdict what decided it, a gain at the numerical floor what it is."""
+    return bool(lim.message) and (lim.status is Status.ERROR or lim.kind in _SAYS_HOW
+                                  or lim.below_floor)
 
 
 def _order(limits: tuple[LimitResult, ...]) -> list[LimitResult]:
@@ -72,7 +75,7 @@ def _spec_block(s: SpecResult, color: bool, verbose: bool) -> list[str]:
             text = _paint(text, lim.status, color) if lim.status is not Status.PASS else text
             # an error says why; a tolerance verdict what decided it (yield: of how many
             # samples, with its interval; worst case: the corners or the linear estimate)
-            if lim.message and (lim.status is Status.ERROR or lim.kind in _SAYS_HOW):
+            if _says_why(lim):
                 text += "".join("\n      " + ln for ln in _lines(lim.message))
         lines.append(text)
     lines += _cautions(s.cautions, verbose)
@@ -112,8 +115,7 @@ def _family_block(path: str, members: list[SpecResult]) -> list[str]:
             elif lim.margin is None:
                 cells.append(lim.status.word)
             else:
-                sign = "+" if lim.margin >= 0 else ""
-                cells.append(f"{lim.status.word} {sign}{format_eng(lim.margin, lim.unit)}")
+                cells.append(f"{lim.status.word} {lim.figures.margin}")
         if s.error:
             cells += ["(not checked)"] * (len(header) - len(cells))
         rows.append(cells)

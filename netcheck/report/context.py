@@ -9,8 +9,8 @@ from ..provenance import GitState, git_state
 from ..result import SAFETY_CAUTION, CheckResult, LimitResult, SpecResult, Status
 from ..units import format_eng, format_si
 from .formatting import (LISTING_ROWS_MAX, LISTING_TOTAL_MAX, MEASUREMENTS, caution_view,
-                         date_text, display_path, format_margin, format_measured, listing,
-                         shown_name, status_view, unit_of)
+                         cell_text, date_text, display_path, format_margin, format_measured,
+                         listing, shown_name, status_view, unit_of)
 from .view_family import family_views
 from .view_stress import stress_view
 from .view_tolerance import tolerance_view
@@ -38,12 +38,16 @@ def _recorded_git(value: Any) -> GitState | None:
 
 
 def _limit_row(lim: LimitResult, spec_path: str) -> dict[str, Any]:
+    fig = lim.figures  # as many figures as tell the bounds and the value apart
     return {
         "name": lim.name, "kind": lim.kind, **status_view(lim.status),
-        "measured": format_measured(lim), "bound": lim.bound_text,
-        "margin": format_margin(lim), "at": "—" if lim.at_hz is None else
-        format_si(lim.at_hz, "Hz", 5), "at_full": "" if lim.at_hz is None else
-        format_si(lim.at_hz, "Hz", 7), "definition": lim.definition, "method": lim.method,
+        "measured": fig.measured, "bound": fig.bound, "margin": fig.margin,
+        # bounds that needed more figures may wrap after "…" (the others stay on one line)
+        "bound_cell": fig.bound if fig.place is None else cell_text(fig.bound),
+        "bound_wraps": fig.place is not None,
+        "at": fig.at or "—", "at_full": fig.at_full, "below_floor": lim.below_floor,
+        "definition": lim.definition,
+        "method": lim.method,
         "message": lim.message, "unit": lim.unit or "(dimensionless)",
         "where": f"{display_path(spec_path)}:{lim.line}" if lim.line else
         display_path(spec_path),

@@ -9,10 +9,11 @@ from typing import Any
 from ..render import NAME_SHOWN_MAX, TEXT_SHOWN_MAX
 from ..result import LimitResult, Status
 from ..source import clip, display_path
-from ..units import format_eng
+from ..units import digits_at, format_eng, signed_eng, tell_apart
 
 __all__ = ["SYMBOL", "MEASUREMENTS", "status_view", "format_measured", "format_margin",
            "unit_of", "signed", "format_fraction", "format_interval", "format_range",
+           "cell_text",
            "coefficient", "tolerance_text", "display_path", "date_text", "caution_view",
            "LISTING_COLUMNS", "LISTING_ROWS_MAX", "LISTING_TOTAL_MAX", "LISTING_LINE_ROWS",
            "listing_rows", "listing",
@@ -55,15 +56,15 @@ def status_view(status: Status) -> dict[str, str]:
 
 
 def format_measured(lim: LimitResult) -> str:
-    """Measured value as the report prints it (``—`` when none)."""
-    return "—" if lim.measured is None else format_eng(lim.measured, lim.unit)
+    """Measured value as the report prints it (``—`` when none; ``below -255.400 dB`` at
+    the numerical floor), with as many figures as tell it from the bounds."""
+    return lim.figures.measured
 
 
 def format_margin(lim: LimitResult) -> str:
-    """Signed margin as the report prints it: ``+0.429 dB`` inside, ``-1.2 dB`` outside."""
-    if lim.margin is None:
-        return "—"
-    return ("+" if lim.margin >= 0 else "") + format_eng(lim.margin, lim.unit)
+    """Signed margin as the report prints it: ``+0.429 dB`` inside, ``-1.200 dB``
+    outside, ``≥ +195.400 dB`` for a gain at the numerical floor."""
+    return lim.figures.margin
 
 
 def unit_of(key: str) -> str:
@@ -83,14 +84,18 @@ def unit_of(key: str) -> str:
     return ""
 
 
-def signed(value: float | None, unit: str) -> str:
-    """``+1.200 kHz`` / ``-0.5 dB``; ``—`` when missing, ``not measured`` for the stand-in."""
+def signed(value: float | None, unit: str, place: int | None = None) -> str:
+    """``+1.200 kHz`` / ``-0.500 dB``; ``—`` when missing, ``not measured`` for the
+    stand-in. A margin in dB or degrees to the decimal ``place`` of its row, if given.
+    """
     if value is None or not math.isfinite(value):
         return "—"
     if abs(value) > _ABSURD:
         return "not measured"
-    value = float(value) + 0.0  # no "-0"
-    return ("+" if value >= 0 else "") + format_eng(value, unit)
+    digits = None
+    if place is not None and unit in ("dB", "deg", "°"):
+        digits = digits_at(value, unit, place)
+    return signed_eng(value, unit, digits)
 
 
 def format_fraction(value: float | None) -> str:
@@ -113,8 +118,11 @@ def format_interval(ci: Any) -> str:
     return f"{format_fraction(ci[0])} – {format_fraction(ci[1])}"
 
 
-def format_range(lo: float | None, hi: float | None, unit: str) -> str:
-    """A range as the tolerance tables print it, the unit written once when shared.
+def format_range(lo: float | None, hi: float | None, unit: str,
+                 place: int | None = None) -> str:
+    """A range as the tolerance tables print it, the unit written once when shared; its
+    ends to the decimal ``place`` a table row chose (:func:`netcheck.units.tell_apart`),
+    or else with as many figures as tell them apart.
 
     Examples
     --------
@@ -122,13 +130,28 @@ def format_range(lo: float | None, hi: float | None, unit: str) -> str:
     ('39.00 … 41.00 kHz', '-25.700 … -24.900 dB')
     >>> format_range(999.0, 1.2e3, "Hz"), format_range(11.59, 12.46, "")
     ('999.0 Hz … 1.200 kHz', '11.59 … 12.46')
+    >>> format_range(9.99998e6, 10.00002e6, "Hz")
+    '9.99998 … 10.00002 MHz'
     """
     if lo is None or hi is None:
         return "—"
-    a, b = format_eng(lo, unit), format_eng(hi, unit)
+    if place is None:
+        place = tell_apart([lo, hi], unit)
+    a = format_eng(lo, unit, digits_at(lo, unit, place))
+    b = format_eng(hi, unit, digits_at(hi, unit, place))
     if " " in a and " " in b and a.split(" ", 1)[1] == b.split(" ", 1)[1]:
         return f"{a.split(' ', 1)[0]} … {b}"
     return f"{a} … {b}"
+
+
+def cell_text(text: str) -> str:
+    """A range or a pair of bounds for a narrow table cell: a line may break after ``…``
+    only, never inside a value (its own spaces become no-break spaces).
+
+    >>> cell_text("9.99998 MHz … 10.00002 MHz") == "9.99998\u00a0MHz\u00a0… 10.00002\u00a0MHz"
+    True
+    """
+    return "\u00a0… ".join(part.replace(" ", "\u00a0") for part in text.split(" … "))
 
 
 def coefficient(x: float | None) -> str:

@@ -121,13 +121,30 @@ def _hz_text(v: float) -> str:
 
 
 def hz_linear_axis(ax: Any, lo: float, hi: float) -> str:
-    """Linear frequency ticks in one SI prefix; returns the axis label."""
+    """Linear frequency ticks in one SI prefix; returns the axis label.
+
+    A window too narrow for its ticks to read apart in six significant digits (a
+    crystal's resonance: hundreds of Hz at 10 MHz) is labelled as offsets from a round
+    centre frequency named in the axis label, so that no two ticks read alike.
+    """
     from matplotlib.ticker import FuncFormatter, MaxNLocator
 
-    scale, prefix = si_scale(max(abs(lo), abs(hi)))
+    top = max(abs(lo), abs(hi))
+    scale, prefix = si_scale(top)
     ax.xaxis.set_major_locator(MaxNLocator(nbins=9, steps=[1, 2, 2.5, 5, 10]))
-    ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v / scale:g}"))
-    return f"Frequency ({prefix}Hz, linear scale)"
+    span = hi - lo
+    if not (span > 0 and top > 0) or span / 9.0 >= top * 2e-5:
+        ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v / scale:g}"))
+        return f"Frequency ({prefix}Hz, linear scale)"
+    q = 10.0 ** math.floor(math.log10(span))
+    centre = round(0.5 * (lo + hi) / q) * q
+    oscale, oprefix = si_scale(max(abs(lo - centre), abs(hi - centre)))
+    digits = max(0, math.ceil(-math.log10(q / scale) - 1e-9))
+    ax.xaxis.set_major_formatter(FuncFormatter(
+        lambda v, _: "0" if abs(v - centre) < 1e-6 * oscale
+        else f"{(v - centre) / oscale:+g}".replace("-", "−")))
+    return (f"Frequency offset from {centre / scale:.{digits}f} {prefix}Hz ({oprefix}Hz, "
+            "linear scale)")
 
 
 def frequency_axis(ax: Any, span: tuple[float, float], log: bool = False) -> str:

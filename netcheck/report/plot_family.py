@@ -5,14 +5,13 @@ from __future__ import annotations
 import math
 from typing import Any
 
-import numpy as np
 
 from ..result import SpecResult
 from ..units import format_si
 from .plot_base import (FONT_PT, PALETTE, Plot, Tag, figure_keys, frequency_axis, legend_above,
                         mark_zoom, new_figure, style_axes, to_svg)
-from .plot_gain import (GAIN_QUANTITIES, draw_mask, gain_label, gain_limits, tags_for,
-                        with_exact_points, zoom_window)
+from .plot_gain import (GAIN_QUANTITIES, draw_mask, drawn_gain, gain_label, gain_limits,
+                        tags_for, zoom_window)
 
 __all__ = ["VARIANT_STYLES", "variant_style", "family_plots"]
 
@@ -71,17 +70,16 @@ def _family_axes(ax: Any, members: list[SpecResult], ref: SpecResult, masks: dic
     peaks: dict[float, list[tuple[int, float, float]]] = {}
     for k, m in enumerate(members):
         dash, marker, colour, _ = variant_style(k)
-        f, g = with_exact_points(m, m.curves.frequency_hz, m.curves.gain_db)
+        f, g = drawn_gain(m)
         fp, gp = m.measurement("f_peak_hz"), m.measurement("peak_gain_db")
         if zoom and fp is not None and gp is not None and span[0] < fp < span[1] \
                 and ylim[0] < gp < ylim[1]:
             peaks.setdefault(round(math.log10(fp) / 0.004), []).append((k, fp, gp))
-        sel = (f >= span[0]) & (f <= span[1])
-        every = max(1, int(sel.sum()) // 9)
+        # markers evenly spaced along the drawn line (a share of the axes' diagonal), so
+        # that exact points crowded round a narrow feature do not crowd the markers too
         ax.plot(f, g, color=colour, linestyle=dash, linewidth=0.9 if thin else 1.25,
                 marker=marker or None, markersize=3.6, markerfacecolor="white",
-                markeredgewidth=0.8, markevery=(int(np.argmax(sel)) + (k * every) // 3 % every,
-                                               every) if marker else None,
+                markeredgewidth=0.8, markevery=(0.1 * (k % 3) / 3.0, 0.1) if marker else None,
                 zorder=5 + 0.01 * k, label=f"V{k + 1}")
     box = {"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": "none", "alpha": 0.85}
     for group in peaks.values():
@@ -147,8 +145,9 @@ def family_plots(members: list[SpecResult]) -> tuple[Plot, ...]:
             title = "Pass-bands and resonances of every variant in detail"
             caption = (f"The same curves from {format_si(span[0], 'Hz', 5)} to "
                        f"{format_si(span[1], 'Hz', 5)}, spanning every variant's pass-band "
-                       "or half-power edges, each drawn through the sweep grid and its own "
-                       "refined peak and edges; each peak is tagged with its variant.")
+                       "or half-power edges, each drawn through the sweep grid, the exact points "
+                       "its result carries off the grid and its own refined peak and edges; "
+                       "each peak is tagged with its variant.")
         if any(b.quantity == "gain_re_peak_db" for b in ref.mask):
             caption += (" Bounds relative to the peak are drawn on the peak of V1; each "
                         "variant is judged against its own peak.")

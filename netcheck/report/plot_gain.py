@@ -17,12 +17,17 @@ import numpy as np
 from ..result import LimitResult, MaskBand, SpecResult, Status
 from ..units import format_eng, format_si
 from .plot_base import FONT_PT, PALETTE, Tag
+from .plot_points import curve_points
 
-__all__ = ["GAIN_QUANTITIES", "HALF_POWER_DB", "tags_for", "zoom_window", "gain_limits",
-           "draw_mask", "fail_points", "with_exact_points", "gain_label"]
+__all__ = ["GAIN_QUANTITIES", "HALF_POWER_DB", "tags_for", "zoom_window", "zoom_is_resonance",
+           "gain_limits", "draw_mask", "fail_points", "with_exact_points", "drawn_gain",
+           "gain_label"]
 
 #: mask quantities drawn on the gain axis
 GAIN_QUANTITIES = ("gain_db", "gain_re_peak_db")
+#: mask quantities that mark a pass-band for the zoom without drawing a region: a band
+#: whose gain is judged against itself (ripple), when a limit reports one
+PASS_QUANTITIES = ("ripple_db",)
 #: the half-power level below the peak, dB: 10·log10(2)
 HALF_POWER_DB = 10.0 * math.log10(2.0)
 #: unit of a limit → the curve (Curves attribute) its worst point lies on
@@ -84,32 +89,75 @@ def tags_for(spec: SpecResult) -> tuple[dict[int, Tag], dict[int, Tag]]:
     return masks, fails
 
 
-def zoom_window(spec: SpecResult) -> tuple[float, float] | None:
-    """Frequency span (Hz) of the pass-band / resonance zoom, or None when there is none.
+def _resonance_window(spec: SpecResult, f: np.ndarray) -> tuple[float, float] | None:
+    """The half-power edges widened by 1.2 bandwidths each side, when they were measured."""
+    f_lo, f_hi = spec.measurement("f_low_hz"), spec.measurement("f_high_hz")
+    if f_lo is None or f_hi is None or not 0 < f_lo < f_hi:
+        return None
+    bw = f_hi - f_lo
+    return max(f[0], f_lo - 1.2 * bw), min(f[-1], f_hi + 1.2 * bw)
 
-    With half-power edges measured: the edges widened by 1.2 bandwidths each side.
-    Otherwise the union of the gain mask bands that set a minimum (pass-bands),
-    widened by 8 % of its width in log frequency.
-    """
+
+def _pass_window(spec: SpecResult, f: np.ndarray) -> tuple[float, float] | None:
+    """The union of the pass-bands (gain bands that set a minimum, ripple bands), widened
+    by 8 % of its width in log frequency."""
+    bands = [b for b in spec.mask if (b.quantity in GAIN_QUANTITIES and b.lo is not None)
+             or b.quantity in PASS_QUANTITIES]
+    if not bands:
+        return None
+    blo, bhi = min(b.f_lo_hz for b in bands), max(b.f_hi_hz for b in bands)
+    if not (0 < blo < bhi):
+        return None
+    pad = 0.08 * math.log10(bhi / blo) + 0.01
+    return max(f[0], blo / 10 ** pad), min(f[-1], bhi * 10 ** pad)
+
+
+def _zoom(spec: SpecResult) -> tuple[tuple[float, float], bool] | None:
+    """(span, whether it shows the resonance) of the zoom, or None (see :func:`zoom_window`)."""
     f = spec.curves.frequency_hz if spec.curves is not None else None
     if f is None or f.size < 2:
         return None
-    f_lo, f_hi = spec.measurement("f_low_hz"), spec.measurement("f_high_hz")
-    if f_lo is not None and f_hi is not None and 0 < f_lo < f_hi:
-        bw = f_hi - f_lo
-        lo, hi = max(f[0], f_lo - 1.2 * bw), min(f[-1], f_hi + 1.2 * bw)
+    res, band = _resonance_window(spec, f), _pass_window(spec, f)
+    if band is None:
+        win = res
+    elif res is None or res[1] < band[0] or res[0] > band[1]:
+        win = band
     else:
-        bands = [b for b in spec.mask if b.quantity in GAIN_QUANTITIES and b.lo is not None]
-        if not bands:
-            return None
-        blo, bhi = min(b.f_lo_hz for b in bands), max(b.f_hi_hz for b in bands)
-        if not (0 < blo < bhi):
-            return None
-        pad = 0.08 * math.log10(bhi / blo) + 0.01
-        lo, hi = max(f[0], blo / 10 ** pad), min(f[-1], bhi * 10 ** pad)
+        win = (min(res[0], band[0]), max(res[1], band[1]))
+    if win is None:
+        return None
+    lo, hi = float(win[0]), float(win[1])
     if not hi > lo or (lo <= f[0] and hi >= f[-1]):
         return None
-    return float(lo), float(hi)
+    resonant = (res is not None and res[0] >= lo and res[1] <= hi
+                and res[1] - res[0] >= 0.1 * (hi - lo))
+    return (lo, hi), resonant
+
+
+def zoom_window(spec: SpecResult) -> tuple[float, float] | None:
+    """Frequency span (Hz) of the pass-band / resonance zoom, or None when there is none.
+
+    The band that matters: the pass-bands (the gain mask bands that set a minimum, and
+    ripple bands), widened by 8 % of their width in log frequency; with half-power edges
+    measured, the edges widened by 1.2 bandwidths each side as well, when that window
+    meets the pass-bands (a narrow peak elsewhere does not take the zoom from them).
+    """
+    z = _zoom(spec)
+    return None if z is None else z[0]
+
+
+def zoom_is_resonance(spec: SpecResult) -> bool:
+    """Whether the zoom shows the resonance (its half-power edges, at a readable width)
+    rather than the pass-bands only: it is then annotated with the edges, bandwidth and Q."""
+    z = _zoom(spec)
+    return z is not None and z[1]
+
+
+def drawn_gain(spec: SpecResult) -> tuple[np.ndarray, np.ndarray]:
+    """(frequency Hz, gain dB) drawn for ``spec``: the sweep grid, the exact detail points
+    the result carries (:func:`~netcheck.report.plot_points.curve_points`) and the refined
+    peak and half-power edges (:func:`with_exact_points`)."""
+    return with_exact_points(spec, *curve_points(spec.curves, "gain_db"))
 
 
 def gain_limits(spec: SpecResult, lo_hz: float, hi_hz: float, zoom: bool) -> tuple[float, float]:
@@ -118,19 +166,19 @@ def gain_limits(spec: SpecResult, lo_hz: float, hi_hz: float, zoom: bool) -> tup
     Whole sweep: the curve (down to 120 dB below its top) and every mask bound.
     Resonance zoom: the peak down to 12 dB below it. Pass-band zoom: the pass-band
     bounds and the curve inside the pass-bands only, so that flatness is readable.
+    The curve is the drawn one (:func:`drawn_gain`), detail points included.
     """
-    c = spec.curves
-    f = c.frequency_hz
-    ok = np.isfinite(c.gain_db)
+    f, gain = drawn_gain(spec)
+    ok = np.isfinite(gain)
     sel = (f >= lo_hz) & (f <= hi_hz) & ok
-    g = c.gain_db[sel]
+    g = gain[sel]
     if g.size == 0:
         return -60.0, 10.0
     peak = spec.measurement("peak_gain_db")
     bands = [(b, _offset(b, spec)) for b in spec.mask if b.quantity in GAIN_QUANTITIES
              and b.f_hi_hz >= lo_hz and b.f_lo_hz <= hi_hz]
     bands = [(b, off) for b, off in bands if off is not None]
-    resonant = spec.measurement("f_low_hz") is not None
+    resonant = zoom and zoom_is_resonance(spec)
     if not zoom:
         top = float(g.max())
         values = [top, max(float(g.min()), top - 120.0)]
@@ -144,7 +192,7 @@ def gain_limits(spec: SpecResult, lo_hz: float, hi_hz: float, zoom: bool) -> tup
             if b.lo is not None:
                 inside = (f >= b.f_lo_hz) & (f <= b.f_hi_hz) & ok
                 if inside.any():
-                    values += [float(c.gain_db[inside].min()), float(c.gain_db[inside].max())]
+                    values += [float(gain[inside].min()), float(gain[inside].max())]
         values = values or [float(g.max()), float(g.min())]
     for b, off in bands:
         if zoom and not resonant and b.lo is None:
@@ -225,8 +273,6 @@ def fail_points(ax: Any, spec: SpecResult, fails: dict[int, Tag], curve: str, sc
     Q, impedance) get a wedge on the top edge at at_hz: where, not a value. Tags of
     points that coincide share one label.
     """
-    c = spec.curves
-    f = c.frequency_hz
     ylo, yhi = ax.get_ylim()
     offsets = {b.label: _offset(b, spec) for b in spec.mask if b.quantity in GAIN_QUANTITIES}
     groups: dict[tuple[str, float, float], list[tuple[Tag, LimitResult]]] = {}
@@ -240,7 +286,8 @@ def fail_points(ax: Any, spec: SpecResult, fails: dict[int, Tag], curve: str, sc
             if lim.name in masked and offsets.get(lim.name) is not None:
                 y = (lim.measured + offsets[lim.name]) / scale
             else:
-                y = float(np.interp(np.log(lim.at_hz), np.log(f), getattr(c, curve))) / scale
+                f, values = curve_points(spec.curves, curve)
+                y = float(np.interp(np.log(lim.at_hz), np.log(f), values)) / scale
             if not math.isfinite(y):
                 continue
             where = ("point", round(math.log10(lim.at_hz), 4),

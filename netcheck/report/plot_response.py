@@ -11,11 +11,12 @@ from ..result import SpecResult
 from ..units import format_eng, format_si
 from .plot_base import (FONT_PT, PALETTE, Plot, Tag, figure_keys, frequency_axis, legend_above,
                         mark_zoom, new_figure, si_scale, style_axes, to_svg)
-from .plot_gain import (GAIN_QUANTITIES, HALF_POWER_DB, draw_mask, fail_points, gain_label,
-                        gain_limits, tags_for, with_exact_points, zoom_window)
+from .plot_gain import (GAIN_QUANTITIES, HALF_POWER_DB, draw_mask, drawn_gain, fail_points,
+                        gain_label, gain_limits, tags_for, zoom_is_resonance, zoom_window)
+from .plot_points import curve_points
 from .plot_tolerance import draw_envelope, envelope_caption, has_envelope
 
-__all__ = ["spec_plots"]
+__all__ = ["spec_plots", "spec_figures"]
 
 
 #: limit kinds → (Curves attribute, mask quantity, axis label, unit) of extra panels
@@ -34,8 +35,7 @@ def _extra_panels(spec: SpecResult) -> list[str]:
 def _gain_axes(ax: Any, spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
                span: tuple[float, float], zoom: bool, drawn: list[Tag],
                skip: tuple[float, float] | None = None) -> None:
-    c = spec.curves
-    f, g = with_exact_points(spec, c.frequency_hz, c.gain_db)
+    f, g = drawn_gain(spec)
     ylim = gain_limits(spec, *span, zoom)
     ax.set_xlim(*span)
     ax.set_ylim(*ylim)
@@ -47,18 +47,32 @@ def _gain_axes(ax: Any, spec: SpecResult, masks: dict[int, Tag], fails: dict[int
     ax.set_ylabel(gain_label(spec), fontsize=FONT_PT + 0.5, color=PALETTE["ink"])
 
 
+def _digits(f_hz: float, resolution_hz: float | None) -> int:
+    """Significant digits that show ``f_hz`` to ``resolution_hz`` (at least 5): a crystal's
+    edges 230 Hz apart at 10 MHz read 9.999884 MHz and 10.00012 MHz, not both 10.000 MHz."""
+    if resolution_hz is None or not resolution_hz > 0 or not f_hz > 0:
+        return 5
+    return max(5, min(12, math.ceil(math.log10(f_hz / resolution_hz)) + 2))
+
+
+def _q_text(q: float) -> str:
+    """Q to four significant digits, without an exponent (``Q 43330``, ``Q 12.02``)."""
+    return f"{q:.4g}" if abs(q) < 1e4 else f"{float(f'{q:.4g}'):.0f}"
+
+
 def _annotate_resonance(ax: Any, spec: SpecResult) -> None:
     """Half-power level, edges, centre, bandwidth and Q on the zoom."""
     peak_f, peak_g = spec.measurement("f_peak_hz"), spec.measurement("peak_gain_db")
     f_lo, f_hi = spec.measurement("f_low_hz"), spec.measurement("f_high_hz")
     f_c, q, bw = (spec.measurement(k) for k in ("f_center_hz", "q", "bandwidth_hz"))
+    digits = _digits(peak_f or f_c or 0.0, bw)
     guide = PALETTE["guide"]
     kw = {"fontsize": FONT_PT, "color": guide, "zorder": 9}
     box = {"boxstyle": "round,pad=0.2", "facecolor": "white", "edgecolor": "none", "alpha": 0.85}
     if peak_f is not None and peak_g is not None:
         ax.plot([peak_f], [peak_g], marker="o", markersize=4.5, color=PALETTE["ink"],
                 markerfacecolor="white", markeredgewidth=1.0, zorder=8, linestyle="none")
-        ax.annotate(f"peak {format_eng(peak_g, 'dB')} at {format_si(peak_f, 'Hz', 5)}",
+        ax.annotate(f"peak {format_eng(peak_g, 'dB')} at {format_si(peak_f, 'Hz', digits)}",
                     (peak_f, peak_g), xytext=(48, -14), textcoords="offset points",
                     fontsize=FONT_PT, color=PALETTE["ink"], zorder=9, bbox=box, va="center",
                     arrowprops={"arrowstyle": "-", "color": PALETTE["ink"], "linewidth": 0.6,
@@ -77,25 +91,26 @@ def _annotate_resonance(ax: Any, spec: SpecResult) -> None:
                 zorder=4)
         ax.plot([fx], [level], marker="D", markersize=3.5, color=guide, zorder=8,
                 linestyle="none")
-        ax.annotate(f"{name}\n{format_si(fx, 'Hz', 5)}", (fx, ymin), xytext=(-3 if ha == "right"
-                    else 3, 4), textcoords="offset points", ha=ha, va="bottom", bbox=box, **kw)
+        ax.annotate(f"{name}\n{format_si(fx, 'Hz', digits)}", (fx, ymin),
+                    xytext=(-3 if ha == "right" else 3, 4), textcoords="offset points", ha=ha,
+                    va="bottom", bbox=box, **kw)
     y_arrow = level - 0.35 * (level - ymin)
     ax.annotate("", (f_lo, y_arrow), (f_hi, y_arrow),
                 arrowprops={"arrowstyle": "<->", "color": guide, "linewidth": 0.8,
                             "shrinkA": 0, "shrinkB": 0}, zorder=8)
     parts = [f"bandwidth {format_si(bw, 'Hz', 4)}" if bw is not None else "",
-             f"Q {q:.4g}" if q is not None else ""]
+             f"Q {_q_text(q)}" if q is not None else ""]
     ax.annotate("  ·  ".join(p for p in parts if p), (math.sqrt(f_lo * f_hi), y_arrow),
                 xytext=(0, 3), textcoords="offset points", ha="center", va="bottom",
                 bbox=box, **kw)
     if f_c is not None:
         ax.axvline(f_c, color=guide, linewidth=0.7, linestyle=(0, (6, 2, 1, 2)), zorder=4)
-        ax.annotate(f"f_center\n{format_si(f_c, 'Hz', 5)}", (f_c, ymin), xytext=(0, 4),
+        ax.annotate(f"f_center\n{format_si(f_c, 'Hz', digits)}", (f_c, ymin), xytext=(0, 4),
                     textcoords="offset points", ha="center", va="bottom", bbox=box, **kw)
 
 
 def _gain_overview(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
-                   zoom: tuple[float, float] | None, drawn: list[Tag]) -> str:
+                   zoom: tuple[float, float] | None, drawn: list[Tag]) -> Any:
     legend = has_envelope(spec)
     fig = new_figure(2.75 if legend else 2.6)
     ax = fig.add_axes((0.08, 0.15, 0.885, 0.75) if legend else (0.08, 0.16, 0.885, 0.79))
@@ -109,11 +124,11 @@ def _gain_overview(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag
     if zoom is not None:
         mark_zoom(ax, zoom)
     ax.set_xlabel(label, fontsize=FONT_PT + 0.5, color=PALETTE["ink"])
-    return to_svg(fig)
+    return fig
 
 
 def _gain_zoom(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
-               zoom: tuple[float, float], drawn: list[Tag]) -> str:
+               zoom: tuple[float, float], drawn: list[Tag]) -> Any:
     legend = has_envelope(spec)
     fig = new_figure(2.95 if legend else 2.8)
     ax = fig.add_axes((0.08, 0.145, 0.885, 0.765) if legend else (0.08, 0.155, 0.885, 0.795))
@@ -122,10 +137,10 @@ def _gain_zoom(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
     _gain_axes(ax, spec, masks, fails, zoom, True, drawn)
     if legend:
         legend_above(ax)
-    if spec.measurement("f_low_hz") is not None:
+    if zoom_is_resonance(spec):
         _annotate_resonance(ax, spec)
     ax.set_xlabel(label, fontsize=FONT_PT + 0.5, color=PALETTE["ink"])
-    return to_svg(fig)
+    return fig
 
 
 def _panel_span(spec: SpecResult, quantity: str,
@@ -142,10 +157,9 @@ def _panel_span(spec: SpecResult, quantity: str,
 
 
 def _phase_delay(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
-                 zoom: tuple[float, float] | None, drawn: list[Tag]) -> str:
+                 zoom: tuple[float, float] | None, drawn: list[Tag]) -> Any:
     kinds = _extra_panels(spec)
     fig = new_figure(1.65 * len(kinds) + 0.45)
-    c = spec.curves
     n = len(kinds)
     bottom_margin, top_margin = 0.42 / fig.get_figheight(), 0.08 / fig.get_figheight()
     h = (1.0 - bottom_margin - top_margin) / n
@@ -155,8 +169,8 @@ def _phase_delay(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
         ax = fig.add_axes((0.08, 1.0 - top_margin - (k + 1) * h + 0.06 * h, 0.885, h * 0.86))
         style_axes(ax)
         xlabel = frequency_axis(ax, span)
-        y = getattr(c, curve)
-        sel = (c.frequency_hz >= span[0]) & (c.frequency_hz <= span[1]) & np.isfinite(y)
+        fy, y = curve_points(spec.curves, curve)
+        sel = (fy >= span[0]) & (fy <= span[1]) & np.isfinite(y)
         scale, prefix = (1.0, "") if unit == "deg" else si_scale(
             float(np.nanmax(np.abs(y[sel]))) if sel.any() else 1.0)
         vals = list(y[sel] / scale)
@@ -169,50 +183,62 @@ def _phase_delay(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
         ax.set_xlim(*span)
         ax.set_ylim(*ylim)
         draw_mask(ax, spec, masks, (quantity,), scale, ylim, span, drawn)
-        ax.plot(c.frequency_hz, y / scale, color=PALETTE["ink"], linewidth=1.2, zorder=5)
+        ax.plot(fy, y / scale, color=PALETTE["ink"], linewidth=1.2, zorder=5)
         fail_points(ax, spec, fails, curve, scale, span, {spec.mask[i].label for i in masks},
                     drawn)
         ax.set_ylabel(f"{label} ({prefix}{unit})", fontsize=FONT_PT + 0.5, color=PALETTE["ink"])
         if k == n - 1:
             ax.set_xlabel(xlabel, fontsize=FONT_PT + 0.5, color=PALETTE["ink"])
-    return to_svg(fig)
+    return fig
 
 
-def spec_plots(spec: SpecResult) -> tuple[Plot, ...]:
-    """The report's figures for one spec (empty when the spec has no curves)."""
+def _figures(spec: SpecResult) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
+    """(title, caption, matplotlib Figure, key) of each of the report's figures for ``spec``."""
     if spec.curves is None or spec.curves.frequency_hz.size < 2:
-        return ()
+        return []
     masks, fails = tags_for(spec)
     zoom = zoom_window(spec)
     f = spec.curves.frequency_hz
     envelope = envelope_caption(spec)
     drawn: list[Tag] = []
-    svg = _gain_overview(spec, masks, fails, zoom, drawn)
-    plots = [Plot("Gain over the whole sweep",
-                  f"Gain in dB against frequency, {format_si(float(f[0]), 'Hz')} to "
-                  f"{format_si(float(f[-1]), 'Hz')}, with the spec mask: allowed regions are "
-                  "tinted, forbidden regions hatched (cross-hatched where the limit failed)."
-                  + (" The dashed box marks the zoom below; what lies inside it is tagged "
-                     "there." if zoom else "") + envelope,
-                  svg, figure_keys(drawn))]
+    fig = _gain_overview(spec, masks, fails, zoom, drawn)
+    out = [("Gain over the whole sweep",
+            f"Gain in dB against frequency, {format_si(float(f[0]), 'Hz')} to "
+            f"{format_si(float(f[-1]), 'Hz')}, with the spec mask: allowed regions are "
+            "tinted, forbidden regions hatched (cross-hatched where the limit failed)."
+            + (" The dashed box marks the zoom below; what lies inside it is tagged "
+               "there." if zoom else "") + envelope,
+            fig, figure_keys(drawn))]
     if zoom is not None:
-        resonant = spec.measurement("f_low_hz") is not None
+        resonant = zoom_is_resonance(spec)
         drawn = []
-        svg = _gain_zoom(spec, masks, fails, zoom, drawn)
-        plots.append(Plot(
+        fig = _gain_zoom(spec, masks, fails, zoom, drawn)
+        digits = _digits(zoom[1], zoom[1] - zoom[0])
+        out.append((
             "Pass-band and resonance in detail" if resonant else "Pass-band in detail",
-            f"Gain from {format_si(zoom[0], 'Hz', 5)} to {format_si(zoom[1], 'Hz', 5)}"
-            + (", with the half-power level (peak − 3.01 dB, |H_peak|/√2), the half-power edges "
-               "f_low and f_high, the centre f_center = √(f_low·f_high), the bandwidth and Q."
-               if resonant else ".") + envelope,
-            svg, figure_keys(drawn)))
+            f"Gain from {format_si(zoom[0], 'Hz', digits)} to {format_si(zoom[1], 'Hz', digits)}"
+            + (", with the half-power level (peak − 3.01 dB, |H_peak|/√2), the half-power "
+               "edges f_low and f_high, the centre f_center = √(f_low·f_high), the bandwidth "
+               "and Q." if resonant else ".") + envelope,
+            fig, figure_keys(drawn)))
     panels = _extra_panels(spec)
     if panels:
         names = " and ".join(_PANELS[k][2].lower() for k in panels)
         drawn = []
-        svg = _phase_delay(spec, masks, fails, zoom, drawn)
-        plots.append(Plot(names[0].upper() + names[1:],
-                          f"{names[0].upper()}{names[1:]} against frequency, for the limits on "
-                          "them (their bounds and margins are in the summary table).",
-                          svg, figure_keys(drawn)))
-    return tuple(plots)
+        fig = _phase_delay(spec, masks, fails, zoom, drawn)
+        out.append((names[0].upper() + names[1:],
+                    f"{names[0].upper()}{names[1:]} against frequency, for the limits on "
+                    "them (their bounds and margins are in the summary table).",
+                    fig, figure_keys(drawn)))
+    return out
+
+
+def spec_figures(spec: SpecResult) -> tuple[tuple[str, Any], ...]:
+    """(title, matplotlib Figure) of each figure :func:`spec_plots` draws, for inspection."""
+    return tuple((title, fig) for title, _, fig, _ in _figures(spec))
+
+
+def spec_plots(spec: SpecResult) -> tuple[Plot, ...]:
+    """The report's figures for one spec (empty when the spec has no curves)."""
+    return tuple(Plot(title, caption, to_svg(fig), keys)
+                 for title, caption, fig, keys in _figures(spec))

@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from ..result import SpecResult, Status
-from ..units import format_eng, format_si
+from ..units import digits_at, format_eng, format_si, tell_apart
 from .formatting import caution_view, display_path, signed, status_view
 from .lookup import analysis_block
 
@@ -25,10 +25,12 @@ def _stress_cells(e: dict[str, Any]) -> dict[str, Any]:
     q = str(e.get("quantity", ""))
     unit = _stress_unit(e)
     peak, rating = e.get("peak"), e.get("rating")
+    place = tell_apart([peak, rating], unit)  # a peak just under its rating reads so
     return {
         "part": e.get("part", "?"), "quantity": _STRESS_QUANTITY.get(q, q),
-        "peak": "—" if peak is None else format_eng(peak, unit),
-        "rating": "—" if rating is None else format_eng(rating, unit),
+        "peak": "—" if peak is None else format_eng(peak, unit, digits_at(peak, unit, place)),
+        "rating": "—" if rating is None else format_eng(rating, unit,
+                                                        digits_at(rating, unit, place)),
         "margin": signed(e.get("margin"), unit),
         "used": f"{100.0 * peak / rating:.0f} %" if peak is not None and rating else "—",
         "at": "—" if e.get("at_hz") is None else format_si(e["at_hz"], "Hz", 5),

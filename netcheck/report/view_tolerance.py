@@ -5,9 +5,9 @@ from __future__ import annotations
 from typing import Any
 
 from ..result import LimitResult, SpecResult, Status
-from ..units import format_eng
+from ..units import digits_at, format_eng, tell_apart
 from ..worstcase import MAX_CORNER_PARTS
-from .formatting import (MEASUREMENTS, caution_view, coefficient, format_fraction,
+from .formatting import (MEASUREMENTS, caution_view, cell_text, coefficient, format_fraction,
                          format_interval, format_margin, format_range, signed, status_view,
                          tolerance_text, unit_of)
 from .lookup import analysis_block, nominal_limits
@@ -54,10 +54,15 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
     nominal_values = {p["part"]: p["nominal"] for p in mc.get("parts", ())}
     limits, samples = [], {}
     units = {lim.name: lim.unit for lim in s.limits}  # stress rows too
+    by_name = {lim.name: lim for lim in s.limits}
     for e in mc.get("limits", ()):
         unit = units.get(e["name"], "")
         worst = e.get("worst_sample")
         measured_in = e.get("measured_in")
+        bounds = by_name.get(e["name"])
+        # the worst sample's value with as many figures as tell it from the bounds
+        place = tell_apart([e.get("worst_measured")] + (
+            [bounds.lower, bounds.upper] if bounds is not None else []), unit)
         limits.append({
             "name": e["name"], "yield": format_fraction(e.get("yield")),
             "measured_in": "—" if measured_in is None else f"{measured_in} of {n}",
@@ -67,7 +72,7 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
             "p99": signed(e.get("margin_p99"), unit),
             "worst": "—" if worst is None else f"#{worst}",
             "worst_measured": "—" if e.get("worst_measured") is None else
-            format_eng(e["worst_measured"], unit),
+            format_eng(e["worst_measured"], unit, digits_at(e["worst_measured"], unit, place)),
             "all_inside": e.get("yield") == 1.0})
         if worst is not None:
             entry = samples.setdefault(worst, {"sample": worst, "limits": [],
@@ -107,7 +112,7 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
         spread.append(_spread_row(
             MEASUREMENTS.get(key, (key, ""))[0], st, unit, n,
             "—" if nominal_value is None else format_eng(nominal_value, unit),
-            format_range(w.get("min"), w.get("max"), unit), key == same))
+            _range_cell(w.get("min"), w.get("max"), unit), key == same))
     if hist.get("stats") and same is None:
         # the histogram's quantity is no key figure: its own row, over the same samples
         lim = nominal.get(hist.get("name", ""))
@@ -145,8 +150,8 @@ def _spread_row(label: str, st: dict[str, Any], unit: str, samples: int, nominal
     return {"label": label, "nominal": nominal,
             "mean": "—" if dash else format_eng(st["mean"], unit),
             "std": "—" if dash else format_eng(st["std"], unit),
-            "p": format_range(st.get("p01"), st.get("p99"), unit),
-            "minmax": format_range(st.get("min"), st.get("max"), unit), "eva": eva,
+            "p": _range_cell(st.get("p01"), st.get("p99"), unit),
+            "minmax": _range_cell(st.get("min"), st.get("max"), unit), "eva": eva,
             "n": f"{count} of {total}", "partial": count < total,
             "in_histogram": in_histogram}
 
@@ -167,24 +172,33 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
         margin = final.margin if final is not None else min(
             [v for v in (e.get("margin"), e.get("corners_margin")) if v is not None],
             default=None)
+        # the row to the decimal place that tells the bounds, the nominal value and the
+        # worst case that decides apart (a narrow window reads 9.99998 … 10.00002 MHz,
+        # not 10.00 … 10.00 MHz)
+        worst = [e.get("worst_min", e.get("min")), e.get("worst_max", e.get("max"))]
+        place = tell_apart([e.get("measured_nominal")] + worst
+                           + ([lim.lower, lim.upper] if lim is not None else []), unit)
+        allowed = "—" if lim is None else _bound_text(lim.lower, lim.upper, unit, place)
+        cell = (lambda t: t) if place is None else cell_text  # long ones break after "…"
         rows.append({
-            "name": e["name"], "nominal": format_eng(e["measured_nominal"], unit),
-            "eva": format_range(e.get("min"), e.get("max"), unit),
-            "rss": format_range(e.get("rss_min"), e.get("rss_max"), unit),
-            "corners": format_range(e.get("corners_min"), e.get("corners_max"), unit)
+            "name": e["name"], "nominal": _at(e["measured_nominal"], unit, place),
+            "eva": cell(format_range(e.get("min"), e.get("max"), unit, place)),
+            "rss": cell(format_range(e.get("rss_min"), e.get("rss_max"), unit, place)),
+            "corners": cell(format_range(e.get("corners_min"), e.get("corners_max"), unit,
+                                         place)) if has_corners else "—",
+            "allowed": cell(allowed),
+            "eva_margin": signed(e.get("margin"), unit, place),
+            "corners_margin": signed(e.get("corners_margin"), unit, place)
             if has_corners else "—",
-            "allowed": lim.bound_text if lim is not None else "—",
-            "eva_margin": signed(e.get("margin"), unit),
-            "corners_margin": signed(e.get("corners_margin"), unit) if has_corners else "—",
-            "margin": signed(margin, unit), "decided": _DECIDED.get(e.get("decided_by"), ""),
-            **status_view(status)})
+            "margin": signed(margin, unit, place),
+            "decided": _DECIDED.get(e.get("decided_by"), ""), **status_view(status)})
         if not has_corners:
             continue
         eva_m, cor_m = e.get("margin"), e.get("corners_margin")
-        head = (f"EVA gives {format_range(e.get('min'), e.get('max'), unit)} (margin "
-                f"{signed(eva_m, unit)}); the corners give "
-                f"{format_range(e.get('corners_min'), e.get('corners_max'), unit)} (margin "
-                f"{signed(cor_m, unit)}).")
+        head = (f"EVA gives {format_range(e.get('min'), e.get('max'), unit, place)} (margin "
+                f"{signed(eva_m, unit, place)}); the corners give "
+                f"{format_range(e.get('corners_min'), e.get('corners_max'), unit, place)} "
+                f"(margin {signed(cor_m, unit, place)}).")
         text = head + " " + _eva_versus_corners(e, unit)
         differences.append({"name": e["name"], "text": text, "differs": bool(e.get("eva_differs"))})
     sens = []
@@ -221,6 +235,27 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
                            "also evaluated" if corners else
                            f"corners were not evaluated (more than "
                            f"{wc.get('corner_cap', MAX_CORNER_PARTS)} toleranced parts)"}
+
+
+def _range_cell(lo: float | None, hi: float | None, unit: str) -> str:
+    """A range for a narrow cell; one that needed more figures breaks after ``…`` only."""
+    text = format_range(lo, hi, unit)
+    return text if lo is None or hi is None or tell_apart([lo, hi], unit) is None \
+        else cell_text(text)
+
+
+def _at(value: float | None, unit: str, place: int | None) -> str:
+    """``value`` printed to the decimal ``place`` of its row (``—`` when missing)."""
+    return "—" if value is None else format_eng(value, unit, digits_at(value, unit, place))
+
+
+def _bound_text(lo: float | None, hi: float | None, unit: str, place: int | None) -> str:
+    """Bounds as :attr:`LimitResult.bound_text` prints them, to the row's decimal place."""
+    if lo is not None and hi is not None:
+        return f"{_at(lo, unit, place)} … {_at(hi, unit, place)}"
+    if lo is not None:
+        return f"≥ {_at(lo, unit, place)}"
+    return "—" if hi is None else f"≤ {_at(hi, unit, place)}"
 
 
 def _eva_versus_corners(e: dict[str, Any], unit: str) -> str:

@@ -95,7 +95,7 @@ class TestStructure:
     def test_failure_message_and_body(self):
         rx = suites(junit(sample_result()))[3]
         failure = rx.find("testcase[@name='ripple']/failure")
-        expected = "measured 1.300 dB, limit ≤ 1.000 dB, margin -0.300 dB at 41.25 kHz"
+        expected = "measured 1.300 dB, limit ≤ 1.000 dB, margin -0.300 dB at 41.250 kHz"
         assert failure.get("message") == expected
         assert failure.text.splitlines() == [
             expected, "peak of the upper section exceeds the allowance"]

@@ -96,7 +96,7 @@ class TestSpecTables:
         rx = section(markdown(sample_result()), "### ERROR: RX-40k")
         rows = {cells(line)[1]: cells(line) for line in rx if line.startswith("| ")}
         assert rows["ripple"] == ["FAIL", "ripple", "1.300 dB", "≤ 1.000 dB", "-0.300 dB",
-                                  "41.25 kHz"]
+                                  "41.250 kHz"]
         assert rows["group delay"] == ["ERROR", "group delay", "—", "≤ 200.0 µs", "—", "—"]
         assert rows["input impedance"][2:5] == ["9.870 kΩ", "≥ 4.700 kΩ", "+5.170 kΩ"]
 
@@ -132,8 +132,8 @@ class TestFamilyMatrix:
         rows = [cells(line) for line in fam if line.startswith("| ")]
         assert rows == [
             ["Variant", "Verdict", "notch depth", "pass-band flatness", "centre", "q"],
-            ["50hz", "PASS", "PASS +6.200 dB", "PASS +0.420 dB", "PASS +1.300 Hz", "PASS +2.1"],
-            ["60hz", "FAIL", "FAIL -1.300 dB", "PASS +0.420 dB", "PASS +1.100 Hz", "PASS +1.9"],
+            ["50hz", "PASS", "PASS +6.200 dB", "PASS +0.420 dB", "PASS +1.300 Hz", "PASS +2.100"],
+            ["60hz", "FAIL", "FAIL -1.300 dB", "PASS +0.420 dB", "PASS +1.100 Hz", "PASS +1.900"],
             ["60hz-economy", "PASS", "PASS +1.050 dB", "PASS +0.420 dB", "PASS +1.100 Hz",
              "SKIP"],
         ]

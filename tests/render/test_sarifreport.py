@@ -121,7 +121,7 @@ class TestResults:
             "region": {"startLine": 11}}}]
         text = ripple["message"]["text"]
         assert "limit 'ripple' is not met: measured 1.300 dB, limit ≤ 1.000 dB, " \
-               "margin -0.300 dB at 41.25 kHz." in text
+               "margin -0.300 dB at 41.250 kHz." in text
         assert ripple["properties"]["margin"] == -0.3
         assert ripple["properties"]["measured"] == 1.3
 

@@ -69,7 +69,7 @@ class TestTags:
         assert [t.tag for t in masks.values()] == ["M1"]
         assert masks[0].name == "pass" and masks[0].status is Status.PASS
         assert [(i, t.tag, t.name) for i, t in fails.items()] == [(1, "F1", "Q")]
-        assert "worst value 0.4 at 1.0000 kHz" in fails[1].text
+        assert "worst value 0.4000 at 1.0000 kHz" in fails[1].text
 
 
 class TestFigures:
