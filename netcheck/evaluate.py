@@ -250,7 +250,7 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None) -> SpecRe
                   ("source", system.source), ("output", list(spec.output)),
                   ("stimulus_unit", "V" if src.letter == "V" else "A"))
     curves = Curves(grid, response.magnitude_db, response.phase_deg, response.group_delay_s,
-                    *envelope)
+                    *envelope, **_detail(response, grid, curve, measurements, limits))
     status = worst_status(r.status for r in limits)
     return SpecResult(
         spec=spec.path, netlist=spec.netlist, title=spec.title or circuit.title or spec.path,
@@ -313,6 +313,22 @@ def _measurements(probe: SpecProbe) -> tuple[tuple[str, float], ...]:
     out.update(f_low_hz=res.f_low_hz, f_high_hz=res.f_high_hz, bandwidth_hz=res.bandwidth_hz,
                q=res.q, f_center_hz=res.f_center_hz)
     return tuple(out.items())
+
+
+def _detail(response: Response, grid: np.ndarray, curve: "ResponseCurve",
+            measurements, limits) -> dict:
+    """Exactly evaluated points for drawing the true curve between grid points: at every
+    measured frequency, around lightly damped poles and zeros, and wherever a straight
+    segment would depart from the response (:mod:`netcheck.report.plot_points`)."""
+    from .report.plot_points import detail_curves
+
+    marks = [v for k, v in dict(measurements).items() if k.startswith("f_") and v is not None]
+    marks += [r.at_hz for r in limits if r.at_hz is not None]
+    roots = [r for r in (curve.poles_hz, curve.zeros_hz) if r is not None]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", NetcheckWarning)  # drawing points add no cautions
+        return detail_curves(response.at, grid, response.transfer, marks,
+                             np.concatenate(roots) if roots else None, response.dtransfer)
 
 
 def error_result(path: str, err: NetcheckError, netlist: str = "", title: str = "",

@@ -139,6 +139,12 @@ class Curves:
     group_delay_s: np.ndarray
     envelope_lo_db: np.ndarray | None = None
     envelope_hi_db: np.ndarray | None = None
+    #: exactly evaluated points between grid points, for drawing the true curve through
+    #: narrow peaks and notches (:func:`netcheck.report.plot_points.detail_curves`)
+    detail_hz: np.ndarray | None = None
+    detail_gain_db: np.ndarray | None = None
+    detail_phase_deg: np.ndarray | None = None
+    detail_group_delay_s: np.ndarray | None = None
 
     def __eq__(self, other: object) -> bool:
         if not isinstance(other, Curves):
@@ -146,7 +152,8 @@ class Curves:
         return all(np.array_equal(getattr(self, k), getattr(other, k), equal_nan=True)
                    if getattr(self, k) is not None else getattr(other, k) is None
                    for k in ("frequency_hz", "gain_db", "phase_deg", "group_delay_s",
-                             "envelope_lo_db", "envelope_hi_db"))
+                             "envelope_lo_db", "envelope_hi_db", "detail_hz",
+                             "detail_gain_db", "detail_phase_deg", "detail_group_delay_s"))
 
 
 @dataclass(frozen=True, slots=True)

@@ -186,9 +186,6 @@ def test_no_report_prints_the_noise(trap):
         assert certain in out[name], name
 
 
-@pytest.mark.xfail(strict=True, reason="the gain plot's keys (netcheck/report/plot_gain.py, "
-                   "another engineer's file) print lim.measured; lim.figures.measured says "
-                   "'below <floor>'")
 def test_no_pdf_figure_prints_the_noise(trap):
     spec, out = trap
     lim = next(x for x in spec.limits if x.name == "trap must pass")

@@ -84,7 +84,7 @@ def tags_for(spec: SpecResult) -> tuple[dict[int, Tag], dict[int, Tag]]:
             continue
         ref = " (re peak)" if lim.name in re_peak else ""
         fails[i] = Tag(f"F{len(fails) + 1}", lim.name,
-                       f"worst value {format_eng(lim.measured, lim.unit)}{ref} at "
+                       f"worst value {lim.figures.measured}{ref} at "
                        f"{format_si(lim.at_hz, 'Hz', 5)}, limit {lim.bound_text}", lim.status)
     return masks, fails
 
@@ -306,7 +306,7 @@ def fail_points(ax: Any, spec: SpecResult, fails: dict[int, Tag], curve: str, sc
         if kind == "point":
             if len(members) == 1:
                 lim = members[0][1]
-                label += f"  {format_eng(lim.measured, lim.unit)}"
+                label += f"  {lim.figures.measured}"
             ax.plot([x], [y], marker="X", markersize=7, color=PALETTE["fail"],
                     markeredgecolor="white", markeredgewidth=0.7, zorder=7, linestyle="none")
             ax.annotate(label, (x, y), xytext=(6, -9), textcoords="offset points",
