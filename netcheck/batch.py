@@ -64,6 +64,8 @@ class Job:
     row_text: str = ""
     table_sha256: str = ""
     allow_negative: bool = False
+    #: store exactly evaluated plot points with the curves (only a PDF draws them)
+    plot_detail: bool = True
 
 
 def _variant_error(path: str, where: str, message: str, code: str = "NC202") -> SpecError:
@@ -242,7 +244,8 @@ def _variant_jobs(spec_path: str, table: object, design_root: str | None = None)
 
 
 def expand_jobs(spec_paths: Sequence[str], design_root: str | None = None,
-                allow_negative: bool = False) -> list[Job | SpecResult]:
+                allow_negative: bool = False, plot_detail: bool = True
+                ) -> list[Job | SpecResult]:
     """One Job per spec, or per variant of a spec that declares ``[variants]``.
 
     Never raises: a spec whose variants are broken, over a budget or outside the design
@@ -252,9 +255,9 @@ def expand_jobs(spec_paths: Sequence[str], design_root: str | None = None,
     spec's own ``allow_negative = true`` does for that spec.
     """
     out = _expand_jobs(spec_paths, design_root)
-    if allow_negative:
-        out = [dataclasses.replace(j, allow_negative=True) if isinstance(j, Job) else j
-               for j in out]
+    if allow_negative or not plot_detail:
+        out = [dataclasses.replace(j, allow_negative=allow_negative, plot_detail=plot_detail)
+               if isinstance(j, Job) else j for j in out]
     return out
 
 
@@ -353,7 +356,7 @@ def run_job(job: Job) -> SpecResult:
         spec, parsed = _cached_inputs(job)
         result = check_spec(job.spec, dict(job.overrides) or None, job.variant, spec=spec,
                             netlist=job.netlist, parsed=parsed, design_root=job.design_root,
-                            allow_negative=job.allow_negative)
+                            allow_negative=job.allow_negative, plot_detail=job.plot_detail)
         if job.table is not None:
             where = {"table": job.table, "row": job.row, "sha256": job.table_sha256}
             result = dataclasses.replace(

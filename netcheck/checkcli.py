@@ -510,7 +510,8 @@ class _Run:
 
         try:
             return list(expand_jobs([spec], design_root=self.args.root,
-                                    allow_negative=self.args.allow_negative))
+                                    allow_negative=self.args.allow_negative,
+                                    plot_detail=self.wants_pdf()))
         except NetcheckError as err:
             return [error_result(spec, err)]
         except Exception as exc:  # noqa: BLE001

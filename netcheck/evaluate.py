@@ -191,7 +191,8 @@ def _assemble_for(spec: Spec, circuit: Circuit) -> System:
                         where=key) from None
 
 
-def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None) -> SpecResult:
+def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
+             plot_detail: bool = True) -> SpecResult:
     """Judge every limit of ``spec`` on ``circuit``.
 
     Raises
@@ -250,7 +251,8 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None) -> SpecRe
                   ("source", system.source), ("output", list(spec.output)),
                   ("stimulus_unit", "V" if src.letter == "V" else "A"))
     curves = Curves(grid, response.magnitude_db, response.phase_deg, response.group_delay_s,
-                    *envelope, **_detail(response, grid, curve, measurements, limits))
+                    *envelope, **(_detail(response, grid, curve, measurements, limits)
+                                  if plot_detail else {}))
     status = worst_status(r.status for r in limits)
     return SpecResult(
         spec=spec.path, netlist=spec.netlist, title=spec.title or circuit.title or spec.path,
@@ -394,7 +396,8 @@ def _with_spec_text(result: SpecResult, path: str) -> SpecResult:
 def check_spec(path: str, overrides: dict[str, float] | None = None,
                variant: str | None = None, spec: Spec | None = None,
                netlist: str | None = None, parsed: "Netlist | None" = None,
-               design_root: str | None = None, allow_negative: bool = False) -> SpecResult:
+               design_root: str | None = None, allow_negative: bool = False,
+               plot_detail: bool = True) -> SpecResult:
     """Load, solve and judge one spec file; never raises (but KeyboardInterrupt).
 
     ``overrides`` replace top-level ``.param`` values (a variant); ``netlist`` replaces the
@@ -404,18 +407,21 @@ def check_spec(path: str, overrides: dict[str, float] | None = None,
     result with its code; running out of memory or recursion depth NC421; any other
     exception, a bug, NC500 with the traceback (:func:`failure_result`).
     ``allow_negative`` (``--allow-negative``) accepts negative R, L and C values as the
-    spec's own ``allow_negative = true`` does.
+    spec's own ``allow_negative = true`` does. ``plot_detail`` stores the exactly
+    evaluated points the PDF plots draw through (false when no PDF is wanted: they cost
+    up to a few thousand extra solves).
     """
     try:
         return _check(path, overrides, variant, spec, netlist, parsed, design_root,
-                      allow_negative)
+                      allow_negative, plot_detail)
     except Exception as exc:  # noqa: BLE001 - a bug or exhaustion costs this spec only
         return failure_result(path, exc, variant, netlist or "")
 
 
 def _check(path: str, overrides: dict[str, float] | None, variant: str | None,
            spec: Spec | None, netlist: str | None, parsed: "Netlist | None",
-           design_root: str | None, allow_negative: bool = False) -> SpecResult:
+           design_root: str | None, allow_negative: bool = False,
+           plot_detail: bool = True) -> SpecResult:
     """:func:`check_spec` without its guard against unexpected exceptions."""
     try:
         spec = spec or load_spec(path, design_root)
@@ -444,7 +450,7 @@ def _check(path: str, overrides: dict[str, float] | None, variant: str | None,
         # part_models: the spec's part-model subcircuits, checked against this netlist
         from .spec import part_models
         circuit = elaborate(parsed, spec.allow_negative, overrides, part_models(spec, parsed))
-        return evaluate(spec, circuit, variant)
+        return evaluate(spec, circuit, variant, plot_detail)
     except NetcheckError as err:
         if isinstance(err, SpecError):
             err = locate(err, spec.text)

@@ -171,10 +171,10 @@ class TestOneBadInputCostsOnlyItself:
         spec_file(tmp_path)
         spec_file(tmp_path, "other")
 
-        def broken(spec, circuit, variant=None):
+        def broken(spec, circuit, *args, **kwargs):
             if spec.path.endswith("other.toml"):
                 raise ZeroDivisionError("stand-in for a bug deep in a check")
-            return real(spec, circuit, variant)
+            return real(spec, circuit, *args, **kwargs)
 
         real = evaluate.evaluate
         monkeypatch.setattr(evaluate, "evaluate", broken)

@@ -19,7 +19,6 @@ import math
 import numpy as np
 import pytest
 
-from netcheck import read_netlist
 from netcheck.evaluate import check_spec
 from netcheck.exceptions import SingularCircuitError
 from netcheck.report import plot_base, plot_points
@@ -93,29 +92,6 @@ TRUE_PEAK_DB = true_extreme(FS, np.argmax)     # ≈ −7.04 dB
 TRUE_NOTCH_DB = true_extreme(FP, np.argmin)    # ≈ −111.9 dB
 
 
-def has_detail_fields() -> bool:
-    return "detail_hz" in {f.name for f in dataclasses.fields(Curves)}
-
-
-if not has_detail_fields():
-    @dataclasses.dataclass(frozen=True, slots=True, eq=False)
-    class DetailedCurves(Curves):
-        """Curves with the exact points off the grid that the report's plots draw through:
-        the fields netcheck.result.Curves is to carry (see plot_points.detail_curves)."""
-
-        detail_hz: np.ndarray | None = None
-        detail_gain_db: np.ndarray | None = None
-        detail_phase_deg: np.ndarray | None = None
-        detail_group_delay_s: np.ndarray | None = None
-
-
-def with_detail(curves: Curves, detail: dict) -> Curves:
-    if has_detail_fields():
-        return dataclasses.replace(curves, **detail)
-    base = {f.name: getattr(curves, f.name) for f in dataclasses.fields(Curves)}
-    return DetailedCurves(**base, **detail)
-
-
 @pytest.fixture(scope="module")
 def crystal_spec(tmp_path_factory) -> str:
     folder = tmp_path_factory.mktemp("crystal")
@@ -133,18 +109,17 @@ def checked(crystal_spec) -> SpecResult:
 
 @pytest.fixture(scope="module")
 def detailed(checked) -> SpecResult:
-    """The check's result with the detail points the evaluation is to store with its curves:
-    plot_points.detail_curves over the exact response, as netcheck.evaluate would call it."""
-    if has_detail_fields() and checked.curves.detail_hz is not None:
-        return checked
-    grid = checked.curves.frequency_hz
-    response = read_netlist(NETLIST).ac("VIN", "out", freqs=grid)
-    poles, zeros, _ = response.roots_hz()
-    marks = [v for k, v in checked.measurements if k.startswith("f_")]
-    marks += [lim.at_hz for lim in checked.limits if lim.at_hz is not None]
-    detail = plot_points.detail_curves(response.at, grid, response.transfer, marks,
-                                       np.concatenate([poles, zeros]), response.dtransfer)
-    return dataclasses.replace(checked, curves=with_detail(checked.curves, detail))
+    """The check's result: it stores the detail points the PDF plots draw through."""
+    assert checked.curves.detail_hz is not None
+    return checked
+
+
+@pytest.fixture(scope="module")
+def grid_only(crystal_spec) -> SpecResult:
+    """The same check asked for no detail points, as ``check`` does when no PDF is wanted."""
+    result = check_spec(crystal_spec, plot_detail=False)
+    assert result.curves is not None, result.error
+    return result
 
 
 def gain_line(spec: SpecResult, title_word: str):
@@ -202,16 +177,19 @@ class TestCrystalDrawnTrue:
         f_low, f_high = detailed.measurement("f_low_hz"), detailed.measurement("f_high_hz")
         assert lo < f_low < FS < f_high < hi and zoom_is_resonance(detailed)
 
-    def test_grid_only_result_still_draws_the_refined_peak(self, checked):
+    def test_grid_only_result_still_draws_the_refined_peak(self, grid_only):
         # reference: closed-form crystal model; a result without detail points draws the
         # grid and the refined peak and edges the check measured
-        _, x, y = gain_line(checked, "whole sweep")
+        assert grid_only.curves.detail_hz is None
+        _, x, y = gain_line(grid_only, "whole sweep")
         assert np.nanmax(y) == pytest.approx(TRUE_PEAK_DB, abs=0.1)
-        assert np.isin(checked.curves.frequency_hz, x).all()
+        assert np.isin(grid_only.curves.frequency_hz, x).all()
 
-    @pytest.mark.skipif(not has_detail_fields(),
-                        reason="netcheck.result.Curves does not carry detail points yet "
-                               "(netcheck.evaluate is to store plot_points.detail_curves)")
+    def test_skipping_the_detail_leaves_the_verdicts_alone(self, checked, grid_only):
+        # the detail points serve the plots only: every limit reads the same without them
+        assert [(r.status, r.measured) for r in grid_only.limits] == \
+            [(r.status, r.measured) for r in checked.limits]
+
     def test_the_check_itself_stores_the_detail(self, checked):
         # reference: closed-form crystal model; the check's own result, no help from the test
         _, _, y = gain_line(checked, "whole sweep")
@@ -276,10 +254,10 @@ class TestDetailPoints:
         phase = -360.0 * grid * T
         fx = np.array([550.0, 1234.0])
         wrapped = (-360.0 * fx * T + 180.0) % 360.0 - 180.0
-        curves = with_detail(Curves(grid, np.zeros(20), phase, np.full(20, T)),
-                             {"detail_hz": fx, "detail_gain_db": np.zeros(2),
-                              "detail_phase_deg": wrapped,
-                              "detail_group_delay_s": np.full(2, T)})
+        curves = dataclasses.replace(Curves(grid, np.zeros(20), phase, np.full(20, T)),
+                                     detail_hz=fx, detail_gain_db=np.zeros(2),
+                                     detail_phase_deg=wrapped,
+                                     detail_group_delay_s=np.full(2, T))
         f, p = plot_points.curve_points(curves, "phase_deg")
         assert np.allclose(p, -360.0 * f * T)
         f, g = plot_points.curve_points(curves, "gain_db")
