@@ -24,7 +24,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 __all__ = ["Limit", "LIMITS", "register", "build_limit", "Probe", "judge_range",
            "range_margin", "Linearised", "linearised_range", "Rows", "gain_floor_db",
-           "at_floor", "RELATIVE_FLOOR_DB"]
+           "rounding_floor_db", "at_floor", "RELATIVE_FLOOR_DB"]
 
 
 class Probe(Protocol):
@@ -98,6 +98,12 @@ def _rounding_bound(system: Any, f_hz: float) -> float | None:
     gamma = 3 * n * _UNIT_ROUNDOFF / (1.0 - 3 * n * _UNIT_ROUNDOFF)
     bound = gamma * float(np.abs(w) @ (abs(a) @ np.abs(x)))
     return bound if math.isfinite(bound) and bound > 0 else None
+
+
+def rounding_floor_db(system: Any, f_hz: float) -> float | None:
+    """:func:`_rounding_bound` at ``f_hz`` in dB; None when no bound can be had."""
+    bound = _rounding_bound(system, f_hz)
+    return None if bound is None else 20.0 * math.log10(bound)
 
 
 def gain_floor_db(probe: Probe, f_hz: float | None, gain_db: float) -> float | None:

@@ -20,6 +20,7 @@ from .measure import (Extremum, MeasurementFailure, Resonance, band_extremes, co
 from .result import SAFETY_CAUTION, Caution, Curves, SpecResult, Status, worst_status
 from .solve import Response, solve
 from .spec import Spec, load_spec, locate
+from .units import format_eng, format_si
 
 __all__ = ["ResponseCurve", "SpecProbe", "evaluate", "check_spec", "seeds_from_roots",
            "error_result", "failure_result", "TRACEBACK_MAX"]
@@ -191,6 +192,41 @@ def _assemble_for(spec: Spec, circuit: Circuit) -> System:
                         where=key) from None
 
 
+#: a sweep whose largest gain is this far below 0 dB is tested for rounding noise
+_DEAD_SCREEN_DB = -100.0
+
+
+def _require_signal(spec: Spec, system: System, response: Response) -> None:
+    """Refuse a response with no signal in it (NC304), so no limit can pass on it.
+
+    An output that is not driven (a node off the signal path, ground against a ground
+    alias) has H = 0 at every frequency, −∞ dB: every upper gain bound would pass with an
+    infinite margin. The same holds when the largest gain of the sweep lies within the
+    rounding bound of a direct solve there (``_limit_base.gain_floor_db``): then every
+    value of the sweep is noise. A rational H that is zero on more grid points than its
+    order is zero everywhere, so the grid decides.
+    """
+    gain = response.magnitude_db
+    k = int(np.argmax(np.where(np.isnan(gain), -np.inf, gain)))
+    out = f"V({spec.output[0]})" + ("" if spec.output[1] == "0" else f" − V({spec.output[1]})")
+    lo, hi = format_si(spec.sweep.start_hz, "Hz", 4), format_si(spec.sweep.stop_hz, "Hz", 4)
+    tail = (f"so no limit can be judged. Check that the output is driven by {system.source} "
+            "and, for a differential output, that its two sides are not balanced")
+    if gain[k] == -math.inf:
+        raise SpecError(f"output: no signal: {out} is exactly zero at every frequency from "
+                        f"{lo} to {hi}, {tail}", code="NC304", path=spec.path, where="output")
+    if gain[k] > _DEAD_SCREEN_DB:
+        return
+    from ._limit_base import rounding_floor_db
+    floor = rounding_floor_db(system, float(response.frequency_hz[k]))
+    if floor is not None and gain[k] <= floor:
+        raise SpecError(
+            f"output: no signal: the largest gain from {lo} to {hi}, "
+            f"{format_eng(gain[k], 'dB', 1)} at {format_si(float(response.frequency_hz[k]), 'Hz', 5)}, lies below "
+            f"the rounding floor of the solve there ({format_eng(floor, 'dB', 1)}): {out} cannot be told "
+            f"from zero, {tail}", code="NC304", path=spec.path, where="output")
+
+
 def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
              plot_detail: bool = True) -> SpecResult:
     """Judge every limit of ``spec`` on ``circuit``.
@@ -214,6 +250,7 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", NetcheckWarning)
         response = solve(system, grid)
+        _require_signal(spec, system, response)
         curve = ResponseCurve.of(response)
         probe = SpecProbe(curve, spec.sweep)
         limits = []

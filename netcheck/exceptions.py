@@ -50,6 +50,7 @@ CODES: dict[str, str] = {
     "NC301": "measurement could not be made",
     "NC302": "numerical trouble (warning)",
     "NC303": "circuit matrix or solution not finite (part values out of range)",
+    "NC304": "no signal at the output (zero, or rounding noise, at every swept frequency)",
     "NC400": "could not write output",
     "NC401": "output refused (an input of the run, a device or FIFO, two outputs to -)",
     "NC402": "bad command-line value",

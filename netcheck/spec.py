@@ -541,6 +541,10 @@ def _build(doc: dict, text: str, path: str, build_limit: Any,
         output = (out_raw[0], out_raw[1])
     else:
         top.fail("output", f"expected a node name or [positive, negative], got {out_raw!r}")
+    if output[0].strip().lower() == output[1].strip().lower():
+        what = "ground" if output[1] == "0" else f"node {output[0]!r} twice"
+        top.fail("output", f"measures {what} against itself: that voltage is zero at every "
+                 "frequency, so no limit could be judged")
     sw_table = top.raw("sweep")
     if sw_table is None:
         top.fail("sweep", "missing (required): give start, stop and points_per_decade")
