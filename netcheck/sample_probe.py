@@ -41,6 +41,8 @@ _END_TOL = 1e-12  # a peak this close (relative) to a band end is at the end
 _STATIONARY = ("gain_db", "phase_deg", "group_delay_s")
 #: relative half-width of the bracket around such a point (it lies within 1e-6 of it)
 _STATIONARY_HALF = 2e-6
+#: the same for a point located from a partial set of roots (a sample solved directly)
+_PARTIAL_HALF = 0.02
 
 
 @dataclass(frozen=True, slots=True)
@@ -179,7 +181,7 @@ class BatchProbe:
         b = np.where(on_grid, f_grid[np.minimum(kg + 1, M - 1)],
                      np.minimum(hi, f_at * (1 + half[rows, ks])) if ns else hi)
         f_best, v_best = self._refine(quantity, a, b, f_at, sign)
-        better = sign * v_best > sign * base
+        better = sign * v_best >= sign * base  # equal: the refined point is the turning point
         out = BatchExtremum(np.where(better, f_best, f_at), np.where(better, v_best, base))
         self._cache[key] = out
         return out
@@ -206,12 +208,10 @@ class BatchProbe:
         * Lightly damped poles and zeros (|Re| < |Im|, Q above 1/√2) at |Im| and |s|,
           half-width 4·|Re|/|Im| (at least 1e-9, at most 0.5): where a narrow peak or
           dip sits between grid points.
-        * For gain, phase and group delay on the samples with a pole–zero form (whose
-          roots are complete): every stationary point of the quantity in the band
-          (:func:`netcheck.measure.stationary_points`, each within 1e-6 of the true one),
-          half-width 2e-6, so that an extreme between grid points (a stop-band lobe
-          between two notches) is found whatever the grid density, as the nominal
-          measurement finds it.
+        * For gain, phase and group delay: the stationary points of the quantity in the
+          band (:meth:`_stationary`); on the samples with a pole–zero form every one,
+          so that an extreme between grid points (a stop-band lobe between two notches)
+          is found whatever the grid density, as the nominal measurement finds it.
         """
         key = ("seeds", quantity, lo, hi)
         if key in self._cache:
@@ -234,14 +234,15 @@ class BatchProbe:
                 cols = np.flatnonzero(keep.any(axis=0))
                 cols_f.append(np.where(keep[:, cols], nu[:, cols], lo))
                 cols_h.append(np.where(keep[:, cols], half[:, cols], 1e-9))
-        st = self._stationary(quantity)
-        if st is not None:
+        found = self._stationary(quantity)
+        if found is not None:
+            st, st_half = found
             with np.errstate(invalid="ignore"):
                 ok = (st > lo) & (st < hi)
             cols = np.flatnonzero(ok.any(axis=0))
             if cols.size:
                 cols_f.append(np.where(ok[:, cols], st[:, cols], lo))
-                cols_h.append(np.where(ok[:, cols], _STATIONARY_HALF, 1e-9))
+                cols_h.append(np.where(ok[:, cols], st_half[:, cols], 1e-9))
         if cols_f:
             out = np.concatenate(cols_f, axis=1), np.concatenate(cols_h, axis=1)
         else:
@@ -249,21 +250,42 @@ class BatchProbe:
         self._cache[key] = out
         return out
 
-    def _stationary(self, quantity: str) -> np.ndarray | None:
-        """Every stationary point of ``quantity`` over the whole sweep (S, k), NaN-padded
-        and NaN for the samples without a form; None when there are none to find.
-        Computed once per quantity: each band takes the ones inside it."""
+    def _stationary(self, quantity: str) -> tuple[np.ndarray, np.ndarray] | None:
+        """Stationary points of ``quantity`` over the whole sweep (S, k), NaN-padded, and
+        the half-widths of their brackets; None when there are none. Computed once per
+        quantity: each band takes the ones inside it.
+
+        Samples with a form: from their complete roots, every one (within 1e-6),
+        half-width :data:`_STATIONARY_HALF`. Samples solved directly: from the poles and
+        zeros followed into them (:meth:`SampleSet.direct_roots`), a partial set, so the
+        points are only near the true ones: half-width :data:`_PARTIAL_HALF` (the
+        nominal measurement on the sparse path probes as far).
+        """
         key = ("stationary", quantity)
         if key not in self._cache:
-            form, ss = self.ss.form_rows, self.ss
-            out = None
-            if quantity in _STATIONARY and form.size and ss.poles.shape[1] + ss.zeros.shape[1]:
+            ss, parts = self.ss, []
+            if quantity in _STATIONARY:
                 scale = ss.w_scale / _TWO_PI
-                st = stationary_points(ss.poles[form] * scale, ss.zeros[form] * scale,
-                                       float(self.grid[0]), float(self.grid[-1]), quantity)
-                if st.shape[1]:
-                    out = np.full((ss.S, st.shape[1]), np.nan)
-                    out[form] = st
+                lo, hi = float(self.grid[0]), float(self.grid[-1])
+                form, direct = ss.form_rows, ss.direct_rows
+                if form.size and ss.poles.shape[1] + ss.zeros.shape[1]:
+                    parts.append((form, stationary_points(
+                        ss.poles[form] * scale, ss.zeros[form] * scale, lo, hi, quantity),
+                        _STATIONARY_HALF))
+                if direct.size:
+                    poles, zeros = ss.direct_roots()
+                    if poles.shape[1] + zeros.shape[1]:
+                        parts.append((direct, stationary_points(
+                            poles[direct] * scale, zeros[direct] * scale, lo, hi, quantity),
+                            _PARTIAL_HALF))
+            k = max((st.shape[1] for _, st, _ in parts), default=0)
+            out = None
+            if k:
+                f, half = np.full((ss.S, k), np.nan), np.full((ss.S, k), 1e-9)
+                for rows, st, h in parts:
+                    f[rows, :st.shape[1]] = st
+                    half[rows, :st.shape[1]] = h
+                out = (f, half)
             self._cache[key] = out
         return self._cache[key]
 

@@ -6,7 +6,8 @@ M = (G + s₀C)⁻¹C (eigenvalue μ ↔ pole s₀ − 1/μ), which numpy evalua
 samples in one stacked call; zeros come from the same transform of the pencil
 bordered with b and l. Each sample's form is checked against direct solves at a
 few frequencies, and a sample that disagrees is solved directly instead; such
-samples get pole seeds by following the nominal poles (:meth:`SampleSet.direct_seeds`).
+samples get seeds by following the nominal poles and zeros
+(:meth:`SampleSet.direct_seeds`).
 
 Gain comes from the form in real arithmetic, |jω − r|² = (ω − Im r)² + (Re r)² per
 root, without complex temporaries, in row chunks that stay in cache; the form also
@@ -55,7 +56,7 @@ _SEED_REL = 0.3
 _SEED_CONVERGED = 1e-4  # a pole moving by less than this of its damping |Re p| stops
 
 Rows = slice | np.ndarray  # rows of the per-sample root arrays
-_LAST_SEEDS: tuple | None = None  # ((system, f_lo, f_hi), nominal seed poles)
+_LAST_SEEDS: tuple | None = None  # ((system, f_lo, f_hi), (nominal seed poles, zeros))
 
 
 class SampleSet:
@@ -83,12 +84,12 @@ class SampleSet:
         self.memory_bytes = memory_bytes
         # large systems: one sparse pattern, every sample solved directly by SuperLU
         self.sparse = SparseBatch(system, values, samples) if self.n > SPARSE_ABOVE else None
-        # counts of finite roots and the poles (rad/s, for direct_seeds) from the nominal QZ
+        # counts of finite poles and zeros from the nominal QZ
         if self.sparse is None:
             self.G, self.C = assemble_batch(system, values, samples)
-            self.counts, self._nominal_s = _nominal_form(system, self.grid)
+            self.counts = _nominal_form(system, self.grid)[0]
         else:
-            self.G = self.C = self.counts = self._nominal_s = None
+            self.G = self.C = self.counts = None
         self._build_forms()
         # real views of the roots for |jω − r|² = (ω − Im r)² + (Re r)²
         self._zi, self._zr2 = self.zeros.imag.copy(), self.zeros.real ** 2
@@ -112,7 +113,7 @@ class SampleSet:
         self.fallback[np.asarray(rows, int)] = True
         self.direct_rows = np.flatnonzero(self.fallback)
         self.form_rows = np.flatnonzero(~self.fallback)
-        self._seed_cache: np.ndarray | None = None
+        self._seed_cache: tuple[np.ndarray, np.ndarray] | None = None
 
     # -- direct solves ------------------------------------------------------------
     def _chunk(self, per_sample_bytes: int) -> int:
@@ -370,81 +371,105 @@ class SampleSet:
 
     # -- pole seeds of directly solved samples -------------------------------------
     def direct_seeds(self) -> np.ndarray:
-        """Lightly damped poles (S, P) of the samples in ``direct_rows``, normalised like
-        ``poles``, NaN in the other rows: their seeds, as a form's roots are.
+        """Lightly damped poles and zeros (S, P + Z) of the samples in ``direct_rows``,
+        normalised like ``poles``, NaN in the other rows: their seeds, as a form's roots
+        are.
 
-        The nominal circuit's least damped poles (Im p > 0, |Re p|/|Im p| < 0.3,
-        |Im p|/2π within a factor 1.5 of the sweep; at most :data:`SEED_POLES_MAX`) are
-        followed into each direct sample by Rayleigh-quotient iteration [2]_ on the
-        shift-inverted pencil: from the nominal pole s and eigenvector x,
-        w = (G + sC)⁻¹Cx, μ = xᴴw/xᴴx, s ← s − 1/μ, x ← w/‖w‖, at most
-        :data:`SEED_STEPS` times, until s moves by less than 1e-4 of |Re s|
-        (quadratic convergence: typically three steps).
+        The nominal circuit's least damped poles and zeros (Im s > 0, |Re s|/|Im s| < 0.3,
+        |Im s|/2π within a factor 1.5 of the sweep; at most :data:`SEED_POLES_MAX` of
+        each) are followed into each direct sample by Rayleigh-quotient iteration [2]_ on
+        the shift-inverted pencil, for the zeros the pencil bordered with b and l (whose
+        finite eigenvalues are the zeros of l·(G + sC)⁻¹b): from the nominal root s and
+        eigenvector x, w = (A + sB)⁻¹Bx, μ = xᴴw/xᴴx, s ← s − 1/μ, x ← w/‖w‖, at most
+        :data:`SEED_STEPS` times, until s moves by less than 1e-4 of |Re s| (quadratic
+        convergence: typically three steps). A notch moves with its parts, and is found
+        in each sample from its own zero.
 
-        Cost, on first use: the nominal poles (its QZ if made, else one QZ of the nominal
-        pencil, or :func:`netcheck.solve.sparse_poles` when sparse; kept for the next
-        set of the same system), 2·P factorisations for their eigenvectors, and at most
-        R·P·SEED_STEPS (≤ 96 R) factorisations of the n×n pencil for R direct samples.
+        Cost, on first use: the nominal roots (the nominal engine's, kept for the next
+        set of the same system), 2 factorisations per root for its eigenvector, and at
+        most R·SEED_STEPS factorisations per root for R direct samples.
         """
-        if self._seed_cache is not None:
-            return self._seed_cache
-        rows = self.direct_rows
-        s0 = self._nominal_seed_poles() if rows.size else np.zeros(0, complex)
+        return np.concatenate(self.direct_roots(), axis=1)
+
+    def direct_roots(self) -> tuple[np.ndarray, np.ndarray]:
+        """The followed poles and zeros of :meth:`direct_seeds`, apart (cached)."""
+        if self._seed_cache is None:
+            rows = self.direct_rows
+            roots = self._nominal_seed_roots() if rows.size else (np.zeros(0, complex),) * 2
+            self._seed_cache = tuple(self._follow(s0, rows, bordered)
+                                     for s0, bordered in zip(roots, (False, True)))
+        return self._seed_cache
+
+    def _follow(self, s0: np.ndarray, rows: np.ndarray, bordered: bool) -> np.ndarray:
+        """The nominal roots ``s0`` (rad/s) followed into the samples ``rows`` (see
+        :meth:`direct_seeds`), normalised, NaN in the other rows."""
         P = s0.size
-        out = self._seed_cache = np.full((self.S, P), np.nan, dtype=complex)
-        if P:
-            x0, flat = self._nominal_vectors(s0), np.empty(rows.size * P, dtype=complex)
-            block = self._chunk(self.n * 128)
-            for i in range(0, flat.size, block):  # (sample, pole) pairs, memory-bounded
-                k = np.arange(i, min(flat.size, i + block))
-                r, s, x, act = rows[k // P], s0[k % P], x0[k % P], np.arange(k.size)
-                for _ in range(SEED_STEPS):
-                    if act.size:
-                        w = self._pair_solve(r[act], s[act], x[act])
-                        s[act], x[act], more = _rq_update(s[act], x[act], w)
-                        act = act[more]
-                flat[k] = s
-            out[rows] = flat.reshape(rows.size, P) / self.w_scale
+        out = np.full((self.S, P), np.nan, dtype=complex)
+        if P == 0:
+            return out
+        x0, flat = self._nominal_vectors(s0, bordered), np.empty(rows.size * P, dtype=complex)
+        block = self._chunk((self.n + 1) * 128)
+        for i in range(0, flat.size, block):  # (sample, root) pairs, memory-bounded
+            k = np.arange(i, min(flat.size, i + block))
+            r, s, x, act = rows[k // P], s0[k % P], x0[k % P], np.arange(k.size)
+            for _ in range(SEED_STEPS):
+                if act.size:
+                    w = self._pair_solve(r[act], s[act], x[act], bordered)
+                    s[act], x[act], more = _rq_update(s[act], x[act], w)
+                    act = act[more]
+            flat[k] = s
+        out[rows] = flat.reshape(rows.size, P) / self.w_scale
         return out
 
-    def _nominal_seed_poles(self) -> np.ndarray:
-        """The nominal poles (rad/s) :meth:`direct_seeds` follows (the last system's are
-        kept: Monte Carlo builds a set per chunk of samples of one system)."""
+    def _nominal_seed_roots(self) -> tuple[np.ndarray, np.ndarray]:
+        """The nominal poles and zeros (rad/s) :meth:`direct_seeds` follows (the last
+        system's are kept: Monte Carlo builds a set per chunk of samples of one system)."""
         global _LAST_SEEDS
         key, last = (self.system, float(self.grid[0]), float(self.grid[-1])), _LAST_SEEDS
         if last is not None and last[0] == key:  # one read: safe if threads share it
-            return last[1].copy()
-        s = self._nominal_s
-        if s is None and self.sparse is None:
-            g, c = self.system.G.toarray(), self.system.C.toarray()
-            try:  # QZ of the nominal pencil (G, −C w): poles normalised by w
-                ab = sla.eigvals(g, -c * self.w_scale, homogeneous_eigvals=True,
-                                 check_finite=False)
-            except (np.linalg.LinAlgError, ValueError):
-                return np.zeros(0, complex)
-            fin = np.abs(ab[1]) * 1e12 > np.abs(ab[0])
-            s = ab[0][fin] / ab[1][fin] * self.w_scale
-        elif s is None:
-            s = _TWO_PI * sparse_poles(self.system.G, self.system.C,
-                                       float(self.grid[0]), float(self.grid[-1]))
-        s = np.asarray(s, complex)
+            return last[1][0].copy(), last[1][1].copy()
+        from .solve import DenseEngine, SparseEngine
+
+        lo, hi = float(self.grid[0]), float(self.grid[-1])
+        try:
+            eng = (DenseEngine if self.sparse is None else SparseEngine)(self.system)
+            poles, zeros, _ = eng.roots(lo, hi)
+        except (np.linalg.LinAlgError, ValueError, RuntimeError, ArithmeticError):
+            poles = zeros = np.zeros(0, complex)
+        out = (self._least_damped(_TWO_PI * np.asarray(poles, complex)),
+               self._least_damped(_TWO_PI * np.asarray(zeros, complex)))
+        _LAST_SEEDS = (key, (out[0].copy(), out[1].copy()))
+        return out
+
+    def _least_damped(self, s: np.ndarray) -> np.ndarray:
+        """Of the roots ``s`` (rad/s): Im s > 0, |Re s|/|Im s| < 0.3 and |Im s|/2π within a
+        factor 1.5 of the sweep, least damped first, at most :data:`SEED_POLES_MAX`,
+        each once (a sparse search may find a root twice)."""
         s = s[np.isfinite(s) & (s.imag > 0)]
         nu, rel = s.imag / _TWO_PI, np.abs(s.real) / s.imag
         keep = (rel < _SEED_REL) & (nu > self.grid[0] / 1.5) & (nu < self.grid[-1] * 1.5)
-        kept: list[complex] = []  # one of each (the sparse search may find a pole twice)
+        kept: list[complex] = []
         for p in s[keep][np.argsort(rel[keep], kind="stable")]:
             if len(kept) < SEED_POLES_MAX and all(abs(p - q) > 1e-6 * abs(p) for q in kept):
                 kept.append(complex(p))
-        out = np.array(kept, dtype=complex)
-        _LAST_SEEDS = (key, out.copy())
-        return out
+        return np.array(kept, dtype=complex)
 
-    def _nominal_vectors(self, s0: np.ndarray) -> np.ndarray:
-        """Nominal eigenvectors at the poles ``s0``: two inverse-iteration steps each."""
+    def _bordered(self, g: sp.spmatrix, c: sp.spmatrix) -> tuple[sp.csc_matrix, sp.csc_matrix]:
+        """The pencil (G, C) bordered with b and l: its finite eigenvalues are the zeros."""
+        b = sp.csc_matrix(self.b.astype(complex)[:, None])
+        l = sp.csc_matrix(self.l.astype(complex)[None, :])
+        gb = sp.bmat([[g, b], [l, None]], format="csc")
+        cb = sp.bmat([[c, None], [None, sp.csc_matrix((1, 1), dtype=complex)]], format="csc")
+        return gb, cb
+
+    def _nominal_vectors(self, s0: np.ndarray, bordered: bool = False) -> np.ndarray:
+        """Nominal eigenvectors at the roots ``s0``: two inverse-iteration steps each."""
         g, c = self.system.G.tocsc(), self.system.C.tocsc()
+        if bordered:
+            g, c = self._bordered(g, c)
+        m = g.shape[0]
         rng = np.random.default_rng(12345)  # fixed start vectors: reproducible runs
-        x = _unit(rng.standard_normal((s0.size, self.n))
-                  + 1j * rng.standard_normal((s0.size, self.n)))
+        x = _unit(rng.standard_normal((s0.size, m)) + 1j * rng.standard_normal((s0.size, m)))
         for k in range(s0.size):
             try:
                 lu = spla.splu((g + s0[k] * c).tocsc(), permc_spec="COLAMD")
@@ -454,28 +479,41 @@ class SampleSet:
                 x[k] = _unit(lu.solve(c @ x[k]))
         return np.nan_to_num(x)
 
-    def _pair_solve(self, rows: np.ndarray, s: np.ndarray, x: np.ndarray) -> np.ndarray:
-        """w = (G + sC)⁻¹Cx with each sample ``rows[i]``'s matrices at s[i], for x[i];
-        NaN where singular."""
+    def _pair_solve(self, rows: np.ndarray, s: np.ndarray, x: np.ndarray,
+                    bordered: bool = False) -> np.ndarray:
+        """w = (G + sC)⁻¹Cx with each sample ``rows[i]``'s matrices at s[i], for x[i]
+        (bordered with b and l when ``bordered``); NaN where singular."""
+        n = self.n
         if self.sparse is not None:
             w = np.full(x.shape, np.nan, dtype=complex)
             for i, r in enumerate(rows):
+                g = sp.csc_matrix((self.sparse.g[r], self.sparse.indices, self.sparse.indptr),
+                                  shape=(n, n))
                 c = sp.csc_matrix((self.sparse.c[r], self.sparse.indices, self.sparse.indptr),
-                                  shape=(self.n, self.n))
+                                  shape=(n, n))
+                if bordered:
+                    g, c = self._bordered(g, c)
                 try:
-                    w[i] = self.sparse.factor_at(int(r), complex(s[i])).solve(c @ x[i])
+                    lu = spla.splu((g + complex(s[i]) * c).tocsc(), permc_spec="COLAMD")
+                    w[i] = lu.solve(c @ x[i])
                 except RuntimeError:
                     pass
             return w
         w = np.empty(x.shape, dtype=complex)
-        step = self._chunk(self.n * self.n * 48)
+        m = n + 1 if bordered else n
+        step = self._chunk(m * m * 48)
         for i in range(0, rows.size, step):
-            c = self.C[rows[i:i + step]]
-            a = self.G[rows[i:i + step]] + s[i:i + step, None, None] * c
+            sel = rows[i:i + step]
+            c = np.zeros((sel.size, m, m))
+            c[:, :n, :n] = self.C[sel]
+            a = np.zeros((sel.size, m, m), dtype=complex)
+            a[:, :n, :n] = self.G[sel] + s[i:i + step, None, None] * self.C[sel]
+            if bordered:
+                a[:, :n, n], a[:, n, :n] = self.b, self.l
             try:
                 w[i:i + step] = np.linalg.solve(
                     a, np.einsum("mij,mj->mi", c, x[i:i + step])[..., None])[..., 0]
-            except np.linalg.LinAlgError:  # a pole hit exactly: these shifts stay
+            except np.linalg.LinAlgError:  # a root hit exactly: these shifts stay
                 w[i:i + step] = np.nan
         return w
 
