@@ -39,7 +39,7 @@ from pathlib import Path
 
 import _harness  # noqa: F401  (puts the repository root on sys.path)
 
-from netcheck.batch import DaskExecutor, LocalExecutor, SerialExecutor, expand_jobs, run_all
+from netcheck.runs.batch import DaskExecutor, LocalExecutor, SerialExecutor, expand_jobs, run_all
 
 ORDER = 7
 R0 = 600.0  # ohm, nominal termination

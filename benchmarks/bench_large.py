@@ -25,8 +25,8 @@ import numpy as np
 import scipy.sparse.linalg as spla
 
 from netcheck import read_netlist
-from netcheck.assemble import assemble
-from netcheck.solve import DENSE_MAX, solve
+from netcheck.mna.assemble import assemble
+from netcheck.mna.solve import DENSE_MAX, solve
 
 R_SECTION = 1.0  # ohm per section
 C_SECTION = 100e-12  # farad per section

@@ -10,7 +10,7 @@ value of the ladder is a ``.param``, so a sample can be rebuilt exactly the way 
 variant is: ``elaborate(parsed, overrides=...)``. Measured side by side in one run
 (the median of interleaved repeats, after a warm-up):
 
-(a) ``netcheck.tolerance.monte_carlo(system, spec, parts, tol, analysis)``: the call
+(a) ``netcheck.analyses.tolerance.monte_carlo(system, spec, parts, tol, analysis)``: the call
     ``check_spec`` makes for ``mode = ["monte_carlo"]``. It draws every sample, solves
     them all together and judges every limit for each sample;
 (b) the per-sample loop it replaces: ``elaborate(parsed, overrides=sample)`` and then
@@ -45,15 +45,15 @@ from typing import Callable
 import _harness  # noqa: F401  (puts the repository root on sys.path)
 import numpy as np
 
-from netcheck.assemble import assemble
-from netcheck.elaborate import elaborate
-from netcheck.evaluate import check_spec, evaluate
-from netcheck.parse import load_netlist
+from netcheck.mna.assemble import assemble
+from netcheck import elaborate
+from netcheck.analyses.nominal import check_spec, evaluate
+from netcheck.netlist.parse import load_netlist
 from netcheck.result import Status
-from netcheck.sampling import SampleSet
+from netcheck.mna.sampling import SampleSet
 from netcheck.spec import load_spec
-from netcheck.solve import solve
-from netcheck.tolerance import (_chunk_size, draw, monte_carlo, parse_analysis,
+from netcheck.mna.solve import solve
+from netcheck.analyses.tolerance import (_chunk_size, draw, monte_carlo, parse_analysis,
                                 parse_tolerances, run_samples, toleranced_parts)
 
 ORDER = 7

@@ -39,7 +39,7 @@ import time
 import _harness  # noqa: F401  (puts the repository root on sys.path)
 
 from netcheck import __version__
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.report import pdf
 from netcheck.result import CheckResult
 
@@ -51,7 +51,7 @@ TARGET_S = 1.5
 _COLD = """
 import sys, time
 t0 = time.perf_counter()
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.result import CheckResult
 r = CheckResult((check_spec(sys.argv[1]),), "0", "2026-01-01T00:00:00Z")
 t1 = time.perf_counter()
@@ -120,7 +120,7 @@ def main() -> None:
 
 def analyses(repeat: int, single: CheckResult) -> None:
     """(d) the tolerance report and (e) the family report, beside (b), also per page."""
-    from netcheck import batch
+    from netcheck.runs import batch
 
     created = "2026-01-01T00:00:00Z"
     tol = CheckResult((check_spec(TOLERANCE_SPEC),), __version__, created)

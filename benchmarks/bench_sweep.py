@@ -28,8 +28,8 @@ import scipy.sparse.linalg as spla
 from scipy import signal
 
 from netcheck import read_netlist
-from netcheck.assemble import assemble
-from netcheck.solve import solve
+from netcheck.mna.assemble import assemble
+from netcheck.mna.solve import solve
 
 ORDER = 9
 R0 = 50.0  # ohm, source and load

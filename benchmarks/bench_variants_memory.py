@@ -35,7 +35,7 @@ from pathlib import Path
 
 import _harness  # noqa: F401  (puts the repository root on sys.path)
 
-from netcheck.batch import SerialExecutor, expand_jobs, run_all
+from netcheck.runs.batch import SerialExecutor, expand_jobs, run_all
 
 NETLIST = """Quillmere Instruments QI-RC1 sensor input filter
 .param r=1k

@@ -9,7 +9,7 @@ so P = order + 2), with a pass-band, a corner, a resonance-free stop-band and a 
 delay limit, this times
 
 (a) what the worst case now does: every limit kind's ``sensitivities(probe, adj)`` from
-    :class:`netcheck.sensitivity.AdjointSensitivity` — four solves per deciding
+    :class:`netcheck.mna.sensitivity.AdjointSensitivity` — four solves per deciding
     frequency, none per part — on a probe the nominal judging has already measured
     (as in ``check``);
 (b) central differences of every re-measured quantity: 2P perturbed samples, all solved
@@ -29,15 +29,15 @@ import _harness
 from bench_sweep import butterworth_ladder  # the same prototype ladder, scaled
 import numpy as np
 
-from netcheck.assemble import assemble
-from netcheck.elaborate import elaborate
-from netcheck.evaluate import ResponseCurve, SpecProbe
-from netcheck.parse import load_netlist
-from netcheck.sensitivity import AdjointSensitivity
-from netcheck.solve import solve
+from netcheck.mna.assemble import assemble
+from netcheck import elaborate
+from netcheck.analyses.nominal import ResponseCurve, SpecProbe
+from netcheck.netlist.parse import load_netlist
+from netcheck.mna.sensitivity import AdjointSensitivity
+from netcheck.mna.solve import solve
 from netcheck.spec import load_spec
-from netcheck.tolerance import parse_tolerances, toleranced_parts
-from netcheck.worstcase import _central_differences
+from netcheck.analyses.tolerance import parse_tolerances, toleranced_parts
+from netcheck.analyses.worstcase import _central_differences
 
 R0, FC = 600.0, 20e3
 

@@ -20,8 +20,7 @@ __version__ = "0.1.0"
 
 #: public name → module that defines it
 _EXPORTS = {
-    "Circuit": "elaborate", "read_netlist": "elaborate", "elaborate": "elaborate",
-    "load_netlist": "parse",
+    "Circuit": "api", "read_netlist": "api", "elaborate": "api", "load_netlist": "api",
     "NetcheckError": "exceptions", "NetlistSyntaxError": "exceptions",
     "ElaborationError": "exceptions", "SpecError": "exceptions",
     "SingularCircuitError": "exceptions", "MeasurementError": "exceptions",

@@ -1,5 +1,5 @@
 """``python -m netcheck``: the command-line interface."""
 
-from .cli import main
+from .cli.main import main
 
 raise SystemExit(main())

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .source import Span, format_caret, printable
+from .netlist.source import Span, format_caret, printable
 
 __all__ = [
     "NetcheckError", "NetlistSyntaxError", "ElaborationError", "SpecError",
@@ -109,7 +109,7 @@ class NetcheckError(Exception):
         """Compiler-style message: location, code, message, source line and caret.
 
         Text from input files (the path, names quoted in the message, the source line)
-        is shown through :func:`netcheck.source.printable` and bounded, so it cannot act
+        is shown through :func:`netcheck.netlist.source.printable` and bounded, so it cannot act
         on a terminal or flood it.
         """
         head = (f"{printable(self.location(), TEXT_MAX)}: error {self.code}: "

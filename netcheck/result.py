@@ -10,7 +10,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 if TYPE_CHECKING:  # pragma: no cover
-    from .units import RowText
+    from .netlist.units import RowText
 
 __all__ = ["Status", "LimitResult", "Caution", "Curves", "MaskBand", "SpecResult",
            "CheckResult", "worst_status", "SAFETY_CAUTION"]
@@ -56,7 +56,7 @@ class LimitResult:
     floor of the solve at ``at_hz``: a gain there cannot be told from no transmission at
     all (an exact transmission zero), so ``measured`` and ``margin`` are rounding noise;
     the reports print the value as below the floor and the margin as the bound it
-    certainly meets (see :func:`netcheck.units.row_text`).
+    certainly meets (see :func:`netcheck.netlist.units.row_text`).
     """
 
     name: str
@@ -83,8 +83,8 @@ class LimitResult:
     @property
     def figures(self) -> "RowText":
         """Measured value, bounds, margin and frequency as every report prints them, with
-        as many figures as tell the row's values apart (:func:`netcheck.units.row_text`)."""
-        from .units import row_text
+        as many figures as tell the row's values apart (:func:`netcheck.netlist.units.row_text`)."""
+        from .netlist.units import row_text
         return row_text(self.measured, self.lower, self.upper, self.margin, self.unit,
                         self.at_hz, self.floor)
 
@@ -140,7 +140,7 @@ class Curves:
     envelope_lo_db: np.ndarray | None = None
     envelope_hi_db: np.ndarray | None = None
     #: exactly evaluated points between grid points, for drawing the true curve through
-    #: narrow peaks and notches (:func:`netcheck.report.plot_points.detail_curves`)
+    #: narrow peaks and notches (:func:`netcheck.measure.detail.detail_curves`)
     detail_hz: np.ndarray | None = None
     detail_gain_db: np.ndarray | None = None
     detail_phase_deg: np.ndarray | None = None

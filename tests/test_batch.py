@@ -8,8 +8,8 @@ from pathlib import Path
 
 import pytest
 
-from netcheck.batch import Job, LocalExecutor, SerialExecutor, expand_jobs, run_all
-from netcheck.evaluate import check_spec
+from netcheck.runs.batch import Job, LocalExecutor, SerialExecutor, expand_jobs, run_all
+from netcheck.analyses.nominal import check_spec
 from netcheck.result import Status
 
 NETLIST = """Quillmere test family: series RLC band-pass
@@ -102,7 +102,7 @@ def test_broken_table_is_an_error_result(family, tmp_path):
 
 def test_dask_local_cluster_equals_serial(family):
     distributed = pytest.importorskip("distributed")
-    from netcheck.batch import DaskExecutor
+    from netcheck.runs.batch import DaskExecutor
 
     # the nanny sets PYTHONHASHSEED, thread counts and more in this process's environment,
     # which child processes of later tests would inherit: put it back afterwards

@@ -156,11 +156,11 @@ class TestColour:
 def test_internal_error_exit_code(monkeypatch, capsys, tmp_path):
     # a bug (any exception that is not a NetcheckError) is reported with its traceback,
     # every output is still written, and the exit status is 3
-    import netcheck.evaluate
+    import netcheck.analyses.nominal
 
     def boom(*args, **kwargs):
         raise RuntimeError("simulated bug")
-    monkeypatch.setattr(netcheck.evaluate, "check_spec", boom)
+    monkeypatch.setattr(netcheck.analyses.nominal, "check_spec", boom)
     assert main(["check", ONE, "--json", str(tmp_path / "r.json")]) == INTERNAL
     err = capsys.readouterr().err
     assert "RuntimeError: simulated bug" in err

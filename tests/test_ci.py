@@ -1,4 +1,4 @@
-"""Tests for netcheck.ci: affected specs from git, baseline drift, the pre-commit hook."""
+"""Tests for netcheck.runs.ci: affected specs from git, baseline drift, the pre-commit hook."""
 
 from __future__ import annotations
 
@@ -14,9 +14,9 @@ from pathlib import Path
 import pytest
 import yaml
 
-import netcheck._baseline
-import netcheck._changed_since
-from netcheck.ci import (AffectedSpec, BaselineError, GitError, LimitRef, SpecRef,
+import netcheck.runs.baseline
+import netcheck.runs.changed_since
+from netcheck.runs.ci import (AffectedSpec, BaselineError, GitError, LimitRef, SpecRef,
                          affected_specs, compare_baseline, load_baseline, validate_result)
 from netcheck.exceptions import NetcheckError
 from netcheck.render.jsonreport import SCHEMA, to_dict
@@ -166,7 +166,7 @@ class TestAffectedSpecs:
     def test_git_timeout(self, repo, monkeypatch):
         def hang(cmd, **kwargs):
             raise subprocess.TimeoutExpired(cmd, kwargs["timeout"])
-        monkeypatch.setattr(netcheck._changed_since.subprocess, "run", hang)
+        monkeypatch.setattr(netcheck.runs.changed_since.subprocess, "run", hang)
         with pytest.raises(GitError, match=r"did not finish within 2\.5 s"):
             affected_specs(_specs(repo), "HEAD", str(repo), timeout=2.5)
 
@@ -535,14 +535,14 @@ class TestLoadBaseline:
 
 
 def test_docstring_examples():
-    # the examples sit on compare_baseline, defined in netcheck._baseline and re-exported by netcheck.ci
-    outcome = doctest.testmod(netcheck._baseline)
+    # the examples sit on compare_baseline, defined in netcheck.runs.baseline and re-exported by netcheck.runs.ci
+    outcome = doctest.testmod(netcheck.runs.baseline)
     assert outcome.attempted > 0 and outcome.failed == 0
 
 
 def test_every_public_name_resolves():
-    import netcheck.ci
-    assert [name for name in netcheck.ci.__all__ if not hasattr(netcheck.ci, name)] == []
+    import netcheck.runs.ci
+    assert [name for name in netcheck.runs.ci.__all__ if not hasattr(netcheck.runs.ci, name)] == []
 
 
 # --------------------------------------------------------------------------- pre-commit, docs

@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 
 from netcheck.cli import BAD_INPUT, OK, main
-from netcheck.units import parse_quantity
+from netcheck.netlist.units import parse_quantity
 
 HEADER = "frequency_hz,magnitude_db,phase_deg,group_delay_s"
 BAD = Path(__file__).resolve().parent / "bad_netlists"

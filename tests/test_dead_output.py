@@ -14,7 +14,7 @@ import math
 import numpy as np
 import pytest
 
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.result import Status
 
 SPEC = """title = "Quillmere output check"

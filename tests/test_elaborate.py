@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from netcheck import ElaborationError, read_netlist
-from netcheck.elements import CCCS, CCVS, VCCS, VCVS, Capacitor, Coupling, CurrentSource, \
+from netcheck.netlist.elements import CCCS, CCVS, VCCS, VCVS, Capacitor, Coupling, CurrentSource, \
     Inductor, Resistor, VoltageSource
 
 NESTED = """nested subcircuits

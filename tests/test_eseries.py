@@ -1,4 +1,4 @@
-"""Tests of netcheck.eseries: the IEC 60063 tables, tolerance steps, neighbours and NC154."""
+"""Tests of netcheck.analyses.eseries: the IEC 60063 tables, tolerance steps, neighbours and NC154."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from netcheck.eseries import (
+from netcheck.analyses.eseries import (
     E6,
     E12,
     E24,
@@ -22,7 +22,7 @@ from netcheck.eseries import (
     series_for_tolerance,
 )
 from netcheck.exceptions import Diagnostic
-from netcheck.source import SourceFile
+from netcheck.netlist.source import SourceFile
 
 # Source for the reference data below: IEC 60063:2015, "Preferred number series for
 # resistors and capacitors". The tables and the list of exceptions are reproduced from

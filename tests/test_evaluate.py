@@ -14,7 +14,7 @@ import pytest
 from scipy import signal
 
 from circuits import butterworth_ladder, chebyshev_g, ladder_netlist
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.result import SpecResult, Status
 
 TWO_PI = 2 * math.pi

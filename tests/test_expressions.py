@@ -10,8 +10,8 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from netcheck import ElaborationError, NetlistSyntaxError, read_netlist
-from netcheck.expressions import evaluate, parse_expression
-from netcheck.source import SourceFile
+from netcheck.netlist.expressions import evaluate, parse_expression
+from netcheck.netlist.source import SourceFile
 
 
 def value(text: str, **params: float) -> float:

@@ -18,7 +18,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from netcheck import NetcheckError, read_netlist
-from netcheck.parse import ELEMENTS_MAX, SUBCKT_DEPTH_MAX
+from netcheck.netlist.parse import ELEMENTS_MAX, SUBCKT_DEPTH_MAX
 
 SAMPLES = Path(__file__).resolve().parents[1] / "sample_netlists"
 

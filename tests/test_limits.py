@@ -1,7 +1,7 @@
 """Limit kinds: the LIMITS table, margins and their sign, and each kind judged on closed forms.
 
 The probe here is built from closed-form transfer functions (measure.FunctionCurve), so
-these tests do not depend on the solver or on netcheck.evaluate.
+these tests do not depend on the solver or on netcheck.analyses.nominal.
 """
 
 from __future__ import annotations
@@ -12,7 +12,7 @@ import math
 import numpy as np
 import pytest
 
-from netcheck.limits import LIMITS, Limit, build_limit, judge_range
+from netcheck.spec.limits import LIMITS, Limit, build_limit, judge_range
 from netcheck.measure import (HALF_POWER_DB, Extremum, FunctionCurve, band_extremes, corner,
                               peak, resonance)
 from netcheck.result import LimitResult, MaskBand, Status
@@ -24,7 +24,7 @@ GRID = SWEEP.grid()
 
 
 class Probe:
-    """Closed-form stand-in for netcheck.evaluate.SpecProbe."""
+    """Closed-form stand-in for netcheck.analyses.nominal.SpecProbe."""
 
     def __init__(self, h, dh, z=None, dz=None):
         self.curve = FunctionCurve(GRID, h, dh)

@@ -12,8 +12,8 @@ from pathlib import Path
 import pytest
 
 from netcheck import NetcheckError, NetlistSyntaxError, load_netlist, read_netlist
-from netcheck.parse import Assign, Card, Field, parse_statements
-from netcheck.source import SourceFile, format_caret
+from netcheck.netlist.parse import Assign, Card, Field, parse_statements
+from netcheck.netlist.source import SourceFile, format_caret
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -296,7 +296,7 @@ def test_wheel_ships_the_grammars(tmp_path):
     # and the installed package finds them (no source tree beside it)
     site = tmp_path / "site"
     zipfile.ZipFile(whl).extractall(site)
-    probe = (f"import netcheck, netcheck._grammars as g; "
+    probe = (f"import netcheck, netcheck.netlist.grammars as g; "
              f"assert netcheck.__file__.startswith({str(site)!r}); "
              "assert g.grammar_text('netlist.lark'); "
              "print(netcheck.read_netlist('t\\nR1 a 0 4k7\\nR2 a 0 1\\n').element('R1').value)")

@@ -30,10 +30,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-import netcheck.stress as stress_mod
-from netcheck.elaborate import elaborate, read_netlist
-from netcheck.evaluate import check_spec
-from netcheck.parse import load_netlist
+import netcheck.analyses.stress as stress_mod
+from netcheck import elaborate, read_netlist
+from netcheck.analyses.nominal import check_spec
+from netcheck.netlist.parse import load_netlist
 from netcheck.result import Status
 
 TWO_PI = 2.0 * math.pi

@@ -11,11 +11,11 @@ import math
 
 import pytest
 
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.exceptions import SpecError
 from netcheck.result import Status
 from netcheck.spec import load_spec
-from netcheck.units import UnitError, parse_relative
+from netcheck.netlist.units import UnitError, parse_relative
 
 L_H = 1e-3
 F0_HZ = 10e6 + 100.0  # 10 ppm above the 10 MHz centre

@@ -1,8 +1,8 @@
 """Monte Carlo agrees with the nominal check, sample by sample.
 
-Each case is one where the batched measurements (:mod:`netcheck.sample_probe`, through
-``netcheck.tolerance.run_samples`` or a :class:`BatchProbe` directly) once differed
-from the nominal check (``netcheck.evaluate.evaluate`` on the circuit with the sample's
+Each case is one where the batched measurements (:mod:`netcheck.analyses.sample_probe`, through
+``netcheck.analyses.tolerance.run_samples`` or a :class:`BatchProbe` directly) once differed
+from the nominal check (``netcheck.analyses.nominal.evaluate`` on the circuit with the sample's
 values): a corner whose fixed reference lies above the pass-band, a narrow peak on a
 sample solved directly (no pole–zero form to take seeds from), and a crossing hidden
 between grid points by a narrow trap. Every case also has its closed form.
@@ -16,14 +16,15 @@ import numpy as np
 import pytest
 from scipy import optimize, signal
 
-from netcheck import read_netlist, sampling
-from netcheck.assemble import assemble
-from netcheck.evaluate import evaluate
+from netcheck import read_netlist
+from netcheck.mna import sampling
+from netcheck.mna.assemble import assemble
+from netcheck.analyses.nominal import evaluate
 from netcheck.result import Status
-from netcheck.sample_probe import BatchProbe
-from netcheck.sampling import SampleSet
+from netcheck.analyses.sample_probe import BatchProbe
+from netcheck.mna.sampling import SampleSet
 from netcheck.spec import parse_spec
-from netcheck.tolerance import _chunk_size, run_samples, with_values
+from netcheck.analyses.tolerance import _chunk_size, run_samples, with_values
 
 TWO_PI = 2.0 * math.pi
 HALF_POWER = 10.0 * math.log10(2.0)

@@ -12,10 +12,11 @@ from scipy import signal
 
 from circuits import C, L, R, butterworth_g, chebyshev_g, ladder_netlist
 from circuits import SERIES_RLC
-from netcheck import read_netlist, sampling
-from netcheck.assemble import assemble
-from netcheck.sample_probe import BatchProbe
-from netcheck.sampling import SampleSet
+from netcheck import read_netlist
+from netcheck.mna import sampling
+from netcheck.mna.assemble import assemble
+from netcheck.analyses.sample_probe import BatchProbe
+from netcheck.mna.sampling import SampleSet
 
 HALF_POWER = 10.0 * math.log10(2.0)
 

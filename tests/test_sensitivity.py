@@ -10,14 +10,14 @@ import pytest
 
 from circuits import C, L, R, SERIES_RLC
 from netcheck import read_netlist
-from netcheck.assemble import assemble
-from netcheck.evaluate import ResponseCurve, SpecProbe
+from netcheck.mna.assemble import assemble
+from netcheck.analyses.nominal import ResponseCurve, SpecProbe
 from netcheck.measure import resonance
-from netcheck import sensitivity
-from netcheck.sensitivity import AdjointSensitivity
-from netcheck.solve import solve
+from netcheck.mna import sensitivity
+from netcheck.mna.sensitivity import AdjointSensitivity
+from netcheck.mna.solve import solve
 from netcheck.spec import parse_spec
-from netcheck.tolerance import with_values
+from netcheck.analyses.tolerance import with_values
 
 
 def _probe(ckt, spec):
@@ -196,7 +196,7 @@ default = { R = "1%", C = "2%", L = "2%" }
 mode = ["worst_case"]
 """
     (tmp_path / "x.toml").write_text(spec_text)
-    from netcheck.evaluate import check_spec
+    from netcheck.analyses.nominal import check_spec
     res = check_spec(str(tmp_path / "x.toml"))
     wc = dict(res.extra)["tolerance"]["worst_case"]
     assert len(wc["limits"]) == 13

@@ -10,8 +10,8 @@ from scipy import signal
 
 from circuits import butterworth_ladder
 from netcheck import read_netlist
-from netcheck.assemble import System, assemble
-from netcheck.solve import DenseEngine, SparseEngine
+from netcheck.mna.assemble import System, assemble
+from netcheck.mna.solve import DenseEngine, SparseEngine
 
 R, L, C = 50.0, 10e-3, 1.5e-9
 
@@ -121,9 +121,9 @@ def test_sparse_path_finds_a_narrow_peak_between_grid_points():
     # series RLC with Q ~ 2000. Series RLC closed form (textbook): the peak is at
     # f0 = 1/(2 pi sqrt(LC)) with |H| = 1 (0 dB), and the poles are
     # s = -R/(2L) +- j sqrt(1/(LC) - (R/2L)^2).
-    from netcheck.evaluate import ResponseCurve
+    from netcheck.analyses.nominal import ResponseCurve
     from netcheck.measure import peak
-    from netcheck.solve import solve
+    from netcheck.mna.solve import solve
 
     lq, cq, rq = 2.2e-3, 7.2e-9, 0.276
     lines = ["Quillmere test: long chain into a sharp resonator", "V1 n0 0 AC 1"]
@@ -166,7 +166,7 @@ def quillmere_comb(branch_hz: np.ndarray, q: np.ndarray, sections: int = 320) ->
 
 def lightly_damped_in_sweep(system: System, lo: float, hi: float) -> np.ndarray:
     """Reference poles (Hz): scipy.linalg.eigvals of the dense pencil (G, -C), i.e. the
-    roots of det(G + sC) = 0, kept as netcheck.evaluate.seeds_from_roots keeps them
+    roots of det(G + sC) = 0, kept as netcheck.analyses.nominal.seeds_from_roots keeps them
     (Im > 0, |Im| > |Re|, and |Im| or |s| inside [lo, hi])."""
     import scipy.linalg as sla
 
@@ -187,10 +187,10 @@ def assert_found(found: np.ndarray, reference: np.ndarray, rel: float = 1e-6) ->
 
 
 def count_factorisations(monkeypatch: pytest.MonkeyPatch) -> list[int]:
-    """A list that grows by one at every SuperLU factorisation netcheck.solve makes."""
+    """A list that grows by one at every SuperLU factorisation netcheck.mna.solve makes."""
     import scipy.sparse.linalg as spla
 
-    from netcheck import solve as solve_module
+    from netcheck.mna import solve as solve_module
 
     calls: list[int] = []
     real_splu = spla.splu
@@ -203,8 +203,8 @@ def test_sparse_path_finds_every_pole_of_a_crowded_comb(monkeypatch: pytest.Monk
                                                          ) -> None:
     # 14 sharp branches over 10-100 kHz, more than six to a decade; the sharpest
     # (R = 1 ohm, Q ~ 1.7e5) near 34.1 kHz makes the peak. 366 unknowns: sparse path.
-    from netcheck import solve as solve_module
-    from netcheck.evaluate import ResponseCurve
+    from netcheck.mna import solve as solve_module
+    from netcheck.analyses.nominal import ResponseCurve
     from netcheck.measure import peak
 
     branch_hz = np.geomspace(10e3, 100e3, 16)[1:-1]
@@ -237,7 +237,7 @@ def test_sparse_poles_cover_the_cone_when_more_crowd_than_one_shift_may_ask_for(
     # 60 sharp branches (Q = 40) and 20 broad ones (Q = 0.75 to 1, poles near the 45
     # degree line) over 5-100 kHz: more lightly damped poles within reach of one shift
     # than the 48 it may ask for, so sectors are halved. Called on the pencil directly.
-    from netcheck.solve import sparse_poles
+    from netcheck.mna.solve import sparse_poles
 
     sharp = np.geomspace(10e3, 100e3, 60)
     broad = np.geomspace(5e3, 50e3, 20)
@@ -257,14 +257,14 @@ def test_sparse_poles_stop_at_the_shift_cap(monkeypatch: pytest.MonkeyPatch,
     # than SPARSE_POLES_MAX_SHIFTS, and a debug message when the search stops short.
     import logging
 
-    from netcheck import _sparse_poles as search
+    from netcheck.mna import sparse_poles as search
 
     branch_hz = np.geomspace(10e3, 100e3, 60)
     system = assemble(read_netlist(quillmere_comb(branch_hz, np.full(60, 40.0), 10)),
                       "V1", "out")
     factorisations = count_factorisations(monkeypatch)
     monkeypatch.setattr(search, "SPARSE_POLES_MAX_SHIFTS", 3)
-    with caplog.at_level(logging.DEBUG, logger="netcheck._sparse_poles"):
+    with caplog.at_level(logging.DEBUG, logger="netcheck.mna.sparse_poles"):
         found = search.sparse_poles(system.G.tocsc(), system.C.tocsc(), 1e3, 1e6)
     assert len(factorisations) == 3
     assert found.size > 0
@@ -279,7 +279,7 @@ def test_sparse_poles_of_a_long_rc_ladder_take_one_shift_per_decade_at_most(
     # with its last diagonal entry 1). All real: none is lightly damped, and a real pole
     # never has to be inside a search disc, so there is at most one shift per decade of
     # search radii (sparse_poles docstring) however many real poles crowd there.
-    from netcheck.solve import sparse_poles
+    from netcheck.mna.solve import sparse_poles
 
     n_sec, r, c = 2000, 1.0, 100e-12
     lines = ["Quillmere Instruments QL-2000 sensor lead", "V1 n0 0 AC 1"]
@@ -302,7 +302,7 @@ def test_sparse_poles_find_the_antisymmetric_mode_of_a_symmetric_circuit() -> No
     # loop on its own, with poles s = -R/(2L) +- j sqrt(1/(LC) - (R/2L)^2) (series RLC
     # closed form, textbook). The source cannot excite it, but it is a pole of the circuit
     # (it shows once the twins differ, as in a Monte Carlo sample) and must be found.
-    from netcheck.solve import sparse_poles
+    from netcheck.mna.solve import sparse_poles
 
     lq, cq, rq = 10e-3, 10e-9, 2.0
     lines = ["Quillmere Instruments twin resonator", "V1 src 0 AC 1", "RS src in 50",

@@ -6,7 +6,7 @@ import unicodedata
 
 import pytest
 
-from netcheck.source import MESSAGE_MAX, printable
+from netcheck.netlist.source import MESSAGE_MAX, printable
 
 
 @pytest.mark.parametrize("code", [*range(0x00, 0x09), *range(0x0A, 0x20), *range(0x7F, 0xA0)])

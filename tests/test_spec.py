@@ -8,9 +8,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.exceptions import CODES, SpecError
-from netcheck.limits import LIMITS, CornerLimit, GainLimit, ResonanceLimit
+from netcheck.spec.limits import LIMITS, CornerLimit, GainLimit, ResonanceLimit
 from netcheck.result import Status
 from netcheck.spec import Spec, Sweep, load_spec, parse_spec
 
@@ -372,7 +372,9 @@ class TestSpecFormatDoc:
         assert summary[0].upper() + summary[1:] + "." in section
 
     def test_every_other_key_is_named(self):
-        from netcheck import batch, stress, tolerance
+        from netcheck.runs import batch
+        from netcheck.analyses import stress
+        from netcheck.analyses import tolerance
         from netcheck.spec import SWEEP_KEYS, TOP_KEYS
 
         doc = self.text()

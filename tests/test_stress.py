@@ -1,4 +1,4 @@
-"""Tests of netcheck.stress: spec parsing, true peak part stress over a sweep, and cautions."""
+"""Tests of netcheck.analyses.stress: spec parsing, true peak part stress over a sweep, and cautions."""
 
 from __future__ import annotations
 
@@ -8,10 +8,10 @@ import numpy as np
 import pytest
 from scipy.optimize import minimize_scalar
 
-import netcheck.stress as stress_mod
+import netcheck.analyses.stress as stress_mod
 from netcheck import SpecError, read_netlist
 from netcheck.result import LimitResult, Status
-from netcheck.stress import (KEYS, QUANTITIES, StressResult, judge_stress, parse_stress,
+from netcheck.analyses.stress import (KEYS, QUANTITIES, StressResult, judge_stress, parse_stress,
                              stress_cautions, stress_lines)
 
 # Closed forms below are standard circuit theory quoted from memory (not looked up);

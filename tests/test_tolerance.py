@@ -13,12 +13,12 @@ from scipy import stats
 from circuits import C, L, R
 from circuits import SERIES_RLC as NETLIST
 from netcheck import read_netlist
-from netcheck.assemble import assemble
-from netcheck.evaluate import check_spec
+from netcheck.mna.assemble import assemble
+from netcheck.analyses.nominal import check_spec
 from netcheck.exceptions import SpecError
 from netcheck.result import Status
-from netcheck.sensitivity import adjoint_sensitivities
-from netcheck.tolerance import draw, parse_analysis, parse_tolerances, wilson_interval
+from netcheck.mna.sensitivity import adjoint_sensitivities
+from netcheck.analyses.tolerance import draw, parse_analysis, parse_tolerances, wilson_interval
 
 
 def _spec(tmp_path: Path, tolerances: str, analysis: str, limits: str = "") -> str:
@@ -137,7 +137,7 @@ def test_adjoint_sensitivities_match_central_differences(seed):
 
 
 def _solve_with(ckt, name, value, f):
-    from netcheck.assemble import Stamper
+    from netcheck.mna.assemble import Stamper
     system = assemble(ckt, "V1", "out")
     st = Stamper(ckt, {name: value})
     st.stamp_all()
@@ -282,8 +282,8 @@ def test_monte_carlo_phase_limit_matches_per_sample_checks(tmp_path):
     # A phase limit over a band holding the resonance (so pole seeds are used): each
     # sample's batched phase extreme equals a nominal check of that sample's circuit.
     from netcheck.spec import load_spec
-    from netcheck.tolerance import run_samples, with_values
-    from netcheck.evaluate import evaluate
+    from netcheck.analyses.tolerance import run_samples, with_values
+    from netcheck.analyses.nominal import evaluate
     path = _spec(tmp_path, 'default = { L = "5%", C = "5%" }', 'mode = ["monte_carlo"]',
                  '[[limits]]\nkind = "phase"\nband = ["30k", "50k"]\nrange_deg = [-80, 80]')
     spec = load_spec(path)
@@ -303,10 +303,10 @@ def test_monte_carlo_on_the_sparse_path_matches_per_sample_checks(tmp_path):
     # A system over 300 unknowns takes the sparse path: each sample is factored by
     # SuperLU on one shared pattern. Its batched verdicts and measurements must equal a
     # nominal check of each sample's own circuit (which uses scipy's SuperLU directly).
-    from netcheck.solve import DENSE_MAX
+    from netcheck.mna.solve import DENSE_MAX
     from netcheck.spec import load_spec
-    from netcheck.tolerance import run_samples, with_values
-    from netcheck.evaluate import evaluate
+    from netcheck.analyses.tolerance import run_samples, with_values
+    from netcheck.analyses.nominal import evaluate
     chain = "\n".join(f"RC{k} n{k} n{k + 1} 1" for k in range(DENSE_MAX))
     net = (f"Quillmere test: long chain into a series RLC\nV1 n0 0 AC 1\n{chain}\n"
            f"E1 b 0 n{DENSE_MAX} 0 1\nL1 b a {L!r}\nC1 a out {C!r}\nR1 out 0 {R!r}\n")

@@ -20,7 +20,7 @@ import pytest
 from circuits import C, L, R
 from circuits import SERIES_RLC, split_rc_chain as _chain
 from netcheck.cli import main
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.result import Status
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -741,8 +741,8 @@ def test_error_in_a_sub_table_with_spaced_header_has_its_line(tmp_path):
 def test_corners_on_the_sparse_path_stop_at_a_lower_cap(tmp_path):
     # every corner of a system on the sparse path is a sweep of its own: 2^7 = 128 of
     # them is more than the cap of 6 parts there, so EVA alone decides
-    from netcheck.solve import DENSE_MAX
-    from netcheck.worstcase import MAX_CORNER_PARTS_SPARSE
+    from netcheck.mna.solve import DENSE_MAX
+    from netcheck.analyses.worstcase import MAX_CORNER_PARTS_SPARSE
     chain = "\n".join(f"RC{k} n{k} n{k + 1} 1" for k in range(DENSE_MAX))
     net = (f"Quillmere test: long chain into a series RLC\nV1 n0 0 AC 1\n{chain}\n"
            f"E1 b 0 n{DENSE_MAX} 0 1\nL1 b a {L!r}\nC1 a out {C!r}\nR1 out 0 {R!r}\n"

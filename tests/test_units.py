@@ -8,7 +8,7 @@ import pytest
 from hypothesis import given
 from hypothesis import strategies as st
 
-from netcheck.units import UnitError, parse_quantity, parse_value
+from netcheck.netlist.units import UnitError, parse_quantity, parse_value
 
 # Scale letters of SPICE-style netlists (common practice, no source): f p n u m k meg g t,
 # case-insensitive, so "m"/"M" is milli and "meg" mega. mil is a thousandth of an inch,

@@ -28,13 +28,13 @@ from hypothesis import strategies as st
 from scipy.optimize import minimize_scalar
 
 from netcheck import NetcheckError, read_netlist
-from netcheck.assemble import assemble
-from netcheck.evaluate import ResponseCurve, check_spec
+from netcheck.mna.assemble import assemble
+from netcheck.analyses.nominal import ResponseCurve, check_spec
 from netcheck.measure import FunctionCurve, band_extremes, stationary_points
 from netcheck.result import Status
-from netcheck.sample_probe import BatchProbe
-from netcheck.sampling import SampleSet
-from netcheck.solve import DenseEngine
+from netcheck.analyses.sample_probe import BatchProbe
+from netcheck.mna.sampling import SampleSet
+from netcheck.mna.solve import DenseEngine
 
 TWO_PI = 2 * math.pi
 

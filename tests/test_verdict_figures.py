@@ -29,12 +29,12 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from netcheck.evaluate import check_spec
-from netcheck.limits import GainLimit
+from netcheck.analyses.nominal import check_spec
+from netcheck.spec.limits import GainLimit
 from netcheck.measure import Extremum
 from netcheck.render import RenderOptions, get_renderer
 from netcheck.result import CheckResult, LimitResult, Status
-from netcheck.units import format_eng, row_text, tell_apart
+from netcheck.netlist.units import format_eng, row_text, tell_apart
 
 ROOT = Path(__file__).resolve().parents[1]
 CREATED = "2026-01-01T00:00:00Z"
@@ -358,7 +358,7 @@ def test_yields_carry_their_interval_everywhere(bandpass):
 
 
 def test_a_met_yield_says_its_interval_in_junit_too():
-    # the Wilson interval text as netcheck.tolerance writes it (no outside figure needed)
+    # the Wilson interval text as netcheck.analyses.tolerance writes it (no outside figure needed)
     from netcheck.result import SpecResult
 
     row = LimitResult("Monte Carlo yield (all limits)", "yield", Status.PASS, 1.0, 0.95, None,

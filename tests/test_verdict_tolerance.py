@@ -24,9 +24,9 @@ from scipy import stats
 
 from circuits import C, L, SERIES_RLC, split_rc_chain as _chain
 from netcheck.cli import main
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.result import Status
-from netcheck.tolerance import draw, wilson_interval
+from netcheck.analyses.tolerance import draw, wilson_interval
 
 #: a crystal-like motional arm (Quillmere Instruments reference oscillator): series RLC,
 #: output across R, f0 = 1/(2 pi sqrt(L C)) ≈ 1.0066 MHz, Q = sqrt(L/C)/R ≈ 50 600
@@ -172,7 +172,7 @@ def _box(f, P: int, t: float = 0.05) -> np.ndarray:
 def test_monotonicity_check_on_known_functions():
     # reference: calculus (common practice, no source): exp(x0 − 2 x1) is monotone in
     # both coordinates; x0² has its minimum inside the box; a part with no effect is flat
-    from netcheck.worstcase import FLAT, _not_monotone
+    from netcheck.analyses.worstcase import FLAT, _not_monotone
 
     assert _not_monotone(_box(lambda x: math.exp(x[0] - 2 * x[1]), 2), 2, 1e-12) == []
     assert _not_monotone(_box(lambda x: x[0] ** 2 + x[1], 2), 2, 1e-12) == [0]

@@ -57,11 +57,11 @@ def render_to(name: str, result: CheckResult, path: str,
               options: RenderOptions | None = None, *, guard: Any = None) -> None:
     """Render ``result`` as ``name`` into ``path`` (``-`` = stdout), atomically.
 
-    ``guard`` (an :class:`netcheck.outputs.OutputGuard`) holds the run's inputs, which
+    ``guard`` (an :class:`netcheck.render.outputs.OutputGuard`) holds the run's inputs, which
     ``path`` may not name. Raises :class:`netcheck.exceptions.RenderError` when the file
     is refused or cannot be written; a file that was there is then left as it was.
     """
-    from ..outputs import open_output
+    from .outputs import open_output
     _, binary = RENDERERS[name]
     renderer = get_renderer(name)
     with open_output(path, binary=binary, guard=guard) as stream:

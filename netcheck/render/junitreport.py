@@ -37,7 +37,7 @@ import xml.etree.ElementTree as ET
 from typing import IO
 
 from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
-from ..units import signed_eng
+from ..netlist.units import signed_eng
 from . import RenderOptions
 
 __all__ = ["render", "xml_text", "limit_summary", "caution_line", "signed"]

@@ -26,7 +26,7 @@ from __future__ import annotations
 from typing import IO
 
 from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
-from ..source import clip
+from ..netlist.source import clip
 from . import NAME_SHOWN_MAX, TEXT_SHOWN_MAX, RenderOptions
 
 __all__ = ["render", "md_text", "md_name"]

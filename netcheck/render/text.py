@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import IO, Any
 
 from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
-from ..source import MESSAGE_MAX, printable
+from ..netlist.source import MESSAGE_MAX, printable
 
 __all__ = ["render", "LINE_MAX", "ERROR_LINES_MAX"]
 

@@ -5,9 +5,9 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from ..provenance import GitState, git_state
+from ..runs.provenance import GitState, git_state
 from ..result import SAFETY_CAUTION, CheckResult, LimitResult, SpecResult, Status
-from ..units import format_eng, format_si
+from ..netlist.units import format_eng, format_si
 from .formatting import (LISTING_ROWS_MAX, LISTING_TOTAL_MAX, MEASUREMENTS, caution_view,
                          cell_text, date_text, display_path, format_margin, format_measured,
                          listing, shown_name, status_view, unit_of)

@@ -8,8 +8,8 @@ from typing import Any
 
 from ..render import NAME_SHOWN_MAX, TEXT_SHOWN_MAX
 from ..result import LimitResult, Status
-from ..source import clip, display_path
-from ..units import digits_at, format_eng, signed_eng, tell_apart
+from ..netlist.source import clip, display_path
+from ..netlist.units import digits_at, format_eng, signed_eng, tell_apart
 
 __all__ = ["SYMBOL", "MEASUREMENTS", "status_view", "format_measured", "format_margin",
            "unit_of", "signed", "format_fraction", "format_interval", "format_range",
@@ -121,7 +121,7 @@ def format_interval(ci: Any) -> str:
 def format_range(lo: float | None, hi: float | None, unit: str,
                  place: int | None = None) -> str:
     """A range as the tolerance tables print it, the unit written once when shared; its
-    ends to the decimal ``place`` a table row chose (:func:`netcheck.units.tell_apart`),
+    ends to the decimal ``place`` a table row chose (:func:`netcheck.netlist.units.tell_apart`),
     or else with as many figures as tell them apart.
 
     Examples

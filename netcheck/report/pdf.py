@@ -31,11 +31,11 @@ from pathlib import Path
 from typing import IO, Any
 
 from ..exceptions import RenderError
-from ..provenance import GitState, git_state
+from ..runs.provenance import GitState, git_state
 from ..result import CheckResult, SpecResult
 from .context import build_context
 from ..render import TEXT_SHOWN_MAX
-from ..source import clip
+from ..netlist.source import clip
 from .formatting import (format_fraction, format_interval, format_margin, format_measured,
                          format_range, shown_name)
 
@@ -304,7 +304,7 @@ def render_per_spec(result: CheckResult, directory: str | os.PathLike,
     directory : str or path-like
         The folder (created if needed).
     options : RenderOptions, optional
-    guard : netcheck.outputs.OutputGuard, optional
+    guard : netcheck.render.outputs.OutputGuard, optional
         The run's inputs and other outputs: a report file that would replace one of
         them is refused (``NC401``) and the next is written.
     on_error : callable, optional
@@ -312,7 +312,7 @@ def render_per_spec(result: CheckResult, directory: str | os.PathLike,
         a write error, or a bug while rendering it); the others are still written.
         Without it the first such exception is raised after all the others are written.
     """
-    from ..outputs import open_output
+    from ..render.outputs import open_output
 
     written, failures = [], []
     for s, name in zip(result.specs, report_names(result.specs)):

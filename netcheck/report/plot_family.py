@@ -7,7 +7,7 @@ from typing import Any
 
 
 from ..result import SpecResult
-from ..units import format_si
+from ..netlist.units import format_si
 from .plot_base import (FONT_PT, PALETTE, Plot, Tag, figure_keys, frequency_axis, legend_above,
                         mark_zoom, new_figure, style_axes, to_svg)
 from .plot_gain import (GAIN_QUANTITIES, draw_mask, drawn_gain, gain_label, gain_limits,

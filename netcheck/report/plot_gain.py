@@ -15,9 +15,9 @@ from typing import Any
 import numpy as np
 
 from ..result import LimitResult, MaskBand, SpecResult, Status
-from ..units import format_eng, format_si
+from ..netlist.units import format_eng, format_si
 from .plot_base import FONT_PT, PALETTE, Tag
-from .plot_points import curve_points
+from ..measure.detail import curve_points
 
 __all__ = ["GAIN_QUANTITIES", "HALF_POWER_DB", "tags_for", "zoom_window", "zoom_is_resonance",
            "gain_limits", "draw_mask", "fail_points", "with_exact_points", "drawn_gain",
@@ -155,7 +155,7 @@ def zoom_is_resonance(spec: SpecResult) -> bool:
 
 def drawn_gain(spec: SpecResult) -> tuple[np.ndarray, np.ndarray]:
     """(frequency Hz, gain dB) drawn for ``spec``: the sweep grid, the exact detail points
-    the result carries (:func:`~netcheck.report.plot_points.curve_points`) and the refined
+    the result carries (:func:`~netcheck.measure.detail.curve_points`) and the refined
     peak and half-power edges (:func:`with_exact_points`)."""
     return with_exact_points(spec, *curve_points(spec.curves, "gain_db"))
 

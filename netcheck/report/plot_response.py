@@ -8,12 +8,12 @@ from typing import Any
 import numpy as np
 
 from ..result import SpecResult
-from ..units import format_eng, format_si
+from ..netlist.units import format_eng, format_si
 from .plot_base import (FONT_PT, PALETTE, Plot, Tag, figure_keys, frequency_axis, legend_above,
                         mark_zoom, new_figure, si_scale, style_axes, to_svg)
 from .plot_gain import (GAIN_QUANTITIES, HALF_POWER_DB, draw_mask, drawn_gain, fail_points,
                         gain_label, gain_limits, tags_for, zoom_is_resonance, zoom_window)
-from .plot_points import curve_points
+from ..measure.detail import curve_points
 from .plot_tolerance import draw_envelope, envelope_caption, has_envelope
 
 __all__ = ["spec_plots", "spec_figures"]

@@ -8,7 +8,7 @@ from typing import Any
 import numpy as np
 
 from ..result import SpecResult
-from ..units import format_eng
+from ..netlist.units import format_eng
 from .lookup import analysis_block, nominal_limits
 from .plot_base import (FONT_PT, PALETTE, Plot, legend_above, new_figure, si_scale, style_axes,
                         to_svg)

@@ -6,7 +6,7 @@ The public plotting API, gathered from the modules that draw each kind of figure
 * ``plot_points``: where curves are drawn through: the sweep grid and the exact points off
   it that a result carries (refined extrema, around lightly damped poles and zeros, and
   wherever a straight segment would stray from the curve), chosen where the response is
-  solved (:func:`~netcheck.report.plot_points.detail_curves`);
+  solved (:func:`~netcheck.measure.detail.detail_curves`);
 * ``plot_gain``: the gain axis shared by spec and family figures (mask and failure tags,
   zoom window, allowed and forbidden regions, failure marks);
 * ``plot_response``: one spec's gain overview, zoom, phase and group-delay panels;
@@ -24,7 +24,7 @@ from __future__ import annotations
 from .plot_base import FIG_WIDTH_IN, PALETTE, Plot, Tag
 from .plot_family import VARIANT_STYLES, family_plots, variant_style
 from .plot_gain import drawn_gain, tags_for, zoom_is_resonance, zoom_window
-from .plot_points import curve_points, detail_curves
+from ..measure.detail import curve_points, detail_curves
 from .plot_response import spec_figures, spec_plots
 from .plot_tolerance import histogram_plot
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from ..result import SpecResult, Status
-from ..units import digits_at, format_eng, format_si, tell_apart
+from ..netlist.units import digits_at, format_eng, format_si, tell_apart
 from .formatting import caution_view, display_path, signed, status_view
 from .lookup import analysis_block
 

@@ -5,8 +5,8 @@ from __future__ import annotations
 from typing import Any
 
 from ..result import LimitResult, SpecResult, Status
-from ..units import digits_at, format_eng, tell_apart
-from ..worstcase import MAX_CORNER_PARTS
+from ..netlist.units import digits_at, format_eng, tell_apart
+from ..analyses.worstcase import MAX_CORNER_PARTS
 from .formatting import (MEASUREMENTS, caution_view, cell_text, coefficient, format_fraction,
                          format_interval, format_margin, format_range, signed, status_view,
                          tolerance_text, unit_of)

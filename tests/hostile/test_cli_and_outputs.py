@@ -107,16 +107,16 @@ class TestArguments:
         no_traceback(err)
 
     def test_too_many_jobs_are_capped_with_a_note(self, tmp_path, capsys, monkeypatch):
-        import netcheck.batch
+        import netcheck.runs.batch
 
         spec = design(tmp_path)
         seen = []
-        real = netcheck.batch.LocalExecutor.__init__
+        real = netcheck.runs.batch.LocalExecutor.__init__
 
         def spy(self, workers=None):
             seen.append(workers)
             real(self, workers)
-        monkeypatch.setattr(netcheck.batch.LocalExecutor, "__init__", spy)
+        monkeypatch.setattr(netcheck.runs.batch.LocalExecutor, "__init__", spy)
         monkeypatch.setattr(os, "cpu_count", lambda: 2)
         assert netcheck_main(["check", str(spec), "--jobs", "500"]) == OK
         assert seen == [8]  # 4 per CPU
@@ -272,7 +272,7 @@ def test_fifo_named_on_the_command_line_is_not_opened(tmp_path):
 
 
 def test_toml_bomb_in_a_scanned_folder_is_listed_not_fatal(tmp_path, capsys):
-    from netcheck.checkcli import find_specs
+    from netcheck.cli.check import find_specs
 
     design(tmp_path / "designs")
     bomb = tmp_path / "designs" / "bomb.toml"
@@ -286,7 +286,7 @@ def test_toml_bomb_in_a_scanned_folder_is_listed_not_fatal(tmp_path, capsys):
 
 
 def test_oversize_toml_is_not_read_while_scanning(tmp_path, monkeypatch, capsys):
-    import netcheck.checkcli as checkcli
+    import netcheck.cli.check as checkcli
 
     design(tmp_path / "designs")
     big = tmp_path / "designs" / "data.toml"
@@ -299,7 +299,7 @@ def test_oversize_toml_is_not_read_while_scanning(tmp_path, monkeypatch, capsys)
 
 
 def test_link_loop_in_a_scanned_folder_ends(tmp_path):
-    from netcheck.checkcli import find_specs
+    from netcheck.cli.check import find_specs
 
     spec = design(tmp_path / "designs")
     (tmp_path / "designs" / "again").symlink_to(tmp_path / "designs", target_is_directory=True)
@@ -332,12 +332,12 @@ class TestOutputsNeverReplaceInputs:
         assert not list(tmp_path.glob(".*.part"))
 
     def test_refused_before_the_run(self, tmp_path, capsys, monkeypatch):
-        import netcheck.batch
+        import netcheck.runs.batch
 
         spec = design(tmp_path)
         order = []
-        real = netcheck.batch.run_all
-        monkeypatch.setattr(netcheck.batch, "run_all",
+        real = netcheck.runs.batch.run_all
+        monkeypatch.setattr(netcheck.runs.batch, "run_all",
                             lambda *a, **k: (order.append("run"), real(*a, **k))[1])
         monkeypatch.setattr(sys.stderr, "write",
                             lambda text, w=sys.stderr.write: (order.append(text), w(text))[1])
@@ -529,17 +529,17 @@ class TestExitCodes:
 
     def test_internal_error_result_beats_bad_input_and_outputs_are_written(
             self, tmp_path, monkeypatch, capsys):
-        import netcheck.evaluate
+        import netcheck.analyses.nominal
 
         good = design(tmp_path / "good")
         buggy = design(tmp_path / "buggy")
-        real = netcheck.evaluate.check_spec
+        real = netcheck.analyses.nominal.check_spec
 
         def check_spec(path, *args, **kwargs):
             if "buggy" in str(path):
                 raise RuntimeError("simulated bug")
             return real(path, *args, **kwargs)
-        monkeypatch.setattr(netcheck.evaluate, "check_spec", check_spec)
+        monkeypatch.setattr(netcheck.analyses.nominal, "check_spec", check_spec)
         code = main(["check", str(good), str(buggy), str(tmp_path / "missing.toml"),
                      "--json", str(tmp_path / "r.json")])
         assert code == INTERNAL
@@ -553,17 +553,17 @@ class TestExitCodes:
     def test_result_with_internal_code_gives_status_3(self, tmp_path, monkeypatch):
         import dataclasses
 
-        import netcheck.batch
+        import netcheck.runs.batch
         from netcheck.result import Caution, Status
 
         spec = design(tmp_path)
-        real = netcheck.batch.run_all
+        real = netcheck.runs.batch.run_all
 
         def run_all(*args, **kwargs):
             return tuple(dataclasses.replace(r, status=Status.ERROR, error="bug",
                                              cautions=(Caution("NC500", "bug", "error"),))
                          for r in real(*args, **kwargs))
-        monkeypatch.setattr(netcheck.batch, "run_all", run_all)
+        monkeypatch.setattr(netcheck.runs.batch, "run_all", run_all)
         assert main(["check", str(spec), "--json", str(tmp_path / "r.json")]) == INTERNAL
         assert (tmp_path / "r.json").exists()
 
@@ -650,7 +650,7 @@ def test_git_never_runs_programs_named_by_the_repository(tmp_path, monkeypatch, 
 # ---------------------------------------------------------------------------- baseline
 class TestBaseline:
     def test_deeply_nested_json(self, tmp_path):
-        from netcheck.ci import BaselineError, load_baseline
+        from netcheck.runs.ci import BaselineError, load_baseline
 
         path = tmp_path / "base.json"
         path.write_text("[" * 100_000 + "]" * 100_000)
@@ -663,7 +663,7 @@ class TestBaseline:
                                                  ('"wide"', 'expected a number, "inf"'),
                                                  ("1" * 5000, "not valid JSON")])
     def test_unusable_margins(self, tmp_path, margin, message):
-        from netcheck.ci import BaselineError, load_baseline
+        from netcheck.runs.ci import BaselineError, load_baseline
 
         path = tmp_path / "base.json"
         path.write_text('{"schema": "netcheck.result/1", "specs": [{"spec": "lp.toml", '
@@ -673,7 +673,7 @@ class TestBaseline:
         assert info.value.code == "NC411" and str(path) in info.value.format()
 
     def test_nan_margin_given_as_data(self):
-        from netcheck.ci import BaselineError, validate_result
+        from netcheck.runs.ci import BaselineError, validate_result
 
         doc = {"schema": "netcheck.result/1",
                "specs": [{"spec": "lp.toml", "limits": [{"name": "g", "margin": float("nan")}]}]}

@@ -25,8 +25,8 @@ import numpy as np
 import pytest
 
 from netcheck import NetcheckError, read_netlist
-from netcheck.assemble import assemble
-from netcheck.solve import DenseEngine, PoleZeroEngine, SparseEngine, solve
+from netcheck.mna.assemble import assemble
+from netcheck.mna.solve import DenseEngine, PoleZeroEngine, SparseEngine, solve
 
 ROOT = Path(__file__).resolve().parents[2]
 

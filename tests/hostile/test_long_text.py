@@ -24,11 +24,11 @@ from pathlib import Path
 
 import pytest
 
-from netcheck._spec_guard import (MAX_PATH_CHARS, MAX_STRING_WRITTEN, MAX_TEXT_CHARS,
+from netcheck.spec.guard import (MAX_PATH_CHARS, MAX_STRING_WRITTEN, MAX_TEXT_CHARS,
                                   check_text_lengths, validate_sweep)
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.exceptions import NetlistSyntaxError, SpecError
-from netcheck.parse import TITLE_MAX, load_netlist
+from netcheck.netlist.parse import TITLE_MAX, load_netlist
 from netcheck.render import NAME_SHOWN_MAX, RenderOptions, get_renderer
 from netcheck.result import CheckResult, LimitResult, SpecResult, Status
 from netcheck.spec import load_spec, parse_spec
@@ -296,7 +296,7 @@ class TestSpecLineEndsAndEncoding:
 
     @pytest.mark.parametrize("encoding", ["utf-16", "utf-16-le", "utf-16-be"])
     def test_utf16(self, tmp_path, encoding):
-        # already refused before this change (netcheck.source.read_text); kept as a guard
+        # already refused before this change (netcheck.netlist.source.read_text); kept as a guard
         path = spec_file(tmp_path, spec_text().encode(encoding))
         err = pytest.raises(SpecError, load_spec, path).value
         assert err.code == "NC117" and "UTF-16" in err.message and str(path) in str(err)

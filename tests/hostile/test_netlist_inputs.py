@@ -18,10 +18,10 @@ from pathlib import Path
 import pytest
 
 from netcheck import NetcheckError, read_netlist
-from netcheck import parse as parse_mod
+from netcheck.netlist import parse as parse_mod
 from netcheck.exceptions import SpecError
-from netcheck.parse import INCLUDE_DEPTH_MAX, SUBCKT_DEPTH_MAX
-from netcheck.source import FILE_MAX_BYTES, SourceFile, format_caret, read_text
+from netcheck.netlist.parse import INCLUDE_DEPTH_MAX, SUBCKT_DEPTH_MAX
+from netcheck.netlist.source import FILE_MAX_BYTES, SourceFile, format_caret, read_text
 
 ROOT = Path(__file__).resolve().parents[2]
 ESC = "\x1b"
@@ -106,7 +106,7 @@ class TestNotARegularFile:
         os.mkfifo(tmp_path / "x.toml")
         got = run_bounded("""
             from netcheck.exceptions import SpecError
-            from netcheck.source import read_text
+            from netcheck.netlist.source import read_text
             try:
                 read_text("x.toml", SpecError, "spec")
             except SpecError as err:
@@ -121,8 +121,8 @@ class TestNotARegularFile:
         got = run_bounded("""
             from netcheck import read_netlist
             from netcheck.exceptions import NetcheckError
-            from netcheck._baseline import BaselineError
-            from netcheck.source import read_text
+            from netcheck.runs.baseline import BaselineError
+            from netcheck.netlist.source import read_text
             result = {}
             for name, load in (("netlist", read_netlist),
                                ("baseline", lambda p: read_text(p, BaselineError, "baseline",
@@ -174,7 +174,7 @@ class TestSizeBudget:
             def __init__(self, info):
                 self.st_mode, self.st_size = info.st_mode, 10
 
-        monkeypatch.setattr("netcheck.source.os.stat", lambda p: Small(real_stat(p)))
+        monkeypatch.setattr("netcheck.netlist.source.os.stat", lambda p: Small(real_stat(p)))
         with pytest.raises(SpecError) as info:
             read_text(path, SpecError, "spec", budget=100)
         assert info.value.code == "NC117"
@@ -525,7 +525,7 @@ def test_sweep_command_prints_the_bounded_list(tmp_path, capsys):
 
 def test_errors_md_states_the_budgets_in_force():
     # docs/errors.md gives the budgets in numbers; they must be the ones the code uses
-    from netcheck.parse import ELEMENTS_MAX, INCLUDE_TEXT_MAX, INCLUDES_MAX, TOKENS_MAX
+    from netcheck.netlist.parse import ELEMENTS_MAX, INCLUDE_TEXT_MAX, INCLUDES_MAX, TOKENS_MAX
 
     doc = (ROOT / "docs" / "errors.md").read_text("utf-8")
     nc116 = doc[doc.index('id="NC116"'):doc.index('id="NC117"')]

@@ -21,10 +21,10 @@ from pathlib import Path
 
 import pytest
 
-from netcheck import batch
-from netcheck.batch import (DaskExecutor, Job, LocalExecutor, SerialExecutor, expand_jobs,
+from netcheck.runs import batch
+from netcheck.runs.batch import (DaskExecutor, Job, LocalExecutor, SerialExecutor, expand_jobs,
                             run_all, run_job)
-from netcheck.evaluate import TRACEBACK_MAX, check_spec
+from netcheck.analyses.nominal import TRACEBACK_MAX, check_spec
 from netcheck.exceptions import CODES, INTERNAL_CODE, SpecError
 from netcheck.result import Status
 from netcheck.spec import (MAX_FREQUENCY_HZ, MAX_LIMITS, MAX_NESTING, MAX_SWEEP_POINTS,
@@ -96,7 +96,7 @@ def run_isolated(code: str, cwd: Path, timeout: float = 180,
 #: prints [status, codes, error] of every result of the specs named in ARGS
 RUN_ALL = """
 import json
-from netcheck.batch import SerialExecutor, expand_jobs, run_all
+from netcheck.runs.batch import SerialExecutor, expand_jobs, run_all
 out = [[r.status.value, sorted(c.code for c in r.cautions), r.error or ""]
        for r in run_all(expand_jobs(ARGS), SerialExecutor())]
 print(json.dumps(out))
@@ -166,7 +166,7 @@ class TestOneBadInputCostsOnlyItself:
 
     def test_an_exception_inside_a_check_is_an_internal_error_result(self, tmp_path,
                                                                       monkeypatch):
-        import netcheck.evaluate as evaluate
+        import netcheck.analyses.nominal as evaluate
 
         spec_file(tmp_path)
         spec_file(tmp_path, "other")
@@ -190,7 +190,7 @@ class TestOneBadInputCostsOnlyItself:
         assert "in broken" in trace
 
     def test_a_long_traceback_is_cut_to_its_last_characters(self, tmp_path, monkeypatch):
-        import netcheck.evaluate as evaluate
+        import netcheck.analyses.nominal as evaluate
 
         def broken(*args, **kwargs):
             raise ValueError("bottom " + "q" * 3 * TRACEBACK_MAX + " end")
@@ -204,7 +204,7 @@ class TestOneBadInputCostsOnlyItself:
 
     @pytest.mark.parametrize("exc", [MemoryError, RecursionError])
     def test_exhaustion_is_nc421_without_a_traceback(self, tmp_path, monkeypatch, exc):
-        import netcheck.evaluate as evaluate
+        import netcheck.analyses.nominal as evaluate
 
         def exhausted(*args, **kwargs):
             raise exc()
@@ -247,7 +247,7 @@ import os
 import signal
 from pathlib import Path
 
-from netcheck.batch import run_job
+from netcheck.runs.batch import run_job
 
 
 def kill_boom(job):
@@ -523,7 +523,7 @@ class TestTableCountBudgets:
         assert err.code == "NC205" and "10,001 [[limits]] tables" in err.message
 
     def test_stress(self):
-        from netcheck.stress import parse_stress
+        from netcheck.analyses.stress import parse_stress
 
         table = {"source_amplitude": "1", "parts": "C*", "max_voltage": "5"}
         assert len(parse_stress([table] * MAX_LIMITS, "q.toml")) == MAX_LIMITS
@@ -540,7 +540,7 @@ class TestFamilyBudgets:
         spec_file(tmp_path, "fam", extra='[variants]\ntable = "big.csv"\n')
         code = """
             import json
-            from netcheck.batch import expand_jobs
+            from netcheck.runs.batch import expand_jobs
             items = expand_jobs(["fam.toml"])
             print(json.dumps([[getattr(i, "error", None) or "",
                                sorted(c.code for c in getattr(i, "cautions", ()))]
@@ -568,7 +568,7 @@ class TestFamilyBudgets:
                   "memory_mib = 1000000000\n")
         spec_file(tmp_path)
         code = RUN_ALL.replace("ARGS", "['mc.toml', 'good.toml']") + (
-            "from netcheck.tolerance import parse_analysis\n"
+            "from netcheck.analyses.tolerance import parse_analysis\n"
             "a = parse_analysis({'memory_mib': 10**9}, 'x.toml')\n"
             "print(json.dumps(out + [[a.memory_mib, a.requested_mib]]))\n")
         mc, good, (used, requested) = run_isolated(code, tmp_path, memory=3 * 2**29)

@@ -14,7 +14,7 @@ from pathlib import Path
 import jsonschema
 import pytest
 
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.render import RenderOptions, get_renderer, render_to
 from netcheck.render.jsonreport import SCHEMA, render, to_dict
 from netcheck.result import CheckResult, LimitResult, SpecResult, Status

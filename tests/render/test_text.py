@@ -7,7 +7,7 @@ import io
 from netcheck.render import RenderOptions, get_renderer
 from netcheck.render.text import render
 from netcheck.result import CheckResult, LimitResult, SpecResult, Status
-from netcheck.units import format_eng
+from netcheck.netlist.units import format_eng
 
 from .sample import HOSTILE_TITLE, compare_gold, sample_result
 

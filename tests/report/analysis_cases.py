@@ -69,7 +69,7 @@ def recorded(result):
 
 def tolerance_case(folder: Path):
     """CheckResult of the tolerance spec written in ``folder``."""
-    from netcheck.evaluate import check_spec
+    from netcheck.analyses.nominal import check_spec
     from netcheck.result import CheckResult
 
     spec = check_spec(str(folder / "rx40k_tolerance.toml"))
@@ -78,7 +78,7 @@ def tolerance_case(folder: Path):
 
 def family_case():
     """CheckResult of every variant of specs/rx40k_family.toml."""
-    from netcheck import batch
+    from netcheck.runs import batch
     from netcheck.result import CheckResult
 
     jobs = batch.expand_jobs([str(ROOT / "specs" / "rx40k_family.toml")])

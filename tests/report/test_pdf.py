@@ -17,11 +17,11 @@ import numpy as np
 import pytest
 from pypdf import PdfReader
 
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.render.jsonreport import to_dict
 from netcheck.report import pdf
 from netcheck.result import Caution, CheckResult, Status
-from netcheck.units import format_eng
+from netcheck.netlist.units import format_eng
 
 ROOT = Path(__file__).resolve().parents[2]
 CREATED = "2026-01-01T00:00:00Z"
@@ -271,19 +271,19 @@ class TestLockedDown:
 
 class TestFiles:
     def test_per_spec_files_go_through_open_output(self, tmp_path, monkeypatch):
-        import netcheck.outputs
+        import netcheck.render.outputs
 
         bad = check_spec(str(tmp_path / "nowhere" / "rx.toml"))
         specs = (bad, dataclasses.replace(bad, spec="other/rx.toml"),
                  dataclasses.replace(bad, variant="low L/2"))
         calls = []
-        real = netcheck.outputs.open_output
+        real = netcheck.render.outputs.open_output
 
         def spy(path, binary=False):
             calls.append((Path(path).name, binary))
             return real(path, binary)
 
-        monkeypatch.setattr(netcheck.outputs, "open_output", spy)
+        monkeypatch.setattr(netcheck.render.outputs, "open_output", spy)
         written = pdf.render_per_spec(CheckResult(specs, "0.1.0", CREATED), tmp_path / "out")
         names = ["rx.pdf", "rx-2.pdf", "rx-low_L_2.pdf"]
         assert [p.name for p in written] == names
@@ -339,7 +339,7 @@ class TestFiles:
         assert "SOURCE_DATE_EPOCH" not in os.environ
 
     def test_dates_come_from_the_result(self, passing, monkeypatch):
-        from netcheck.checkcli import created_utc
+        from netcheck.cli.check import created_utc
 
         monkeypatch.setenv("SOURCE_DATE_EPOCH", EPOCH)
         assert created_utc() == CREATED == passing.result.created_utc

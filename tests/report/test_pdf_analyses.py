@@ -11,11 +11,12 @@ import pytest
 
 from pypdf import PdfReader
 
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.render.jsonreport import to_dict
-from netcheck.report import pdf, plots
+from netcheck.report import pdf
+from netcheck.report import plots
 from netcheck.result import CheckResult, Status
-from netcheck.units import format_eng, format_si
+from netcheck.netlist.units import format_eng, format_si
 
 ROOT = Path(__file__).resolve().parents[2]
 CREATED = "2026-01-01T00:00:00Z"

@@ -19,9 +19,10 @@ import math
 import numpy as np
 import pytest
 
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.exceptions import SingularCircuitError
-from netcheck.report import plot_base, plot_points
+from netcheck.report import plot_base
+from netcheck.measure import detail as plot_points
 from netcheck.report.plot_gain import zoom_is_resonance, zoom_window
 from netcheck.report.plot_response import spec_figures
 from netcheck.result import Curves, MaskBand, SpecResult, Status
@@ -317,7 +318,7 @@ class TestNarrowLinearAxis:
         # reference: a 230.8 Hz bandwidth at 10 MHz (Q ≈ 43 330); 5 significant digits
         # print both edges as 10.000 MHz, log10(10 MHz / 230.8 Hz) + 2 digits do not
         from netcheck.report.plot_response import _digits, _q_text
-        from netcheck.units import format_si
+        from netcheck.netlist.units import format_si
         digits = _digits(10e6, 230.8)
         assert digits == 7
         assert format_si(9.999884e6, "Hz", digits) != format_si(10.000115e6, "Hz", digits)

@@ -10,7 +10,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from netcheck.evaluate import check_spec
+from netcheck.analyses.nominal import check_spec
 from netcheck.report import plots
 from netcheck.result import Curves, LimitResult, MaskBand, SpecResult, Status
 

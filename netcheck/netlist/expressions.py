@@ -1,0 +1,237 @@
+"""Parameter expressions: parse with grammar/expr.lark, evaluate with our own code."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Callable
+
+from lark import Token, Transformer, Tree, v_args
+from lark.exceptions import LarkError, UnexpectedCharacters, UnexpectedInput, VisitError
+
+from .grammars import parser
+from ..exceptions import ElaborationError, NetlistSyntaxError
+from .source import SourceFile, Span, quoted
+from .units import UnitError, parse_quantity
+
+__all__ = ["Expr", "Num", "Name", "Call", "BinOp", "Neg", "parse_expression", "FUNCTIONS",
+           "CONSTANTS", "EXPR_MAX"]
+
+
+@dataclass(frozen=True, slots=True)
+class Num:
+    """A literal quantity."""
+
+    value: float
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class Name:
+    """A parameter (or constant) reference; names are case-insensitive."""
+
+    name: str
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class Call:
+    """A call of one of :data:`FUNCTIONS`."""
+
+    func: str
+    args: tuple["Expr", ...]
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class BinOp:
+    """A binary arithmetic operation (``+ - * / ^``)."""
+
+    op: str
+    left: "Expr"
+    right: "Expr"
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class Neg:
+    """Unary minus."""
+
+    operand: "Expr"
+    span: Span
+
+
+Expr = Num | Name | Call | BinOp | Neg
+
+#: Functions an expression may call: name -> (minimum args, maximum args, function).
+FUNCTIONS: dict[str, tuple[int, int, Callable[..., float]]] = {
+    "sqrt": (1, 1, math.sqrt), "exp": (1, 1, math.exp), "log": (1, 1, math.log),
+    "log10": (1, 1, math.log10), "sin": (1, 1, math.sin), "cos": (1, 1, math.cos),
+    "tan": (1, 1, math.tan), "atan": (1, 1, math.atan), "abs": (1, 1, abs),
+    "min": (1, 64, lambda *a: min(a)), "max": (1, 64, lambda *a: max(a)),
+}
+CONSTANTS: dict[str, float] = {"pi": math.pi}
+#: the longest expression read, in characters (its parse tree grows with its length)
+EXPR_MAX = 10_000
+
+
+def _binop(op: str) -> Callable[..., Expr]:
+    def build(self: "_ToAst", meta, left: Expr, right: Expr) -> Expr:
+        return BinOp(op, left, right, self._span(meta))
+    return build
+
+
+@v_args(meta=True, inline=True)
+class _ToAst(Transformer):
+    """Map expr.lark rules to the frozen AST, shifting positions into the file."""
+
+    def __init__(self, source: SourceFile, line: int, column: int) -> None:
+        super().__init__()
+        self.source, self.line, self.column = source, line, column
+
+    def _span(self, meta) -> Span:
+        line = self.line + meta.line - 1
+        col = (self.column + meta.column - 1) if meta.line == 1 else meta.column
+        end_col = (self.column + meta.end_column - 1) if meta.end_line == 1 else meta.end_column
+        return Span(self.source, line, col, self.line + meta.end_line - 1, end_col)
+
+    def number(self, meta, tok: Token) -> Num:
+        span = self._span(meta)
+        try:
+            return Num(parse_quantity(str(tok)), span)
+        except UnitError as err:
+            raise NetlistSyntaxError(str(err), span, code="NC101") from None
+
+    def name(self, meta, tok: Token) -> Name:
+        return Name(str(tok).lower(), self._span(meta))
+
+    def call(self, meta, func: Token, *args: Expr) -> Call:
+        span = self._span(meta)
+        fname = str(func).lower()
+        if fname not in FUNCTIONS:
+            raise NetlistSyntaxError(
+                f"unknown function {quoted(str(func), 60)}; available: "
+                f"{', '.join(sorted(FUNCTIONS))}",
+                span, code="NC101")
+        lo, hi, _ = FUNCTIONS[fname]
+        if not lo <= len(args) <= hi:
+            raise NetlistSyntaxError(f"{fname}() takes {lo} argument{'s' if lo > 1 else ''}"
+                                     f"{' or more' if hi > lo else ''}, got {len(args)}",
+                                     span, code="NC101")
+        return Call(fname, tuple(a for a in args if a is not None), span)
+
+    def neg(self, meta, operand: Expr) -> Expr:
+        return Neg(operand, self._span(meta))
+
+    add = _binop("+")
+    sub = _binop("-")
+    mul = _binop("*")
+    div = _binop("/")
+    pow = _binop("^")
+
+
+def parse_expression(text: str, source: SourceFile, line: int, column: int) -> Expr:
+    """Parse ``text`` found at ``line``:``column`` of ``source`` into an :data:`Expr`.
+
+    Raises
+    ------
+    NetlistSyntaxError
+        With the position of the offending character inside the file.
+
+    Examples
+    --------
+    >>> src = SourceFile("<text>", "x {2*pi}")
+    >>> parse_expression("2*pi", src, 1, 4).op
+    '*'
+    """
+    if not text.strip():
+        raise NetlistSyntaxError("empty expression", source.span(line, column), code="NC101")
+    if len(text) > EXPR_MAX:
+        raise NetlistSyntaxError(f"expression is {len(text):,} characters long, over the "
+                                 f"budget of {EXPR_MAX:,}; split it with .param",
+                                 source.span(line, column), code="NC101")
+    try:
+        tree = parser("expr.lark").parse(text)
+    except UnexpectedInput as err:
+        col = column + err.column - 1 if err.line == 1 else err.column
+        span = source.span(line + max(err.line, 1) - 1, max(col, 1))
+        if isinstance(err, UnexpectedCharacters):
+            bad = text[err.pos_in_stream] if err.pos_in_stream < len(text) else "end"
+            hint = ""
+            if bad in ".[]'\"":
+                hint = " (expressions hold numbers, parameter names, + - * / ^ and functions only)"
+            msg = f"unexpected {quoted(bad)} in expression{hint}"
+        else:
+            tok = getattr(err, "token", None)
+            msg = ("expression ends too early" if tok is None or tok.type == "$END"
+                   else f"unexpected {quoted(str(tok), 60)} in expression")
+        raise NetlistSyntaxError(msg, span, code="NC101") from None
+    except LarkError as err:
+        raise NetlistSyntaxError(f"bad expression: {err}", source.span(line, column),
+                                 code="NC101") from None
+    try:
+        if isinstance(tree, Token):  # a lone terminal that no rule wrapped
+            tree = Tree("number" if tree.type == "QUANTITY" else "name", [tree])
+        return _ToAst(source, line, column).transform(tree)
+    except VisitError as err:
+        if isinstance(err.orig_exc, NetlistSyntaxError):
+            raise err.orig_exc from None
+        if isinstance(err.orig_exc, RecursionError):
+            raise _too_deep(source, line, column) from None
+        raise
+    except RecursionError:
+        raise _too_deep(source, line, column) from None
+
+
+def _too_deep(source: SourceFile, line: int, column: int) -> NetlistSyntaxError:
+    return NetlistSyntaxError("expression is nested too deeply; split it with .param",
+                              source.span(line, column), code="NC101")
+
+
+def evaluate(expr: Expr, lookup: Callable[[Name], float]) -> float:
+    """Evaluate ``expr``; ``lookup`` resolves parameter names (and raises if undefined).
+
+    Raises
+    ------
+    ElaborationError
+        For arithmetic that has no value (division by zero, log of a negative, overflow).
+    """
+    match expr:
+        case Num(value=value):
+            return value
+        case Name():
+            return lookup(expr)
+        case Neg(operand=operand):
+            return -evaluate(operand, lookup)
+        case BinOp(op=op, left=left, right=right, span=span):
+            a, b = evaluate(left, lookup), evaluate(right, lookup)
+            try:
+                if op == "+":
+                    out = a + b
+                elif op == "-":
+                    out = a - b
+                elif op == "*":
+                    out = a * b
+                elif op == "/":
+                    out = a / b
+                else:
+                    out = math.pow(a, b)
+            except (ZeroDivisionError, OverflowError, ValueError) as err:
+                raise ElaborationError(f"{a:g} {op} {b:g} has no value ({err})", span,
+                                       code="NC101") from None
+            return _finite(out, span)
+        case Call(func=func, args=args, span=span):
+            values = [evaluate(a, lookup) for a in args]
+            try:
+                return _finite(float(FUNCTIONS[func][2](*values)), span)
+            except (ValueError, OverflowError) as err:
+                shown = ", ".join(f"{v:g}" for v in values)
+                raise ElaborationError(f"{func}({shown}) has no value ({err})", span,
+                                       code="NC101") from None
+    raise TypeError(f"not an expression: {expr!r}")  # pragma: no cover - programming error
+
+
+def _finite(value: float, span: Span) -> float:
+    if not math.isfinite(value):
+        raise ElaborationError(f"expression value is not finite ({value})", span, code="NC101")
+    return value

@@ -1,0 +1,607 @@
+"""Netlist text → syntax (cards, directives, subcircuit scopes), each with its Span."""
+
+from __future__ import annotations
+
+import gc
+from contextlib import contextmanager
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from lark import Token, Tree
+from lark.exceptions import LarkError, UnexpectedCharacters, UnexpectedInput
+
+from .grammars import parser
+from ..exceptions import Diagnostic, ElaborationError, NetlistSyntaxError
+from .source import SourceFile, Span, printable, quoted
+
+__all__ = ["Field", "Assign", "Card", "Directive", "Scope", "SubcktDef", "Netlist",
+           "parse_statements", "load_netlist", "KNOWN_DIRECTIVES", "TOKENS_MAX",
+           "INCLUDE_DEPTH_MAX", "INCLUDES_MAX", "INCLUDE_TEXT_MAX", "SUBCKT_DEPTH_MAX",
+           "ELEMENTS_MAX", "TITLE_MAX", "check_size", "bounded_title"]
+
+# Size budgets of one netlist with its includes (NC116). Each is checked before the work
+# it bounds is done; real designs stay far below them.
+#: the most tokens (names, values, separators) parsed, over the netlist and its includes:
+#: about 100,000 cards, parsed in about half a minute with well under 1 GB of memory
+TOKENS_MAX = 500_000
+#: the deepest chain of nested ``.include`` files
+INCLUDE_DEPTH_MAX = 64
+#: the most ``.include`` directives followed (a file included twice counts twice)
+INCLUDES_MAX = 1_000
+#: the most characters of netlist text read, the top file and every inclusion counted
+INCLUDE_TEXT_MAX = 64 * 2**20
+#: the deepest nesting of ``.subckt`` definitions, and of subcircuit instances
+SUBCKT_DEPTH_MAX = 64
+#: the most elements a design may flatten into; counted before flattening
+ELEMENTS_MAX = 1_000_000
+#: the most characters of the title line kept (it names the design in every report);
+#: a longer one is cut there and marked with the count left out, never refused
+TITLE_MAX = 1_000
+
+#: Dot-directives netcheck acts on; any other directive is warned about (NC150) and skipped.
+KNOWN_DIRECTIVES = frozenset({"subckt", "ends", "param", "include", "end"})
+#: Directives that only matter to other analyses (transient, operating point...): no warning.
+QUIET_DIRECTIVES = frozenset({"title"})
+
+
+@dataclass(frozen=True, slots=True)
+class Field:
+    """One field of a card: ``kind`` is ``word``, ``braced`` (``{expr}``) or ``string``."""
+
+    kind: str
+    text: str
+    span: Span
+
+    @property
+    def expr_text(self) -> str:
+        """The text to read as an expression (braces or quotes taken off)."""
+        return self.text[1:-1] if self.kind in ("braced", "string") else self.text
+
+    @property
+    def expr_column(self) -> int:
+        """Column where :attr:`expr_text` starts."""
+        return self.span.column + (1 if self.kind in ("braced", "string") else 0)
+
+
+@dataclass(frozen=True, slots=True)
+class Assign:
+    """A ``key=value`` field."""
+
+    key: Field
+    value: Field
+    span: Span
+
+
+Item = Field | Assign
+
+
+@dataclass(frozen=True, slots=True)
+class Card:
+    """An element line: a name and its fields, continuation lines joined."""
+
+    name: Field
+    fields: tuple[Item, ...]
+    span: Span
+
+    @property
+    def letter(self) -> str:
+        """The element letter (first character of the name, upper case)."""
+        return self.name.text[0].upper()
+
+
+@dataclass(frozen=True, slots=True)
+class Directive:
+    """A dot-directive; ``name`` is lower case without the dot."""
+
+    name: str
+    fields: tuple[Item, ...]
+    span: Span
+
+
+Statement = Card | Directive
+
+
+@dataclass(frozen=True, slots=True)
+class SubcktDef:
+    """A ``.subckt`` definition: ports, default parameters and body."""
+
+    name: Field
+    ports: tuple[Field, ...]
+    params: tuple[Assign, ...]
+    body: "Scope"
+    span: Span
+
+
+@dataclass(frozen=True, slots=True)
+class Scope:
+    """What one level of hierarchy declares: cards, ``.param`` assignments, subcircuits."""
+
+    cards: tuple[Card, ...] = ()
+    params: tuple[Assign, ...] = ()
+    subckts: tuple[SubcktDef, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class Netlist:
+    """A parsed netlist with its includes expanded and its hierarchy grouped."""
+
+    title: str
+    source: SourceFile
+    top: Scope
+    sources: tuple[SourceFile, ...] = ()
+    diagnostics: tuple[Diagnostic, ...] = field(default=())
+
+
+def _span(source: SourceFile, meta) -> Span:
+    return Span(source, meta.line, meta.column, meta.end_line, meta.end_column)
+
+
+def _token_span(source: SourceFile, tok: Token) -> Span:
+    return Span(source, tok.line, tok.column, tok.end_line or tok.line,
+                tok.end_column or tok.column + len(tok))
+
+
+def _item(source: SourceFile, node: Tree) -> Item:
+    if node.data == "assign":
+        key, value = (_item(source, child) for child in node.children)
+        return Assign(key, value, _span(source, node.meta))
+    tok = node.children[0]
+    return Field(str(node.data), str(tok), _token_span(source, tok))
+
+
+def bounded_title(line: str, limit: int = TITLE_MAX) -> str:
+    """A netlist's title line as kept: stripped, cut at ``limit`` characters.
+
+    The cut is marked with ``…`` and the number of characters left out, so a report
+    shows that the title went on (the file itself is unchanged).
+
+    >>> bounded_title("  Quillmere Instruments - notch, rev A ")
+    'Quillmere Instruments - notch, rev A'
+    >>> bounded_title("Quillmere " * 3, limit=12)
+    'Quillmere Qu… (17 more characters)'
+    """
+    title = line.strip()
+    if len(title) > limit:
+        return f"{title[:limit].rstrip()}… ({len(title) - limit:,} more characters)"
+    return title
+
+
+def parse_statements(source: SourceFile, has_title: bool = True) -> tuple[str, tuple[Statement, ...]]:
+    """Parse a netlist file's text into its title and statements.
+
+    Parameters
+    ----------
+    source : SourceFile
+        The file. Its first line is the title when ``has_title`` (included files have none).
+
+    Raises
+    ------
+    NetlistSyntaxError
+        With the position of the first character or token that does not fit; NC116
+        past :data:`TOKENS_MAX` tokens.
+    """
+    title, stmts, _ = _parse(source, has_title, TOKENS_MAX)
+    return title, stmts
+
+
+@contextmanager
+def _paused_gc():
+    """The cyclic garbage collector off while a parse builds its many small objects, so
+    it does not scan them again and again (a third less time for a large netlist; any
+    cycles are collected once it is back on)."""
+    enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if enabled:
+            gc.enable()
+
+
+def _parse(source: SourceFile, has_title: bool, allowed: int
+           ) -> tuple[str, tuple[Statement, ...], int]:
+    """:func:`parse_statements` stopping past ``allowed`` tokens; also returns the count."""
+    with _paused_gc():
+        return _parse_text(source, has_title, allowed)
+
+
+def _parse_text(source: SourceFile, has_title: bool, allowed: int
+                ) -> tuple[str, tuple[Statement, ...], int]:
+    text = source.text.replace("\r\n", "\n")
+    title = ""
+    if has_title:
+        title, nl, rest = text.partition("\n")
+        text = nl + rest  # keep the newline so line numbers stay true
+        title = bounded_title(title)
+    used = 0
+    try:
+        run = parser("netlist.lark").parse_interactive(text)
+        for tok in run.iter_parse():
+            used += 1
+            if used > allowed:
+                raise NetlistSyntaxError(
+                    f"the netlist is over the budget of {TOKENS_MAX:,} tokens (names, values "
+                    "and line ends, its includes counted); netcheck stops reading here",
+                    _token_span(source, tok), code="NC116")
+        tree = run.feed_eof()
+    except UnexpectedInput as err:
+        raise _syntax_error(source, text, err) from None
+    except LarkError as err:  # pragma: no cover - lark internals
+        raise NetlistSyntaxError(f"cannot parse: {err}", source.span(1, 1)) from None
+    out: list[Statement] = []
+    for node in tree.children:
+        if not isinstance(node, Tree):
+            continue
+        head, *rest_nodes = node.children
+        items = tuple(_item(source, child) for child in rest_nodes)
+        span = _span(source, node.meta)
+        if node.data == "directive":
+            out.append(Directive(str(head)[1:].lower(), items, span))
+        elif str(head).startswith("+"):
+            raise NetlistSyntaxError("a continuation line ('+') has no card to continue",
+                                     _token_span(source, head))
+        else:
+            out.append(Card(Field("word", str(head), _token_span(source, head)), items, span))
+    return title, tuple(out), used
+
+
+def _syntax_error(source: SourceFile, text: str, err: UnexpectedInput) -> NetlistSyntaxError:
+    line, col = max(err.line, 1), max(err.column, 1)
+    span = source.span(line, col)
+    if isinstance(err, UnexpectedCharacters):
+        ch = text[err.pos_in_stream] if err.pos_in_stream < len(text) else ""
+        if ch == "+":
+            msg = "a continuation line ('+') has no card to continue"
+        elif ch in "()":
+            msg = f"unexpected {ch!r}: netcheck cards take plain fields; write expressions in braces, e.g. {{2*(a+b)}}"
+        elif ch == "*":
+            msg = "'*' starts a comment only at the beginning of a line; use ';' for an inline comment"
+        elif ch == "=":
+            msg = "'=' needs a name before it (key=value)"
+        elif ch in "{}":
+            msg = "unbalanced or nested braces; an expression is written {like*this} on one card"
+        elif ch in "\"'":
+            msg = "unterminated string"
+        else:
+            msg = f"unexpected character {quoted(ch)}"
+        return NetlistSyntaxError(msg, span)
+    tok = getattr(err, "token", None)
+    expected = set(getattr(err, "expected", ()) or ())
+    if expected and expected <= {"NAME", "BRACED", "STRING", "_CONTINUATION"}:  # after "="
+        return NetlistSyntaxError("'=' needs a value after it (key=value)", span)
+    if tok is None or tok.type == "$END":
+        return NetlistSyntaxError("unexpected end of file", span)
+    if str(tok) == "=":
+        return NetlistSyntaxError("'=' needs a name before it (key=value)", span)
+    if tok.type == "_HEAD_COMMENT":  # the only terminal that starts with '*' mid-line
+        return NetlistSyntaxError("'*' starts a comment only at the beginning of a line; "
+                                  "use ';' for an inline comment", span)
+    return NetlistSyntaxError(f"unexpected {quoted(str(tok))}", span)
+
+
+def _read(path: Path, shown: str, at: Span | None = None) -> SourceFile:
+    """A netlist file through the one safe reader (regular file, size budget, UTF-8)."""
+    return SourceFile.read(path, shown, error=NetlistSyntaxError, code="NC104",
+                           what="netlist" if at is None else "included file", at=at)
+
+
+@dataclass
+class _Loading:
+    """What reading one netlist has used of its budgets, and the files read so far."""
+
+    root: Path
+    sources: list[SourceFile] = field(default_factory=list)
+    parsed: dict[Path, tuple[SourceFile, tuple[Statement, ...], int]] = field(
+        default_factory=dict)
+    tokens: int = 0
+    text: int = 0
+    includes: int = 0
+
+
+def load_netlist(path_or_text: str | Path, root: str | Path | None = None) -> Netlist:
+    """Read a netlist (a path, or the netlist text itself) with its includes.
+
+    ``.include "file"`` is resolved relative to the including file and must stay
+    inside the design root (the top netlist's directory unless ``root`` is given);
+    absolute paths and include cycles are refused. Every file is read through
+    :meth:`netcheck.netlist.source.SourceFile.read` (regular files within the size budget
+    only), and the whole is bounded (NC116): :data:`TOKENS_MAX` tokens,
+    :data:`INCLUDE_DEPTH_MAX` nested includes, :data:`INCLUDES_MAX` includes followed
+    and :data:`INCLUDE_TEXT_MAX` characters of text, an inclusion repeated counting
+    each time; :data:`SUBCKT_DEPTH_MAX` nested ``.subckt`` definitions.
+
+    Parameters
+    ----------
+    path_or_text : str or Path
+        A file path, or netlist text (any string containing a newline).
+    root : str or Path, optional
+        Design root that includes may not leave.
+    """
+    if isinstance(path_or_text, str) and "\n" in path_or_text:
+        top = SourceFile("<text>", path_or_text)
+        base = Path(root) if root is not None else Path.cwd()
+        top_path = None
+    else:
+        top_path = Path(path_or_text)
+        top = _read(top_path, str(path_or_text))
+        base = Path(root) if root is not None else top_path.resolve().parent
+    state = _Loading(base.resolve(), [top], text=len(top.text))
+    title, stmts, state.tokens = _parse(top, True, TOKENS_MAX)
+    chain = (top_path.resolve(),) if top_path is not None else ()
+    diags: list[Diagnostic] = []
+    flat = _expand(stmts, top_path.resolve().parent if top_path else base, chain, state)
+    scope = _group(flat, diags)
+    return Netlist(title, top, scope, tuple(state.sources), tuple(diags))
+
+
+def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[Path, ...],
+            state: _Loading) -> list[Statement]:
+    """The statements with every ``.include`` replaced by the file's, depth first.
+
+    Iterative (an explicit stack of open files), so the include depth is limited by
+    :data:`INCLUDE_DEPTH_MAX` alone, not by Python's recursion limit.
+    """
+    out: list[Statement] = []
+    stack = [(iter(stmts), here, chain)]
+    while stack:
+        it, here, chain = stack[-1]
+        st = next(it, None)
+        if st is None or (isinstance(st, Directive) and st.name == "end"):
+            stack.pop()  # '.end' ends the file it is in
+            continue
+        if not (isinstance(st, Directive) and st.name == "include"):
+            out.append(st)
+            continue
+        path, target = _include_path(st, here, chain, state.root)
+        depth = len(stack)
+        if depth > INCLUDE_DEPTH_MAX:
+            raise NetlistSyntaxError(
+                f"includes nest {depth} deep here, over the budget of {INCLUDE_DEPTH_MAX} "
+                f"nested .include files ({_chain_text(chain + (path,))})", target.span,
+                code="NC116")
+        state.includes += 1
+        if state.includes > INCLUDES_MAX:
+            raise NetlistSyntaxError(
+                f"this would be include number {state.includes:,}, over the budget of "
+                f"{INCLUDES_MAX:,} .include directives followed for one netlist (a file "
+                "included from several places counts each time)", target.span, code="NC116")
+        if path not in state.parsed:
+            sub = _read(path, _display(path, state.root), at=target.span)
+            state.sources.append(sub)
+            _check_text(state, len(sub.text), target)
+            _, sub_stmts, used = _parse(sub, False, TOKENS_MAX - state.tokens)
+            state.parsed[path] = (sub, sub_stmts, used)
+        else:  # included again: the same text and statements, counted again
+            sub, sub_stmts, used = state.parsed[path]
+            _check_text(state, len(sub.text), target)
+            if state.tokens + used > TOKENS_MAX:
+                raise NetlistSyntaxError(
+                    f"including {quoted(target.expr_text)} again would take the netlist over "
+                    f"the budget of {TOKENS_MAX:,} tokens (its includes counted)",
+                    target.span, code="NC116")
+        state.tokens += used
+        stack.append((iter(sub_stmts), path.parent, chain + (path,)))
+    return out
+
+
+def _include_path(st: Directive, here: Path, chain: tuple[Path, ...], root: Path
+                  ) -> tuple[Path, Field]:
+    """The file an ``.include`` names, checked (one name, inside the root, no cycle)."""
+    if len(st.fields) != 1 or not isinstance(st.fields[0], Field):
+        raise NetlistSyntaxError('.include takes one file name, e.g. .include "parts.lib"',
+                                 st.span, code="NC104")
+    target = st.fields[0]
+    name = target.expr_text
+    if not name.strip():
+        raise NetlistSyntaxError('empty file name in .include; give the file to include, '
+                                 'e.g. .include "parts.lib"', target.span, code="NC104")
+    if Path(name).is_absolute() or name.startswith("~"):
+        raise NetlistSyntaxError(f"absolute include path {quoted(name)} refused; give a path "
+                                 "relative to the including file", target.span, code="NC104")
+    try:
+        path = (here / name).resolve()
+        found = path.exists()
+    except (OSError, ValueError, RuntimeError) as err:
+        # a NUL byte, a name too long for the OS, a symbolic-link loop
+        raise NetlistSyntaxError(f"include path {quoted(name)} cannot be used: "
+                                 f"{quoted(str(err))}", target.span, code="NC104") from None
+    if not path.is_relative_to(root):
+        raise NetlistSyntaxError(f"include {quoted(name)} leaves the design root "
+                                 f"{quoted(str(root), 400)}; use --root to widen it",
+                                 target.span, code="NC104")
+    if path in chain:
+        cycle = _chain_text(chain[chain.index(path):] + (path,))
+        raise NetlistSyntaxError(f"include cycle: {cycle}", target.span, code="NC104")
+    if not found:
+        raise NetlistSyntaxError(f"included file {quoted(name)} not found (looked for "
+                                 f"{quoted(str(path), 400)})", target.span, code="NC104")
+    return path, target
+
+
+def _arrows(names: tuple[str, ...] | list[str]) -> str:
+    """Names joined with arrows, escaped and bounded; the middle of a long chain left out."""
+    shown = [printable(n, 60) for n in names]
+    if len(shown) > 8:
+        shown = shown[:3] + [f"… {len(shown) - 6} more …"] + shown[-3:]
+    return " -> ".join(shown)
+
+
+def _chain_text(chain: tuple[Path, ...]) -> str:
+    """File names of an include chain."""
+    return _arrows([p.name for p in chain])
+
+
+def _check_text(state: _Loading, size: int, target: Field) -> None:
+    state.text += size
+    if state.text > INCLUDE_TEXT_MAX:
+        raise NetlistSyntaxError(
+            f"with this include the netlist text reaches {state.text:,} characters, over "
+            f"the budget of {INCLUDE_TEXT_MAX:,} for one netlist with its includes (a file "
+            "included from several places counts each time)", target.span, code="NC116")
+
+
+def _display(path: Path, root: Path) -> str:
+    try:
+        return str(path.relative_to(Path.cwd()))
+    except ValueError:
+        return str(path)
+
+
+def _group(stmts: list[Statement], diags: list[Diagnostic]) -> Scope:
+    """Group a flat statement list into nested :class:`Scope` objects."""
+    stack: list[tuple[Directive | None, list, list, list]] = [(None, [], [], [])]
+    for st in stmts:
+        if isinstance(st, Card):
+            stack[-1][1].append(st)
+            continue
+        if st.name == "param":
+            for item in st.fields:
+                if not isinstance(item, Assign):
+                    raise NetlistSyntaxError(".param takes name=value pairs", item.span,
+                                             code="NC101")
+                stack[-1][2].append(item)
+        elif st.name == "subckt":
+            if len(stack) > SUBCKT_DEPTH_MAX:
+                raise NetlistSyntaxError(
+                    f".subckt definitions nest {len(stack)} deep here, over the budget of "
+                    f"{SUBCKT_DEPTH_MAX} levels", st.span, code="NC116")
+            stack.append((st, [], [], []))
+        elif st.name == "ends":
+            if len(stack) == 1:
+                raise NetlistSyntaxError(".ends without a matching .subckt", st.span)
+            head, cards, params, subs = stack.pop()
+            _check_ends(head, st)
+            stack[-1][3].append(_subckt(head, Scope(tuple(cards), tuple(params), tuple(subs))))
+        elif st.name not in QUIET_DIRECTIVES:
+            diags.append(Diagnostic("NC150", f"unknown directive .{printable(st.name)} ignored",
+                                    st.span))
+    if len(stack) > 1:
+        head = stack[-1][0]
+        raise NetlistSyntaxError(".subckt has no matching .ends", head.span)
+    _, cards, params, subs = stack[0]
+    return Scope(tuple(cards), tuple(params), tuple(subs))
+
+
+def _check_ends(head: Directive, ends: Directive) -> None:
+    """``.ends NAME`` must name the ``.subckt`` it closes (a bare ``.ends`` closes any)."""
+    if not ends.fields or not head.fields:
+        return
+    got, want = ends.fields[0], head.fields[0]
+    if isinstance(got, Field) and isinstance(want, Field) and got.text.lower() != want.text.lower():
+        raise NetlistSyntaxError(f".ends {printable(got.text)} closes .subckt "
+                                 f"{printable(want.text)} (opened at line "
+                                 f"{head.span.line}); check the nesting", got.span)
+
+
+def _subckt(head: Directive, body: Scope) -> SubcktDef:
+    fields = list(head.fields)
+    if not fields or not isinstance(fields[0], Field) or fields[0].kind != "word":
+        raise NetlistSyntaxError(".subckt needs a name, then its port nodes", head.span)
+    name, ports, params = fields[0], [], []
+    seen_params_kw = False
+    for item in fields[1:]:
+        if isinstance(item, Assign):
+            params.append(item)
+        elif item.kind == "word" and item.text.lower() in ("params:", "params"):
+            seen_params_kw = True
+        elif seen_params_kw:
+            raise NetlistSyntaxError("after 'params:' only name=value pairs may follow",
+                                     item.span)
+        elif item.kind != "word":
+            raise NetlistSyntaxError("subcircuit ports are node names", item.span)
+        else:
+            ports.append(item)
+    return SubcktDef(name, tuple(ports), tuple(params), body, head.span)
+
+
+def _instance_target(card: Card) -> Field | None:
+    """The field of an X card naming its subcircuit (the last plain word), or None."""
+    words = [f for f in card.fields if isinstance(f, Field)
+             and f.text.lower() not in ("params:", "params")]
+    return words[-1] if words else None
+
+
+def check_size(top: Scope) -> None:
+    """Refuse, before flattening, a design over :data:`ELEMENTS_MAX` elements or with
+    subcircuit instances nested deeper than :data:`SUBCKT_DEPTH_MAX` (NC116).
+
+    Each subcircuit definition's flattened element count and nesting depth is counted
+    once per scope it is used from (memoised), so a nest of 10 instances of 10
+    instances of ... costs one count per level, not one per element. Instances that
+    cannot be resolved, or that recurse, count nothing here: flattening reports them.
+    """
+    sizer = _Sizer()
+    defs = {sub.name.text.lower(): sub for sub in top.subckts}
+    total = 0
+    for card in top.cards:
+        if card.letter != "X":
+            total += 1
+            what = ""
+        else:
+            added, _ = sizer.instance(card, defs, 0, (), 1)
+            total += added
+            target = _instance_target(card)
+            what = (f"{printable(card.name.text, 80)} instantiates subcircuit "
+                    f"{printable(target.text, 60)}, which flattens to {added:,} elements: "
+                    if target is not None else "")
+        if total > ELEMENTS_MAX:
+            raise ElaborationError(
+                f"{what}the design is over the budget of {ELEMENTS_MAX:,} elements here "
+                f"({total:,} so far; instances inside instances multiply)", card.name.span,
+                code="NC116")
+
+
+class _Sizer:
+    """Element counts and nesting depths of subcircuit instances, without flattening."""
+
+    def __init__(self) -> None:
+        self.memo: dict[tuple[int, int], tuple[int, int]] = {}
+        self.contexts: dict[tuple[int, int], tuple[int, dict[str, SubcktDef]]] = {}
+
+    def _defs(self, ctx: int, visible: dict[str, SubcktDef], scope: Scope
+              ) -> tuple[int, dict[str, SubcktDef]]:
+        """The definitions seen inside ``scope`` (as :func:`_instantiate` builds them),
+        with a small number naming that set for the memo."""
+        if not scope.subckts:
+            return ctx, visible
+        key = (ctx, id(scope))
+        got = self.contexts.get(key)
+        if got is None:
+            defs = dict(visible)
+            defs.update((sub.name.text.lower(), sub) for sub in scope.subckts)
+            got = self.contexts[key] = (len(self.contexts) + 1, defs)
+        return got
+
+    def instance(self, card: Card, defs: dict[str, SubcktDef], ctx: int,
+                 stack: tuple[str, ...], depth: int) -> tuple[int, int]:
+        """(elements, levels) of the instance ``card`` at nesting level ``depth``."""
+        target = _instance_target(card)
+        sub = defs.get(target.text.lower()) if target is not None else None
+        if sub is None or sub.name.text.lower() in stack:
+            return 0, 0
+        key = sub.name.text.lower()
+        if depth > SUBCKT_DEPTH_MAX:
+            raise ElaborationError(
+                f"{printable(card.name.text, 80)} nests subcircuit instances {depth} levels deep "
+                f"({_arrows(stack + (key,))}), over the budget of {SUBCKT_DEPTH_MAX} levels",
+                card.name.span, code="NC116")
+        memo_key = (id(sub), ctx)
+        got = self.memo.get(memo_key)
+        if got is None:
+            inner_ctx, inner = self._defs(ctx, defs, sub.body)
+            count, levels = 0, 0
+            for inner_card in sub.body.cards:
+                if inner_card.letter != "X":
+                    count += 1
+                    continue
+                n, lv = self.instance(inner_card, inner, inner_ctx, stack + (key,), depth + 1)
+                count, levels = count + n, max(levels, lv)
+            got = self.memo[memo_key] = (count, levels + 1)
+        if depth - 1 + got[1] > SUBCKT_DEPTH_MAX:
+            raise ElaborationError(
+                f"{printable(card.name.text, 80)} instantiates subcircuit "
+                f"{printable(sub.name.text, 60)}, "
+                f"which nests {got[1]} levels of instances; here that makes "
+                f"{depth - 1 + got[1]}, over the budget of {SUBCKT_DEPTH_MAX} levels",
+                card.name.span, code="NC116")
+        return got
