@@ -41,7 +41,7 @@ from typing import TYPE_CHECKING, Any, NamedTuple
 import numpy as np
 
 from ..mna.assemble import System
-from ..spec.limits.kinds import LIMITS, Linearised
+from ..spec.limits import LIMITS, Linearised
 from ..measure.measurements import MeasurementFailure
 from ..result import LimitResult, Status
 from ..mna.sensitivity import AdjointSensitivity

@@ -279,7 +279,7 @@ def parse_spec(text: str, path: str = "<spec>", design_root: str | None = None) 
     SpecError
         With the key path (``limits[3].band: ...``) or the TOML position.
     """
-    from .limits.kinds import build_limit
+    from .limits import build_limit
 
     doc = _decode(text, path)
     try:

@@ -1,6 +1,7 @@
-"""The limit contract: the Limit base class, the kind registry and the shared judging helpers.
+"""The limit contract: the Limit base class, the probe it measures on, the judging helpers.
 
-The kinds themselves live in :mod:`netcheck.spec.limits`, which is the public face of both.
+Each kind lives in its own module next to this one, listed in the kind table of
+:mod:`netcheck.spec.limits.registry`; :mod:`netcheck.spec.limits` is the public face of all.
 """
 
 from __future__ import annotations
@@ -22,9 +23,9 @@ if TYPE_CHECKING:  # pragma: no cover
     from ...analyses.sample_probe import BatchProbe
     from ...mna.sensitivity import AdjointSensitivity
 
-__all__ = ["Limit", "LIMITS", "register", "build_limit", "Probe", "judge_range",
-           "range_margin", "Linearised", "linearised_range", "Rows", "gain_floor_db",
-           "rounding_floor_db", "at_floor", "RELATIVE_FLOOR_DB"]
+__all__ = ["Limit", "Probe", "judge_range", "range_margin", "Linearised", "linearised_range",
+           "Rows", "band_text", "gain_floor_db", "rounding_floor_db", "at_floor",
+           "RELATIVE_FLOOR_DB"]
 
 
 class Probe(Protocol):
@@ -50,16 +51,7 @@ class Probe(Protocol):
         """Main resonance measured at ``level_db`` below the peak."""
 
 
-LIMITS: dict[str, type["Limit"]] = {}
-
-
-def register(cls: type["Limit"]) -> type["Limit"]:
-    """Class decorator: add a limit kind to :data:`LIMITS` under ``cls.kind``."""
-    LIMITS[cls.kind] = cls
-    return cls
-
-
-def _band_text(band: tuple[float, float]) -> str:
+def band_text(band: tuple[float, float]) -> str:
     """``38.00–42.00 kHz`` (or ``500.0 Hz–2.000 kHz`` when the prefixes differ); a
     narrow band with as many figures as tell its ends apart (``9.99998–10.00002 MHz``)."""
     return format_span(band[0], band[1], "Hz")
@@ -275,25 +267,3 @@ class Limit:
         name = f"{self.name}: {sub}" if sub else self.name
         return LimitResult(name, self.kind, Status.ERROR, None, None, None, None, unit, None,
                            "", "", message, self.index, self.line)
-
-
-def build_limit(table: Any, index: int, path: str, sweep: Sweep, line: int | None) -> Limit:
-    """Validate one ``[[limits]]`` table and build its Limit."""
-    where = f"limits[{index}]"
-    if not isinstance(table, dict):
-        SpecReader({}, where, path, {}).fail("", "expected a table")
-    kind = table.get("kind")
-    kinds = ", ".join(sorted(LIMITS))
-    if kind is None:
-        SpecReader({}, where, path, {}).fail("kind", f"missing (required): one of {kinds}")
-    if not isinstance(kind, str) or kind not in LIMITS:
-        import difflib
-        close = difflib.get_close_matches(str(kind), list(LIMITS), n=1)
-        hint = f"; did you mean {close[0]!r}?" if close else ""
-        SpecReader({}, where, path, {}).fail(
-            "kind", f"unknown limit kind {kind!r}{hint} (kinds: {kinds})",
-            code="NC201" if isinstance(kind, str) else "NC202")
-    cls = LIMITS[kind]
-    rd = SpecReader(table, where, path, {"kind": "", "name": "", **cls.KEYS})
-    name = rd.text("name")
-    return cls.from_table(rd, sweep, name, index, line)
