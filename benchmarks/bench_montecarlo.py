@@ -53,8 +53,8 @@ from netcheck.result import Status
 from netcheck.mna.sampling import SampleSet
 from netcheck.spec import load_spec
 from netcheck.mna.solve import solve
-from netcheck.analyses.tolerance import (_chunk_size, draw, monte_carlo, parse_analysis,
-                                parse_tolerances, run_samples, toleranced_parts)
+from netcheck.analyses.tolerance import (_chunk_size, draw, monte_carlo, run_samples,
+                                         toleranced_parts)
 
 ORDER = 7
 R0 = 600.0  # ohm, source and load
@@ -190,14 +190,14 @@ def main(argv: list[str] | None = None) -> None:
     spec_path = str(root / "qi7a_mc.toml")
     Path(spec_path).write_text(spec_text("qi7a.cir", S), "utf-8")
 
-    # The same steps check_spec and evaluate._tolerance take before calling monte_carlo.
+    # The same steps check_spec and nominal._tolerance take before calling monte_carlo.
     spec = load_spec(spec_path)
     parsed = load_netlist(spec.netlist, spec.root)
     circuit = elaborate(parsed, spec.allow_negative)
     system = assemble(circuit, spec.source, *spec.output)
     grid = spec.sweep.grid()
-    analysis = parse_analysis(spec.table("analysis"), spec.path)
-    tol = parse_tolerances(spec.table("tolerances"), spec.path)
+    analysis = spec.analysis  # [analysis] and [tolerances]: parsed when the spec loads
+    tol = spec.tolerances
     parts = toleranced_parts(tol, circuit, spec.path)
     budget = analysis.memory_mib * 2**20
     print(f"system : {system.size} unknowns; sweep {grid.size} points, {grid[0]:g} Hz .. "

@@ -36,7 +36,7 @@ from netcheck.netlist.parse import load_netlist
 from netcheck.mna.sensitivity import AdjointSensitivity
 from netcheck.mna.solve import solve
 from netcheck.spec import load_spec
-from netcheck.analyses.tolerance import parse_tolerances, toleranced_parts
+from netcheck.analyses.tolerance import toleranced_parts
 from netcheck.analyses.worstcase import _central_differences
 
 R0, FC = 600.0, 20e3
@@ -93,7 +93,7 @@ def main(argv: list[str] | None = None) -> None:
         sp = load_spec(path)
         circuit = elaborate(load_netlist(sp.netlist, sp.root), sp.allow_negative)
         system = assemble(circuit, sp.source, *sp.output)
-        parts = toleranced_parts(parse_tolerances(sp.table("tolerances"), sp.path), circuit)
+        parts = toleranced_parts(sp.tolerances, circuit)
         probe = SpecProbe(ResponseCurve.of(solve(system, sp.sweep.grid())), sp.sweep)
         # the nominal check has measured everything before the worst case runs
         judged = {r.name: r.measured for lim in sp.limits for r in lim.judge(probe)}

@@ -98,8 +98,8 @@ class TestValidSpec:
         assert not f.flags.writeable
 
     def test_raw_tables_are_kept_for_other_stages(self):
-        spec = parse_spec(HEAD + '\n[tolerances]\nR1 = "1%"\n')
-        assert spec.table("tolerances") == {"R1": "1%"}
+        spec = parse_spec(HEAD + '\n[tolerances]\nparts = { R1 = "1%" }\n')
+        assert spec.table("tolerances") == {"parts": {"R1": "1%"}}
         assert spec.table("stress") is None
 
     def test_load_spec_reads_the_file(self, tmp_path):
@@ -373,8 +373,8 @@ class TestSpecFormatDoc:
 
     def test_every_other_key_is_named(self):
         from netcheck.runs import batch
-        from netcheck.analyses import stress
-        from netcheck.analyses import tolerance
+        from netcheck.spec import stress
+        from netcheck.spec import tolerances as tolerance
         from netcheck.spec import SWEEP_KEYS, TOP_KEYS
 
         doc = self.text()

@@ -11,8 +11,8 @@ from scipy.optimize import minimize_scalar
 import netcheck.analyses.stress as stress_mod
 from netcheck import SpecError, read_netlist
 from netcheck.result import LimitResult, Status
-from netcheck.analyses.stress import (KEYS, QUANTITIES, StressResult, judge_stress, parse_stress,
-                             stress_cautions, stress_lines)
+from netcheck.analyses.stress import StressResult, judge_stress, stress_cautions
+from netcheck.spec.stress import KEYS, QUANTITIES, parse_stress, stress_lines
 
 # Closed forms below are standard circuit theory quoted from memory (not looked up);
 # where marked "derived here" the derivation is written out in the comment.

@@ -18,7 +18,8 @@ from netcheck.analyses.nominal import check_spec
 from netcheck.exceptions import SpecError
 from netcheck.result import Status
 from netcheck.mna.sensitivity import adjoint_sensitivities
-from netcheck.analyses.tolerance import draw, parse_analysis, parse_tolerances, wilson_interval
+from netcheck.analyses.tolerance import draw, wilson_interval
+from netcheck.spec.tolerances import parse_analysis, parse_tolerances
 
 
 def _spec(tmp_path: Path, tolerances: str, analysis: str, limits: str = "") -> str:

@@ -261,15 +261,14 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         if issubclass(w.category, NetcheckWarning):
             cautions.append(Caution("NC302", str(w.message), "warning"))
     extra: list[tuple[str, object]] = []
-    if spec.table("stress") is not None:
-        from .stress import judge_stress, parse_stress, stress_cautions, stress_lines
-        stress_limits = parse_stress(spec.table("stress"), spec.path, stress_lines(spec.text))
-        stressed = judge_stress(stress_limits, response, index_offset=len(spec.limits))
+    if spec.stress is not None:
+        from .stress import judge_stress, stress_cautions
+        stressed = judge_stress(spec.stress, response, index_offset=len(spec.limits))
         limits.extend(r.to_limit_result() for r in stressed)
         cautions.extend(stress_cautions(stressed))
         extra.append(("stress", [r.to_json() for r in stressed]))
     envelope = (None, None)
-    if spec.table("tolerances") is not None or spec.table("analysis") is not None:
+    if spec.tolerances is not None or spec.analysis is not None:
         tol_rows, tol_block, envelope, tol_cautions = _tolerance(
             spec, circuit, system, tuple(limits), dict(measurements), probe)
         limits.extend(tol_rows)
@@ -303,12 +302,19 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
 def _tolerance(spec: Spec, circuit: Circuit, system: System, nominal: tuple,
                measurements: dict[str, float], probe: SpecProbe
                ) -> tuple[list, dict, tuple, list[Caution]]:
-    """Run the analyses the spec asks for; (result rows, JSON block, envelope, cautions)."""
-    from .tolerance import monte_carlo, parse_analysis, parse_tolerances, toleranced_parts
+    """Run the analyses the spec asks for; (result rows, JSON block, envelope, cautions).
+
+    The ``[analysis]`` and ``[tolerances]`` tables were parsed when the spec was loaded
+    (``spec.analysis``, ``spec.tolerances``; an absent one takes its defaults); matching
+    the tolerances against the circuit's parts is done here.
+    """
+    from ..spec.tolerances import Tolerances, parse_analysis
+    from .tolerance import monte_carlo, toleranced_parts
     from .worstcase import worst_case
 
-    analysis = parse_analysis(spec.table("analysis") or {}, spec.path)
-    tol = parse_tolerances(spec.table("tolerances") or {}, spec.path)
+    # the defaults of an absent [analysis] (its memory budget capped to this machine)
+    analysis = spec.analysis if spec.analysis is not None else parse_analysis({}, spec.path)
+    tol = spec.tolerances if spec.tolerances is not None else Tolerances()
     parts = toleranced_parts(tol, circuit, spec.path)
     rows: list = []
     block: dict = {"modes": list(analysis.modes), "parts": len(parts)}

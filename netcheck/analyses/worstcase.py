@@ -46,7 +46,8 @@ from ..measure.measurements import MeasurementFailure
 from ..result import LimitResult, Status
 from ..mna.sensitivity import AdjointSensitivity
 from ..spec.load import Spec
-from .tolerance import MEASUREMENT_KEYS, Analysis, _f, run_samples
+from ..spec.tolerances import Analysis
+from .tolerance import MEASUREMENT_KEYS, _f, run_samples
 
 if TYPE_CHECKING:  # pragma: no cover
     from .nominal import SpecProbe

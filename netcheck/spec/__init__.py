@@ -1,5 +1,6 @@
 """Spec file (TOML) → a validated, frozen :class:`Spec`: sweep, output, limits (one
-kind per file under :mod:`.limits`), budgets and the design root (:mod:`.guard`)."""
+kind per file under :mod:`.limits`), part stress (:mod:`.stress`), tolerances and
+analysis settings (:mod:`.tolerances`), budgets and the design root (:mod:`.guard`)."""
 
 from __future__ import annotations
 

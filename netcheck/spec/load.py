@@ -18,6 +18,8 @@ from .guard import (MAX_FREQUENCY_HZ, MAX_LIMITS, MAX_NESTING, MAX_PATH_CHARS,
 from ..exceptions import TEXT_MAX, SpecError
 from ..netlist.source import UNUSABLE_CODE, SourceFile, printable, read_text
 from .reader import SWEEP_KEYS, SpecReader, Sweep, shown_value
+from .stress import StressLimit, parse_stress, stress_lines
+from .tolerances import Analysis, Tolerances, parse_analysis, parse_tolerances
 
 __all__ = ["Sweep", "Spec", "load_spec", "parse_spec", "read_toml", "validate_sweep",
            "design_root", "inside_root", "SpecReader", "TOP_KEYS", "locate",
@@ -44,7 +46,14 @@ TOP_KEYS: dict[str, str] = {
 }
 @dataclass(frozen=True, slots=True)
 class Spec:
-    """A validated spec file."""
+    """A validated spec file, complete when loaded.
+
+    ``stress``, ``tolerances`` and ``analysis`` hold the parsed ``[[stress]]``,
+    ``[tolerances]`` and ``[analysis]`` tables (None when the spec has no such table),
+    so every error in them is raised by :func:`parse_spec`. What needs the circuit
+    (matching part names and globs against the netlist) is left to the analyses.
+    ``[variants]`` stays raw (:meth:`table`): :mod:`netcheck.runs.batch` reads it.
+    """
 
     path: str
     title: str
@@ -60,9 +69,15 @@ class Spec:
     design_root: str | None = None
     #: subcircuit names (fnmatch globs, case-insensitive) that each model one physical part
     part_models: tuple[str, ...] = ()
+    #: the ``[[stress]]`` tables (:mod:`netcheck.spec.stress`); None when there are none
+    stress: tuple[StressLimit, ...] | None = None
+    #: the ``[tolerances]`` table (:mod:`netcheck.spec.tolerances`); None when absent
+    tolerances: Tolerances | None = None
+    #: the ``[analysis]`` table (:mod:`netcheck.spec.tolerances`); None when absent
+    analysis: Analysis | None = None
 
     def table(self, key: str) -> Any:
-        """A raw top-level table handled by another module (tolerances, stress...)."""
+        """A raw top-level table as written (tolerances, analysis, stress, variants)."""
         return dict(self.tables).get(key)
 
 
@@ -355,12 +370,22 @@ def _build(doc: dict, text: str, path: str, build_limit: Any,
         confine(root, base, "root", path, root_dir, why)
     tables = tuple((k, doc[k]) for k in ("tolerances", "analysis", "stress", "variants")
                    if k in doc)
+    title = top.text("title", default="") or ""
+    allow_negative = top.flag("allow_negative")
+    models = _part_models(top, path)
+    # the tables the analyses judge by, parsed now (in the order they are judged) so an
+    # error in them is a load error; an absent table stays None. A falsy analysis or
+    # tolerances value counts as an empty table, as the analyses always read it.
+    stress = parse_stress(doc["stress"], path, stress_lines(text)) if "stress" in doc else None
+    analysis = parse_analysis(doc["analysis"] or {}, path) if "analysis" in doc else None
+    tolerances = parse_tolerances(doc["tolerances"] or {}, path) if "tolerances" in doc else None
     return Spec(
-        path=path, title=top.text("title", default="") or "",
+        path=path, title=title,
         netlist=str(base / netlist), source=source, output=output, sweep=sweep,
         limits=tuple(limits), root=str(base / root) if root else None,
-        allow_negative=top.flag("allow_negative"), text=text, tables=tables,
-        design_root=str(root_dir), part_models=_part_models(top, path))
+        allow_negative=allow_negative, text=text, tables=tables,
+        design_root=str(root_dir), part_models=models, stress=stress,
+        tolerances=tolerances, analysis=analysis)
 
 
 def _part_models(top: SpecReader, path: str) -> tuple[str, ...]:

@@ -24,8 +24,8 @@ from hypothesis import strategies as st
 from netcheck.runs.batch import _variant_jobs, read_variant_table
 from netcheck.exceptions import CODES, NetcheckError
 from netcheck.spec import TOP_KEYS, parse_spec
-from netcheck.analyses.stress import parse_stress
-from netcheck.analyses.tolerance import parse_analysis, parse_tolerances
+from netcheck.spec.stress import parse_stress
+from netcheck.spec.tolerances import parse_analysis, parse_tolerances
 
 RC = "Quillmere Instruments RC\nV1 in 0 AC 1\nR1 in out 1k\nC1 out 0 159n\n.end\n"
 

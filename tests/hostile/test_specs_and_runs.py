@@ -523,7 +523,7 @@ class TestTableCountBudgets:
         assert err.code == "NC205" and "10,001 [[limits]] tables" in err.message
 
     def test_stress(self):
-        from netcheck.analyses.stress import parse_stress
+        from netcheck.spec.stress import parse_stress
 
         table = {"source_amplitude": "1", "parts": "C*", "max_voltage": "5"}
         assert len(parse_stress([table] * MAX_LIMITS, "q.toml")) == MAX_LIMITS
@@ -568,7 +568,7 @@ class TestFamilyBudgets:
                   "memory_mib = 1000000000\n")
         spec_file(tmp_path)
         code = RUN_ALL.replace("ARGS", "['mc.toml', 'good.toml']") + (
-            "from netcheck.analyses.tolerance import parse_analysis\n"
+            "from netcheck.spec.tolerances import parse_analysis\n"
             "a = parse_analysis({'memory_mib': 10**9}, 'x.toml')\n"
             "print(json.dumps(out + [[a.memory_mib, a.requested_mib]]))\n")
         mc, good, (used, requested) = run_isolated(code, tmp_path, memory=3 * 2**29)
