@@ -1,4 +1,9 @@
-"""Flatten subcircuits and resolve parameters: Netlist → Circuit."""
+"""Flatten subcircuits and check the result: Netlist → Circuit.
+
+Parameter scopes are :mod:`netcheck.netlist.params`, the card reader the element kinds
+use is :mod:`netcheck.netlist.reader`, the Circuit and PartModel types are
+:mod:`netcheck.netlist.circuit`; this module re-exports the names importers use.
+"""
 
 from __future__ import annotations
 
@@ -6,21 +11,20 @@ import dataclasses
 from dataclasses import dataclass, field
 from typing import Callable, Collection
 
-import numpy as np
-
-from .elements import ELEMENTS, Element, Inductor, VoltageSource
 from ..exceptions import CODES, Diagnostic, ElaborationError
-from .expressions import Name, evaluate, parse_expression
+from .circuit import GROUND, Circuit, PartModel
+from .elements import ELEMENTS, Element, Inductor, VoltageSource
+from .params import Env
 from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef, _arrows,
                     check_size)
-from .source import SourceFile, Span, printable, quoted
+from .reader import CardReader, card_label
+from .source import Span, printable, quoted
 from .topology import check_topology, lint_nodes
 
 __all__ = ["Circuit", "PartModel", "elaborate", "CardReader", "GROUND",
            "ELEMENTS_MAX", "DIAGNOSTICS_PER_CODE", "summarise_diagnostics", "VALUE_MAX",
            "VALUE_MIN", "subckt_names"]
 
-GROUND = "0"
 _GROUND_ALIASES = frozenset({"0", "gnd"})
 #: the most warnings of one code a circuit keeps; the rest are counted in one more
 DIAGNOSTICS_PER_CODE = 10
@@ -32,250 +36,6 @@ DIAGNOSTICS_PER_CODE = 10
 VALUE_MAX = 1e200
 #: smallest magnitude of a non-zero stamped value (see :data:`VALUE_MAX`)
 VALUE_MIN = 1e-200
-
-
-@dataclass(frozen=True, slots=True)
-class PartModel:
-    """One instance of a subcircuit that models a single physical part.
-
-    A quartz crystal written as a motional arm in parallel with its holder capacitance
-    is one part with two terminals, not four parts: the elements inside such an instance
-    are model parameters (the spec's ``part_models`` names the subcircuits). What a
-    physical part sees is at its ports: the voltage between each pair of them and the
-    current into each.
-
-    Attributes
-    ----------
-    name : str
-        The instance's full name, upper case (``X1``, ``X2.X1``); every element inside
-        is called ``<name>.<...>``.
-    subckt : str
-        The subcircuit's name as its ``.subckt`` line writes it.
-    ports : tuple of str
-        The port names as the ``.subckt`` line writes them.
-    nodes : tuple of str
-        The circuit node each port is connected to (``0`` is ground).
-    through : tuple of (str, int, int)
-        ``(element, node position, port position)`` for every node of an element inside
-        that is reached through a port: exact even where two ports share one node or a
-        port is grounded while the model also uses ground inside.
-    span : Span or None
-        The instance card's name.
-    """
-
-    name: str
-    subckt: str
-    ports: tuple[str, ...]
-    nodes: tuple[str, ...]
-    through: tuple[tuple[str, int, int], ...] = ()
-    span: Span | None = None
-
-
-@dataclass(frozen=True, slots=True)
-class Circuit:
-    """A flat circuit: elements with hierarchical names (``X1.X2.C3``) and node names.
-
-    Node names are lower case (``0`` is ground); element names upper case.
-    """
-
-    title: str
-    elements: tuple[Element, ...]
-    nodes: tuple[str, ...]
-    sources: tuple[SourceFile, ...] = ()
-    diagnostics: tuple[Diagnostic, ...] = ()
-    params: tuple[tuple[str, float], ...] = ()
-    #: instances of subcircuits that model one physical part each (:class:`PartModel`)
-    part_models: tuple[PartModel, ...] = ()
-    _index: dict = field(default=None, compare=False, repr=False)
-    _models: dict = field(default=None, compare=False, repr=False)
-
-    def element(self, name: str) -> Element:
-        """The element called ``name`` (case-insensitive); KeyError if none."""
-        index = self._index
-        if index is None:
-            index = {e.name: e for e in self.elements}
-            object.__setattr__(self, "_index", index)
-        return index[name.upper()]
-
-    def part_model_of(self, name: str) -> PartModel | None:
-        """The part model the element called ``name`` is inside, or None.
-
-        Elements inside an instance are named ``<instance>.<...>``, so the dotted
-        prefixes of ``name`` are the instances it is inside; the outermost part model
-        among them holds it.
-        """
-        if not self.part_models:
-            return None
-        by_name = self._models
-        if by_name is None:
-            by_name = {m.name: m for m in self.part_models}
-            object.__setattr__(self, "_models", by_name)
-        parts = name.upper().split(".")
-        for i in range(1, len(parts)):
-            model = by_name.get(".".join(parts[:i]))
-            if model is not None:
-                return model
-        return None
-
-    def has_element(self, name: str) -> bool:
-        """True if an element called ``name`` exists."""
-        try:
-            self.element(name)
-        except KeyError:
-            return False
-        return True
-
-
-class Env:
-    """A parameter scope: lazy, memoised, with recursion detection."""
-
-    def __init__(self, parent: "Env | None", label: str) -> None:
-        self.parent, self.label = parent, label
-        self.exprs: dict[str, tuple[Field, "Env"]] = {}
-        self.values: dict[str, float] = {}
-        self.active: list[str] = []
-        # parsed expressions by field, shared by every scope of one elaboration: a card
-        # inside a subcircuit is parsed once, however many instances there are
-        self.parsed: dict[int, tuple[Field, object]] = parent.parsed if parent else {}
-
-    def fix(self, key: str, value: float) -> None:
-        """Bind ``key`` to a number (a variant's override of a ``.param``)."""
-        self.exprs[key.lower()] = (None, self)  # type: ignore[assignment]
-        self.values[key.lower()] = float(value)
-
-    def define(self, assign: Assign, where: "Env | None" = None) -> None:
-        """Bind ``key`` to ``value`` (evaluated lazily in ``where``, default self)."""
-        key = assign.key.text.lower()
-        if assign.key.kind != "word" or not key.replace("_", "a").isalnum() or key[0].isdigit():
-            raise ElaborationError(f"{quoted(assign.key.text)} is not a parameter name",
-                                   assign.key.span, code="NC101")
-        self.exprs[key] = (assign.value, where or self)
-        self.values.pop(key, None)
-
-    def lookup(self, ref: Name) -> float:
-        """Value of ``ref`` in this scope or an enclosing one."""
-        env: Env | None = self
-        while env is not None:
-            if ref.name in env.exprs:
-                return env._get(ref.name, ref.span)
-            env = env.parent
-        if ref.name == "pi":
-            return float(np.pi)
-        raise ElaborationError(f"undefined parameter {quoted(ref.name)}", ref.span, code="NC102")
-
-    def _get(self, key: str, used_at: Span) -> float:
-        if key in self.values:
-            return self.values[key]
-        if key in self.active:
-            cycle = _arrows(self.active[self.active.index(key):] + [key])
-            raise ElaborationError(f"parameter {quoted(key)} is defined in terms of itself "
-                                   f"({cycle})", used_at, code="NC103")
-        fld, where = self.exprs[key]
-        self.active.append(key)
-        try:
-            value = where.value_of(fld)
-        finally:
-            self.active.pop()
-        self.values[key] = value
-        return value
-
-    def value_of(self, fld: Field) -> float:
-        """Evaluate a value field (a quantity, a parameter name or an ``{expression}``)."""
-        if fld.kind == "string" and not fld.expr_text.strip():
-            raise ElaborationError("empty value", fld.span, code="NC101")
-        got = self.parsed.get(id(fld))
-        if got is not None and got[0] is fld:
-            expr = got[1]
-        else:
-            expr = parse_expression(fld.expr_text, fld.span.source, fld.span.line,
-                                    fld.expr_column)
-            self.parsed[id(fld)] = (fld, expr)
-        try:
-            return evaluate(expr, self.lookup)
-        except RecursionError:
-            raise ElaborationError("expression or chain of parameters is nested too deeply",
-                                   fld.span, code="NC101") from None
-
-
-class CardReader:
-    """Reads one card's fields in order for :meth:`Element.from_card`."""
-
-    def __init__(self, card: Card, name: str, env: Env, node_of: Callable[[Field], str],
-                 ref_of: Callable[[str], str]) -> None:
-        self.card, self.name, self.env = card, name, env
-        self.span = card.span
-        self._node_of, self._ref_of = node_of, ref_of
-        self.items = list(card.fields)
-        self.pos = 0
-
-    def _next(self, what: str) -> Field:
-        if self.pos >= len(self.items):
-            raise ElaborationError(f"{_name(self.card)}: missing {what}", self._end_span(),
-                                   code="NC105")
-        item = self.items[self.pos]
-        if isinstance(item, Assign):
-            raise ElaborationError(f"{_name(self.card)}: expected {what}, found "
-                                   f"{printable(item.key.text)}=...", item.span, code="NC105")
-        self.pos += 1
-        return item
-
-    def _end_span(self) -> Span:
-        last = self.items[-1].span if self.items else self.card.name.span
-        return Span(last.source, last.end_line, last.end_column, last.end_line,
-                    last.end_column + 1)
-
-    def nodes(self, count: int) -> tuple[str, ...]:
-        """Read ``count`` node names."""
-        out = []
-        for i in range(count):
-            fld = self._next(f"node {i + 1} of {count}")
-            if fld.kind != "word":
-                raise ElaborationError("a node name cannot be an expression", fld.span,
-                                       code="NC105")
-            out.append(self._node_of(fld))
-        return tuple(out)
-
-    def value(self, what: str) -> float:
-        """Read and evaluate a value."""
-        return self.env.value_of(self._next(what))
-
-    def reference(self, what: str) -> str:
-        """Read the (scope-qualified) name of another element."""
-        fld = self._next(what)
-        if fld.kind != "word":
-            raise ElaborationError(f"{what} must be an element name", fld.span, code="NC105")
-        return self._ref_of(fld.text)
-
-    def more(self) -> bool:
-        """True if fields remain."""
-        return self.pos < len(self.items)
-
-    def more_values(self) -> bool:
-        """True if the next field is a value (not a keyword such as AC/DC)."""
-        return self.more() and self.peek_keyword() not in ("ac", "dc")
-
-    def peek_keyword(self) -> str:
-        """The next field's text, lower case ('' if it is not a plain word)."""
-        item = self.items[self.pos]
-        return item.text.lower() if isinstance(item, Field) and item.kind == "word" else ""
-
-    def skip(self) -> None:
-        """Step over the next field."""
-        self.pos += 1
-
-    def unexpected(self, hint: str) -> None:
-        """Raise for the next field."""
-        item = self.items[self.pos]
-        raise ElaborationError(f"{_name(self.card)}: {hint}", item.span, code="NC105")
-
-    def finish(self) -> None:
-        """Refuse left-over fields."""
-        if self.more():
-            item = self.items[self.pos]
-            text = item.text if isinstance(item, Field) else \
-                f"{item.key.text}={item.value.text}"
-            raise ElaborationError(f"{_name(self.card)}: unexpected extra field "
-                                   f"{quoted(text)}", item.span, code="NC105")
 
 
 @dataclass
@@ -366,6 +126,7 @@ def summarise_diagnostics(diags: list[Diagnostic], keep: int = DIAGNOSTICS_PER_C
 
     Examples
     --------
+    >>> from .source import SourceFile
     >>> src = SourceFile("f.cir", "t\\n")
     >>> many = [Diagnostic("NC152", f"node 'n{i}' has only one connection", src.span(1, 1))
     ...         for i in range(25)]
@@ -391,11 +152,6 @@ def summarise_diagnostics(diags: list[Diagnostic], keep: int = DIAGNOSTICS_PER_C
                               f"({what}) not listed, the first of them here; netcheck lists "
                               f"the first {keep} of each code", d.span, d.severity))
     return tuple(out)
-
-
-def _name(card: Card) -> str:
-    """A card's name as messages show it (escaped, bounded)."""
-    return printable(card.name.text, 80)
 
 
 def _list(names: list[str], most: int = 10) -> str:
@@ -472,7 +228,7 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
     assigns = [f for f in card.fields if isinstance(f, Assign)]
     words = [w for w in words if w.text.lower() not in ("params:", "params")]
     if not words:
-        raise ElaborationError(f"{_name(card)}: missing subcircuit name", card.span,
+        raise ElaborationError(f"{card_label(card)}: missing subcircuit name", card.span,
                                code="NC105")
     sub_field, node_fields = words[-1], words[:-1]
     sub = defs.get(sub_field.text.lower())
@@ -485,7 +241,7 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
         raise ElaborationError(f"subcircuit {quoted(sub.name.text)} instantiates itself "
                                f"({_arrows(stack + (key,))})", card.name.span, code="NC109")
     if len(node_fields) != len(sub.ports):
-        raise ElaborationError(f"{_name(card)}: subcircuit {printable(sub.name.text)} has "
+        raise ElaborationError(f"{card_label(card)}: subcircuit {printable(sub.name.text)} has "
                                f"{len(sub.ports)} port(s), got {len(node_fields)} node(s)",
                                card.span, code="NC108")
     child_map: dict[str, str] = {}
@@ -555,19 +311,11 @@ def _check_passive(element: Element, card: Card, allow_negative: bool) -> None:
                                span, code="NC110")
 
 
-#: what an out-of-range value of each letter would make overflow or vanish
-_RANGE_WHY = {
-    "R": "its conductance 1/R", "L": "its reactance ωL", "C": "its susceptance ωC",
-    "K": "its mutual inductance", "E": "its gain", "F": "its gain", "G": "its gain",
-    "H": "its gain",
-}
-
-
 def _check_range(element: Element, card: Card) -> None:
     """NC118 for a stamped value whose magnitude is non-zero but outside
     [:data:`VALUE_MIN`, :data:`VALUE_MAX`] (independent sources stamp no value)."""
-    why = _RANGE_WHY.get(element.letter)
-    if why is None:
+    why = element.range_why
+    if not why:
         return
     size = abs(element.value)
     if size == 0 or VALUE_MIN <= size <= VALUE_MAX:

@@ -1,0 +1,117 @@
+"""Controlled sources: voltage- and current-controlled, voltage and current out (E, G, F, H)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any, ClassVar
+
+from .base import Element
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ...mna.assemble import Stamper
+    from ..reader import CardReader
+
+__all__ = ["VCVS", "VCCS", "CCCS", "CCVS"]
+
+
+@dataclass(frozen=True, slots=True)
+class _Controlled(Element):
+    gain: float = 0.0
+    control: str = ""
+
+    range_why: ClassVar[str] = "its gain"
+
+    @property
+    def value(self) -> float:
+        return self.gain
+
+    def controls(self) -> tuple[str, ...]:
+        return (self.control,) if self.control else ()
+
+
+@dataclass(frozen=True, slots=True)
+class VCVS(_Controlled):
+    """``Ename n+ n- nc+ nc- gain``: v+ − v− = gain·(vc+ − vc−)."""
+
+    letter: ClassVar[str] = "E"
+    n_nodes: ClassVar[int] = 4
+    has_branch: ClassVar[bool] = True
+    voltage_defined: ClassVar[bool] = True
+
+    @classmethod
+    def from_card(cls, rd: "CardReader") -> "Element":
+        nodes = rd.nodes(4)
+        gain = rd.value("gain")
+        rd.finish()
+        return cls(rd.name, nodes, rd.span, gain)
+
+    def stamp(self, st: "Stamper", value: Any) -> None:
+        k = st.branch(self.name)
+        st.incidence(self.nodes[0], self.nodes[1], k)
+        st.add_node_col("G", k, self.nodes[2], -value)
+        st.add_node_col("G", k, self.nodes[3], value)
+
+
+@dataclass(frozen=True, slots=True)
+class VCCS(_Controlled):
+    """``Gname n+ n- nc+ nc- gm``: current gm·(vc+ − vc−) flows n+ → n−."""
+
+    letter: ClassVar[str] = "G"
+    n_nodes: ClassVar[int] = 4
+    current_defined: ClassVar[bool] = True
+    unit: ClassVar[str] = "S"
+
+    @classmethod
+    def from_card(cls, rd: "CardReader") -> "Element":
+        nodes = rd.nodes(4)
+        gm = rd.value("transconductance")
+        rd.finish()
+        return cls(rd.name, nodes, rd.span, gm)
+
+    def stamp(self, st: "Stamper", value: Any) -> None:
+        p, n, cp, cn = self.nodes
+        st.transadmittance(p, n, cp, cn, value)
+
+
+@dataclass(frozen=True, slots=True)
+class CCCS(_Controlled):
+    """``Fname n+ n- Vctl gain``: current gain·i(Vctl) flows n+ → n−."""
+
+    letter: ClassVar[str] = "F"
+    current_defined: ClassVar[bool] = True
+
+    @classmethod
+    def from_card(cls, rd: "CardReader") -> "Element":
+        nodes = rd.nodes(2)
+        control = rd.reference("controlling voltage source")
+        gain = rd.value("current gain")
+        rd.finish()
+        return cls(rd.name, nodes, rd.span, gain, control)
+
+    def stamp(self, st: "Stamper", value: Any) -> None:
+        k = st.branch(self.control)
+        st.add_node_row("G", self.nodes[0], k, value)
+        st.add_node_row("G", self.nodes[1], k, -value)
+
+
+@dataclass(frozen=True, slots=True)
+class CCVS(_Controlled):
+    """``Hname n+ n- Vctl r``: v+ − v− = r·i(Vctl)."""
+
+    letter: ClassVar[str] = "H"
+    has_branch: ClassVar[bool] = True
+    voltage_defined: ClassVar[bool] = True
+    unit: ClassVar[str] = "Ω"
+
+    @classmethod
+    def from_card(cls, rd: "CardReader") -> "Element":
+        nodes = rd.nodes(2)
+        control = rd.reference("controlling voltage source")
+        r = rd.value("transresistance")
+        rd.finish()
+        return cls(rd.name, nodes, rd.span, r, control)
+
+    def stamp(self, st: "Stamper", value: Any) -> None:
+        k = st.branch(self.name)
+        st.incidence(self.nodes[0], self.nodes[1], k)
+        st.add("G", k, st.branch(self.control), -value)

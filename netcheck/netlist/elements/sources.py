@@ -1,0 +1,85 @@
+"""Independent sources: voltage and current (V, I), with DC and AC values."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any, ClassVar
+
+from .base import Element
+
+if TYPE_CHECKING:  # pragma: no cover
+    from ...mna.assemble import Stamper
+    from ..reader import CardReader
+
+__all__ = ["VoltageSource", "CurrentSource"]
+
+
+@dataclass(frozen=True, slots=True)
+class _Independent(Element):
+    dc: float = 0.0
+    ac_magnitude: float = 0.0
+    ac_phase_deg: float = 0.0
+    has_ac: bool = False
+
+    @property
+    def value(self) -> float:
+        return self.ac_magnitude
+
+    @classmethod
+    def from_card(cls, rd: "CardReader") -> "Element":
+        nodes = rd.nodes(2)
+        dc = ac = phase = 0.0
+        has_ac = False
+        first = True
+        while rd.more():
+            word = rd.peek_keyword()
+            if word == "dc":
+                rd.skip()
+                dc = rd.value("DC value")
+            elif word == "ac":
+                rd.skip()
+                has_ac = True
+                ac = rd.value("AC magnitude") if rd.more_values() else 1.0
+                if rd.more_values():
+                    phase = rd.value("AC phase (degrees)")
+            elif first and rd.more_values():
+                dc = rd.value("DC value")
+            else:
+                rd.unexpected("expected DC value or 'AC magnitude [phase]'")
+            first = False
+        rd.finish()
+        return cls(rd.name, nodes, rd.span, dc, ac, phase, has_ac)
+
+
+@dataclass(frozen=True, slots=True)
+class VoltageSource(_Independent):
+    """``Vname n+ n- [DC v] [AC mag [phase]]``: an ideal voltage source (branch current)."""
+
+    letter: ClassVar[str] = "V"
+    has_branch: ClassVar[bool] = True
+    voltage_defined: ClassVar[bool] = True
+    unit: ClassVar[str] = "V"
+
+    def stamp(self, st: "Stamper", value: Any) -> None:
+        st.incidence(self.nodes[0], self.nodes[1], st.branch(self.name))
+
+    def excite(self, st: "Stamper") -> None:
+        """Unit stimulus: v+ − v− = 1."""
+        st.rhs_branch(self.name, 1.0)
+
+
+@dataclass(frozen=True, slots=True)
+class CurrentSource(_Independent):
+    """``Iname n+ n- [DC i] [AC mag [phase]]``: current flows n+ → source → n−."""
+
+    letter: ClassVar[str] = "I"
+    current_defined: ClassVar[bool] = True
+    unit: ClassVar[str] = "A"
+
+    def stamp(self, st: "Stamper", value: Any) -> None:
+        return None  # an inactive current source is an open circuit
+
+    def excite(self, st: "Stamper") -> None:
+        """Unit stimulus: 1 A drawn from n+ and delivered into n−."""
+        st.rhs_node(self.nodes[0], -1.0)
+        st.rhs_node(self.nodes[1], 1.0)

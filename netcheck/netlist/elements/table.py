@@ -1,0 +1,26 @@
+"""The element table: card letter → element class, the one place elaboration looks up."""
+
+from __future__ import annotations
+
+from .base import Element
+from .controlled import CCCS, CCVS, VCCS, VCVS
+from .coupling import Coupling
+from .passives import Capacitor, Inductor, Resistor
+from .sources import CurrentSource, VoltageSource
+
+__all__ = ["ELEMENTS"]
+
+#: letter → element class (each key is its class's ``letter``). ``X`` (subcircuit
+#: instance) is not here: elaboration expands it.
+ELEMENTS: dict[str, type[Element]] = {
+    "R": Resistor,
+    "C": Capacitor,
+    "L": Inductor,
+    "V": VoltageSource,
+    "I": CurrentSource,
+    "E": VCVS,
+    "G": VCCS,
+    "F": CCCS,
+    "H": CCVS,
+    "K": Coupling,
+}

@@ -1,0 +1,84 @@
+"""Parameter scopes: ``.param`` and subcircuit parameters, evaluated lazily (Env)."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..exceptions import ElaborationError
+from .expressions import Name, evaluate, parse_expression
+from .parse import Assign, Field, _arrows
+from .source import Span, quoted
+
+__all__ = ["Env"]
+
+
+class Env:
+    """A parameter scope: lazy, memoised, with recursion detection."""
+
+    def __init__(self, parent: "Env | None", label: str) -> None:
+        self.parent, self.label = parent, label
+        self.exprs: dict[str, tuple[Field, "Env"]] = {}
+        self.values: dict[str, float] = {}
+        self.active: list[str] = []
+        # parsed expressions by field, shared by every scope of one elaboration: a card
+        # inside a subcircuit is parsed once, however many instances there are
+        self.parsed: dict[int, tuple[Field, object]] = parent.parsed if parent else {}
+
+    def fix(self, key: str, value: float) -> None:
+        """Bind ``key`` to a number (a variant's override of a ``.param``)."""
+        self.exprs[key.lower()] = (None, self)  # type: ignore[assignment]
+        self.values[key.lower()] = float(value)
+
+    def define(self, assign: Assign, where: "Env | None" = None) -> None:
+        """Bind ``key`` to ``value`` (evaluated lazily in ``where``, default self)."""
+        key = assign.key.text.lower()
+        if assign.key.kind != "word" or not key.replace("_", "a").isalnum() or key[0].isdigit():
+            raise ElaborationError(f"{quoted(assign.key.text)} is not a parameter name",
+                                   assign.key.span, code="NC101")
+        self.exprs[key] = (assign.value, where or self)
+        self.values.pop(key, None)
+
+    def lookup(self, ref: Name) -> float:
+        """Value of ``ref`` in this scope or an enclosing one."""
+        env: Env | None = self
+        while env is not None:
+            if ref.name in env.exprs:
+                return env._get(ref.name, ref.span)
+            env = env.parent
+        if ref.name == "pi":
+            return float(np.pi)
+        raise ElaborationError(f"undefined parameter {quoted(ref.name)}", ref.span, code="NC102")
+
+    def _get(self, key: str, used_at: Span) -> float:
+        if key in self.values:
+            return self.values[key]
+        if key in self.active:
+            cycle = _arrows(self.active[self.active.index(key):] + [key])
+            raise ElaborationError(f"parameter {quoted(key)} is defined in terms of itself "
+                                   f"({cycle})", used_at, code="NC103")
+        fld, where = self.exprs[key]
+        self.active.append(key)
+        try:
+            value = where.value_of(fld)
+        finally:
+            self.active.pop()
+        self.values[key] = value
+        return value
+
+    def value_of(self, fld: Field) -> float:
+        """Evaluate a value field (a quantity, a parameter name or an ``{expression}``)."""
+        if fld.kind == "string" and not fld.expr_text.strip():
+            raise ElaborationError("empty value", fld.span, code="NC101")
+        got = self.parsed.get(id(fld))
+        if got is not None and got[0] is fld:
+            expr = got[1]
+        else:
+            expr = parse_expression(fld.expr_text, fld.span.source, fld.span.line,
+                                    fld.expr_column)
+            self.parsed[id(fld)] = (fld, expr)
+        try:
+            return evaluate(expr, self.lookup)
+        except RecursionError:
+            raise ElaborationError("expression or chain of parameters is nested too deeply",
+                                   fld.span, code="NC101") from None
+

@@ -1,0 +1,99 @@
+"""CardReader: reads one element card's fields in order for ``Element.from_card``."""
+
+from __future__ import annotations
+
+from typing import Callable
+
+from ..exceptions import ElaborationError
+from .params import Env
+from .parse import Assign, Card, Field
+from .source import Span, printable, quoted
+
+__all__ = ["CardReader", "card_label"]
+
+
+def card_label(card: Card) -> str:
+    """A card's name as messages show it (escaped, bounded)."""
+    return printable(card.name.text, 80)
+
+
+class CardReader:
+    """Reads one card's fields in order for :meth:`Element.from_card`."""
+
+    def __init__(self, card: Card, name: str, env: Env, node_of: Callable[[Field], str],
+                 ref_of: Callable[[str], str]) -> None:
+        self.card, self.name, self.env = card, name, env
+        self.span = card.span
+        self._node_of, self._ref_of = node_of, ref_of
+        self.items = list(card.fields)
+        self.pos = 0
+
+    def _next(self, what: str) -> Field:
+        if self.pos >= len(self.items):
+            raise ElaborationError(f"{card_label(self.card)}: missing {what}",
+                                   self._end_span(), code="NC105")
+        item = self.items[self.pos]
+        if isinstance(item, Assign):
+            raise ElaborationError(f"{card_label(self.card)}: expected {what}, found "
+                                   f"{printable(item.key.text)}=...", item.span, code="NC105")
+        self.pos += 1
+        return item
+
+    def _end_span(self) -> Span:
+        last = self.items[-1].span if self.items else self.card.name.span
+        return Span(last.source, last.end_line, last.end_column, last.end_line,
+                    last.end_column + 1)
+
+    def nodes(self, count: int) -> tuple[str, ...]:
+        """Read ``count`` node names."""
+        out = []
+        for i in range(count):
+            fld = self._next(f"node {i + 1} of {count}")
+            if fld.kind != "word":
+                raise ElaborationError("a node name cannot be an expression", fld.span,
+                                       code="NC105")
+            out.append(self._node_of(fld))
+        return tuple(out)
+
+    def value(self, what: str) -> float:
+        """Read and evaluate a value."""
+        return self.env.value_of(self._next(what))
+
+    def reference(self, what: str) -> str:
+        """Read the (scope-qualified) name of another element."""
+        fld = self._next(what)
+        if fld.kind != "word":
+            raise ElaborationError(f"{what} must be an element name", fld.span, code="NC105")
+        return self._ref_of(fld.text)
+
+    def more(self) -> bool:
+        """True if fields remain."""
+        return self.pos < len(self.items)
+
+    def more_values(self) -> bool:
+        """True if the next field is a value (not a keyword such as AC/DC)."""
+        return self.more() and self.peek_keyword() not in ("ac", "dc")
+
+    def peek_keyword(self) -> str:
+        """The next field's text, lower case ('' if it is not a plain word)."""
+        item = self.items[self.pos]
+        return item.text.lower() if isinstance(item, Field) and item.kind == "word" else ""
+
+    def skip(self) -> None:
+        """Step over the next field."""
+        self.pos += 1
+
+    def unexpected(self, hint: str) -> None:
+        """Raise for the next field."""
+        item = self.items[self.pos]
+        raise ElaborationError(f"{card_label(self.card)}: {hint}", item.span, code="NC105")
+
+    def finish(self) -> None:
+        """Refuse left-over fields."""
+        if self.more():
+            item = self.items[self.pos]
+            text = item.text if isinstance(item, Field) else \
+                f"{item.key.text}={item.value.text}"
+            raise ElaborationError(f"{card_label(self.card)}: unexpected extra field "
+                                   f"{quoted(text)}", item.span, code="NC105")
+

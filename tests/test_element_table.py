@@ -1,0 +1,104 @@
+"""The element table: one class per letter, each in its family's module, and one
+netlist per family that elaborates to the expected classes."""
+
+from __future__ import annotations
+
+import importlib
+import inspect
+
+import pytest
+
+from netcheck.netlist import elements
+from netcheck.netlist.elaborate import elaborate
+from netcheck.netlist.elements import (CCCS, CCVS, ELEMENTS, VCCS, VCVS, Capacitor, Coupling,
+                                       CurrentSource, Element, Inductor, Resistor,
+                                       VoltageSource)
+from netcheck.netlist.parse import load_netlist
+
+#: card letter → the family module its class lives in
+FAMILY = {
+    "R": "passives", "L": "passives", "C": "passives",
+    "V": "sources", "I": "sources",
+    "E": "controlled", "F": "controlled", "G": "controlled", "H": "controlled",
+    "K": "coupling",
+}
+FAMILIES = sorted(set(FAMILY.values()))
+
+
+def _kinds(module_name: str) -> dict[str, type[Element]]:
+    """The public element classes a family module defines (not imports)."""
+    module = importlib.import_module(f"netcheck.netlist.elements.{module_name}")
+    return {name: obj for name, obj in vars(module).items()
+            if inspect.isclass(obj) and issubclass(obj, Element) and obj is not Element
+            and obj.__module__ == module.__name__ and not name.startswith("_")}
+
+
+def test_every_letter_has_a_family_and_its_class_lives_there():
+    assert set(ELEMENTS) == set(FAMILY)
+    for letter, cls in ELEMENTS.items():
+        assert cls.letter == letter
+        assert cls.__module__ == f"netcheck.netlist.elements.{FAMILY[letter]}", letter
+
+
+@pytest.mark.parametrize("family", FAMILIES)
+def test_every_class_of_a_family_is_in_the_table(family):
+    kinds = _kinds(family)
+    assert kinds, family
+    for name, cls in kinds.items():
+        assert ELEMENTS.get(cls.letter) is cls, name
+    module = importlib.import_module(f"netcheck.netlist.elements.{family}")
+    assert sorted(module.__all__) == sorted(kinds)
+
+
+def test_base_holds_no_kind_and_the_package_re_exports_every_kind():
+    assert _kinds("base") == {}
+    for cls in ELEMENTS.values():
+        assert getattr(elements, cls.__name__) is cls
+        assert cls.__name__ in elements.__all__
+
+
+NETLISTS = {
+    "passives": ("""Quillmere Instruments passive ladder
+V1 in 0 AC 1
+R1 in a 1k
+L1 a out 10m
+C1 out 0 100n
+""", {"V1": VoltageSource, "R1": Resistor, "L1": Inductor, "C1": Capacitor}),
+    "sources": ("""Quillmere Instruments two sources
+V1 in 0 DC 0 AC 1
+R1 in out 1k
+I1 0 out AC 1m
+R2 out 0 1k
+""", {"V1": VoltageSource, "R1": Resistor, "I1": CurrentSource, "R2": Resistor}),
+    "controlled": ("""Quillmere Instruments controlled sources
+V1 in 0 AC 1
+R1 in 0 1k
+E1 a 0 in 0 2
+R2 a 0 1k
+G1 0 b in 0 1m
+R3 b 0 1k
+F1 0 c V1 0.5
+R4 c 0 1k
+H1 d 0 V1 100
+R5 d 0 1k
+""", {"V1": VoltageSource, "R1": Resistor, "E1": VCVS, "R2": Resistor, "G1": VCCS,
+      "R3": Resistor, "F1": CCCS, "R4": Resistor, "H1": CCVS, "R5": Resistor}),
+    "coupling": ("""Quillmere Instruments coupled coils
+V1 in 0 AC 1
+R1 in p 50
+L1 p 0 1u
+L2 s 0 4u
+R2 s 0 50
+K1 L1 L2 0.9
+""", {"V1": VoltageSource, "R1": Resistor, "L1": Inductor, "L2": Inductor, "R2": Resistor,
+      "K1": Coupling}),
+}
+
+
+@pytest.mark.parametrize("family", FAMILIES)
+def test_one_netlist_per_family_elaborates_to_its_classes(family):
+    text, expected = NETLISTS[family]
+    circuit = elaborate(load_netlist(text))
+    assert circuit.title.startswith("Quillmere Instruments")
+    assert {e.name: type(e) for e in circuit.elements} == expected
+    assert set(_kinds(family).values()) <= set(expected.values())
