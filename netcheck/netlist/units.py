@@ -300,9 +300,9 @@ _PREFIX_EXP = {"T": 12, "G": 9, "M": 6, "k": 3, "": 0, "m": -3, "µ": -6, "n": -
                "f": -15}
 #: units printed with a fixed number of decimals (the rest with significant digits)
 _DECIMAL_UNITS = {"dB": 3, "deg": 2, "°": 2}
-#: the most significant digits a value is ever printed with (a double holds 15 to 17;
-#: a row that needs more to tell its values apart is as close as numbers get)
-PRECISION_CAP = 12
+#: the most significant digits a value is ever printed with: 17 tell any two distinct
+#: doubles apart (IEEE 754-2008, §5.12.2), so distinct values of a row never print alike
+PRECISION_CAP = 17
 
 
 def default_precision(unit: str) -> int:
