@@ -7,7 +7,8 @@ samples in one stacked call; zeros come from the same transform of the pencil
 bordered with b and l. Each sample's form is checked against direct solves at a
 few frequencies, and a sample that disagrees is solved directly instead; such
 samples get seeds by following the nominal poles and zeros
-(:meth:`SampleSet.direct_seeds`).
+(:meth:`SampleSet.direct_seeds`, :mod:`netcheck.mna.sample_roots`). Systems too large
+for dense arrays take the per-sample sparse path (:mod:`netcheck.mna.sparse_batch`).
 
 Gain comes from the form in real arithmetic, |jω − r|² = (ω − Im r)² + (Re r)² per
 root, without complex temporaries, in row chunks that stay in cache; the form also
@@ -29,12 +30,13 @@ import math
 from typing import Mapping
 
 import numpy as np
-import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
-from .assemble import Stamper, System, assemble_batch
+from .assemble import System, assemble_batch
+from .dense import DenseEngine
+from .polezero import PoleZeroEngine
+from .sample_roots import followed_roots
 from .solve import DENSE_MAX
-
+from .sparse_batch import SparseBatch
 
 __all__ = ["SampleSet", "SparseBatch"]
 
@@ -47,15 +49,8 @@ _EPS = float(np.finfo(float).eps)
 #: systems with more unknowns take the per-sample sparse path (see :class:`SparseBatch`),
 #: as the nominal solve does
 SPARSE_ABOVE = DENSE_MAX
-#: nominal poles followed into each directly solved sample (the least damped), steps
-#: per pole and sample, and the damping |Re p|/|Im p| below which one is followed
-SEED_POLES_MAX = 24
-SEED_STEPS = 4
-_SEED_REL = 0.3
-_SEED_CONVERGED = 1e-4  # a pole moving by less than this of its damping |Re p| stops
 
 Rows = slice | np.ndarray  # rows of the per-sample root arrays
-_LAST_SEEDS: tuple | None = None  # ((system, f_lo, f_hi), (nominal seed poles, zeros))
 
 
 class SampleSet:
@@ -115,7 +110,8 @@ class SampleSet:
         self._seed_cache: tuple[np.ndarray, np.ndarray] | None = None
 
     # -- direct solves ------------------------------------------------------------
-    def _chunk(self, per_sample_bytes: int) -> int:
+    def rows_per_chunk(self, per_sample_bytes: int) -> int:
+        """Samples (or rows) per chunk of work that needs ``per_sample_bytes`` each."""
         # a quarter of the budget per temporary: several live at once
         return max(1, int(self.memory_bytes // 4 // max(per_sample_bytes, 1)))
 
@@ -132,7 +128,7 @@ class SampleSet:
                 np.zeros(f.shape, dtype=complex)
         out = np.empty(flat.shape, dtype=complex)
         k, n = flat.shape[1], self.n
-        step = self._chunk(k * n * n * 16 * 2)
+        step = self.rows_per_chunk(k * n * n * 16 * 2)
         for i in range(0, flat.shape[0], step):
             j = min(flat.shape[0], i + step)
             r = slice(i, j) if rows is None else rows[i:j]
@@ -194,7 +190,7 @@ class SampleSet:
         cn = self.C * self.w_scale
         poles = np.empty((S, n_poles), dtype=complex)
         zeros = np.empty((S, n_zeros), dtype=complex)
-        step = self._chunk((n + 1) ** 2 * 16 * 6)
+        step = self.rows_per_chunk((n + 1) ** 2 * 16 * 6)
         gb = np.zeros((min(step, S), n + 1, n + 1))
         cb = np.zeros_like(gb)
         for i in range(0, S, step):
@@ -375,14 +371,16 @@ class SampleSet:
         are.
 
         The nominal circuit's least damped poles and zeros (Im s > 0, |Re s|/|Im s| < 0.3,
-        |Im s|/2π within a factor 1.5 of the sweep; at most :data:`SEED_POLES_MAX` of
-        each) are followed into each direct sample by Rayleigh-quotient iteration [2]_ on
-        the shift-inverted pencil, for the zeros the pencil bordered with b and l (whose
-        finite eigenvalues are the zeros of l·(G + sC)⁻¹b): from the nominal root s and
-        eigenvector x, w = (A + sB)⁻¹Bx, μ = xᴴw/xᴴx, s ← s − 1/μ, x ← w/‖w‖, at most
-        :data:`SEED_STEPS` times, until s moves by less than 1e-4 of |Re s| (quadratic
-        convergence: typically three steps). A notch moves with its parts, and is found
-        in each sample from its own zero.
+        |Im s|/2π within a factor 1.5 of the sweep; at most
+        :data:`~netcheck.mna.sample_roots.SEED_POLES_MAX` of each) are followed into each
+        direct sample by Rayleigh-quotient iteration [2]_ on the shift-inverted pencil,
+        for the zeros the pencil bordered with b and l (whose finite eigenvalues are the
+        zeros of l·(G + sC)⁻¹b): from the nominal root s and eigenvector x,
+        w = (A + sB)⁻¹Bx, μ = xᴴw/xᴴx, s ← s − 1/μ, x ← w/‖w‖, at most
+        :data:`~netcheck.mna.sample_roots.SEED_STEPS` times, until s moves by less than
+        1e-4 of |Re s| (quadratic convergence: typically three steps); see
+        :mod:`netcheck.mna.sample_roots`. A notch moves with its parts, and is found in
+        each sample from its own zero.
 
         Cost, on first use: the nominal roots (the nominal engine's, kept for the next
         set of the same system), 2 factorisations per root for its eigenvector, and at
@@ -393,176 +391,8 @@ class SampleSet:
     def direct_roots(self) -> tuple[np.ndarray, np.ndarray]:
         """The followed poles and zeros of :meth:`direct_seeds`, apart (cached)."""
         if self._seed_cache is None:
-            rows = self.direct_rows
-            roots = self._nominal_seed_roots() if rows.size else (np.zeros(0, complex),) * 2
-            self._seed_cache = tuple(self._follow(s0, rows, bordered)
-                                     for s0, bordered in zip(roots, (False, True)))
+            self._seed_cache = followed_roots(self)
         return self._seed_cache
-
-    def _follow(self, s0: np.ndarray, rows: np.ndarray, bordered: bool) -> np.ndarray:
-        """The nominal roots ``s0`` (rad/s) followed into the samples ``rows`` (see
-        :meth:`direct_seeds`), normalised, NaN in the other rows."""
-        P = s0.size
-        out = np.full((self.S, P), np.nan, dtype=complex)
-        if P == 0:
-            return out
-        x0, flat = self._nominal_vectors(s0, bordered), np.empty(rows.size * P, dtype=complex)
-        block = self._chunk((self.n + 1) * 128)
-        for i in range(0, flat.size, block):  # (sample, root) pairs, memory-bounded
-            k = np.arange(i, min(flat.size, i + block))
-            r, s, x, act = rows[k // P], s0[k % P], x0[k % P], np.arange(k.size)
-            for _ in range(SEED_STEPS):
-                if act.size:
-                    w = self._pair_solve(r[act], s[act], x[act], bordered)
-                    s[act], x[act], more = _rq_update(s[act], x[act], w)
-                    act = act[more]
-            flat[k] = s
-        out[rows] = flat.reshape(rows.size, P) / self.w_scale
-        return out
-
-    def _nominal_seed_roots(self) -> tuple[np.ndarray, np.ndarray]:
-        """The nominal poles and zeros (rad/s) :meth:`direct_seeds` follows (the last
-        system's are kept: Monte Carlo builds a set per chunk of samples of one system)."""
-        global _LAST_SEEDS
-        key, last = (self.system, float(self.grid[0]), float(self.grid[-1])), _LAST_SEEDS
-        if last is not None and last[0] == key:  # one read: safe if threads share it
-            return last[1][0].copy(), last[1][1].copy()
-        from .solve import DenseEngine, SparseEngine
-
-        lo, hi = float(self.grid[0]), float(self.grid[-1])
-        try:
-            eng = (DenseEngine if self.sparse is None else SparseEngine)(self.system)
-            poles, zeros, _ = eng.roots(lo, hi)
-        except (np.linalg.LinAlgError, ValueError, RuntimeError, ArithmeticError):
-            poles = zeros = np.zeros(0, complex)
-        out = (self._least_damped(_TWO_PI * np.asarray(poles, complex)),
-               self._least_damped(_TWO_PI * np.asarray(zeros, complex)))
-        _LAST_SEEDS = (key, (out[0].copy(), out[1].copy()))
-        return out
-
-    def _least_damped(self, s: np.ndarray) -> np.ndarray:
-        """Of the roots ``s`` (rad/s): Im s > 0, |Re s|/|Im s| < 0.3 and |Im s|/2π within a
-        factor 1.5 of the sweep, least damped first, at most :data:`SEED_POLES_MAX`,
-        each once (a sparse search may find a root twice)."""
-        s = s[np.isfinite(s) & (s.imag > 0)]
-        nu, rel = s.imag / _TWO_PI, np.abs(s.real) / s.imag
-        keep = (rel < _SEED_REL) & (nu > self.grid[0] / 1.5) & (nu < self.grid[-1] * 1.5)
-        kept: list[complex] = []
-        for p in s[keep][np.argsort(rel[keep], kind="stable")]:
-            if len(kept) < SEED_POLES_MAX and all(abs(p - q) > 1e-6 * abs(p) for q in kept):
-                kept.append(complex(p))
-        return np.array(kept, dtype=complex)
-
-    def _bordered(self, g: sp.spmatrix, c: sp.spmatrix) -> tuple[sp.csc_matrix, sp.csc_matrix]:
-        """The pencil (G, C) bordered with b and l: its finite eigenvalues are the zeros."""
-        b = sp.csc_matrix(self.b.astype(complex)[:, None])
-        l = sp.csc_matrix(self.l.astype(complex)[None, :])
-        gb = sp.bmat([[g, b], [l, None]], format="csc")
-        cb = sp.bmat([[c, None], [None, sp.csc_matrix((1, 1), dtype=complex)]], format="csc")
-        return gb, cb
-
-    def _nominal_vectors(self, s0: np.ndarray, bordered: bool = False) -> np.ndarray:
-        """Nominal eigenvectors at the roots ``s0``: two inverse-iteration steps each."""
-        g, c = self.system.G.tocsc(), self.system.C.tocsc()
-        if bordered:
-            g, c = self._bordered(g, c)
-        m = g.shape[0]
-        rng = np.random.default_rng(12345)  # fixed start vectors: reproducible runs
-        x = _unit(rng.standard_normal((s0.size, m)) + 1j * rng.standard_normal((s0.size, m)))
-        for k in range(s0.size):
-            try:
-                lu = spla.splu((g + s0[k] * c).tocsc(), permc_spec="COLAMD")
-            except RuntimeError:
-                continue  # exactly singular there: keep the start vector
-            for _ in range(2):
-                x[k] = _unit(lu.solve(c @ x[k]))
-        return np.nan_to_num(x)
-
-    def _pair_solve(self, rows: np.ndarray, s: np.ndarray, x: np.ndarray,
-                    bordered: bool = False) -> np.ndarray:
-        """w = (G + sC)⁻¹Cx with each sample ``rows[i]``'s matrices at s[i], for x[i]
-        (bordered with b and l when ``bordered``); NaN where singular."""
-        n = self.n
-        if self.sparse is not None:
-            w = np.full(x.shape, np.nan, dtype=complex)
-            for i, r in enumerate(rows):
-                g = sp.csc_matrix((self.sparse.g[r], self.sparse.indices, self.sparse.indptr),
-                                  shape=(n, n))
-                c = sp.csc_matrix((self.sparse.c[r], self.sparse.indices, self.sparse.indptr),
-                                  shape=(n, n))
-                if bordered:
-                    g, c = self._bordered(g, c)
-                try:
-                    lu = spla.splu((g + complex(s[i]) * c).tocsc(), permc_spec="COLAMD")
-                    w[i] = lu.solve(c @ x[i])
-                except RuntimeError:
-                    pass
-            return w
-        w = np.empty(x.shape, dtype=complex)
-        m = n + 1 if bordered else n
-        step = self._chunk(m * m * 48)
-        for i in range(0, rows.size, step):
-            sel = rows[i:i + step]
-            c = np.zeros((sel.size, m, m))
-            c[:, :n, :n] = self.C[sel]
-            a = np.zeros((sel.size, m, m), dtype=complex)
-            a[:, :n, :n] = self.G[sel] + s[i:i + step, None, None] * self.C[sel]
-            if bordered:
-                a[:, :n, n], a[:, n, :n] = self.b, self.l
-            try:
-                w[i:i + step] = np.linalg.solve(
-                    a, np.einsum("mij,mj->mi", c, x[i:i + step])[..., None])[..., 0]
-            except np.linalg.LinAlgError:  # a root hit exactly: these shifts stay
-                w[i:i + step] = np.nan
-        return w
-
-
-class SparseBatch:
-    """S samples of G + jωC on one sparsity pattern, for systems too large for dense arrays.
-
-    The entries of every sample are summed once into CSC data arrays (S, nnz) on the
-    pattern shared by all samples; a solve forms one sample's matrix at one frequency
-    and factors it with SuperLU. The loop runs over factorisations, which are the work.
-    """
-
-    def __init__(self, system: System, values: Mapping[str, np.ndarray], samples: int
-                 ) -> None:
-        st = Stamper(system.circuit, values)
-        st.stamp_all()
-        n = self.n = system.size
-        rg, cg, vg = st.batch_entries("G", samples)
-        rc, cc, vc = st.batch_entries("C", samples)
-        keys, where = np.unique(np.concatenate([cg * n + rg, cc * n + rc]),
-                                return_inverse=True)
-        self.indices = (keys % n).astype(np.int32)
-        self.indptr = np.searchsorted(keys // n, np.arange(n + 1)).astype(np.int32)
-        self.g = np.zeros((samples, keys.size))
-        self.c = np.zeros((samples, keys.size))
-        np.add.at(self.g, (slice(None), where[:rg.size]), vg)
-        np.add.at(self.c, (slice(None), where[rg.size:]), vc)
-        self.b = np.asarray(system.b, complex)
-
-    def factor(self, row: int, f_hz: float):
-        """SuperLU factors of sample ``row``'s G + j2πfC (RuntimeError when singular)."""
-        return self.factor_at(row, 1j * _TWO_PI * f_hz)
-
-    def factor_at(self, row: int, s: complex):
-        """SuperLU factors of sample ``row``'s G + sC at complex s (RuntimeError when
-        singular)."""
-        data = self.g[row] + s * self.c[row]
-        a = sp.csc_matrix((data, self.indices, self.indptr), shape=(self.n, self.n))
-        return spla.splu(a, permc_spec="COLAMD")
-
-    def solutions(self, row: int, f_hz: np.ndarray) -> np.ndarray:
-        """x (K, n) of sample ``row`` at the frequencies ``f_hz`` (K,); NaN where singular."""
-        f = np.atleast_1d(np.asarray(f_hz, float))
-        out = np.empty((f.size, self.n), dtype=complex)
-        for k, fk in enumerate(f):
-            try:
-                out[k] = self.factor(row, float(fk)).solve(self.b)
-            except RuntimeError:
-                out[k] = np.nan
-        return out
 
 
 def _select(S: int, rows: np.ndarray | None) -> tuple[Rows, np.ndarray]:
@@ -611,8 +441,6 @@ def _nominal_form(system: System, grid: np.ndarray
                   ) -> tuple[tuple[int, int] | None, np.ndarray | None]:
     """Numbers of finite poles and zeros of the nominal circuit (QZ) and its poles
     (rad/s); (None, None) when its pole–zero form is not trusted."""
-    from .solve import DenseEngine, PoleZeroEngine
-
     try:
         with np.errstate(all="ignore"):
             eng = PoleZeroEngine.build(DenseEngine(system), grid)
@@ -621,24 +449,6 @@ def _nominal_form(system: System, grid: np.ndarray
     if eng is None:
         return None, None
     return (int(eng.poles.size), int(eng.zeros.size)), eng.poles * eng.w_scale
-
-
-def _unit(x: np.ndarray) -> np.ndarray:
-    return x / np.linalg.norm(x, axis=-1, keepdims=True)
-
-
-def _rq_update(s: np.ndarray, x: np.ndarray, w: np.ndarray
-               ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """One Rayleigh-quotient step from w = (G + sC)⁻¹Cx: the new shifts and unit
-    vectors, and which are still moving (a failed step keeps s and stops)."""
-    with np.errstate(all="ignore"):
-        mu = np.einsum("mi,mi->m", x.conj(), w) / np.einsum("mi,mi->m", x.conj(), x)
-        ds = -1.0 / mu
-        ok = np.isfinite(ds) & np.isfinite(w).all(axis=1)
-        s_new = np.where(ok, s + ds, s)
-        x_new = np.where(ok[:, None], _unit(w), x)
-    more = ok & (np.abs(ds) > _SEED_CONVERGED * np.abs(s_new.real) + 1e-12 * np.abs(s_new))
-    return s_new, x_new, more
 
 
 def _db(h: np.ndarray) -> np.ndarray:

@@ -286,7 +286,7 @@ def test_toml_bomb_in_a_scanned_folder_is_listed_not_fatal(tmp_path, capsys):
 
 
 def test_oversize_toml_is_not_read_while_scanning(tmp_path, monkeypatch, capsys):
-    import netcheck.cli.check as checkcli
+    import netcheck.cli.spec_files as checkcli
 
     design(tmp_path / "designs")
     big = tmp_path / "designs" / "data.toml"

@@ -21,7 +21,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from netcheck.runs.batch import _variant_jobs, read_variant_table
+from netcheck.runs.jobs import _variant_jobs, read_variant_table
 from netcheck.exceptions import CODES, NetcheckError
 from netcheck.spec import TOP_KEYS, parse_spec
 from netcheck.spec.stress import parse_stress

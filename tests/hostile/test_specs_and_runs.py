@@ -21,7 +21,7 @@ from pathlib import Path
 
 import pytest
 
-from netcheck.runs import batch
+from netcheck.runs import jobs as batch
 from netcheck.runs.batch import (DaskExecutor, Job, LocalExecutor, SerialExecutor, expand_jobs,
                             run_all, run_job)
 from netcheck.analyses.nominal import TRACEBACK_MAX, check_spec
