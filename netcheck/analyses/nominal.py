@@ -14,13 +14,14 @@ import numpy as np
 from ..mna.assemble import System, assemble
 from ..netlist.elaborate import Circuit, elaborate
 from ..netlist.parse import Netlist, load_netlist
-from ..exceptions import Diagnostic, ElaborationError, NetcheckError, NetcheckWarning, SpecError
+from ..exceptions import ElaborationError, NetcheckError, NetcheckWarning, SpecError
 from ..measure.measurements import (Extremum, MeasurementFailure, Resonance, band_extremes, corner, peak,
                       resonance, root_seeds)
 from ..result import SAFETY_CAUTION, Caution, Curves, SpecResult, Status, worst_status
 from ..mna.solve import Response, solve
 from ..spec.load import Spec, load_spec, locate
 from ..netlist.units import format_eng, format_si
+from .registry import Nominal, diag_caution, run_analyses
 
 __all__ = ["ResponseCurve", "SpecProbe", "evaluate", "check_spec", "seeds_from_roots",
            "error_result", "failure_result", "TRACEBACK_MAX"]
@@ -177,12 +178,6 @@ def _sha256(text: str) -> str:
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
-def _diag_caution(d: Diagnostic) -> Caution:
-    if d.span is None:
-        return Caution(d.code, d.message, d.severity)
-    return Caution(d.code, d.message, d.severity, d.span.path, d.span.line, d.span.column)
-
-
 def _assemble_for(spec: Spec, circuit: Circuit) -> System:
     try:
         return assemble(circuit, spec.source, spec.output[0], spec.output[1])
@@ -241,7 +236,7 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
     system = _assemble_for(spec, circuit)
     grid = spec.sweep.grid()
     cautions = [Caution("safety", SAFETY_CAUTION, "caution")]
-    cautions += [_diag_caution(d) for d in circuit.diagnostics]
+    cautions += [diag_caution(d) for d in circuit.diagnostics]
     src = circuit.element(system.source)
     if not getattr(src, "has_ac", True):
         cautions.append(Caution("NC153", f"stimulus {src.name} has no AC value; results are "
@@ -261,19 +256,14 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         if issubclass(w.category, NetcheckWarning):
             cautions.append(Caution("NC302", str(w.message), "warning"))
     extra: list[tuple[str, object]] = []
-    if spec.stress is not None:
-        from .stress import judge_stress, stress_cautions
-        stressed = judge_stress(spec.stress, response, index_offset=len(spec.limits))
-        limits.extend(r.to_limit_result() for r in stressed)
-        cautions.extend(stress_cautions(stressed))
-        extra.append(("stress", [r.to_json() for r in stressed]))
-    envelope = (None, None)
-    if spec.tolerances is not None or spec.analysis is not None:
-        tol_rows, tol_block, envelope, tol_cautions = _tolerance(
-            spec, circuit, system, tuple(limits), dict(measurements), probe)
-        limits.extend(tol_rows)
-        cautions.extend(tol_cautions)
-        extra.append(("tolerance", tol_block))
+    envelope: tuple = (None, None)
+    nominal = Nominal(spec, circuit, system, probe, tuple(limits), dict(measurements))
+    for name, outcome in run_analyses(nominal):
+        limits.extend(outcome.rows)
+        cautions.extend(outcome.cautions)
+        extra.append((name, outcome.block))
+        if outcome.envelope is not None:
+            envelope = outcome.envelope
     mask = tuple(m for lim in spec.limits for m in lim.mask())
     failed_names = {r.name for r in limits if r.status is not Status.PASS}
     mask = tuple(type(m)(m.label, m.f_lo_hz, m.f_hi_hz, m.lo, m.hi, m.quantity,
@@ -297,51 +287,6 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         curves=curves, mask=mask,
         source_text=tuple((s.path, s.text) for s in circuit.sources) + ((spec.path, spec.text),),
         extra=tuple(extra))
-
-
-def _tolerance(spec: Spec, circuit: Circuit, system: System, nominal: tuple,
-               measurements: dict[str, float], probe: SpecProbe
-               ) -> tuple[list, dict, tuple, list[Caution]]:
-    """Run the analyses the spec asks for; (result rows, JSON block, envelope, cautions).
-
-    The ``[analysis]`` and ``[tolerances]`` tables were parsed when the spec was loaded
-    (``spec.analysis``, ``spec.tolerances``; an absent one takes its defaults); matching
-    the tolerances against the circuit's parts is done here.
-    """
-    from ..spec.tolerances import Tolerances, parse_analysis
-    from .tolerance import monte_carlo, toleranced_parts
-    from .worstcase import worst_case
-
-    # the defaults of an absent [analysis] (its memory budget capped to this machine)
-    analysis = spec.analysis if spec.analysis is not None else parse_analysis({}, spec.path)
-    tol = spec.tolerances if spec.tolerances is not None else Tolerances()
-    parts = toleranced_parts(tol, circuit, spec.path)
-    rows: list = []
-    block: dict = {"modes": list(analysis.modes), "parts": len(parts)}
-    cautions: list[Caution] = []
-    envelope: tuple = (None, None)
-    from .eseries import check_preferred
-    preferred = [(n, circuit.element(n).letter, v, t, circuit.element(n).span)
-                 for n, v, t in parts
-                 if circuit.element(n).letter in "RLC" and t <= 0.2 and v > 0
-                 # part_models: a model's parameters are not parts bought by E-series value
-                 and circuit.part_model_of(n) is None]
-    for d in check_preferred(preferred):
-        cautions.append(_diag_caution(d))
-    if not parts and set(analysis.modes) - {"nominal"}:
-        cautions.append(Caution("NC250", "tolerance analysis asked for, but no part has a "
-                                "tolerance ([tolerances] default/parts)", "warning", spec.path))
-        return rows, block, envelope, cautions
-    if "monte_carlo" in analysis.modes:
-        mc, mc_rows, envelope = monte_carlo(system, spec, parts, tol, analysis,
-                                            probe.curve.response)
-        block["monte_carlo"] = mc
-        rows.extend(mc_rows)
-    if "worst_case" in analysis.modes:
-        wc, wc_rows = worst_case(system, spec, parts, nominal, measurements, analysis, probe)
-        block["worst_case"] = wc
-        rows.extend(wc_rows)
-    return rows, block, envelope, cautions
 
 
 def _measurements(probe: SpecProbe) -> tuple[tuple[str, float], ...]:

@@ -63,8 +63,9 @@ from ..result import Caution, LimitResult, Status, finite_or_none
 from ..mna.solve import DENSE_MAX, Response
 from ..spec.stress import UNITS, StressLimit
 from ..netlist.units import format_si
+from .registry import Nominal, Outcome
 
-__all__ = ["StressResult", "judge_stress", "stress_cautions", "stress_probes", "HAZARD_VOLTAGE_PEAK",
+__all__ = ["StressResult", "analyse", "judge_stress", "stress_cautions", "stress_probes", "HAZARD_VOLTAGE_PEAK",
            "REACTIVE_RATIO"]
 
 #: peak volts above which a part's voltage is called out in a caution
@@ -590,3 +591,14 @@ def stress_cautions(results: Sequence[StressResult]) -> list[Caution]:
                            "measurement on the prototype, and follow local codes and licensed "
                            "practice.", "caution"))
     return out
+
+
+def analyse(nominal: Nominal) -> Outcome | None:
+    """The ``[[stress]]`` ratings judged on the nominal solution (rows after the
+    limits'); None when the spec has none."""
+    if nominal.spec.stress is None:
+        return None
+    stressed = judge_stress(nominal.spec.stress, nominal.probe.curve.response,
+                            index_offset=len(nominal.spec.limits))
+    return Outcome(tuple(r.to_limit_result() for r in stressed),
+                   tuple(stress_cautions(stressed)), [r.to_json() for r in stressed])

@@ -1,0 +1,56 @@
+"""The tolerance study a spec asks for: preferred-value lint, Monte Carlo, worst case."""
+
+from __future__ import annotations
+
+from ..result import Caution
+from .registry import Nominal, Outcome, diag_caution
+
+__all__ = ["analyse"]
+
+
+def analyse(nominal: Nominal) -> Outcome | None:
+    """Run the modes of ``[analysis]`` over the parts of ``[tolerances]``; None when the
+    spec has neither table.
+
+    Both tables were parsed when the spec was loaded (``spec.analysis``,
+    ``spec.tolerances``; an absent one takes its defaults); matching the tolerances
+    against the circuit's parts is done here, since it needs the circuit. The outcome's
+    block is the ``tolerance`` part of the JSON result; its envelope is the Monte Carlo
+    gain envelope the plots draw.
+    """
+    spec, circuit = nominal.spec, nominal.circuit
+    if spec.tolerances is None and spec.analysis is None:
+        return None
+    from ..spec.tolerances import Tolerances, parse_analysis
+    from .eseries import check_preferred
+    from .tolerance import monte_carlo, toleranced_parts
+    from .worstcase import worst_case
+
+    # the defaults of an absent [analysis] (its memory budget capped to this machine)
+    analysis = spec.analysis if spec.analysis is not None else parse_analysis({}, spec.path)
+    tol = spec.tolerances if spec.tolerances is not None else Tolerances()
+    parts = toleranced_parts(tol, circuit, spec.path)
+    rows: list = []
+    block: dict = {"modes": list(analysis.modes), "parts": len(parts)}
+    preferred = [(n, circuit.element(n).letter, v, t, circuit.element(n).span)
+                 for n, v, t in parts
+                 if circuit.element(n).letter in "RLC" and t <= 0.2 and v > 0
+                 # part_models: a model's parameters are not parts bought by E-series value
+                 and circuit.part_model_of(n) is None]
+    cautions = [diag_caution(d) for d in check_preferred(preferred)]
+    if not parts and set(analysis.modes) - {"nominal"}:
+        cautions.append(Caution("NC250", "tolerance analysis asked for, but no part has a "
+                                "tolerance ([tolerances] default/parts)", "warning", spec.path))
+        return Outcome((), tuple(cautions), block, (None, None))
+    envelope: tuple = (None, None)
+    if "monte_carlo" in analysis.modes:
+        mc, mc_rows, envelope = monte_carlo(nominal.system, spec, parts, tol, analysis,
+                                            nominal.probe.curve.response)
+        block["monte_carlo"] = mc
+        rows.extend(mc_rows)
+    if "worst_case" in analysis.modes:
+        wc, wc_rows = worst_case(nominal.system, spec, parts, nominal.limits,
+                                 dict(nominal.measurements), analysis, nominal.probe)
+        block["worst_case"] = wc
+        rows.extend(wc_rows)
+    return Outcome(tuple(rows), tuple(cautions), block, envelope)
