@@ -20,7 +20,7 @@ __all__ = [
 # are the traditional two-figure values, which depart from round(10**(i/N), 1) at
 # 2.7, 3.0, 3.3, 3.6, 3.9, 4.3, 4.7 and 8.2; E48/E96/E192 are three-figure values
 # equal to round(10**(i/N), 2) except E192's 9.20 (the formula gives 9.19).
-# tests/test_eseries.py checks both statements.
+# tests/analyses/test_eseries.py checks both statements.
 
 #: E6 mantissas (±20 % parts), one decade in [1, 10).
 E6: tuple[float, ...] = (1.0, 1.5, 2.2, 3.3, 4.7, 6.8)

@@ -162,20 +162,15 @@ def _spec_inputs(spec_path: str, root: str | None = None) -> _Inputs:
     files, incomplete = [spec_path], False
     netlists = [spec.netlist]
     patterns: list[str] = []
-    variants = spec.table("variants")
     base = Path(spec_path).parent
-    if isinstance(variants, dict):
-        table = variants.get("table")
-        if isinstance(table, str):
-            files.append(str(base / table))
-        raw = variants.get("netlists")
-        for pattern in raw if isinstance(raw, list) else ():
-            if isinstance(pattern, str):
-                patterns.extend(_keys(str(base / pattern)))
-                # only what the check itself may read: matches inside the design root
-                netlists.extend(m for m in sorted(glob.glob(str(base / pattern)))
-                                if spec.design_root is None
-                                or inside_root(m, spec.design_root))
+    if spec.variants is not None:
+        if spec.variants.table is not None:
+            files.append(str(base / spec.variants.table))
+        for pattern in spec.variants.netlists:
+            patterns.extend(_keys(str(base / pattern)))
+            # only what the check itself may read: matches inside the design root
+            netlists.extend(m for m in sorted(glob.glob(str(base / pattern)))
+                            if spec.design_root is None or inside_root(m, spec.design_root))
     for netlist in dict.fromkeys(netlists):
         got, failed = _netlist_files(netlist, spec.root or root)
         files.extend(got)

@@ -21,14 +21,11 @@ from ..result import SpecResult
 from ..netlist.source import printable
 from ..spec.load import load_spec, locate
 from ..spec.reader import SpecReader
+from ..spec.variants import VARIANT_KEYS, Variants, parse_variants
 from .variant_table import MAX_VARIANT_ROWS, Job, read_variant_table, shown_names, variant_error
 
 __all__ = ["Job", "expand_jobs", "run_job", "read_variant_table", "VARIANT_KEYS",
            "MAX_VARIANT_ROWS", "MAX_VARIANTS", "MAX_GLOB_MATCHES"]
-
-VARIANT_KEYS = {"table": "CSV file next to the spec: header name,<param>,...; one variant a row",
-                "set": "array of {name, params = {param = value}} tables",
-                "netlists": "list of netlist paths or globs sharing this spec (relative to it)"}
 
 #: Budgets (NC205, docs/spec-format.md#budgets; rows of one table:
 #: :data:`~netcheck.runs.variant_table.MAX_VARIANT_ROWS`): variants of one spec (table
@@ -73,33 +70,19 @@ def _glob_netlists(spec_path: str, patterns: list[str], root: Path, why: str,
 
 
 def _variant_jobs(spec_path: str, table: object, design_root: str | None = None) -> list[Job]:
-    """The jobs of the ``[variants]`` table of the spec at ``spec_path`` (SpecError if bad)."""
-    rd = SpecReader(table, "variants", spec_path, VARIANT_KEYS)
+    """The jobs of the ``[variants]`` table of the spec at ``spec_path`` (SpecError if bad):
+    ``table`` is the spec's :class:`~netcheck.spec.variants.Variants` (or the raw table,
+    checked here the way the spec loader checks it)."""
+    variants = table if isinstance(table, Variants) else parse_variants(table, spec_path)
+    rd = SpecReader({}, "variants", spec_path, VARIANT_KEYS)
     root, why = resolve_design_root(spec_path, design_root)
     jobs: list[Job] = []
-    if rd.has("table"):
-        written = rd.text("table")
-        csv_path = confine(written, Path(spec_path).parent, "variants.table", spec_path,
-                           root, why)
+    if variants.table is not None:
+        csv_path = confine(variants.table, Path(spec_path).parent, "variants.table",
+                           spec_path, root, why)
         jobs += read_variant_table(spec_path, csv_path, design_root)
-    sets = rd.raw("set", [])
-    if not isinstance(sets, list):
-        rd.fail("set", "expected an array of tables ([[variants.set]])")
-    for i, entry in enumerate(sets):
-        sub = SpecReader(entry, f"variants.set[{i}]", spec_path, {"name": "", "params": ""})
-        name = sub.text("name", required=True)
-        params = sub.raw("params", {})
-        if not isinstance(params, dict):
-            sub.fail("params", "expected a table of parameter = value")
-        values = tuple((k.lower(), sub.number("params", value=v, label=f"params.{k}"))
-                       for k, v in params.items())
-        jobs.append(Job(spec_path, name, values, design_root=design_root))
-    patterns = rd.raw("netlists", [])
-    if isinstance(patterns, str):
-        patterns = [patterns]
-    if not isinstance(patterns, list) or not all(isinstance(p, str) and p.strip()
-                                                 for p in patterns):
-        rd.fail("netlists", f"expected a list of paths or globs, got {patterns!r:.80}")
+    jobs += [Job(spec_path, s.name, s.params, design_root=design_root) for s in variants.sets]
+    patterns = list(variants.netlists)
     jobs += _glob_netlists(spec_path, patterns, root, why, design_root)
     if len(jobs) > MAX_VARIANTS:
         rd.fail("", f"{len(jobs):,} variants, over the budget of {MAX_VARIANTS:,} a spec",
@@ -141,12 +124,11 @@ def _expand_jobs(spec_paths: Sequence[str], design_root: str | None
             except NetcheckError:
                 out.append(Job(path, design_root=design_root))  # check_spec reports it
                 continue
-            table = spec.table("variants")
-            if table is None:
+            if spec.variants is None:
                 out.append(Job(path, design_root=design_root))
                 continue
             try:
-                jobs = _variant_jobs(path, table, design_root)
+                jobs = _variant_jobs(path, spec.variants, design_root)
             except SpecError as err:
                 out.append(error_result(path, locate(err, spec.text)))
                 continue

@@ -20,6 +20,7 @@ from ..netlist.source import UNUSABLE_CODE, SourceFile, printable, read_text
 from .reader import SWEEP_KEYS, SpecReader, Sweep, shown_value
 from .stress import StressLimit, parse_stress, stress_lines
 from .tolerances import Analysis, Tolerances, parse_analysis, parse_tolerances
+from .variants import Variants, parse_variants
 
 __all__ = ["Sweep", "Spec", "load_spec", "parse_spec", "read_toml", "validate_sweep",
            "design_root", "inside_root", "SpecReader", "TOP_KEYS", "locate",
@@ -48,11 +49,12 @@ TOP_KEYS: dict[str, str] = {
 class Spec:
     """A validated spec file, complete when loaded.
 
-    ``stress``, ``tolerances`` and ``analysis`` hold the parsed ``[[stress]]``,
-    ``[tolerances]`` and ``[analysis]`` tables (None when the spec has no such table),
-    so every error in them is raised by :func:`parse_spec`. What needs the circuit
-    (matching part names and globs against the netlist) is left to the analyses.
-    ``[variants]`` stays raw (:meth:`table`): :mod:`netcheck.runs.batch` reads it.
+    ``stress``, ``tolerances``, ``analysis`` and ``variants`` hold the parsed
+    ``[[stress]]``, ``[tolerances]``, ``[analysis]`` and ``[variants]`` tables (None
+    when the spec has no such table), so every error in them is raised by
+    :func:`parse_spec`. What needs the circuit (matching part names and globs against
+    the netlist) is left to the analyses; what needs other files (the variant CSV
+    table, the netlist globs) to the expansion of the jobs (:mod:`netcheck.runs.jobs`).
     """
 
     path: str
@@ -75,6 +77,8 @@ class Spec:
     tolerances: Tolerances | None = None
     #: the ``[analysis]`` table (:mod:`netcheck.spec.tolerances`); None when absent
     analysis: Analysis | None = None
+    #: the ``[variants]`` table (:mod:`netcheck.spec.variants`); None when absent
+    variants: Variants | None = None
 
     def table(self, key: str) -> Any:
         """A raw top-level table as written (tolerances, analysis, stress, variants)."""
@@ -165,6 +169,10 @@ def read_toml(path: str | Path) -> dict:
     return _decode(read_text(path, SpecError, "spec"), str(path))
 
 
+#: a key path into the i-th table of an array of tables, and the key below it
+_ARRAY_ITEM = re.compile(r"^(.+?)\[(\d+)\](?:\.(.+))?$")
+
+
 def _key_position(text: str, where: str) -> tuple[int, int, int] | None:
     """(line, column, width) of the key at ``where`` (``limits[3].band``, ``sweep.start``...).
 
@@ -179,6 +187,11 @@ def _key_position(text: str, where: str) -> tuple[int, int, int] | None:
     if nested is not None:
         return nested
     head, _, key = where.partition(".")
+    item = _ARRAY_ITEM.match(where)
+    if item and "." in item[1]:  # variants.set[1].params: an array of tables in a table
+        found = _search(text, (item[1], int(item[2])), (item[3] or "").split(".")[0])
+        if found is not None:
+            return found
     array, bracket, number = head.partition("[")
     if bracket and number.endswith("]") and number[:-1].isdigit():
         table: tuple[str, int] = (array, int(number[:-1]))   # limits[3], stress[0]
@@ -188,6 +201,12 @@ def _key_position(text: str, where: str) -> tuple[int, int, int] | None:
         return (1, 1, 1)
     else:
         table, key = ("", 0), head
+    return _search(text, table, key)
+
+
+def _search(text: str, table: tuple[str, int], key: str) -> tuple[int, int, int] | None:
+    """(line, column, width) of ``key`` in the ``table`` (name, index among its
+    ``[[name]]`` headers; ``("", 0)`` the top level), else of the table's header."""
     section: tuple[str, int] = ("", 0)
     arrays: dict[str, int] = {}
     header = None
@@ -379,13 +398,14 @@ def _build(doc: dict, text: str, path: str, build_limit: Any,
     stress = parse_stress(doc["stress"], path, stress_lines(text)) if "stress" in doc else None
     analysis = parse_analysis(doc["analysis"] or {}, path) if "analysis" in doc else None
     tolerances = parse_tolerances(doc["tolerances"] or {}, path) if "tolerances" in doc else None
+    variants = parse_variants(doc["variants"], path) if "variants" in doc else None
     return Spec(
         path=path, title=title,
         netlist=str(base / netlist), source=source, output=output, sweep=sweep,
         limits=tuple(limits), root=str(base / root) if root else None,
         allow_negative=allow_negative, text=text, tables=tables,
         design_root=str(root_dir), part_models=models, stress=stress,
-        tolerances=tolerances, analysis=analysis)
+        tolerances=tolerances, analysis=analysis, variants=variants)
 
 
 def _part_models(top: SpecReader, path: str) -> tuple[str, ...]:

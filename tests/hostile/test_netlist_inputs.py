@@ -416,7 +416,7 @@ class TestSizeBudgets:
         assert err.code == "NC101" and "over the budget of 10,000" in err.message
 
 
-# --- 4. malformed scale suffix (see also tests/test_units.py) ---------------------------
+# --- 4. malformed scale suffix (see also tests/netlist/test_units.py) ---------------------------
 
 def test_double_scale_suffix_is_refused_with_its_position(tmp_path):
     path = write(tmp_path / "kk.cir", "Quillmere QM-15\nV1 in 0 AC 1\nR1 in out 1kk\n"

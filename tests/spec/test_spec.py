@@ -348,7 +348,7 @@ def test_corner_defaults():
 class TestSpecFormatDoc:
     """docs/spec-format.md cannot drift from the key tables the loader reads."""
 
-    DOC = Path(__file__).resolve().parents[1] / "docs" / "spec-format.md"
+    DOC = Path(__file__).resolve().parents[2] / "docs" / "spec-format.md"
 
     @staticmethod
     def key_table(keys: dict[str, str]) -> list[str]:
@@ -394,7 +394,7 @@ class TestSpecFormatDoc:
         full = self.toml_blocks()[-1]
         spec = tmp_path / "example.toml"
         # a copy beside the spec: a path out of the spec's design root would be refused
-        netlist = Path(__file__).resolve().parents[1] / "sample_netlists" / "rx40k.cir"
+        netlist = Path(__file__).resolve().parents[2] / "sample_netlists" / "rx40k.cir"
         (tmp_path / "rx40k.cir").write_bytes(netlist.read_bytes())
         spec.write_text(full.replace('"../sample_netlists/rx40k.cir"', '"rx40k.cir"'))
         result = check_spec(str(spec))

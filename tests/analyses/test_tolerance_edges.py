@@ -23,7 +23,7 @@ from netcheck.cli import main
 from netcheck.analyses.nominal import check_spec
 from netcheck.result import Status
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 SCHEMA = json.loads((ROOT / "docs" / "result.schema.json").read_text("utf-8"))
 
 Q_LIMIT = '[[limits]]\nkind = "resonance"\nq = [1, 100]\n'

@@ -36,7 +36,7 @@ from netcheck.render import RenderOptions, get_renderer
 from netcheck.result import CheckResult, LimitResult, Status
 from netcheck.netlist.units import format_eng, row_text, tell_apart
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 CREATED = "2026-01-01T00:00:00Z"
 
 L_TRAP, C_TRAP, R_LOAD = 1e-3, 1e-6, 1e3

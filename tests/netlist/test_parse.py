@@ -15,7 +15,7 @@ from netcheck import NetcheckError, NetlistSyntaxError, load_netlist, read_netli
 from netcheck.netlist.parse import Assign, Card, Field, parse_statements
 from netcheck.netlist.source import SourceFile, format_caret
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 
 
 def cards(text: str) -> list[tuple[str, ...]]:

@@ -11,7 +11,7 @@ import pytest
 
 from netcheck.cli import BAD_INPUT, DRIFT, OK, main
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 
 
 def test_baseline_drift_exit_code(tmp_path, capsys):

@@ -370,7 +370,7 @@ def test_monte_carlo_screen_leaves_model_internals_out(tmp_path):
 def test_doc_names_the_key_and_shows_the_example():
     # Reference: docs/spec-format.md, the "Part models" section this feature adds: its
     # two code blocks (indented) are the netlist and the spec lines that declare it.
-    doc = (Path(__file__).resolve().parents[1] / "docs" / "spec-format.md").read_text("utf-8")
+    doc = (Path(__file__).resolve().parents[2] / "docs" / "spec-format.md").read_text("utf-8")
     assert "| `part_models` |" in doc
     section = doc.split('<a id="part-models"></a>')[1].split("<a id=")[0]
     blocks = re.findall(r"((?:^    .*\n|^\n)+)", section, flags=re.M)

@@ -15,7 +15,7 @@ import pytest
 from netcheck.cli import BAD_INPUT, FAIL, INTERNAL, OK
 from netcheck.cli import main as netcheck_main
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 SPECS = ROOT / "specs"
 GOOD = sorted(str(p) for p in SPECS.glob("*.toml"))
 FAILING = str(SPECS / "failing")

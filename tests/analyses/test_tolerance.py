@@ -226,7 +226,7 @@ def test_tolerance_and_stress_json_follow_the_schema(tmp_path):
     from netcheck.render.jsonreport import to_dict
     from netcheck.result import CheckResult
 
-    root = Path(__file__).resolve().parents[1]
+    root = Path(__file__).resolve().parents[2]
     text = (root / "specs/rx40k_tolerance.toml").read_text().replace(
         "samples = 2000", "samples = 200").replace("../sample_netlists/rx40k.cir", "rx40k.cir")
     # the netlist beside the spec: the spec's design root is its own folder here

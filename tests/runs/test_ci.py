@@ -22,7 +22,7 @@ from netcheck.exceptions import NetcheckError
 from netcheck.render.jsonreport import SCHEMA, to_dict
 from netcheck.result import CheckResult, LimitResult, SpecResult, Status
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 
 pytestmark = pytest.mark.skipif(shutil.which("git") is None, reason="git is not installed")
 

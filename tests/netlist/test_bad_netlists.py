@@ -10,7 +10,7 @@ import pytest
 from netcheck import NetcheckError, read_netlist
 from netcheck.exceptions import CODES
 
-BAD = Path(__file__).resolve().parent / "bad_netlists"
+BAD = Path(__file__).resolve().parents[1] / "bad_netlists"
 EXPECTED: dict[str, dict[str, str]] = tomllib.loads((BAD / "expected.toml").read_text("utf-8"))
 
 

@@ -61,6 +61,11 @@ class TestBrokenTablesFailAtLoad:
         ('[[stress]]\nparts = "C*"\nmax_voltage = 5\n', "stress[0].source_amplitude", "NC202",
          10),
         ('[stress]\nparts = "C*"\n', "stress", "NC202", None),
+        ('[variants]\nnetlist = ["a.cir"]\n', "variants.netlist", "NC201", 11),
+        ('[variants]\nnetlists = [""]\n', "variants.netlists", "NC202", 11),
+        ('[[variants.set]]\nname = 5\n', "variants.set[0].name", "NC202", 11),
+        ('[[variants.set]]\nname = "a"\nparams = { rval = "lots" }\n',
+         "variants.set[0].params", "NC202", 12),
     ])
     def test_parse_spec_raises_with_key_path_and_location(self, extra, where, code, line):
         err = pytest.raises(SpecError, parse_spec, HEAD + extra, "demo.toml").value
@@ -115,3 +120,16 @@ class TestGoodTablesAreParsed:
         spec = parse_spec(GOOD, "demo.toml")
         with pytest.raises(AttributeError):
             spec.stress = ()  # type: ignore[misc]
+
+
+def test_variants_are_parsed_at_load():
+    # the files a family names are read when its jobs are expanded; their names, sets
+    # and values are checked and kept when the spec is loaded
+    spec = parse_spec(HEAD + '[variants]\ntable = "fam.csv"\nnetlists = "rev*.cir"\n\n'
+                      '[[variants.set]]\nname = "low"\nparams = { RVAL = "4k7" }\n',
+                      "demo.toml")
+    assert spec.variants.table == "fam.csv"
+    assert spec.variants.netlists == ("rev*.cir",)
+    (low,) = spec.variants.sets
+    assert low.name == "low" and low.params == (("rval", 4700.0),)
+    assert parse_spec(HEAD, "demo.toml").variants is None

@@ -15,7 +15,7 @@ from netcheck.cli import BAD_INPUT, OK, main
 from netcheck.netlist.units import parse_quantity
 
 HEADER = "frequency_hz,magnitude_db,phase_deg,group_delay_s"
-BAD = Path(__file__).resolve().parent / "bad_netlists"
+BAD = Path(__file__).resolve().parents[1] / "bad_netlists"
 
 
 def sweep(capsys, *args: str) -> tuple[int, str, str]:
