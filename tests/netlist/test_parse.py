@@ -289,7 +289,7 @@ def test_wheel_ships_the_grammars(tmp_path):
                            "--no-build-isolation", "-q", "-w", str(out), str(src)],
                           capture_output=True, text=True, timeout=300)
     assert proc.returncode == 0, proc.stderr
-    [whl] = out.glob("netcheck-*.whl")
+    [whl] = out.glob("netcheck_filters-*.whl")  # the distribution's own name
     names = zipfile.ZipFile(whl).namelist()
     assert "netcheck/grammar/netlist.lark" in names
     assert "netcheck/grammar/expr.lark" in names
