@@ -118,7 +118,7 @@ def test_junit(capsys, tmp_path):
     suites = root.findall("testsuite")
     assert [s.get("name") for s in suites] == ["Sallen-Key low-pass, 1 kHz, Q 0.707, rev C",
                                                "Transducer receive filter, 40 kHz, rev A "
-                                               "(fails on purpose)"]
+                                               "(superseded by rev B)"]
     cases = suites[1].findall("testcase")
     assert len(cases) == int(suites[1].get("tests")) == 4
     failed = [c.get("name") for c in cases if c.find("failure") is not None]

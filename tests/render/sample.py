@@ -1,4 +1,4 @@
-"""A hand-built CheckResult shared by the renderer tests (Quillmere Instruments demo data).
+"""A hand-built CheckResult shared by the renderer tests (Quillmere Instruments sample designs).
 
 Every status appears: passed, failed, erroring and skipped limits, a spec that could not
 be checked at all, a family of three variants of one spec file, cautions with and
