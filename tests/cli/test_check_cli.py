@@ -218,3 +218,17 @@ class TestProgress:
         tolerance = [json.loads(p.read_text("utf-8"))["specs"][0]["tolerance"]
                      for p in (shown, quiet)]
         assert tolerance[0] == tolerance[1]  # smaller chunks change no result
+
+
+def test_pdf_and_pdf_combined_together_write_both(capsys, tmp_path):
+    # README, "netcheck check": given together, both are written from the same run
+    from pypdf import PdfReader
+
+    folder, combined = tmp_path / "each", tmp_path / "all.pdf"
+    assert main(["check", ONE, FAILING, "--pdf", str(folder), "--pdf-combined",
+                 str(combined)]) == FAIL
+    each = sorted(p.name for p in folder.iterdir())
+    assert each == ["rx40k_revA.pdf", "sk_lowpass.pdf"]
+    pages_each = sum(len(PdfReader(folder / name).pages) for name in each)
+    # the combined report holds every spec's pages (and may add a front page)
+    assert len(PdfReader(combined).pages) >= pages_each
