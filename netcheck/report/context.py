@@ -11,6 +11,7 @@ from ..netlist.units import format_eng, format_si
 from .formatting import (LISTING_ROWS_MAX, LISTING_TOTAL_MAX, MEASUREMENTS, caution_view,
                          cell_text, date_text, display_path, format_margin, format_measured,
                          listing, shown_name, status_view, unit_of)
+from .plot_gain import limit_tag
 from .view_family import family_views
 from .view_stress import stress_view
 from .view_tolerance import tolerance_view
@@ -54,8 +55,12 @@ def _limit_row(lim: LimitResult, spec_path: str) -> dict[str, Any]:
     }
 
 
+def _order_key(r: LimitResult) -> tuple[int, int]:
+    return -r.status.rank, r.index
+
+
 def _order(limits: tuple[LimitResult, ...]) -> list[LimitResult]:
-    return sorted(limits, key=lambda r: (-r.status.rank, r.index))
+    return sorted(limits, key=_order_key)
 
 
 def _verdict(s: SpecResult) -> dict[str, Any]:
@@ -151,7 +156,9 @@ def _spec_view(s: SpecResult, number: int, with_plots: bool = True) -> dict[str,
         "design_files": design, "status": s.status.value, "word": s.status.word,
         "verdict": _verdict(s), "error": s.error, "counts": n, "total": len(s.limits),
         "inputs": inputs, "git": git, "sweep": _sweep_view(s),
-        "rows": [_limit_row(lim, s.spec) for lim in _order(s.limits)],
+        # "tag": the limit's number as the plots tag it (#1 is the first limit of the spec)
+        "rows": [{**_limit_row(lim, s.spec), "tag": limit_tag(k)}
+                 for k, lim in sorted(enumerate(s.limits), key=lambda p: _order_key(p[1]))],
         "measurements": measurements, "cautions": cautions,
         "hazards": [c for c in cautions if c["severity"] == "caution"],
         "plots": spec_plots(s) if with_plots else (), "sources": sources, "extra": extra,

@@ -40,12 +40,18 @@ FONT_PT = 7.5
 
 @dataclass(frozen=True, slots=True)
 class Tag:
-    """A short plot tag (``M1``/``F1``) and what it stands for, for the figure key."""
+    """A short plot tag and what it stands for, for the figure key.
+
+    ``#4`` for the limit numbered 4 in the report's limit table (its mask band and its
+    worst point; ``number`` is then 4), ``var 1``… for the variants of a family overlay.
+    No tag reads as a netlist part name (a letter and digits).
+    """
 
     tag: str
     name: str
     text: str
     status: Status
+    number: int | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -195,6 +201,19 @@ def mark_zoom(ax: Any, zoom: tuple[float, float]) -> None:
 
 
 def figure_keys(drawn: list[Tag]) -> tuple[Tag, ...]:
-    """Drawn tags, each once, masks before failures, in tag order."""
-    unique = {t.tag: t for t in drawn}
-    return tuple(sorted(unique.values(), key=lambda t: (t.tag[0] != "M", int(t.tag[1:]))))
+    """Drawn tags, each once, in limit-number order (bands without a limit last).
+
+    A limit's band and its worst point share a tag: the key gives them one row, the
+    band's text and then the worst value's, with the worse of the two statuses.
+    """
+    merged: dict[str, Tag] = {}
+    for t in drawn:
+        seen = merged.get(t.tag)
+        if seen is None:
+            merged[t.tag] = t
+        elif t.text not in seen.text.split("; "):
+            status = max(seen.status, t.status, key=lambda s: s.rank)
+            merged[t.tag] = Tag(seen.tag, seen.name, f"{seen.text}; {t.text}", status,
+                                seen.number)
+    return tuple(sorted(merged.values(), key=lambda t: (t.number is None, t.number or 0,
+                                                        t.tag)))

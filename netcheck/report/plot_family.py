@@ -13,7 +13,7 @@ from .plot_base import (FONT_PT, PALETTE, Plot, Tag, figure_keys, frequency_axis
 from .plot_gain import (GAIN_QUANTITIES, draw_mask, drawn_gain, gain_label, gain_limits,
                         tags_for, zoom_window)
 
-__all__ = ["VARIANT_STYLES", "variant_style", "family_plots"]
+__all__ = ["VARIANT_STYLES", "variant_style", "variant_tag", "family_plots"]
 
 
 #: line styles of a family overlay: (dash pattern, marker, colour key, words)
@@ -38,6 +38,18 @@ def variant_style(k: int) -> tuple[Any, str, str, str]:
     if k >= len(VARIANT_STYLES):
         words += ", thin"
     return dash, marker, PALETTE[colour], words
+
+
+def variant_tag(k: int) -> str:
+    """Plot tag of the ``k``-th variant (0-based): ``var 1``, ``var 2``… (never a letter
+    and digits alone, which would read as a netlist part name).
+
+    Examples
+    --------
+    >>> variant_tag(0)
+    'var 1'
+    """
+    return f"var {k + 1}"
 
 
 def _family_window(members: list[SpecResult]) -> tuple[float, float] | None:
@@ -80,12 +92,12 @@ def _family_axes(ax: Any, members: list[SpecResult], ref: SpecResult, masks: dic
         ax.plot(f, g, color=colour, linestyle=dash, linewidth=0.9 if thin else 1.25,
                 marker=marker or None, markersize=3.6, markerfacecolor="white",
                 markeredgewidth=0.8, markevery=(0.1 * (k % 3) / 3.0, 0.1) if marker else None,
-                zorder=5 + 0.01 * k, label=f"V{k + 1}")
+                zorder=5 + 0.01 * k, label=variant_tag(k))
     box = {"boxstyle": "round,pad=0.15", "facecolor": "white", "edgecolor": "none", "alpha": 0.85}
     for group in peaks.values():
         fp = group[0][1]
         gp = max(g for _, _, g in group)
-        ax.annotate(" ".join(f"V{k + 1}" for k, _, _ in group), (fp, gp), xytext=(0, 4),
+        ax.annotate(", ".join(variant_tag(k) for k, _, _ in group), (fp, gp), xytext=(0, 4),
                     textcoords="offset points", ha="center", va="bottom",
                     fontsize=FONT_PT - 0.5, color=PALETTE["ink"], fontweight="bold",
                     zorder=9, bbox=box)
@@ -94,7 +106,7 @@ def _family_axes(ax: Any, members: list[SpecResult], ref: SpecResult, masks: dic
 def family_plots(members: list[SpecResult]) -> tuple[Plot, ...]:
     """Overlay of every variant's gain against the spec mask (whole sweep, then zoom).
 
-    Variants are tagged ``V1``… in the plot (no text from input files is drawn); the
+    Variants are tagged ``var 1``… in the plot (no text from input files is drawn); the
     figure key names them, with each line style in words and the variant's verdict.
     Members without curves (not checked) are left out. The mask is the first plotted
     member's; bands relative to the peak are placed on that member's peak.
@@ -104,7 +116,7 @@ def family_plots(members: list[SpecResult]) -> tuple[Plot, ...]:
         return ()
     ref = drawn_members[0]
     masks = _family_mask_tags(drawn_members, ref)
-    variant_keys = tuple(Tag(f"V{k + 1}", m.variant or m.label, variant_style(k)[3], m.status)
+    variant_keys = tuple(Tag(variant_tag(k), m.variant or m.label, variant_style(k)[3], m.status)
                          for k, m in enumerate(drawn_members))
     full = (min(float(m.curves.frequency_hz[0]) for m in drawn_members),
             max(float(m.curves.frequency_hz[-1]) for m in drawn_members))
@@ -136,10 +148,10 @@ def family_plots(members: list[SpecResult]) -> tuple[Plot, ...]:
             title = "Gain of every variant over the whole sweep"
             caption = (f"Nominal gain of the {len(drawn_members)} variants against the spec "
                        f"mask, {format_si(full[0], 'Hz')} to {format_si(full[1], 'Hz')}. "
-                       "Each variant has its own line style (V1, V2… in the legend and the key "
-                       "below), so the curves can be told apart in greyscale. Allowed regions "
-                       "are tinted, forbidden regions hatched (cross-hatched where the limit "
-                       "failed for any variant)."
+                       "Each variant has its own line style (var 1, var 2… in the legend and "
+                       "the key below), so the curves can be told apart in greyscale. Allowed "
+                       "regions are tinted, forbidden regions hatched (cross-hatched where the "
+                       "limit failed for any variant)."
                        + (" The dashed box marks the zoom below." if zoom else ""))
         else:
             title = "Pass-bands and resonances of every variant in detail"
@@ -149,7 +161,7 @@ def family_plots(members: list[SpecResult]) -> tuple[Plot, ...]:
                        "its result carries off the grid and its own refined peak and edges; "
                        "each peak is tagged with its variant.")
         if any(b.quantity == "gain_re_peak_db" for b in ref.mask):
-            caption += (" Bounds relative to the peak are drawn on the peak of V1; each "
+            caption += (" Bounds relative to the peak are drawn on the peak of var 1; each "
                         "variant is judged against its own peak.")
         plots.append(Plot(title, caption, to_svg(fig), figure_keys(drawn) + variant_keys))
     return tuple(plots)

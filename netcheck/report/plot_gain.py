@@ -1,9 +1,11 @@
 """Gain-axis pieces shared by the spec and family figures: tags, zoom, mask regions, failures.
 
 The plots hold no text taken from input files: mask bands and failure points carry
-short tags (``M1``, ``F1``) that the report explains in an escaped HTML key below each
-figure. Allowed regions are a pale tint without hatching, forbidden regions a sand tint
-with diagonal hatching (cross-hatched and darker where the limit failed), and every
+the number of their limit (``#4``, its row number in the report's limit table, see
+:func:`limit_number`) that the report explains in an escaped HTML key below each figure.
+A tag never reads as a netlist part name (a letter and digits, such as ``M1`` or ``F3``).
+Allowed regions are a pale tint without hatching, forbidden regions a sand tint with
+diagonal hatching (cross-hatched and darker where the limit failed), and every
 failure is also spelled out in words (``FAIL``) next to its marker.
 """
 
@@ -19,7 +21,8 @@ from ..netlist.units import format_eng, format_si
 from .plot_base import FONT_PT, PALETTE, Tag
 from ..measure.detail import curve_points
 
-__all__ = ["GAIN_QUANTITIES", "HALF_POWER_DB", "tags_for", "zoom_window", "zoom_is_resonance",
+__all__ = ["GAIN_QUANTITIES", "HALF_POWER_DB", "limit_number", "limit_tag", "tags_for",
+           "zoom_window", "zoom_is_resonance",
            "gain_limits", "draw_mask", "fail_points", "with_exact_points", "drawn_gain",
            "gain_label"]
 
@@ -55,37 +58,65 @@ def _band_text(band: MaskBand, unit: str) -> str:
     return f"{span}, {allowed}"
 
 
-def _limit_for(band: MaskBand, spec: SpecResult) -> LimitResult | None:
-    for lim in spec.limits:
+def limit_number(position: int) -> int:
+    """The number of the limit at ``position`` (0-based) in ``SpecResult.limits``: the
+    report's limit table shows it as ``#n`` beside the limit's name, and the plots tag the
+    limit's mask band and worst point with the same ``#n``."""
+    return position + 1
+
+
+def limit_tag(position: int) -> str:
+    """The plot tag of the limit at ``position`` in ``SpecResult.limits``: ``#1``, ``#2``…
+
+    Examples
+    --------
+    >>> limit_tag(2)
+    '#3'
+    """
+    return f"#{limit_number(position)}"
+
+
+def _limit_for(band: MaskBand, spec: SpecResult) -> tuple[int, LimitResult] | None:
+    for i, lim in enumerate(spec.limits):
         if lim.name == band.label:
-            return lim
+            return i, lim
     return None
 
 
 def tags_for(spec: SpecResult) -> tuple[dict[int, Tag], dict[int, Tag]]:
-    """Tags of the mask bands (``M1``…) and of the failed limits' worst points (``F1``…).
+    """Tags of the mask bands and of the failed limits' worst points.
 
-    Returns two dicts keyed by position in ``spec.mask`` and ``spec.limits``.
+    Both carry their limit's number (:func:`limit_tag`), so that a band and the worst
+    point of the same limit share a tag; a band without a limit of its name is tagged
+    ``band 1``, ``band 2``… Returns two dicts keyed by position in ``spec.mask`` and
+    ``spec.limits``.
     """
     units = {"gain_db": "dB", "gain_re_peak_db": "dB", "phase_deg": "deg",
              "group_delay_s": "s"}
     masks: dict[int, Tag] = {}
+    loose = 0
     for i, band in enumerate(spec.mask):
         if band.quantity not in units:
             continue
-        lim = _limit_for(band, spec)
-        status = lim.status if lim is not None else (Status.FAIL if band.failed else Status.PASS)
-        masks[i] = Tag(f"M{len(masks) + 1}", band.label, _band_text(band, units[band.quantity]),
-                       status)
+        found = _limit_for(band, spec)
+        text = _band_text(band, units[band.quantity])
+        if found is None:
+            loose += 1
+            masks[i] = Tag(f"band {loose}", band.label, text,
+                           Status.FAIL if band.failed else Status.PASS)
+        else:
+            k, lim = found
+            masks[i] = Tag(limit_tag(k), band.label, text, lim.status, limit_number(k))
     re_peak = {b.label for b in spec.mask if b.quantity == "gain_re_peak_db"}
     fails: dict[int, Tag] = {}
     for i, lim in enumerate(spec.limits):
         if lim.status is not Status.FAIL or lim.at_hz is None or lim.measured is None:
             continue
         ref = " (re peak)" if lim.name in re_peak else ""
-        fails[i] = Tag(f"F{len(fails) + 1}", lim.name,
+        fails[i] = Tag(limit_tag(i), lim.name,
                        f"worst value {lim.figures.measured}{ref} at "
-                       f"{format_si(lim.at_hz, 'Hz', 5)}, limit {lim.bound_text}", lim.status)
+                       f"{format_si(lim.at_hz, 'Hz', 5)}, limit {lim.bound_text}", lim.status,
+                       limit_number(i))
     return masks, fails
 
 
@@ -208,7 +239,8 @@ def gain_limits(spec: SpecResult, lo_hz: float, hi_hz: float, zoom: bool) -> tup
 def draw_mask(ax: Any, spec: SpecResult, masks: dict[int, Tag], quantity: tuple[str, ...],
               scale: float, ylim: tuple[float, float], x_span: tuple[float, float],
               drawn: list[Tag], skip: tuple[float, float] | None = None) -> None:
-    """Allowed (tint) and forbidden (hatched) regions of each band, tagged M1, M2…
+    """Allowed (tint) and forbidden (hatched) regions of each band, tagged with its limit's
+    number (``#1 FAIL`` where the limit failed).
 
     Bands lying inside ``skip`` (the zoom, on the overview) are drawn but not tagged:
     the zoom figure tags them where there is room.

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from typing import Any
 
 from ..result import SpecResult, Status
@@ -9,7 +10,7 @@ from ..netlist.units import digits_at, format_eng, format_si, tell_apart
 from .formatting import caution_view, display_path, signed, status_view
 from .lookup import analysis_block
 
-__all__ = ["stress_view"]
+__all__ = ["stress_view", "headroom_text"]
 
 _STRESS_UNITS = {"voltage": "V", "current": "A", "power": "W"}
 _STRESS_QUANTITY = {"voltage": "voltage (peak)", "current": "current (peak)",
@@ -18,6 +19,35 @@ _STRESS_QUANTITY = {"voltage": "voltage (peak)", "current": "current (peak)",
 
 def _stress_unit(e: dict[str, Any]) -> str:
     return _STRESS_UNITS.get(str(e.get("quantity", "")), "")
+
+
+def _two_figures(x: float) -> str:
+    """``x`` (≥ 1) to two significant figures without an exponent: 2.1, 10, 120."""
+    r = float(f"{x:.2g}")
+    decimals = max(0, 1 - math.floor(math.log10(r)))
+    return f"{r:.{decimals}f}"
+
+
+def headroom_text(peak: float | None, rating: float | None) -> str:
+    """How far a part's stress lies under (or over) its rating, as a ratio in words.
+
+    rating / peak for a part within its rating (``2.1× under rating``), peak / rating for
+    one over it (``1.3× over rating``), to two significant figures; ``—`` without both.
+
+    Examples
+    --------
+    >>> headroom_text(23.8, 50.0), headroom_text(65.0, 50.0), headroom_text(0.0, 50.0)
+    ('2.1× under rating', '1.3× over rating', 'no stress')
+    """
+    if peak is None or rating is None or not rating > 0 or not math.isfinite(peak):
+        return "—"
+    if peak <= 0:
+        return "no stress"
+    if peak == rating:
+        return "at rating"
+    if peak > rating:
+        return f"{_two_figures(peak / rating)}× over rating"
+    return f"{_two_figures(rating / peak)}× under rating"
 
 
 def _stress_cells(e: dict[str, Any]) -> dict[str, Any]:
@@ -32,7 +62,7 @@ def _stress_cells(e: dict[str, Any]) -> dict[str, Any]:
         "rating": "—" if rating is None else format_eng(rating, unit,
                                                         digits_at(rating, unit, place)),
         "margin": signed(e.get("margin"), unit),
-        "used": f"{100.0 * peak / rating:.0f} %" if peak is not None and rating else "—",
+        "headroom": headroom_text(peak, rating),
         "at": "—" if e.get("at_hz") is None else format_si(e["at_hz"], "Hz", 5),
         **status_view(Status(e.get("status", "error")))}
 

@@ -201,7 +201,15 @@ class TestVerdicts:
             assert signed(lim.margin, lim.unit) in first
 
     def test_failure_tags_on_the_plots(self, failing):
-        assert "F1" in failing.text and "worst value" in failing.text
+        assert "worst value" in failing.text
+        spec = failing.result.specs[0]
+        for k, lim in enumerate(spec.limits):
+            # the limit table shows the limit's position in the spec, from 1, before its
+            # name; the figure key (and the plot tag) uses the same number
+            row = f"{lim.status.word} #{k + 1} {lim.name} {lim.figures.measured}"
+            assert row in failing.first, row
+            if lim.status is Status.FAIL and lim.at_hz is not None:
+                assert f"#{k + 1} {lim.name} " in failing.text.split(row, 1)[1]
 
     def test_spec_that_could_not_be_checked(self, tmp_path):
         bad = tmp_path / "broken.toml"

@@ -231,7 +231,30 @@ class TestTolerance:
         assert 6 <= len(tolerance.pages) <= 12
 
 
+def headroom(peak: float, rating: float) -> str:
+    """Headroom in words, computed here: rating/peak under the rating, peak/rating over
+    it, two significant figures ('#' keeps a trailing zero: 2.0)."""
+    over = peak > rating
+    ratio = peak / rating if over else rating / peak
+    return f"{ratio:#.2g}".rstrip(".") + ("× over rating" if over else "× under rating")
+
+
 class TestStress:
+    def test_headroom_in_words_by_hand(self):
+        from netcheck.report.view_stress import headroom_text
+        # 50 V rating, 23.8 V peak: 50 / 23.8 = 2.1008… → two significant figures 2.1, under
+        assert headroom_text(23.8, 50.0) == "2.1× under rating"
+        # 50 V rating, 65 V peak: 65 / 50 = 1.3 exactly, over
+        assert headroom_text(65.0, 50.0) == "1.3× over rating"
+        # 250 V rating, 125 V peak: 250 / 125 = 2 → 2.0 (the second figure kept)
+        assert headroom_text(125.0, 250.0) == "2.0× under rating"
+        # 1 W rating, 0.0096 W: 1 / 0.0096 = 104.17 → 100 (two figures, no exponent)
+        assert headroom_text(0.0096, 1.0) == "100× under rating"
+        # 10 A rating, 10.04 A: 10.04 / 10 = 1.004 → 1.0, still over
+        assert headroom_text(10.04, 10.0) == "1.0× over rating"
+        assert headroom_text(50.0, 50.0) == "at rating"
+        assert headroom_text(None, 50.0) == headroom_text(1.0, None) == "—"
+
     def test_rows_as_in_the_json(self, tolerance):
         doc = to_dict(tolerance.result)["specs"][0]["stress"]
         section = next(p for p in tolerance.pages if "IN WORDS" in p)  # the table header
@@ -242,7 +265,7 @@ class TestStress:
             row = (f"{e['status'].upper()} {e['part']} {e['quantity']} "
                    f"({'average' if e['quantity'] == 'power' else 'peak'}) "
                    f"{format_eng(e['peak'], unit)} {format_eng(e['rating'], unit)} "
-                   f"{signed(e['margin'], unit)} {100 * e['peak'] / e['rating']:.0f} % "
+                   f"{signed(e['margin'], unit)} {headroom(e['peak'], e['rating'])} "
                    f"{format_si(e['at_hz'], 'Hz', 5)} {words_}")
             assert row in section, row
         worst = to_dict(tolerance.result)["specs"][0]["tolerance"]["monte_carlo"]["stress"]
@@ -291,11 +314,12 @@ class TestFamily:
         assert [p.title for p in figs] == ["Gain of every variant over the whole sweep",
                                            "Pass-bands and resonances of every variant in detail"]
         for fig in figs:
-            keys = {k.tag: k for k in fig.keys if k.tag.startswith("V")}
-            assert [keys[f"V{i + 1}"].name for i in range(len(specs))] == [s.variant for s in specs]
+            keys = {k.tag: k for k in fig.keys if k.tag.startswith("var ")}
+            assert ([keys[f"var {i + 1}"].name for i in range(len(specs))]
+                    == [s.variant for s in specs])
             assert len({k.text for k in keys.values()}) == len(specs)  # styles differ in words
             for i in range(len(specs)):
-                assert f">V{i + 1}<" in fig.svg or f"V{i + 1}" in fig.svg  # legend entries
+                assert f"var {i + 1}" in fig.svg  # legend entries
             for s in specs:
                 assert s.variant not in fig.svg  # names only in the escaped HTML key
         styles = {plots.variant_style(k)[:2] for k in range(len(plots.VARIANT_STYLES))}
@@ -303,7 +327,7 @@ class TestFamily:
         text = family.text
         assert "Figure F1.1" in text and "Figure F1.2" in text
         for k, s in enumerate(specs):
-            assert f"V{k + 1} {s.variant} {plots.variant_style(k)[3]}" in text
+            assert f"var {k + 1} {s.variant} {plots.variant_style(k)[3]}" in text
 
     def test_family_in_the_combined_report_only(self, family):
         assert "Families of variants" in family.pages[0]

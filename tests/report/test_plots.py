@@ -66,10 +66,52 @@ class TestTags:
                        limits=[limit("pass"), limit("Q", Status.FAIL, 0.4, 1e3, ""),
                                limit("no where", Status.FAIL, at_hz=None)])
         masks, fails = plots.tags_for(spec)
-        assert [t.tag for t in masks.values()] == ["M1"]
+        # tagged by position in the spec's limits, counted from 1: "pass" is limit 1, "Q" 2
+        assert [(t.tag, t.number) for t in masks.values()] == [("#1", 1)]
         assert masks[0].name == "pass" and masks[0].status is Status.PASS
-        assert [(i, t.tag, t.name) for i, t in fails.items()] == [(1, "F1", "Q")]
+        assert [(i, t.tag, t.name) for i, t in fails.items()] == [(1, "#2", "Q")]
         assert "worst value 0.4000 at 1.0000 kHz" in fails[1].text
+
+
+#: a netlist part name: element letter and digits (the first letter of a SPICE-style
+#: element line names its kind: R resistor, M MOSFET, F current-controlled source, …)
+PART_NAME = re.compile(r"^[RLCVIEFGHKMQDJXBSTW]\d+\b")
+
+
+def svg_texts(svg: str) -> list[str]:
+    """The text elements of an SVG figure (text is kept as text: svg.fonttype none)."""
+    return re.findall(r"<text[^>]*>([^<]*)</text>", svg)
+
+
+class TestTagsAreNotPartNames:
+    def test_no_tag_or_plot_word_reads_as_a_part_name(self, rx40k):
+        failing = check_spec(str(ROOT / "specs" / "failing" / "rx40k_revA.toml"))
+        loose = lowpass(mask=[MaskBand("phase", 100.0, 2e3, -80.0, 0.0, "phase_deg")],
+                        limits=[limit("delay", Status.FAIL, 1.5e-4, 30.0, "s", "group_delay")])
+        figs = [p for s in (rx40k, failing, loose) for p in plots.spec_plots(s)]
+        figs += plots.family_plots([rx40k, failing])
+        tags = [k.tag for p in figs for k in p.keys]
+        assert "#4" in tags and "var 2" in tags and "band 1" in tags  # every kind checked
+        for tag in tags:
+            assert not PART_NAME.search(tag), tag
+        for p in figs:
+            for text in svg_texts(p.svg):
+                for word in text.split():
+                    assert not PART_NAME.search(word), (p.title, text)
+
+    def test_failing_limit_carries_its_number(self):
+        spec = check_spec(str(ROOT / "specs" / "failing" / "rx40k_revA.toml"))
+        labels = [t for p in plots.spec_plots(spec) for t in svg_texts(p.svg) if "FAIL" in t]
+        failed = [(k, lim) for k, lim in enumerate(spec.limits) if lim.status is Status.FAIL]
+        assert failed
+        for k, lim in failed:
+            # the k-th limit (0-based) of the spec is row #k+1 of the report's limit table
+            assert plots.limit_tag(k) == f"#{k + 1}"
+            assert any(f"#{k + 1}" in label.split() for label in labels), (lim.name, labels)
+        # a band and the worst point of one limit share a tag, and one row of the key
+        overview = plots.spec_plots(spec)[0]
+        stop = [key for key in overview.keys if key.name == "low stop-band"]
+        assert len(stop) == 1 and "allowed" in stop[0].text and "worst value" in stop[0].text
 
 
 class TestFigures:
@@ -93,7 +135,7 @@ class TestFigures:
         for p in figs:
             assert "passwd" not in p.svg and "&lt;img" not in p.svg
         keys = {k.tag: k for p in figs for k in p.keys}
-        assert keys["M1"].name == name and keys["F1"].status is Status.FAIL
+        assert keys["#1"].name == name and keys["#1"].status is Status.FAIL
 
     def test_phase_and_delay_panels_follow_the_limits(self):
         assert len(plots.spec_plots(lowpass())) == 1
@@ -101,15 +143,16 @@ class TestFigures:
                                limit("delay", Status.FAIL, 1.5e-4, 30.0, "s", "group_delay")])
         figs = plots.spec_plots(spec)
         assert figs[-1].title == "Phase and group delay"
-        assert [k.tag for k in figs[-1].keys] == ["F1"]  # the delay failure, on its panel
-        assert all("F1" not in [k.tag for k in p.keys] for p in figs[:-1])
+        assert [k.tag for k in figs[-1].keys] == ["#2"]  # the delay failure, on its panel
+        assert all("#2" not in [k.tag for k in p.keys] for p in figs[:-1])
 
     def test_masks_on_delay_and_phase_are_drawn(self):
         spec = lowpass(mask=[MaskBand("delay", 100.0, 2e3, None, 1e-4, "group_delay_s"),
                              MaskBand("phase", 100.0, 2e3, -80.0, 0.0, "phase_deg")],
                        limits=[limit("delay", unit="s", kind="group_delay")])
         last = plots.spec_plots(spec)[-1]
-        assert [k.tag for k in last.keys] == ["M1", "M2"]
+        # "delay" is limit 1; the phase band has no limit of its name
+        assert [k.tag for k in last.keys] == ["#1", "band 1"]
 
     def test_frequency_limits_are_marked_where_found(self, rx40k):
         lim = next(x for x in rx40k.limits if x.unit == "Hz")
@@ -120,5 +163,5 @@ class TestFigures:
                                "status": Status.FAIL})
         figs = plots.spec_plots(failed)
         overview, zoom = figs[0], figs[1]
-        assert "F1" not in [k.tag for k in overview.keys]  # inside the zoom: tagged there
-        assert "F1" in [k.tag for k in zoom.keys]
+        assert "#1" not in [k.tag for k in overview.keys]  # inside the zoom: tagged there
+        assert "#1" in [k.tag for k in zoom.keys]
