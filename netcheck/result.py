@@ -13,7 +13,8 @@ if TYPE_CHECKING:  # pragma: no cover
     from .netlist.units import RowText
 
 __all__ = ["Status", "LimitResult", "Caution", "Curves", "MaskBand", "SpecResult",
-           "CheckResult", "worst_status", "SAFETY_CAUTION"]
+           "CheckResult", "worst_status", "MODEL_STATEMENT", "HAZARD_CAUTION",
+           "HAZARD_SEVERITY", "hazard_warranted"]
 
 
 class Status(str, enum.Enum):
@@ -96,7 +97,7 @@ class LimitResult:
 
 @dataclass(frozen=True, slots=True)
 class Caution:
-    """A finding shown with the result: a safety caution, a warning or a note."""
+    """A finding shown with the result: a hazard caution, a warning or a note."""
 
     code: str
     message: str
@@ -106,14 +107,27 @@ class Caution:
     column: int | None = None
 
 
-#: Shown with every report: the result is an analysis of a model.
-SAFETY_CAUTION = (
+#: The general statement, once in the PDF's front matter: the result is an analysis of a model.
+MODEL_STATEMENT = (
     "This is an analysis of a circuit model, not a measurement. Parasitics that are not "
-    "in the netlist, non-linearity, temperature and ageing are not included. Resonant "
-    "circuits can develop voltages across their parts far above the input (about Q times "
-    "the input across the reactances of a series section): verify prototypes by "
-    "measurement, and follow local codes and licensed practice for anything at hazardous "
-    "voltage.")
+    "in the netlist, non-linearity, temperature and ageing are not included: verify "
+    "prototypes by measurement.")
+
+#: Severity of a caution that calls out a hazardous or magnified voltage (the stress
+#: analysis's cautions and the resonance magnification caution).
+HAZARD_SEVERITY = "caution"
+
+#: Printed once per output, and only when some result warrants it (:func:`hazard_warranted`).
+HAZARD_CAUTION = (
+    "analysis of a model, not a measurement; resonant parts can see far more than the "
+    "input voltage. Verify by measurement and follow local codes and licensed practice at "
+    "hazardous voltages.")
+
+
+def hazard_warranted(specs: Any) -> bool:
+    """Whether any of ``specs`` (SpecResults) carries a hazard caution
+    (severity :data:`HAZARD_SEVERITY`), so :data:`HAZARD_CAUTION` is to be shown."""
+    return any(c.severity == HAZARD_SEVERITY for s in specs for c in s.cautions)
 
 
 @dataclass(frozen=True, slots=True)

@@ -17,10 +17,11 @@ from ..netlist.parse import Netlist, load_netlist
 from ..exceptions import ElaborationError, NetcheckError, NetcheckWarning, SpecError
 from ..measure.measurements import (Extremum, MeasurementFailure, Resonance, band_extremes, corner, peak,
                       resonance, root_seeds)
-from ..result import SAFETY_CAUTION, Caution, Curves, SpecResult, Status, worst_status
+from ..result import Caution, Curves, SpecResult, Status, worst_status
 from ..mna.solve import Response, solve
 from ..spec.load import Spec, load_spec, locate
 from ..netlist.units import format_eng, format_si
+from .hazard import magnification_caution
 from .registry import Nominal, diag_caution, run_analyses
 
 __all__ = ["ResponseCurve", "SpecProbe", "evaluate", "check_spec", "seeds_from_roots",
@@ -235,8 +236,7 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
     """
     system = _assemble_for(spec, circuit)
     grid = spec.sweep.grid()
-    cautions = [Caution("safety", SAFETY_CAUTION, "caution")]
-    cautions += [diag_caution(d) for d in circuit.diagnostics]
+    cautions = [diag_caution(d) for d in circuit.diagnostics]
     src = circuit.element(system.source)
     if not getattr(src, "has_ac", True):
         cautions.append(Caution("NC153", f"stimulus {src.name} has no AC value; results are "
@@ -264,6 +264,9 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         extra.append((name, outcome.block))
         if outcome.envelope is not None:
             envelope = outcome.envelope
+    magnified = magnification_caution(response, limits, curve.seeds_hz)
+    if magnified is not None:  # the hazard caution only where a result warrants it
+        cautions.append(magnified)
     mask = tuple(m for lim in spec.limits for m in lim.mask())
     failed_names = {r.name for r in limits if r.status is not Status.PASS}
     mask = tuple(type(m)(m.label, m.f_lo_hz, m.f_hi_hz, m.lo, m.hi, m.quantity,

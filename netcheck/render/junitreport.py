@@ -20,7 +20,9 @@ Mapping
   ``<system-out>``.
 * ``SpecResult.error`` (the spec could not be checked) → an extra testcase named
   ``spec`` (classname ``<spec path>.spec``) holding an ``<error>``.
-* Cautions (the spec's, then the run's) → the suite's ``<system-out>``, one a line.
+* Cautions (the spec's, then the run's) → the suite's ``<system-out>``, one a line; the
+  hazardous-voltage caution once per document, after those of the first spec that
+  warrants it (:func:`netcheck.result.hazard_warranted`).
 * Suite properties: ``spec``, ``netlist`` (left out when the spec could not be loaded,
   so no netlist is known), ``title``, ``variant`` (for a variant), ``netcheck.version``.
 
@@ -36,7 +38,8 @@ import re
 import xml.etree.ElementTree as ET
 from typing import IO
 
-from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
+from ..result import (HAZARD_CAUTION, Caution, CheckResult, LimitResult, SpecResult, Status,
+                      hazard_warranted)
 from ..netlist.units import signed_eng
 from . import RenderOptions
 
@@ -137,7 +140,8 @@ def _testcase(suite: ET.Element, classname: str, lim: LimitResult) -> None:
         outcome.text = xml_text(_body(lim, message))
 
 
-def _suite(root: ET.Element, spec: SpecResult, result: CheckResult) -> dict[str, int]:
+def _suite(root: ET.Element, spec: SpecResult, result: CheckResult,
+           hazard_first: bool = False) -> dict[str, int]:
     counts = spec.counts
     tally = {"tests": len(spec.limits), "failures": counts[Status.FAIL.value],
              "errors": counts[Status.ERROR.value], "skipped": counts[Status.SKIPPED.value]}
@@ -167,10 +171,12 @@ def _suite(root: ET.Element, spec: SpecResult, result: CheckResult) -> dict[str,
     for lim in spec.limits:
         _testcase(suite, f"{spec.spec}.{lim.kind}", lim)
 
-    cautions = spec.cautions + result.cautions
-    if cautions:
+    lines = [caution_line(c) for c in spec.cautions + result.cautions]
+    if hazard_first:  # once per document: in the first suite whose spec warrants it
+        lines.append(f"Caution: {HAZARD_CAUTION}")
+    if lines:
         out = _sub(suite, "system-out")
-        out.text = xml_text("\n".join(caution_line(c) for c in cautions) + "\n")
+        out.text = xml_text("\n".join(lines) + "\n")
     return tally
 
 
@@ -188,8 +194,10 @@ def render(result: CheckResult, stream: IO[str], options: RenderOptions) -> None
     """
     root = ET.Element("testsuites", {"name": "netcheck"})
     totals = {"tests": 0, "failures": 0, "errors": 0, "skipped": 0}
+    # the hazardous-voltage caution once per document, with the first spec that warrants it
+    first = next((s for s in result.specs if hazard_warranted((s,))), None)
     for spec in result.specs:
-        for key, value in _suite(root, spec, result).items():
+        for key, value in _suite(root, spec, result, spec is first).items():
             totals[key] += value
     for key, value in totals.items():
         root.set(key, str(value))

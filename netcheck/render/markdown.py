@@ -10,7 +10,8 @@ Layout (GitHub-flavoured Markdown tables; every status is a word, never a colour
    failures, skipped, passed; spec order within each), then notes for limits that carry
    a message;
 4. the cautions, each written once, naming the specs they came from unless every spec
-   has it; the safety caution (code ``safety``) closes the summary as a quoted paragraph.
+   has it; when some spec carries a hazard caution (:func:`netcheck.result.hazard_warranted`),
+   the hazardous-voltage caution closes the summary, once, as a quoted paragraph.
 
 Text that comes from the user's files (titles, names, paths, messages) goes through
 :func:`md_text`, which backslash-escapes Markdown punctuation (``|`` included, so
@@ -25,7 +26,8 @@ from __future__ import annotations
 
 from typing import IO
 
-from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
+from ..result import (HAZARD_CAUTION, Caution, CheckResult, LimitResult, SpecResult, Status,
+                      hazard_warranted)
 from ..netlist.source import clip
 from . import NAME_SHOWN_MAX, TEXT_SHOWN_MAX, RenderOptions
 
@@ -197,20 +199,16 @@ def _cautions(result: CheckResult) -> list[str]:
             if spec.label not in labels:
                 labels.append(spec.label)
     everyone = {spec.label for spec in result.specs}
-    items, safety = [], []
+    items = []
     for caution, labels in found.items():
-        if caution.code == "safety":
-            if caution.message not in safety:
-                safety.append(caution.message)
-            continue
         text = (f"- {md_text(caution.severity.upper())} {md_text(caution.code)}"
                 f"{_where(caution)}: {md_text(caution.message)}")
         if labels and set(labels) != everyone:
             text += " (" + "; ".join(md_name(label) for label in labels) + ")"
         items.append(text)
     lines = ["## Cautions", ""] + items + [""] if items else []
-    for message in safety:
-        lines += [f"> Caution: {md_text(message)}", ""]
+    if hazard_warranted(result.specs):  # once per document, only when a result warrants it
+        lines += [f"> Caution: {md_text(HAZARD_CAUTION)}", ""]
     return lines
 
 

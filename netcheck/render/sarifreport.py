@@ -14,10 +14,12 @@ One run, tool ``netcheck``. Results, in the order of the CheckResult:
 * a spec's caution without a position and of severity ``error`` or ``warning`` (such as
   numerical trouble) → the same, located at the spec file.
 
-Other cautions without a position (the safety caution, notes, run-wide remarks) are
+Other cautions without a position (hazard cautions, notes, run-wide remarks) are
 not findings about a place: they go once each, in order, into the run's property bag
 as ``properties.cautions``, so code-scanning views are not flooded with them. Identical
 caution results (the same netlist warning seen by several variants) are written once.
+When some spec carries a hazard caution (:func:`netcheck.result.hazard_warranted`), the
+hazardous-voltage caution closes ``properties.cautions``, once (code ``safety``).
 
 Passing and skipped limits produce no result. ``tool.driver.rules`` lists exactly the
 rule ids used, sorted, and each result refers to its rule by ``ruleIndex``. Relative
@@ -37,7 +39,8 @@ from typing import IO, Any
 from urllib.parse import quote
 
 from ..exceptions import CODES
-from ..result import Caution, CheckResult, LimitResult, SpecResult, Status, finite_or_none
+from ..result import (HAZARD_CAUTION, HAZARD_SEVERITY, Caution, CheckResult, LimitResult,
+                      SpecResult, Status, finite_or_none, hazard_warranted)
 from . import RenderOptions
 from .junitreport import limit_summary, xml_text
 
@@ -172,6 +175,8 @@ def build_log(result: CheckResult) -> dict[str, Any]:
             add_caution(caution, spec.spec)
     for caution in result.cautions:
         add_caution(caution, None)
+    if hazard_warranted(result.specs):
+        add_caution(Caution("safety", HAZARD_CAUTION, HAZARD_SEVERITY), None)
 
     levels: dict[str, str] = {}
     for entry in results:

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 from typing import IO, Any
 
-from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
+from ..result import (HAZARD_CAUTION, MODEL_STATEMENT, Caution, CheckResult, LimitResult,
+                      SpecResult, Status, hazard_warranted)
 from ..netlist.source import MESSAGE_MAX, printable
 
 __all__ = ["render", "LINE_MAX", "ERROR_LINES_MAX"]
@@ -57,7 +58,7 @@ def _order(limits: tuple[LimitResult, ...]) -> list[LimitResult]:
     return sorted(limits, key=lambda r: (-r.status.rank, r.index))
 
 
-def _spec_block(s: SpecResult, color: bool, verbose: bool) -> list[str]:
+def _spec_block(s: SpecResult, color: bool) -> list[str]:
     head = f"{_paint(s.status.word, s.status, color)}  {_clean(s.label)}  ({_clean(s.spec)})"
     lines = [head]
     if s.error:
@@ -78,15 +79,13 @@ def _spec_block(s: SpecResult, color: bool, verbose: bool) -> list[str]:
             if _says_why(lim):
                 text += "".join("\n      " + ln for ln in _lines(lim.message))
         lines.append(text)
-    lines += _cautions(s.cautions, verbose)
+    lines += _cautions(s.cautions)
     return lines
 
 
-def _cautions(cautions: tuple[Caution, ...], verbose: bool) -> list[str]:
+def _cautions(cautions: tuple[Caution, ...]) -> list[str]:
     out = []
     for c in cautions:
-        if c.code == "safety" and not verbose:
-            continue
         where = f"{c.path}:{c.line}: " if c.path and c.line else ""
         out.append(_clean(f"  {c.severity}: {where}{c.message}", LINE_MAX))
     return out
@@ -133,11 +132,13 @@ def render(result: CheckResult, stream: IO[str], options: Any = None) -> None:
     quiet = bool(getattr(options, "quiet", False))  # only what did not pass, and the summary
     for s in result.specs:
         if not (quiet and s.status is Status.PASS):
-            stream.write("\n".join(_spec_block(s, color, verbose)) + "\n\n")
+            stream.write("\n".join(_spec_block(s, color)) + "\n\n")
     for path, members in _families(result).items():
         if not (quiet and all(m.status is Status.PASS for m in members)):
             stream.write("\n".join(_family_block(path, members)) + "\n\n")
-    run_wide = _cautions(result.cautions, verbose)
+    run_wide = _cautions(result.cautions)
+    if verbose:  # the general statement, once, only when asked for
+        run_wide.append(_clean(f"Note: {MODEL_STATEMENT}", LINE_MAX))
     if run_wide:
         stream.write("\n".join(run_wide) + "\n\n")
     n = result.counts
@@ -149,7 +150,5 @@ def render(result: CheckResult, stream: IO[str], options: Any = None) -> None:
                  + (f", {n['skipped']} not applicable" if n["skipped"] else "")
                  + (f", {errored_specs} spec{'s' if errored_specs != 1 else ''} not checked"
                     if errored_specs else "") + "\n")
-    if any(c.code == "safety" for s in result.specs for c in s.cautions):
-        stream.write("Caution: analysis of a model, not a measurement; resonant parts can see "
-                     "far more than the input voltage. Verify by measurement and follow local "
-                     "codes and licensed practice at hazardous voltages.\n")
+    if hazard_warranted(result.specs):  # once per run, only when a result warrants it
+        stream.write(f"Caution: {HAZARD_CAUTION}\n")

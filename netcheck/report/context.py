@@ -6,7 +6,8 @@ from pathlib import Path
 from typing import Any
 
 from ..runs.provenance import GitState, git_state
-from ..result import SAFETY_CAUTION, CheckResult, LimitResult, SpecResult, Status
+from ..result import (HAZARD_SEVERITY, MODEL_STATEMENT, CheckResult,
+                      LimitResult, SpecResult, Status, hazard_warranted)
 from ..netlist.units import format_eng, format_si
 from .formatting import (LISTING_ROWS_MAX, LISTING_TOTAL_MAX, MEASUREMENTS, caution_view,
                          cell_text, date_text, display_path, format_margin, format_measured,
@@ -142,7 +143,7 @@ def _spec_view(s: SpecResult, number: int, with_plots: bool = True) -> dict[str,
         rows_left -= len(shown["rows"])
         sources.append({"path": display_path(path), "sha256": hashes.get(path, ""),
                         "role": _role(s, k, path), **shown})
-    cautions = [caution_view(c) for c in s.cautions if c.code != "safety"]
+    cautions = [caution_view(c) for c in s.cautions]
     measurements = [{"label": MEASUREMENTS.get(k, (k, ""))[0], "value": format_eng(v, unit_of(k))}
                     for k, v in s.measurements]
     tolerance = tolerance_view(s, with_plots)
@@ -159,8 +160,10 @@ def _spec_view(s: SpecResult, number: int, with_plots: bool = True) -> dict[str,
         # "tag": the limit's number as the plots tag it (#1 is the first limit of the spec)
         "rows": [{**_limit_row(lim, s.spec), "tag": limit_tag(k)}
                  for k, lim in sorted(enumerate(s.limits), key=lambda p: _order_key(p[1]))],
-        "measurements": measurements, "cautions": cautions,
-        "hazards": [c for c in cautions if c["severity"] == "caution"],
+        "measurements": measurements,
+        # hazard cautions at the top of the spec's report; the others in its Cautions section
+        "cautions": [c for c in cautions if c["severity"] != HAZARD_SEVERITY],
+        "hazards": [c for c in cautions if c["severity"] == HAZARD_SEVERITY],
         "plots": spec_plots(s) if with_plots else (), "sources": sources, "extra": extra,
         "anchor": f"spec-{number}", "tolerance": tolerance, "stress": stress,
     }
@@ -202,6 +205,14 @@ def _extra_rows(value: Any, prefix: str = "", depth: int = 2,
     return rows
 
 
+#: the hazardous-voltage caution of the front matter, after the model statement (which
+#: already says to verify by measurement); the terminal and the other documents print
+#: :data:`netcheck.result.HAZARD_CAUTION`
+_HAZARD_PRACTICE = ("Resonant parts can see far more than the input voltage (the spec "
+                    "reports name the parts): follow local codes and licensed practice at "
+                    "hazardous voltages.")
+
+
 def build_context(result: CheckResult, with_plots: bool = True) -> dict[str, Any]:
     """Everything the templates show, formatted (pure apart from the git queries).
 
@@ -235,8 +246,12 @@ def build_context(result: CheckResult, with_plots: bool = True) -> dict[str, Any
         "combined": len(specs) != 1, "specs": specs, "families": families,
         **status_view(result.status), "sentence": sentence, "counts": n,
         "date": date_text(result.created_utc), "created_utc": result.created_utc,
-        "tool_version": result.tool_version, "safety": SAFETY_CAUTION,
-        "run_cautions": [caution_view(c) for c in result.cautions if c.code != "safety"],
+        "tool_version": result.tool_version,
+        # once per document, in its front matter: the model statement always, the
+        # hazardous-voltage caution when some spec warrants it
+        "model_statement": MODEL_STATEMENT,
+        "hazard": _HAZARD_PRACTICE if hazard_warranted(result.specs) else "",
+        "run_cautions": [caution_view(c) for c in result.cautions],
         "title": shown_name(specs[0]["label"]) if len(specs) == 1 else
         f"Compliance report: {len(specs)} specs",
     }

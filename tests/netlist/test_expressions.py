@@ -223,7 +223,9 @@ def _combine(children):
 
 def _apply(t):
     (ta, va), op, (tb, vb) = t
-    out = {"+": va + vb, "-": va - vb, "*": va * vb, "/": va / vb if vb else math.inf}[op]
+    # a division by zero anywhere makes the whole expression an error (NC101), even where
+    # IEEE arithmetic would carry on (1/(1/0) = 0): NaN marks it and propagates
+    out = {"+": va + vb, "-": va - vb, "*": va * vb, "/": va / vb if vb else math.nan}[op]
     return f"({ta}){op}({tb})", out
 
 

@@ -147,7 +147,7 @@ class TestNumbers:
 
 def test_cautions_of_the_spec_and_of_the_run():
     doc = to_dict(sample_result())
-    assert [c["code"] for c in doc["specs"][3]["cautions"]] == ["safety", "NC154", "NC302"]
+    assert [c["code"] for c in doc["specs"][3]["cautions"]] == ["hazard", "NC154", "NC302"]
     assert doc["cautions"] == [{"code": "NC150", "severity": "warning",
                                 "message": "unknown directive .temp ignored",
                                 "path": "sample_netlists/lib/quillmere_opamps.lib",

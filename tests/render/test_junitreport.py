@@ -15,9 +15,9 @@ import xmlschema
 
 from netcheck.render import RenderOptions, get_renderer
 from netcheck.render.junitreport import render, xml_text
-from netcheck.result import SAFETY_CAUTION, CheckResult, LimitResult, SpecResult, Status
+from netcheck.result import HAZARD_CAUTION, CheckResult, LimitResult, SpecResult, Status
 
-from .sample import DATA, HOSTILE_TITLE, RX_SPEC, compare_gold, sample_result
+from .sample import DATA, HAZARD, HOSTILE_TITLE, RX_SPEC, compare_gold, sample_result
 
 
 @pytest.fixture(scope="module")
@@ -131,12 +131,16 @@ class TestStructure:
     def test_cautions_in_system_out(self):
         found = suites(junit(sample_result()))
         assert found[3].find("system-out").text.splitlines() == [
-            f"caution safety: {SAFETY_CAUTION}",
+            f"caution hazard: {HAZARD.message}",
             "sample_netlists/rx40k.cir:22:1: warning NC154: R7 = 4.75k is off the E24 series",
             "warning NC302: matrix badly conditioned near 38.0 kHz; result kept",
             "sample_netlists/lib/quillmere_opamps.lib:3:1: warning NC150: "
             "unknown directive .temp ignored",
+            # once per document, with the first spec that warrants it
+            f"Caution: {HAZARD_CAUTION}",
         ]
+        assert junit(sample_result()).count(HAZARD_CAUTION) == 1
+        assert "caution" not in found[0].find("system-out").text
         assert found[4].find("system-out").text.splitlines()[0] == (
             "sample_netlists/sk_lowpass.cir:7:1: error NC300: "
             "singular circuit: node 'n3' has no path to ground at DC")

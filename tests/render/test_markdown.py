@@ -13,7 +13,7 @@ import pytest
 
 from netcheck.render import RenderOptions, get_renderer
 from netcheck.render.markdown import md_text, render
-from netcheck.result import SAFETY_CAUTION, Caution, CheckResult, LimitResult, SpecResult, Status
+from netcheck.result import HAZARD_CAUTION, Caution, CheckResult, LimitResult, SpecResult, Status
 
 from .sample import compare_gold, sample_result
 
@@ -164,15 +164,21 @@ class TestCautions:
         assert items[1].startswith("- WARNING NC152 at sample\\_netlists/hum\\_notch.cir:14:9: "
                                    "node 'tap' has one connection (")
         assert items[1].count("Quillmere Instruments mains hum notch") == 3
-        assert items[3].startswith("- WARNING NC302: matrix badly conditioned")
-        assert items[4].startswith("- ERROR NC300 at sample\\_netlists/sk\\_lowpass.cir:7:1: ")
-        assert len(items) == 5
+        # the receiver's hazard caution is a finding like the others, with its spec
+        assert items[2].startswith("- CAUTION hazard: L2 sees 14.2× the input voltage")
+        assert items[4].startswith("- WARNING NC302: matrix badly conditioned")
+        assert items[5].startswith("- ERROR NC300 at sample\\_netlists/sk\\_lowpass.cir:7:1: ")
+        assert len(items) == 6
 
-    def test_safety_caution_once_at_the_end(self):
+    def test_hazard_caution_once_at_the_end(self):
         text = markdown(sample_result())
         assert text.count("singular circuit") == 2      # the error block and the caution
-        assert text.count("This is an analysis of a circuit model") == 1
-        assert text.splitlines()[-1] == f"> Caution: {md_text(SAFETY_CAUTION)}"
+        assert text.count(md_text(HAZARD_CAUTION)) == 1
+        assert text.splitlines()[-1] == f"> Caution: {md_text(HAZARD_CAUTION)}"
+
+    def test_no_hazard_caution_unless_a_spec_warrants_it(self):
+        plain = SpecResult("a.toml", "n.cir", "A", Status.PASS)
+        assert "Caution" not in markdown(CheckResult((plain, plain), "0"))
 
     def test_labels_left_out_when_every_spec_has_it(self):
         c = Caution("NC152", "node x has one connection", path="n.cir", line=2, column=1)

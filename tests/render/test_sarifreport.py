@@ -17,9 +17,9 @@ import pytest
 
 from netcheck.render import RenderOptions, get_renderer
 from netcheck.render.sarifreport import SRCROOT, build_log, render
-from netcheck.result import SAFETY_CAUTION, Caution, CheckResult, LimitResult, SpecResult, Status
+from netcheck.result import HAZARD_CAUTION, Caution, CheckResult, LimitResult, SpecResult, Status
 
-from .sample import (DATA, LINT_NODE, LP_SPEC, NOTCH_NET, NOTCH_SPEC, RX_NET, RX_SPEC,
+from .sample import (DATA, HAZARD, LINT_NODE, LP_SPEC, NOTCH_NET, NOTCH_SPEC, RX_NET, RX_SPEC,
                      compare_gold, sample_result)
 
 
@@ -156,9 +156,17 @@ class TestResults:
 
     def test_unlocated_notes_go_to_run_properties_once(self):
         run = sarif(sample_result())["runs"][0]
-        assert "safety" not in {r["ruleId"] for r in run["results"]}
+        assert {"hazard", "safety"}.isdisjoint(r["ruleId"] for r in run["results"])
+        # the receiver's own hazard caution, then the general one once for the document
+        # (the receiver warrants it; the notch variants do not)
         assert run["properties"]["cautions"] == [
-            {"code": "safety", "severity": "caution", "message": SAFETY_CAUTION}]
+            {"code": "hazard", "severity": "caution", "message": HAZARD.message},
+            {"code": "safety", "severity": "caution", "message": HAZARD_CAUTION}]
+
+    def test_no_hazard_caution_unless_a_spec_warrants_it(self):
+        plain = SpecResult("a.toml", "n.cir", "A", Status.PASS)
+        run = sarif(CheckResult((plain, plain), "0"))["runs"][0]
+        assert "properties" not in run
 
     def test_run_wide_warning_without_position_is_a_property(self):
         result = CheckResult(specs=(), tool_version="0",

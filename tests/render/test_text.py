@@ -6,7 +6,8 @@ import io
 
 from netcheck.render import RenderOptions, get_renderer
 from netcheck.render.text import render
-from netcheck.result import CheckResult, LimitResult, SpecResult, Status
+from netcheck.result import (HAZARD_CAUTION, MODEL_STATEMENT, CheckResult, LimitResult,
+                             SpecResult, Status)
 from netcheck.netlist.units import format_eng
 
 from .sample import HOSTILE_TITLE, compare_gold, sample_result
@@ -105,11 +106,14 @@ def test_cautions():
     assert "  warning: matrix badly conditioned near 38.0 kHz; result kept" in out
     # run-wide cautions are shown once, before the count line
     assert out.count("unknown directive .temp ignored") == 1
-    # the long safety caution only with --verbose; the short reminder always
-    assert "analysis of a circuit model, not a measurement" not in out
-    assert "analysis of a circuit model, not a measurement" in text(sample_result(),
-                                                                   verbose=True)
-    assert out.rstrip().splitlines()[-1].startswith("Caution: analysis of a model")
+    # the receiver's hazard caution with its spec; the general one once, after the count
+    # line, because a spec warrants it
+    assert out.count("  caution: L2 sees 14.2× the input voltage at 40.1 kHz;") == 1
+    assert out.rstrip().splitlines()[-1] == f"Caution: {HAZARD_CAUTION}"
+    assert out.count(HAZARD_CAUTION) == 1
+    # the model statement only with --verbose, once
+    assert MODEL_STATEMENT not in out
+    assert text(sample_result(), verbose=True).count(MODEL_STATEMENT) == 1
 
 
 def test_no_escape_codes_without_colour():
