@@ -98,11 +98,17 @@ def magnification_caution(response: Response, rows: Sequence[LimitResult],
         return None
     high.sort(key=lambda m: -m[1])
     name, ratio, f = high[0]
-    head = f"{name} sees {ratio:.1f}× the input voltage at {format_si(f, 'Hz', 3)}"
-    others = [f"{n} {r:.1f}× at {format_si(at, 'Hz', 3)}" for n, r, at in high[1:_NAMED_MAX]]
+    head = f"{name} sees {_times(ratio)} the input voltage at {format_si(f, 'Hz', 3)}"
+    others = [f"{n} {_times(r)} at {format_si(at, 'Hz', 3)}" for n, r, at in high[1:_NAMED_MAX]]
     if len(high) > _NAMED_MAX:
         others.append(f"and {len(high) - _NAMED_MAX} more")
     rest = "".join(", " + o for o in others)
     return Caution("hazard", f"{head}{rest}; a resonant section holds about Q times its "
                    "input across its reactances: rate these parts for it and confirm by "
                    "measurement.", HAZARD_SEVERITY)
+
+
+def _times(ratio: float) -> str:
+    """A magnification as printed: ``31.6×`` up to 10,000, then ``8.9e+15×`` (a lossless
+    section's ratio is rounding, not a number to read digits from)."""
+    return f"{ratio:.1f}×" if ratio < 1e4 else f"{ratio:.2g}×"

@@ -231,6 +231,12 @@ def resonance(
         edges.append(x)
     f_low, f_high = edges
     bw = f_high - f_low
+    if not bw > 0.0:  # a lossless section: the edges meet at the pole
+        raise MeasurementFailure(
+            f"the peak at {_hz(fp)} ({top.value:.4g} dB) is narrower than working precision: "
+            "its half-power edges coincide, so its bandwidth and Q cannot be measured (a "
+            "resonance with no loss: give its parts their resistance)"
+        )
     centre = math.sqrt(f_low * f_high)
     return Resonance(fp, top.value, f_low, f_high, bw, centre, centre / bw, drop)
 

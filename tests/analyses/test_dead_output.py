@@ -107,3 +107,22 @@ def test_a_slightly_unbalanced_bridge_is_judged(tmp_path):
     assert np.allclose(res.curves.gain_db, 20 * np.log10(np.abs(h)), atol=1e-6)
     (lim,) = res.limits
     assert lim.measured < -60 and lim.margin > 50
+
+
+def test_a_lossless_resonance_is_an_error_not_a_crash(tmp_path):
+    # reference: an LC section with no resistance has its poles on the jω axis at
+    # f0 = 1/(2π√(LC)) (closed form, series LC): |H| is unbounded there and the
+    # half-power edges meet, so bandwidth and Q cannot be measured. It used to end in
+    # NC500 (ZeroDivisionError); it is a measurement error naming the peak
+    (tmp_path / "n.cir").write_text("Quillmere lossless LC\nVIN in 0 AC 1\nL1 in out 1m\n"
+                                    "C1 out 0 1u\n.end\n")
+    (tmp_path / "n.toml").write_text(SPEC.format(output='"out"').split("[[limits]]")[0]
+                                     + '[[limits]]\nkind = "resonance"\ncenter = "5k"\n'
+                                     'center_tolerance = "5%"\n')
+    res = check_spec(str(tmp_path / "n.toml"))
+    f0 = 1 / (2 * math.pi * math.sqrt(1e-3 * 1e-6))
+    assert res.status is Status.ERROR and not res.error  # the row carries it, no NC500
+    (row,) = res.limits
+    assert row.status is Status.ERROR
+    assert "half-power edges coincide" in row.message
+    assert f"{f0 / 1e3:.3f} kHz" in row.message   # 5.033 kHz
