@@ -215,7 +215,9 @@ def main(argv: list[str] | None = None) -> None:
                  for i in range(S)]
     nb, nc = min(args.baseline, S), min(args.checks, S)
     prebuilt = [elaborate(parsed, spec.allow_negative, overrides[i]) for i in range(nb)]
-    nominal_spec = dataclasses.replace(spec, tables=())  # nominal check only
+    # nominal check only: no parsed tolerance, analysis or stress tables, no raw ones
+    nominal_spec = dataclasses.replace(spec, tables=(), tolerances=None, analysis=None,
+                                       stress=None)
     checked = [elaborate(parsed, spec.allow_negative, overrides[i]) for i in range(nc)]
 
     def loop_ac() -> None:
