@@ -73,6 +73,7 @@ class Response:
     system: System
     engine: object = field(repr=False)
     _dtransfer: np.ndarray | None = field(default=None, repr=False)
+    _solution: np.ndarray | None = field(default=None, repr=False)
 
     @property
     def dtransfer(self) -> np.ndarray:
@@ -141,9 +142,16 @@ class Response:
         return self.engine.transfer(validate_frequencies(f_hz), derivative=derivative)
 
     def solution(self, f_hz: object | None = None) -> np.ndarray:
-        """Every node voltage and branch current (F × n, columns ``system.unknowns``)."""
-        f = self.frequency_hz if f_hz is None else validate_frequencies(f_hz)
-        return readonly(self.engine.solution(f))
+        """Every node voltage and branch current (F × n, columns ``system.unknowns``).
+
+        On the sweep grid (``f_hz`` None) it is solved once and kept: part stress and the
+        hazard check both read it."""
+        if f_hz is None:
+            if self._solution is None:
+                object.__setattr__(self, "_solution",
+                                   readonly(self.engine.solution(self.frequency_hz)))
+            return self._solution
+        return readonly(self.engine.solution(validate_frequencies(f_hz)))
 
     def direct(self) -> DenseEngine | SparseEngine:
         """A direct-solve engine on the same system (for other outputs and checks)."""
