@@ -12,58 +12,60 @@ __all__ = [
     "Diagnostic", "CODES", "INTERNAL_CODE",
 ]
 
-#: Stable diagnostic codes. NC1xx netlist, NC2xx spec, NC3xx solve/measure, NC4xx output
-#: and runs, NC5xx netcheck itself.
+#: Stable diagnostic codes, ``<stage>-<number>``: the stage that found the problem
+#: (``netlist``, ``spec``, ``analysis`` for solving and measuring, ``run`` for outputs, the
+#: command line and batch runs, ``internal`` for netcheck itself) and a number that keeps
+#: its hundreds per stage. Earlier versions wrote ``NC<number>`` (docs/errors.md).
 CODES: dict[str, str] = {
-    "NC100": "netlist syntax error",
-    "NC101": "bad value or expression",
-    "NC102": "undefined parameter",
-    "NC103": "recursive parameter definition",
-    "NC104": "bad include",
-    "NC105": "wrong element card",
-    "NC106": "duplicate name",
-    "NC107": "undefined subcircuit, element or source",
-    "NC108": "wrong node count for a subcircuit",
-    "NC109": "recursive subcircuit",
-    "NC110": "zero or negative part value",
-    "NC111": "floating sub-network",
-    "NC112": "loop of voltage-defined elements",
-    "NC113": "cut-set of current sources",
-    "NC114": "bad coupling",
-    "NC115": "unknown node",
-    "NC116": "design over a size budget (elements, nesting depth)",
-    "NC117": "input file unusable (not a regular file, too large, not UTF-8 text)",
-    "NC118": "part value out of range (magnitude above 1e200 or below 1e-200)",
-    "NC150": "unknown directive (warning)",
-    "NC151": "probable milli/mega mix-up (warning)",
-    "NC152": "node with one connection (warning)",
-    "NC153": "stimulus has no AC value (warning)",
-    "NC154": "part value off its preferred-number series (warning)",
-    "NC200": "spec file error",
-    "NC201": "unknown spec key",
-    "NC202": "wrong type or value in spec",
-    "NC203": "spec refers to something that does not exist",
-    "NC204": "spec path leaves the design root",
-    "NC205": "spec over a budget (sweep points, nesting, table rows, text length)",
-    "NC250": "spec asks for an analysis with nothing to analyse (warning)",
-    "NC300": "singular circuit",
-    "NC301": "measurement could not be made",
-    "NC302": "numerical trouble (warning)",
-    "NC303": "circuit matrix or solution not finite (part values out of range)",
-    "NC304": "no signal at the output (zero, or rounding noise, at every swept frequency)",
-    "NC400": "could not write output",
-    "NC401": "output refused (an input of the run, a device or FIFO, two outputs to -)",
-    "NC402": "bad command-line value",
-    "NC410": "git could not answer (--changed-since)",
-    "NC411": "baseline result file is not usable",
-    "NC420": "worker process lost (killed, or out of memory)",
-    "NC421": "out of memory or recursion depth while checking",
-    "NC500": "internal error in netcheck (a bug)",
+    "netlist-100": "netlist syntax error",
+    "netlist-101": "bad value or expression",
+    "netlist-102": "undefined parameter",
+    "netlist-103": "recursive parameter definition",
+    "netlist-104": "bad include",
+    "netlist-105": "wrong element card",
+    "netlist-106": "duplicate name",
+    "netlist-107": "undefined subcircuit, element or source",
+    "netlist-108": "wrong node count for a subcircuit",
+    "netlist-109": "recursive subcircuit",
+    "netlist-110": "zero or negative part value",
+    "netlist-111": "floating sub-network",
+    "netlist-112": "loop of voltage-defined elements",
+    "netlist-113": "cut-set of current sources",
+    "netlist-114": "bad coupling",
+    "netlist-115": "unknown node",
+    "netlist-116": "design over a size budget (elements, nesting depth)",
+    "netlist-117": "input file unusable (not a regular file, too large, not UTF-8 text)",
+    "netlist-118": "part value out of range (magnitude above 1e200 or below 1e-200)",
+    "netlist-150": "unknown directive (warning)",
+    "netlist-151": "probable milli/mega mix-up (warning)",
+    "netlist-152": "node with one connection (warning)",
+    "netlist-153": "stimulus has no AC value (warning)",
+    "netlist-154": "part value off its preferred-number series (warning)",
+    "spec-200": "spec file error",
+    "spec-201": "unknown spec key",
+    "spec-202": "wrong type or value in spec",
+    "spec-203": "spec refers to something that does not exist",
+    "spec-204": "spec path leaves the design root",
+    "spec-205": "spec over a budget (sweep points, nesting, table rows, text length)",
+    "spec-250": "spec asks for an analysis with nothing to analyse (warning)",
+    "analysis-300": "singular circuit",
+    "analysis-301": "measurement could not be made",
+    "analysis-302": "numerical trouble (warning)",
+    "analysis-303": "circuit matrix or solution not finite (part values out of range)",
+    "analysis-304": "no signal at the output (zero, or rounding noise, at every swept frequency)",
+    "run-400": "could not write output",
+    "run-401": "output refused (an input of the run, a device or FIFO, two outputs to -)",
+    "run-402": "bad command-line value",
+    "run-410": "git could not answer (--changed-since)",
+    "run-411": "baseline result file is not usable",
+    "run-420": "worker process lost (killed, or out of memory)",
+    "run-421": "out of memory or recursion depth while checking",
+    "internal-500": "internal error in netcheck (a bug)",
 }
 
 
 #: the code of a result that a bug in netcheck cost (exit status 3)
-INTERNAL_CODE = "NC500"
+INTERNAL_CODE = "internal-500"
 #: the most characters of a location or a message one formatted diagnostic shows
 TEXT_MAX = 1000
 
@@ -83,7 +85,7 @@ class NetcheckError(Exception):
         A location that is not a span (a spec key path such as ``limits[3].band``).
     """
 
-    code = "NC000"
+    code = "internal-000"
 
     def __init__(self, message: str, span: Span | None = None, code: str | None = None,
                  where: str | None = None, path: str | None = None) -> None:
@@ -127,37 +129,37 @@ class NetcheckError(Exception):
 class NetlistSyntaxError(NetcheckError, ValueError):
     """The netlist text does not follow the card grammar."""
 
-    code = "NC100"
+    code = "netlist-100"
 
 
 class ElaborationError(NetcheckError, ValueError):
     """The netlist parses but does not describe a valid circuit."""
 
-    code = "NC105"
+    code = "netlist-105"
 
 
 class SpecError(NetcheckError, ValueError):
     """A spec file is malformed or refers to things that do not exist."""
 
-    code = "NC200"
+    code = "spec-200"
 
 
 class SingularCircuitError(NetcheckError, ArithmeticError):
     """The MNA system cannot be solved at some frequency."""
 
-    code = "NC300"
+    code = "analysis-300"
 
 
 class MeasurementError(NetcheckError, ArithmeticError):
     """A requested measurement cannot be made on the response."""
 
-    code = "NC301"
+    code = "analysis-301"
 
 
 class RenderError(NetcheckError, OSError):
     """An output file could not be written."""
 
-    code = "NC400"
+    code = "run-400"
 
 
 class NetcheckWarning(UserWarning):

@@ -116,6 +116,12 @@ MODEL_STATEMENT = (
 #: Severity of a caution that calls out a hazardous or magnified voltage (the stress
 #: analysis's cautions and the resonance magnification caution).
 HAZARD_SEVERITY = "caution"
+#: codes of the cautions (in the JSON result and as SARIF rule ids, styled like the
+#: diagnostic codes): a part over a stress threshold, a reactive part far above the input
+#: voltage, and the general hazardous-voltage statement
+STRESS_CAUTION_CODE = "analysis-stress"
+VOLTAGE_CAUTION_CODE = "analysis-voltage"
+GENERAL_CAUTION_CODE = "analysis-hazard"
 
 #: Printed once per output, and only when some result warrants it (:func:`hazard_warranted`).
 HAZARD_CAUTION = (

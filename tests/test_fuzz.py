@@ -191,7 +191,7 @@ def test_deep_and_multiplying_nests(nest):
     text, over = nest
     got = must_not_crash(text)
     if over:
-        assert isinstance(got, NetcheckError) and got.code == "NC116"
+        assert isinstance(got, NetcheckError) and got.code == "netlist-116"
 
 
 @settings(max_examples=budget(150), suppress_health_check=[HealthCheck.too_slow])
@@ -264,5 +264,5 @@ def test_bytes_read_by_path(folder, text, how, cut, via_include):
         (folder / "top.cir").write_bytes(data)
         got = must_not_crash(str(folder / "top.cir"), root=str(folder))
     if how.startswith("utf-") and len(text) > 1:
-        assert isinstance(got, NetcheckError) and got.code == "NC117"
+        assert isinstance(got, NetcheckError) and got.code == "netlist-117"
         assert "save it as UTF-8" in got.message

@@ -43,7 +43,7 @@ def test_missing_report_library_is_one_clear_line(missing, monkeypatch, capsys, 
     err = capsys.readouterr().err.strip()
     assert code == BAD_INPUT
     assert err.count("\n") == 0 and "Traceback" not in err
-    assert f"needs the Python package {missing}" in err and "NC400" in err
+    assert f"needs the Python package {missing}" in err and "run-400" in err
     assert not (tmp_path / "p").exists()  # refused before any work
 
 

@@ -1,4 +1,4 @@
-"""IEC 60063 preferred-number series (E6 … E192) and the NC154 off-series part check."""
+"""IEC 60063 preferred-number series (E6 … E192) and the netlist-154 off-series part check."""
 
 from __future__ import annotations
 
@@ -225,7 +225,7 @@ def is_preferred(value: float, series: str, rel: float = 1e-3) -> bool:
 
 
 def check_preferred(parts: list[tuple[str, str, float, float, object]]) -> list[Diagnostic]:
-    """NC154 warnings for parts whose value is off the series their tolerance implies.
+    """netlist-154 warnings for parts whose value is off the series their tolerance implies.
 
     Each part's series comes from :func:`series_for_tolerance`; parts looser than
     20 % imply no series and are not checked. A value counts as on-series by
@@ -241,7 +241,7 @@ def check_preferred(parts: list[tuple[str, str, float, float, object]]) -> list[
     Returns
     -------
     list of Diagnostic
-        One ``NC154`` warning per off-series part, in input order, carrying the
+        One ``netlist-154`` warning per off-series part, in input order, carrying the
         part's span.
 
     Raises
@@ -272,7 +272,7 @@ def check_preferred(parts: list[tuple[str, str, float, float, object]]) -> list[
         message = (f"{name} = {_short(value, unit)} is not an {series} value "
                    f"({_percent(tol)} % parts); nearest {series} values: "
                    f"{_short(below, unit)}, {_short(above, unit)}")
-        found.append(Diagnostic("NC154", message, span))
+        found.append(Diagnostic("netlist-154", message, span))
     return found
 
 

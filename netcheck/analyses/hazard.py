@@ -24,7 +24,7 @@ import numpy as np
 from ..mna.solve import Response
 from ..netlist.elements import Capacitor, Inductor, VoltageSource
 from ..netlist.units import format_si
-from ..result import HAZARD_SEVERITY, Caution, LimitResult
+from ..result import HAZARD_SEVERITY, VOLTAGE_CAUTION_CODE, Caution, LimitResult
 from ..spec.stress import StressLimit
 from .stress import _solve_at, stress_probes
 
@@ -103,7 +103,7 @@ def magnification_caution(response: Response, rows: Sequence[LimitResult],
     if len(high) > _NAMED_MAX:
         others.append(f"and {len(high) - _NAMED_MAX} more")
     rest = "".join(", " + o for o in others)
-    return Caution("hazard", f"{head}{rest}; a resonant section holds about Q times its "
+    return Caution(VOLTAGE_CAUTION_CODE, f"{head}{rest}; a resonant section holds about Q times its "
                    "input across its reactances: rate these parts for it and confirm by "
                    "measurement.", HAZARD_SEVERITY)
 

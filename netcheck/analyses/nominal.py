@@ -183,8 +183,8 @@ def _assemble_for(spec: Spec, circuit: Circuit) -> System:
     try:
         return assemble(circuit, spec.source, spec.output[0], spec.output[1])
     except ElaborationError as err:
-        key = "source" if err.code == "NC107" else "output"
-        raise SpecError(f"{key}: {err.message}", code="NC203", path=spec.path,
+        key = "source" if err.code == "netlist-107" else "output"
+        raise SpecError(f"{key}: {err.message}", code="spec-203", path=spec.path,
                         where=key) from None
 
 
@@ -193,7 +193,7 @@ _DEAD_SCREEN_DB = -100.0
 
 
 def _require_signal(spec: Spec, system: System, response: Response) -> None:
-    """Refuse a response with no signal in it (NC304), so no limit can pass on it.
+    """Refuse a response with no signal in it (analysis-304), so no limit can pass on it.
 
     An output that is not driven (a node off the signal path, ground against a ground
     alias) has H = 0 at every frequency, −∞ dB: every upper gain bound would pass with an
@@ -210,7 +210,7 @@ def _require_signal(spec: Spec, system: System, response: Response) -> None:
             "and, for a differential output, that its two sides are not balanced")
     if gain[k] == -math.inf:
         raise SpecError(f"output: no signal: {out} is exactly zero at every frequency from "
-                        f"{lo} to {hi}, {tail}", code="NC304", path=spec.path, where="output")
+                        f"{lo} to {hi}, {tail}", code="analysis-304", path=spec.path, where="output")
     if gain[k] > _DEAD_SCREEN_DB:
         return
     from ..spec.limits.base import rounding_floor_db
@@ -220,7 +220,7 @@ def _require_signal(spec: Spec, system: System, response: Response) -> None:
             f"output: no signal: the largest gain from {lo} to {hi}, "
             f"{format_eng(gain[k], 'dB', 1)} at {format_si(float(response.frequency_hz[k]), 'Hz', 5)}, lies below "
             f"the rounding floor of the solve there ({format_eng(floor, 'dB', 1)}): {out} cannot be told "
-            f"from zero, {tail}", code="NC304", path=spec.path, where="output")
+            f"from zero, {tail}", code="analysis-304", path=spec.path, where="output")
 
 
 def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
@@ -239,7 +239,7 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
     cautions = [diag_caution(d) for d in circuit.diagnostics]
     src = circuit.element(system.source)
     if not getattr(src, "has_ac", True):
-        cautions.append(Caution("NC153", f"stimulus {src.name} has no AC value; results are "
+        cautions.append(Caution("netlist-153", f"stimulus {src.name} has no AC value; results are "
                                 "per unit stimulus", "warning", src.span.path, src.span.line,
                                 src.span.column))
     with warnings.catch_warnings(record=True) as caught:
@@ -254,7 +254,7 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         measurements = _measurements(probe)
     for w in caught:
         if issubclass(w.category, NetcheckWarning):
-            cautions.append(Caution("NC302", str(w.message), "warning"))
+            cautions.append(Caution("analysis-302", str(w.message), "warning"))
     extra: list[tuple[str, object]] = []
     envelope: tuple = (None, None)
     nominal = Nominal(spec, circuit, system, probe, tuple(limits), dict(measurements))
@@ -340,8 +340,8 @@ def failure_result(path: str, exc: BaseException, variant: str | None = None,
     """A SpecResult for a check stopped by an exception that is not a NetcheckError.
 
     MemoryError and RecursionError mean the input asked for more than the machine or
-    the interpreter's stack has: NC421, bad input. Anything else is a bug in netcheck:
-    NC500 (:data:`netcheck.exceptions.INTERNAL_CODE`), and the error text ends with the
+    the interpreter's stack has: run-421, bad input. Anything else is a bug in netcheck:
+    internal-500 (:data:`netcheck.exceptions.INTERNAL_CODE`), and the error text ends with the
     traceback (its last :data:`TRACEBACK_MAX` characters).
     """
     import traceback
@@ -352,7 +352,7 @@ def failure_result(path: str, exc: BaseException, variant: str | None = None,
         message = (f"{what} while checking ({type(exc).__name__}); the spec or netlist asks "
                    "for more than this machine gives one check: lower the sweep points, "
                    "Monte Carlo samples or memory_mib, or split the design")
-        err = NetcheckError(message, code="NC421", path=path)
+        err = NetcheckError(message, code="run-421", path=path)
         tail = ""
     else:
         from ..exceptions import INTERNAL_CODE
@@ -395,8 +395,8 @@ def check_spec(path: str, overrides: dict[str, float] | None = None,
     spec's netlist path (a family of netlists sharing one spec) and must lie inside the
     spec's design root, like every path the spec names (``design_root``: the explicit
     root, ``--root``; see :func:`netcheck.spec.design_root`). Bad input becomes an error
-    result with its code; running out of memory or recursion depth NC421; any other
-    exception, a bug, NC500 with the traceback (:func:`failure_result`).
+    result with its code; running out of memory or recursion depth run-421; any other
+    exception, a bug, internal-500 with the traceback (:func:`failure_result`).
     ``allow_negative`` (``--allow-negative``) accepts negative R, L and C values as the
     spec's own ``allow_negative = true`` does. ``plot_detail`` stores the exactly
     evaluated points the PDF plots draw through (false when no PDF is wanted: they cost
@@ -436,7 +436,7 @@ def _check(path: str, overrides: dict[str, float] | None, variant: str | None,
         if unknown:
             raise SpecError(f"variants: variant {variant!r} sets {', '.join(unknown)}, which the "
                             f"netlist does not define with .param (it defines "
-                            f"{', '.join(sorted(defined)) or 'none'})", code="NC203",
+                            f"{', '.join(sorted(defined)) or 'none'})", code="spec-203",
                             path=path, where="variants")
         # part_models: the spec's part-model subcircuits, checked against this netlist
         from ..spec.load import part_models

@@ -59,7 +59,7 @@ from ..netlist.elaborate import PartModel
 from ..netlist.elements import (CCCS, CCVS, VCCS, Capacitor, CurrentSource, Element, Inductor,
                        Resistor, VoltageSource)
 from ..exceptions import SingularCircuitError
-from ..result import Caution, LimitResult, Status, finite_or_none
+from ..result import STRESS_CAUTION_CODE, Caution, LimitResult, Status, finite_or_none
 from ..mna.solve import DENSE_MAX, Response
 from ..spec.stress import UNITS, StressLimit
 from ..netlist.units import format_si
@@ -587,7 +587,7 @@ def stress_cautions(results: Sequence[StressResult]) -> list[Caution]:
             why = "Resonant parts can circulate currents well above the input"
         else:
             why = "Voltages of this size can be hazardous to touch"
-        out.append(Caution("stress", f"{head}. {why}: rate parts with margin, confirm by "
+        out.append(Caution(STRESS_CAUTION_CODE, f"{head}. {why}: rate parts with margin, confirm by "
                            "measurement on the prototype, and follow local codes and licensed "
                            "practice.", "caution"))
     return out

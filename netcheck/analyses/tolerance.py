@@ -67,12 +67,12 @@ def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>"
         hits = [e for e in circuit.elements if fnmatch.fnmatchcase(e.name, pattern)]
         if not hits:
             raise SpecError(f"{where}: no part called {pattern} in the netlist",
-                            code="NC203", path=path, where=where)
+                            code="spec-203", path=path, where=where)
         sources = [e for e in hits if e.letter in ("V", "I")]
         if sources and not _is_glob(pattern):
             raise SpecError(f"{where}: {pattern} is an independent source; responses are "
                             "per unit stimulus, so its tolerance would change nothing (give "
-                            "the drive level as [[stress]] source_amplitude)", code="NC202",
+                            "the drive level as [[stress]] source_amplitude)", code="spec-202",
                             path=path, where=where)
         for e in hits:
             if e in sources:
@@ -82,7 +82,7 @@ def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>"
                     f"{where}: a {t:.4g} tolerance lets the coupling factor of {e.name} "
                     f"({e.value:g}) reach {abs(e.value) * (1 + t):.4g}, above 1, which no "
                     f"pair of coils can have; at most {(1 / abs(e.value) - 1) * 100:.3g} % "
-                    "fits", code="NC202", path=path, where=where)
+                    "fits", code="spec-202", path=path, where=where)
             if t > 0:
                 out[e.name] = (e.value, t)
             else:
@@ -93,7 +93,7 @@ def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>"
                             if fnmatch.fnmatchcase(name, p)), None)
             where = f"tolerances.parts.{pattern}" if pattern else "tolerances.default"
             raise SpecError(f"{where}: {name} has the value 0, which a relative tolerance "
-                            "cannot move; drop its tolerance", code="NC202", path=path,
+                            "cannot move; drop its tolerance", code="spec-202", path=path,
                             where=where)
     return [(name, v, t) for name, (v, t) in sorted(out.items())]
 
@@ -123,7 +123,7 @@ def draw(parts: list[tuple[str, float, float]], samples: int, distribution: str,
                 f"tolerances.distribution: 'normal' with {t * 100:g} % (3σ) on {name} drew "
                 f"{'a value' if bad == 1 else f'{bad} values'} of {name} at or beyond zero "
                 f"in {samples} samples; use 'truncnormal' (cut at ± the tolerance) or a "
-                "smaller tolerance", code="NC202", path=path, where="tolerances.distribution")
+                "smaller tolerance", code="spec-202", path=path, where="tolerances.distribution")
     return values
 
 
@@ -259,7 +259,7 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
             f"analysis.samples: {S} samples need about {kept / 2**20:.0f} MiB for their "
             f"values and results alone, over the budget {analysis.budget_text()}; lower "
             "samples (the 95 % interval of a yield narrows as 1/√samples) or raise "
-            "memory_mib", code="NC205", path=spec.path, where="analysis.samples")
+            "memory_mib", code="spec-205", path=spec.path, where="analysis.samples")
     values = draw(parts, S, tol.distribution, rng, spec.path)
     margins, measured, meas, env_lo, env_hi = run_samples(
         system, spec, values, S, analysis.memory_mib * 2**20, "Monte Carlo samples")

@@ -39,7 +39,7 @@ def analyse(nominal: Nominal) -> Outcome | None:
                  and circuit.part_model_of(n) is None]
     cautions = [diag_caution(d) for d in check_preferred(preferred)]
     if not parts and set(analysis.modes) - {"nominal"}:
-        cautions.append(Caution("NC250", "tolerance analysis asked for, but no part has a "
+        cautions.append(Caution("spec-250", "tolerance analysis asked for, but no part has a "
                                 "tolerance ([tolerances] default/parts)", "warning", spec.path))
         return Outcome((), tuple(cautions), block, (None, None))
     envelope: tuple = (None, None)

@@ -21,8 +21,8 @@ def safe_text(text: str) -> str:
     """``text`` made safe to print: each line through :func:`netcheck.netlist.source.printable`
     (escapes shown, length bounded), at most :data:`LINES_MAX` lines.
 
-    >>> print(safe_text("a.cir:1:1: error NC100: R1" + chr(27) + "]0;title" + chr(7)))
-    a.cir:1:1: error NC100: R1\\x1b]0;title\\x07
+    >>> print(safe_text("a.cir:1:1: error netlist-100: R1" + chr(27) + "]0;title" + chr(7)))
+    a.cir:1:1: error netlist-100: R1\\x1b]0;title\\x07
     """
     lines = str(text).split("\n")
     out = [printable(ln, LINE_MAX) for ln in lines[:LINES_MAX]]

@@ -95,7 +95,7 @@ class CheckRun:
             self.error(RenderError("output refused: --pdf writes one file per spec into a "
                                    "folder; standard output ('-') cannot hold them (use "
                                    "--pdf-combined - for one PDF on standard output)",
-                                   code="NC401", path="--pdf"))
+                                   code="run-401", path="--pdf"))
             self.pdf_dir = None
         for opt, fmt, attr in table:
             path = getattr(args, attr)
@@ -106,7 +106,7 @@ class CheckRun:
                     f"output refused: {' and '.join(to_stdout)} "
                     f"{'both' if len(to_stdout) == 2 else 'all'} ask for standard output "
                     "('-'); only one output can go there, give the others file paths",
-                    code="NC401", path=opt))
+                    code="run-401", path=opt))
                 continue
             try:
                 check_output_path(path)
@@ -234,7 +234,7 @@ class CheckRun:
     def changed_since(self, specs: list[str]) -> list[str]:
         """With --changed-since, the affected specs only.
 
-        When git cannot say what changed (NC410), the error is carried into every report
+        When git cannot say what changed (run-410), the error is carried into every report
         and *every* spec is checked: skipping specs on a failed comparison could hide a
         failure.
         """
@@ -290,7 +290,7 @@ class CheckRun:
             why = not_regular(spec)
             if why is not None:
                 items.append(error_result(spec, NetcheckError(f"cannot read spec: {why}",
-                                                              code="NC117", path=spec)))
+                                                              code="netlist-117", path=spec)))
             else:
                 items.extend(self._expand(spec))
         jobs = [it for it in items if isinstance(it, Job)]
@@ -308,13 +308,13 @@ class CheckRun:
                                                            path=it.spec), variant=it.variant)
                        if isinstance(it, Job) else it for it in items]
         for m in missing:
-            results.append(error_result(m, SpecError("no such file or folder", code="NC200",
+            results.append(error_result(m, SpecError("no such file or folder", code="spec-200",
                                                      path=m)))
         if found_none:
             for p in self.args.paths:
                 results.append(error_result(p, SpecError(
                     "no spec files found (a spec is a .toml file with a 'netlist' key)",
-                    code="NC200", path=p)))
+                    code="spec-200", path=p)))
         if any(c.code == INTERNAL_CODE for r in results for c in r.cautions):
             self.internal = True
         return tuple(results)

@@ -2,7 +2,7 @@
 
 Everything printed that came from an input (names, titles, paths, messages) goes
 through :func:`safe_text`: control characters and bidirectional overrides are shown as
-escapes, lines and line counts are bounded. A bad command-line value is an ``NC402``
+escapes, lines and line counts are bounded. A bad command-line value is an ``run-402``
 error (status 2) that says what is accepted; SIGTERM ends the run like Ctrl-C, so no
 temporary file is left behind.
 """
@@ -35,11 +35,11 @@ EPOCH_MAX = 253402300799
 
 
 class _Parser(argparse.ArgumentParser):
-    """argparse with netcheck's error format: ``netcheck check: error NC402: ...``."""
+    """argparse with netcheck's error format: ``netcheck check: error run-402: ...``."""
 
     def error(self, message: str) -> None:  # type: ignore[override]
         self.print_usage(sys.stderr)
-        self.exit(BAD_INPUT, f"{self.prog}: error NC402: {safe_text(message)}\n")
+        self.exit(BAD_INPUT, f"{self.prog}: error run-402: {safe_text(message)}\n")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -96,10 +96,10 @@ def print_diagnostics(diags: Sequence[Diagnostic], quiet: bool = False) -> None:
 
 
 def _sweep_problem(start: float, stop: float, ppd: int) -> NetcheckError | None:
-    """Why ``--start/--stop/--ppd`` cannot be swept (NC402, or the spec budgets' NC205)."""
+    """Why ``--start/--stop/--ppd`` cannot be swept (run-402, or the spec budgets' spec-205)."""
     if not (math.isfinite(start) and math.isfinite(stop) and 0 < start < stop):
         return NetcheckError(f"need 0 < --start < --stop, both finite (got {start:g}, "
-                             f"{stop:g})", code="NC402", path="netcheck sweep")
+                             f"{stop:g})", code="run-402", path="netcheck sweep")
     from ..spec.load import validate_sweep
 
     try:
@@ -134,7 +134,7 @@ def _sweep(args: argparse.Namespace) -> int:
     src = circuit.element(args.source)
     diags = list(circuit.diagnostics)
     if not getattr(src, "has_ac", True):
-        diags.append(Diagnostic("NC153", f"stimulus {src.name} has no AC value; the response "
+        diags.append(Diagnostic("netlist-153", f"stimulus {src.name} has no AC value; the response "
                                 "is computed per unit stimulus", src.span))
     print_diagnostics(diags, args.quiet)
     from ..spec.reader import Sweep
@@ -234,7 +234,7 @@ def _settle_source_date_epoch(quiet: bool) -> NetcheckError | None:
     Empty (what a failed ``$(git log ...)`` gives): removed from the environment, so no
     library that reads it (the report clock, matplotlib, font subsetting, numpy) fails
     on it, with one warning line. Not a whole number of seconds, negative, or after the
-    year 9999: an ``NC402`` error, returned.
+    year 9999: an ``run-402`` error, returned.
     """
     raw = os.environ.get("SOURCE_DATE_EPOCH")
     if raw is None:
@@ -257,11 +257,11 @@ def _settle_source_date_epoch(quiet: bool) -> NetcheckError | None:
     return NetcheckError(f"SOURCE_DATE_EPOCH={printable(repr(raw), 60)} {why}; give the "
                          "report time as whole seconds since 1970-01-01 UTC (for example "
                          "the commit time, git log -1 --format=%ct), or leave it unset",
-                         code="NC402", path="netcheck")
+                         code="run-402", path="netcheck")
 
 
 def _root_problem(root: str | None) -> NetcheckError | None:
-    """Why ``--root DIR`` cannot be the design root (NC402), or None."""
+    """Why ``--root DIR`` cannot be the design root (run-402), or None."""
     if root is None:
         return None
     why = None
@@ -281,7 +281,7 @@ def _root_problem(root: str | None) -> NetcheckError | None:
         return None
     return NetcheckError(f"--root {printable(repr(root), 120)} {why}; give the folder that "
                          "holds the design (every file a spec names must be inside it)",
-                         code="NC402", path="netcheck")
+                         code="run-402", path="netcheck")
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -198,12 +198,12 @@ def _stimulus_and_output(circuit: Circuit, source: str, node: str, ref: str,
         known = (", ".join(names[:10]) + (f" and {len(names) - 10:,} more"
                                           if len(names) > 10 else "")) or "none"
         raise ElaborationError(f"stimulus source {quoted(source)} is not in the netlist "
-                               f"(independent sources: {known})", code="NC107")
+                               f"(independent sources: {known})", code="netlist-107")
     src = circuit.element(source)
     if not isinstance(src, (VoltageSource, CurrentSource)):
         raise ElaborationError(f"stimulus {printable(src.name)} is not an independent V or I "
                                "source",
-                               src.span, code="NC107")
+                               src.span, code="netlist-107")
     src.excite(st)
     sel = np.zeros(st.n)
     for name, sign in ((node, 1.0), (ref, -1.0)):
@@ -213,7 +213,7 @@ def _stimulus_and_output(circuit: Circuit, source: str, node: str, ref: str,
             continue
         if key not in st.nodes:
             raise ElaborationError(f"output node {quoted(name)} is not in the netlist",
-                                   code="NC115")
+                                   code="netlist-115")
         sel[st.nodes[key]] += sign
     return sel
 

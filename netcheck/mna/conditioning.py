@@ -20,7 +20,7 @@ __all__ = ["Pattern", "equilibrate", "inverse_one_norm", "EQUILIBRATE_SWEEPS", "
 #: most sweeps of :func:`equilibrate` (each about halves the spread of the row and
 #: column maxima in log scale, so a dozen cover the whole double range; the rest is room)
 EQUILIBRATE_SWEEPS = 64
-#: a matrix is singular to working precision, and refused (NC300), when, equilibrated, it
+#: a matrix is singular to working precision, and refused (analysis-300), when, equilibrated, it
 #: lies within this fraction of the size of its entries of a singular matrix: σmin below
 #: RCOND_TOL·√(‖S‖₁‖S‖∞) (dense; the square root bounds ‖|S|‖₂), or 1/‖S⁻¹‖₁ below
 #: RCOND_TOL·‖S‖₁ (sparse). The rounding of the stamps (a few ε in each entry) and the

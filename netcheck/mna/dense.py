@@ -66,7 +66,7 @@ class DenseEngine:
     def _scaled(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """(diag(r)·(G + j2πfC)·diag(c), r, c) for each frequency of ``f`` (F × n × n,
         F × n, F × n), equilibrated by :func:`~netcheck.mna.conditioning.equilibrate`;
-        NC303 if not finite."""
+        analysis-303 if not finite."""
         pat = self._pattern
         with np.errstate(over="ignore", invalid="ignore"):
             vals = self._gv + np.multiply.outer(1j * _TWO_PI * f, self._cv)
@@ -82,7 +82,7 @@ class DenseEngine:
 
     def check_regular(self, f_hz: np.ndarray) -> None:
         """Raise SingularCircuitError if (G + sC) is numerically singular at any ``f_hz``
-        (NC303 if it is not finite).
+        (analysis-303 if it is not finite).
 
         The test is on the equilibrated matrix S
         (:func:`~netcheck.mna.conditioning.equilibrate`), so it does not depend on the

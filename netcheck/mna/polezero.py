@@ -58,7 +58,7 @@ class PoleZeroEngine:
     def build(cls, direct: DenseEngine, grid: np.ndarray) -> "PoleZeroEngine | None":
         """Build from the system and verify at check points; None when not trustworthy.
 
-        NC303 (:class:`~netcheck.exceptions.SingularCircuitError`) if G + j2πfC is not
+        analysis-303 (:class:`~netcheck.exceptions.SingularCircuitError`) if G + j2πfC is not
         finite on ``grid``."""
         system = direct.system
         check_finite(system, grid)

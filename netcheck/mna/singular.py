@@ -1,6 +1,6 @@
 """Errors of circuit equations that cannot be solved, naming the parts involved.
 
-NC300: G + sC is singular at a frequency; NC303: an entry of G + j2πfC, or the solution,
+analysis-300: G + sC is singular at a frequency; analysis-303: an entry of G + j2πfC, or the solution,
 is out of floating-point range.
 """
 
@@ -23,7 +23,7 @@ _TWO_PI = 2.0 * np.pi
 
 
 def singular_error(system: System, a: np.ndarray, f_hz: float) -> SingularCircuitError:
-    """NC300 for a dense ``a`` = G + j2πfC, equilibrated
+    """analysis-300 for a dense ``a`` = G + j2πfC, equilibrated
     (:func:`~netcheck.mna.conditioning.equilibrate`): its null vector names the unknowns
     involved. It is taken on the equilibrated matrix, where
     every unknown counts at its own scale, so a part that is only far from the others
@@ -44,7 +44,7 @@ def singular_error(system: System, a: np.ndarray, f_hz: float) -> SingularCircui
 
 def nonfinite_error(system: System, f_hz: float, solution: bool = False
                      ) -> SingularCircuitError:
-    """NC303: G + j2πfC (or, with ``solution``, the solution at ``f_hz``) is not finite.
+    """analysis-303: G + j2πfC (or, with ``solution``, the solution at ``f_hz``) is not finite.
 
     Names the parts whose own entries overflow at ``f_hz``; when none does alone (two
     huge entries summed, or the solve overflowed), the parts with the most extreme
@@ -82,12 +82,12 @@ def nonfinite_error(system: System, f_hz: float, solution: bool = False
     return SingularCircuitError(
         f"{what} at {f_hz:.6g} Hz: part values out of range ({named}); 1/R, 2πf·L, "
         "2πf·C and the gains must stay within floating-point range (a netlist value is "
-        f"accepted from {VALUE_MIN:g} to {VALUE_MAX:g} in magnitude)", span, code="NC303",
+        f"accepted from {VALUE_MIN:g} to {VALUE_MAX:g} in magnitude)", span, code="analysis-303",
         path=path)
 
 
 def check_finite(system: System, grid: np.ndarray) -> None:
-    """NC303 unless G + j2πfC is finite at every frequency of ``grid``.
+    """analysis-303 unless G + j2πfC is finite at every frequency of ``grid``.
 
     G must be finite; 2πf·C is largest at the top frequency, so the largest |C| entry
     tells the first frequency where an entry overflows.
@@ -105,7 +105,7 @@ def check_finite(system: System, grid: np.ndarray) -> None:
 
 def sparse_singular_error(system: System, a: sp.csc_matrix, f_hz: float,
                            detail: str) -> SingularCircuitError:
-    """NC300 for a sparse ``a`` that SuperLU found singular.
+    """analysis-300 for a sparse ``a`` that SuperLU found singular.
 
     The unknowns involved come from two steps of inverse iteration on ``a`` shifted by
     1e-10 of its largest entry: one more factorisation, only on this error path.

@@ -55,7 +55,7 @@ PZ_MIN_POINTS = 40
 def make_engine(system: System, grid: np.ndarray) -> DenseEngine | SparseEngine | PoleZeroEngine:
     """Pick the engine for ``system`` and a sweep ``grid`` (Hz), checking regularity.
 
-    NC303 first if G + j2πfC is not finite somewhere on the grid (an overflowing 1/R or
+    analysis-303 first if G + j2πfC is not finite somewhere on the grid (an overflowing 1/R or
     2πf·C): no engine is built on a matrix that is not finite.
     """
     check_finite(system, grid)

@@ -39,7 +39,7 @@ class SparseEngine:
 
     def _scaled(self, f: float) -> tuple[sp.csc_matrix, np.ndarray, np.ndarray]:
         """(diag(r)·(G + j2πfC)·diag(c), r, c), equilibrated as the dense engine does
-        (:func:`~netcheck.mna.conditioning.equilibrate`); NC303 if not finite."""
+        (:func:`~netcheck.mna.conditioning.equilibrate`); analysis-303 if not finite."""
         w = _TWO_PI * f
         pat, gv, cv = self._pattern, self._gv, self._cv
         with np.errstate(over="ignore", invalid="ignore"):
@@ -53,7 +53,7 @@ class SparseEngine:
         return a, r, c
 
     def _factor(self, f: float, scaled: tuple | None = None):
-        """(SuperLU of the equilibrated G + j2πfC, r, c); NC303 if not finite, NC300 if
+        """(SuperLU of the equilibrated G + j2πfC, r, c); analysis-303 if not finite, analysis-300 if
         SuperLU finds it singular."""
         a, r, c = scaled or self._scaled(f)
         try:
@@ -65,7 +65,7 @@ class SparseEngine:
 
     def check_regular(self, f_hz: np.ndarray) -> None:
         """Raise SingularCircuitError if (G + sC) is numerically singular at any ``f_hz``
-        (NC303 if it is not finite), judged on the equilibrated matrix S like the dense
+        (analysis-303 if it is not finite), judged on the equilibrated matrix S like the dense
         engine, from an estimate of its 1-norm condition κ₁ = ‖S‖₁‖S⁻¹‖₁.
 
         1/‖S⁻¹‖₁ is the distance, in the 1-norm, from S to the nearest singular matrix;
@@ -110,7 +110,7 @@ class SparseEngine:
         return self._roots[key]
 
     def _finite(self, scale: np.ndarray, z: np.ndarray, f: float) -> np.ndarray:
-        """``scale``·``z`` back in the circuit's units; NC303 if it overflowed."""
+        """``scale``·``z`` back in the circuit's units; analysis-303 if it overflowed."""
         with np.errstate(all="ignore"):
             x = scale * z
         if not np.isfinite(x).all():

@@ -29,7 +29,7 @@ _GROUND_ALIASES = frozenset({"0", "gnd"})
 #: the most warnings of one code a circuit keeps; the rest are counted in one more
 DIAGNOSTICS_PER_CODE = 10
 #: largest magnitude of a value that is stamped into the circuit matrix (R, L, C, the gain
-#: of E, F, G, H and the coefficient of K); NC118 above it. With frequencies from 1e-6 to
+#: of E, F, G, H and the coefficient of K); netlist-118 above it. With frequencies from 1e-6 to
 #: 1e15 Hz (the sweep budget), 1/R, ωL, ωC and a gain then stay between about 6e-206 and
 #: 7e215, so every entry of G + jωC is a normal double with more than 1e90 of headroom
 #: on either side of the floating-point range for the sums and products a solve forms
@@ -128,11 +128,11 @@ def summarise_diagnostics(diags: list[Diagnostic], keep: int = DIAGNOSTICS_PER_C
     --------
     >>> from .source import SourceFile
     >>> src = SourceFile("f.cir", "t\\n")
-    >>> many = [Diagnostic("NC152", f"node 'n{i}' has only one connection", src.span(1, 1))
+    >>> many = [Diagnostic("netlist-152", f"node 'n{i}' has only one connection", src.span(1, 1))
     ...         for i in range(25)]
     >>> out = summarise_diagnostics(many)
     >>> len(out), out[-1].message  # doctest: +NORMALIZE_WHITESPACE
-    (11, '15 more NC152 warnings (node with one connection) not listed, the first of them
+    (11, '15 more netlist-152 warnings (node with one connection) not listed, the first of them
     here; netcheck lists the first 10 of each code')
     """
     seen: dict[str, int] = {}
@@ -171,13 +171,13 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
             first = here[key].name.span
             raise ElaborationError(f"subcircuit {quoted(sub.name.text)} defined twice (first "
                                    f"at {printable(first.path)}:{first.line})", sub.name.span,
-                                   code="NC106")
+                                   code="netlist-106")
         here[key] = defs[key] = sub
         ports: dict[str, Field] = {}
         for port in sub.ports:
             if port.text.lower() in ports:
                 raise ElaborationError(f"subcircuit {quoted(sub.name.text)} lists port "
-                                       f"{quoted(port.text)} twice", port.span, code="NC106")
+                                       f"{quoted(port.text)} twice", port.span, code="netlist-106")
             ports[port.text.lower()] = port
 
     def node_of(fld: Field) -> str:
@@ -200,7 +200,7 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
             first = flat.names[full]
             raise ElaborationError(f"duplicate element name {printable(full)} (first defined "
                                    f"at {printable(first.path)}:{first.line})", card.name.span,
-                                   code="NC106")
+                                   code="netlist-106")
         flat.names[full] = card.name.span
         letter = card.letter
         if letter == "X":
@@ -212,7 +212,7 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
             known = ", ".join(sorted(ELEMENTS) + ["X"])
             raise ElaborationError(f"unknown element letter {quoted(letter)} in "
                                    f"{quoted(card.name.text)} "
-                                   f"(netcheck knows {known})", card.name.span, code="NC105")
+                                   f"(netcheck knows {known})", card.name.span, code="netlist-105")
         element = cls.from_card(CardReader(card, full, env, node_of, ref_of))
         if cls.passive:
             _check_passive(element, card, allow_negative)
@@ -229,21 +229,21 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
     words = [w for w in words if w.text.lower() not in ("params:", "params")]
     if not words:
         raise ElaborationError(f"{card_label(card)}: missing subcircuit name", card.span,
-                               code="NC105")
+                               code="netlist-105")
     sub_field, node_fields = words[-1], words[:-1]
     sub = defs.get(sub_field.text.lower())
     if sub is None:
         known = _list(sorted(d.name.text for d in defs.values())) or "none defined"
         raise ElaborationError(f"undefined subcircuit {quoted(sub_field.text)} (known: "
-                               f"{known})", sub_field.span, code="NC107")
+                               f"{known})", sub_field.span, code="netlist-107")
     key = sub.name.text.lower()
     if key in stack:
         raise ElaborationError(f"subcircuit {quoted(sub.name.text)} instantiates itself "
-                               f"({_arrows(stack + (key,))})", card.name.span, code="NC109")
+                               f"({_arrows(stack + (key,))})", card.name.span, code="netlist-109")
     if len(node_fields) != len(sub.ports):
         raise ElaborationError(f"{card_label(card)}: subcircuit {printable(sub.name.text)} has "
                                f"{len(sub.ports)} port(s), got {len(node_fields)} node(s)",
-                               card.span, code="NC108")
+                               card.span, code="netlist-108")
     child_map: dict[str, str] = {}
     for port, fld in zip(sub.ports, node_fields):
         child_map[port.text.lower()] = node_of(fld)
@@ -258,7 +258,7 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
             raise ElaborationError(f"subcircuit {printable(sub.name.text)} has no parameter "
                                    f"{quoted(assign.key.text)} (it has "
                                    f"{_list(sorted(declared))})",
-                                   assign.key.span, code="NC102")
+                                   assign.key.span, code="netlist-102")
         child.define(assign, where=env)
     if key not in flat.models or flat.depth:
         _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
@@ -304,15 +304,15 @@ def _check_passive(element: Element, card: Card, allow_negative: bool) -> None:
         raise ElaborationError(f"{printable(element.name)} has value 0; a zero "
                                f"{type(element).__name__.lower()}"
                                " cannot be solved (use a small value or remove it)", span,
-                               code="NC110")
+                               code="netlist-110")
     if value < 0 and not allow_negative:
         raise ElaborationError(f"{printable(element.name)} has negative value {value:g}; pass "
                                "--allow-negative (allow_negative=True) if this is intended",
-                               span, code="NC110")
+                               span, code="netlist-110")
 
 
 def _check_range(element: Element, card: Card) -> None:
-    """NC118 for a stamped value whose magnitude is non-zero but outside
+    """netlist-118 for a stamped value whose magnitude is non-zero but outside
     [:data:`VALUE_MIN`, :data:`VALUE_MAX`] (independent sources stamp no value)."""
     why = element.range_why
     if not why:
@@ -328,7 +328,7 @@ def _check_range(element: Element, card: Card) -> None:
         f"{printable(element.name)} = {element.value:g}{unit} is {side} the range of part "
         f"values netcheck solves (magnitude {VALUE_MIN:g} to {VALUE_MAX:g}): {why} would "
         "leave floating-point range in the circuit matrix; give a value inside the range",
-        span, code="NC118")
+        span, code="netlist-118")
 
 
 def _lint_value(element: Element, card: Card, flat: _Flat) -> None:
@@ -346,7 +346,7 @@ def _lint_value(element: Element, card: Card, flat: _Flat) -> None:
     if suffix[:1] == "M" and not suffix.lower().startswith(("meg", "mil")):
         what = "milliohms" if element.letter == "R" else "millihenries"
         flat.diags.append(Diagnostic(
-            "NC151", f"{printable(element.name)} = {printable(text)} reads as "
+            "netlist-151", f"{printable(element.name)} = {printable(text)} reads as "
             f"{element.value:g} ({what}: SPICE 'M' is milli); write "
             f"{printable(text[:i])}meg if mega was meant", fld.span))
 
@@ -364,13 +364,13 @@ def _check_references(elements: tuple[Element, ...]) -> None:
                 raise ElaborationError(f"{printable(e.name)} refers to {kind} "
                                        f"{printable(ref.split('.')[-1])}, "
                                        f"which is not defined in its scope{found}", e.span,
-                                       code="NC107" if e.letter != "K" else "NC114")
+                                       code="netlist-107" if e.letter != "K" else "netlist-114")
         if e.letter == "K":
             k = e.value
             if not -1.0 <= k <= 1.0:
                 raise ElaborationError(f"{printable(e.name)}: coupling coefficient {k:g} is "
-                                       "outside [-1, 1]", e.span, code="NC114")
+                                       "outside [-1, 1]", e.span, code="netlist-114")
             if e.inductors[0] == e.inductors[1]:
                 raise ElaborationError(f"{printable(e.name)} couples "
                                        f"{printable(e.inductors[0])} to itself", e.span,
-                                       code="NC114")
+                                       code="netlist-114")

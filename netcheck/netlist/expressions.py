@@ -100,7 +100,7 @@ class _ToAst(Transformer):
         try:
             return Num(parse_quantity(str(tok)), span)
         except UnitError as err:
-            raise NetlistSyntaxError(str(err), span, code="NC101") from None
+            raise NetlistSyntaxError(str(err), span, code="netlist-101") from None
 
     def name(self, meta, tok: Token) -> Name:
         return Name(str(tok).lower(), self._span(meta))
@@ -112,12 +112,12 @@ class _ToAst(Transformer):
             raise NetlistSyntaxError(
                 f"unknown function {quoted(str(func), 60)}; available: "
                 f"{', '.join(sorted(FUNCTIONS))}",
-                span, code="NC101")
+                span, code="netlist-101")
         lo, hi, _ = FUNCTIONS[fname]
         if not lo <= len(args) <= hi:
             raise NetlistSyntaxError(f"{fname}() takes {lo} argument{'s' if lo > 1 else ''}"
                                      f"{' or more' if hi > lo else ''}, got {len(args)}",
-                                     span, code="NC101")
+                                     span, code="netlist-101")
         return Call(fname, tuple(a for a in args if a is not None), span)
 
     def neg(self, meta, operand: Expr) -> Expr:
@@ -145,11 +145,11 @@ def parse_expression(text: str, source: SourceFile, line: int, column: int) -> E
     '*'
     """
     if not text.strip():
-        raise NetlistSyntaxError("empty expression", source.span(line, column), code="NC101")
+        raise NetlistSyntaxError("empty expression", source.span(line, column), code="netlist-101")
     if len(text) > EXPR_MAX:
         raise NetlistSyntaxError(f"expression is {len(text):,} characters long, over the "
                                  f"budget of {EXPR_MAX:,}; split it with .param",
-                                 source.span(line, column), code="NC101")
+                                 source.span(line, column), code="netlist-101")
     try:
         tree = parser("expr.lark").parse(text)
     except UnexpectedInput as err:
@@ -165,10 +165,10 @@ def parse_expression(text: str, source: SourceFile, line: int, column: int) -> E
             tok = getattr(err, "token", None)
             msg = ("expression ends too early" if tok is None or tok.type == "$END"
                    else f"unexpected {quoted(str(tok), 60)} in expression")
-        raise NetlistSyntaxError(msg, span, code="NC101") from None
+        raise NetlistSyntaxError(msg, span, code="netlist-101") from None
     except LarkError as err:
         raise NetlistSyntaxError(f"bad expression: {err}", source.span(line, column),
-                                 code="NC101") from None
+                                 code="netlist-101") from None
     try:
         if isinstance(tree, Token):  # a lone terminal that no rule wrapped
             tree = Tree("number" if tree.type == "QUANTITY" else "name", [tree])
@@ -185,7 +185,7 @@ def parse_expression(text: str, source: SourceFile, line: int, column: int) -> E
 
 def _too_deep(source: SourceFile, line: int, column: int) -> NetlistSyntaxError:
     return NetlistSyntaxError("expression is nested too deeply; split it with .param",
-                              source.span(line, column), code="NC101")
+                              source.span(line, column), code="netlist-101")
 
 
 def evaluate(expr: Expr, lookup: Callable[[Name], float]) -> float:
@@ -218,7 +218,7 @@ def evaluate(expr: Expr, lookup: Callable[[Name], float]) -> float:
                     out = math.pow(a, b)
             except (ZeroDivisionError, OverflowError, ValueError) as err:
                 raise ElaborationError(f"{a:g} {op} {b:g} has no value ({err})", span,
-                                       code="NC101") from None
+                                       code="netlist-101") from None
             return _finite(out, span)
         case Call(func=func, args=args, span=span):
             values = [evaluate(a, lookup) for a in args]
@@ -227,11 +227,11 @@ def evaluate(expr: Expr, lookup: Callable[[Name], float]) -> float:
             except (ValueError, OverflowError) as err:
                 shown = ", ".join(f"{v:g}" for v in values)
                 raise ElaborationError(f"{func}({shown}) has no value ({err})", span,
-                                       code="NC101") from None
+                                       code="netlist-101") from None
     raise TypeError(f"not an expression: {expr!r}")  # pragma: no cover - programming error
 
 
 def _finite(value: float, span: Span) -> float:
     if not math.isfinite(value):
-        raise ElaborationError(f"expression value is not finite ({value})", span, code="NC101")
+        raise ElaborationError(f"expression value is not finite ({value})", span, code="netlist-101")
     return value

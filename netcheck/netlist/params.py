@@ -34,7 +34,7 @@ class Env:
         key = assign.key.text.lower()
         if assign.key.kind != "word" or not key.replace("_", "a").isalnum() or key[0].isdigit():
             raise ElaborationError(f"{quoted(assign.key.text)} is not a parameter name",
-                                   assign.key.span, code="NC101")
+                                   assign.key.span, code="netlist-101")
         self.exprs[key] = (assign.value, where or self)
         self.values.pop(key, None)
 
@@ -47,7 +47,7 @@ class Env:
             env = env.parent
         if ref.name == "pi":
             return float(np.pi)
-        raise ElaborationError(f"undefined parameter {quoted(ref.name)}", ref.span, code="NC102")
+        raise ElaborationError(f"undefined parameter {quoted(ref.name)}", ref.span, code="netlist-102")
 
     def _get(self, key: str, used_at: Span) -> float:
         if key in self.values:
@@ -55,7 +55,7 @@ class Env:
         if key in self.active:
             cycle = _arrows(self.active[self.active.index(key):] + [key])
             raise ElaborationError(f"parameter {quoted(key)} is defined in terms of itself "
-                                   f"({cycle})", used_at, code="NC103")
+                                   f"({cycle})", used_at, code="netlist-103")
         fld, where = self.exprs[key]
         self.active.append(key)
         try:
@@ -68,7 +68,7 @@ class Env:
     def value_of(self, fld: Field) -> float:
         """Evaluate a value field (a quantity, a parameter name or an ``{expression}``)."""
         if fld.kind == "string" and not fld.expr_text.strip():
-            raise ElaborationError("empty value", fld.span, code="NC101")
+            raise ElaborationError("empty value", fld.span, code="netlist-101")
         got = self.parsed.get(id(fld))
         if got is not None and got[0] is fld:
             expr = got[1]
@@ -80,5 +80,5 @@ class Env:
             return evaluate(expr, self.lookup)
         except RecursionError:
             raise ElaborationError("expression or chain of parameters is nested too deeply",
-                                   fld.span, code="NC101") from None
+                                   fld.span, code="netlist-101") from None
 

@@ -19,7 +19,7 @@ __all__ = ["Field", "Assign", "Card", "Directive", "Scope", "SubcktDef", "Netlis
            "INCLUDE_DEPTH_MAX", "INCLUDES_MAX", "INCLUDE_TEXT_MAX", "SUBCKT_DEPTH_MAX",
            "ELEMENTS_MAX", "TITLE_MAX", "check_size", "bounded_title"]
 
-# Size budgets of one netlist with its includes (NC116). Each is checked before the work
+# Size budgets of one netlist with its includes (netlist-116). Each is checked before the work
 # it bounds is done; real designs stay far below them.
 #: the most tokens (names, values, separators) parsed, over the netlist and its includes:
 #: about 100,000 cards, parsed in about half a minute with well under 1 GB of memory
@@ -38,7 +38,7 @@ ELEMENTS_MAX = 1_000_000
 #: a longer one is cut there and marked with the count left out, never refused
 TITLE_MAX = 1_000
 
-#: Dot-directives netcheck acts on; any other directive is warned about (NC150) and skipped.
+#: Dot-directives netcheck acts on; any other directive is warned about (netlist-150) and skipped.
 KNOWN_DIRECTIVES = frozenset({"subckt", "ends", "param", "include", "end"})
 #: Directives that only matter to other analyses (transient, operating point...): no warning.
 QUIET_DIRECTIVES = frozenset({"title"})
@@ -177,7 +177,7 @@ def parse_statements(source: SourceFile, has_title: bool = True) -> tuple[str, t
     Raises
     ------
     NetlistSyntaxError
-        With the position of the first character or token that does not fit; NC116
+        With the position of the first character or token that does not fit; netlist-116
         past :data:`TOKENS_MAX` tokens.
     """
     title, stmts, _ = _parse(source, has_title, TOKENS_MAX)
@@ -222,7 +222,7 @@ def _parse_text(source: SourceFile, has_title: bool, allowed: int
                 raise NetlistSyntaxError(
                     f"the netlist is over the budget of {TOKENS_MAX:,} tokens (names, values "
                     "and line ends, its includes counted); netcheck stops reading here",
-                    _token_span(source, tok), code="NC116")
+                    _token_span(source, tok), code="netlist-116")
         tree = run.feed_eof()
     except UnexpectedInput as err:
         raise _syntax_error(source, text, err) from None
@@ -281,7 +281,7 @@ def _syntax_error(source: SourceFile, text: str, err: UnexpectedInput) -> Netlis
 
 def _read(path: Path, shown: str, at: Span | None = None) -> SourceFile:
     """A netlist file through the one safe reader (regular file, size budget, UTF-8)."""
-    return SourceFile.read(path, shown, error=NetlistSyntaxError, code="NC104",
+    return SourceFile.read(path, shown, error=NetlistSyntaxError, code="netlist-104",
                            what="netlist" if at is None else "included file", at=at)
 
 
@@ -305,7 +305,7 @@ def load_netlist(path_or_text: str | Path, root: str | Path | None = None) -> Ne
     inside the design root (the top netlist's directory unless ``root`` is given);
     absolute paths and include cycles are refused. Every file is read through
     :meth:`netcheck.netlist.source.SourceFile.read` (regular files within the size budget
-    only), and the whole is bounded (NC116): :data:`TOKENS_MAX` tokens,
+    only), and the whole is bounded (netlist-116): :data:`TOKENS_MAX` tokens,
     :data:`INCLUDE_DEPTH_MAX` nested includes, :data:`INCLUDES_MAX` includes followed
     and :data:`INCLUDE_TEXT_MAX` characters of text, an inclusion repeated counting
     each time; :data:`SUBCKT_DEPTH_MAX` nested ``.subckt`` definitions.
@@ -358,13 +358,13 @@ def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[Path, ...],
             raise NetlistSyntaxError(
                 f"includes nest {depth} deep here, over the budget of {INCLUDE_DEPTH_MAX} "
                 f"nested .include files ({_chain_text(chain + (path,))})", target.span,
-                code="NC116")
+                code="netlist-116")
         state.includes += 1
         if state.includes > INCLUDES_MAX:
             raise NetlistSyntaxError(
                 f"this would be include number {state.includes:,}, over the budget of "
                 f"{INCLUDES_MAX:,} .include directives followed for one netlist (a file "
-                "included from several places counts each time)", target.span, code="NC116")
+                "included from several places counts each time)", target.span, code="netlist-116")
         if path not in state.parsed:
             sub = _read(path, _display(path, state.root), at=target.span)
             state.sources.append(sub)
@@ -378,7 +378,7 @@ def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[Path, ...],
                 raise NetlistSyntaxError(
                     f"including {quoted(target.expr_text)} again would take the netlist over "
                     f"the budget of {TOKENS_MAX:,} tokens (its includes counted)",
-                    target.span, code="NC116")
+                    target.span, code="netlist-116")
         state.tokens += used
         stack.append((iter(sub_stmts), path.parent, chain + (path,)))
     return out
@@ -389,32 +389,32 @@ def _include_path(st: Directive, here: Path, chain: tuple[Path, ...], root: Path
     """The file an ``.include`` names, checked (one name, inside the root, no cycle)."""
     if len(st.fields) != 1 or not isinstance(st.fields[0], Field):
         raise NetlistSyntaxError('.include takes one file name, e.g. .include "parts.lib"',
-                                 st.span, code="NC104")
+                                 st.span, code="netlist-104")
     target = st.fields[0]
     name = target.expr_text
     if not name.strip():
         raise NetlistSyntaxError('empty file name in .include; give the file to include, '
-                                 'e.g. .include "parts.lib"', target.span, code="NC104")
+                                 'e.g. .include "parts.lib"', target.span, code="netlist-104")
     if Path(name).is_absolute() or name.startswith("~"):
         raise NetlistSyntaxError(f"absolute include path {quoted(name)} refused; give a path "
-                                 "relative to the including file", target.span, code="NC104")
+                                 "relative to the including file", target.span, code="netlist-104")
     try:
         path = (here / name).resolve()
         found = path.exists()
     except (OSError, ValueError, RuntimeError) as err:
         # a NUL byte, a name too long for the OS, a symbolic-link loop
         raise NetlistSyntaxError(f"include path {quoted(name)} cannot be used: "
-                                 f"{quoted(str(err))}", target.span, code="NC104") from None
+                                 f"{quoted(str(err))}", target.span, code="netlist-104") from None
     if not path.is_relative_to(root):
         raise NetlistSyntaxError(f"include {quoted(name)} leaves the design root "
                                  f"{quoted(str(root), 400)}; use --root to widen it",
-                                 target.span, code="NC104")
+                                 target.span, code="netlist-104")
     if path in chain:
         cycle = _chain_text(chain[chain.index(path):] + (path,))
-        raise NetlistSyntaxError(f"include cycle: {cycle}", target.span, code="NC104")
+        raise NetlistSyntaxError(f"include cycle: {cycle}", target.span, code="netlist-104")
     if not found:
         raise NetlistSyntaxError(f"included file {quoted(name)} not found (looked for "
-                                 f"{quoted(str(path), 400)})", target.span, code="NC104")
+                                 f"{quoted(str(path), 400)})", target.span, code="netlist-104")
     return path, target
 
 
@@ -437,7 +437,7 @@ def _check_text(state: _Loading, size: int, target: Field) -> None:
         raise NetlistSyntaxError(
             f"with this include the netlist text reaches {state.text:,} characters, over "
             f"the budget of {INCLUDE_TEXT_MAX:,} for one netlist with its includes (a file "
-            "included from several places counts each time)", target.span, code="NC116")
+            "included from several places counts each time)", target.span, code="netlist-116")
 
 
 def _display(path: Path, root: Path) -> str:
@@ -458,13 +458,13 @@ def _group(stmts: list[Statement], diags: list[Diagnostic]) -> Scope:
             for item in st.fields:
                 if not isinstance(item, Assign):
                     raise NetlistSyntaxError(".param takes name=value pairs", item.span,
-                                             code="NC101")
+                                             code="netlist-101")
                 stack[-1][2].append(item)
         elif st.name == "subckt":
             if len(stack) > SUBCKT_DEPTH_MAX:
                 raise NetlistSyntaxError(
                     f".subckt definitions nest {len(stack)} deep here, over the budget of "
-                    f"{SUBCKT_DEPTH_MAX} levels", st.span, code="NC116")
+                    f"{SUBCKT_DEPTH_MAX} levels", st.span, code="netlist-116")
             stack.append((st, [], [], []))
         elif st.name == "ends":
             if len(stack) == 1:
@@ -473,7 +473,7 @@ def _group(stmts: list[Statement], diags: list[Diagnostic]) -> Scope:
             _check_ends(head, st)
             stack[-1][3].append(_subckt(head, Scope(tuple(cards), tuple(params), tuple(subs))))
         elif st.name not in QUIET_DIRECTIVES:
-            diags.append(Diagnostic("NC150", f"unknown directive .{printable(st.name)} ignored",
+            diags.append(Diagnostic("netlist-150", f"unknown directive .{printable(st.name)} ignored",
                                     st.span))
     if len(stack) > 1:
         head = stack[-1][0]
@@ -523,7 +523,7 @@ def _instance_target(card: Card) -> Field | None:
 
 def check_size(top: Scope) -> None:
     """Refuse, before flattening, a design over :data:`ELEMENTS_MAX` elements or with
-    subcircuit instances nested deeper than :data:`SUBCKT_DEPTH_MAX` (NC116).
+    subcircuit instances nested deeper than :data:`SUBCKT_DEPTH_MAX` (netlist-116).
 
     Each subcircuit definition's flattened element count and nesting depth is counted
     once per scope it is used from (memoised), so a nest of 10 instances of 10
@@ -548,7 +548,7 @@ def check_size(top: Scope) -> None:
             raise ElaborationError(
                 f"{what}the design is over the budget of {ELEMENTS_MAX:,} elements here "
                 f"({total:,} so far; instances inside instances multiply)", card.name.span,
-                code="NC116")
+                code="netlist-116")
 
 
 class _Sizer:
@@ -584,7 +584,7 @@ class _Sizer:
             raise ElaborationError(
                 f"{printable(card.name.text, 80)} nests subcircuit instances {depth} levels deep "
                 f"({_arrows(stack + (key,))}), over the budget of {SUBCKT_DEPTH_MAX} levels",
-                card.name.span, code="NC116")
+                card.name.span, code="netlist-116")
         memo_key = (id(sub), ctx)
         got = self.memo.get(memo_key)
         if got is None:
@@ -603,5 +603,5 @@ class _Sizer:
                 f"{printable(sub.name.text, 60)}, "
                 f"which nests {got[1]} levels of instances; here that makes "
                 f"{depth - 1 + got[1]}, over the budget of {SUBCKT_DEPTH_MAX} levels",
-                card.name.span, code="NC116")
+                card.name.span, code="netlist-116")
         return got

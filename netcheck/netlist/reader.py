@@ -31,11 +31,11 @@ class CardReader:
     def _next(self, what: str) -> Field:
         if self.pos >= len(self.items):
             raise ElaborationError(f"{card_label(self.card)}: missing {what}",
-                                   self._end_span(), code="NC105")
+                                   self._end_span(), code="netlist-105")
         item = self.items[self.pos]
         if isinstance(item, Assign):
             raise ElaborationError(f"{card_label(self.card)}: expected {what}, found "
-                                   f"{printable(item.key.text)}=...", item.span, code="NC105")
+                                   f"{printable(item.key.text)}=...", item.span, code="netlist-105")
         self.pos += 1
         return item
 
@@ -51,7 +51,7 @@ class CardReader:
             fld = self._next(f"node {i + 1} of {count}")
             if fld.kind != "word":
                 raise ElaborationError("a node name cannot be an expression", fld.span,
-                                       code="NC105")
+                                       code="netlist-105")
             out.append(self._node_of(fld))
         return tuple(out)
 
@@ -63,7 +63,7 @@ class CardReader:
         """Read the (scope-qualified) name of another element."""
         fld = self._next(what)
         if fld.kind != "word":
-            raise ElaborationError(f"{what} must be an element name", fld.span, code="NC105")
+            raise ElaborationError(f"{what} must be an element name", fld.span, code="netlist-105")
         return self._ref_of(fld.text)
 
     def more(self) -> bool:
@@ -86,7 +86,7 @@ class CardReader:
     def unexpected(self, hint: str) -> None:
         """Raise for the next field."""
         item = self.items[self.pos]
-        raise ElaborationError(f"{card_label(self.card)}: {hint}", item.span, code="NC105")
+        raise ElaborationError(f"{card_label(self.card)}: {hint}", item.span, code="netlist-105")
 
     def finish(self) -> None:
         """Refuse left-over fields."""
@@ -95,5 +95,5 @@ class CardReader:
             text = item.text if isinstance(item, Field) else \
                 f"{item.key.text}={item.value.text}"
             raise ElaborationError(f"{card_label(self.card)}: unexpected extra field "
-                                   f"{quoted(text)}", item.span, code="NC105")
+                                   f"{quoted(text)}", item.span, code="netlist-105")
 

@@ -10,7 +10,7 @@ NUL in every other byte) is refused with a message that says so; a UTF-8 byte-or
 mark is dropped. Netlists must use LF or CR LF line ends: a
 lone carriage return followed by more text on the line (classic Mac OS line ends) is
 refused at its position, because the card grammar treats CR as a space and would
-silently join the lines. These refusals carry code NC117.
+silently join the lines. These refusals carry code netlist-117.
 """
 
 from __future__ import annotations
@@ -33,7 +33,7 @@ FILE_MAX_BYTES = 16 * 2**20
 #: the most characters of a source line shown above a caret (a window around the column)
 CARET_WINDOW = 120
 #: the code of an input file that cannot be used at all (not regular, too large, not text)
-UNUSABLE_CODE = "NC117"
+UNUSABLE_CODE = "netlist-117"
 
 # C0 and C1 control characters except tab, and DEL: a terminal acts on them (colours,
 # cursor moves, window titles), so text from an input file never reaches it raw
@@ -252,7 +252,7 @@ def read_text(path: str | Path, error: type[Exception], what: str,
               budget: int = FILE_MAX_BYTES) -> str:
     """Read a user file as text, safely; failures raise ``error(message, ...)``.
 
-    Refused with code NC117 (:data:`UNUSABLE_CODE`), before anything is read where
+    Refused with code netlist-117 (:data:`UNUSABLE_CODE`), before anything is read where
     possible: anything but a regular file (FIFO, device, socket, folder); a file over
     ``budget`` bytes (at most ``budget + 1`` bytes are read, so a growing file is
     caught too); UTF-16 or UTF-32 text (with a message that says so).

@@ -57,7 +57,7 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
     Raises
     ------
     ElaborationError
-        NC111, NC112 or NC113, at the first element touching the offending nodes.
+        netlist-111, netlist-112 or netlist-113, at the first element touching the offending nodes.
     """
     two_terminal = [e for e in elements if e.letter != "K"]
     first_touch: dict[str, Element] = {}
@@ -83,7 +83,7 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
             raise ElaborationError(
                 f"node{'s' if len(group) > 1 else ''} {_names(group)} "
                 f"{'have' if len(group) > 1 else 'has'} no path to ground{why}; connect it "
-                "or tie it to ground through a resistor", culprit.span, code="NC111")
+                "or tie it to ground through a resistor", culprit.span, code="netlist-111")
 
     loops = _Sets()
     for e in two_terminal:
@@ -94,7 +94,7 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
                     f"{printable(e.name, 80)} closes a loop of voltage-defined elements (V, E, "
                     f"H) between nodes {printable(a, 60)} and {printable(b, 60)}; the loop "
                     "current is undetermined", e.span,
-                    code="NC112")
+                    code="netlist-112")
 
     passive = _Sets()
     passive.find(GROUND)
@@ -114,7 +114,7 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
                 f"connect{'' if len(group) > 1 else 's'} to the rest only "
                 "through current sources (a cut-set of current sources, e.g. "
                 f"{printable(culprit.name, 80)}); "
-                "their voltage is undetermined", culprit.span, code="NC113")
+                "their voltage is undetermined", culprit.span, code="netlist-113")
 
 
 def lint_nodes(node_spans: dict[str, list[Span]]) -> list[Diagnostic]:
@@ -122,6 +122,6 @@ def lint_nodes(node_spans: dict[str, list[Span]]) -> list[Diagnostic]:
     out = []
     for node, spans in node_spans.items():
         if node != GROUND and len(spans) == 1:
-            out.append(Diagnostic("NC152", f"node {quoted(node, 80)} has only one connection",
+            out.append(Diagnostic("netlist-152", f"node {quoted(node, 80)} has only one connection",
                                   spans[0]))
     return out

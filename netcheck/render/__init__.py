@@ -17,7 +17,7 @@ __all__ = ["RENDERERS", "RenderOptions", "get_renderer", "render_to", "NAME_SHOW
 
 #: The most characters of a name or title (a spec's title, a limit's or variant's name)
 #: the Markdown summary and the PDF report show; a cut is marked with the count left
-#: out. The spec loader already refuses longer than 1,000 (NC205); this keeps headings
+#: out. The spec loader already refuses longer than 1,000 (spec-205); this keeps headings
 #: and table cells readable, and a report cheap, whatever the result holds.
 NAME_SHOWN_MAX = 200
 #: The most characters of any other text from the inputs (a path, a message, an error

@@ -1,7 +1,7 @@
 """The one place output files are written: ``-`` is stdout, files are replaced atomically.
 
 An output never takes the place of something the user keeps. :func:`open_output`
-refuses (``NC401``) a path that is a folder, a device, a FIFO or a socket, a name with a
+refuses (``run-401``) a path that is a folder, a device, a FIFO or a socket, a name with a
 design file's suffix (:data:`DESIGN_SUFFIXES`), an existing CSV table netcheck did not
 write, and, given an
 :class:`OutputGuard`, a path that names one of the run's inputs (by its path, the file
@@ -79,7 +79,7 @@ def clear_stop() -> None:
 
 def _refused(path: str | os.PathLike, message: str) -> RenderError:
     shown = printable(str(path))
-    return RenderError(f"output refused: {message}", code="NC401", path=shown)
+    return RenderError(f"output refused: {message}", code="run-401", path=shown)
 
 
 
@@ -117,7 +117,7 @@ def _design_file(path: str | os.PathLike, st: os.stat_result | None) -> str | No
 
 
 def check_not_design_file(path: str | os.PathLike) -> None:
-    """Refuse (``NC401``) an output path that may be a design file the user keeps: a
+    """Refuse (``run-401``) an output path that may be a design file the user keeps: a
     name with a design file's suffix (:data:`DESIGN_SUFFIXES`), or an existing CSV
     table that netcheck did not write. ``-`` always passes."""
     if str(path) == "-":
@@ -128,7 +128,7 @@ def check_not_design_file(path: str | os.PathLike) -> None:
 
 
 def _stat_or_none(target: Path) -> os.stat_result | None:
-    """``os.stat(target)``, None when nothing is there; other failures are NC400."""
+    """``os.stat(target)``, None when nothing is there; other failures are run-400."""
     try:
         return os.stat(target)
     except FileNotFoundError:
@@ -138,7 +138,7 @@ def _stat_or_none(target: Path) -> os.stat_result | None:
 
 
 def _cannot(path: str | os.PathLike, message: str) -> RenderError:
-    return RenderError(f"cannot write output: {message}", code="NC400",
+    return RenderError(f"cannot write output: {message}", code="run-400",
                        path=printable(str(path)))
 
 
@@ -184,7 +184,7 @@ class OutputGuard:
     >>> guard.check("designs/../designs/lp.toml")
     Traceback (most recent call last):
     ...
-    netcheck.exceptions.RenderError: ...NC401: output refused: this file is an input ...
+    netcheck.exceptions.RenderError: ...run-401: output refused: this file is an input ...
     >>> guard.check("designs/result.json")
     """
 
@@ -212,7 +212,7 @@ class OutputGuard:
         Raises
         ------
         RenderError
-            ``NC401`` when it is an input, or another option already writes it.
+            ``run-401`` when it is an input, or another option already writes it.
         """
         self.check(path)
         if str(path) == "-":
@@ -226,7 +226,7 @@ class OutputGuard:
             self._outputs[name] = option
 
     def check(self, path: str | os.PathLike) -> None:
-        """Raise ``NC401`` if ``path`` is one of the inputs (``-`` always passes)."""
+        """Raise ``run-401`` if ``path`` is one of the inputs (``-`` always passes)."""
         if str(path) == "-":
             return
         for name in _names(path):
@@ -244,9 +244,9 @@ class OutputGuard:
 def check_output_path(path: str | os.PathLike, folder: bool = False) -> None:
     """Check, before any work is done, that ``path`` can be an output.
 
-    ``folder`` is true for an output folder (``--pdf DIR``). Refused (``NC401``): an
+    ``folder`` is true for an output folder (``--pdf DIR``). Refused (``run-401``): an
     existing path that is a device, FIFO or socket, or a folder where a file is wanted
-    (or a file where a folder is wanted). Not writable (``NC400``): a missing parent
+    (or a file where a folder is wanted). Not writable (``run-400``): a missing parent
     that cannot be created because a file stands in its way, or a folder without write
     permission.
 
@@ -346,8 +346,8 @@ def open_output(path: str | os.PathLike, binary: bool = False, *,
     Raises
     ------
     RenderError
-        ``NC401`` when the path is a folder, device, FIFO or socket, or an input of
-        the run; ``NC400`` when the directory or file cannot be written.
+        ``run-401`` when the path is a folder, device, FIFO or socket, or an input of
+        the run; ``run-400`` when the directory or file cannot be written.
     """
     if str(path) == "-":
         with _stdout(binary) as stream:

@@ -2,13 +2,13 @@
 
 One run, tool ``netcheck``. Results, in the order of the CheckResult:
 
-* a limit with ``Status.FAIL`` → level ``error``, rule ``limit/<kind>`` (``limit/gain``,
-  ``limit/group_delay``...), located at the limit's table in the spec file;
-* a limit with ``Status.ERROR`` → level ``error``, rule ``NC301`` (measurement could not
+* a limit with ``Status.FAIL`` → level ``error``, rule ``limit-<kind>`` (``limit-gain``,
+  ``limit-group-delay``...), located at the limit's table in the spec file;
+* a limit with ``Status.ERROR`` → level ``error``, rule ``analysis-301`` (measurement could not
   be made), located the same way;
 * a spec that could not be checked at all (``SpecResult.error``) → level ``error``, rule
-  ``spec/unchecked``, located at the spec file;
-* a caution with a source position → rule = its code (``NC151``...), level from its
+  ``run-unchecked``, located at the spec file;
+* a caution with a source position → rule = its code (``netlist-151``...), level from its
   severity (``error``, ``warning``, anything else ``note``), located at its own
   path/line/column (the netlist, for lint warnings);
 * a spec's caution without a position and of severity ``error`` or ``warning`` (such as
@@ -19,7 +19,10 @@ not findings about a place: they go once each, in order, into the run's property
 as ``properties.cautions``, so code-scanning views are not flooded with them. Identical
 caution results (the same netlist warning seen by several variants) are written once.
 When some spec carries a hazard caution (:func:`netcheck.result.hazard_warranted`), the
-hazardous-voltage caution closes ``properties.cautions``, once (code ``safety``).
+hazardous-voltage caution closes ``properties.cautions``, once (code ``analysis-hazard``).
+
+Every rule id has the form of the diagnostic codes, ``<stage>-<name>``: lower case, words
+joined by hyphens.
 
 Passing and skipped limits produce no result. ``tool.driver.rules`` lists exactly the
 rule ids used, sorted, and each result refers to its rule by ``ruleIndex``. Relative
@@ -39,7 +42,7 @@ from typing import IO, Any
 from urllib.parse import quote
 
 from ..exceptions import CODES
-from ..result import (HAZARD_CAUTION, HAZARD_SEVERITY, Caution, CheckResult, LimitResult,
+from ..result import (GENERAL_CAUTION_CODE, HAZARD_CAUTION, HAZARD_SEVERITY, Caution, CheckResult, LimitResult,
                       SpecResult, Status, finite_or_none, hazard_warranted)
 from . import RenderOptions
 from .junitreport import limit_summary, xml_text
@@ -51,10 +54,12 @@ SARIF_SCHEMA = ("https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/sche
                 "sarif-schema-2.1.0.json")
 #: The base id relative URIs are resolved against (the checkout root).
 SRCROOT = "%SRCROOT%"
+#: Rule ids of failed limits: this prefix and the kind.
+LIMIT_RULE_PREFIX = "limit-"
 #: Rule for a spec that could not be checked at all.
-UNCHECKED_RULE = "spec/unchecked"
+UNCHECKED_RULE = "run-unchecked"
 #: Rule for a limit whose measurement could not be made.
-MEASUREMENT_RULE = "NC301"
+MEASUREMENT_RULE = "analysis-301"
 
 
 def _artifact(path: str) -> dict[str, str]:
@@ -77,13 +82,18 @@ def _location(path: str, line: int | None = None, column: int | None = None) -> 
     return {"physicalLocation": physical}
 
 
+def limit_rule(kind: str) -> str:
+    """The rule id of a failed limit of ``kind`` (``group_delay`` → ``limit-group-delay``)."""
+    return LIMIT_RULE_PREFIX + kind.replace("_", "-")
+
+
 def _level(severity: str) -> str:
     return severity if severity in ("error", "warning") else "note"
 
 
 def _limit_result(spec: SpecResult, lim: LimitResult) -> dict[str, Any]:
     if lim.status is Status.FAIL:
-        rule = f"limit/{lim.kind}"
+        rule = limit_rule(lim.kind)
         text = f"{spec.label}: limit '{lim.name}' is not met: {limit_summary(lim)}."
         if lim.message:
             text += f" {lim.message}"
@@ -133,8 +143,8 @@ def _caution_result(caution: Caution, fallback_path: str | None) -> dict[str, An
 
 
 def _rule(rule_id: str, level: str) -> dict[str, Any]:
-    if rule_id.startswith("limit/"):
-        kind = rule_id.split("/", 1)[1]
+    if rule_id.startswith(LIMIT_RULE_PREFIX):
+        kind = rule_id[len(LIMIT_RULE_PREFIX):].replace("-", " ")
         text = f"A {kind} limit of the spec is not met."
     elif rule_id == UNCHECKED_RULE:
         text = "The spec could not be checked (netlist, spec or solve error)."
@@ -176,7 +186,7 @@ def build_log(result: CheckResult) -> dict[str, Any]:
     for caution in result.cautions:
         add_caution(caution, None)
     if hazard_warranted(result.specs):
-        add_caution(Caution("safety", HAZARD_CAUTION, HAZARD_SEVERITY), None)
+        add_caution(Caution(GENERAL_CAUTION_CODE, HAZARD_CAUTION, HAZARD_SEVERITY), None)
 
     levels: dict[str, str] = {}
     for entry in results:

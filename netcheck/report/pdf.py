@@ -70,11 +70,11 @@ def require_libraries() -> None:
             raise RenderError(
                 f"the PDF report needs the Python package {err.name or name}, which is not "
                 "installed: reinstall netcheck with pip (it is one of its dependencies)",
-                code="NC400") from None
+                code="run-400") from None
         except OSError as err:  # weasyprint could not load a system library
             detail = " ".join(str(err).split())[:200]
             raise RenderError(f"the PDF report cannot load a system library ({detail}): "
-                              f"{PANGO_HINT}", code="NC400") from None
+                              f"{PANGO_HINT}", code="run-400") from None
 
 
 def _slug(text: str) -> str:
@@ -306,7 +306,7 @@ def render_per_spec(result: CheckResult, directory: str | os.PathLike,
     options : RenderOptions, optional
     guard : netcheck.render.outputs.OutputGuard, optional
         The run's inputs and other outputs: a report file that would replace one of
-        them is refused (``NC401``) and the next is written.
+        them is refused (``run-401``) and the next is written.
     on_error : callable, optional
         ``on_error(path, exception)`` for a report that could not be written (refused,
         a write error, or a bug while rendering it); the others are still written.

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from ..result import SpecResult, Status
+from ..result import STRESS_CAUTION_CODE, SpecResult, Status
 from ..netlist.units import digits_at, format_eng, format_si, tell_apart
 from .formatting import caution_view, display_path, signed, status_view
 from .lookup import analysis_block
@@ -112,4 +112,4 @@ def stress_view(s: SpecResult) -> dict[str, Any] | None:
             "The part rating checked is met."
     return {"rows": rows, "summary": summary, "status": worst.value, "mc_rows": mc_rows,
             "mc_samples": (mc or {}).get("samples"),
-            "cautions": [caution_view(c) for c in s.cautions if c.code == "stress"]}
+            "cautions": [caution_view(c) for c in s.cautions if c.code == STRESS_CAUTION_CODE]}

@@ -328,5 +328,5 @@ def tolerance_view(s: SpecResult, with_plots: bool = True) -> dict[str, Any] | N
         "mc": None if mc is None else _monte_carlo_view(s, mc, nominal, wc),
         "wc": None if wc is None else _worst_case_view(s, wc, nominal, tolerances),
         "plots": (plot,) if plot is not None else (),
-        "cautions": [caution_view(c) for c in s.cautions if c.code in ("NC202",)],
+        "cautions": [caution_view(c) for c in s.cautions if c.code in ("spec-202",)],
     }

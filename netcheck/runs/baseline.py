@@ -27,7 +27,7 @@ BASELINE_MAX_BYTES = 256 * 1024 * 1024
 class BaselineError(NetcheckError, ValueError):
     """A baseline result cannot be used: unreadable, not JSON, or not ``netcheck.result/1``."""
 
-    code = "NC411"
+    code = "run-411"
 
 
 @dataclass(frozen=True, slots=True)

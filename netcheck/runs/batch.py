@@ -2,7 +2,7 @@
 
 One broken input never costs the others: :func:`expand_jobs` and :func:`run_job` never
 raise, every spec and variant is judged or becomes its own error result, and a worker
-process that dies costs only the job it was running (NC420).
+process that dies costs only the job it was running (run-420).
 
 The names live in :mod:`netcheck.runs.variant_table` (:class:`Job`, the CSV table),
 :mod:`netcheck.runs.jobs` (specs and their variants into jobs, :func:`run_job`) and

@@ -22,7 +22,7 @@ GIT_TIMEOUT_S = 30.0
 class GitError(NetcheckError):
     """git could not say what changed: not a work tree, unknown revision, git missing or hung."""
 
-    code = "NC410"
+    code = "run-410"
 
 
 @dataclass(frozen=True, slots=True)

@@ -7,8 +7,8 @@ Two pure library pieces the ``check`` command builds on:
 * :func:`compare_baseline` compares two ``netcheck.result/1`` documents limit by limit
   and reports every margin that shrank by more than a threshold, even while it passes.
 
-Errors: :class:`GitError` (code ``NC410``) when git cannot answer (not a repository,
-unknown revision, git missing or too slow); :class:`BaselineError` (code ``NC411``)
+Errors: :class:`GitError` (code ``run-410``) when git cannot answer (not a repository,
+unknown revision, git missing or too slow); :class:`BaselineError` (code ``run-411``)
 when a baseline file is unreadable, not JSON, or not a netcheck result.
 """
 

@@ -1,6 +1,6 @@
 """Executors that run many jobs: in this process, in local worker processes or on Dask.
 
-A worker process that dies costs only the job it was running (NC420); results come back
+A worker process that dies costs only the job it was running (run-420); results come back
 in the jobs' order (:func:`run_all`).
 """
 
@@ -60,12 +60,12 @@ class SerialExecutor:
 
 
 def lost_result(job: Job, how: str) -> SpecResult:
-    """The NC420 result of a job whose worker process was lost."""
+    """The run-420 result of a job whose worker process was lost."""
     from ..analyses.nominal import error_result
 
     err = NetcheckError(f"worker process lost: {how}; the job was not checked (a job that "
                         "runs out of memory is killed by the system: lower its sweep "
-                        "points or Monte Carlo samples)", code="NC420", path=job.spec)
+                        "points or Monte Carlo samples)", code="run-420", path=job.spec)
     return error_result(job.spec, err, job.netlist or "", variant=job.variant)
 
 
@@ -123,7 +123,7 @@ class LocalExecutor:
     Workers end with this process (even when it is killed). A worker that dies costs
     only its job: the jobs it did not finish are run again in a fresh pool, the one it
     was running alone in a pool of its own; a job that kills its worker there too gets
-    an NC420 result. ``task`` is the function run per job (run_job, or a stand-in).
+    an run-420 result. ``task`` is the function run per job (run_job, or a stand-in).
     """
 
     def __init__(self, workers: int | None = None,
@@ -204,8 +204,8 @@ class LocalExecutor:
 class DaskExecutor:
     """Runs jobs on an existing Dask distributed scheduler at ``address``.
 
-    A job whose worker dies (KilledWorker) or that the cluster loses becomes an NC420
-    result, any other exception from its future an NC500 result; the other jobs run
+    A job whose worker dies (KilledWorker) or that the cluster loses becomes an run-420
+    result, any other exception from its future an internal-500 result; the other jobs run
     on. A bad address or an unreachable scheduler is a SpecError before any job runs.
     """
 
@@ -219,7 +219,7 @@ class DaskExecutor:
         except ImportError as err:  # pragma: no cover - depends on the install
             raise SpecError("--cluster needs Dask distributed, which is not installed: run "
                             "pip install '.[cluster]' in the netcheck checkout",
-                            code="NC200") from err
+                            code="spec-200") from err
         from concurrent.futures import CancelledError
 
         from ..analyses.nominal import failure_result
@@ -228,7 +228,7 @@ class DaskExecutor:
             client = Client(self.address, timeout="20s", set_as_default=False)
         except (OSError, ValueError, TypeError) as err:
             raise SpecError(f"cannot reach the Dask scheduler at {self.address!r}: {err}",
-                            code="NC200") from None
+                            code="spec-200") from None
         try:
             futures = client.map(self.task, list(jobs), pure=False)
             out = []

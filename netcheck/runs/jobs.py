@@ -27,7 +27,7 @@ from .variant_table import MAX_VARIANT_ROWS, Job, read_variant_table, shown_name
 __all__ = ["Job", "expand_jobs", "run_job", "read_variant_table", "VARIANT_KEYS",
            "MAX_VARIANT_ROWS", "MAX_VARIANTS", "MAX_GLOB_MATCHES"]
 
-#: Budgets (NC205, docs/spec-format.md#budgets; rows of one table:
+#: Budgets (spec-205, docs/spec-format.md#budgets; rows of one table:
 #: :data:`~netcheck.runs.variant_table.MAX_VARIANT_ROWS`): variants of one spec (table
 #: rows, sets and netlists together),
 MAX_VARIANTS = 100_000
@@ -48,7 +48,7 @@ def _glob_netlists(spec_path: str, patterns: list[str], root: Path, why: str,
         if ".." in parts[magic:]:
             raise variant_error(spec_path, key, f"{printable(pattern)!r}: '..' after a "
                                 "wildcard could leave the design root; write the folder "
-                                "out", "NC204")
+                                "out", "spec-204")
         # the fixed folder of the pattern must be inside before anything is listed
         confine(str(Path(*parts[:magic])) if magic else ".", base, key, spec_path, root, why,
                 shown=pattern)
@@ -58,7 +58,7 @@ def _glob_netlists(spec_path: str, patterns: list[str], root: Path, why: str,
             if listed > MAX_GLOB_MATCHES:
                 raise variant_error(spec_path, key, f"{printable(pattern)!r} matches more "
                                     f"than {MAX_GLOB_MATCHES:,} files, over the budget of "
-                                    f"{MAX_GLOB_MATCHES:,} netlists a spec", "NC205")
+                                    f"{MAX_GLOB_MATCHES:,} netlists a spec", "spec-205")
             if not os.path.isdir(m):
                 matches.append(m)
         if not matches:
@@ -86,7 +86,7 @@ def _variant_jobs(spec_path: str, table: object, design_root: str | None = None)
     jobs += _glob_netlists(spec_path, patterns, root, why, design_root)
     if len(jobs) > MAX_VARIANTS:
         rd.fail("", f"{len(jobs):,} variants, over the budget of {MAX_VARIANTS:,} a spec",
-                code="NC205")
+                code="spec-205")
     dupes = sorted(n for n, count in Counter(j.variant for j in jobs).items() if count > 1)
     if dupes:
         rd.fail("", f"variant names must be unique; repeated: {shown_names(dupes)}")
@@ -100,7 +100,7 @@ def expand_jobs(spec_paths: Sequence[str], design_root: str | None = None,
 
     Never raises: a spec whose variants are broken, over a budget or outside the design
     root (``design_root``: the explicit root, ``--root``) yields an error SpecResult in
-    its place; running out of memory NC421, a bug NC500. ``allow_negative`` (the command
+    its place; running out of memory run-421, a bug internal-500. ``allow_negative`` (the command
     line's ``--allow-negative``) accepts negative R, L and C values in every job, as a
     spec's own ``allow_negative = true`` does for that spec.
     """

@@ -16,7 +16,7 @@ from ..netlist.units import UnitError, parse_value
 
 __all__ = ["Job", "read_variant_table", "MAX_VARIANT_ROWS", "variant_error", "shown_names"]
 
-#: Budget (NC205, docs/spec-format.md#budgets): rows of one variants table
+#: Budget (spec-205, docs/spec-format.md#budgets): rows of one variants table
 MAX_VARIANT_ROWS = 100_000
 
 
@@ -43,7 +43,7 @@ class Job:
     plot_detail: bool = True
 
 
-def variant_error(path: str, where: str, message: str, code: str = "NC202") -> SpecError:
+def variant_error(path: str, where: str, message: str, code: str = "spec-202") -> SpecError:
     """A SpecError in the spec at ``path``, placed at the key ``where`` of its variants."""
     return SpecError(f"{where}: {message}", code=code, path=path, where=where)
 
@@ -64,7 +64,7 @@ def _read_table_text(spec_path: str, csv_path: Path) -> str:
         hint = ("; save the table as UTF-8 (a spreadsheet's 'CSV UTF-8' format, or "
                 "iconv -f latin1 -t utf-8)") if "not UTF-8 text" in err.message else ""
         raise variant_error(spec_path, "variants.table", f"{csv_path}: {err.message}{hint}",
-                            code=err.code if err.code != "NC200" else "NC202") from None
+                            code=err.code if err.code != "spec-200" else "spec-202") from None
     return text.removeprefix("\ufeff")  # the byte-order mark spreadsheets write
 
 
@@ -81,12 +81,12 @@ def read_variant_table(spec_path: str, csv_path: str | Path,
     SpecError
         At ``variants.table``, naming the file and its line: unreadable or not UTF-8,
         a bad header or cell, a field over csv's size limit, more than
-        :data:`MAX_VARIANT_ROWS` rows (NC205).
+        :data:`MAX_VARIANT_ROWS` rows (spec-205).
     """
     csv_path = Path(csv_path)
     text = _read_table_text(spec_path, csv_path)
     digest = hashlib.sha256(text.encode("utf-8")).hexdigest()
-    fail = lambda line, msg, code="NC202": variant_error(  # noqa: E731
+    fail = lambda line, msg, code="spec-202": variant_error(  # noqa: E731
         spec_path, "variants.table", f"{csv_path}:{line}: {msg}", code)
     seen: list[str] = []
 
@@ -128,7 +128,7 @@ def read_variant_table(spec_path: str, csv_path: str | Path,
             continue
         if len(jobs) >= MAX_VARIANT_ROWS:
             raise fail(line, f"more than {MAX_VARIANT_ROWS:,} variant rows, over the budget "
-                       f"of {MAX_VARIANT_ROWS:,} rows a table; split the family", "NC205")
+                       f"of {MAX_VARIANT_ROWS:,} rows a table; split the family", "spec-205")
         if len(row) != len(header):
             raise fail(line, f"{len(row)} fields, header has {len(header)}")
         name = row[0].strip()

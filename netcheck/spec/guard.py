@@ -1,8 +1,8 @@
 """Budgets and the design root of spec files: checks made before any work is done.
 
 Re-exported by :mod:`netcheck.spec`; :mod:`netcheck.runs.batch` uses the same checks for
-variant tables and netlist globs. Budget errors are NC205, paths that leave the design
-root NC204 (docs/spec-format.md#budgets, #design-root). The budgets cover the sweep,
+variant tables and netlist globs. Budget errors are spec-205, paths that leave the design
+root spec-204 (docs/spec-format.md#budgets, #design-root). The budgets cover the sweep,
 the nesting and table counts of the TOML, and the length of every text (a title or a
 name reaches every report): :data:`MAX_TEXT_CHARS`, :data:`MAX_PATH_CHARS` for paths,
 and :data:`MAX_STRING_WRITTEN` for a string or bare key as written, which is checked
@@ -27,7 +27,7 @@ __all__ = ["MAX_SWEEP_POINTS", "MIN_SWEEP_POINTS", "MAX_FREQUENCY_HZ", "MIN_FREQ
            "whole_number", "nesting_depth", "table_depth", "design_root",
            "resolve_design_root", "inside_root", "confine"]
 
-#: Budgets, checked before any work is done (NC205; docs/spec-format.md#budgets).
+#: Budgets, checked before any work is done (spec-205; docs/spec-format.md#budgets).
 #: The most points a sweep grid may have (8 bytes a point and far more per solve).
 MAX_SWEEP_POINTS = 1_000_000
 #: The fewest: both ends and at least one frequency between them.
@@ -87,9 +87,9 @@ def validate_sweep(start_hz: float, stop_hz: float, points_per_decade: int) -> N
     Raises
     ------
     SpecError
-        NC202 for a value that is not a finite number or a whole number (a whole-valued
+        spec-202 for a value that is not a finite number or a whole number (a whole-valued
         float such as ``1e9`` is judged as the whole number it is), or a start not
-        below the stop; NC205 for a frequency outside [:data:`MIN_FREQUENCY_HZ`,
+        below the stop; spec-205 for a frequency outside [:data:`MIN_FREQUENCY_HZ`,
         :data:`MAX_FREQUENCY_HZ`] or a grid of fewer than :data:`MIN_SWEEP_POINTS` or more
         than :data:`MAX_SWEEP_POINTS` points. ``where`` names the sweep key
         (``sweep.stop``); the message stands alone, so a command-line front end can show
@@ -101,15 +101,15 @@ def validate_sweep(start_hz: float, stop_hz: float, points_per_decade: int) -> N
     >>> validate_sweep(1e3, 1e308, 100)
     Traceback (most recent call last):
     ...
-    netcheck.exceptions.SpecError: sweep.stop: error NC205: stop 1e+308 Hz is above the highest sweep frequency, 1e+15 Hz
+    netcheck.exceptions.SpecError: sweep.stop: error spec-205: stop 1e+308 Hz is above the highest sweep frequency, 1e+15 Hz
     """
-    def fail(key: str, message: str, code: str = "NC205") -> None:
+    def fail(key: str, message: str, code: str = "spec-205") -> None:
         raise SpecError(message, code=code, where=f"sweep.{key}")
 
     for key, value in (("start", start_hz), ("stop", stop_hz)):
         if isinstance(value, bool) or not isinstance(value, (int, float)) \
                 or not math.isfinite(value) or value <= 0:
-            fail(key, f"{key} must be a finite frequency above 0 Hz, got {value!r}", "NC202")
+            fail(key, f"{key} must be a finite frequency above 0 Hz, got {value!r}", "spec-202")
     if start_hz < MIN_FREQUENCY_HZ:
         fail("start", f"start {start_hz:g} Hz is below the lowest sweep frequency, "
                       f"{MIN_FREQUENCY_HZ:g} Hz")
@@ -117,11 +117,11 @@ def validate_sweep(start_hz: float, stop_hz: float, points_per_decade: int) -> N
         fail("stop", f"stop {stop_hz:g} Hz is above the highest sweep frequency, "
                      f"{MAX_FREQUENCY_HZ:g} Hz")
     if start_hz >= stop_hz:
-        fail("start", f"start {start_hz:g} Hz is not below stop {stop_hz:g} Hz", "NC202")
+        fail("start", f"start {start_hz:g} Hz is not below stop {stop_hz:g} Hz", "spec-202")
     ppd = whole_number(points_per_decade)
     if ppd is None or ppd < 1:
         fail("points_per_decade", f"points_per_decade must be a whole number >= 1, "
-                                  f"got {points_per_decade!r}", "NC202")
+                                  f"got {points_per_decade!r}", "spec-202")
     n = _points(start_hz, stop_hz, ppd)
     decades = math.log10(stop_hz / start_hz)
     over = f"{start_hz:g}–{stop_hz:g} Hz ({decades:.3g} decades) at {ppd} points per decade"
@@ -137,10 +137,10 @@ def validate_sweep(start_hz: float, stop_hz: float, points_per_decade: int) -> N
 
 
 def check_count(tables: object, key: str, path: str) -> None:
-    """Refuse more than :data:`MAX_LIMITS` tables in the array ``key`` (NC205)."""
+    """Refuse more than :data:`MAX_LIMITS` tables in the array ``key`` (spec-205)."""
     if isinstance(tables, list) and len(tables) > MAX_LIMITS:
         raise SpecError(f"{key}: {len(tables):,} [[{key}]] tables, over the budget of "
-                        f"{MAX_LIMITS:,} a spec", code="NC205", path=path, where=key)
+                        f"{MAX_LIMITS:,} a spec", code="spec-205", path=path, where=key)
 
 
 def text_budget(where: str) -> tuple[int, str]:
@@ -152,7 +152,7 @@ def text_budget(where: str) -> tuple[int, str]:
 
 
 def check_text(value: object, where: str, path: str) -> None:
-    """Refuse text at key path ``where`` longer than its budget (NC205).
+    """Refuse text at key path ``where`` longer than its budget (spec-205).
 
     :data:`MAX_PATH_CHARS` for the keys in :data:`PATH_KEYS`, :data:`MAX_TEXT_CHARS`
     for any other. The message names the key and the length, never the text itself.
@@ -163,12 +163,12 @@ def check_text(value: object, where: str, path: str) -> None:
     budget, what = text_budget(where)
     if len(value) > budget:
         raise SpecError(f"{where}: {len(value):,} characters, over the budget of {budget:,} "
-                        f"characters for {what}; shorten it", code="NC205", path=path,
+                        f"characters for {what}; shorten it", code="spec-205", path=path,
                         where=where)
 
 
 def check_text_lengths(doc: dict, path: str) -> None:
-    """Refuse any text value or key of a decoded spec longer than its budget (NC205).
+    """Refuse any text value or key of a decoded spec longer than its budget (spec-205).
 
     Every string and every key at any depth is checked, in the order written, before
     any of them is used: titles and names reach every report (terminal, JSON, JUnit,
@@ -179,7 +179,7 @@ def check_text_lengths(doc: dict, path: str) -> None:
     >>> check_text_lengths({"title": "Quillmere", "limits": [{"name": "x" * 1001}]}, "q.toml")
     Traceback (most recent call last):
     ...
-    netcheck.exceptions.SpecError: q.toml: error NC205: limits[0].name: 1,001 characters, over the budget of 1,000 characters for one text value of a spec (a title, a name); shorten it
+    netcheck.exceptions.SpecError: q.toml: error spec-205: limits[0].name: 1,001 characters, over the budget of 1,000 characters for one text value of a spec (a title, a name); shorten it
     """
     stack: list[tuple[object, str]] = [(doc, "")]
     while stack:
@@ -192,7 +192,7 @@ def check_text_lengths(doc: dict, path: str) -> None:
                     raise SpecError(
                         f"{at}: a key of {len(key):,} characters ({printable(key, 40)}), over "
                         f"the budget of {MAX_TEXT_CHARS:,} characters for one key of a spec; "
-                        "shorten it", code="NC205", path=path, where=where or None)
+                        "shorten it", code="spec-205", path=path, where=where or None)
                 items.append((item, f"{where}.{key}" if where else key))
             stack.extend(reversed(items))
         elif isinstance(value, list):
@@ -389,7 +389,7 @@ def inside_root(path: str | Path, root: str | Path) -> bool:
 
 def confine(written: str, base: Path, key: str, spec_path: str, root: Path, why: str,
             shown: str | None = None) -> Path:
-    """``base / written``, refused with NC204 when it resolves outside ``root``.
+    """``base / written``, refused with spec-204 when it resolves outside ``root``.
 
     The message names the key and the path as written (``shown`` when given, such as
     the glob that matched it), never anything read from the file.
@@ -399,11 +399,11 @@ def confine(written: str, base: Path, key: str, spec_path: str, root: Path, why:
         real = Path(os.path.realpath(target))
     except (ValueError, OSError) as err:  # a NUL character, an unusable path
         raise SpecError(f"{key}: {printable(shown or written)!r} is not a usable path ({err})",
-                        code="NC202", path=spec_path, where=key) from None
+                        code="spec-202", path=spec_path, where=key) from None
     if not real.is_relative_to(root):
         raise SpecError(
             f"{key}: {printable(shown or written)!r} resolves outside the design root "
             f"{root} ({why}); every file a spec names must be inside it: move the file "
-            "in, or name a wider root with --root DIR", code="NC204", path=spec_path,
+            "in, or name a wider root with --root DIR", code="spec-204", path=spec_path,
             where=key)
     return target

@@ -89,7 +89,7 @@ _LONE_CR = re.compile(r"\r(?!\n)")
 
 
 def _lone_cr(text: str, path: str) -> None:
-    """Refuse a carriage return that is not part of a CR LF pair (NC117).
+    """Refuse a carriage return that is not part of a CR LF pair (netlist-117).
 
     TOML ends lines with LF or CR LF only, so a spec saved with classic Mac OS line
     ends (a lone CR) would otherwise get the TOML reader's bare "invalid statement".
@@ -109,9 +109,9 @@ def _lone_cr(text: str, path: str) -> None:
 def _decode(text: str, path: str) -> dict:
     """The TOML document of ``text``, its budgets checked.
 
-    Lone-CR line ends are refused (NC117), and nesting and string literals over their
-    budgets (NC205), before the TOML reader runs; text values and keys over their length
-    budget after it (NC205, located at the key:
+    Lone-CR line ends are refused (netlist-117), and nesting and string literals over their
+    budgets (spec-205), before the TOML reader runs; text values and keys over their length
+    budget after it (spec-205, located at the key:
     :func:`netcheck.spec.guard.check_text_lengths`).
     """
     _lone_cr(text, path)
@@ -121,7 +121,7 @@ def _decode(text: str, path: str) -> dict:
         column = over - (text.rfind("\n", 0, over) + 1) + 1
         raise SpecError(f"arrays and inline tables nest {depth} deep, over the nesting "
                         f"budget of {MAX_NESTING}", SourceFile(path, text).span(line, column),
-                        code="NC205", path=path)
+                        code="spec-205", path=path)
     at, length, kind = long_string(text)
     if at >= 0:
         where = key_path_at(text, at)
@@ -131,7 +131,7 @@ def _decode(text: str, path: str) -> dict:
         column = at - (text.rfind("\n", 0, at) + 1) + 1
         raise SpecError(f"{where + ': ' if where else ''}a {kind} of {length:,} characters as "
                         f"written, over the budget of {budget:,} characters for {what}; "
-                        "shorten it", SourceFile(path, text).span(line, column), code="NC205",
+                        "shorten it", SourceFile(path, text).span(line, column), code="spec-205",
                         path=path, where=where or None)
     try:
         doc = tomllib.loads(text)
@@ -139,11 +139,11 @@ def _decode(text: str, path: str) -> dict:
         raise _toml_error(path, text, err) from None
     except RecursionError:
         raise SpecError(f"the TOML nests too deeply to read (nesting budget {MAX_NESTING})",
-                        code="NC205", path=path) from None
+                        code="spec-205", path=path) from None
     depth = table_depth(doc)
     if depth > MAX_NESTING:
         raise SpecError(f"tables nest more than {MAX_NESTING} deep (dotted keys or table "
-                        f"headers), over the nesting budget of {MAX_NESTING}", code="NC205",
+                        f"headers), over the nesting budget of {MAX_NESTING}", code="spec-205",
                         path=path)
     try:
         check_text_lengths(doc, path)
@@ -163,8 +163,8 @@ def read_toml(path: str | Path) -> dict:
     Raises
     ------
     SpecError
-        Naming the file: unreadable or unusable (NC117, lone-CR line ends among them),
-        not TOML (with line and column), nested too deeply or text too long (NC205).
+        Naming the file: unreadable or unusable (netlist-117, lone-CR line ends among them),
+        not TOML (with line and column), nested too deeply or text too long (spec-205).
     """
     return _decode(read_text(path, SpecError, "spec"), str(path))
 
@@ -267,7 +267,7 @@ def locate(err: SpecError, text: str) -> SpecError:
     """``err`` with a span at the key its ``where`` names (unchanged if it has a span).
 
     The message keeps its key path, so the span replaces the path-style location and
-    the error reads ``spec.toml:12:1: error NC202: limits[3].band: ...``.
+    the error reads ``spec.toml:12:1: error spec-202: limits[3].band: ...``.
     """
     if err.span is not None or not err.where or not err.path:
         return err
@@ -289,7 +289,7 @@ def _toml_error(path: str, text: str, err: tomllib.TOMLDecodeError) -> SpecError
             line, col = int(nums[0]), int(nums[1])
             msg = head.strip()
     span = SourceFile(path, text).span(line, col) if line else None
-    return SpecError(f"not valid TOML: {msg}", span, code="NC200", path=path)
+    return SpecError(f"not valid TOML: {msg}", span, code="spec-200", path=path)
 
 
 def limit_lines(text: str) -> list[int]:
@@ -420,7 +420,7 @@ def _part_models(top: SpecReader, path: str) -> tuple[str, ...]:
                       f"got {type(raw).__name__}")
     if len(items) > MAX_LIMITS:
         top.fail(key, f"{len(items):,} names, over the budget of {MAX_LIMITS:,} a spec",
-                 code="NC205")
+                 code="spec-205")
     for i, item in enumerate(items):
         if not isinstance(item, str) or not item.strip():
             top.fail(key, f"entry {i + 1}: expected a subcircuit name, got {item!r}")
@@ -439,7 +439,7 @@ def part_models(spec: Spec, netlist: Any) -> frozenset[str]:
     Raises
     ------
     SpecError
-        NC203 at ``part_models``, naming the entry, the netlist and what it defines.
+        spec-203 at ``part_models``, naming the entry, the netlist and what it defines.
     """
     if not spec.part_models:
         return frozenset()
@@ -459,7 +459,7 @@ def part_models(spec: Spec, netlist: Any) -> frozenset[str]:
             raise SpecError(printable(
                 f"part_models: no subcircuit {entry!r} in the netlist "
                 f"{Path(spec.netlist).name} ({known}); name the .subckt of each part model",
-                TEXT_MAX), code="NC203", path=spec.path, where="part_models")
+                TEXT_MAX), code="spec-203", path=spec.path, where="part_models")
         out.update(hits)
     return frozenset(out)
 

@@ -51,7 +51,7 @@ class SpecReader:
                 close = difflib.get_close_matches(key, list(known), n=1, cutoff=0.6)
                 hint = f"; did you mean {close[0]!r}?" if close else \
                     f"; known keys: {', '.join(sorted(known))}"
-                self.fail(key, f"unknown key {key!r}{hint}", code="NC201")
+                self.fail(key, f"unknown key {key!r}{hint}", code="spec-201")
 
     def key_path(self, key: str) -> str:
         """``limits[3].band`` style path of ``key``."""
@@ -59,7 +59,7 @@ class SpecReader:
             return self.where or "(top level)"
         return f"{self.where}.{key}" if self.where else key
 
-    def fail(self, key: str, message: str, code: str = "NC202") -> None:
+    def fail(self, key: str, message: str, code: str = "spec-202") -> None:
         """Raise a SpecError located at ``key``.
 
         The message is bounded (:data:`netcheck.exceptions.TEXT_MAX` characters, a cut
@@ -79,7 +79,7 @@ class SpecReader:
         return self.table.get(key, default)
 
     def text(self, key: str, default: str | None = None, required: bool = False) -> str | None:
-        """A non-empty string value, within its length budget (NC205).
+        """A non-empty string value, within its length budget (spec-205).
 
         :data:`MAX_TEXT_CHARS` characters, :data:`MAX_PATH_CHARS` for a path
         (:func:`netcheck.spec.guard.check_text`); a whole spec has every text checked
@@ -134,7 +134,7 @@ class SpecReader:
         """A whole number ≥ ``minimum``: a TOML integer, or a whole-valued float (``1e4``).
 
         A float such as ``1e9`` is the whole number it writes, so it meets the budget
-        of its key (NC205, with the number and the budget) like ``1000000000`` does,
+        of its key (spec-205, with the number and the budget) like ``1000000000`` does,
         not a type error; ``7.5`` is refused as not whole.
         """
         value = self.table.get(key, default)

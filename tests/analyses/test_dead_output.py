@@ -1,4 +1,4 @@
-"""An output with no signal in it is an error, never a PASS (NC304, NC202).
+"""An output with no signal in it is an error, never a PASS (analysis-304, spec-202).
 
 References: a node that no element connects to the driven part of a circuit carries no
 signal (Kirchhoff's laws; common practice, no source); a bridge of two dividers
@@ -72,7 +72,7 @@ def check(tmp_path, netlist: str, output: str):
 def test_a_node_against_itself_is_refused_at_the_key(tmp_path, output, says):
     res = check(tmp_path, RC, output)
     assert res.status is Status.ERROR and not res.limits
-    assert "n.toml:4:1: error NC202: output: " in res.error and says in res.error
+    assert "n.toml:4:1: error spec-202: output: " in res.error and says in res.error
 
 
 @pytest.mark.parametrize("output", ['"spare"', '["gnd", "0"]'])
@@ -80,7 +80,7 @@ def test_an_undriven_output_is_no_signal(tmp_path, output):
     # reference: no element joins 'spare' (or ground) to VIN: V = 0 at every frequency
     res = check(tmp_path, RC, output)
     assert res.status is Status.ERROR and not res.limits
-    assert "n.toml:4:1: error NC304: output: no signal" in res.error
+    assert "n.toml:4:1: error analysis-304: output: no signal" in res.error
     assert "exactly zero at every frequency from 10.00 Hz to 1.000 MHz" in res.error
 
 
@@ -89,7 +89,7 @@ def test_a_balanced_bridge_is_no_signal(tmp_path):
     # rounding noise some 300 dB down, below the rounding floor of the solve
     assert 1.3e3 / 2.7e3 == pytest.approx(3.9e3 / 8.1e3, rel=1e-15)
     res = check(tmp_path, bridge(C4_BALANCED), '["a", "b"]')
-    assert res.status is Status.ERROR and "NC304" in res.error
+    assert res.status is Status.ERROR and "analysis-304" in res.error
     assert "below the rounding floor of the solve" in res.error
 
 
@@ -113,7 +113,7 @@ def test_a_lossless_resonance_is_an_error_not_a_crash(tmp_path):
     # reference: an LC section with no resistance has its poles on the jω axis at
     # f0 = 1/(2π√(LC)) (closed form, series LC): |H| is unbounded there and the
     # half-power edges meet, so bandwidth and Q cannot be measured. It used to end in
-    # NC500 (ZeroDivisionError); it is a measurement error naming the peak
+    # internal-500 (ZeroDivisionError); it is a measurement error naming the peak
     (tmp_path / "n.cir").write_text("Quillmere lossless LC\nVIN in 0 AC 1\nL1 in out 1m\n"
                                     "C1 out 0 1u\n.end\n")
     (tmp_path / "n.toml").write_text(SPEC.format(output='"out"').split("[[limits]]")[0]
@@ -121,7 +121,7 @@ def test_a_lossless_resonance_is_an_error_not_a_crash(tmp_path):
                                      'center_tolerance = "5%"\n')
     res = check_spec(str(tmp_path / "n.toml"))
     f0 = 1 / (2 * math.pi * math.sqrt(1e-3 * 1e-6))
-    assert res.status is Status.ERROR and not res.error  # the row carries it, no NC500
+    assert res.status is Status.ERROR and not res.error  # the row carries it, no internal-500
     (row,) = res.limits
     assert row.status is Status.ERROR
     assert "half-power edges coincide" in row.message

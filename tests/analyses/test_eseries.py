@@ -1,4 +1,4 @@
-"""Tests of netcheck.analyses.eseries: the IEC 60063 tables, tolerance steps, neighbours and NC154."""
+"""Tests of netcheck.analyses.eseries: the IEC 60063 tables, tolerance steps, neighbours and netlist-154."""
 
 from __future__ import annotations
 
@@ -235,7 +235,7 @@ class TestCheckPreferred:
     def test_message(self) -> None:
         got = check_preferred([("C3", "C", 4.8e-9, 0.05, None)])
         assert got == [Diagnostic(
-            "NC154",
+            "netlist-154",
             "C3 = 4.8 nF is not an E24 value (5 % parts); nearest E24 values: 4.7 nF, 5.1 nF",
             None)]
         assert got[0].severity == "warning"
@@ -247,7 +247,7 @@ class TestCheckPreferred:
         assert diag.span is span
         assert diag.message == ("R1 = 9.9 kΩ is not an E24 value (5 % parts); "
                                 "nearest E24 values: 9.1 kΩ, 10 kΩ")
-        assert diag.format().startswith("lpf.cir:2:1: warning NC154: R1 = 9.9 kΩ")
+        assert diag.format().startswith("lpf.cir:2:1: warning netlist-154: R1 = 9.9 kΩ")
 
     @pytest.mark.parametrize("part, message", [
         (("L2", "L", 4.7e-6, 0.01, None),
@@ -278,7 +278,7 @@ class TestCheckPreferred:
         ]
         got = check_preferred(parts)
         assert [d.message.split(" ", 1)[0] for d in got] == ["R1", "C2"]
-        assert all(d.code == "NC154" for d in got)
+        assert all(d.code == "netlist-154" for d in got)
 
     def test_empty(self) -> None:
         assert check_preferred([]) == []

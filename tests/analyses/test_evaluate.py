@@ -204,7 +204,7 @@ class TestErrorResults:
                         '[sweep]\nstart = 1\nstop = 10\n')
         result = check_spec(str(path))
         assert result.status is Status.ERROR and result.limits == ()
-        assert "NC104" in result.error and result.cautions[0].code == "NC104"
+        assert "netlist-104" in result.error and result.cautions[0].code == "netlist-104"
 
     def test_measurement_that_cannot_be_made_is_an_error_limit(self, tmp_path):
         # a resonance limit on a monotone RC low-pass: no peak inside the sweep

@@ -95,7 +95,7 @@ def test_series_rlc_gets_it_naming_the_capacitor_and_q(capsys, tmp_path, design)
     out = run(capsys, tmp_path, design["rlc"])
     doc = json.loads(out["json"])
     (hazard,) = [c for c in doc["specs"][0]["cautions"] if c["severity"] == "caution"]
-    assert hazard["code"] == "hazard"
+    assert hazard["code"] == "analysis-voltage"
     # C1 and L1 see the same |V| at ω0 (closed form, series RLC: |V_L| = |V_C| = Q·|V_in|);
     # below ω0 the capacitor's is the larger, so C1 leads
     assert hazard["message"].startswith("C1 sees ")
@@ -111,7 +111,7 @@ def test_series_rlc_gets_it_naming_the_capacitor_and_q(capsys, tmp_path, design)
     assert out["md"].count(HAZARD_CAUTION) == 1
     assert out["junit"].count(HAZARD_CAUTION) == 1
     remarks = json.loads(out["sarif"])["runs"][0]["properties"]["cautions"]
-    assert [r["code"] for r in remarks] == ["hazard", "safety"]
+    assert [r["code"] for r in remarks] == ["analysis-voltage", "analysis-hazard"]
 
 
 def test_magnification_matches_the_closed_form():

@@ -125,11 +125,11 @@ def stress_rows(result) -> dict[str, object]:
 
 
 def lint(result) -> list[str]:
-    return [c.message for c in result.cautions if c.code == "NC154"]
+    return [c.message for c in result.cautions if c.code == "netlist-154"]
 
 
 def stress_cautions(result) -> list[str]:
-    return [c.message for c in result.cautions if c.code == "stress"]
+    return [c.message for c in result.cautions if c.code == "analysis-stress"]
 
 
 class TestCrystalFilter:
@@ -204,13 +204,13 @@ class TestCrystalFilter:
 class TestSpecKey:
     def test_unknown_subcircuit_is_a_spec_error_at_the_key(self, tmp_path):
         # (b) Reference: docs/spec-format.md, "Part models": an entry that names no
-        # subcircuit of the netlist is NC203 at the key, with file and line.
+        # subcircuit of the netlist is spec-203 at the key, with file and line.
         path = write(tmp_path, FILTER, 'part_models = ["QX10", "QX20"]\n')
         result = check_spec(str(path), design_root=str(tmp_path))
         assert result.status is Status.ERROR
         line = 1 + path.read_text().splitlines().index('part_models = ["QX10", "QX20"]')
         assert f"{path}:{line}:" in result.error
-        assert "NC203" in result.error and "part_models" in result.error
+        assert "spec-203" in result.error and "part_models" in result.error
         assert "'QX20'" in result.error and "QX10" in result.error   # what it does define
 
     @pytest.mark.parametrize("value, fragment", [
@@ -277,7 +277,7 @@ class TestHazardStillRaised:
 class TestElaboration:
     def test_flat_circuit_is_unchanged_by_the_declaration(self):
         # a node inside the model with one connection, and a port used by one card only:
-        # the same NC152 warnings with the declaration as without
+        # the same netlist-152 warnings with the declaration as without
         odd = FILTER.replace(".ends QX10\n", "RX a dangle 1meg\n.ends QX10\n")
         for text in (FILTER, odd):
             netlist = load_netlist(text)
@@ -285,7 +285,7 @@ class TestElaboration:
             assert plain.elements == marked.elements
             assert plain.nodes == marked.nodes
             assert plain.diagnostics == marked.diagnostics
-        assert any(d.code == "NC152" for d in marked.diagnostics)
+        assert any(d.code == "netlist-152" for d in marked.diagnostics)
         (model,) = marked.part_models
         assert (model.name, model.subckt, model.ports, model.nodes) == \
             ("X1", "QX10", ("a", "b"), ("a", "out"))

@@ -88,35 +88,35 @@ class TestParseStress:
 
     @pytest.mark.parametrize("tables, where, fragment, code", [
         ([{"parts": "C*", "max_voltage": 1}],
-         "stress[0].source_amplitude", "missing in the first [[stress]] table", "NC202"),
+         "stress[0].source_amplitude", "missing in the first [[stress]] table", "spec-202"),
         ([{"source_amplitude": 1, "parts": "C*", "max_voltage": 1},
           {"parts": "L*", "max_curent": 1}],
-         "stress[1].max_curent", "did you mean 'max_current'?", "NC201"),
+         "stress[1].max_curent", "did you mean 'max_current'?", "spec-201"),
         ([{"source_amplitude": 1, "parts": "L*", "max_voltage": 1, "max_current": 1}],
-         "stress[0].max_current", "only one of", "NC202"),
+         "stress[0].max_current", "only one of", "spec-202"),
         ([{"source_amplitude": 1, "parts": "L*"}],
-         "stress[0]", "needs one of max_voltage, max_current or max_power", "NC202"),
+         "stress[0]", "needs one of max_voltage, max_current or max_power", "spec-202"),
         ([{"source_amplitude": 1, "parts": "C*", "max_voltage": 1},
           {"parts": "L*", "max_current": -1}],
-         "stress[1].max_current", "must be > 0", "NC202"),
+         "stress[1].max_current", "must be > 0", "spec-202"),
         ([{"source_amplitude": 0, "parts": "C*", "max_voltage": 1}],
-         "stress[0].source_amplitude", "must be > 0", "NC202"),
+         "stress[0].source_amplitude", "must be > 0", "spec-202"),
         ([{"source_amplitude": "rms:", "parts": "C*", "max_voltage": 1}],
-         "stress[0].source_amplitude", "no value after 'rms'", "NC202"),
+         "stress[0].source_amplitude", "no value after 'rms'", "spec-202"),
         ([{"source_amplitude": "pk:10", "parts": "C*", "max_voltage": 1}],
-         "stress[0].source_amplitude", "unknown amplitude prefix 'pk'", "NC202"),
+         "stress[0].source_amplitude", "unknown amplitude prefix 'pk'", "spec-202"),
         ([{"source_amplitude": "rms:-3", "parts": "C*", "max_voltage": 1}],
-         "stress[0].source_amplitude", "must be > 0", "NC202"),
+         "stress[0].source_amplitude", "must be > 0", "spec-202"),
         ([{"source_amplitude": "ten", "parts": "C*", "max_voltage": 1}],
-         "stress[0].source_amplitude", "not a number", "NC202"),
+         "stress[0].source_amplitude", "not a number", "spec-202"),
         ([{"source_amplitude": 1, "max_voltage": 1}],
-         "stress[0].parts", "missing (required)", "NC202"),
+         "stress[0].parts", "missing (required)", "spec-202"),
         ([{"source_amplitude": 1, "parts": " ", "max_voltage": 1}],
-         "stress[0].parts", "non-empty string", "NC202"),
+         "stress[0].parts", "non-empty string", "spec-202"),
         ([{"source_amplitude": 1, "parts": "C*", "max_power": "lots"}],
-         "stress[0].max_power", "not a number", "NC202"),
-        ({"parts": "C*"}, "stress", "array of tables", "NC202"),
-        ([5], "stress[0]", "expected a table", "NC202"),
+         "stress[0].max_power", "not a number", "spec-202"),
+        ({"parts": "C*"}, "stress", "array of tables", "spec-202"),
+        ([5], "stress[0]", "expected a table", "spec-202"),
     ])
     def test_errors_carry_key_paths(self, tables, where, fragment, code):
         with pytest.raises(SpecError) as info:
@@ -352,7 +352,7 @@ class TestCautions:
         # C1 (≈316 V, 31.6×) and L1 (same magnitude) are called out; R1 and V1 see 10 V.
         assert [c.message.split(" ")[0] for c in cautions] == ["L1", "C1"]
         c = cautions[1]
-        assert c.severity == "caution" and c.code == "stress"
+        assert c.severity == "caution" and c.code == "analysis-stress"
         assert c.message.startswith("C1 sees 316 V peak at 50.3 kHz, 31.6× the 10 V peak "
                                     "input (above 50 V).")
         assert "follow local codes and licensed practice" in c.message

@@ -77,7 +77,7 @@ def _cli(capsys, *args: str) -> tuple[int, str, str]:
 
 def _refused(result, *words: str) -> None:
     """The spec was refused with a located error (file:line) that says all of ``words``."""
-    assert result.error is not None and re.search(r"t\.toml:\d+:\d+: error NC2", result.error)
+    assert result.error is not None and re.search(r"t\.toml:\d+:\d+: error spec-2", result.error)
     for word in words:
         assert word in result.error, (word, result.error)
 
@@ -120,7 +120,7 @@ def test_bad_tolerance_value_is_a_located_spec_error(tmp_path, value, words):
                  '[analysis]\nmode = ["worst_case"]\n' + Q_LIMIT)
     res = check_spec(path)
     assert res.status is Status.ERROR
-    assert re.search(r"t\.toml:\d+:\d+: error NC202: tolerances\.default\.R: ", res.error)
+    assert re.search(r"t\.toml:\d+:\d+: error spec-202: tolerances\.default\.R: ", res.error)
     assert words in res.error
 
 
@@ -128,7 +128,7 @@ def test_bad_tolerance_exits_2_not_3(tmp_path, capsys):
     path = _spec(tmp_path, '[tolerances]\ndefault = { R = "-1%" }\n' + Q_LIMIT)
     rc, _, err = _cli(capsys, path)
     assert rc == 2
-    assert "Traceback" not in err and "NC202" in err
+    assert "Traceback" not in err and "spec-202" in err
 
 
 @pytest.mark.parametrize("letter", ["X", "RR", "V"])
@@ -154,7 +154,7 @@ def test_zero_tolerances_warn_that_no_analysis_ran(tmp_path):
     res = check_spec(path)
     assert res.status is Status.PASS
     assert "worst_case" not in _tol(res) and "monte_carlo" not in _tol(res)
-    assert any("no part has a tolerance" in c.message and c.code == "NC250"
+    assert any("no part has a tolerance" in c.message and c.code == "spec-250"
                for c in res.cautions)
 
 
@@ -171,7 +171,7 @@ def test_parts_glob_matching_nothing_is_nc203(tmp_path):
                  '[analysis]\nmode = ["worst_case"]\n' + Q_LIMIT)
     res = check_spec(path)
     assert res.status is Status.ERROR
-    assert "NC203" in res.error and "tolerances.parts.ZZ*" in res.error
+    assert "spec-203" in res.error and "tolerances.parts.ZZ*" in res.error
 
 
 SUB = """Quillmere test: the series section as a subcircuit

@@ -30,7 +30,7 @@ def main(argv: list[str]) -> int:
 
 @pytest.fixture
 def broken(tmp_path) -> Path:
-    """A spec with a misspelt top-level key (NC201)."""
+    """A spec with a misspelt top-level key (spec-201)."""
     path = tmp_path / "broken.toml"
     path.write_text('netlst = "x.cir"\nsource = "VIN"\noutput = "out"\n'
                     '[sweep]\nstart = 10\nstop = 100\n')
@@ -65,14 +65,14 @@ def test_broken_spec_is_bad_input_and_the_others_are_still_checked(capsys, broke
     assert "FAIL  Transducer receive filter, 40 kHz, rev A" in captured.out
     assert "1 spec not checked" in captured.out
     # the error also goes to stderr, compiler-style
-    assert f"{broken}:1:1: error NC201: netlst: unknown key 'netlst'; did you mean " \
+    assert f"{broken}:1:1: error spec-201: netlst: unknown key 'netlst'; did you mean " \
            "'netlist'?" in captured.err
 
 
 def test_missing_path_is_bad_input(capsys, tmp_path):
     assert main(["check", ONE, str(tmp_path / "absent.toml")]) == BAD_INPUT
     captured = capsys.readouterr()
-    assert "absent.toml: error NC200" in captured.err
+    assert "absent.toml: error spec-200" in captured.err
     assert "PASS  Sallen-Key low-pass" in captured.out
 
 
@@ -166,7 +166,7 @@ def test_internal_error_exit_code(monkeypatch, capsys, tmp_path):
     assert "RuntimeError: simulated bug" in err
     doc = json.loads((tmp_path / "r.json").read_text("utf-8"))
     assert doc["specs"][0]["status"] == "error"
-    assert "NC500" in {c["code"] for c in doc["specs"][0]["cautions"]}
+    assert "internal-500" in {c["code"] for c in doc["specs"][0]["cautions"]}
 
 
 @pytest.mark.parametrize("args, code", [(["specs/sk_lowpass.toml", "specs/rx40k.toml"], OK),
@@ -185,15 +185,21 @@ def test_exit_status_of_the_process(broken, args, code):
 
 
 def test_every_diagnostic_code_has_an_entry_in_errors_md():
+    import re
+
     from netcheck.exceptions import CODES
 
     doc = (ROOT / "docs" / "errors.md").read_text("utf-8")
     for code in CODES:
-        anchor = f'<a id="{code}"></a>\n### {code}\n\n'
+        stage, number = code.split("-")
+        # the stage names the hundreds, and the old NC code stays findable as an anchor
+        assert {"1": "netlist", "2": "spec", "3": "analysis", "4": "run",
+                "5": "internal"}[number[0]] == stage, code
+        anchor = f'<a id="{code}"></a><a id="NC{number}"></a>\n### {code} (formerly NC{number})\n\n'
         assert anchor in doc, code
         entry = doc.split(anchor)[1].split("\n<a id=")[0]
         assert len(entry.split()) >= 12, code  # a sentence on the meaning and the fix
-    documented = {part.split('"')[0] for part in doc.split('<a id="')[1:]}
+    documented = set(re.findall(r'<a id="([a-z]+-\d{3})"></a>', doc))
     assert documented == set(CODES)  # and no entry for a code that does not exist
 
 

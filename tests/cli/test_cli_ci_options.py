@@ -39,7 +39,7 @@ def test_bad_baseline_is_bad_input(tmp_path, capsys):
     bad = tmp_path / "bad.json"
     bad.write_text('{"schema": "something/else"}')
     assert main(["check", str(ROOT / "specs/rx40k.toml"), "--baseline", str(bad)]) == BAD_INPUT
-    assert "NC411" in capsys.readouterr().err
+    assert "run-411" in capsys.readouterr().err
 
 
 @pytest.mark.skipif(shutil.which("git") is None, reason="git is not installed")
@@ -67,4 +67,4 @@ def test_changed_since(tmp_path, capsys, monkeypatch):
     captured = capsys.readouterr()
     assert "tank_tia.toml" in captured.out and "rx40k.toml" not in captured.out
     assert main(["check", ".", "--changed-since", "no-such-rev"]) == BAD_INPUT
-    assert "NC410" in capsys.readouterr().err
+    assert "run-410" in capsys.readouterr().err

@@ -154,16 +154,16 @@ class TestStimulus:
                 "10k", "--ppd", "2", "--csv", "-"]
         code, out, err = sweep(capsys, *args)
         assert code == OK and out.startswith(HEADER)
-        assert f"{path}:3:11: warning NC151" in err
-        assert "warning NC153" in err  # V1 has no AC value
+        assert f"{path}:3:11: warning netlist-151" in err
+        assert "warning netlist-153" in err  # V1 has no AC value
         code, out, err = sweep(capsys, *args, "-q")
         assert code == OK and err == ""
 
 
 class TestBadInput:
-    @pytest.mark.parametrize("name,where", [("zero_resistor.cir", "4:14: error NC110"),
-                                            ("paren_value.cir", "4:11: error NC100"),
-                                            ("missing_include.cir", "2:10: error NC104")])
+    @pytest.mark.parametrize("name,where", [("zero_resistor.cir", "4:14: error netlist-110"),
+                                            ("paren_value.cir", "4:11: error netlist-100"),
+                                            ("missing_include.cir", "2:10: error netlist-104")])
     def test_bad_netlist(self, capsys, name, where):
         path = BAD / name
         code, out, err = sweep(capsys, str(path), "--source", "VIN", "--node", "out",
@@ -176,9 +176,9 @@ class TestBadInput:
         assert "Traceback" not in err
 
     @pytest.mark.parametrize("extra,message", [
-        (["--source", "VX", "--node", "out"], "error NC107: stimulus source 'VX'"),
-        (["--source", "RSENSE", "--node", "out"], "error NC107: stimulus RSENSE is not"),
-        (["--source", "VIN", "--node", "nowhere"], "error NC115: output node 'nowhere'"),
+        (["--source", "VX", "--node", "out"], "error netlist-107: stimulus source 'VX'"),
+        (["--source", "RSENSE", "--node", "out"], "error netlist-107: stimulus RSENSE is not"),
+        (["--source", "VIN", "--node", "nowhere"], "error netlist-115: output node 'nowhere'"),
     ])
     def test_bad_request(self, capsys, samples, extra, message):
         code, out, err = sweep(capsys, str(samples / "rx40k.cir"), *extra, "--start", "1k",
@@ -190,7 +190,7 @@ class TestBadInput:
         code, _, err = sweep(capsys, str(tmp_path / "nope.cir"), "--source", "V1", "--node",
                              "a", "--start", "1k", "--stop", "10k", "--ppd", "2")
         assert code == BAD_INPUT
-        assert "error NC104: cannot read netlist" in err
+        assert "error netlist-104: cannot read netlist" in err
 
     def test_start_not_below_stop(self, capsys, samples):
         code, _, err = sweep(capsys, str(samples / "rx40k.cir"), "--source", "VIN", "--node",

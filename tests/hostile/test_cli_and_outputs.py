@@ -103,7 +103,7 @@ class TestArguments:
             netcheck_main(["check", str(spec), "--jobs", value])
         assert info.value.code == BAD_INPUT
         err = capsys.readouterr().err
-        assert "error NC402: argument --jobs" in err
+        assert "error run-402: argument --jobs" in err
         no_traceback(err)
 
     def test_too_many_jobs_are_capped_with_a_note(self, tmp_path, capsys, monkeypatch):
@@ -132,7 +132,7 @@ class TestArguments:
             netcheck_main(["check", str(spec), flag, value])
         assert info.value.code == BAD_INPUT
         err = capsys.readouterr().err
-        assert f"error NC402: argument {flag}:" in err and "finite number, zero or more" in err
+        assert f"error run-402: argument {flag}:" in err and "finite number, zero or more" in err
         no_traceback(err)
 
     @pytest.mark.parametrize("address", ["http://scheduler.quillmere.invalid:8786",
@@ -146,7 +146,7 @@ class TestArguments:
             netcheck_main(["check", str(spec), "--cluster", address])
         assert info.value.code == BAD_INPUT
         err = capsys.readouterr().err
-        assert "error NC402: argument --cluster" in err
+        assert "error run-402: argument --cluster" in err
         assert "tcp://HOST:PORT or tls://HOST:PORT" in err
         no_traceback(err)
 
@@ -196,7 +196,7 @@ class TestSourceDateEpoch:
         monkeypatch.setenv("SOURCE_DATE_EPOCH", value)
         assert main(["check", str(spec), "--json", str(tmp_path / "r.json")]) == BAD_INPUT
         err = capsys.readouterr().err
-        assert "error NC402: SOURCE_DATE_EPOCH=" in err and why in err
+        assert "error run-402: SOURCE_DATE_EPOCH=" in err and why in err
         no_traceback(err)
         assert not (tmp_path / "r.json").exists()  # nothing was run
 
@@ -204,7 +204,7 @@ class TestSourceDateEpoch:
         monkeypatch.setenv("SOURCE_DATE_EPOCH", "yesterday")
         assert main(["sweep", str(ROOT / "sample_netlists" / "rx40k.cir"), "--source", "VIN",
                      "--node", "out", "--start", "1k", "--stop", "10k", "--ppd", "5"]) == BAD_INPUT
-        assert "NC402" in capsys.readouterr().err
+        assert "run-402" in capsys.readouterr().err
 
 
 class TestNothingChecked:
@@ -212,7 +212,7 @@ class TestNothingChecked:
         out = tmp_path / "r.json"
         assert main(["check", str(tmp_path / "nope.toml"), "--json", str(out)]) == BAD_INPUT
         captured = capsys.readouterr()
-        assert f"{tmp_path / 'nope.toml'}: error NC200: no such file or folder" in captured.err
+        assert f"{tmp_path / 'nope.toml'}: error spec-200: no such file or folder" in captured.err
         assert "PASS" not in captured.out
         # the requested output is still written, and says what happened
         doc = json.loads(out.read_text("utf-8"))
@@ -233,7 +233,7 @@ class TestSweepBudget:
                      "--node", "out", "--start", "1k", "--stop", "1e308", "--ppd", "5"])
         assert code == BAD_INPUT
         err = capsys.readouterr().err
-        assert err.startswith("netcheck sweep: error NC")
+        assert err.startswith("netcheck sweep: error spec-2")
         assert "--stop" in err or "stop" in err
         no_traceback(err)
 
@@ -242,7 +242,7 @@ class TestSweepBudget:
                         "VIN", "--node", "out", "--start", "1k", "--stop", "1meg", "--ppd",
                         "1000000000", "--csv", str(tmp_path / "r.csv")], memory_mb=2048)
         assert proc.returncode == BAD_INPUT, proc.stderr
-        assert "netcheck sweep: error NC" in proc.stderr and "points" in proc.stderr
+        assert "netcheck sweep: error spec-2" in proc.stderr and "points" in proc.stderr
         no_traceback(proc.stderr)
         assert not (tmp_path / "r.csv").exists()
 
@@ -255,7 +255,7 @@ def test_fifo_in_a_scanned_folder_is_reported_not_opened(tmp_path):
     proc = run_cli(["check", str(tmp_path / "designs"), "--jobs", "1", "--json",
                     str(tmp_path / "r.json")], timeout=60)
     assert proc.returncode == BAD_INPUT, proc.stderr
-    assert "stuck.toml: error NC117" in proc.stderr and "FIFO" in proc.stderr
+    assert "stuck.toml: error netlist-117" in proc.stderr and "FIFO" in proc.stderr
     no_traceback(proc.stderr)
     doc = json.loads((tmp_path / "r.json").read_text("utf-8"))
     assert sorted((Path(s["spec"]).name, s["status"]) for s in doc["specs"]) == [
@@ -267,7 +267,7 @@ def test_fifo_named_on_the_command_line_is_not_opened(tmp_path):
     os.mkfifo(tmp_path / "stuck.toml")
     proc = run_cli(["check", str(tmp_path / "stuck.toml"), "--jobs", "1"], timeout=60)
     assert proc.returncode == BAD_INPUT
-    assert "NC117" in proc.stderr
+    assert "netlist-117" in proc.stderr
     no_traceback(proc.stderr)
 
 
@@ -326,7 +326,7 @@ class TestOutputsNeverReplaceInputs:
                      other, str(tmp_path / "out" / "other.xml")])
         assert code == BAD_INPUT
         err = capsys.readouterr().err
-        assert f"{tmp_path / victim}: error NC401: output refused: this file is an input" in err
+        assert f"{tmp_path / victim}: error run-401: output refused: this file is an input" in err
         assert _digest(tmp_path / victim) == before
         assert (tmp_path / "out" / "other.xml").stat().st_size > 0
         assert not list(tmp_path.glob(".*.part"))
@@ -342,7 +342,7 @@ class TestOutputsNeverReplaceInputs:
         monkeypatch.setattr(sys.stderr, "write",
                             lambda text, w=sys.stderr.write: (order.append(text), w(text))[1])
         main(["check", str(spec), "--json", str(tmp_path / "parts.inc")])
-        refused = next(i for i, t in enumerate(order) if "NC401" in str(t))
+        refused = next(i for i, t in enumerate(order) if "run-401" in str(t))
         assert refused < order.index("run")
 
     def test_hard_and_symbolic_links_to_an_input_are_refused(self, tmp_path, capsys):
@@ -353,7 +353,7 @@ class TestOutputsNeverReplaceInputs:
         assert main(["check", str(spec), "--json", str(tmp_path / "hard.json"),
                      "--junit", str(tmp_path / "soft.xml")]) == BAD_INPUT
         err = capsys.readouterr().err
-        assert err.count("error NC401") == 2
+        assert err.count("error run-401") == 2
         assert (_digest(tmp_path / "lp.cir"), _digest(tmp_path / "parts.inc")) == before
         assert (tmp_path / "soft.xml").is_symlink()
 
@@ -365,7 +365,7 @@ class TestOutputsNeverReplaceInputs:
         capsys.readouterr()
         assert main(["check", str(spec), "--json", str(base), "--baseline", str(base)]) \
             == BAD_INPUT
-        assert "error NC401" in capsys.readouterr().err
+        assert "error run-401" in capsys.readouterr().err
         assert _digest(base) == before
 
     @pytest.mark.parametrize("option", ["--csv", "--json"])
@@ -378,7 +378,7 @@ class TestOutputsNeverReplaceInputs:
                      "--start", "10", "--stop", "10k", "--ppd", "5", option,
                      str(tmp_path / victim)])
         assert code == BAD_INPUT
-        assert "error NC401" in capsys.readouterr().err
+        assert "error run-401" in capsys.readouterr().err
         assert _digest(tmp_path / victim) == before
 
 
@@ -389,7 +389,7 @@ class TestOutputKinds:
         spec = design(tmp_path)
         assert main(["check", str(spec), "--json", os.devnull,
                      "--junit", str(tmp_path / "j.xml")]) == BAD_INPUT
-        assert "error NC401: output refused: this path is a device" in capsys.readouterr().err
+        assert "error run-401: output refused: this path is a device" in capsys.readouterr().err
         assert stat.S_ISCHR(os.stat(os.devnull).st_mode)
         assert (tmp_path / "j.xml").exists()
 
@@ -400,7 +400,7 @@ class TestOutputKinds:
         proc = run_cli(["check", str(spec), "--jobs", "1", "--json", str(tmp_path / "pipe.json")],
                        timeout=60)
         assert proc.returncode == BAD_INPUT
-        assert "NC401" in proc.stderr and "FIFO" in proc.stderr
+        assert "run-401" in proc.stderr and "FIFO" in proc.stderr
         assert stat.S_ISFIFO(os.stat(tmp_path / "pipe.json").st_mode)
 
     def test_folder_is_refused(self, tmp_path, capsys):
@@ -423,7 +423,7 @@ class TestOutputKinds:
         assert main(["check", str(spec), "--json", "-", "--summary-md", "-",
                      "--sarif", str(tmp_path / "r.sarif")]) == BAD_INPUT
         captured = capsys.readouterr()
-        assert captured.err.count("error NC401") == 2
+        assert captured.err.count("error run-401") == 2
         assert "both ask for standard output" in captured.err
         assert not captured.out.lstrip().startswith("{")  # neither document went to stdout
         assert json.loads((tmp_path / "r.sarif").read_text("utf-8"))["version"] == "2.1.0"
@@ -441,7 +441,7 @@ class TestOutputKinds:
         assert main(["check", str(spec), "--json", str(tmp_path / "blocker" / "r.json"),
                      "--junit", str(tmp_path / "j.xml"),
                      "--summary-md", str(tmp_path / "s.md")]) == BAD_INPUT
-        assert "error NC400" in capsys.readouterr().err
+        assert "error run-400" in capsys.readouterr().err
         assert (tmp_path / "j.xml").exists() and (tmp_path / "s.md").exists()
 
 
@@ -547,7 +547,7 @@ class TestExitCodes:
         doc = json.loads((tmp_path / "r.json").read_text("utf-8"))
         by_spec = {s["spec"]: s for s in doc["specs"]}
         assert by_spec[str(buggy)]["status"] == "error"
-        assert "NC500" in {c["code"] for c in by_spec[str(buggy)]["cautions"]}
+        assert "internal-500" in {c["code"] for c in by_spec[str(buggy)]["cautions"]}
         assert by_spec[str(tmp_path / "missing.toml")]["status"] == "error"
 
     def test_result_with_internal_code_gives_status_3(self, tmp_path, monkeypatch):
@@ -561,7 +561,7 @@ class TestExitCodes:
 
         def run_all(*args, **kwargs):
             return tuple(dataclasses.replace(r, status=Status.ERROR, error="bug",
-                                             cautions=(Caution("NC500", "bug", "error"),))
+                                             cautions=(Caution("internal-500", "bug", "error"),))
                          for r in real(*args, **kwargs))
         monkeypatch.setattr(netcheck.runs.batch, "run_all", run_all)
         assert main(["check", str(spec), "--json", str(tmp_path / "r.json")]) == INTERNAL
@@ -656,7 +656,7 @@ class TestBaseline:
         path.write_text("[" * 100_000 + "]" * 100_000)
         with pytest.raises(BaselineError, match="nested too deeply") as info:
             load_baseline(path)
-        assert info.value.code == "NC411" and info.value.path == str(path)
+        assert info.value.code == "run-411" and info.value.path == str(path)
 
     @pytest.mark.parametrize("margin, message", [("NaN", "NaN is not a JSON number"),
                                                  ("Infinity", "Infinity is not a JSON number"),
@@ -670,7 +670,7 @@ class TestBaseline:
                         f'"limits": [{{"name": "pass-band", "margin": {margin}}}]}}]}}')
         with pytest.raises(BaselineError, match=message) as info:
             load_baseline(path)
-        assert info.value.code == "NC411" and str(path) in info.value.format()
+        assert info.value.code == "run-411" and str(path) in info.value.format()
 
     def test_nan_margin_given_as_data(self):
         from netcheck.runs.ci import BaselineError, validate_result
@@ -687,7 +687,7 @@ class TestBaseline:
         proc = run_cli(["check", str(spec), "--jobs", "1", "--baseline", "/dev/zero",
                         "--json", str(tmp_path / "r.json")], memory_mb=2048, timeout=60)
         assert proc.returncode == BAD_INPUT
-        assert "/dev/zero" in proc.stderr and "NC411" in proc.stderr
+        assert "/dev/zero" in proc.stderr and "run-411" in proc.stderr
         no_traceback(proc.stderr)
         assert (tmp_path / "r.json").exists()  # the run went on and wrote its output
 
@@ -698,7 +698,7 @@ class TestBaseline:
         proc = run_cli(["check", str(spec), "--jobs", "1", "--baseline",
                         str(tmp_path / "base.json")], timeout=60)
         assert proc.returncode == BAD_INPUT
-        assert "base.json" in proc.stderr and "NC411" in proc.stderr
+        assert "base.json" in proc.stderr and "run-411" in proc.stderr
         no_traceback(proc.stderr)
 
     def test_bad_baseline_is_reported_before_the_run(self, tmp_path, capsys):
@@ -707,7 +707,7 @@ class TestBaseline:
         assert main(["check", str(spec), "--baseline", str(tmp_path / "base.json")]) \
             == BAD_INPUT
         err = capsys.readouterr().err
-        assert err.index("NC411") < err.index("checked 1 spec result")
+        assert err.index("run-411") < err.index("checked 1 spec result")
         no_traceback(err)
 
 

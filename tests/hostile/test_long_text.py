@@ -91,7 +91,7 @@ def run_child(args: list[str], timeout: float, memory: int = 3 * 2**30
 
 
 # ---------------------------------------------------------------------------------------
-# 1. free text of a spec has a budget (NC205), the netlist's title line is cut
+# 1. free text of a spec has a budget (spec-205), the netlist's title line is cut
 # ---------------------------------------------------------------------------------------
 
 class TestSpecTextBudget:
@@ -99,7 +99,7 @@ class TestSpecTextBudget:
         # the review's first case: title = 100 KB
         path = spec_file(tmp_path, spec_text(title="Q" * 100_000))
         err = pytest.raises(SpecError, load_spec, path).value
-        assert err.code == "NC205"
+        assert err.code == "spec-205"
         assert str(err).startswith(f"{path}:1:")
         # refused before the TOML reader decodes it: counted as written, quotes included
         assert err.message.startswith("title: a string of 100,002 characters as written")
@@ -111,7 +111,7 @@ class TestSpecTextBudget:
         assert len(spec.title) == MAX_TEXT_CHARS
         err = pytest.raises(SpecError, load_spec, spec_file(
             tmp_path, spec_text(title="Q" * (MAX_TEXT_CHARS + 1)), "over.toml")).value
-        assert err.code == "NC205" and "1,001 characters" in err.message
+        assert err.code == "spec-205" and "1,001 characters" in err.message
 
     def test_an_8_mib_limit_name_is_refused_fast(self, tmp_path):
         # the review's 8 MiB limit name: refused before the TOML reader decodes it
@@ -119,7 +119,7 @@ class TestSpecTextBudget:
         start = time.perf_counter()
         err = pytest.raises(SpecError, load_spec, path).value
         assert time.perf_counter() - start < 5
-        assert err.code == "NC205" and err.span is not None and err.span.line == 11
+        assert err.code == "spec-205" and err.span is not None and err.span.line == 11
         assert err.message.startswith("limits[0].name: a string of 8,388,610 characters")
         assert len(str(err)) < 2_000
 
@@ -129,7 +129,7 @@ class TestSpecTextBudget:
         start = time.perf_counter()
         err = pytest.raises(SpecError, load_spec, path).value
         assert time.perf_counter() - start < 5
-        assert err.code == "NC205" and err.span is not None and err.span.line == 14
+        assert err.code == "spec-205" and err.span is not None and err.span.line == 14
         assert err.message.startswith("tolerances: a key of 8,388,608 characters")
 
     def test_long_comments_cost_nothing(self, tmp_path):
@@ -149,14 +149,14 @@ class TestSpecTextBudget:
     def test_other_free_text_keys(self, tmp_path, extra, key):
         path = spec_file(tmp_path, spec_text(extra=extra.format(x="Z" * 5_000)))
         err = pytest.raises(SpecError, load_spec, path).value
-        assert err.code == "NC205" and err.message.startswith(f"{key}: 5,000 characters")
+        assert err.code == "spec-205" and err.message.startswith(f"{key}: 5,000 characters")
         assert err.span is not None  # located at the key's line
 
     def test_a_long_key_is_refused_without_echoing_it(self, tmp_path):
         extra = f'[tolerances]\nparts = {{ {"R" * 5_000} = "1%" }}\n'
         path = spec_file(tmp_path, spec_text(extra=extra))
         err = pytest.raises(SpecError, load_spec, path).value
-        assert err.code == "NC205" and "a key of 5,000 characters" in err.message
+        assert err.code == "spec-205" and "a key of 5,000 characters" in err.message
         assert "R" * 100 not in err.message
 
     def test_paths_have_their_own_budget(self, tmp_path):
@@ -166,7 +166,7 @@ class TestSpecTextBudget:
         err = pytest.raises(SpecError, check_text_lengths,
                             {"variants": {"netlists": ["x" * (MAX_PATH_CHARS + 1)]}},
                             "q.toml").value
-        assert err.code == "NC205" and err.where == "variants.netlists[0]"
+        assert err.code == "spec-205" and err.where == "variants.netlists[0]"
         assert MAX_STRING_WRITTEN >= 10 * MAX_PATH_CHARS
 
     def test_messages_quoting_values_are_bounded(self, tmp_path):
@@ -175,7 +175,7 @@ class TestSpecTextBudget:
         nodes = ", ".join(f'"n{i}"' for i in range(10_000))
         text = spec_text().replace('output = "out"', f"output = [{nodes}]")
         err = pytest.raises(SpecError, parse_spec, text, str(tmp_path / "q.toml")).value
-        assert err.code == "NC202" and len(err.message) < 1_200
+        assert err.code == "spec-202" and len(err.message) < 1_200
         assert "more characters" in err.message
 
 
@@ -237,7 +237,7 @@ class TestReportsBoundText:
         assert proc.returncode == 2, proc.stderr[-2000:]
         assert (tmp_path / "pdf" / "s.pdf").stat().st_size > 1_000
         assert time.perf_counter() - start < 120
-        assert "NC205" in proc.stderr and "limits[0].name" in proc.stderr
+        assert "spec-205" in proc.stderr and "limits[0].name" in proc.stderr
 
 
 # ---------------------------------------------------------------------------------------
@@ -247,14 +247,14 @@ class TestReportsBoundText:
 class TestWholeFloats:
     def test_points_per_decade_1e9(self, tmp_path):
         err = pytest.raises(SpecError, load_spec, spec_file(tmp_path, spec_text(ppd="1e9"))).value
-        assert err.code == "NC205" and "4,000,000,001 grid points" in err.message
+        assert err.code == "spec-205" and "4,000,000,001 grid points" in err.message
         assert "over the budget of 1,000,000" in err.message
 
     def test_validate_sweep_judges_the_value(self):
         err = pytest.raises(SpecError, validate_sweep, 10.0, 1e5, 1e9).value
-        assert err.code == "NC205" and err.where == "sweep.points_per_decade"
+        assert err.code == "spec-205" and err.where == "sweep.points_per_decade"
         validate_sweep(10.0, 1e5, 20.0)  # a whole float within budget
-        assert pytest.raises(SpecError, validate_sweep, 10.0, 1e5, 7.5).value.code == "NC202"
+        assert pytest.raises(SpecError, validate_sweep, 10.0, 1e5, 7.5).value.code == "spec-202"
 
     def test_a_whole_float_within_budget_is_its_whole_number(self, tmp_path):
         spec = load_spec(spec_file(tmp_path, spec_text(ppd="2e1")))
@@ -262,14 +262,14 @@ class TestWholeFloats:
 
     def test_a_fraction_is_still_not_whole(self, tmp_path):
         err = pytest.raises(SpecError, load_spec, spec_file(tmp_path, spec_text(ppd="7.5"))).value
-        assert err.code == "NC202" and "whole number" in err.message
+        assert err.code == "spec-202" and "whole number" in err.message
 
     def test_monte_carlo_samples_1e9(self, tmp_path):
         extra = ('[tolerances]\ndefault = { R = "1%", C = "5%" }\n'
                  '[analysis]\nmode = ["monte_carlo"]\nsamples = 1e9\n')
         res = check_spec(str(spec_file(tmp_path, spec_text(extra=extra))))
         assert res.status is Status.ERROR
-        assert [c.code for c in res.cautions] == ["NC205"], res.error
+        assert [c.code for c in res.cautions] == ["spec-205"], res.error
         assert "analysis.samples: 1000000000 samples" in res.error
         assert "over the budget" in res.error
 
@@ -282,13 +282,13 @@ class TestSpecLineEndsAndEncoding:
     def test_lone_cr_line_ends(self, tmp_path):
         path = spec_file(tmp_path, spec_text().replace("\n", "\r").encode())
         err = pytest.raises(SpecError, load_spec, path).value
-        assert err.code == "NC117" and str(err).startswith(f"{path}:1:")
+        assert err.code == "netlist-117" and str(err).startswith(f"{path}:1:")
         assert "lone carriage-return" in err.message and "LF or CR LF" in err.message
 
     def test_a_lone_cr_at_the_end(self, tmp_path):
         path = spec_file(tmp_path, (spec_text() + "\r").encode())
         err = pytest.raises(SpecError, load_spec, path).value
-        assert err.code == "NC117" and "lone carriage-return" in err.message
+        assert err.code == "netlist-117" and "lone carriage-return" in err.message
 
     def test_cr_lf_is_fine(self, tmp_path):
         path = spec_file(tmp_path, spec_text().replace("\n", "\r\n").encode())
@@ -299,7 +299,7 @@ class TestSpecLineEndsAndEncoding:
         # already refused before this change (netcheck.netlist.source.read_text); kept as a guard
         path = spec_file(tmp_path, spec_text().encode(encoding))
         err = pytest.raises(SpecError, load_spec, path).value
-        assert err.code == "NC117" and "UTF-16" in err.message and str(path) in str(err)
+        assert err.code == "netlist-117" and "UTF-16" in err.message and str(path) in str(err)
 
 
 # ---------------------------------------------------------------------------------------
@@ -311,7 +311,7 @@ class TestEmptyInclude:
     def test_empty_name(self, tmp_path, written):
         path = write(tmp_path / "top.cir", f"Quillmere top\n.include {written}\nR1 a 0 1k\n")
         err = pytest.raises(NetlistSyntaxError, load_netlist, path).value
-        assert err.code == "NC104" and "empty file name in .include" in err.message
+        assert err.code == "netlist-104" and "empty file name in .include" in err.message
         assert str(err).startswith(f"{path}:2:10:")
         assert str(tmp_path) not in err.message  # not the folder
 

@@ -87,8 +87,8 @@ class TestNotARegularFile:
             read_netlist("pipe.cir")
             result = "read"
             """, tmp_path)
-        assert got["code"] == "NC117"
-        assert got["error"].startswith("pipe.cir: error NC117: netlist is a FIFO")
+        assert got["code"] == "netlist-117"
+        assert got["error"].startswith("pipe.cir: error netlist-117: netlist is a FIFO")
 
     def test_fifo_include_is_refused_at_the_include(self, tmp_path):
         os.mkfifo(tmp_path / "parts.lib")
@@ -98,8 +98,8 @@ class TestNotARegularFile:
             read_netlist("top.cir")
             result = "read"
             """, tmp_path)
-        assert got["code"] == "NC117"
-        assert got["error"].startswith("top.cir:2:10: error NC117: included file 'parts.lib' "
+        assert got["code"] == "netlist-117"
+        assert got["error"].startswith("top.cir:2:10: error netlist-117: included file 'parts.lib' "
                                        "is a FIFO (named pipe), not a regular file")
 
     def test_fifo_spec_keeps_the_callers_error_class(self, tmp_path):
@@ -112,8 +112,8 @@ class TestNotARegularFile:
             except SpecError as err:
                 result = {"class": type(err).__name__, "code": err.code, "text": err.format()}
             """, tmp_path)
-        assert got == {"class": "SpecError", "code": "NC117",
-                       "text": "x.toml: error NC117: spec is a FIFO (named pipe), not a regular "
+        assert got == {"class": "SpecError", "code": "netlist-117",
+                       "text": "x.toml: error netlist-117: spec is a FIFO (named pipe), not a regular "
                                "file; netcheck reads regular files only"}
 
     def test_dev_zero_as_netlist_and_baseline(self, tmp_path):
@@ -132,20 +132,20 @@ class TestNotARegularFile:
                 except NetcheckError as err:
                     result[name] = [type(err).__name__, err.code, err.format()]
             """, tmp_path)
-        assert got["netlist"] == ["NetlistSyntaxError", "NC117", "/dev/zero: error NC117: "
+        assert got["netlist"] == ["NetlistSyntaxError", "netlist-117", "/dev/zero: error netlist-117: "
                                   "netlist is a character device, not a regular file; netcheck "
                                   "reads regular files only"]
-        assert got["baseline"][:2] == ["BaselineError", "NC117"]
+        assert got["baseline"][:2] == ["BaselineError", "netlist-117"]
         assert "baseline is a character device" in got["baseline"][2]
 
     def test_folder(self, tmp_path):
         (tmp_path / "d.cir").mkdir()
         err = refused(tmp_path / "d.cir")
-        assert err.code == "NC117" and "netlist is a folder" in err.message
+        assert err.code == "netlist-117" and "netlist is a folder" in err.message
 
     def test_missing_file_keeps_its_code(self, tmp_path):
         err = refused(tmp_path / "absent.cir")
-        assert err.code == "NC104" and "cannot read netlist: No such file" in err.message
+        assert err.code == "netlist-104" and "cannot read netlist: No such file" in err.message
 
 
 class TestSizeBudget:
@@ -154,7 +154,7 @@ class TestSizeBudget:
         with open(big, "wb") as f:  # a sparse file: no disk or memory spent
             f.truncate(FILE_MAX_BYTES + 1)
         err = refused(big)
-        assert err.code == "NC117"
+        assert err.code == "netlist-117"
         assert (f"netlist is {FILE_MAX_BYTES + 1:,} bytes (16.0 MiB), over the budget of "
                 f"{FILE_MAX_BYTES:,} bytes (16.0 MiB)") in err.message
 
@@ -177,7 +177,7 @@ class TestSizeBudget:
         monkeypatch.setattr("netcheck.netlist.source.os.stat", lambda p: Small(real_stat(p)))
         with pytest.raises(SpecError) as info:
             read_text(path, SpecError, "spec", budget=100)
-        assert info.value.code == "NC117"
+        assert info.value.code == "netlist-117"
         assert "grew past the budget of 100 bytes" in info.value.message
 
 
@@ -191,7 +191,7 @@ class TestEncodings:
         path = tmp_path / "wide.cir"
         path.write_bytes(("Quillmere QM-4\n" + RC).encode(encoding))
         err = refused(path)
-        assert err.code == "NC117"
+        assert err.code == "netlist-117"
         assert how in err.message
         assert "UTF-16" in err.message or "UTF-32" in err.message
         assert "save it as UTF-8" in err.message
@@ -225,7 +225,7 @@ class TestLineEnds:
         path = tmp_path / "mac.cir"
         path.write_bytes(b"Quillmere QM-7\nV1 in 0 AC 1\rR1 in 0 1k\r")
         err = refused(path)
-        assert err.code == "NC117"
+        assert err.code == "netlist-117"
         assert str(err.span) == f"{path}:2:13"
         assert "lone carriage return" in err.message and "LF or CR LF" in err.message
         source, caret = err.format().split("\n")[1:]
@@ -236,7 +236,7 @@ class TestLineEnds:
         (tmp_path / "p.lib").write_bytes(b"R8 out 0 1k\rR9 out 0 2k\r")
         top = write(tmp_path / "top.cir", "Quillmere QM-7\n.include 'p.lib'\n" + RC)
         err = refused(top)
-        assert err.code == "NC117" and err.span.path.endswith("p.lib")
+        assert err.code == "netlist-117" and err.span.path.endswith("p.lib")
         assert (err.span.line, err.span.column) == (1, 12)
 
     @pytest.mark.parametrize("data", [
@@ -277,7 +277,7 @@ class TestDepthBudgets:
         # before: a 1,500-file chain ended in RecursionError
         top = include_chain(tmp_path, 1500)
         err = refused(top)
-        assert err.code == "NC116"
+        assert err.code == "netlist-116"
         assert f"includes nest {INCLUDE_DEPTH_MAX + 1} deep here, over the budget of " \
             f"{INCLUDE_DEPTH_MAX} nested .include files" in err.message
         assert err.span.path.endswith(f"i{INCLUDE_DEPTH_MAX - 1}.lib")
@@ -291,7 +291,7 @@ class TestDepthBudgets:
     def test_subckt_nest_far_past_the_budget(self):
         # before: a 1,000-level nest ended in RecursionError
         err = refused(subckt_chain(1000))
-        assert err.code == "NC116"
+        assert err.code == "netlist-116"
         assert f"nests subcircuit instances {SUBCKT_DEPTH_MAX + 1} levels deep" in err.message
         assert err.span.line == 4 + 3 * (SUBCKT_DEPTH_MAX - 1)  # X1 inside s63
 
@@ -324,7 +324,7 @@ class TestDepthBudgets:
 
         assert len(read_netlist(nest(SUBCKT_DEPTH_MAX)).elements) == 3
         err = refused(nest(1000))
-        assert err.code == "NC116" and err.span.line == 2 + SUBCKT_DEPTH_MAX
+        assert err.code == "netlist-116" and err.span.line == 2 + SUBCKT_DEPTH_MAX
         assert ".subckt definitions nest 65 deep here, over the budget of 64" in err.message
 
 
@@ -341,8 +341,8 @@ class TestSizeBudgets:
             from netcheck import read_netlist
             result = len(read_netlist("bomb.cir").elements)
             """, tmp_path)
-        assert got["code"] == "NC116"
-        assert got["error"].startswith(f"bomb.cir:{len(lines)}:1: error NC116: XBANK "
+        assert got["code"] == "netlist-116"
+        assert got["error"].startswith(f"bomb.cir:{len(lines)}:1: error netlist-116: XBANK "
                                        "instantiates subcircuit l12, which flattens to "
                                        "1,000,000,000,000 elements: the design is over the "
                                        "budget of 1,000,000 elements here")
@@ -363,7 +363,7 @@ class TestSizeBudgets:
             assert len(read_netlist(text).elements) == 85
         else:
             err = refused(text)
-            assert err.code == "NC116" and err.span.line == len(lines)
+            assert err.code == "netlist-116" and err.span.line == len(lines)
             assert "over the budget of 85 elements here (86 so far" in err.message
 
     def test_diamond_of_includes(self, tmp_path):
@@ -377,7 +377,7 @@ class TestSizeBudgets:
             from netcheck import read_netlist
             result = len(read_netlist("top.cir").elements)
             """, tmp_path)
-        assert got["code"] == "NC116"
+        assert got["code"] == "netlist-116"
         assert "over the budget of 1,000 .include directives followed" in got["message"]
 
     def test_repeated_include_counts_its_text_each_time(self, tmp_path, monkeypatch):
@@ -388,7 +388,7 @@ class TestSizeBudgets:
         assert len(read_netlist(str(top)).elements) == 3
         monkeypatch.setattr(parse_mod, "INCLUDE_TEXT_MAX", size - 1)
         err = refused(top)
-        assert err.code == "NC116" and (err.span.line, err.span.column) == (6, 10)
+        assert err.code == "netlist-116" and (err.span.line, err.span.column) == (6, 10)
         assert f"reaches {size:,} characters, over the budget of {size - 1:,}" in err.message
 
     def test_token_budget_stops_the_parse_where_it_is_reached(self, monkeypatch):
@@ -396,7 +396,7 @@ class TestSizeBudgets:
         # a line end after the title, then 5 tokens per card with its line end: R3 is the 12th
         text = "Quillmere QM-13\nR1 in out 1k\nR2 out 0 1k\nR3 out 0 2k\n"
         err = refused(text)
-        assert err.code == "NC116" and (err.span.line, err.span.column) == (4, 1)
+        assert err.code == "netlist-116" and (err.span.line, err.span.column) == (4, 1)
         assert "over the budget of 11 tokens" in err.message
 
     def test_millions_of_blank_lines_parse_in_bounded_memory(self, tmp_path):
@@ -413,7 +413,7 @@ class TestSizeBudgets:
 
     def test_long_expression(self):
         err = refused("Quillmere QM-14\nR1 a 0 {" + "+".join(["1"] * 6000) + "}\n")
-        assert err.code == "NC101" and "over the budget of 10,000" in err.message
+        assert err.code == "netlist-101" and "over the budget of 10,000" in err.message
 
 
 # --- 4. malformed scale suffix (see also tests/netlist/test_units.py) ---------------------------
@@ -422,7 +422,7 @@ def test_double_scale_suffix_is_refused_with_its_position(tmp_path):
     path = write(tmp_path / "kk.cir", "Quillmere QM-15\nV1 in 0 AC 1\nR1 in out 1kk\n"
                  "C1 out 0 10nF\n")
     err = refused(path)
-    assert err.code == "NC101" and str(err.span) == f"{path}:3:11"
+    assert err.code == "netlist-101" and str(err.span) == f"{path}:3:11"
     assert "'1kk': 'k' after the scale suffix 'k' is a second scale suffix" in err.message
 
 
@@ -445,7 +445,7 @@ def test_singular_circuit_names_file_line_and_elements(tmp_path, padding):
     with pytest.raises(NetcheckError) as info:
         ckt.ac("V1", "out", freqs=[1e3])
     err = info.value
-    assert err.code == "NC300"
+    assert err.code == "analysis-300"
     assert str(err.span) == f"{path}:4:1"  # the card of E1
     first = err.format().split("\n")[0]
     assert "the unknowns most involved are V(out), I(E1)" in first
@@ -474,7 +474,7 @@ class TestTerminalSafety:
 
     def test_huge_name_in_a_message_is_bounded(self):
         err = refused("Quillmere QM-19\nQ" + "x" * 2_000_000 + " a 0 1\n")
-        assert err.code == "NC105"
+        assert err.code == "netlist-105"
         assert len(err.message) < 1000 and len(err.format()) < 2000
         assert "more characters" in err.message
 
@@ -487,14 +487,14 @@ class TestTerminalSafety:
         assert ESC not in line and len(line) < 300
 
     def test_many_dangling_nodes_are_summarised(self):
-        # before: 20,000 NC152 warnings (2.25 MB of text)
+        # before: 20,000 netlist-152 warnings (2.25 MB of text)
         lines = ["Quillmere QM-20", "V1 in 0 AC 1", "R0 in 0 1k"]
         lines += [f"C{i} in d{i} 1n" for i in range(20_000)]
         ckt = read_netlist("\n".join(lines) + "\n")
         codes = [d.code for d in ckt.diagnostics]
-        assert codes == ["NC152"] * 11
+        assert codes == ["netlist-152"] * 11
         summary = ckt.diagnostics[-1]
-        assert summary.message.startswith("19,990 more NC152 warnings (node with one "
+        assert summary.message.startswith("19,990 more netlist-152 warnings (node with one "
                                           "connection) not listed, the first of them here")
         assert str(summary.span) == "<text>:14:8"  # C10's node d10, the first left out
         assert sum(len(d.format()) for d in ckt.diagnostics) < 5000
@@ -504,9 +504,9 @@ class TestTerminalSafety:
         lines += [f".opt{i} x" for i in range(15)] + [f"C{i} in d{i} 1n" for i in range(12)]
         ckt = read_netlist("\n".join(lines) + "\n")
         codes = [d.code for d in ckt.diagnostics]
-        assert codes == ["NC150"] * 10 + ["NC152"] * 10 + ["NC150", "NC152"]
-        assert ckt.diagnostics[-2].message.startswith("5 more NC150 warnings")
-        assert ckt.diagnostics[-1].message.startswith("2 more NC152 warnings")
+        assert codes == ["netlist-150"] * 10 + ["netlist-152"] * 10 + ["netlist-150", "netlist-152"]
+        assert ckt.diagnostics[-2].message.startswith("5 more netlist-150 warnings")
+        assert ckt.diagnostics[-1].message.startswith("2 more netlist-152 warnings")
 
 
 def test_sweep_command_prints_the_bounded_list(tmp_path, capsys):
@@ -519,7 +519,7 @@ def test_sweep_command_prints_the_bounded_list(tmp_path, capsys):
                  "--stop", "10k", "--ppd", "10"])
     err = capsys.readouterr().err
     assert code == 0
-    assert err.count("warning NC152") == 11 and "4,990 more NC152 warnings" in err
+    assert err.count("warning netlist-152") == 11 and "4,990 more netlist-152 warnings" in err
     assert len(err) < 5000
 
 
@@ -528,8 +528,8 @@ def test_errors_md_states_the_budgets_in_force():
     from netcheck.netlist.parse import ELEMENTS_MAX, INCLUDE_TEXT_MAX, INCLUDES_MAX, TOKENS_MAX
 
     doc = (ROOT / "docs" / "errors.md").read_text("utf-8")
-    nc116 = doc[doc.index('id="NC116"'):doc.index('id="NC117"')]
-    nc117 = doc[doc.index('id="NC117"'):doc.index('id="NC150"')]
+    nc116 = doc[doc.index('id="netlist-116"'):doc.index('id="netlist-117"')]
+    nc117 = doc[doc.index('id="netlist-117"'):doc.index('id="netlist-150"')]
     assert f"({ELEMENTS_MAX:,})" in nc116 and f"({INCLUDES_MAX:,}," in nc116
     assert INCLUDE_DEPTH_MAX == SUBCKT_DEPTH_MAX and f"({INCLUDE_DEPTH_MAX} levels each)" in nc116
     assert f"{TOKENS_MAX:,} tokens, {INCLUDE_TEXT_MAX // 2**20} MiB of text" in nc116

@@ -157,7 +157,7 @@ class TestDesignFilesAreNeverOutputs:
                      "--junit", str(tmp_path / "j.xml")])
         err = capsys.readouterr().err
         assert code == BAD_INPUT
-        assert f"{target}: error NC401: output refused: a {target.suffix} name is a design " \
+        assert f"{target}: error run-401: output refused: a {target.suffix} name is a design " \
                "file's" in err
         assert target.read_bytes() == before
         assert (tmp_path / "j.xml").exists()  # the other output is still written
@@ -183,7 +183,7 @@ class TestDesignFilesAreNeverOutputs:
         kept = (repo / "other" / "other.toml").read_bytes()
         code = main(["check", ".", "--changed-since", "HEAD", "--json", "other/other.toml"])
         assert code == BAD_INPUT
-        assert "NC401" in capsys.readouterr().err
+        assert "run-401" in capsys.readouterr().err
         assert (repo / "other" / "other.toml").read_bytes() == kept
 
     def test_pdf_combined_over_a_netlist_is_refused_before_the_run(self, tmp_path, capsys):
@@ -202,7 +202,7 @@ class TestDesignFilesAreNeverOutputs:
         code = main(["sweep", str(tmp_path / "lp.cir"), "--source", "VIN", "--node", "out",
                      "--start", "10", "--stop", "100k", "--ppd", "5", option, str(victim)])
         assert code == BAD_INPUT
-        assert "NC401" in capsys.readouterr().err
+        assert "run-401" in capsys.readouterr().err
         assert victim.read_text() == NETLIST
 
     def test_sweep_csv_never_replaces_a_table_it_did_not_write(self, tmp_path, capsys):
@@ -253,7 +253,7 @@ def test_unusable_baseline_is_in_every_report(tmp_path, capsys):
     err = capsys.readouterr().err
     assert code == BAD_INPUT
     no_traceback(err)
-    _assert_error_everywhere(out, "NC411")
+    _assert_error_everywhere(out, "run-411")
     doc = json.loads((out / "r.json").read_text("utf-8"))
     assert [s["status"] for s in doc["specs"]] == ["error", "pass"]  # the spec still judged
 
@@ -266,9 +266,9 @@ def test_git_failure_is_in_every_report_and_every_spec_is_checked(tmp_path, caps
     code = main(["check", str(spec), "--changed-since", "HEAD~1", *_outputs(out)])
     err = capsys.readouterr().err
     assert code == BAD_INPUT
-    assert "NC410" in err and "every spec is checked" in err
+    assert "run-410" in err and "every spec is checked" in err
     no_traceback(err)
-    _assert_error_everywhere(out, "NC410")
+    _assert_error_everywhere(out, "run-410")
     doc = json.loads((out / "r.json").read_text("utf-8"))
     assert [s["status"] for s in doc["specs"]] == ["error", "pass"]
 
@@ -324,7 +324,7 @@ def test_unusable_root_is_an_argument_error(tmp_path, capsys, make, why, command
              "--start", "10", "--stop", "1k", "--ppd", "5"])
     assert main([*argv, "--root", root]) == BAD_INPUT
     err = capsys.readouterr().err
-    assert "error NC402: --root" in err and why in err
+    assert "error run-402: --root" in err and why in err
     no_traceback(err)
 
 

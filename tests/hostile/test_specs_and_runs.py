@@ -115,7 +115,7 @@ class TestOneBadInputCostsOnlyItself:
         (good, huge) = run_isolated(RUN_ALL.replace("ARGS", "['good.toml', 'huge.toml']"),
                                     tmp_path)
         assert good[0] == "pass"
-        assert huge[0] == "error" and "NC205" in huge[1]
+        assert huge[0] == "error" and "spec-205" in huge[1]
         assert "huge.toml:7:" in huge[2] and "4,000,000,001 grid points" in huge[2]
         assert f"{MAX_SWEEP_POINTS:,}" in huge[2]
 
@@ -126,7 +126,7 @@ class TestOneBadInputCostsOnlyItself:
         items = expand_jobs([str(tmp_path / "good.toml"), str(tmp_path / "bomb.toml")])
         good, bomb = run_all(items, SerialExecutor())
         assert good.status is Status.PASS
-        assert bomb.status is Status.ERROR and codes(bomb) == {"NC205"}
+        assert bomb.status is Status.ERROR and codes(bomb) == {"spec-205"}
         assert "bomb.toml:2:" in bomb.error and f"budget of {MAX_NESTING}" in bomb.error
         assert "Traceback" not in bomb.error
 
@@ -145,7 +145,7 @@ class TestOneBadInputCostsOnlyItself:
         spec_file(tmp_path, "fam", extra='[variants]\ntable = "fam.csv"\n')
         write(tmp_path / "fam.csv", "name,rval\na,1k\nb," + "9" * 200_000 + "\n")
         (fam,) = run_all(expand_jobs([str(tmp_path / "fam.toml")]), SerialExecutor())
-        assert fam.status is Status.ERROR and codes(fam) == {"NC202"}
+        assert fam.status is Status.ERROR and codes(fam) == {"spec-202"}
         assert "fam.csv:3:" in fam.error and "128 KiB" in fam.error
         assert "9" * 1000 not in fam.error
 
@@ -162,7 +162,7 @@ class TestOneBadInputCostsOnlyItself:
         fam, good = run_all(items, SerialExecutor())
         assert good.status is Status.PASS
         assert fam.status is Status.ERROR and words in fam.error
-        assert "fam.toml:12:1: error NC202: variants.netlists" in fam.error
+        assert "fam.toml:12:1: error spec-202: variants.netlists" in fam.error
 
     def test_an_exception_inside_a_check_is_an_internal_error_result(self, tmp_path,
                                                                       monkeypatch):
@@ -184,7 +184,7 @@ class TestOneBadInputCostsOnlyItself:
         assert other.status is Status.ERROR and codes(other) == {INTERNAL_CODE}
         # the contract with the command line: the error ends with the traceback
         head, _, trace = other.error.partition("\n")
-        assert "error NC500: internal error in netcheck (a bug), ZeroDivisionError" in head
+        assert "error internal-500: internal error in netcheck (a bug), ZeroDivisionError" in head
         assert trace.startswith("Traceback") and trace.rstrip().endswith(
             "ZeroDivisionError: stand-in for a bug deep in a check")
         assert "in broken" in trace
@@ -212,7 +212,7 @@ class TestOneBadInputCostsOnlyItself:
         monkeypatch.setattr(evaluate, "evaluate", exhausted)
         spec = spec_file(tmp_path)
         (res,) = run_all(expand_jobs([str(spec)]), SerialExecutor())
-        assert res.status is Status.ERROR and codes(res) == {"NC421"}
+        assert res.status is Status.ERROR and codes(res) == {"run-421"}
         assert "Traceback" not in res.error and exc.__name__ in res.error
 
     def test_expand_jobs_never_raises(self, tmp_path, monkeypatch):
@@ -310,7 +310,7 @@ class TestWorkers:
         assert [r.variant for r in got] == [j.variant for j in jobs]
         for job, res, ref in zip(jobs, got, want):
             if job.variant == "boom":
-                assert res.status is Status.ERROR and codes(res) == {"NC420"}
+                assert res.status is Status.ERROR and codes(res) == {"run-420"}
                 assert "worker process lost" in res.error
             else:
                 assert res == ref
@@ -338,7 +338,7 @@ class TestWorkers:
         assert [r.variant for r in got] == [j.variant for j in jobs]
         for job, res, ref in zip(jobs, got, want):
             if job.variant == "boom":
-                assert codes(res) == {"NC420"} and "Dask worker died" in res.error
+                assert codes(res) == {"run-420"} and "Dask worker died" in res.error
             else:
                 assert res == ref
 
@@ -442,7 +442,7 @@ class TestSweepBudgets:
         with pytest.raises(SpecError) as info:
             validate_sweep(start, stop, ppd)
         err = info.value
-        assert err.code == "NC205" and err.where == f"sweep.{key}"
+        assert err.code == "spec-205" and err.where == f"sweep.{key}"
         assert words in err.message
 
     def test_too_few_points_says_what_would_do(self):
@@ -460,7 +460,7 @@ class TestSweepBudgets:
     def test_malformed_is_nc202(self, start, stop, ppd):
         with pytest.raises(SpecError) as info:
             validate_sweep(start, stop, ppd)
-        assert info.value.code == "NC202"
+        assert info.value.code == "spec-202"
 
     def test_the_edges_are_inside(self):
         validate_sweep(MIN_FREQUENCY_HZ, MAX_FREQUENCY_HZ, 20)
@@ -473,8 +473,8 @@ class TestSweepBudgets:
         write(tmp_path / "rc.cir", RC)
         text = SPEC.format(netlist="rc.cir", ppd=20).replace('stop = "100k"', "stop = 1e308")
         res = check_spec(str(write(tmp_path / "far.toml", text)))
-        assert res.status is Status.ERROR and codes(res) == {"NC205"}
-        assert res.error.startswith(f"{tmp_path / 'far.toml'}:6:1: error NC205: sweep.stop:")
+        assert res.status is Status.ERROR and codes(res) == {"spec-205"}
+        assert res.error.startswith(f"{tmp_path / 'far.toml'}:6:1: error spec-205: sweep.stop:")
 
 
 class TestNesting:
@@ -482,10 +482,10 @@ class TestNesting:
         head = SPEC.format(netlist="rc.cir", ppd=20)
         inner = "x = " + "[" * MAX_NESTING + "]" * MAX_NESTING + "\n"
         err = pytest.raises(SpecError, parse_spec, inner + head, "q.toml").value
-        assert err.code == "NC201"  # read, then refused as an unknown key
+        assert err.code == "spec-201"  # read, then refused as an unknown key
         deeper = "x = " + "[" * (MAX_NESTING + 1) + "]" * (MAX_NESTING + 1) + "\n"
         err = pytest.raises(SpecError, parse_spec, deeper + head, "q.toml").value
-        assert err.code == "NC205" and err.span.line == 1
+        assert err.code == "spec-205" and err.span.line == 1
         assert err.span.column == 5 + MAX_NESTING
 
     def test_brackets_in_strings_and_comments_do_not_count(self, tmp_path):
@@ -504,12 +504,12 @@ class TestNesting:
     def test_deep_dotted_keys_are_refused(self):
         text = "a" + ".a" * 200 + " = 1\n" + SPEC.format(netlist="rc.cir", ppd=20)
         err = pytest.raises(SpecError, parse_spec, text, "q.toml").value
-        assert err.code == "NC205" and "tables nest more than" in err.message
+        assert err.code == "spec-205" and "tables nest more than" in err.message
 
     def test_read_toml_names_the_file(self, tmp_path):
         bomb = write(tmp_path / "deep.toml", "a = " + "{b = " * 10_000 + "1" + "}" * 10_000)
         err = pytest.raises(SpecError, read_toml, bomb).value
-        assert err.code == "NC205" and str(err).startswith(f"{bomb}:1:")
+        assert err.code == "spec-205" and str(err).startswith(f"{bomb}:1:")
         assert read_toml(spec_file(tmp_path))["sweep"]["points_per_decade"] == 20
 
 
@@ -520,7 +520,7 @@ class TestTableCountBudgets:
         # the head has one limit already
         assert len(parse_spec(head + one * (MAX_LIMITS - 1), "q.toml").limits) == MAX_LIMITS
         err = pytest.raises(SpecError, parse_spec, head + one * MAX_LIMITS, "q.toml").value
-        assert err.code == "NC205" and "10,001 [[limits]] tables" in err.message
+        assert err.code == "spec-205" and "10,001 [[limits]] tables" in err.message
 
     def test_stress(self):
         from netcheck.spec.stress import parse_stress
@@ -528,7 +528,7 @@ class TestTableCountBudgets:
         table = {"source_amplitude": "1", "parts": "C*", "max_voltage": "5"}
         assert len(parse_stress([table] * MAX_LIMITS, "q.toml")) == MAX_LIMITS
         err = pytest.raises(SpecError, parse_stress, [table] * (MAX_LIMITS + 1), "q.toml").value
-        assert err.code == "NC205" and f"budget of {MAX_LIMITS:,}" in err.message
+        assert err.code == "spec-205" and f"budget of {MAX_LIMITS:,}" in err.message
 
 
 class TestFamilyBudgets:
@@ -547,7 +547,7 @@ class TestFamilyBudgets:
                               for i in items[:3]]))
             """
         (error, found), = run_isolated(code, tmp_path, timeout=60)
-        assert found == ["NC205"]
+        assert found == ["spec-205"]
         assert f"big.csv:{rows + 1}: more than 100,000 variant rows" in error
 
     def test_glob_matches(self, tmp_path, monkeypatch):
@@ -556,7 +556,7 @@ class TestFamilyBudgets:
             write(tmp_path / "nets" / f"v{i}.cir", RC)
         spec = spec_file(tmp_path, "fam", extra='[variants]\nnetlists = ["nets/*.cir"]\n')
         (res,) = expand_jobs([str(spec)])
-        assert codes(res) == {"NC205"} and "matches more than 5 files" in res.error
+        assert codes(res) == {"spec-205"} and "matches more than 5 files" in res.error
         monkeypatch.setattr(batch, "MAX_GLOB_MATCHES", 6)
         assert [j.variant for j in expand_jobs([str(spec)])] == [f"v{i}" for i in range(6)]
 
@@ -573,7 +573,7 @@ class TestFamilyBudgets:
             "print(json.dumps(out + [[a.memory_mib, a.requested_mib]]))\n")
         mc, good, (used, requested) = run_isolated(code, tmp_path, memory=3 * 2**29)
         assert good[0] == "pass"
-        assert mc[0] == "error" and mc[1] == ["NC205"]
+        assert mc[0] == "error" and mc[1] == ["spec-205"]
         assert "memory_mib = 1000000000 (capped at" in mc[2]
         assert requested == 10**9 and 16 <= used <= 3 * 2**29 // 2**20 // 2
 
@@ -598,8 +598,8 @@ def outside(tmp_path) -> Path:
 
 
 def assert_refused(res, key: str) -> None:
-    assert res.status is Status.ERROR and codes(res) == {"NC204"}, res.error
-    assert f"NC204: {key}:" in res.error
+    assert res.status is Status.ERROR and codes(res) == {"spec-204"}, res.error
+    assert f"spec-204: {key}:" in res.error
     assert SECRET not in res.error
     assert all(SECRET not in text for _, text in res.source_text)
 
@@ -653,18 +653,18 @@ class TestDesignRoot:
         assert check_spec("specs/good.toml").status is Status.PASS
         monkeypatch.chdir(tmp_path / "nets")  # a folder that does not hold the spec
         assert design_root(spec) == spec.parent.resolve()
-        assert codes(check_spec(str(spec))) == {"NC204"}
+        assert codes(check_spec(str(spec))) == {"spec-204"}
 
     def test_explicit_root(self, tmp_path, monkeypatch):
         write(tmp_path / "nets" / "rc.cir", RC)
         spec = spec_file(tmp_path / "specs", netlist="../nets/rc.cir")
         monkeypatch.chdir(tmp_path / "nets")
-        assert codes(check_spec(str(spec))) == {"NC204"}
+        assert codes(check_spec(str(spec))) == {"spec-204"}
         assert check_spec(str(spec), design_root=str(tmp_path)).status is Status.PASS
         (job,) = expand_jobs([str(spec)], design_root=str(tmp_path))
         assert job.design_root == str(tmp_path)
         assert run_job(job).status is Status.PASS
-        assert codes(check_spec(str(spec), design_root=str(spec.parent))) == {"NC204"}
+        assert codes(check_spec(str(spec), design_root=str(spec.parent))) == {"spec-204"}
         assert load_spec(spec, str(tmp_path)).design_root == str(tmp_path.resolve())
 
     def test_a_netlist_handed_to_check_spec_is_confined_too(self, outside):
@@ -675,7 +675,7 @@ class TestDesignRoot:
     def test_shipped_samples_from_the_checkout_and_from_a_copy(self, tmp_path, monkeypatch):
         specs = sorted(p for p in (REPO / "specs").glob("*.toml"))
         for spec in specs:
-            assert not {"NC204"} & codes(check_spec(str(spec))), spec
+            assert not {"spec-204"} & codes(check_spec(str(spec))), spec
         # a clone elsewhere (a .git entry marks the work tree), checked from outside it
         clone = tmp_path / "clone"
         for folder in ("specs", "sample_netlists"):
@@ -686,7 +686,7 @@ class TestDesignRoot:
         monkeypatch.chdir(tmp_path)
         for spec in specs:
             res = check_spec(str(clone / "specs" / spec.name))
-            assert not {"NC204"} & codes(res), res.error
+            assert not {"spec-204"} & codes(res), res.error
 
 
 # ---------------------------------------------------------------------------------------

@@ -9,7 +9,7 @@ B. Property: for random rational responses (stable poles, lightly damped ones am
    them, zeros on and off the jω axis) on random grids down to 3 points per decade,
    the band minimum and maximum equal a dense refined reference within 1e-9 relative.
 C. A crystal behind a 140-section RC model of a board trace, with a grid point on its
-   series resonance, is regular and solved (it used to be refused as singular, NC300),
+   series resonance, is regular and solved (it used to be refused as singular, analysis-300),
    and agrees with an independent nodal analysis; a singular circuit is still refused.
 
 Every netlist and spec is written here. The references are computed in the tests with
@@ -481,14 +481,14 @@ def test_a_singular_circuit_is_still_refused_and_located():
     # a unity follower whose input is its own output (E1 t140 0 t140 0 1) at the end of
     # the trace: its branch equation reads v(t140) − v(t140) = 0 at every frequency, so
     # the equations are singular whatever the scaling (its reciprocal condition computes
-    # as a few ε); NC300 names E1 and points at its line, from the left null vector (the
+    # as a few ε); analysis-300 names E1 and points at its line, from the left null vector (the
     # equation that reads 0 = 0; the right one spreads along the trace)
     text, _ = crystal_netlist(140)
     text += "E1 t140 0 t140 0 1\n"
     for points in (21, 61):
         with pytest.raises(NetcheckError) as info:
             read_netlist(text).ac("VIN", "out", freqs=np.logspace(6, 8, points))
-        assert info.value.code == "NC300"
+        assert info.value.code == "analysis-300"
         assert ("the branch equation that depends on the others is that of E1 (line 289)"
                 in info.value.message)
         assert info.value.span.line == 289

@@ -317,7 +317,7 @@ def test_topology_refusal_iff_equations_singular(net):
     try:
         read_netlist(net.text())
     except ElaborationError as err:
-        assert err.code in ("NC111", "NC112", "NC113"), err.format()
+        assert err.code in ("netlist-111", "netlist-112", "netlist-113"), err.format()
         assert singular, f"refused a regular circuit:\n{net.text()}\n{err.format()}"
     else:
         assert not singular, f"accepted a singular circuit:\n{net.text()}"

@@ -20,10 +20,10 @@ def test_every_file_has_an_expectation_and_back():
 
 def test_every_netlist_error_code_is_covered():
     # every NC1xx error code (not the NC15x warnings) has at least one bad netlist,
-    # except NC115 (unknown output node), which only a sweep request can produce
-    errors = {c for c in CODES if c.startswith("NC1") and not c.startswith("NC15")}
+    # except netlist-115 (unknown output node), which only a sweep request can produce
+    errors = {c for c in CODES if c.startswith("netlist-1") and not c.startswith("netlist-15")}
     covered = {e["expect"].split()[-1] for e in EXPECTED.values()}
-    assert errors - covered == {"NC115"}
+    assert errors - covered == {"netlist-115"}
 
 
 @pytest.mark.parametrize("name", sorted(EXPECTED))

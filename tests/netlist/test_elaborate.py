@@ -57,7 +57,7 @@ class TestSubcircuits:
     def test_inner_definition_is_not_visible_outside(self):
         with pytest.raises(ElaborationError, match="undefined subcircuit 'inner'") as info:
             read_netlist(NESTED + "X9 in 0 inner\n")
-        assert info.value.code == "NC107"
+        assert info.value.code == "netlist-107"
 
     def test_instance_param_expression_uses_the_callers_scope(self):
         # inside the subcircuit r is the instance value; {r*2} on the X card means the
@@ -79,7 +79,7 @@ class TestSubcircuits:
     def test_unknown_instance_param(self):
         with pytest.raises(ElaborationError, match="has no parameter 'q'") as info:
             read_netlist("t\n.subckt s a params: r=1\nR1 a 0 {r}\n.ends\nX1 n s q=2\nR0 n 0 1\n")
-        assert (info.value.code, info.value.span.line, info.value.span.column) == ("NC102", 5, 8)
+        assert (info.value.code, info.value.span.line, info.value.span.column) == ("netlist-102", 5, 8)
 
     def test_ports_map_and_ground_is_global(self):
         ckt = read_netlist("t\n.subckt s p q\nR1 p q 1\nR2 q gnd 2\nR3 q 0 3\n.ends\n"
@@ -99,7 +99,7 @@ class TestSubcircuits:
         with pytest.raises(ElaborationError, match="not defined in its scope") as info:
             read_netlist("t\nVS a 0 0\n.subckt s a b\nF1 b 0 VS 2\nR2 b 0 1\n.ends\n"
                          "X1 a o s\nR1 a 0 1\nR9 o 0 1\n")
-        assert info.value.code == "NC107"
+        assert info.value.code == "netlist-107"
 
     def test_sample_opamp_macro_model(self, samples):
         # lib/opamp.lib: RP = a0/gm with gm = 1 mS, CP = 1/(2 pi fp RP) (single pole at fp)
@@ -143,7 +143,7 @@ class TestElementCards:
         text = "t\nR1 a 0 -1k\nC1 a 0 -1n\nL1 a 0 -1m\nR2 a 0 1k\n"
         with pytest.raises(ElaborationError, match="negative value") as info:
             read_netlist(text)
-        assert info.value.code == "NC110"
+        assert info.value.code == "netlist-110"
         ckt = read_netlist(text, allow_negative=True)
         assert [e.value for e in ckt.elements] == [-1000.0, -1e-9, -1e-3, 1000.0]
 
@@ -173,14 +173,14 @@ class TestLint:
         # was almost always meant (common practice, no source)
         text = "t\nR1 a 0 1M\nL1 a 0 2.2M\nC1 a 0 1M\nR2 a 0 1Meg\nR3 a 0 1m\nR4 a 0 {1M}\n"
         diags = read_netlist(text).diagnostics
-        assert [(d.code, str(d.span)) for d in diags] == [("NC151", "<text>:2:8"),
-                                                          ("NC151", "<text>:3:8")]
+        assert [(d.code, str(d.span)) for d in diags] == [("netlist-151", "<text>:2:8"),
+                                                          ("netlist-151", "<text>:3:8")]
         assert "write 1meg" in diags[0].message and "milliohm" in diags[0].message
         assert "millihenr" in diags[1].message
 
     def test_node_with_one_connection(self):
         diags = read_netlist("t\nV1 in 0 AC 1\nR1 in out 1k\nR2 in 0 1k\n").diagnostics
-        assert [(d.code, str(d.span)) for d in diags] == [("NC152", "<text>:3:7")]
+        assert [(d.code, str(d.span)) for d in diags] == [("netlist-152", "<text>:3:7")]
         assert "'out'" in diags[0].message
 
     def test_clean_circuit_has_no_warnings(self, samples):
@@ -191,7 +191,7 @@ class TestLint:
     def test_warnings_come_through_in_file_order_with_format(self):
         d = read_netlist("t\nR1 a 0 10M\nR2 a 0 1\n").diagnostics[0]
         assert d.format().split("\n") == [
-            "<text>:2:8: warning NC151: R1 = 10M reads as 0.01 (milliohms: SPICE 'M' is "
+            "<text>:2:8: warning netlist-151: R1 = 10M reads as 0.01 (milliohms: SPICE 'M' is "
             "milli); write 10meg if mega was meant", "    R1 a 0 10M", "           ^^^"]
 
 

@@ -23,7 +23,7 @@ def value(text: str, **params: float) -> float:
             return params[ref.name]
         if ref.name == "pi":
             return math.pi
-        raise ElaborationError(f"undefined {ref.name}", ref.span, code="NC102")
+        raise ElaborationError(f"undefined {ref.name}", ref.span, code="netlist-102")
 
     return evaluate(parse_expression(text, src, 2, 9), lookup)
 
@@ -92,7 +92,7 @@ class TestFunctions:
     def test_bad_calls(self, text, match):
         with pytest.raises(NetlistSyntaxError, match=match) as info:
             value(text)
-        assert info.value.code == "NC101"
+        assert info.value.code == "netlist-101"
 
     @pytest.mark.parametrize("text", ["1/0", "log(-1)", "sqrt(-1)", "10^400", "exp(1000)",
                                       "(-8)^(1/3)", "0^-1", "log10(0)"])
@@ -100,7 +100,7 @@ class TestFunctions:
         # outside each function's domain (math module docs) or beyond the largest double
         with pytest.raises(ElaborationError) as info:
             value(text)
-        assert info.value.code == "NC101"
+        assert info.value.code == "netlist-101"
         assert "has no value" in info.value.message or "not finite" in info.value.message
 
 
@@ -128,7 +128,7 @@ class TestParameters:
         with pytest.raises(ElaborationError) as info:
             read_netlist("t\nR2 a 0 1\nR1 a 0 {2*zz}\n")
         err = info.value
-        assert err.code == "NC102"
+        assert err.code == "netlist-102"
         assert str(err.span) == "<text>:3:11"
         assert "undefined parameter 'zz'" in err.message
 
@@ -136,14 +136,14 @@ class TestParameters:
         with pytest.raises(ElaborationError) as info:
             read_netlist("t\n.param a={b} b={a}\nR1 n 0 {a}\nR2 n 0 1\n")
         err = info.value
-        assert err.code == "NC103"
+        assert err.code == "netlist-103"
         assert "a -> b -> a" in err.message
         assert (err.span.line, err.span.column) == (2, 17)
 
     def test_self_reference(self):
         with pytest.raises(ElaborationError, match=r"a -> a") as info:
             read_netlist("t\n.param a={a+1}\nR1 n 0 {a}\nR2 n 0 1\n")
-        assert info.value.code == "NC103"
+        assert info.value.code == "netlist-103"
 
     def test_long_chain_is_an_error_not_a_crash(self):
         # 400 parameters each defined by the next: deeper than Python's stack
@@ -162,7 +162,7 @@ class TestNoWayToPython:
     def test_refused_as_syntax(self, text):
         with pytest.raises(NetlistSyntaxError) as info:
             value(text, a=1.0, b=1.0, c=1.0, x=1.0)
-        assert info.value.code == "NC101"
+        assert info.value.code == "netlist-101"
         assert info.value.span.line == 2
 
     def test_nothing_is_executed(self, tmp_path, monkeypatch):
@@ -183,7 +183,7 @@ class TestNoWayToPython:
         with pytest.raises(NetlistSyntaxError) as info:
             read_netlist("t\nR2 a 0 1\nR1 a 0 {2*a.b}\n")
         first = info.value.format().splitlines()
-        assert first[0].startswith("<text>:3:12: error NC101: unexpected '.'")
+        assert first[0].startswith("<text>:3:12: error netlist-101: unexpected '.'")
         assert first[2].index("^") == first[1].index("a.b") + 1
 
     def test_string_field_is_an_expression_too(self):
@@ -201,7 +201,7 @@ class TestRobustness:
         try:
             value(text)
         except (NetlistSyntaxError, ElaborationError) as err:
-            assert err.code == "NC101"
+            assert err.code == "netlist-101"
 
     @pytest.mark.parametrize("text,match", [("", "empty expression"), ("1+", "ends too early"),
                                             ("()", "unexpected ')'"), ("max(1,)", "')'")])
@@ -223,7 +223,7 @@ def _combine(children):
 
 def _apply(t):
     (ta, va), op, (tb, vb) = t
-    # a division by zero anywhere makes the whole expression an error (NC101), even where
+    # a division by zero anywhere makes the whole expression an error (netlist-101), even where
     # IEEE arithmetic would carry on (1/(1/0) = 0): NaN marks it and propagates
     out = {"+": va + vb, "-": va - vb, "*": va * vb, "/": va / vb if vb else math.nan}[op]
     return f"({ta}){op}({tb})", out

@@ -99,10 +99,10 @@ class TestCardShape:
     def test_unknown_directive_is_a_warning_naming_the_line(self):
         nl = load_netlist("t\nR1 a 0 1k\n.tran 1n 1u\nR2 a 0 1k\n")
         [diag] = nl.diagnostics
-        assert diag.code == "NC150"
+        assert diag.code == "netlist-150"
         assert str(diag.span) == "<text>:3:1"
         assert ".tran" in diag.message
-        assert diag.format().splitlines()[0] == ("<text>:3:1: warning NC150: unknown "
+        assert diag.format().splitlines()[0] == ("<text>:3:1: warning netlist-150: unknown "
                                                  "directive .tran ignored")
         assert [c.name.text for c in nl.top.cards] == ["R1", "R2"]
 
@@ -161,7 +161,7 @@ class TestSource:
         with pytest.raises(NetcheckError) as info:
             read_netlist("t\nR1 a 0 1\fR2 a 0 1\n")
         lines = info.value.format().split("\n")
-        assert lines[0].startswith("<text>:2:10: error NC105: R1: unexpected extra field 'R2'")
+        assert lines[0].startswith("<text>:2:10: error netlist-105: R1: unexpected extra field 'R2'")
         assert "R2" in lines[1]
 
 
@@ -193,7 +193,7 @@ class TestInclude:
         top = write(tmp_path / "design" / "top.cir", "t\n.include \"../shared/x.lib\"\nR0 n 0 1\n")
         with pytest.raises(NetlistSyntaxError, match="leaves the design root") as info:
             read_netlist(str(top))
-        assert info.value.code == "NC104"
+        assert info.value.code == "netlist-104"
         assert str(info.value.span) == f"{top}:2:10"
 
     def test_root_widens(self, tmp_path):
@@ -207,7 +207,7 @@ class TestInclude:
         top = write(tmp_path / "top.cir", f"t\n.include \"{lib}\"\nR0 n 0 1\n")
         with pytest.raises(NetlistSyntaxError, match="absolute include path") as info:
             read_netlist(str(top))
-        assert info.value.code == "NC104"
+        assert info.value.code == "netlist-104"
 
     def test_home_path_is_refused(self, tmp_path):
         top = write(tmp_path / "top.cir", "t\n.include \"~/x.lib\"\nR0 n 0 1\n")
@@ -220,7 +220,7 @@ class TestInclude:
         top = write(tmp_path / "top.cir", "t\n.include \"a.lib\"\nR0 n 0 1\n")
         with pytest.raises(NetlistSyntaxError, match=r"include cycle: a.lib -> b.lib -> a.lib") as info:
             read_netlist(str(top))
-        assert info.value.code == "NC104"
+        assert info.value.code == "netlist-104"
         assert info.value.span.path.endswith("b.lib")
         assert info.value.span.line == 2
 
@@ -238,7 +238,7 @@ class TestInclude:
         top = write(tmp_path / "top.cir", "t\n.include \"nope.lib\"\nR0 n 0 1\n")
         with pytest.raises(NetlistSyntaxError, match="not found") as info:
             read_netlist(str(top))
-        assert (info.value.code, str(info.value.span)) == ("NC104", f"{top}:2:10")
+        assert (info.value.code, str(info.value.span)) == ("netlist-104", f"{top}:2:10")
 
     @pytest.mark.parametrize("name", ["lib/op\0amp.lib", "x" * 5000])
     def test_unusable_include_name(self, tmp_path, name):
@@ -247,7 +247,7 @@ class TestInclude:
         top = write(tmp_path / "top.cir", f"t\n.include \"{name}\"\nR0 n 0 1\n")
         with pytest.raises(NetlistSyntaxError, match="cannot be used") as info:
             read_netlist(str(top))
-        assert (info.value.code, str(info.value.span)) == ("NC104", f"{top}:2:10")
+        assert (info.value.code, str(info.value.span)) == ("netlist-104", f"{top}:2:10")
 
     def test_include_needs_one_name(self, tmp_path):
         top = write(tmp_path / "top.cir", "t\n.include\nR0 n 0 1\n")
@@ -263,7 +263,7 @@ class TestInclude:
     def test_unreadable_top_file(self, path):
         with pytest.raises(NetlistSyntaxError, match="cannot read netlist") as info:
             read_netlist(path)
-        assert info.value.code == "NC104"
+        assert info.value.code == "netlist-104"
 
 
 def _have_wheel_tools() -> bool:

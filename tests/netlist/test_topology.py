@@ -24,13 +24,13 @@ def refused(text: str) -> ElaborationError:
 class TestFloating:
     def test_island(self):
         err = refused("t\nR1 a 0 1\nR2 b c 1\n")
-        assert err.code == "NC111"
+        assert err.code == "netlist-111"
         assert "nodes b, c have no path to ground" in err.message
         assert str(err.span) == "<text>:3:1"
 
     def test_node_seen_only_by_a_controlling_input(self):
         err = refused("t\nV1 a 0 AC 1\nE1 o 0 sense 0 2\nR1 o 0 1\nR2 a 0 1\n")
-        assert err.code == "NC111"
+        assert err.code == "netlist-111"
         assert "only to the controlling input of E1" in err.message
 
     def test_island_inside_a_subcircuit_is_named_hierarchically(self):
@@ -44,7 +44,7 @@ class TestFloating:
     def test_coupled_secondary_without_ground_is_floating(self):
         # magnetic coupling is not a conductive path
         err = refused("t\nV1 a 0 AC 1\nL1 a 0 1m\nL2 b c 1m\nK1 L1 L2 0.9\nR1 b c 1\n")
-        assert err.code == "NC111"
+        assert err.code == "netlist-111"
 
 
 class TestVoltageLoops:
@@ -57,7 +57,7 @@ class TestVoltageLoops:
     ])
     def test_loop(self, text, culprit):
         err = refused(text)
-        assert err.code == "NC112"
+        assert err.code == "netlist-112"
         assert err.message.startswith(f"{culprit} closes a loop of voltage-defined elements")
 
     def test_series_sources_are_fine(self):
@@ -75,7 +75,7 @@ class TestCurrentCutSets:
     ])
     def test_cut_set(self, text, nodes):
         err = refused(text)
-        assert err.code == "NC113"
+        assert err.code == "netlist-113"
         assert nodes in err.message and "cut-set of current sources" in err.message
 
     def test_current_source_into_a_load_is_fine(self):

@@ -186,7 +186,7 @@ class TestSecondScaleSuffix:
 
         with pytest.raises(NetcheckError) as info:
             read_netlist("t\nV1 in 0 AC 1\nR1 in 0 {2*1kk}\n")
-        assert (info.value.code, str(info.value.span)) == ("NC101", "<text>:3:12")
+        assert (info.value.code, str(info.value.span)) == ("netlist-101", "<text>:3:12")
 
 
 class TestParseValue:

@@ -31,20 +31,20 @@ LP_NET = "sample_netlists/sk_lowpass.cir"
 HOSTILE_TITLE = 'RX-40k front end <rev "B"> & | *draft* \x1b[31mred\x00'
 
 #: The same lint warning reaches every variant of the notch family (one netlist).
-LINT_NODE = Caution("NC152", "node 'tap' has one connection", "warning", NOTCH_NET, 14, 9)
-LINT_SERIES = Caution("NC154", "R7 = 4.75k is off the E24 series", "warning", RX_NET, 22, 1)
-NO_POSITION = Caution("NC302", "matrix badly conditioned near 38.0 kHz; result kept",
+LINT_NODE = Caution("netlist-152", "node 'tap' has one connection", "warning", NOTCH_NET, 14, 9)
+LINT_SERIES = Caution("netlist-154", "R7 = 4.75k is off the E24 series", "warning", RX_NET, 22, 1)
+NO_POSITION = Caution("analysis-302", "matrix badly conditioned near 38.0 kHz; result kept",
                       "warning")
 #: A hazard caution, as evaluate() attaches it to a spec whose result warrants it (a
 #: resonant part far above the input voltage); the notch variants carry none.
-HAZARD = Caution("hazard", "L2 sees 14.2× the input voltage at 40.1 kHz; a resonant section "
+HAZARD = Caution("analysis-voltage", "L2 sees 14.2× the input voltage at 40.1 kHz; a resonant section "
                  "holds about Q times its input across its reactances: rate these parts "
                  "for it and confirm by measurement.", "caution")
 #: As error_result() attaches the error that stopped a spec.
-SINGULAR = Caution("NC300", "singular circuit: node 'n3' has no path to ground at DC",
+SINGULAR = Caution("analysis-300", "singular circuit: node 'n3' has no path to ground at DC",
                    "error", LP_NET, 7, 1)
 #: A run-wide caution (not tied to one spec), with a position in a shared library.
-LIBRARY = Caution("NC150", "unknown directive .temp ignored", "warning",
+LIBRARY = Caution("netlist-150", "unknown directive .temp ignored", "warning",
                   "sample_netlists/lib/quillmere_opamps.lib", 3, 1)
 
 
@@ -94,7 +94,7 @@ def _rx() -> SpecResult:
 
 
 def _lowpass() -> SpecResult:
-    error = ("sample_netlists/sk_lowpass.cir:7:1: error NC300: singular circuit: "
+    error = ("sample_netlists/sk_lowpass.cir:7:1: error analysis-300: singular circuit: "
              "node 'n3' has no path to ground at DC\n    C3 n3 n4 ``1n``\n    ^")
     return SpecResult(spec=LP_SPEC, netlist=LP_NET,
                       title="Quillmere Instruments anti-alias low-pass",

@@ -99,7 +99,7 @@ class TestContract:
     def test_broken_spec(self, real):
         spec = next(s for s in real["specs"] if s["spec"].endswith("broken.toml"))
         assert spec["status"] == "error" and spec["limits"] == [] and spec["measurements"] == {}
-        assert "error NC201" in spec["error"]
+        assert "error spec-201" in spec["error"]
 
     def test_everything_validates_against_the_schema(self, real, validator):
         validator.validate(real)
@@ -147,8 +147,8 @@ class TestNumbers:
 
 def test_cautions_of_the_spec_and_of_the_run():
     doc = to_dict(sample_result())
-    assert [c["code"] for c in doc["specs"][3]["cautions"]] == ["hazard", "NC154", "NC302"]
-    assert doc["cautions"] == [{"code": "NC150", "severity": "warning",
+    assert [c["code"] for c in doc["specs"][3]["cautions"]] == ["analysis-voltage", "netlist-154", "analysis-302"]
+    assert doc["cautions"] == [{"code": "netlist-150", "severity": "warning",
                                 "message": "unknown directive .temp ignored",
                                 "path": "sample_netlists/lib/quillmere_opamps.lib",
                                 "line": 3, "column": 1}]

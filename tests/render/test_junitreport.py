@@ -116,7 +116,7 @@ class TestStructure:
         assert (case.get("classname"), case.get("name")) == (
             "specs/quillmere_sk_lowpass.toml.spec", "spec")
         err = case.find("error")
-        assert "error NC300: singular circuit" in err.get("message")
+        assert "error analysis-300: singular circuit" in err.get("message")
         assert "\n" not in err.get("message")
         assert err.text.splitlines()[1].strip() == "C3 n3 n4 ``1n``"
 
@@ -131,10 +131,10 @@ class TestStructure:
     def test_cautions_in_system_out(self):
         found = suites(junit(sample_result()))
         assert found[3].find("system-out").text.splitlines() == [
-            f"caution hazard: {HAZARD.message}",
-            "sample_netlists/rx40k.cir:22:1: warning NC154: R7 = 4.75k is off the E24 series",
-            "warning NC302: matrix badly conditioned near 38.0 kHz; result kept",
-            "sample_netlists/lib/quillmere_opamps.lib:3:1: warning NC150: "
+            f"caution analysis-voltage: {HAZARD.message}",
+            "sample_netlists/rx40k.cir:22:1: warning netlist-154: R7 = 4.75k is off the E24 series",
+            "warning analysis-302: matrix badly conditioned near 38.0 kHz; result kept",
+            "sample_netlists/lib/quillmere_opamps.lib:3:1: warning netlist-150: "
             "unknown directive .temp ignored",
             # once per document, with the first spec that warrants it
             f"Caution: {HAZARD_CAUTION}",
@@ -142,7 +142,7 @@ class TestStructure:
         assert junit(sample_result()).count(HAZARD_CAUTION) == 1
         assert "caution" not in found[0].find("system-out").text
         assert found[4].find("system-out").text.splitlines()[0] == (
-            "sample_netlists/sk_lowpass.cir:7:1: error NC300: "
+            "sample_netlists/sk_lowpass.cir:7:1: error analysis-300: "
             "singular circuit: node 'n3' has no path to ground at DC")
 
     def test_no_system_out_without_cautions(self):

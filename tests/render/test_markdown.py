@@ -159,15 +159,15 @@ class TestCautions:
     def test_each_caution_once_with_its_specs(self):
         cau = section(markdown(sample_result()), "## Cautions")
         items = [line for line in cau if line.startswith("- ")]
-        assert items[0] == ("- WARNING NC150 at sample\\_netlists/lib/quillmere\\_opamps.lib:3:1: "
+        assert items[0] == ("- WARNING netlist-150 at sample\\_netlists/lib/quillmere\\_opamps.lib:3:1: "
                             "unknown directive .temp ignored")
-        assert items[1].startswith("- WARNING NC152 at sample\\_netlists/hum\\_notch.cir:14:9: "
+        assert items[1].startswith("- WARNING netlist-152 at sample\\_netlists/hum\\_notch.cir:14:9: "
                                    "node 'tap' has one connection (")
         assert items[1].count("Quillmere Instruments mains hum notch") == 3
         # the receiver's hazard caution is a finding like the others, with its spec
-        assert items[2].startswith("- CAUTION hazard: L2 sees 14.2× the input voltage")
-        assert items[4].startswith("- WARNING NC302: matrix badly conditioned")
-        assert items[5].startswith("- ERROR NC300 at sample\\_netlists/sk\\_lowpass.cir:7:1: ")
+        assert items[2].startswith("- CAUTION analysis-voltage: L2 sees 14.2× the input voltage")
+        assert items[4].startswith("- WARNING analysis-302: matrix badly conditioned")
+        assert items[5].startswith("- ERROR analysis-300 at sample\\_netlists/sk\\_lowpass.cir:7:1: ")
         assert len(items) == 6
 
     def test_hazard_caution_once_at_the_end(self):
@@ -181,11 +181,11 @@ class TestCautions:
         assert "Caution" not in markdown(CheckResult((plain, plain), "0"))
 
     def test_labels_left_out_when_every_spec_has_it(self):
-        c = Caution("NC152", "node x has one connection", path="n.cir", line=2, column=1)
+        c = Caution("netlist-152", "node x has one connection", path="n.cir", line=2, column=1)
         a = SpecResult("a.toml", "n.cir", "A", Status.PASS, cautions=(c,))
         b = SpecResult("b.toml", "n.cir", "B", Status.PASS, cautions=(c,))
         text = markdown(CheckResult((a, b), "0"))
-        assert "- WARNING NC152 at n.cir:2:1: node x has one connection\n" in text
+        assert "- WARNING netlist-152 at n.cir:2:1: node x has one connection\n" in text
 
     def test_no_section_without_cautions(self):
         spec = SpecResult("s", "n", "t", Status.PASS)
@@ -193,9 +193,9 @@ class TestCautions:
 
     def test_position_without_column(self):
         spec = SpecResult("s", "n", "t", Status.PASS,
-                          cautions=(Caution("NC150", "unknown directive .temp", path="n.cir",
+                          cautions=(Caution("netlist-150", "unknown directive .temp", path="n.cir",
                                             line=4),))
-        assert "- WARNING NC150 at n.cir:4: unknown directive .temp\n" in markdown(
+        assert "- WARNING netlist-150 at n.cir:4: unknown directive .temp\n" in markdown(
             CheckResult((spec,), "0"))
 
 

@@ -90,16 +90,16 @@ class TestResults:
         results = sarif(sample_result())["runs"][0]["results"]
         got = [(r["ruleId"], r["level"]) for r in results]
         assert got == [
-            ("NC152", "warning"),         # notch netlist lint, written once for 3 variants
-            ("limit/gain", "error"),      # 60hz notch depth
-            ("limit/ripple", "error"),
-            ("NC301", "error"),           # group delay could not be measured
-            ("limit/stress", "error"),
-            ("NC154", "warning"),
-            ("NC302", "warning"),         # no position: placed at the spec file
-            ("spec/unchecked", "error"),  # the low-pass could not be checked ...
-            ("NC300", "error"),           # ... and why, at the netlist line
-            ("NC150", "warning"),         # run-wide caution with a position
+            ("netlist-152", "warning"),         # notch netlist lint, written once for 3 variants
+            ("limit-gain", "error"),      # 60hz notch depth
+            ("limit-ripple", "error"),
+            ("analysis-301", "error"),           # group delay could not be measured
+            ("limit-stress", "error"),
+            ("netlist-154", "warning"),
+            ("analysis-302", "warning"),         # no position: placed at the spec file
+            ("run-unchecked", "error"),  # the low-pass could not be checked ...
+            ("analysis-300", "error"),           # ... and why, at the netlist line
+            ("netlist-150", "warning"),         # run-wide caution with a position
         ]
 
     def test_rules_are_exactly_those_used_and_indexed(self):
@@ -110,12 +110,12 @@ class TestResults:
         for res in run["results"]:
             assert rules[res["ruleIndex"]]["id"] == res["ruleId"]
         by_id = {r["id"]: r for r in rules}
-        assert by_id["NC301"]["shortDescription"]["text"] == "Measurement could not be made."
-        assert by_id["limit/gain"]["defaultConfiguration"]["level"] == "error"
+        assert by_id["analysis-301"]["shortDescription"]["text"] == "Measurement could not be made."
+        assert by_id["limit-gain"]["defaultConfiguration"]["level"] == "error"
 
     def test_limit_location_and_message(self):
         results = sarif(sample_result())["runs"][0]["results"]
-        ripple = next(r for r in results if r["ruleId"] == "limit/ripple")
+        ripple = next(r for r in results if r["ruleId"] == "limit-ripple")
         assert ripple["locations"] == [{"physicalLocation": {
             "artifactLocation": {"uri": RX_SPEC, "uriBaseId": SRCROOT},
             "region": {"startLine": 11}}}]
@@ -127,7 +127,7 @@ class TestResults:
 
     def test_failure_of_a_variant_names_it(self):
         results = sarif(sample_result())["runs"][0]["results"]
-        gain = next(r for r in results if r["ruleId"] == "limit/gain")
+        gain = next(r for r in results if r["ruleId"] == "limit-gain")
         assert gain["message"]["text"].startswith(
             "Quillmere Instruments mains hum notch [60hz]: limit 'notch depth'")
         assert gain["properties"]["variant"] == "60hz"
@@ -135,7 +135,7 @@ class TestResults:
 
     def test_caution_located_in_netlist(self):
         results = sarif(sample_result())["runs"][0]["results"]
-        lint = [r for r in results if r["ruleId"] in ("NC152", "NC154")]
+        lint = [r for r in results if r["ruleId"] in ("netlist-152", "netlist-154")]
         assert [r["locations"][0]["physicalLocation"] for r in lint] == [
             {"artifactLocation": {"uri": NOTCH_NET, "uriBaseId": SRCROOT},
              "region": {"startLine": 14, "startColumn": 9}},
@@ -146,22 +146,22 @@ class TestResults:
 
     def test_unchecked_spec_and_run_caution(self):
         results = sarif(sample_result())["runs"][0]["results"]
-        unchecked = next(r for r in results if r["ruleId"] == "spec/unchecked")
+        unchecked = next(r for r in results if r["ruleId"] == "run-unchecked")
         assert unchecked["locations"][0]["physicalLocation"] == {
             "artifactLocation": {"uri": LP_SPEC, "uriBaseId": SRCROOT}}
-        assert "error NC300: singular circuit" in unchecked["message"]["text"]
-        library = next(r for r in results if r["ruleId"] == "NC150")
+        assert "error analysis-300: singular circuit" in unchecked["message"]["text"]
+        library = next(r for r in results if r["ruleId"] == "netlist-150")
         assert library["locations"][0]["physicalLocation"]["region"] == {
             "startLine": 3, "startColumn": 1}
 
     def test_unlocated_notes_go_to_run_properties_once(self):
         run = sarif(sample_result())["runs"][0]
-        assert {"hazard", "safety"}.isdisjoint(r["ruleId"] for r in run["results"])
+        assert {"analysis-voltage", "analysis-hazard"}.isdisjoint(r["ruleId"] for r in run["results"])
         # the receiver's own hazard caution, then the general one once for the document
         # (the receiver warrants it; the notch variants do not)
         assert run["properties"]["cautions"] == [
-            {"code": "hazard", "severity": "caution", "message": HAZARD.message},
-            {"code": "safety", "severity": "caution", "message": HAZARD_CAUTION}]
+            {"code": "analysis-voltage", "severity": "caution", "message": HAZARD.message},
+            {"code": "analysis-hazard", "severity": "caution", "message": HAZARD_CAUTION}]
 
     def test_no_hazard_caution_unless_a_spec_warrants_it(self):
         plain = SpecResult("a.toml", "n.cir", "A", Status.PASS)
@@ -170,11 +170,11 @@ class TestResults:
 
     def test_run_wide_warning_without_position_is_a_property(self):
         result = CheckResult(specs=(), tool_version="0",
-                             cautions=(Caution("NC302", "slow", "warning"),))
+                             cautions=(Caution("analysis-302", "slow", "warning"),))
         run = build_log(result)["runs"][0]
         assert run["results"] == []
         assert run["properties"]["cautions"] == [
-            {"code": "NC302", "severity": "warning", "message": "slow"}]
+            {"code": "analysis-302", "severity": "warning", "message": "slow"}]
 
     def test_passing_and_skipped_limits_give_no_result(self):
         results = sarif(sample_result())["runs"][0]["results"]
@@ -185,7 +185,7 @@ class TestResults:
         text = sarif_text(sample_result())
         assert "\\u001b" not in text and "\\u0000" not in text
         results = json.loads(text)["runs"][0]["results"]
-        ripple = next(r for r in results if r["ruleId"] == "limit/ripple")
+        ripple = next(r for r in results if r["ruleId"] == "limit-ripple")
         assert ripple["message"]["text"].startswith(
             'RX-40k front end <rev "B"> & | *draft* \\x1b[31mred\\x00: ')
 
@@ -222,7 +222,7 @@ class TestUris:
 
     def test_caution_without_line_has_no_region(self):
         spec = SpecResult("s.toml", "n.cir", "t", Status.PASS,
-                          cautions=(Caution("NC150", "unknown directive", path="n.cir"),))
+                          cautions=(Caution("netlist-150", "unknown directive", path="n.cir"),))
         (res,) = build_log(CheckResult(specs=(spec,), tool_version="0"))["runs"][0]["results"]
         assert res["locations"][0]["physicalLocation"] == {
             "artifactLocation": {"uri": "n.cir", "uriBaseId": SRCROOT}}

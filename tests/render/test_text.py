@@ -96,7 +96,7 @@ def test_count_line():
 
 def test_unchecked_spec_shows_its_error_indented():
     out = text(sample_result())
-    assert "    sample_netlists/sk_lowpass.cir:7:1: error NC300: singular circuit" in out
+    assert "    sample_netlists/sk_lowpass.cir:7:1: error analysis-300: singular circuit" in out
     assert "\n        ^\n" in out  # the caret line keeps its place under the source line
 
 
@@ -148,22 +148,22 @@ def test_bidirectional_overrides_and_line_separators_are_shown_escaped():
     # U+202E would make a terminal show the rest of the line backwards; U+2028 and
     # U+0085 would break it. Only "\n" ends a line of an error message.
     out = text(CheckResult((_one("Quillmere \u202egnirts", "lim\u2066it"),
-                            _one(error="q.toml:1:1: error NC100: a\u2028b\x85c\nnext line"),),
+                            _one(error="q.toml:1:1: error netlist-100: a\u2028b\x85c\nnext line"),),
                            "0.1.0"))
     for ch in ("\u202e", "\u2066", "\u2028", "\x85"):
         assert ch not in out
     assert "Quillmere \\u202egnirts" in out and "lim\\u2066it" in out
-    assert "    q.toml:1:1: error NC100: a\\u2028b\\x85c\n    next line" in out
+    assert "    q.toml:1:1: error netlist-100: a\\u2028b\\x85c\n    next line" in out
 
 
 def test_long_text_from_inputs_is_bounded():
     long_title = "Quillmere " + "T" * 100_000
-    long_error = "\n".join(f"q.toml:{i}:1: error NC100: " + "e" * 5000 for i in range(1, 500))
+    long_error = "\n".join(f"q.toml:{i}:1: error netlist-100: " + "e" * 5000 for i in range(1, 500))
     out = text(CheckResult((_one(long_title), _one(error=long_error),
                             _one(message="m" * 50_000)), "0.1.0"))
     assert "(99810 more characters)" in out  # the title is cut at 200 characters
     assert max(len(line) for line in out.splitlines()) < 1200
-    assert "… (459 more lines)" in out and out.count("error NC100") == 40
+    assert "… (459 more lines)" in out and out.count("error netlist-100") == 40
 
 
 def test_family_matrix_escapes_variant_and_limit_names():

@@ -233,7 +233,7 @@ class TestLockedDown:
         evil = dataclasses.replace(
             base, title=f"Quillmere {IMG} {CSS_IMPORT}", limits=tuple(limits),
             curves=None, status=Status.FAIL,
-            cautions=base.cautions + (Caution("NC150", f"comment {LINK}", "warning", path, 3),),
+            cautions=base.cautions + (Caution("netlist-150", f"comment {LINK}", "warning", path, 3),),
             source_text=((path, f"* {IMG}\n* {LINK}\n* {CSS_IMPORT}\n" + text),)
             + base.source_text[1:])
         data, _, requests = render_logged(CheckResult((evil,), "0.1.0", CREATED))

@@ -278,7 +278,7 @@ class TestStress:
                     and f"#{e['sample']}" in section), e
     def test_cautions_next_to_the_table_and_on_page_one(self, tolerance):
         spec = tolerance.result.specs[0]
-        cautions = [c for c in spec.cautions if c.code == "stress"]
+        cautions = [c for c in spec.cautions if c.code == "analysis-stress"]
         assert cautions and "C1 sees" in cautions[0].message
         first = tolerance.pages[0]
         section_page = next(p for p in tolerance.pages if "IN WORDS" in p)
@@ -341,7 +341,7 @@ class TestFamily:
         specs[1] = dataclasses.replace(specs[1], status=Status.FAIL, limits=(
             dataclasses.replace(lim[0], status=Status.FAIL, margin=-12.5),) + lim[1:])
         specs[2] = dataclasses.replace(specs[2], status=Status.ERROR, limits=(), curves=None,
-                                       error="x.cir:3:1: error NC101: broken card")
+                                       error="x.cir:3:1: error netlist-101: broken card")
         ctx = pdf.build_context(CheckResult(tuple(specs), "0.1.0", CREATED), with_plots=False)
         fam = ctx["families"][0]
         assert fam["word"] == "ERROR"

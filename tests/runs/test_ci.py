@@ -138,7 +138,7 @@ class TestAffectedSpecs:
     def test_unknown_revision(self, repo):
         with pytest.raises(GitError) as info:
             affected_specs(_specs(repo), "origin/no-such-branch", str(repo))
-        assert info.value.code == "NC410"
+        assert info.value.code == "run-410"
         assert "unknown git revision 'origin/no-such-branch'" in info.value.message
         assert isinstance(info.value, NetcheckError)
 
@@ -152,7 +152,7 @@ class TestAffectedSpecs:
         plain.mkdir()
         with pytest.raises(GitError, match="not inside a git work tree") as info:
             affected_specs([], "HEAD", str(plain))
-        assert info.value.format().startswith(f"{plain}: error NC410: ")
+        assert info.value.format().startswith(f"{plain}: error run-410: ")
 
     def test_missing_directory(self, tmp_path):
         with pytest.raises(GitError, match="does not exist"):
@@ -202,7 +202,7 @@ class TestAffectedSpecs:
         got = affected_specs([str(bad), *_specs(repo)], "HEAD", str(repo))
         assert got.paths == (str(bad),)
         assert got.specs[0].changed == ()
-        assert "error NC200" in got.specs[0].error
+        assert "error spec-200" in got.specs[0].error
 
     def test_unparsable_netlist_falls_back_to_itself(self, repo):
         _write(repo / "nets" / "other.cir", OTHER_CIR + "R3 out (0) 1k\n")
@@ -426,7 +426,7 @@ class TestCompareBaseline:
     def test_errored_spec_drifts_every_limit_instead_of_removing_them(self):
         current = copy.deepcopy(BASELINE)
         current["specs"][1] = _spec("specs/notch.toml", status="error")
-        current["specs"][1]["error"] = "specs/notch.toml:1:1: error NC100: ..."
+        current["specs"][1]["error"] = "specs/notch.toml:1:1: error netlist-100: ..."
         report = compare_baseline(current, BASELINE)
         assert report.removed_limits == ()
         assert [d.limit for d in report.drifted] == [LimitRef(SpecRef("specs/notch.toml"),
@@ -489,7 +489,7 @@ class TestCompareBaseline:
     def test_not_a_result_document(self, doc, message):
         with pytest.raises(BaselineError, match=re.escape(message)) as info:
             compare_baseline(BASELINE, doc)
-        assert info.value.code == "NC411"
+        assert info.value.code == "run-411"
         assert info.value.location().startswith("baseline")
 
     def test_error_names_the_key(self):
@@ -512,7 +512,7 @@ class TestLoadBaseline:
         with pytest.raises(BaselineError) as info:
             load_baseline(path)
         text = info.value.format()
-        assert text.startswith(f"{path}:3:13: error NC411: not valid JSON: Expecting value")
+        assert text.startswith(f"{path}:3:13: error run-411: not valid JSON: Expecting value")
         # the source line, indented four spaces, and a caret under the stray comma
         assert text.splitlines()[1:] == ['      "specs": [,]', " " * 16 + "^"]
 

@@ -138,7 +138,7 @@ class TestTable:
     def test_reader_rejects_keys_of_another_kind(self):
         with pytest.raises(ValueError) as info:
             build({"kind": "ripple", "band": ["100", "1k"], "max_db": 1, "min_db": 0})
-        assert info.value.where == "limits[0].min_db" and info.value.code == "NC201"
+        assert info.value.where == "limits[0].min_db" and info.value.code == "spec-201"
 
     def test_limit_results_carry_index_and_line(self):
         lim = build(FULL_TABLES["ripple"], index=4)

@@ -128,7 +128,7 @@ class TestPercentages:
     def test_bad_percentages(self, written, message):
         err = fail(HEAD + f'\n[[limits]]\nkind = "resonance"\ncenter = "40k"\n'
                           f"center_tolerance = {written}\n")
-        assert (err.code, err.where) == ("NC202", "limits[0].center_tolerance")
+        assert (err.code, err.where) == ("spec-202", "limits[0].center_tolerance")
         assert message in err.message
 
 
@@ -136,86 +136,86 @@ class TestDidYouMean:
     def test_unknown_top_level_key(self):
         text = HEAD.replace("netlist =", "netlst =")
         err = fail(text)
-        assert (err.code, err.where) == ("NC201", "netlst")
+        assert (err.code, err.where) == ("spec-201", "netlst")
         assert "unknown key 'netlst'; did you mean 'netlist'?" in err.message
 
     def test_unknown_limit_key(self):
         text = HEAD + GAIN.replace("max_db", "max_dB")
         err = fail(text)
-        assert (err.code, err.where) == ("NC201", "limits[0].max_dB")
+        assert (err.code, err.where) == ("spec-201", "limits[0].max_dB")
         assert "did you mean 'max_db'?" in err.message
 
     def test_unknown_key_without_a_close_match_lists_the_known_ones(self):
         err = fail(HEAD.replace("points_per_decade", "ppd"))
-        assert (err.code, err.where) == ("NC201", "sweep.ppd")
+        assert (err.code, err.where) == ("spec-201", "sweep.ppd")
         assert "known keys: points_per_decade, start, stop" in err.message
 
     def test_unknown_limit_kind(self):
         err = fail(HEAD + GAIN.replace('kind = "gain"', 'kind = "gian"'))
-        assert (err.code, err.where) == ("NC201", "limits[0].kind")
+        assert (err.code, err.where) == ("spec-201", "limits[0].kind")
         assert "unknown limit kind 'gian'; did you mean 'gain'?" in err.message
         assert "corner, gain, group_delay" in err.message  # the kinds are listed
 
     def test_missing_limit_kind(self):
         err = fail(HEAD + GAIN.replace('kind = "gain"\n', ""))
-        assert (err.code, err.where) == ("NC202", "limits[0].kind")
+        assert (err.code, err.where) == ("spec-202", "limits[0].kind")
         assert err.message.startswith("limits[0].kind: missing (required)")
 
     @pytest.mark.parametrize("kind", ['["gain"]', "3"])
     def test_limit_kind_of_the_wrong_type(self, kind):
         err = fail(HEAD + GAIN.replace('kind = "gain"', f"kind = {kind}"))
-        assert (err.code, err.where) == ("NC202", "limits[0].kind")
+        assert (err.code, err.where) == ("spec-202", "limits[0].kind")
 
 
 #: (case, TOML text, key path, code, text expected in the message)
 ERRORS = [
-    ("string expected", HEAD.replace('source = "VIN"', "source = 3"), "source", "NC202",
+    ("string expected", HEAD.replace('source = "VIN"', "source = 3"), "source", "spec-202",
      "expected a non-empty string, got 3"),
     ("number expected", HEAD + GAIN.replace("max_db = 1", 'max_db = "loud"'),
-     "limits[0].max_db", "NC202", "'loud' is not a number"),
+     "limits[0].max_db", "spec-202", "'loud' is not a number"),
     ("boolean is not a number", HEAD + GAIN.replace("max_db = 1", "max_db = true"),
-     "limits[0].max_db", "NC202", "expected a number"),
+     "limits[0].max_db", "spec-202", "expected a number"),
     ("not finite", HEAD + GAIN.replace("max_db = 1", "max_db = nan"), "limits[0].max_db",
-     "NC202", "nan is not finite"),
+     "spec-202", "nan is not finite"),
     ("whole number", HEAD.replace("points_per_decade = 50", "points_per_decade = 7.5"),
-     "sweep.points_per_decade", "NC202", "expected a whole number >= 2, got 7.5"),
-    ("flag", "allow_negative = 1\n" + HEAD, "allow_negative", "NC202", "expected true or false"),
-    ("sweep not a table", HEAD.split("[sweep]")[0] + "sweep = 3\n", "sweep", "NC202",
+     "sweep.points_per_decade", "spec-202", "expected a whole number >= 2, got 7.5"),
+    ("flag", "allow_negative = 1\n" + HEAD, "allow_negative", "spec-202", "expected true or false"),
+    ("sweep not a table", HEAD.split("[sweep]")[0] + "sweep = 3\n", "sweep", "spec-202",
      "expected a table"),
-    ("limits not an array", HEAD.replace("[sweep]", "limits = 3\n[sweep]"), "limits", "NC202",
+    ("limits not an array", HEAD.replace("[sweep]", "limits = 3\n[sweep]"), "limits", "spec-202",
      "expected an array of tables"),
     ("limit not a table", HEAD.replace("[sweep]", "limits = [3]\n[sweep]"), "limits[0]",
-     "NC202", "expected a table"),
-    ("output shape", HEAD.replace('output = "out"', 'output = ["a"]'), "output", "NC202",
+     "spec-202", "expected a table"),
+    ("output shape", HEAD.replace('output = "out"', 'output = ["a"]'), "output", "spec-202",
      "expected a node name or [positive, negative]"),
     ("choice", HEAD + '\n[[limits]]\nkind = "corner"\nrange = ["2k", "3k"]\nside = "up"\n',
-     "limits[0].side", "NC202", "expected one of 'auto', 'high', 'low', got 'up'"),
+     "limits[0].side", "spec-202", "expected one of 'auto', 'high', 'low', got 'up'"),
     ("bounds length", HEAD + '\n[[limits]]\nkind = "resonance"\nq = [1, 2, 3]\n', "limits[0].q",
-     "NC202", "expected [min, max], got 3 values"),
+     "spec-202", "expected [min, max], got 3 values"),
     ("inverted q", HEAD + '\n[[limits]]\nkind = "resonance"\nq = [12, 10]\n', "limits[0].q",
-     "NC202", "min 12 is above max 10"),
+     "spec-202", "min 12 is above max 10"),
     ("inverted gain", HEAD + GAIN.replace("max_db = 1", "min_db = 3\nmax_db = 1"),
-     "limits[0].min_db", "NC202", "min_db 3 is above max_db 1"),
-    ("inverted sweep", HEAD.replace('start = "1k"', 'start = "200k"'), "sweep.start", "NC202",
+     "limits[0].min_db", "spec-202", "min_db 3 is above max_db 1"),
+    ("inverted sweep", HEAD.replace('start = "1k"', 'start = "200k"'), "sweep.start", "spec-202",
      "start 200k is not below stop 100k"),
     ("empty band", HEAD + GAIN.replace('["2k", "3k"]', '["2k", "2000"]'), "limits[0].band",
-     "NC202", "band is empty"),
+     "spec-202", "band is empty"),
     ("band outside the sweep", HEAD + GAIN.replace('["2k", "3k"]', '["50k", "400k"]'),
-     "limits[0].band", "NC202", "band 50k–400k Hz is outside the sweep 1k–100k Hz"),
+     "limits[0].band", "spec-202", "band 50k–400k Hz is outside the sweep 1k–100k Hz"),
     ("band below the sweep", HEAD + GAIN.replace('["2k", "3k"]', '[500, "3k"]'),
-     "limits[0].band", "NC202", "outside the sweep"),
+     "limits[0].band", "spec-202", "outside the sweep"),
     ("negative frequency", HEAD + GAIN.replace('["2k", "3k"]', '["-2k", "3k"]'),
-     "limits[0].band", "NC202", "values must be > 0"),
+     "limits[0].band", "spec-202", "values must be > 0"),
     ("negative ripple", HEAD + '\n[[limits]]\nkind = "ripple"\nband = ["2k", "3k"]\n'
-                               "max_db = -1\n", "limits[0].max_db", "NC202",
+                               "max_db = -1\n", "limits[0].max_db", "spec-202",
      "must not be negative"),
-    ("gain without bounds", HEAD + GAIN.replace("max_db = 1\n", ""), "limits[0]", "NC202",
+    ("gain without bounds", HEAD + GAIN.replace("max_db = 1\n", ""), "limits[0]", "spec-202",
      "a gain limit needs min_db, max_db or both"),
     ("centre without tolerance", HEAD + '\n[[limits]]\nkind = "resonance"\ncenter = "40k"\n',
-     "limits[0].center", "NC202", "give center_tolerance too"),
+     "limits[0].center", "spec-202", "give center_tolerance too"),
     ("tolerance without centre",
      HEAD + '\n[[limits]]\nkind = "resonance"\ncenter_tolerance = "1%"\nq = [1, 2]\n',
-     "limits[0].center_tolerance", "NC202", "needs center"),
+     "limits[0].center_tolerance", "spec-202", "needs center"),
 ]
 
 MISSING = [
@@ -245,13 +245,13 @@ class TestSpecErrors:
     @pytest.mark.parametrize("where, text", MISSING, ids=[m[0] for m in MISSING])
     def test_missing_required_key(self, where, text):
         err = fail(text)
-        assert (err.where, err.code) == (where, "NC202")
+        assert (err.where, err.code) == (where, "spec-202")
         assert err.message.startswith(f"{where}: missing (required)")
 
     def test_inverted_band_of_the_fourth_limit(self):
         text = HEAD + GAIN * 3 + GAIN.replace('["2k", "3k"]', '["50k", "40k"]')
         err = fail(text)
-        assert (err.where, err.code) == ("limits[3].band", "NC202")
+        assert (err.where, err.code) == ("limits[3].band", "spec-202")
         assert err.message == "limits[3].band: start 50k is above stop 40k"
 
     def test_format_points_at_the_key_once(self):
@@ -259,7 +259,7 @@ class TestSpecErrors:
         err = fail(text, "specs/q.toml")
         line = len(text.splitlines()) - 1  # the band line of the last limit
         head, source, caret = err.format().splitlines()
-        assert head == (f"specs/q.toml:{line}:1: error NC202: "
+        assert head == (f"specs/q.toml:{line}:1: error spec-202: "
                         "limits[3].band: start 50k is above stop 40k")
         assert source.strip() == 'band = ["50k", "40k"]'
         assert caret.strip() == "^^^^"  # under the key "band"
@@ -277,10 +277,10 @@ class TestSpecErrors:
     ])
     def test_bad_toml_has_line_and_column(self, snippet, line, column, what):
         err = fail(HEAD + "\n" + snippet)
-        assert err.code == "NC200"
+        assert err.code == "spec-200"
         assert (err.span.line, err.span.column) == (line, column)
         head, source, caret = err.format().splitlines()
-        assert head.startswith(f"q.toml:{line}:{column}: error NC200: not valid TOML: ")
+        assert head.startswith(f"q.toml:{line}:{column}: error spec-200: not valid TOML: ")
         assert what in head and "(at line" not in head
         assert source.strip() == snippet.strip()
         assert caret.index("^") == source.index(snippet.strip()) + column - 1
@@ -288,20 +288,20 @@ class TestSpecErrors:
     def test_unreadable_and_undecodable_files(self, tmp_path):
         with pytest.raises(SpecError) as info:
             load_spec(tmp_path / "absent.toml")
-        assert info.value.code == "NC200" and "cannot read spec" in info.value.message
+        assert info.value.code == "spec-200" and "cannot read spec" in info.value.message
         bad = tmp_path / "latin1.toml"
         bad.write_bytes(b'title = "caf\xe9"\n')
         with pytest.raises(SpecError) as info:
             load_spec(bad)
-        assert info.value.code == "NC200" and "not UTF-8" in info.value.message
+        assert info.value.code == "spec-200" and "not UTF-8" in info.value.message
 
     def test_every_spec_code_is_documented(self):
-        for code in ("NC200", "NC201", "NC202", "NC203"):
+        for code in ("spec-200", "spec-201", "spec-202", "spec-203"):
             assert code in CODES
 
 
 class TestReferencesToTheNetlist:
-    """Names the spec uses that the netlist does not have: error results with NC203."""
+    """Names the spec uses that the netlist does not have: error results with spec-203."""
 
     def check(self, tmp_path, source="VIN", output="out") -> object:
         (tmp_path / "filter.cir").write_text(NETLIST)
@@ -316,15 +316,15 @@ class TestReferencesToTheNetlist:
     def test_unknown_source(self, tmp_path):
         res = self.check(tmp_path, source="VX")
         assert res.status is Status.ERROR and res.limits == ()
-        assert "error NC203" in res.error and "'VX'" in res.error
-        assert [c.code for c in res.cautions] == ["NC203"]
+        assert "error spec-203" in res.error and "'VX'" in res.error
+        assert [c.code for c in res.cautions] == ["spec-203"]
         assert res.cautions[0].message.startswith("source: ")
 
     def test_unknown_output_node(self, tmp_path):
         res = self.check(tmp_path, output="nowhere")
         assert res.status is Status.ERROR
-        assert "error NC203" in res.error and "'nowhere'" in res.error
-        assert res.cautions[0].code == "NC203"
+        assert "error spec-203" in res.error and "'nowhere'" in res.error
+        assert res.cautions[0].code == "spec-203"
         assert res.cautions[0].message.startswith("output: ")
 
     def test_broken_spec_becomes_an_error_result(self, tmp_path):
@@ -332,8 +332,8 @@ class TestReferencesToTheNetlist:
         spec.write_text(HEAD.replace("netlist =", "netlst ="))
         res = check_spec(str(spec))
         assert res.status is Status.ERROR
-        assert res.error.startswith(f"{spec}:2:1: error NC201: netlst: unknown key")
-        assert (res.cautions[0].code, res.cautions[0].line) == ("NC201", 2)
+        assert res.error.startswith(f"{spec}:2:1: error spec-201: netlst: unknown key")
+        assert (res.cautions[0].code, res.cautions[0].line) == ("spec-201", 2)
 
 
 def test_corner_defaults():
@@ -416,12 +416,12 @@ def test_locate_points_other_stages_errors_at_their_key():
     from netcheck.spec import locate
 
     text = HEAD + '\n[[stress]]\nparts = "C*"\n\n[[stress]]\nparts = "L*"\nmax_curent = 1\n'
-    err = locate(SpecError("stress[1].max_curent: unknown key", code="NC201", path="q.toml",
+    err = locate(SpecError("stress[1].max_curent: unknown key", code="spec-201", path="q.toml",
                            where="stress[1].max_curent"), text)
     assert (err.span.line, err.span.column) == (line_of(text, "max_curent"), 1)
-    assert err.format().startswith(f"q.toml:{line_of(text, 'max_curent')}:1: error NC201: "
+    assert err.format().startswith(f"q.toml:{line_of(text, 'max_curent')}:1: error spec-201: "
                                    "stress[1].max_curent: unknown key")
-    assert (err.where, err.code) == ("stress[1].max_curent", "NC201")
+    assert (err.where, err.code) == ("stress[1].max_curent", "spec-201")
     # a missing key of the second [[stress]] table points at its header
     err = locate(SpecError("stress[1].max_voltage: missing", path="q.toml",
                            where="stress[1].max_voltage"), text)

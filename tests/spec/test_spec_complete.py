@@ -51,21 +51,21 @@ max_current = "200m"
 
 class TestBrokenTablesFailAtLoad:
     @pytest.mark.parametrize("extra, where, code, line", [
-        ('[tolerances]\nparts = { C1 = "150%" }\n', "tolerances.parts.C1", "NC202", 11),
-        ('[tolerances]\ndefualt = { R = "1%" }\n', "tolerances.defualt", "NC201", 11),
-        ('[tolerances]\ndistribution = "lognormal"\n', "tolerances.distribution", "NC202", 11),
-        ('[analysis]\nmode = ["everything"]\n', "analysis.mode", "NC202", 11),
-        ('[analysis]\nsamples = 1\n', "analysis.samples", "NC202", 11),
+        ('[tolerances]\nparts = { C1 = "150%" }\n', "tolerances.parts.C1", "spec-202", 11),
+        ('[tolerances]\ndefualt = { R = "1%" }\n', "tolerances.defualt", "spec-201", 11),
+        ('[tolerances]\ndistribution = "lognormal"\n', "tolerances.distribution", "spec-202", 11),
+        ('[analysis]\nmode = ["everything"]\n', "analysis.mode", "spec-202", 11),
+        ('[analysis]\nsamples = 1\n', "analysis.samples", "spec-202", 11),
         ('[[stress]]\nsource_amplitude = 1\nparts = "C*"\nmax_voltage = 5\n\n'
-         '[[stress]]\nparts = "L*"\nmax_current = -1\n', "stress[1].max_current", "NC202", 17),
-        ('[[stress]]\nparts = "C*"\nmax_voltage = 5\n', "stress[0].source_amplitude", "NC202",
+         '[[stress]]\nparts = "L*"\nmax_current = -1\n', "stress[1].max_current", "spec-202", 17),
+        ('[[stress]]\nparts = "C*"\nmax_voltage = 5\n', "stress[0].source_amplitude", "spec-202",
          10),
-        ('[stress]\nparts = "C*"\n', "stress", "NC202", None),
-        ('[variants]\nnetlist = ["a.cir"]\n', "variants.netlist", "NC201", 11),
-        ('[variants]\nnetlists = [""]\n', "variants.netlists", "NC202", 11),
-        ('[[variants.set]]\nname = 5\n', "variants.set[0].name", "NC202", 11),
+        ('[stress]\nparts = "C*"\n', "stress", "spec-202", None),
+        ('[variants]\nnetlist = ["a.cir"]\n', "variants.netlist", "spec-201", 11),
+        ('[variants]\nnetlists = [""]\n', "variants.netlists", "spec-202", 11),
+        ('[[variants.set]]\nname = 5\n', "variants.set[0].name", "spec-202", 11),
         ('[[variants.set]]\nname = "a"\nparams = { rval = "lots" }\n',
-         "variants.set[0].params", "NC202", 12),
+         "variants.set[0].params", "spec-202", 12),
     ])
     def test_parse_spec_raises_with_key_path_and_location(self, extra, where, code, line):
         err = pytest.raises(SpecError, parse_spec, HEAD + extra, "demo.toml").value
@@ -83,7 +83,7 @@ class TestBrokenTablesFailAtLoad:
         result = check_spec(str(spec))
         assert result.status.value == "error"
         (caution,) = result.cautions
-        assert (caution.code, caution.line) == ("NC202", 10)
+        assert (caution.code, caution.line) == ("spec-202", 10)
         assert caution.message.startswith("stress[0].source_amplitude: missing")
 
 

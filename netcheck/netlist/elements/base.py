@@ -48,7 +48,7 @@ class Element:
     passive: ClassVar[bool] = False
     #: the unit of ``value`` for reports
     unit: ClassVar[str] = ""
-    #: what ``value`` stamped out of range would make overflow or vanish (NC118 says it);
+    #: what ``value`` stamped out of range would make overflow or vanish (netlist-118 says it);
     #: empty for elements that stamp no value (independent sources)
     range_why: ClassVar[str] = ""
 

@@ -81,7 +81,7 @@ def build_limit(table: Any, index: int, path: str, sweep: Sweep, line: int | Non
         hint = f"; did you mean {close[0]!r}?" if close else ""
         SpecReader({}, where, path, {}).fail(
             "kind", f"unknown limit kind {kind!r}{hint} (kinds: {kinds})",
-            code="NC201" if isinstance(kind, str) else "NC202")
+            code="spec-201" if isinstance(kind, str) else "spec-202")
     cls = LIMITS[kind]
     rd = SpecReader(table, where, path, {"kind": "", "name": "", **cls.KEYS})
     name = rd.text("name")
