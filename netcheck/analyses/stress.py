@@ -84,8 +84,7 @@ _KIND_TEXT = {
     "current": "parts whose current is known: R, L, C, V, I, F, H",
     "power": "resistors",
 }
-_METHOD = ("full MNA solution on the sweep grid; the grid's local maxima and the pole "
-           "frequencies refined by bounded Brent search on log f with direct solves")
+_METHOD = "grid maxima and pole frequencies refined by Brent's bounded search"
 
 
 @dataclass(frozen=True, slots=True)

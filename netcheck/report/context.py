@@ -9,6 +9,7 @@ from ..runs.provenance import GitState, git_state
 from ..result import (HAZARD_SEVERITY, MODEL_STATEMENT, CheckResult,
                       LimitResult, SpecResult, Status, hazard_warranted)
 from ..netlist.units import format_eng, format_si
+from ..spec.limits import LIMITS
 from .formatting import (LISTING_ROWS_MAX, LISTING_TOTAL_MAX, MEASUREMENTS, caution_view,
                          cell_text, date_text, display_path, format_margin, format_measured,
                          listing, shown_name, status_view, unit_of)
@@ -17,16 +18,31 @@ from .view_family import family_views
 from .view_stress import stress_view
 from .view_tolerance import tolerance_view
 
-__all__ = ["build_context"]
+__all__ = ["build_context", "methods_section", "METHODS_STATEMENT"]
 
 _ENGINES = {
-    "dense": "the MNA system (G + jωC)·x = b solved directly at every grid point (LAPACK LU)",
-    "sparse": "the MNA system (G + jωC)·x = b factorised at every grid point (SuperLU)",
-    "pole-zero": "the transfer function in pole–zero product form from the generalised "
-                 "eigenvalues of the MNA pencil (Moler & Stewart, 1973), checked against "
-                 "direct solves at check points; any point whose error estimate is too large "
-                 "is solved directly",
+    "dense": "dense: (G + jωC)·x = b solved directly at every grid point (LAPACK LU)",
+    "sparse": "sparse: (G + jωC)·x = b factorised at every grid point (SuperLU)",
+    "pole-zero": "pole–zero form from the generalized eigenvalues of the MNA pencil, checked "
+                 "against direct solves",
 }
+
+#: sections of docs/methods.md for the result kinds that are not limit kinds (a limit
+#: kind's section is :meth:`~netcheck.spec.limits.base.Limit.methods_anchor`)
+_METHOD_SECTIONS = {"stress": "stress", "worst_case": "worst-case", "yield": "monte-carlo"}
+
+
+def methods_section(kind: str) -> str | None:
+    """The anchor of docs/methods.md that tells how a result of ``kind`` is measured."""
+    if kind in LIMITS:
+        return LIMITS[kind].methods_anchor()
+    return _METHOD_SECTIONS.get(kind)
+
+
+def _method(lim: LimitResult) -> str:
+    """The one-line method statement of a result: its own, or its kind's (an error result
+    of a limit kind records none)."""
+    return lim.method or (LIMITS[lim.kind].METHOD if lim.kind in LIMITS else "")
 
 
 def _recorded_git(value: Any) -> GitState | None:
@@ -49,7 +65,7 @@ def _limit_row(lim: LimitResult, spec_path: str) -> dict[str, Any]:
         "bound_wraps": fig.place is not None,
         "at": fig.at or "—", "at_full": fig.at_full, "below_floor": lim.below_floor,
         "definition": lim.definition,
-        "method": lim.method,
+        "method": _method(lim), "method_ref": methods_section(lim.kind),
         "message": lim.message, "unit": lim.unit or "(dimensionless)",
         "where": f"{display_path(spec_path)}:{lim.line}" if lim.line else
         display_path(spec_path),
@@ -205,6 +221,13 @@ def _extra_rows(value: Any, prefix: str = "", depth: int = 2,
     return rows
 
 
+#: the report's one citation of the methods document, in the front matter; each limit's
+#: method line names its section (:func:`methods_section`)
+METHODS_STATEMENT = ("How the circuit is solved, how each limit is measured, what the model "
+                     "leaves out, and the references: docs/methods.md in netcheck's "
+                     "documentation. Each limit's method line names its section there "
+                     "(methods.md#gain, for instance).")
+
 #: the hazardous-voltage caution of the front matter, after the model statement (which
 #: already says to verify by measurement); the terminal and the other documents print
 #: :data:`netcheck.result.HAZARD_CAUTION`
@@ -249,7 +272,7 @@ def build_context(result: CheckResult, with_plots: bool = True) -> dict[str, Any
         "tool_version": result.tool_version,
         # once per document, in its front matter: the model statement always, the
         # hazardous-voltage caution when some spec warrants it
-        "model_statement": MODEL_STATEMENT,
+        "model_statement": MODEL_STATEMENT, "methods_statement": METHODS_STATEMENT,
         "hazard": _HAZARD_PRACTICE if hazard_warranted(result.specs) else "",
         "run_cautions": [caution_view(c) for c in result.cautions],
         "title": shown_name(specs[0]["label"]) if len(specs) == 1 else

@@ -158,19 +158,45 @@ class TestContent:
 
     def test_sections_and_appendix(self, passing):
         result, text = passing.result, passing.text
-        for heading in ("Limits", "Response", "Limit by limit", "Method and assumptions",
+        for heading in ("Limits", "Response", "Limit by limit", "How this spec was computed",
                         "Cautions", "Inputs as read"):
             assert heading in text
-        assert "Ho, Ruehli & Brennan, 1975" in text
-        assert "|H_peak|/√2" in text
-        assert "Parasitic resistance, capacitance, inductance" in text
         assert "follow local codes and licensed practice" in words(text)
         sweep = dict(result.specs[0].sweep)
         assert f"{sweep['points']} points" in text
+        assert f"{sweep['unknowns']} unknowns of modified nodal analysis" in text
+        # (pypdf reads a detail's value before its label, "… analysis)Not judged")
+        assert "part tolerances (the spec asks for no tolerance analysis)Not judged" in text
         # the netlist as read, line by line
         netlist = dict(result.specs[0].source_text)[result.specs[0].inputs[0][0]]
         for line in netlist.splitlines()[:5]:
             assert words(line) in text
+
+    def test_methods_cited_not_repeated(self, passing):
+        # the full methods live in docs/methods.md (tests/report/test_methods_doc.py): the
+        # report cites it once, in its front matter, and repeats no section or reference
+        text = passing.text
+        assert "Method and assumptions" not in text
+        # (a line may break after "docs/": compared without spaces)
+        bare = text.replace(" ", "")
+        assert bare.count("docs/methods.md") == 1 and "docs/methods.md" in \
+            passing.first.replace(" ", "")
+        for reference in ("Ruehli", "Moler", "Brennan", "1973)", "1975)"):
+            assert reference not in text, reference
+        assert text.count("This is an analysis of a circuit model") == 1  # once, page 1
+
+    def test_every_detail_has_its_method_line(self, passing):
+        # each limit's detail: "Method <one-line statement> — methods.md#<section>" (pypdf
+        # reads the value before its label); the sections are the limit kinds with "_" as
+        # "-", and "stress" for part stress
+        text = passing.text
+        section = {"group_delay": "group-delay"}
+        spec = passing.result.specs[0]
+        assert {lim.kind for lim in spec.limits} >= {"gain", "resonance", "stress"}
+        for lim in spec.limits:
+            assert lim.method, lim.name
+            line = f"{lim.method} — methods.md#{section.get(lim.kind, lim.kind)}Method"
+            assert words(line) in text, lim.name
 
     def test_clean_render(self, passing):
         assert passing.warnings == []

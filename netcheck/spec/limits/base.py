@@ -230,6 +230,14 @@ class Limit:
     KEYS: ClassVar[dict[str, str]] = {}
     #: one-line summary for docs
     SUMMARY: ClassVar[str] = ""
+    #: one-line statement of how the kind is measured (each result's ``method``); the
+    #: full method is the kind's section of docs/methods.md (:meth:`methods_anchor`)
+    METHOD: ClassVar[str] = ""
+
+    @classmethod
+    def methods_anchor(cls) -> str:
+        """The anchor of this kind's section in docs/methods.md (``group-delay``)."""
+        return cls.kind.replace("_", "-")
 
     @classmethod
     def from_table(cls, rd: SpecReader, sweep: Sweep, name: str | None, index: int,

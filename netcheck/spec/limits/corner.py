@@ -29,6 +29,10 @@ class CornerLimit(Limit):
 
     kind: ClassVar[str] = "corner"
     SUMMARY: ClassVar[str] = "frequency where gain falls level_db below the pass-band, in a range"
+    METHOD: ClassVar[str] = (
+        "first crossing from the peak; Brent's root-finding on the exact "
+        "gain"
+    )
     KEYS: ClassVar[dict[str, str]] = {
         "range": "[min, max] allowed corner frequency, Hz",
         "level_db": "drop below the reference, dB (default: half-power, 10 log10 2 dB)",
@@ -56,7 +60,7 @@ class CornerLimit(Limit):
         ref = "the peak gain" if self.reference_db is None else format_eng(self.reference_db, "dB")
         return (judge_range(self.name, self.kind, self.range[0], self.range[1], e, e, "Hz",
                             f"frequency where gain is {level} below {ref}",
-                            "Brent's method on the exact response", self.index, self.line),)
+                            self.METHOD, self.index, self.line),)
 
     def judge_batch(self, bp: BatchProbe) -> Rows:
         f = bp.corner(self.level_db, self.reference_db, self.side)

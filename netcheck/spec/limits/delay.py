@@ -29,6 +29,9 @@ class GroupDelayLimit(Limit):
 
     kind: ClassVar[str] = "group_delay"
     SUMMARY: ClassVar[str] = "group delay −dφ/dω over a band: max, min and max_variation"
+    METHOD: ClassVar[str] = (
+        "exact −dφ/dω; band extremes by Brent's bounded minimisation"
+    )
     KEYS: ClassVar[dict[str, str]] = {"band": "[start, stop], Hz", "max": "largest delay, s",
                                       "min": "smallest delay, s",
                                       "max_variation": "largest max − min over the band, s"}
@@ -48,7 +51,7 @@ class GroupDelayLimit(Limit):
         except MeasurementFailure as err:
             return (self.error(str(err), "s"),)
         out = []
-        method = "exact derivative of the solution; extremes by bounded minimisation"
+        method = self.METHOD
         if self.max is not None or self.min is not None:
             out.append(judge_range(self.name, self.kind, self.min, self.max, vmin, vmax, "s",
                                    f"group delay −dφ/dω over {band_text(self.band)}", method,

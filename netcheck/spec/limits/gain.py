@@ -29,6 +29,10 @@ class GainLimit(Limit):
 
     kind: ClassVar[str] = "gain"
     SUMMARY: ClassVar[str] = "gain over a band between min_db and/or max_db (pass-band, stop-band)"
+    METHOD: ClassVar[str] = (
+        "true band extremes by Brent's root-finding on the exact gain "
+        "derivative"
+    )
     KEYS: ClassVar[dict[str, str]] = {
         "band": "[start, stop], Hz",
         "min_db": "lowest allowed gain, dB",
@@ -66,7 +70,7 @@ class GainLimit(Limit):
         r = judge_range(
             self.name, self.kind, self.min_db, self.max_db, vmin, vmax, "dB",
             f"true {which} of gain{re} over {band_text(self.band)}",
-            "grid samples and pole/zero seeds refined by Brent's method on the exact derivative",
+            self.METHOD,
             self.index, self.line)
         # a gain at the numerical floor (an exact transmission zero) is not a number
         floor = gain_floor_db(probe, r.at_hz, r.measured + offset)

@@ -27,6 +27,10 @@ class ImpedanceLimit(Limit):
 
     kind: ClassVar[str] = "impedance"
     SUMMARY: ClassVar[str] = "input impedance magnitude seen by the source, over a band"
+    METHOD: ClassVar[str] = (
+        "|Z_in| by direct solves; true band extremes by Brent's "
+        "root-finding"
+    )
     KEYS: ClassVar[dict[str, str]] = {"band": "[start, stop], Hz",
                                       "range": "[min, max] |Z|, ohms"}
 
@@ -45,8 +49,7 @@ class ImpedanceLimit(Limit):
         to_ohm = lambda e: Extremum(e.frequency_hz, 10.0 ** (e.value / 20.0))  # noqa: E731
         return (judge_range(self.name, self.kind, self.range[0], self.range[1], to_ohm(zmin),
                             to_ohm(zmax), "Ω", f"|Z_in| seen by the stimulus over "
-                            f"{band_text(self.band)}", "true band extremes of the exact "
-                            "input impedance", self.index, self.line),)
+                            f"{band_text(self.band)}", self.METHOD, self.index, self.line),)
 
     def judge_batch(self, bp: BatchProbe) -> Rows:
         zmin, zmax = bp.band_extremes("impedance_db", *self.band)

@@ -27,6 +27,9 @@ class PhaseLimit(Limit):
 
     kind: ClassVar[str] = "phase"
     SUMMARY: ClassVar[str] = "phase over a band within range_deg"
+    METHOD: ClassVar[str] = (
+        "unwrapped phase; true band extremes by Brent's root-finding"
+    )
     KEYS: ClassVar[dict[str, str]] = {"band": "[start, stop], Hz",
                                       "range_deg": "[min, max] phase, degrees"}
 
@@ -45,7 +48,7 @@ class PhaseLimit(Limit):
         return (judge_range(self.name, self.kind, self.range_deg[0], self.range_deg[1], vmin,
                             vmax, "deg", f"phase over {band_text(self.band)}, unwrapped "
                             "continuously from the start of the sweep",
-                            "true band extremes (bounded minimisation)", self.index, self.line),)
+                            self.METHOD, self.index, self.line),)
 
     def mask(self) -> tuple[MaskBand, ...]:
         return (MaskBand(self.name, self.band[0], self.band[1], self.range_deg[0],

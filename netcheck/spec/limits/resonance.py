@@ -34,6 +34,9 @@ class ResonanceLimit(Limit):
 
     kind: ClassVar[str] = "resonance"
     SUMMARY: ClassVar[str] = "centre frequency, half-power bandwidth and Q of the main peak"
+    METHOD: ClassVar[str] = (
+        "true peak of the exact gain; edges by Brent's root-finding on it"
+    )
     KEYS: ClassVar[dict[str, str]] = {
         "center": "expected centre frequency f_center = sqrt(f_low f_high), Hz",
         "center_tolerance": "allowed deviation of the centre: '1%', '20ppm', '5ppb' or Hz "
@@ -70,7 +73,7 @@ class ResonanceLimit(Limit):
             f"{self.level_db:g} dB below the peak"
         edges = (f"edges at {level}: f_low {format_si(res.f_low_hz, 'Hz', 7)}, "
                  f"f_high {format_si(res.f_high_hz, 'Hz', 7)}")
-        method = "peak by root of the exact gain derivative; edges by Brent's method"
+        method = self.METHOD
         out = []
         if self.center is not None:
             dev = abs(res.f_center_hz - self.center)

@@ -27,6 +27,9 @@ class RippleLimit(Limit):
 
     kind: ClassVar[str] = "ripple"
     SUMMARY: ClassVar[str] = "max minus min gain over a band, at most max_db"
+    METHOD: ClassVar[str] = (
+        "highest minus lowest of the true band extremes of the gain"
+    )
     KEYS: ClassVar[dict[str, str]] = {"band": "[start, stop], Hz",
                                       "max_db": "largest allowed ripple, dB"}
 
@@ -51,7 +54,7 @@ class RippleLimit(Limit):
                             f"maximum minus minimum gain over {band_text(self.band)} (max "
                             f"{format_eng(vmax.value, 'dB')} at {format_si(vmax.frequency_hz, 'Hz')}, "
                             f"min {format_eng(vmin.value, 'dB')} at {format_si(vmin.frequency_hz, 'Hz')})",
-                            "true band extremes (Brent's method on the exact response)",
+                            self.METHOD,
                             "", self.index, self.line),)
 
     def judge_batch(self, bp: BatchProbe) -> Rows:
