@@ -1,4 +1,4 @@
-"""Terminal table: one compact, aligned table per spec, failures first, then a count line."""
+"""Terminal table: one compact, aligned table per spec, failures first, then the run's headline."""
 
 from __future__ import annotations
 
