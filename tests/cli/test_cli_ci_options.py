@@ -9,7 +9,7 @@ from pathlib import Path
 
 import pytest
 
-from netcheck.cli import BAD_INPUT, DRIFT, OK, main
+from netcheck.cli import BAD_INPUT, MARGIN_SHRANK, OK, main
 
 ROOT = Path(__file__).resolve().parents[2]
 
@@ -29,7 +29,7 @@ def test_baseline_drift_exit_code(tmp_path, capsys):
     out = capsys.readouterr().out
     assert "drift:" in out and "2 drifted" in out
     assert main(["check", str(ROOT / "specs/rx40k.toml"), "--baseline", str(base),
-                 "--fail-on-drift"]) == DRIFT
+                 "--fail-on-drift"]) == MARGIN_SHRANK
     # a larger allowance: nothing drifts
     assert main(["check", str(ROOT / "specs/rx40k.toml"), "--baseline", str(base),
                  "--fail-on-drift", "--drift-db", "2"]) == OK

@@ -15,7 +15,7 @@ import pytest
 import yaml
 
 import netcheck.runs.baseline
-import netcheck.runs.changed_since
+import netcheck.runs.affected
 from netcheck.runs.ci import (AffectedSpec, BaselineError, GitError, LimitRef, SpecRef,
                          affected_specs, compare_baseline, load_baseline, validate_result)
 from netcheck.exceptions import NetcheckError
@@ -166,7 +166,7 @@ class TestAffectedSpecs:
     def test_git_timeout(self, repo, monkeypatch):
         def hang(cmd, **kwargs):
             raise subprocess.TimeoutExpired(cmd, kwargs["timeout"])
-        monkeypatch.setattr(netcheck.runs.changed_since.subprocess, "run", hang)
+        monkeypatch.setattr(netcheck.runs.affected.subprocess, "run", hang)
         with pytest.raises(GitError, match=r"did not finish within 2\.5 s"):
             affected_specs(_specs(repo), "HEAD", str(repo), timeout=2.5)
 
