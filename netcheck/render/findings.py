@@ -15,6 +15,8 @@ as it stands, when that bound is zero). A limit that could not be measured ranks
 than any margin; a missed limit without a margin ranks after those and before every
 margin. Ties go to the first limit in spec order.
 
+A limit's name in a headline is cut to :data:`~netcheck.render.NAME_SHOWN_MAX` characters.
+
 **A location** is written as the diagnostics print theirs: ``path:line:col: severity
 code: message``, with the path normalised (``specs/../sample_netlists/x.cir`` →
 ``sample_netlists/x.cir``; an absolute path below the working folder relative to it).
@@ -26,7 +28,9 @@ import math
 import os
 import posixpath
 
+from ..netlist.source import clip
 from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
+from . import NAME_SHOWN_MAX
 
 __all__ = ["shortfall", "worst_limit", "spec_headline", "run_headline", "display_path",
            "location", "caution_line", "MARK"]
@@ -78,11 +82,12 @@ def worst_limit(limits) -> LimitResult | None:
 
 
 def _worst_text(lim: LimitResult) -> str:
+    name = clip(lim.name, NAME_SHOWN_MAX)  # a headline stays a line, whatever the name
     if lim.status is Status.ERROR:
-        return f"{lim.name} could not be measured"
+        return f"{name} could not be measured"
     if lim.margin is None:
-        return f"{lim.name} missed"
-    return f"{lim.name} {lim.figures.margin}"
+        return f"{name} missed"
+    return f"{name} {lim.figures.margin}"
 
 
 def _tally(counts: dict[str, int]) -> str:
@@ -134,7 +139,7 @@ def run_headline(result: CheckResult) -> str:
         several = counts["fail"] + counts["error"] > 1
         text += f" ({'worst: ' if several else ''}{_worst_text(worst)} in " \
                 f"{display_path(where.spec)}"
-        text += f" [{where.variant}])" if where.variant else ")"
+        text += f" [{clip(where.variant, NAME_SHOWN_MAX)}])" if where.variant else ")"
     if counts["skipped"]:
         text += f"; {counts['skipped']} not applicable"
     not_checked = sum(1 for s in result.specs if s.error)

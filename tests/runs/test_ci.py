@@ -480,7 +480,7 @@ class TestCompareBaseline:
         ([], "not a netcheck result: expected a JSON object"),
         ({"specs": []}, 'no "schema" key'),
         ({"schema": "coverage.py/7", "specs": []}, "not a netcheck result: schema is"),
-        ({"schema": "netcheck.result/2", "specs": []}, "regenerate the baseline"),
+        ({"schema": "netcheck.result/2", "specs": []}, "write the earlier result again"),
         ({"schema": SCHEMA, "specs": {}}, "expected an array of spec results"),
         ({"schema": SCHEMA, "specs": [{"spec": "a.toml", "limits": [{"name": "g",
                                                                        "margin": "big"}]}]},
@@ -490,7 +490,7 @@ class TestCompareBaseline:
         with pytest.raises(BaselineError, match=re.escape(message)) as info:
             compare_baseline(BASELINE, doc)
         assert info.value.code == "run-411"
-        assert info.value.location().startswith("baseline")
+        assert info.value.location().startswith("earlier result")
 
     def test_error_names_the_key(self):
         doc = copy.deepcopy(BASELINE)
@@ -517,7 +517,7 @@ class TestLoadBaseline:
         assert text.splitlines()[1:] == ['      "specs": [,]', " " * 16 + "^"]
 
     def test_missing_file(self, tmp_path):
-        with pytest.raises(BaselineError, match="cannot read baseline"):
+        with pytest.raises(BaselineError, match="cannot read earlier result"):
             load_baseline(tmp_path / "absent.json")
 
     def test_not_utf8(self, tmp_path):
