@@ -1,4 +1,5 @@
-"""Tests for netcheck.runs.ci: affected specs from git, baseline drift, the pre-commit hook."""
+"""Tests for netcheck.runs.ci: affected specs from git, margins that shrank since an earlier
+result (the "baseline" of the Python names), the pre-commit hook."""
 
 from __future__ import annotations
 
@@ -587,6 +588,9 @@ def test_docs_use_only_options_the_cli_has():
     text = (ROOT / "docs" / "ci.md").read_text(encoding="utf-8").replace("\\\n", " ")
     used = {opt for line in text.splitlines() if "netcheck check" in line
             for opt in re.findall(r"(?<![\w-])--[a-z][a-z-]*", line)}
-    assert {"--junit", "--json", "--summary-md", "--sarif", "--changed-since",
-            "--baseline", "--fail-on-drift"} <= used
+    assert {"--junit", "--json", "--summary-md", "--sarif", "--affected-since",
+            "--compare-margins", "--fail-on-shrink"} <= used
     assert used <= known, sorted(used - known)
+    # the examples use the current names, not the earlier spellings kept as aliases
+    assert not used & {"--changed-since", "--baseline", "--drift-db", "--drift-rel",
+                       "--fail-on-drift"}
