@@ -19,21 +19,20 @@ A limit's name in a headline is cut to :data:`~netcheck.render.NAME_SHOWN_MAX` c
 
 **A location** is written as the diagnostics print theirs: ``path:line:col: severity
 code: message``, with the path normalised (``specs/../sample_netlists/x.cir`` →
-``sample_netlists/x.cir``; an absolute path below the working folder relative to it).
+``sample_netlists/x.cir``, :func:`netcheck.netlist.source.display_path`, as the PDF
+report and SARIF show paths); an absolute path stays absolute, as it was given.
 """
 
 from __future__ import annotations
 
 import math
-import os
-import posixpath
 
-from ..netlist.source import clip
+from ..netlist.source import clip, display_path
 from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
 from . import NAME_SHOWN_MAX
 
-__all__ = ["shortfall", "worst_limit", "spec_headline", "run_headline", "display_path",
-           "location", "caution_line", "MARK"]
+__all__ = ["shortfall", "worst_limit", "spec_headline", "run_headline", "location",
+           "caution_line", "MARK"]
 
 #: the symbol before a spec's or the run's headline (never colour alone)
 MARK = {Status.PASS: "✓", Status.FAIL: "✗", Status.ERROR: "!", Status.SKIPPED: "-"}
@@ -146,21 +145,6 @@ def run_headline(result: CheckResult) -> str:
     if not_checked:
         text += f"; {_plural(not_checked, 'spec')} not checked"
     return text
-
-
-def display_path(path: str) -> str:
-    """``path`` as a reader wants it: ``a/../b`` folded, an absolute path below the
-    working folder made relative to it; anything else as it is."""
-    if not path or path == "-":
-        return path
-    try:
-        if os.path.isabs(path):
-            rel = os.path.relpath(path)
-            return rel if not rel.startswith("..") else os.path.normpath(path)
-        sep = "\\" if "\\" in path and "/" not in path else "/"
-        return posixpath.normpath(path.replace("\\", "/")).replace("/", sep)
-    except ValueError:  # another drive on Windows
-        return path
 
 
 def location(path: str | None, line: int | None = None, column: int | None = None) -> str:

@@ -35,7 +35,8 @@ from ..result import (HAZARD_CAUTION, Caution, CheckResult, LimitResult, SpecRes
                       hazard_warranted)
 from ..netlist.source import clip
 from . import NAME_SHOWN_MAX, TEXT_SHOWN_MAX, RenderOptions
-from .findings import MARK, caution_line, display_path, run_headline, spec_headline
+from ..netlist.source import display_path
+from .findings import MARK, caution_line, run_headline, spec_headline
 
 __all__ = ["render", "md_text", "md_name"]
 

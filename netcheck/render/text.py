@@ -6,8 +6,8 @@ from typing import IO, Any
 
 from ..result import (HAZARD_CAUTION, MODEL_STATEMENT, Caution, CheckResult, LimitResult,
                       SpecResult, Status, hazard_warranted)
-from ..netlist.source import MESSAGE_MAX, printable
-from .findings import MARK, caution_line, display_path, run_headline, spec_headline
+from ..netlist.source import MESSAGE_MAX, display_path, printable
+from .findings import MARK, caution_line, run_headline, spec_headline
 
 __all__ = ["render", "LINE_MAX", "ERROR_LINES_MAX"]
 
