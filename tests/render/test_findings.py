@@ -133,3 +133,14 @@ class TestLocation:
         # folded (a/../b), as the PDF report and SARIF show it; kept absolute as given
         inside = os.path.join(os.getcwd(), "specs", "..", "sample_netlists", "x.cir")
         assert display_path(inside) == os.path.join(os.getcwd(), "sample_netlists", "x.cir")
+
+    def test_errors_fold_their_paths_the_same_way(self):
+        from netcheck.exceptions import NetcheckError
+        from netcheck.netlist.source import SourceFile
+
+        span = SourceFile("specs/../sample_netlists/rx40k.cir", "R1 a b 1k\nR9 a b xyz\n").span(2, 8)
+        err = NetcheckError("undefined parameter 'xyz'", span, code="netlist-102")
+        assert err.format().splitlines()[0] == \
+            "sample_netlists/rx40k.cir:2:8: error netlist-102: undefined parameter 'xyz'"
+        c = Caution("netlist-154", "m", path="specs/../sample_netlists/rx40k.cir", line=2, column=8)
+        assert caution_line(c).split(": warning")[0] == err.location()
