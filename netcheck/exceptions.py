@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .netlist.source import Span, format_caret, printable
+from .netlist.source import Span, display_path, format_caret, printable
 
 __all__ = [
     "NetcheckError", "NetlistSyntaxError", "ElaborationError", "SpecError",
@@ -56,8 +56,8 @@ CODES: dict[str, str] = {
     "run-400": "could not write output",
     "run-401": "output refused (an input of the run, a device or FIFO, two outputs to -)",
     "run-402": "bad command-line value",
-    "run-410": "git could not answer (--changed-since)",
-    "run-411": "baseline result file is not usable",
+    "run-410": "git could not answer (--affected-since)",
+    "run-411": "earlier result file is not usable (--compare-margins)",
     "run-420": "worker process lost (killed, or out of memory)",
     "run-421": "out of memory or recursion depth while checking",
     "internal-500": "internal error in netcheck (a bug)",
@@ -99,13 +99,13 @@ class NetcheckError(Exception):
 
     def location(self) -> str:
         """``file:line:col`` (or ``file`` / ``file: key.path``) of the error."""
-        if self.span is not None:
-            return str(self.span)
-        if self.path and self.where:
+        if self.span is not None:  # the path as a reader wants it (a/../b folded)
+            return f"{display_path(self.span.source.path)}:{self.span.line}:{self.span.column}"
+        path = display_path(self.path) if self.path else self.path
+        if path and self.where:
             # messages that already start with their key path need it only once
-            return self.path if self.message.startswith(self.where) else \
-                f"{self.path}: {self.where}"
-        return self.path or self.where or "netcheck"
+            return path if self.message.startswith(self.where) else f"{path}: {self.where}"
+        return path or self.where or "netcheck"
 
     def format(self) -> str:
         """Compiler-style message: location, code, message, source line and caret.

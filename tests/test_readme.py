@@ -64,3 +64,12 @@ def test_missing_system_library_names_pango(monkeypatch, capsys, tmp_path):
     err = capsys.readouterr().err.strip()
     assert code == BAD_INPUT and err.count("\n") == 0
     assert "libpango-1.0-0" in err and "apt-get install" in err
+
+
+def test_readme_failure_example_is_the_real_output(capsys, monkeypatch):
+    # the README's console example, line for line, against what the command prints now
+    text = (ROOT / "README.md").read_text("utf-8")
+    block = text.split("```console\n$ netcheck check specs/failing\n", 1)[1].split("```", 1)[0]
+    monkeypatch.chdir(ROOT)
+    assert main(["check", "specs/failing", "--color", "never"]) == 1
+    assert capsys.readouterr().out.splitlines() == block.splitlines()

@@ -5,9 +5,9 @@ neither numpy nor the report libraries."""
 from __future__ import annotations
 
 from .args import cluster_address, job_count, safe_text, threshold
-from .exitcodes import BAD_INPUT, DRIFT, FAIL, INTERNAL, INTERRUPTED, OK, TERMINATED
+from .exitcodes import BAD_INPUT, MARGIN_SHRANK, FAIL, INTERNAL, INTERRUPTED, OK, TERMINATED
 from .main import build_parser, main
 
-__all__ = ["main", "build_parser", "OK", "FAIL", "BAD_INPUT", "INTERNAL", "DRIFT",
+__all__ = ["main", "build_parser", "OK", "FAIL", "BAD_INPUT", "INTERNAL", "MARGIN_SHRANK",
            "INTERRUPTED", "TERMINATED", "safe_text", "job_count", "threshold",
            "cluster_address"]

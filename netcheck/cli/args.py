@@ -1,5 +1,6 @@
-"""Command-line value types (``--jobs``, ``--drift-db``, ``--cluster``) and
-:func:`safe_text`, through which everything printed that came from an input goes."""
+"""Command-line value types (``--jobs``, ``--shrink-db``, ``--cluster``), the
+:class:`Renamed` action of an option's old spelling, and :func:`safe_text`, through which
+everything printed that came from an input goes."""
 
 from __future__ import annotations
 
@@ -10,7 +11,7 @@ import re
 from ..netlist.source import printable
 
 __all__ = ["safe_text", "job_count", "threshold", "cluster_address", "eng_value",
-           "positive_int", "LINE_MAX", "LINES_MAX"]
+           "positive_int", "Renamed", "renamed_notes", "LINE_MAX", "LINES_MAX"]
 
 #: the most characters of one printed line that carries text from an input
 LINE_MAX = 1000
@@ -59,7 +60,7 @@ def job_count(text: str) -> int:
 
 
 def threshold(text: str) -> float:
-    """``--drift-db``/``--drift-rel``: a finite number, zero or more."""
+    """``--shrink-db``/``--shrink-rel``: a finite number, zero or more."""
     try:
         value = float(text)
     except ValueError:
@@ -69,6 +70,32 @@ def threshold(text: str) -> float:
         raise argparse.ArgumentTypeError(f"{_shown(text)} is not accepted; give a finite "
                                          "number, zero or more")
     return value
+
+
+class Renamed(argparse.Action):
+    """The old spelling of a renamed option: still accepted (hidden from ``--help``), its
+    value stored under the new option's name, and the use remembered so that the command
+    can say once what the option is called now (:func:`renamed_notes`)."""
+
+    def __init__(self, option_strings, dest, *, new: str, **kwargs) -> None:
+        kwargs.setdefault("default", argparse.SUPPRESS)  # the new option's default stands
+        kwargs.setdefault("help", argparse.SUPPRESS)
+        super().__init__(option_strings, dest, **kwargs)
+        self.new = new
+
+    def __call__(self, parser, namespace, values, option_string=None) -> None:
+        setattr(namespace, self.dest, self.const if self.nargs == 0 else values)
+        used = list(getattr(namespace, "renamed_options", None) or [])
+        if (option_string, self.new) not in used:
+            used.append((option_string, self.new))
+        namespace.renamed_options = used
+
+
+def renamed_notes(namespace: argparse.Namespace, command: str) -> list[str]:
+    """One note per old option spelling used, naming the new one."""
+    return [f"netcheck {command}: note: {old} is now called {new}; the old name still works "
+            "but will be removed in a later version"
+            for old, new in getattr(namespace, "renamed_options", None) or []]
 
 
 _HOST = re.compile(r"^(?:\[[0-9A-Fa-f:.]+\]|[A-Za-z0-9](?:[A-Za-z0-9.-]{0,251}[A-Za-z0-9])?)$")

@@ -39,11 +39,11 @@ FILE_OUTPUTS = (("--json", "json", "json"), ("--junit", "junit", "junit"),
 
 def add_check_parser(sub, common: Callable[[argparse.ArgumentParser], None]) -> None:
     """Register ``check`` and its options."""
-    from .args import cluster_address, job_count, threshold
+    from .args import Renamed, cluster_address, job_count, threshold
 
     ck = sub.add_parser("check", help="judge spec files against their netlists",
-                        description="Judge every limit of every spec; exit 0 when all pass, "
-                        "1 when a limit fails, 2 when an input is bad.")
+                        description="Judge every limit of every spec; exit 0 when every limit is met, "
+                        "1 when a limit is missed or could not be measured, 2 when an input is bad.")
     ck.add_argument("paths", nargs="+", metavar="SPEC", help="spec files or directories")
     ck.add_argument("--json", metavar="PATH", help="write the JSON result ('-' = stdout)")
     ck.add_argument("--junit", metavar="PATH", help="write JUnit XML")
@@ -57,20 +57,33 @@ def add_check_parser(sub, common: Callable[[argparse.ArgumentParser], None]) -> 
     ck.add_argument("--cluster", type=cluster_address, metavar="ADDRESS",
                     help="run on an existing Dask distributed scheduler "
                     "(tcp://HOST:PORT or tls://HOST:PORT)")
-    ck.add_argument("--changed-since", metavar="REV",
-                    help="check only specs whose spec, netlist or included files changed since "
-                    "git revision REV")
-    ck.add_argument("--baseline", metavar="PATH",
-                    help="compare margins with an earlier --json result")
-    ck.add_argument("--drift-db", type=threshold, default=0.5, metavar="DB",
-                    help="flag a dB margin that fell by more than DB (default 0.5)")
-    ck.add_argument("--drift-rel", type=threshold, default=0.1, metavar="FRACTION",
-                    help="flag another margin that fell by more than FRACTION of its "
-                    "baseline value (default 0.1)")
-    ck.add_argument("--fail-on-drift", action="store_true",
-                    help="exit 4 when a margin drifted (and nothing failed)")
+    ck.add_argument("--affected-since", metavar="REV",
+                    help="check only the specs a change since git revision REV affects: "
+                    "those whose spec, netlist, included files or variant table changed")
+    ck.add_argument("--compare-margins", metavar="RESULT.json",
+                    help="compare every margin with an earlier --json result and list the "
+                    "margins that shrank")
+    ck.add_argument("--shrink-db", type=threshold, default=0.5, metavar="DB",
+                    help="with --compare-margins: a dB margin has shrunk when it fell by more "
+                    "than DB (default 0.5)")
+    ck.add_argument("--shrink-rel", type=threshold, default=0.1, metavar="FRACTION",
+                    help="with --compare-margins: any other margin has shrunk when it fell by "
+                    "more than FRACTION of its earlier value (default 0.1)")
+    ck.add_argument("--fail-on-shrink", action="store_true",
+                    help="exit 4 when a margin shrank (and no limit was missed)")
+    # the earlier spellings, still accepted with a note naming the new one
+    for old, new, kwargs in (
+            ("--changed-since", "--affected-since", {"dest": "affected_since"}),
+            ("--baseline", "--compare-margins", {"dest": "compare_margins"}),
+            ("--drift-db", "--shrink-db", {"dest": "shrink_db", "type": threshold}),
+            ("--drift-rel", "--shrink-rel", {"dest": "shrink_rel", "type": threshold}),
+            ("--fail-on-drift", "--fail-on-shrink",
+             {"dest": "fail_on_shrink", "nargs": 0, "const": True})):
+        ck.add_argument(old, action=Renamed, new=new, **kwargs)
     ck.add_argument("-v", "--verbose", action="store_true", help="show every caution")
-    ck.add_argument("--color", choices=("auto", "always", "never"), default="auto")
+    ck.add_argument("--color", choices=("auto", "always", "never"), default="auto",
+                    help="colour the terminal table: auto (only on a terminal, and not when "
+                    "NO_COLOR is set), always, or never (default auto)")
     common(ck)
 
 
@@ -136,25 +149,29 @@ def run_check(args: argparse.Namespace) -> int:
     Every requested output is written whatever happened to the specs (an output that
     was refused or failed is reported). Status: 3 when a bug in netcheck cost a result
     or an output, else 2 when an input, argument or output was bad, else 1 when a limit
-    failed or could not be measured, else 4 for drift with ``--fail-on-drift``, else 0.
+    failed or could not be measured, else 4 when a margin shrank and ``--fail-on-shrink``
+    was given, else 0.
     """
     from .. import __version__
-    from .exitcodes import BAD_INPUT, DRIFT, FAIL, INTERNAL, OK
+    from .exitcodes import BAD_INPUT, FAIL, INTERNAL, MARGIN_SHRANK, OK
     from ..result import CheckResult, Status
 
     run = CheckRun(args)
+    from .args import renamed_notes
+    for note in renamed_notes(args, "check"):
+        print(note, file=sys.stderr)  # even with --quiet: a CI log must learn of it
     run.plan_outputs(FILE_OUTPUTS)
     if run.wants_pdf():  # say what is missing before any work is done
         from ..report.pdf import require_libraries
         require_libraries()
     workers = _workers(args, run.note)
-    baseline = run.load_baseline()
+    earlier = run.load_earlier_result()
     notes: list[str] = []
     specs, missing = find_specs(args.paths, notes, args.root)
     for n in notes:
         run.note(n)
     found_none = not specs and not missing
-    specs = run.changed_since(specs)
+    specs = run.affected_since(specs)
     run.check_outputs_before(specs)
     t0 = time.perf_counter()
     results = run.judge(specs, missing, found_none, workers)
@@ -165,24 +182,29 @@ def run_check(args: argparse.Namespace) -> int:
             run.bug("recording the git state")
     checked = len(results)
     result = CheckResult(results, __version__, created_utc())
-    drift = run.compare(result, baseline)  # before the reports: its errors go in them
+    shrunk = run.compare(result, earlier)  # before the reports: its errors go in them
     if run.run_errors:
         results = tuple(run.run_errors) + results
         result = CheckResult(results, __version__, result.created_utc)
-    run.show_table(result, _use_color(args.color))
-    if checked:
-        print(f"checked {checked} spec result{'s' if checked != 1 else ''} in "
-              f"{time.perf_counter() - t0:.1f} s", file=sys.stderr)
+    elapsed = time.perf_counter() - t0
+    run.show_table(result, _use_color(args.color))  # ends with the run's headline
     said = {id(r) for r in run.run_errors}  # those were said when they happened
     for s in results:
         if s.error and id(s) not in said:
             run.error_text(s.error)
     run.write_outputs(result)
-    drifted = run.show_drift(drift)
+    shrank = run.show_shrunk(shrunk)
+    if checked:  # the last line, under the headline and what followed it
+        try:
+            sys.stdout.flush()
+        except OSError:  # standard output closed: the note still goes to stderr
+            pass
+        print(f"checked {checked} spec result{'s' if checked != 1 else ''} in "
+              f"{elapsed:.1f} s", file=sys.stderr)
     if run.internal:
         return INTERNAL
     if run.bad_input or any(s.error for s in results):
         return BAD_INPUT
     if result.status is not Status.PASS:
         return FAIL
-    return DRIFT if drifted and args.fail_on_drift else OK
+    return MARGIN_SHRANK if shrank and args.fail_on_shrink else OK

@@ -38,7 +38,7 @@ class CheckRun:
         self.pdf_dir: str | None = args.pdf
         self.guard = OutputGuard()
         self.only: set[str] | None = None
-        #: errors of the run itself (an unusable baseline, git unable to say what
+        #: errors of the run itself (an unusable earlier result, git unable to say what
         #: changed), as error results, so that every report shows them
         self.run_errors: list = []
 
@@ -148,7 +148,7 @@ class CheckRun:
         a CSV table netcheck did not write)."""
         if not self.outputs:
             return
-        from ..runs.changed_since import _spec_inputs
+        from ..runs.affected import _spec_inputs
 
         self.guard.add_inputs(specs, "spec")
         for spec in specs:
@@ -214,31 +214,31 @@ class CheckRun:
             self.bug("showing the result table")
 
     # -- inputs -----------------------------------------------------------------------
-    def load_baseline(self) -> dict | None:
-        """The baseline document, read before the run so a bad one is reported at once
-        (the run goes on; there is then no comparison and the status is 2)."""
-        if not self.args.baseline:
+    def load_earlier_result(self) -> dict | None:
+        """The earlier result of ``--compare-margins``, read before the run so a bad one is
+        reported at once (the run goes on; there is then no comparison and the status is 2)."""
+        if not self.args.compare_margins:
             return None
         from ..runs.ci import load_baseline
         from ..exceptions import NetcheckError
 
-        self.guard.add_inputs([self.args.baseline], "baseline")
+        self.guard.add_inputs([self.args.compare_margins], "earlier result")
         self._recheck_outputs()
         try:
-            return load_baseline(self.args.baseline)
+            return load_baseline(self.args.compare_margins)
         except NetcheckError as err:
-            self.run_error(f"--baseline {self.args.baseline}",
-                           "Baseline not usable: margins not compared", err)
+            self.run_error(f"--compare-margins {self.args.compare_margins}",
+                           "Earlier result not usable: margins not compared", err)
             return None
 
-    def changed_since(self, specs: list[str]) -> list[str]:
-        """With --changed-since, the affected specs only.
+    def affected_since(self, specs: list[str]) -> list[str]:
+        """With --affected-since, the affected specs only.
 
         When git cannot say what changed (run-410), the error is carried into every report
         and *every* spec is checked: skipping specs on a failed comparison could hide a
         failure.
         """
-        rev = self.args.changed_since
+        rev = self.args.affected_since
         if rev is None:
             return specs
         from ..runs.ci import affected_specs
@@ -247,7 +247,7 @@ class CheckRun:
         try:
             affected = affected_specs(specs, rev, ".", root=self.args.root)
         except NetcheckError as err:
-            self.run_error(f"--changed-since {rev}",
+            self.run_error(f"--affected-since {rev}",
                            "Changed files unknown: every spec checked", err)
             self.note("netcheck check: note: git could not say what changed, so every spec "
                       "is checked")
@@ -331,28 +331,29 @@ class CheckRun:
         finally:
             bar.close()
 
-    def compare(self, result, baseline: dict | None):
-        """Compare with the baseline (if one was read); the drift report, or None."""
-        if baseline is None:
+    def compare(self, result, earlier: dict | None):
+        """Compare with the earlier result (if one was read); the report, or None."""
+        if earlier is None:
             return None
         from ..runs.ci import compare_baseline
         from ..exceptions import NetcheckError
         from ..render.jsonreport import to_dict
 
         try:
-            return compare_baseline(to_dict(result), baseline, self.args.drift_db,
-                                    self.args.drift_rel, only_specs=self.only)
+            return compare_baseline(to_dict(result), earlier, self.args.shrink_db,
+                                    self.args.shrink_rel, only_specs=self.only)
         except NetcheckError as err:
-            self.run_error(f"--baseline {self.args.baseline}",
-                           "Baseline not usable: margins not compared", err)
+            self.run_error(f"--compare-margins {self.args.compare_margins}",
+                           "Earlier result not usable: margins not compared", err)
             return None
 
-    def show_drift(self, report) -> bool:
-        """Print the drift report (if any); True when a margin drifted."""
+    def show_shrunk(self, report) -> bool:
+        """Print the margins that shrank (if compared); True when one did."""
         if report is None:
             return False
         for d in report.drifted:
-            print(safe_text(f"drift: {d.describe()}"))
-        print(f"baseline {printable(self.args.baseline)}: {report.compared} margins compared, "
-              f"{len(report.drifted)} drifted")
+            print(safe_text(f"margin shrank: {d.describe()}"))
+        n = report.compared
+        print(f"margins compared with {printable(self.args.compare_margins)}: {n} margin"
+              f"{'s' if n != 1 else ''}, {len(report.drifted)} shrank by more than allowed")
         return report.has_drift

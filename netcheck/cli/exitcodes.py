@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-__all__ = ["OK", "FAIL", "BAD_INPUT", "INTERNAL", "DRIFT", "INTERRUPTED", "TERMINATED"]
+__all__ = ["OK", "FAIL", "BAD_INPUT", "INTERNAL", "MARGIN_SHRANK", "INTERRUPTED", "TERMINATED"]
 
 #: every limit passed (or the sweep ran)
 OK = 0
@@ -12,7 +12,7 @@ FAIL = 1
 BAD_INPUT = 2
 #: a bug in netcheck (the traceback is kept)
 INTERNAL = 3
-#: every limit passed but a margin drifted from the baseline (with --fail-on-drift)
-DRIFT = 4
+#: every limit passed but a margin shrank against the earlier result (with --fail-on-shrink)
+MARGIN_SHRANK = 4
 #: stopped by Ctrl-C (128 + SIGINT) or by SIGTERM (128 + SIGTERM)
 INTERRUPTED, TERMINATED = 130, 143

@@ -84,7 +84,7 @@ def _common(p: argparse.ArgumentParser) -> None:
                    help="accept negative R, L and C values (behavioural models)")
     p.add_argument("-q", "--quiet", action="store_true",
                    help="no warnings; of the result table, only the specs that did not pass "
-                   "and the summary line")
+                   "and the headline")
 
 
 def print_diagnostics(diags: Sequence[Diagnostic], quiet: bool = False) -> None:

@@ -1,6 +1,6 @@
 """Source files, spans, compiler-style caret formatting, and the one safe reader of user files.
 
-Every file a user names (netlist, ``.include``, spec, variant table, baseline) is read
+Every file a user names (netlist, ``.include``, spec, variant table, earlier result) is read
 through :func:`read_text` (or :meth:`SourceFile.read`, which wraps it for netlists).
 Before anything is opened the path is ``stat``-ed and anything but a regular file is
 refused (a FIFO would block forever, ``/dev/zero`` never ends); a file over
@@ -28,7 +28,7 @@ __all__ = ["SourceFile", "Span", "format_caret", "read_text", "display_path", "p
 
 #: the most characters of user text (a name, a line, a value) one message quotes
 MESSAGE_MAX = 200
-#: the largest input file netcheck reads, in bytes (a netlist, include, spec, table, baseline)
+#: the largest input file netcheck reads, in bytes (a netlist, include, spec, table, earlier result)
 FILE_MAX_BYTES = 16 * 2**20
 #: the most characters of a source line shown above a caret (a window around the column)
 CARET_WINDOW = 120
@@ -268,7 +268,7 @@ def read_text(path: str | Path, error: type[Exception], what: str,
         A :class:`netcheck.exceptions.NetcheckError` subclass (SpecError,
         BaselineError, NetlistSyntaxError...).
     what : str
-        Names the file in messages ("spec", "baseline", "netlist").
+        Names the file in messages ("spec", "earlier result", "netlist").
     encoding, errors : str
         How to decode (a UTF-8 variant unless there is a reason).
     code : str, optional

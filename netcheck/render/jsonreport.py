@@ -11,6 +11,7 @@ import math
 from typing import IO, Any
 
 from ..result import Caution, CheckResult, LimitResult, SpecResult, finite_or_none
+from .findings import run_headline, spec_headline
 
 __all__ = ["render", "to_dict", "SCHEMA"]
 
@@ -50,7 +51,7 @@ def _spec(s: SpecResult) -> dict[str, Any]:
         "spec": s.spec, "netlist": s.netlist, "title": s.title, "status": s.status.value,
         "limits": [_limit(lim) for lim in s.limits],
         "measurements": {k: _num(v) for k, v in s.measurements},
-        "counts": s.counts,
+        "counts": s.counts, "headline": spec_headline(s),
         "cautions": [_caution(c) for c in s.cautions],
         "inputs": [{"path": p, "sha256": h} for p, h in s.inputs],
         "sweep": {k: _num(v) for k, v in s.sweep},
@@ -69,7 +70,7 @@ def to_dict(result: CheckResult) -> dict[str, Any]:
     return {
         "schema": SCHEMA, "tool_version": result.tool_version,
         "created_utc": result.created_utc or None, "status": result.status.value,
-        "counts": result.counts, "specs": [_spec(s) for s in result.specs],
+        "counts": result.counts, "headline": run_headline(result), "specs": [_spec(s) for s in result.specs],
         "cautions": [_caution(c) for c in result.cautions],
     }
 

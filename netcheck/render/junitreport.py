@@ -42,6 +42,7 @@ from ..result import (HAZARD_CAUTION, Caution, CheckResult, LimitResult, SpecRes
                       hazard_warranted)
 from ..netlist.units import signed_eng
 from . import RenderOptions
+from .findings import caution_line
 
 __all__ = ["render", "xml_text", "limit_summary", "caution_line", "signed"]
 
@@ -84,19 +85,6 @@ def limit_summary(lim: LimitResult) -> str:
     if fig.at:
         text += f" at {fig.at}"
     return text
-
-
-def caution_line(caution: Caution) -> str:
-    """``[path:line:col: ]severity CODE: message`` for one caution."""
-    where = ""
-    if caution.path:
-        where = caution.path
-        if caution.line is not None:
-            where += f":{caution.line}"
-            if caution.column is not None:
-                where += f":{caution.column}"
-        where += ": "
-    return f"{where}{caution.severity} {caution.code}: {caution.message}"
 
 
 def _message(lim: LimitResult) -> str:

@@ -2,14 +2,19 @@
 
 Layout (GitHub-flavoured Markdown tables; every status is a word, never a colour):
 
-1. ``## netcheck verdict: <WORD>`` and one sentence with the spec and limit counts;
+1. ``## ✗ <what the run found>`` (:func:`netcheck.render.findings.run_headline`: the
+   limits missed of those judged and the worst of them) and one sentence with the spec
+   and limit counts;
 2. for each family (several specs sharing a spec file, told apart by ``variant``) a matrix
    of variants × limit names whose cells read ``PASS +0.420 dB``;
-3. for each spec a ``###`` section: an error block when it could not be checked, and a
+3. for each spec a ``###`` section headed by its title and what it found
+   (:func:`~netcheck.render.findings.spec_headline`): an error block when it could not
+   be checked, and a
    table (status, limit, measured, required, margin, at), most severe first (errors,
    failures, skipped, passed; spec order within each), then notes for limits that carry
    a message;
-4. the cautions, each written once, naming the specs they came from unless every spec
+4. the cautions, each written once as ``path:line:col: severity code: message`` (the
+   form of the terminal and the JUnit output), naming the specs they came from unless every spec
    has it; when some spec carries a hazard caution (:func:`netcheck.result.hazard_warranted`),
    the hazardous-voltage caution closes the summary, once, as a quoted paragraph.
 
@@ -30,6 +35,8 @@ from ..result import (HAZARD_CAUTION, Caution, CheckResult, LimitResult, SpecRes
                       hazard_warranted)
 from ..netlist.source import clip
 from . import NAME_SHOWN_MAX, TEXT_SHOWN_MAX, RenderOptions
+from ..netlist.source import display_path
+from .findings import MARK, caution_line, run_headline, spec_headline
 
 __all__ = ["render", "md_text", "md_name"]
 
@@ -44,13 +51,6 @@ _SPECIAL = frozenset("\\`*_[]<>|~&$")
 # so what the summary shows is what is in the file (a terminal given ``--summary-md -``
 # or a rendered page cannot reorder it)
 _INVISIBLE = frozenset("\u2028\u2029\u202a\u202b\u202c\u202d\u202e\u2066\u2067\u2068\u2069")
-
-_VERDICT = {
-    Status.PASS: "every limit is met",
-    Status.FAIL: "some limits are not met",
-    Status.ERROR: "some specs or limits could not be checked",
-}
-
 
 def md_text(value: object, limit: int | None = TEXT_SHOWN_MAX) -> str:
     r"""``value`` as inline Markdown text that renders exactly as written.
@@ -113,16 +113,14 @@ def _limit_row(lim: LimitResult) -> str:
 
 
 def _spec_section(spec: SpecResult) -> list[str]:
-    files = (f"Spec {md_text(spec.spec)}, netlist {md_text(spec.netlist)}." if spec.netlist
-             else f"Spec {md_text(spec.spec)}; netlist unknown (spec not loaded).")
-    lines = [f"### {spec.status.word}: {md_name(spec.label)}", "", files, ""]
+    shown = md_text(display_path(spec.spec))
+    files = (f"Spec {shown}, netlist {md_text(display_path(spec.netlist))}." if spec.netlist
+             else f"Spec {shown}; netlist unknown (spec not loaded).")
+    lines = [f"### {MARK[spec.status]} {md_name(spec.label)} — {md_text(spec_headline(spec))}",
+             "", files, ""]
     if spec.error is not None:
         lines += ["Could not be checked:", ""] + _fenced(spec.error) + [""]
     if spec.limits:
-        counts = {s: spec.counts[s.value] for s in Status}
-        lines.append(f"{len(spec.limits)} limit{'s' if len(spec.limits) != 1 else ''}: "
-                     f"{_tally(counts)}.")
-        lines.append("")
         lines.append(_row(["Status", "Limit", "Measured", "Required", "Margin", "At"]))
         lines.append("|---|---|---:|---|---:|---:|")
         ordered = sorted(spec.limits, key=lambda lim: (-lim.status.rank, lim.index))
@@ -178,17 +176,6 @@ def _matrix(path: str, members: list[SpecResult]) -> list[str]:
     return lines + [""]
 
 
-def _where(caution: Caution) -> str:
-    if not caution.path:
-        return ""
-    text = md_text(caution.path)
-    if caution.line is not None:
-        text += f":{caution.line}"
-        if caution.column is not None:
-            text += f":{caution.column}"
-    return f" at {text}"
-
-
 def _cautions(result: CheckResult) -> list[str]:
     found: dict[Caution, list[str]] = {}
     for caution in result.cautions:
@@ -201,8 +188,7 @@ def _cautions(result: CheckResult) -> list[str]:
     everyone = {spec.label for spec in result.specs}
     items = []
     for caution, labels in found.items():
-        text = (f"- {md_text(caution.severity.upper())} {md_text(caution.code)}"
-                f"{_where(caution)}: {md_text(caution.message)}")
+        text = f"- {md_text(caution_line(caution))}"
         if labels and set(labels) != everyone:
             text += " (" + "; ".join(md_name(label) for label in labels) + ")"
         items.append(text)
@@ -231,7 +217,7 @@ def _headline(result: CheckResult) -> list[str]:
     stamp = f"netcheck {md_text(result.tool_version)}"
     if result.created_utc:
         stamp += f", {md_text(result.created_utc)}"
-    return [f"## netcheck verdict: {status.word}, {_VERDICT.get(status, '')}", "", sentence, "",
+    return [f"## {MARK[status]} {md_text(run_headline(result))}", "", sentence, "",
             f"_{stamp}_", ""]
 
 

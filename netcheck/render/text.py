@@ -1,4 +1,4 @@
-"""Terminal table: one compact, aligned table per spec, failures first, then a count line."""
+"""Terminal table: one compact, aligned table per spec, failures first, then the run's headline."""
 
 from __future__ import annotations
 
@@ -6,7 +6,8 @@ from typing import IO, Any
 
 from ..result import (HAZARD_CAUTION, MODEL_STATEMENT, Caution, CheckResult, LimitResult,
                       SpecResult, Status, hazard_warranted)
-from ..netlist.source import MESSAGE_MAX, printable
+from ..netlist.source import MESSAGE_MAX, display_path, printable
+from .findings import MARK, caution_line, run_headline, spec_headline
 
 __all__ = ["render", "LINE_MAX", "ERROR_LINES_MAX"]
 
@@ -59,7 +60,9 @@ def _order(limits: tuple[LimitResult, ...]) -> list[LimitResult]:
 
 
 def _spec_block(s: SpecResult, color: bool) -> list[str]:
-    head = f"{_paint(s.status.word, s.status, color)}  {_clean(s.label)}  ({_clean(s.spec)})"
+    head = (f"{_paint(MARK[s.status], s.status, color)} {_clean(s.label)} — "
+            f"{_paint(_clean(spec_headline(s)), s.status, color)}  "
+            f"({_clean(display_path(s.spec))})")
     lines = [head]
     if s.error:
         lines += ["    " + ln for ln in _lines(s.error)]
@@ -86,8 +89,7 @@ def _spec_block(s: SpecResult, color: bool) -> list[str]:
 def _cautions(cautions: tuple[Caution, ...]) -> list[str]:
     out = []
     for c in cautions:
-        where = f"{c.path}:{c.line}: " if c.path and c.line else ""
-        out.append(_clean(f"  {c.severity}: {where}{c.message}", LINE_MAX))
+        out.append(_clean(f"  {caution_line(c)}", LINE_MAX))
     return out
 
 
@@ -141,14 +143,8 @@ def render(result: CheckResult, stream: IO[str], options: Any = None) -> None:
         run_wide.append(_clean(f"Note: {MODEL_STATEMENT}", LINE_MAX))
     if run_wide:
         stream.write("\n".join(run_wide) + "\n\n")
-    n = result.counts
-    errored_specs = sum(1 for s in result.specs if s.error)
-    stream.write(f"{_paint(result.status.word, result.status, color)}: {len(result.specs)} "
-                 f"spec{'s' if len(result.specs) != 1 else ''}, {n['pass']} "
-                 f"limit{'s' if n['pass'] != 1 else ''} passed, "
-                 f"{n['fail']} failed, {n['error']} could not be measured"
-                 + (f", {n['skipped']} not applicable" if n["skipped"] else "")
-                 + (f", {errored_specs} spec{'s' if errored_specs != 1 else ''} not checked"
-                    if errored_specs else "") + "\n")
     if hazard_warranted(result.specs):  # once per run, only when a result warrants it
-        stream.write(f"Caution: {HAZARD_CAUTION}\n")
+        stream.write(f"Caution: {HAZARD_CAUTION}\n\n")
+    status = result.status
+    stream.write(f"{_paint(MARK[status], status, color)} "
+                 f"{_paint(_clean(run_headline(result), LINE_MAX), status, color)}\n")

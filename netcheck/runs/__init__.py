@@ -1,2 +1,2 @@
 """Many specs: variants and executors (local processes, Dask), which specs a change
-affects, baselines and margin drift, and provenance."""
+affects, earlier results and the margins that shrank since, and provenance."""

@@ -1,4 +1,5 @@
-"""Baseline result files: validation, loading and margin drift (``check --baseline``), behind netcheck.runs.ci."""
+"""Earlier result files: validation, loading and the margins that shrank since
+(``check --compare-margins``), behind netcheck.runs.ci."""
 
 from __future__ import annotations
 
@@ -25,7 +26,8 @@ BASELINE_MAX_BYTES = 256 * 1024 * 1024
 
 
 class BaselineError(NetcheckError, ValueError):
-    """A baseline result cannot be used: unreadable, not JSON, or not ``netcheck.result/1``."""
+    """An earlier result (``--compare-margins``) cannot be used: unreadable, not JSON, or
+    not ``netcheck.result/1``."""
 
     code = "run-411"
 
@@ -128,7 +130,7 @@ class DriftReport:
 
     @property
     def has_drift(self) -> bool:
-        """True when at least one margin drifted (what ``--fail-on-drift`` acts on)."""
+        """True when at least one margin drifted (what ``--fail-on-shrink`` acts on)."""
         return bool(self.drifted)
 
     @property
@@ -163,7 +165,7 @@ def validate_result(doc: Any, path: str = "<result>") -> None:
         family = isinstance(schema, str) and schema.startswith("netcheck.result/")
         shown = printable(repr(schema), 80)
         raise _fail(path, "schema", (f"result format {shown} is not the {SCHEMA!r} this "
-                                     "netcheck reads; regenerate the baseline with this version"
+                                     "netcheck reads; write the earlier result again with this version"
                                      if family else
                                      f"not a netcheck result: schema is {shown}, "
                                      f"expected {SCHEMA!r}"))
@@ -272,7 +274,7 @@ def compare_baseline(current: dict[str, Any], baseline: dict[str, Any],
         margin's magnitude (default 0.1, i.e. 10 %).
     only_specs : iterable of str, optional
         Compare only these spec paths; the others are ignored on both sides, so a
-        partial run (``--changed-since``) does not report the unchecked specs removed.
+        partial run (``--affected-since``) does not report the unchecked specs removed.
 
     Returns
     -------
@@ -307,7 +309,7 @@ def compare_baseline(current: dict[str, Any], baseline: dict[str, Any],
     drift_db = _check_threshold("drift_db", drift_db)
     drift_rel = _check_threshold("drift_rel", drift_rel)
     validate_result(current, "current result")
-    validate_result(baseline, "baseline")
+    validate_result(baseline, "earlier result")
     only = None if only_specs is None else {_norm(p) for p in only_specs}
     now, before = _index(current, only), _index(baseline, only)
 
@@ -332,7 +334,7 @@ def compare_baseline(current: dict[str, Any], baseline: dict[str, Any],
             if (lim is None and not errored) or (lim is not None and lim.get("unit", "") != unit):
                 removed_limits.append(LimitRef(ref, name))
                 continue
-            m_before = _margin(old.get("margin"), "baseline", name)
+            m_before = _margin(old.get("margin"), "earlier result", name)
             if m_before is None:
                 continue
             compared += 1
@@ -373,7 +375,7 @@ def load_baseline(path: str | Path) -> dict[str, Any]:
     """
     shown = printable(str(path))
     _check_regular(path, shown)
-    text = read_text(path, BaselineError, "baseline", encoding="utf-8-sig")
+    text = read_text(path, BaselineError, "earlier result", encoding="utf-8-sig")
     try:
         doc = json.loads(text, parse_constant=_no_constant)
     except json.JSONDecodeError as err:
@@ -405,8 +407,8 @@ def _check_regular(path: str | Path, shown: str) -> None:
     if not stat.S_ISREG(st.st_mode):
         kind = "a folder" if stat.S_ISDIR(st.st_mode) else "a FIFO" if \
             stat.S_ISFIFO(st.st_mode) else "a device or other special file"
-        raise BaselineError(f"cannot read baseline: it is {kind}, not a regular file",
+        raise BaselineError(f"cannot read earlier result: it is {kind}, not a regular file",
                             path=shown)
     if st.st_size > BASELINE_MAX_BYTES:
-        raise BaselineError(f"cannot read baseline: {st.st_size} bytes is more than the "
+        raise BaselineError(f"cannot read earlier result: {st.st_size} bytes is more than the "
                             f"{BASELINE_MAX_BYTES} a result file may have", path=shown)

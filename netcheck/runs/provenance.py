@@ -1,6 +1,6 @@
 """Where a result came from: the git commit and working-tree state of a spec's folder.
 
-Also the one way netcheck runs git (:func:`run_git`, used by ``--changed-since`` too): a
+Also the one way netcheck runs git (:func:`run_git`, used by ``--affected-since`` too): a
 design repository's configuration is data, never a program to run. Every git command
 gets command-line settings that win over the repository's, the user's and the system's
 configuration and turn off everything that would start a program named there: the

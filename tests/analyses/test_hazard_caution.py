@@ -140,7 +140,9 @@ def test_once_in_a_two_spec_run(capsys, tmp_path, design):
     out = run(capsys, tmp_path, design["rlc"], design["rc"])
     term = out["terminal"]
     assert term.count(HAZARD_CAUTION) == 1
-    assert term.rstrip().splitlines()[-1] == f"Caution: {HAZARD_CAUTION}"
+    # once, just above the run's headline (which ends the table output)
+    assert term.rstrip().splitlines()[-3:] == [f"Caution: {HAZARD_CAUTION}", "",
+                                               "✓ 2 specs: both limits met"]
     assert term.count("C1 sees ") == 1           # the RLC's finding, with its spec only
     # two specs that both warrant it: each names its own parts, the caution still once
     out = run(capsys, tmp_path, design["rlc"], design["rlc2"])

@@ -122,10 +122,10 @@ class TestArguments:
         assert seen == [8]  # 4 per CPU
         assert "--jobs 500 is more than 4 per CPU (2 CPUs); using at most 8" in capsys.readouterr().err
 
-    @pytest.mark.parametrize("flag, value", [("--drift-db", "nan"), ("--drift-db", "-0.5"),
-                                             ("--drift-db", "lots"), ("--drift-rel", "-1"),
-                                             ("--drift-rel", "inf"), ("--drift-rel", "nan")])
-    def test_drift_thresholds_must_be_finite_and_not_negative(self, tmp_path, capsys, flag,
+    @pytest.mark.parametrize("flag, value", [("--shrink-db", "nan"), ("--shrink-db", "-0.5"),
+                                             ("--shrink-db", "lots"), ("--shrink-rel", "-1"),
+                                             ("--shrink-rel", "inf"), ("--shrink-rel", "nan")])
+    def test_shrink_thresholds_must_be_finite_and_not_negative(self, tmp_path, capsys, flag,
                                                               value):
         spec = design(tmp_path)
         with pytest.raises(SystemExit) as info:
@@ -281,7 +281,7 @@ def test_toml_bomb_in_a_scanned_folder_is_listed_not_fatal(tmp_path, capsys):
     assert str(bomb) in specs and missing == []
     assert main(["check", str(tmp_path / "designs")]) == BAD_INPUT
     captured = capsys.readouterr()
-    assert "bomb.toml" in captured.err and "PASS  Quillmere QI-RC1 low-pass" in captured.out
+    assert "bomb.toml" in captured.err and "✓ Quillmere QI-RC1 low-pass" in captured.out
     no_traceback(captured.err)
 
 
@@ -363,7 +363,7 @@ class TestOutputsNeverReplaceInputs:
         assert main(["check", str(spec), "--json", str(base), "-q"]) == OK
         before = _digest(base)
         capsys.readouterr()
-        assert main(["check", str(spec), "--json", str(base), "--baseline", str(base)]) \
+        assert main(["check", str(spec), "--json", str(base), "--compare-margins", str(base)]) \
             == BAD_INPUT
         assert "error run-401" in capsys.readouterr().err
         assert _digest(base) == before
@@ -632,7 +632,7 @@ def test_git_never_runs_programs_named_by_the_repository(tmp_path, monkeypatch, 
               repo / "other" / "other.toml", repo / "parts.inc", spec]:
         os.utime(p, (future, future))
     monkeypatch.chdir(repo)
-    code = main(["check", ".", "--changed-since", "HEAD", "--json", str(tmp_path / "r.json")])
+    code = main(["check", ".", "--affected-since", "HEAD", "--json", str(tmp_path / "r.json")])
     assert not marker.exists(), marker.read_text()
     assert code == OK, capsys.readouterr().err
     doc = json.loads((tmp_path / "r.json").read_text("utf-8"))
@@ -684,7 +684,7 @@ class TestBaseline:
     @pytest.mark.skipif(not os.path.exists("/dev/zero"), reason="needs /dev/zero")
     def test_dev_zero(self, tmp_path):
         spec = design(tmp_path)
-        proc = run_cli(["check", str(spec), "--jobs", "1", "--baseline", "/dev/zero",
+        proc = run_cli(["check", str(spec), "--jobs", "1", "--compare-margins", "/dev/zero",
                         "--json", str(tmp_path / "r.json")], memory_mb=2048, timeout=60)
         assert proc.returncode == BAD_INPUT
         assert "/dev/zero" in proc.stderr and "run-411" in proc.stderr
@@ -695,7 +695,7 @@ class TestBaseline:
     def test_fifo(self, tmp_path):
         spec = design(tmp_path)
         os.mkfifo(tmp_path / "base.json")
-        proc = run_cli(["check", str(spec), "--jobs", "1", "--baseline",
+        proc = run_cli(["check", str(spec), "--jobs", "1", "--compare-margins",
                         str(tmp_path / "base.json")], timeout=60)
         assert proc.returncode == BAD_INPUT
         assert "base.json" in proc.stderr and "run-411" in proc.stderr
@@ -704,7 +704,7 @@ class TestBaseline:
     def test_bad_baseline_is_reported_before_the_run(self, tmp_path, capsys):
         spec = design(tmp_path)
         (tmp_path / "base.json").write_text("[" * 10_000)
-        assert main(["check", str(spec), "--baseline", str(tmp_path / "base.json")]) \
+        assert main(["check", str(spec), "--compare-margins", str(tmp_path / "base.json")]) \
             == BAD_INPUT
         err = capsys.readouterr().err
         assert err.index("run-411") < err.index("checked 1 spec result")
@@ -738,7 +738,7 @@ def test_path_in_an_error_message_is_escaped_and_bounded(tmp_path, capsys):
     assert max(len(line) for line in captured.err.splitlines()) < 1100
 
 
-def test_drift_lines_are_escaped(tmp_path, capsys):
+def test_shrunk_margin_lines_are_escaped(tmp_path, capsys):
     spec = design(tmp_path, SPEC.replace('name = "pass-band"', 'name = "pass\\u001b[5m"'))
     base = tmp_path / "base.json"
     assert main(["check", str(spec), "--json", str(base), "-q"]) == OK
@@ -746,6 +746,6 @@ def test_drift_lines_are_escaped(tmp_path, capsys):
     doc["specs"][0]["limits"][0]["margin"] += 5
     base.write_text(json.dumps(doc))
     capsys.readouterr()
-    assert main(["check", str(spec), "--baseline", str(base)]) == OK
+    assert main(["check", str(spec), "--compare-margins", str(base)]) == OK
     out = capsys.readouterr().out
-    assert "drift: " in out and "\x1b" not in out and "pass\\x1b[5m" in out
+    assert "margin shrank: " in out and "\x1b" not in out and "pass\\x1b[5m" in out

@@ -181,7 +181,7 @@ class TestDesignFilesAreNeverOutputs:
         (repo / "lp.cir").write_text(NETLIST.replace("100n", "120n"))
         monkeypatch.chdir(repo)
         kept = (repo / "other" / "other.toml").read_bytes()
-        code = main(["check", ".", "--changed-since", "HEAD", "--json", "other/other.toml"])
+        code = main(["check", ".", "--affected-since", "HEAD", "--json", "other/other.toml"])
         assert code == BAD_INPUT
         assert "run-401" in capsys.readouterr().err
         assert (repo / "other" / "other.toml").read_bytes() == kept
@@ -248,7 +248,7 @@ def test_unusable_baseline_is_in_every_report(tmp_path, capsys):
     spec = design(tmp_path / "d")
     (tmp_path / "base.json").write_text('{"schema": "netcheck.result/1", "specs": 5}')
     out = tmp_path / "out"
-    code = main(["check", str(spec), "--baseline", str(tmp_path / "base.json"),
+    code = main(["check", str(spec), "--compare-margins", str(tmp_path / "base.json"),
                  *_outputs(out)])
     err = capsys.readouterr().err
     assert code == BAD_INPUT
@@ -263,7 +263,7 @@ def test_git_failure_is_in_every_report_and_every_spec_is_checked(tmp_path, caps
     spec = design(tmp_path / "d")  # not a git work tree
     monkeypatch.chdir(tmp_path)
     out = tmp_path / "out"
-    code = main(["check", str(spec), "--changed-since", "HEAD~1", *_outputs(out)])
+    code = main(["check", str(spec), "--affected-since", "HEAD~1", *_outputs(out)])
     err = capsys.readouterr().err
     assert code == BAD_INPUT
     assert "run-410" in err and "every spec is checked" in err
@@ -274,10 +274,10 @@ def test_git_failure_is_in_every_report_and_every_spec_is_checked(tmp_path, caps
 
 
 def test_empty_changed_since_is_not_silently_everything(tmp_path, capsys, monkeypatch):
-    """``--changed-since "$(git merge-base ...)"`` after a failed command is empty."""
+    """``--affected-since "$(git merge-base ...)"`` after a failed command is empty."""
     spec = design(tmp_path / "d")
     monkeypatch.chdir(tmp_path)
-    code = main(["check", str(spec), "--changed-since", "", "--json", str(tmp_path / "r.json")])
+    code = main(["check", str(spec), "--affected-since", "", "--json", str(tmp_path / "r.json")])
     assert code == BAD_INPUT
     assert "is not a git revision" in capsys.readouterr().err
     assert json.loads((tmp_path / "r.json").read_text("utf-8"))["status"] == "error"
@@ -336,4 +336,6 @@ def test_quiet_shows_only_what_did_not_pass_and_the_summary(tmp_path, capsys):
     out = capsys.readouterr().out
     assert f"({bad})" in out
     assert f"({good})" not in out
-    assert "FAIL: 2 specs, 1 limit passed, 1 failed, 0 could not be measured" in out
+    last = out.splitlines()[-1]  # the headline names the one missed limit and its spec
+    assert last.startswith("✗ 2 specs: 1 of 2 limits missed (pass-band -")
+    assert last.endswith(f" dB in {bad})")

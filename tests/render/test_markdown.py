@@ -58,15 +58,18 @@ def test_registry_finds_the_renderer():
 class TestHeadline:
     def test_verdict_in_words(self):
         first = markdown(sample_result()).splitlines()[0]
-        assert first == "## netcheck verdict: ERROR, some specs or limits could not be checked"
+        assert first == ("## ! 5 specs: 3 of 17 limits missed, 1 could not be measured (worst: "
+                         "group delay could not be measured in specs/quillmere\\_rx40k.toml); "
+                         "1 not applicable; 1 spec not checked")
 
     def test_pass_and_fail_wording(self):
         ok = LimitResult("g", "gain", Status.PASS, 0.0, -1.0, 1.0, 1.0, "dB")
         bad = LimitResult("g", "gain", Status.FAIL, 2.0, -1.0, 1.0, -1.0, "dB")
         passing = CheckResult((SpecResult("s", "n", "t", Status.PASS, (ok,)),), "0")
         failing = CheckResult((SpecResult("s", "n", "t", Status.FAIL, (bad,)),), "0")
-        assert markdown(passing).startswith("## netcheck verdict: PASS, every limit is met\n")
-        assert markdown(failing).startswith("## netcheck verdict: FAIL, some limits are not met\n")
+        assert markdown(passing).startswith("## ✓ 1 spec: 1 limit met\n")
+        assert markdown(failing).startswith("## ✗ 1 spec: 1 of 1 limit missed (g -1.000 dB in s)\n")
+        assert "### ✗ t — 1 of 1 limit missed (g -1.000 dB)\n" in markdown(failing)
 
     def test_counts_sentence(self):
         lines = markdown(sample_result()).splitlines()
@@ -80,20 +83,20 @@ class TestHeadline:
 
 class TestSpecTables:
     def test_most_severe_first_then_spec_order(self):
-        rx = section(markdown(sample_result()), "### ERROR: RX-40k")
+        rx = section(markdown(sample_result()), "### ! RX-40k")
         rows = [cells(line) for line in rx if line.startswith("| ")][1:]
         assert [(r[0], r[1]) for r in rows] == [
             ("ERROR", "group delay"), ("FAIL", "ripple"), ("FAIL", "C4 voltage"),
             ("PASS", "pass-band gain"), ("PASS", "input impedance"), ("PASS", "phase at 40k")]
 
     def test_skipped_before_passed(self):
-        heading = "### PASS: Quillmere Instruments mains hum notch \\[60hz-economy"
+        heading = "### ✓ Quillmere Instruments mains hum notch \\[60hz-economy"
         eco = section(markdown(sample_result()), heading)
         rows = [cells(line) for line in eco if line.startswith("| ")][1:]
         assert [r[0] for r in rows] == ["SKIP", "PASS", "PASS", "PASS"]
 
     def test_row_values(self):
-        rx = section(markdown(sample_result()), "### ERROR: RX-40k")
+        rx = section(markdown(sample_result()), "### ! RX-40k")
         rows = {cells(line)[1]: cells(line) for line in rx if line.startswith("| ")}
         assert rows["ripple"] == ["FAIL", "ripple", "1.300 dB", "≤ 1.000 dB", "-0.300 dB",
                                   "41.250 kHz"]
@@ -101,18 +104,18 @@ class TestSpecTables:
         assert rows["input impedance"][2:5] == ["9.870 kΩ", "≥ 4.700 kΩ", "+5.170 kΩ"]
 
     def test_header_and_alignment_rows_have_six_cells(self):
-        rx = section(markdown(sample_result()), "### ERROR: RX-40k")
+        rx = section(markdown(sample_result()), "### ! RX-40k")
         table = [line for line in rx if line.startswith("|")]
         assert cells(table[0]) == ["Status", "Limit", "Measured", "Required", "Margin", "At"]
         assert all(len(cells(line)) == 6 for line in table)
 
     def test_notes_for_non_passing_limits(self):
-        rx = section(markdown(sample_result()), "### ERROR: RX-40k")
+        rx = section(markdown(sample_result()), "### ! RX-40k")
         assert "- ERROR group delay: no sweep points inside the 39k…37k band " \
                "(band is reversed)" in rx
 
     def test_spec_level_error_in_a_fence_that_holds(self):
-        lp = section(markdown(sample_result()), "### ERROR: Quillmere Instruments anti-alias")
+        lp = section(markdown(sample_result()), "### ! Quillmere Instruments anti-alias")
         start = lp.index("```text")
         assert lp[start + 2] == "    C3 n3 n4 ``1n``"
         assert lp[start + 4] == "```"
@@ -159,15 +162,15 @@ class TestCautions:
     def test_each_caution_once_with_its_specs(self):
         cau = section(markdown(sample_result()), "## Cautions")
         items = [line for line in cau if line.startswith("- ")]
-        assert items[0] == ("- WARNING netlist-150 at sample\\_netlists/lib/quillmere\\_opamps.lib:3:1: "
+        assert items[0] == ("- sample\\_netlists/lib/quillmere\\_opamps.lib:3:1: warning netlist-150: "
                             "unknown directive .temp ignored")
-        assert items[1].startswith("- WARNING netlist-152 at sample\\_netlists/hum\\_notch.cir:14:9: "
+        assert items[1].startswith("- sample\\_netlists/hum\\_notch.cir:14:9: warning netlist-152: "
                                    "node 'tap' has one connection (")
         assert items[1].count("Quillmere Instruments mains hum notch") == 3
         # the receiver's hazard caution is a finding like the others, with its spec
-        assert items[2].startswith("- CAUTION analysis-voltage: L2 sees 14.2× the input voltage")
-        assert items[4].startswith("- WARNING analysis-302: matrix badly conditioned")
-        assert items[5].startswith("- ERROR analysis-300 at sample\\_netlists/sk\\_lowpass.cir:7:1: ")
+        assert items[2].startswith("- caution analysis-voltage: L2 sees 14.2× the input voltage")
+        assert items[4].startswith("- warning analysis-302: matrix badly conditioned")
+        assert items[5].startswith("- sample\\_netlists/sk\\_lowpass.cir:7:1: error analysis-300: ")
         assert len(items) == 6
 
     def test_hazard_caution_once_at_the_end(self):
@@ -185,7 +188,7 @@ class TestCautions:
         a = SpecResult("a.toml", "n.cir", "A", Status.PASS, cautions=(c,))
         b = SpecResult("b.toml", "n.cir", "B", Status.PASS, cautions=(c,))
         text = markdown(CheckResult((a, b), "0"))
-        assert "- WARNING netlist-152 at n.cir:2:1: node x has one connection\n" in text
+        assert "- n.cir:2:1: warning netlist-152: node x has one connection\n" in text
 
     def test_no_section_without_cautions(self):
         spec = SpecResult("s", "n", "t", Status.PASS)
@@ -195,7 +198,7 @@ class TestCautions:
         spec = SpecResult("s", "n", "t", Status.PASS,
                           cautions=(Caution("netlist-150", "unknown directive .temp", path="n.cir",
                                             line=4),))
-        assert "- WARNING netlist-150 at n.cir:4: unknown directive .temp\n" in markdown(
+        assert "- n.cir:4: warning netlist-150: unknown directive .temp\n" in markdown(
             CheckResult((spec,), "0"))
 
 
@@ -219,7 +222,7 @@ class TestEscaping:
         text = markdown(CheckResult((spec,), "0"))
         row = next(line for line in text.splitlines() if line.startswith("| FAIL"))
         assert cells(row) == ["FAIL", "gain \\| lo", "1.000 dB", "≤ 0.000 dB", "-1.000 dB", "—"]
-        assert "### FAIL: title \\| with \\| pipes" in text
+        assert "### ✗ title \\| with \\| pipes — 1 of 1 limit missed (gain \\| lo -1.000 dB)" in text
 
 
 def test_reproducible():

@@ -1,8 +1,9 @@
-"""Terminal renderer: failures first and marked, aligned columns, the count line, colour."""
+"""Terminal renderer: failures first and marked, aligned columns, the headline, colour."""
 
 from __future__ import annotations
 
 import io
+import re
 
 from netcheck.render import RenderOptions, get_renderer
 from netcheck.render.text import render
@@ -38,7 +39,11 @@ def test_registered_as_text():
 def limit_rows(lines: list[str]) -> list[str]:
     """Table rows only: no header, no error-message continuation, no caution lines."""
     return [ln for ln in lines[1:] if not ln.startswith("      ")
-            and not ln.lstrip().startswith(("warning:", "caution:", "error:"))]
+            and not CAUTION_LINE.match(ln)]
+
+
+#: a caution line of a spec block: ``  [path:line:col: ]severity code: message``
+CAUTION_LINE = re.compile(r"  (\S+: )?(warning|caution|error|note) [a-z]+-\w+: ")
 
 
 def test_failing_rows_first_and_marked():
@@ -84,14 +89,26 @@ def test_columns_are_aligned():
         assert any(row[col:].startswith(n) for n in names), row
 
 
-def test_count_line():
+def test_headline_ends_the_output():
+    # the run's headline is the last line: what was found, the worst limit (an
+    # unmeasured one ranks worst), then what was not applicable or not checked
     out = text(sample_result()).splitlines()
-    assert ("ERROR: 5 specs, 13 limits passed, 3 failed, 1 could not be measured, "
-            "1 not applicable, 1 spec not checked") in out
+    assert out[-1] == ("! 5 specs: 3 of 17 limits missed, 1 could not be measured (worst: "
+                       "group delay could not be measured in specs/quillmere_rx40k.toml); "
+                       "1 not applicable; 1 spec not checked")
     one = SpecResult("q.toml", "q.cir", "Quillmere one", Status.PASS, limits=(
         LimitResult("g", "gain", Status.PASS, -1.0, None, 0.0, 1.0, "dB", 1e3),))
-    assert text(CheckResult((one,), "0.1.0")).splitlines()[-1] == \
-        "PASS: 1 spec, 1 limit passed, 0 failed, 0 could not be measured"
+    assert text(CheckResult((one,), "0.1.0")).splitlines()[-1] == "✓ 1 spec: 1 limit met"
+
+
+def test_spec_headline_says_what_was_found():
+    out = text(sample_result()).splitlines()
+    assert ("✗ Quillmere Instruments mains hum notch [60hz] — 1 of 4 limits missed "
+            "(notch depth -1.300 dB)  (specs/quillmere_hum_notch.toml)") in out
+    assert ("✓ Quillmere Instruments mains hum notch [50hz] — all 4 limits met  "
+            "(specs/quillmere_hum_notch.toml)") in out
+    assert ("! Quillmere Instruments anti-alias low-pass — not checked  "
+            "(specs/quillmere_sk_lowpass.toml)") in out
 
 
 def test_unchecked_spec_shows_its_error_indented():
@@ -102,14 +119,17 @@ def test_unchecked_spec_shows_its_error_indented():
 
 def test_cautions():
     out = text(sample_result())
-    assert "  warning: sample_netlists/rx40k.cir:22: R7 = 4.75k is off the E24 series" in out
-    assert "  warning: matrix badly conditioned near 38.0 kHz; result kept" in out
+    # a caution with a position reads as the errors do: path:line:col: severity code:
+    assert ("  sample_netlists/rx40k.cir:22:1: warning netlist-154: R7 = 4.75k is off the "
+            "E24 series") in out
+    assert "  warning analysis-302: matrix badly conditioned near 38.0 kHz; result kept" in out
     # run-wide cautions are shown once, before the count line
     assert out.count("unknown directive .temp ignored") == 1
-    # the receiver's hazard caution with its spec; the general one once, after the count
-    # line, because a spec warrants it
-    assert out.count("  caution: L2 sees 14.2× the input voltage at 40.1 kHz;") == 1
-    assert out.rstrip().splitlines()[-1] == f"Caution: {HAZARD_CAUTION}"
+    # the receiver's hazard caution with its spec; the general one once, just before the
+    # headline (with a blank line between), because a spec warrants it
+    assert out.count("  caution analysis-voltage: L2 sees 14.2× the input voltage at "
+                     "40.1 kHz;") == 1
+    assert out.rstrip().splitlines()[-3:-1] == [f"Caution: {HAZARD_CAUTION}", ""]
     assert out.count(HAZARD_CAUTION) == 1
     # the model statement only with --verbose, once
     assert MODEL_STATEMENT not in out
@@ -126,7 +146,7 @@ def test_no_escape_codes_without_colour():
 
 def test_colour_marks_failing_rows_only():
     out = text(sample_result(), color=True)
-    lines = block(out, "[60hz]  ")
+    lines = block(out, "[60hz]")
     fail = next(ln for ln in lines if "notch depth" in ln)
     ok = next(ln for ln in lines if "pass-band flatness" in ln)
     assert fail.startswith("\x1b[31;1m") and fail.endswith("\x1b[0m")

@@ -1,4 +1,5 @@
-"""Tests for netcheck.runs.ci: affected specs from git, baseline drift, the pre-commit hook."""
+"""Tests for netcheck.runs.ci: affected specs from git, margins that shrank since an earlier
+result (the "baseline" of the Python names), the pre-commit hook."""
 
 from __future__ import annotations
 
@@ -15,7 +16,7 @@ import pytest
 import yaml
 
 import netcheck.runs.baseline
-import netcheck.runs.changed_since
+import netcheck.runs.affected
 from netcheck.runs.ci import (AffectedSpec, BaselineError, GitError, LimitRef, SpecRef,
                          affected_specs, compare_baseline, load_baseline, validate_result)
 from netcheck.exceptions import NetcheckError
@@ -166,7 +167,7 @@ class TestAffectedSpecs:
     def test_git_timeout(self, repo, monkeypatch):
         def hang(cmd, **kwargs):
             raise subprocess.TimeoutExpired(cmd, kwargs["timeout"])
-        monkeypatch.setattr(netcheck.runs.changed_since.subprocess, "run", hang)
+        monkeypatch.setattr(netcheck.runs.affected.subprocess, "run", hang)
         with pytest.raises(GitError, match=r"did not finish within 2\.5 s"):
             affected_specs(_specs(repo), "HEAD", str(repo), timeout=2.5)
 
@@ -480,7 +481,7 @@ class TestCompareBaseline:
         ([], "not a netcheck result: expected a JSON object"),
         ({"specs": []}, 'no "schema" key'),
         ({"schema": "coverage.py/7", "specs": []}, "not a netcheck result: schema is"),
-        ({"schema": "netcheck.result/2", "specs": []}, "regenerate the baseline"),
+        ({"schema": "netcheck.result/2", "specs": []}, "write the earlier result again"),
         ({"schema": SCHEMA, "specs": {}}, "expected an array of spec results"),
         ({"schema": SCHEMA, "specs": [{"spec": "a.toml", "limits": [{"name": "g",
                                                                        "margin": "big"}]}]},
@@ -490,7 +491,7 @@ class TestCompareBaseline:
         with pytest.raises(BaselineError, match=re.escape(message)) as info:
             compare_baseline(BASELINE, doc)
         assert info.value.code == "run-411"
-        assert info.value.location().startswith("baseline")
+        assert info.value.location().startswith("earlier result")
 
     def test_error_names_the_key(self):
         doc = copy.deepcopy(BASELINE)
@@ -517,7 +518,7 @@ class TestLoadBaseline:
         assert text.splitlines()[1:] == ['      "specs": [,]', " " * 16 + "^"]
 
     def test_missing_file(self, tmp_path):
-        with pytest.raises(BaselineError, match="cannot read baseline"):
+        with pytest.raises(BaselineError, match="cannot read earlier result"):
             load_baseline(tmp_path / "absent.json")
 
     def test_not_utf8(self, tmp_path):
@@ -587,6 +588,9 @@ def test_docs_use_only_options_the_cli_has():
     text = (ROOT / "docs" / "ci.md").read_text(encoding="utf-8").replace("\\\n", " ")
     used = {opt for line in text.splitlines() if "netcheck check" in line
             for opt in re.findall(r"(?<![\w-])--[a-z][a-z-]*", line)}
-    assert {"--junit", "--json", "--summary-md", "--sarif", "--changed-since",
-            "--baseline", "--fail-on-drift"} <= used
+    assert {"--junit", "--json", "--summary-md", "--sarif", "--affected-since",
+            "--compare-margins", "--fail-on-shrink"} <= used
     assert used <= known, sorted(used - known)
+    # the examples use the current names, not the earlier spellings kept as aliases
+    assert not used & {"--changed-since", "--baseline", "--drift-db", "--drift-rel",
+                       "--fail-on-drift"}

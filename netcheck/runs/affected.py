@@ -1,4 +1,5 @@
-"""Which specs a change since a git revision affects (``check --changed-since``), behind netcheck.runs.ci."""
+"""Which specs a change since a git revision affects (``check --affected-since``), behind
+netcheck.runs.ci."""
 
 from __future__ import annotations
 
@@ -102,7 +103,7 @@ def _run(args: Sequence[str], cwd: str, timeout: float,
     try:
         return run_git(args, cwd, timeout, overrides)
     except FileNotFoundError:
-        raise GitError("git is not installed or not on PATH; --changed-since needs it",
+        raise GitError("git is not installed or not on PATH; --affected-since needs it",
                        path=cwd) from None
     except subprocess.TimeoutExpired:
         raise GitError(f"'{shown}' did not finish within {timeout:g} s", path=cwd) from None
