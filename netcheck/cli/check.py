@@ -199,7 +199,7 @@ def run_check(args: argparse.Namespace) -> int:
             sys.stdout.flush()
         except OSError:  # standard output closed: the note still goes to stderr
             pass
-        print(f"checked {checked} spec result{'s' if checked != 1 else ''} in "
+        print(f"\nchecked {checked} spec result{'s' if checked != 1 else ''} in "
               f"{elapsed:.1f} s", file=sys.stderr)
     if run.internal:
         return INTERNAL

@@ -10,7 +10,7 @@ Layout (GitHub-flavoured Markdown tables; every status is a word, never a colour
 3. for each spec a ``###`` section headed by its title and what it found
    (:func:`~netcheck.render.findings.spec_headline`): an error block when it could not
    be checked, and a
-   table (status, limit, measured, required, margin, at), most severe first (errors,
+   table (status, limit, measured, allowed, margin, at), most severe first (errors,
    failures, skipped, passed; spec order within each), then notes for limits that carry
    a message;
 4. the cautions, each written once as ``path:line:col: severity code: message`` (the
@@ -121,7 +121,7 @@ def _spec_section(spec: SpecResult) -> list[str]:
     if spec.error is not None:
         lines += ["Could not be checked:", ""] + _fenced(spec.error) + [""]
     if spec.limits:
-        lines.append(_row(["Status", "Limit", "Measured", "Required", "Margin", "At"]))
+        lines.append(_row(["Status", "Limit", "Measured", "Allowed", "Margin", "At"]))
         lines.append("|---|---|---:|---|---:|---:|")
         ordered = sorted(spec.limits, key=lambda lim: (-lim.status.rank, lim.index))
         lines += [_limit_row(lim) for lim in ordered]

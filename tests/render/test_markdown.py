@@ -106,7 +106,7 @@ class TestSpecTables:
     def test_header_and_alignment_rows_have_six_cells(self):
         rx = section(markdown(sample_result()), "### ! RX-40k")
         table = [line for line in rx if line.startswith("|")]
-        assert cells(table[0]) == ["Status", "Limit", "Measured", "Required", "Margin", "At"]
+        assert cells(table[0]) == ["Status", "Limit", "Measured", "Allowed", "Margin", "At"]
         assert all(len(cells(line)) == 6 for line in table)
 
     def test_notes_for_non_passing_limits(self):
