@@ -341,7 +341,8 @@ class TestFamily:
         styles = {plots.variant_style(k)[:2] for k in range(len(plots.VARIANT_STYLES))}
         assert len(styles) == len(plots.VARIANT_STYLES)  # dash pattern and marker differ
         text = family.text
-        assert "Figure F1.1" in text and "Figure F1.2" in text
+        assert "Family 1, figure 1 " in text and "Family 1, figure 2 " in text
+        assert "Figure F" not in text  # F1 would read as a part name (a controlled source)
         for k, s in enumerate(specs):
             assert f"var {k + 1} {s.variant} {plots.variant_style(k)[3]}" in text
 
