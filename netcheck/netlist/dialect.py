@@ -270,7 +270,7 @@ class _Pass:
         head, args = toks[0], toks[1:]
         span = self.span(head)
         if name in IGNORED:
-            self.note(name, span, f".{name} card ignored: a {IGNORED[name]} card belongs "
+            self.note(name, span, f".{name} card ignored ({IGNORED[name]}): it belongs "
                       "to another analysis (netcheck solves the small-signal AC circuit)")
         elif name == "ac":
             card = self.ac_card(toks)
