@@ -140,8 +140,13 @@ def _sweep(args: argparse.Namespace) -> int:
         if problem is not None:
             print(safe_text(problem.format()), file=sys.stderr)
             return BAD_INPUT
-    circuit = elaborate(netlist, args.allow_negative)
-    system = assemble(circuit, args.source, args.node, args.ref)
+    try:
+        circuit = elaborate(netlist, args.allow_negative)
+        system = assemble(circuit, args.source, args.node, args.ref)
+    except NetcheckError:  # a title line that was a card explains many a missing part
+        print_diagnostics([d for d in netlist.diagnostics if d.code == "netlist-157"],
+                          args.quiet)
+        raise
     src = circuit.element(args.source)
     diags = list(circuit.diagnostics)
     if not getattr(src, "has_ac", True):

@@ -76,6 +76,8 @@ class Prepared:
     #: the section asked for was found (``.lib FILE SECTION``)
     found_section: bool = False
     sections: list = field(default_factory=list)
+    #: the fields the pre-pass read into statements (counted in the token budget)
+    tokens: int = 0
 
 
 @dataclass
@@ -88,8 +90,9 @@ class _Tok:
 class _Pass:
     """One pass over one file's lines."""
 
-    def __init__(self, source: SourceFile, text: str, section: str | None) -> None:
-        self.source, self.section = source, section
+    def __init__(self, source: SourceFile, text: str, section: str | None,
+                 allowed: int) -> None:
+        self.source, self.section, self.allowed = source, section, allowed
         self.lines = text.split("\n")
         self.out = Prepared("")
         self.notes: dict[str, list] = {}   # kind -> [first span, count, message]
@@ -156,6 +159,12 @@ class _Pass:
                 if m.group().startswith(";"):
                     break
                 out.append(_Tok(m.group(), i, m.start()))
+        self.out.tokens += len(out)
+        if self.out.tokens > self.allowed:
+            raise NetlistSyntaxError(
+                f"the netlist is over the budget of {self.allowed:,} tokens (names, values "
+                "and line ends, its includes counted); netcheck stops reading here",
+                self.span(out[-1]), code="netlist-116")
         return out
 
     # ---- the pass ------------------------------------------------------------------
@@ -551,7 +560,8 @@ def _inside(line: str, k: int) -> bool:
     return any(m.start() < k < m.end() for m in _BRACED.finditer(line))
 
 
-def prepare(source: SourceFile, text: str, section: str | None = None) -> Prepared:
+def prepare(source: SourceFile, text: str, section: str | None = None,
+            allowed: int = 10**9) -> Prepared:
     """Pre-pass one file's text (its title line already blank): see the module doc.
 
     Raises
@@ -560,4 +570,4 @@ def prepare(source: SourceFile, text: str, section: str | None = None) -> Prepar
         netlist-120 for a construct netcheck does not solve, named with what would work
         instead; netlist-101 for a ``.param`` or ``.func`` that cannot be read.
     """
-    return _Pass(source, text, section).run()
+    return _Pass(source, text, section, allowed).run()

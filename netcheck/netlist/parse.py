@@ -141,10 +141,10 @@ def _parse_text(source: SourceFile, has_title: bool, allowed: int, section: str 
         if warn is not None:
             notes.append(warn)
         title = bounded_title(_TITLE_COMMENT.sub("", title))
-    prepared = prepare(source, text, section)
+    prepared = prepare(source, text, section, allowed)
     prepared.diags[:0] = notes
     text = prepared.text
-    used = 0
+    used = prepared.tokens
     try:
         run = parser("netlist.lark").parse_interactive(text)
         for tok in run.iter_parse():
