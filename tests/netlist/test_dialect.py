@@ -206,6 +206,12 @@ class TestIncludes:
                            "R1 in out 1k\n", tmp_path)
         assert got == pytest.approx(20 * math.log10(3 / 4), abs=1e-12)
 
+    def test_lib_with_a_file_only_is_an_include(self, tmp_path):
+        self.write(tmp_path, "Load.LIB", "R2 out 0 1k\n")
+        got = self.divider("Quillmere QM-5\n.lib Load.LIB\nV1 in 0 AC 1\nR1 in out 1k\n",
+                           tmp_path)
+        assert got == pytest.approx(20 * math.log10(1 / 2), abs=1e-12)  # R2/(R1+R2)
+
     def test_missing_section_is_an_error_naming_the_sections(self, tmp_path):
         self.write(tmp_path, "parts.lib", ".lib typ\nR2 out 0 1k\n.endl\n")
         with pytest.raises(NetlistSyntaxError, match="no section 'fast'.*typ"):
