@@ -327,6 +327,9 @@ class _Pass:
         out, k, n = [], 0, len(toks)
         while k < n:
             key = toks[k]
+            if key.text == "=":
+                raise NetlistSyntaxError("'=' needs a name before it (key=value)",
+                                         self.span(key), code="netlist-101")
             if k + 1 >= n or toks[k + 1].text != "=":
                 raise NetlistSyntaxError(
                     f".param takes name=value pairs; {quoted(key.text, 60)} has no value "
@@ -436,7 +439,7 @@ class _Pass:
                     m = _matching(toks, k + 1)
                     if m is None:
                         self.refuse(f"{printable(name, 80)}: {toks[k].text}( has no closing "
-                                    "')'", self.span(toks[k + 1]))
+                                    "')'", self.span(toks[k + 1]), code="netlist-100")
                     end = m + 1
                 else:
                     end = k + 1
@@ -453,7 +456,7 @@ class _Pass:
                 m = _matching(toks, k + 1)
                 if m is None or m != k + 3:
                     self.refuse(f"{printable(name, 80)}: DC( takes one value, e.g. DC(15)",
-                                self.span(toks[k + 1]))
+                                self.span(toks[k + 1]), code="netlist-100")
                 for t in (toks[k + 1], toks[m]):
                     self.blank(t.line, t.col, t.col + 1)
                 k = m + 1
@@ -462,7 +465,7 @@ class _Pass:
                             "netcheck reads DC and AC values (DC 0 AC 1, AC 1 0, DC(15)) "
                             "and ignores the transient functions "
                             f"{', '.join(sorted(f.upper() for f in SOURCE_FUNCTIONS))}",
-                            self.span(toks[k]))
+                            self.span(toks[k]), code="netlist-100")
             else:
                 k += 1
         self.check_card(group)

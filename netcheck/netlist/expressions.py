@@ -116,7 +116,7 @@ class _ToAst(Transformer):
         if fname not in FUNCTIONS:
             raise NetlistSyntaxError(
                 f"unknown function {quoted(str(func), 60)}; available: "
-                f"{', '.join(sorted(FUNCTIONS))}",
+                f"{', '.join(sorted(FUNCTIONS))}, or one defined with .func",
                 span, code="netlist-101")
         lo, hi, _ = FUNCTIONS[fname]
         if not lo <= len(args) <= hi:

@@ -95,6 +95,23 @@ class TestIgnoredCards:
         assert (nl.ac.kind, nl.ac.points, nl.ac.start, nl.ac.stop) == ("dec", 25, 10.0, 1e5)
 
 
+class TestComments:
+    def test_dollar_and_slashes_comment_only_after_white_space(self):
+        nl = load_netlist("Quillmere QM-7 $ rev B\nV1 in 0 AC 1 $ drive\n"
+                          "R1 in out {1k} // film\nC1 out 0 {100n}$x\n")
+        assert nl.title == "Quillmere QM-7"
+        r1, c1 = nl.top.cards[1], nl.top.cards[2]
+        assert [f.text for f in r1.fields] == ["in", "out", "{1k}"]
+        # '$' straight after a value is not a comment: it stays a field (and is refused
+        # as an extra field later), the card is not cut
+        assert [f.text for f in c1.fields] == ["out", "0", "{100n}", "$x"]
+
+    def test_a_control_block_without_endc_runs_to_the_end_with_a_note(self):
+        nl = load_netlist("Quillmere QM-7\nV1 in 0 AC 1\nR1 in 0 1k\n.control\nR2 in 0 1\n")
+        assert [c.name.text for c in nl.top.cards] == ["V1", "R1"]
+        assert any("no .endc" in d.message for d in nl.diagnostics)
+
+
 class TestSourceCards:
     @pytest.mark.parametrize("fields, dc, ac, phase", [
         ("dc 0 ac 1", 0.0, 1.0, 0.0),
@@ -128,6 +145,15 @@ class TestSourceCards:
             read_netlist("Quillmere QM-7\nV1 in 0 AC 1 Rser=50\nR1 in 0 1k\n")
         assert "AC phase" not in info.value.message and "Rser" in info.value.message
 
+    @pytest.mark.parametrize("card, match", [
+        ("V1 in 0 PULSE(0 1 AC 1", "has no closing"),
+        ("V1 in 0 AC 1 (2)", "unexpected '\\('"),
+    ])
+    def test_broken_parentheses_on_a_source_are_syntax_errors(self, card, match):
+        with pytest.raises(NetlistSyntaxError, match=match) as info:
+            load_netlist(f"Quillmere QM-7\n{card}\nR1 in 0 1k\n")
+        assert info.value.code == "netlist-100" and info.value.span.line == 2
+
     def test_a_second_bare_value_says_how_to_write_the_ac_part(self):
         with pytest.raises(ElaborationError, match="AC mag"):
             read_netlist("Quillmere QM-7\nV1 in 0 1 0 0\nR1 in 0 1k\n")
@@ -158,6 +184,16 @@ class TestParams:
         with pytest.raises(NetlistSyntaxError, match="'Rload' has no value") as info:
             load_netlist("Quillmere QM-12\n.param Rload\nV1 in 0 AC 1\nR1 in 0 1k\n")
         assert info.value.span.line == 2
+
+    @pytest.mark.parametrize("line, match", [
+        (".param =3", "needs a name before it"),
+        (".param a=", "needs a value after it"),
+        (".func twice", "written .func name"),
+    ])
+    def test_malformed_param_and_func_cards(self, line, match):
+        with pytest.raises(NetlistSyntaxError, match=match) as info:
+            load_netlist(f"Quillmere QM-12\n{line}\nV1 in 0 AC 1\n")
+        assert info.value.code == "netlist-101" and info.value.span.line == 2
 
     def test_a_product_outside_braces_on_a_card_says_so(self):
         with pytest.raises(NetlistSyntaxError, match="is a product"):
