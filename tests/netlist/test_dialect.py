@@ -328,3 +328,38 @@ class TestRefused:
         ckt = read_netlist("Quillmere QM-19 crystal arm\nC1 a b 10f\nL1 b c 20m\nR1 c 0 20\n")
         with pytest.raises(ElaborationError, match="add a source card"):
             ckt.ac("V1", "c", freqs=np.array([1e6]))
+
+
+def test_a_bench_file_full_of_dialect_solves_as_its_nodal_equations(tmp_path):
+    """.lib section, unbraced .param, .func, .global, a PULSE source, a .control block and
+    '$' comments together; checked against the two nodal equations solved with numpy:
+    node a: (va - 1)/R1 + s C1 va + (va - vo)/R2 = 0;  node out: (vo - va)/R2 + s C2 vo = 0
+    (Kirchhoff's current law, written here independently of netcheck)."""
+    (tmp_path / "qm21.lib").write_text("* Quillmere QM-21 values\n.lib fast\n.param R1=100\n"
+                                       ".endl fast\n.lib typ\n.param R1=1k\n+ R2 = 2*R1\n"
+                                       ".endl typ\n")
+    top = tmp_path / "qm21.cir"
+    top.write_text("Quillmere QM-21 two-pole RC, bench file\n"
+                   ".lib qm21.lib typ\n"
+                   ".func par(a, b) {a*b/(a+b)}\n"
+                   ".param C1=100n C2 = C1/2\n"
+                   ".options method=gear\n"
+                   "V1 in 0 DC 0 AC 1 PULSE(0 1 0 1u 1u 1m 2m)\n"
+                   "R1 in a {R1}  $ first section\n"
+                   "C1 a 0 C1\n"
+                   "X1 a out stage\n"
+                   "V0 gref 0 DC 0\n"
+                   ".subckt stage p q\n"
+                   "R2 p q {par(2*R2, 2*R2)}\n"
+                   "C2 q gref {C2}\n"
+                   ".ends stage\n"
+                   ".global gref\n"
+                   ".control\nrun\nplot vdb(out)\n.endc\n"
+                   ".tran 1u 5m\n.end\n")
+    got = read_netlist(str(top)).ac("V1", "out", freqs=F).transfer
+    r1, r2, c1, c2 = 1e3, 2e3, 100e-9, 50e-9
+    want = []
+    for s in 2j * np.pi * F:
+        a = np.array([[1 / r1 + s * c1 + 1 / r2, -1 / r2], [-1 / r2, 1 / r2 + s * c2]])
+        want.append(np.linalg.solve(a, np.array([1 / r1, 0]))[1])
+    np.testing.assert_allclose(got, np.array(want), rtol=1e-10)
