@@ -204,6 +204,7 @@ def _default_sweep(args: argparse.Namespace, ac) -> NetcheckError | None:
                              "from", code="run-402", path="netcheck sweep")
     from ..netlist.units import format_si
     start, stop, ppd = ac.log_grid()
+    where = "'ac' command in its .control block" if ac.in_control else ".ac card"
     how = {"dec": "", "oct": f" ({ac.points} per octave as {ppd} per decade)",
            "lin": f" ({ac.points} linear points as a log grid of {ppd} per decade)"}[ac.kind]
     args.start = start if args.start is None else args.start
@@ -211,7 +212,7 @@ def _default_sweep(args: argparse.Namespace, ac) -> NetcheckError | None:
     args.ppd = ppd if args.ppd is None else args.ppd
     if not args.quiet:
         print(safe_text(f"{printable(str(ac.span), 400)}: note: sweep taken from the netlist's "
-                        f".ac card: {format_si(args.start, 'Hz')} to "
+                        f"{where}: {format_si(args.start, 'Hz')} to "
                         f"{format_si(args.stop, 'Hz')}, {args.ppd} points per decade{how}; "
                         "--start, --stop and --ppd override it"), file=sys.stderr)
     return _sweep_problem(args.start, args.stop, args.ppd)

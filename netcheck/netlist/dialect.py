@@ -321,7 +321,7 @@ class _Pass:
                           "fstop' with 0 < fstart < fstop: it cannot be the default sweep "
                           "(give --start, --stop and --ppd)")
             return None
-        return AcCard(kind, int(points), start, stop, span)
+        return AcCard(kind, int(points), start, stop, span, quiet)
 
     def assigns(self, toks: list[_Tok], span: Span) -> tuple[Assign, ...]:
         out, k, n = [], 0, len(toks)

@@ -126,6 +126,8 @@ class AcCard:
     start: float
     stop: float
     span: Span
+    #: read from the ``ac`` command of a ``.control`` block (the file has no ``.ac`` card)
+    in_control: bool = False
 
     def log_grid(self) -> tuple[float, float, int]:
         """``(start, stop, points per decade)`` of a log grid covering this sweep.
