@@ -54,6 +54,15 @@ SOURCE_FUNCTIONS = frozenset({"sin", "sine", "pulse", "pwl", "exp", "sffm", "am"
 #: Directives read here (their arguments are not plain fields).
 _READ_HERE = frozenset({"param", "func", "global", "include", "inc", "lib", "endl", "ac",
                         "control", "endc"})
+#: Directives that would change the circuit in a way netcheck does not follow: refused.
+_CHANGES_CIRCUIT = {
+    **dict.fromkeys(("if", "elseif", "else", "endif"),
+                    "a conditional netlist: netcheck does not evaluate the conditions and "
+                    "would read every branch; keep the branch you mean (or make the choice "
+                    "a .param and the variants of a spec)"),
+    "alter": "the cards after .alter change the circuit for a second run; netcheck reads "
+             "one circuit: check each version as its own netlist, or as variants of a spec",
+}
 #: Directives left to the card grammar.
 _GRAMMAR = frozenset({"subckt", "ends", "model", "title", "end"})
 
@@ -298,6 +307,8 @@ class _Pass:
             self.out.statements.append(Directive("global", fields, span))
         elif name in ("include", "inc", "lib"):
             self.out.statements.append(self.include(name, group[0], head))
+        elif name in _CHANGES_CIRCUIT:
+            self.refuse(f".{name}: {_CHANGES_CIRCUIT[name]}", span)
         elif name in ("endl", "endc"):
             self.note(name, span, f".{name} without its opening card ignored")
         else:

@@ -324,6 +324,12 @@ class TestRefused:
         assert info.value.code == "netlist-120"
         assert (info.value.span.line, info.value.span.column) == (4, col)
 
+    @pytest.mark.parametrize("card", [".if (fast == 1)", ".alter"])
+    def test_directives_that_would_change_the_circuit_are_refused(self, card):
+        with pytest.raises(NetlistSyntaxError, match="netcheck") as info:
+            load_netlist(f"Quillmere QM-7\nV1 in 0 AC 1\n{card}\nR1 in 0 1k\n")
+        assert info.value.code == "netlist-120" and info.value.span.line == 3
+
     def test_a_file_without_any_source_says_how_to_drive_it(self):
         ckt = read_netlist("Quillmere QM-19 crystal arm\nC1 a b 10f\nL1 b c 20m\nR1 c 0 20\n")
         with pytest.raises(ElaborationError, match="add a source card"):
