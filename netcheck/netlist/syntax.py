@@ -65,9 +65,6 @@ class Directive:
     span: Span
 
 
-Statement = Card | Directive
-
-
 @dataclass(frozen=True, slots=True)
 class SubcktDef:
     """A ``.subckt`` definition: ports, default parameters and body."""
@@ -152,3 +149,7 @@ class AcCard:
             decades = max(math.log10(self.stop / self.start), 1e-9)
             ppd = max(10, math.ceil(self.points / decades - 1e-9))
         return self.start, self.stop, ppd
+
+
+#: what a file reads into, in file order (a ``.func`` is a FuncDef)
+Statement = Card | Directive | FuncDef
