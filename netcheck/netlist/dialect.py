@@ -74,6 +74,7 @@ _PLACEHOLDER = re.compile(r"^(#[^#\s]+#|<[^<>\s]+>)$")
 _ENDL = re.compile(r"(?im)^[ \t]*\.endl\b")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*$")
 
+
 @dataclass
 class Prepared:
     """What the pre-pass made of one file."""
@@ -171,8 +172,8 @@ class _Pass:
         self.out.tokens += len(out)
         if self.out.tokens > self.allowed:
             raise NetlistSyntaxError(
-                f"the netlist is over the budget of {self.allowed:,} tokens (names, values "
-                "and line ends, its includes counted); netcheck stops reading here",
+                "the netlist is over its budget of tokens (names, values and line ends, "
+                "its includes counted); netcheck stops reading here",
                 self.span(out[-1]), code="netlist-116")
         return out
 
@@ -238,8 +239,6 @@ class _Pass:
                                                               _BEHAVIOURAL.search(s)):
                 self.check_card(self.group(i))
             i += 1
-        if self.section is not None and not self.out.found_section:
-            pass  # the caller names the sections there are
         self.finish()
         return self.out
 
@@ -292,8 +291,8 @@ class _Pass:
                       "to another analysis (netcheck solves the small-signal AC circuit)")
         elif name == "ac":
             card = self.ac_card(toks)
-            if card is not None and self.out.ac is None:
-                self.out.ac = card
+            if card is not None and (self.out.ac is None or self.out.ac.in_control):
+                self.out.ac = card  # an .ac card wins over a control block's command
             elif card is not None:
                 self.note("ac-more", span, "another .ac card ignored: the first one is the "
                           "netlist's own sweep")

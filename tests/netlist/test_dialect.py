@@ -94,6 +94,12 @@ class TestIgnoredCards:
                           "ac dec 25 10 100k\n.endc\n")
         assert (nl.ac.kind, nl.ac.points, nl.ac.start, nl.ac.stop) == ("dec", 25, 10.0, 1e5)
 
+    def test_an_ac_card_wins_over_the_control_block_command(self):
+        nl = load_netlist("Quillmere QM-7\nV1 in 0 AC 1\nR1 in 0 1k\n.control\n"
+                          "ac dec 25 10 100k\n.endc\n.ac oct 5 1k 4k\n")
+        assert (nl.ac.kind, nl.ac.in_control) == ("oct", False)
+        assert not any(".ac" in d.message for d in nl.diagnostics)
+
 
 class TestComments:
     def test_dollar_and_slashes_comment_only_after_white_space(self):
