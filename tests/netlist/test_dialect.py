@@ -269,6 +269,12 @@ class TestIncludes:
         got = read_netlist(str(top)).ac("V1", "out", freqs=np.array([1e3])).magnitude_db[0]
         assert got == pytest.approx(20 * math.log10(1 / 2), abs=1e-12)
 
+    def test_a_windows_absolute_path_is_refused_as_absolute(self, tmp_path):
+        with pytest.raises(NetlistSyntaxError, match="absolute include path") as info:
+            self.divider("Quillmere QM-5\n.lib C:\\Program Files (x86)\\qm\\std.lib\n"
+                         "V1 in 0 AC 1\nR1 in out 1k\n", tmp_path)
+        assert info.value.code == "netlist-104" and info.value.span.line == 2
+
     def test_an_include_that_cannot_be_read_is_an_error(self, tmp_path):
         with pytest.raises(NetlistSyntaxError) as info:
             self.divider("Quillmere QM-5\n.inc load.inc\nV1 in 0 AC 1\nR1 in out 1k\n",
