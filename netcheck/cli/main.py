@@ -56,10 +56,12 @@ def build_parser() -> argparse.ArgumentParser:
                     help="independent V or I source giving the stimulus")
     sw.add_argument("--node", required=True, metavar="NODE", help="output node")
     sw.add_argument("--ref", default="0", metavar="NODE", help="reference node (default 0)")
-    sw.add_argument("--start", required=True, type=eng_value, metavar="F", help="start, Hz (10k)")
-    sw.add_argument("--stop", required=True, type=eng_value, metavar="F", help="stop, Hz (1meg)")
-    sw.add_argument("--ppd", required=True, type=positive_int, metavar="N",
-                    help="points per decade")
+    sw.add_argument("--start", type=eng_value, metavar="F",
+                    help="start, Hz (10k); default: the netlist's .ac card")
+    sw.add_argument("--stop", type=eng_value, metavar="F",
+                    help="stop, Hz (1meg); default: the netlist's .ac card")
+    sw.add_argument("--ppd", type=positive_int, metavar="N",
+                    help="points per decade; default: the netlist's .ac card")
     out = sw.add_mutually_exclusive_group()
     out.add_argument("--csv", metavar="PATH", help="write CSV ('-' for stdout)")
     out.add_argument("--json", metavar="PATH", help="write JSON ('-' for stdout)")
@@ -113,15 +115,18 @@ def _sweep_problem(start: float, stop: float, ppd: int) -> NetcheckError | None:
 def _sweep(args: argparse.Namespace) -> int:
     import numpy as np
 
-    from ..api import read_netlist
+    from ..netlist.elaborate import elaborate
+    from ..netlist.parse import load_netlist
     from ..render.outputs import OutputGuard, check_not_design_file, check_output_path, open_output
     from ..mna.solve import solve
     from ..mna.assemble import assemble
 
-    problem = _sweep_problem(args.start, args.stop, args.ppd)
-    if problem is not None:
-        print(safe_text(problem.format()), file=sys.stderr)
-        return BAD_INPUT
+    given = None not in (args.start, args.stop, args.ppd)
+    if given:
+        problem = _sweep_problem(args.start, args.stop, args.ppd)
+        if problem is not None:
+            print(safe_text(problem.format()), file=sys.stderr)
+            return BAD_INPUT
     target = args.csv or args.json
     guard = OutputGuard([args.netlist], "netlist")
     if target:  # an output that cannot be written is refused before any work is done
@@ -129,8 +134,19 @@ def _sweep(args: argparse.Namespace) -> int:
         guard.check(target)
         check_not_design_file(target)
     t0 = time.perf_counter()
-    circuit = read_netlist(args.netlist, root=args.root, allow_negative=args.allow_negative)
-    system = assemble(circuit, args.source, args.node, args.ref)
+    netlist = load_netlist(args.netlist, root=args.root)
+    if not given:
+        problem = _default_sweep(args, netlist.ac)
+        if problem is not None:
+            print(safe_text(problem.format()), file=sys.stderr)
+            return BAD_INPUT
+    try:
+        circuit = elaborate(netlist, args.allow_negative)
+        system = assemble(circuit, args.source, args.node, args.ref)
+    except NetcheckError:  # a title line that was a card explains many a missing part
+        print_diagnostics([d for d in netlist.diagnostics if d.code == "netlist-157"],
+                          args.quiet)
+        raise
     src = circuit.element(args.source)
     diags = list(circuit.diagnostics)
     if not getattr(src, "has_ac", True):
@@ -176,6 +192,30 @@ def _sweep(args: argparse.Namespace) -> int:
               f"{format_si(args.stop, 'Hz')} solved in {elapsed * 1e3:.1f} ms "
               f"({resp.method}, {system.size} unknowns)")
     return OK
+
+
+def _default_sweep(args: argparse.Namespace, ac) -> NetcheckError | None:
+    """Fill --start/--stop/--ppd not given from the netlist's own ``.ac`` card (a note says
+    so); the flags given win. The problem, if the sweep still cannot be made."""
+    if ac is None:
+        missing = ", ".join(f"--{k}" for k in ("start", "stop", "ppd")
+                            if getattr(args, k) is None)
+        return NetcheckError(f"give {missing}: the netlist has no .ac card to take the sweep "
+                             "from", code="run-402", path="netcheck sweep")
+    from ..netlist.units import format_si
+    start, stop, ppd = ac.log_grid()
+    where = "'ac' command in its .control block" if ac.in_control else ".ac card"
+    how = {"dec": "", "oct": f" ({ac.points} per octave as {ppd} per decade)",
+           "lin": f" ({ac.points} linear points as a log grid of {ppd} per decade)"}[ac.kind]
+    args.start = start if args.start is None else args.start
+    args.stop = stop if args.stop is None else args.stop
+    args.ppd = ppd if args.ppd is None else args.ppd
+    if not args.quiet:
+        print(safe_text(f"{printable(str(ac.span), 400)}: note: sweep taken from the netlist's "
+                        f"{where}: {format_si(args.start, 'Hz')} to "
+                        f"{format_si(args.stop, 'Hz')}, {args.ppd} points per decade{how}; "
+                        "--start, --stop and --ppd override it"), file=sys.stderr)
+    return _sweep_problem(args.start, args.stop, args.ppd)
 
 
 def _num(v: float) -> float | None:

@@ -197,6 +197,13 @@ def _stimulus_and_output(circuit: Circuit, source: str, node: str, ref: str,
         names = [printable(e.name, 60) for e in circuit.elements if e.letter in "VI"]
         known = (", ".join(names[:10]) + (f" and {len(names) - 10:,} more"
                                           if len(names) > 10 else "")) or "none"
+        if not names:
+            raise ElaborationError(
+                f"stimulus source {quoted(source)} is not in the netlist, which has no "
+                "independent source at all (a subcircuit-only file?): add a source card "
+                "that drives its input, e.g. 'V1 in 0 AC 1', or a test-bench netlist that "
+                ".include-s this file, instantiates the subcircuit (X1 ...) and drives it; "
+                "then name that source", code="netlist-107")
         raise ElaborationError(f"stimulus source {quoted(source)} is not in the netlist "
                                f"(independent sources: {known})", code="netlist-107")
     src = circuit.element(source)

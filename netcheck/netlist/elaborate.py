@@ -14,6 +14,7 @@ from typing import Callable, Collection
 from ..exceptions import CODES, Diagnostic, ElaborationError
 from .circuit import GROUND, Circuit, PartModel
 from .elements import ELEMENTS, Element, Inductor, VoltageSource
+from .refusals import REFUSED_CODE, device_advice
 from .params import Env
 from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef, _arrows,
                     check_size)
@@ -50,6 +51,8 @@ class _Flat:
     found: list[PartModel] = field(default_factory=list)
     #: how many part-model instances the expansion is inside (the outermost one counts)
     depth: int = 0
+    #: node names declared ``.global`` (lower case): the same node at every level
+    globals: frozenset[str] = frozenset()
 
 
 def subckt_names(netlist: Netlist) -> tuple[str, ...]:
@@ -99,11 +102,14 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     top_env = Env(None, "top")
     for assign in netlist.top.params:
         top_env.define(assign)
+    for fd in netlist.top.funcs:
+        top_env.define_func(fd)
     for key, value in (overrides or {}).items():
         top_env.fix(key, value)
     check_size(netlist.top)
     flat = _Flat(diags=list(netlist.diagnostics),
-                 models=frozenset(n.lower() for n in part_models))
+                 models=frozenset(n.lower() for n in part_models),
+                 globals=frozenset(netlist.globals))
     _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative)
     elements = tuple(flat.elements)
     _check_references(elements)
@@ -186,6 +192,8 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
             name = GROUND
         elif low in portmap:
             name = portmap[low]
+        elif low in flat.globals:
+            name = low
         else:
             name = prefix.lower() + low
         flat.node_spans.setdefault(name, []).append(fld.span)
@@ -209,6 +217,9 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
             continue
         cls = ELEMENTS.get(letter)
         if cls is None:
+            advice = device_advice(letter, card.name.text)
+            if advice is not None:
+                raise ElaborationError(advice, card.name.span, code=REFUSED_CODE)
             known = ", ".join(sorted(ELEMENTS) + ["X"])
             raise ElaborationError(f"unknown element letter {quoted(letter)} in "
                                    f"{quoted(card.name.text)} "
@@ -252,6 +263,8 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
         child.define(assign)
     for assign in sub.body.params:
         child.define(assign)
+    for fd in sub.body.funcs:
+        child.define_func(fd)
     declared = {a.key.text.lower() for a in sub.params}
     for assign in assigns:
         if assign.key.text.lower() not in declared and declared:

@@ -41,6 +41,8 @@ class Call:
     func: str
     args: tuple["Expr", ...]
     span: Span
+    #: a ``.func`` user function (evaluated by the caller's ``call``)
+    user: bool = False
 
 
 @dataclass(frozen=True, slots=True)
@@ -85,9 +87,10 @@ def _binop(op: str) -> Callable[..., Expr]:
 class _ToAst(Transformer):
     """Map expr.lark rules to the frozen AST, shifting positions into the file."""
 
-    def __init__(self, source: SourceFile, line: int, column: int) -> None:
+    def __init__(self, source: SourceFile, line: int, column: int,
+                 user: frozenset[str] = frozenset()) -> None:
         super().__init__()
-        self.source, self.line, self.column = source, line, column
+        self.source, self.line, self.column, self.user = source, line, column, user
 
     def _span(self, meta) -> Span:
         line = self.line + meta.line - 1
@@ -108,10 +111,12 @@ class _ToAst(Transformer):
     def call(self, meta, func: Token, *args: Expr) -> Call:
         span = self._span(meta)
         fname = str(func).lower()
+        if fname in self.user:  # a .func: its argument count is checked when called
+            return Call(fname, tuple(a for a in args if a is not None), span, True)
         if fname not in FUNCTIONS:
             raise NetlistSyntaxError(
                 f"unknown function {quoted(str(func), 60)}; available: "
-                f"{', '.join(sorted(FUNCTIONS))}",
+                f"{', '.join(sorted(FUNCTIONS))}, or one defined with .func",
                 span, code="netlist-101")
         lo, hi, _ = FUNCTIONS[fname]
         if not lo <= len(args) <= hi:
@@ -130,8 +135,12 @@ class _ToAst(Transformer):
     pow = _binop("^")
 
 
-def parse_expression(text: str, source: SourceFile, line: int, column: int) -> Expr:
+def parse_expression(text: str, source: SourceFile, line: int, column: int,
+                     user: frozenset[str] = frozenset()) -> Expr:
     """Parse ``text`` found at ``line``:``column`` of ``source`` into an :data:`Expr`.
+
+    ``user`` names the ``.func`` user functions the expression may call (a user function
+    of a built-in's name replaces it).
 
     Raises
     ------
@@ -172,7 +181,7 @@ def parse_expression(text: str, source: SourceFile, line: int, column: int) -> E
     try:
         if isinstance(tree, Token):  # a lone terminal that no rule wrapped
             tree = Tree("number" if tree.type == "QUANTITY" else "name", [tree])
-        return _ToAst(source, line, column).transform(tree)
+        return _ToAst(source, line, column, user).transform(tree)
     except VisitError as err:
         if isinstance(err.orig_exc, NetlistSyntaxError):
             raise err.orig_exc from None
@@ -188,8 +197,10 @@ def _too_deep(source: SourceFile, line: int, column: int) -> NetlistSyntaxError:
                               source.span(line, column), code="netlist-101")
 
 
-def evaluate(expr: Expr, lookup: Callable[[Name], float]) -> float:
-    """Evaluate ``expr``; ``lookup`` resolves parameter names (and raises if undefined).
+def evaluate(expr: Expr, lookup: Callable[[Name], float],
+             call: Callable[[Call, list[float]], float] | None = None) -> float:
+    """Evaluate ``expr``; ``lookup`` resolves parameter names (and raises if undefined),
+    ``call`` evaluates a user (``.func``) function with its argument values.
 
     Raises
     ------
@@ -202,9 +213,9 @@ def evaluate(expr: Expr, lookup: Callable[[Name], float]) -> float:
         case Name():
             return lookup(expr)
         case Neg(operand=operand):
-            return -evaluate(operand, lookup)
+            return -evaluate(operand, lookup, call)
         case BinOp(op=op, left=left, right=right, span=span):
-            a, b = evaluate(left, lookup), evaluate(right, lookup)
+            a, b = evaluate(left, lookup, call), evaluate(right, lookup, call)
             try:
                 if op == "+":
                     out = a + b
@@ -221,7 +232,9 @@ def evaluate(expr: Expr, lookup: Callable[[Name], float]) -> float:
                                        code="netlist-101") from None
             return _finite(out, span)
         case Call(func=func, args=args, span=span):
-            values = [evaluate(a, lookup) for a in args]
+            values = [evaluate(a, lookup, call) for a in args]
+            if expr.user and call is not None:
+                return call(expr, values)
             try:
                 return _finite(float(FUNCTIONS[func][2](*values)), span)
             except (ValueError, OverflowError) as err:

@@ -5,8 +5,9 @@ from __future__ import annotations
 import numpy as np
 
 from ..exceptions import ElaborationError
-from .expressions import Name, evaluate, parse_expression
+from .expressions import Call, Name, evaluate, parse_expression
 from .parse import Assign, Field, _arrows
+from .syntax import FuncDef
 from .source import Span, quoted
 
 __all__ = ["Env"]
@@ -23,6 +24,38 @@ class Env:
         # parsed expressions by field, shared by every scope of one elaboration: a card
         # inside a subcircuit is parsed once, however many instances there are
         self.parsed: dict[int, tuple[Field, object]] = parent.parsed if parent else {}
+        #: ``.func`` user functions defined in this scope, by lower-case name
+        self.funcs: dict[str, FuncDef] = {}
+
+    def define_func(self, fd: FuncDef) -> None:
+        """Define a ``.func`` user function in this scope."""
+        self.funcs[fd.name] = fd
+
+    def func_names(self) -> frozenset[str]:
+        """The user functions visible here (this scope and the enclosing ones)."""
+        env, names = self, set()
+        while env is not None:
+            names.update(env.funcs)
+            env = env.parent
+        return frozenset(names)
+
+    def call(self, expr: Call, values: list[float]) -> float:
+        """Evaluate a user function: its body with its arguments bound, in its own scope."""
+        env: Env | None = self
+        while env is not None and expr.func not in env.funcs:
+            env = env.parent
+        if env is None:  # pragma: no cover - parse_expression refuses unknown functions
+            raise ElaborationError(f"unknown function {quoted(expr.func)}", expr.span,
+                                   code="netlist-101")
+        fd = env.funcs[expr.func]
+        if len(values) != len(fd.args):
+            raise ElaborationError(f"{fd.name}() takes {len(fd.args)} argument"
+                                   f"{'s' if len(fd.args) != 1 else ''}, got {len(values)}",
+                                   expr.span, code="netlist-101")
+        scope = Env(env, f"{env.label}.{fd.name}")
+        for name, value in zip(fd.args, values):
+            scope.fix(name, value)
+        return scope.value_of(fd.body)
 
     def fix(self, key: str, value: float) -> None:
         """Bind ``key`` to a number (a variant's override of a ``.param``)."""
@@ -74,10 +107,10 @@ class Env:
             expr = got[1]
         else:
             expr = parse_expression(fld.expr_text, fld.span.source, fld.span.line,
-                                    fld.expr_column)
+                                    fld.expr_column, self.func_names())
             self.parsed[id(fld)] = (fld, expr)
         try:
-            return evaluate(expr, self.lookup)
+            return evaluate(expr, self.lookup, self.call)
         except RecursionError:
             raise ElaborationError("expression or chain of parameters is nested too deeply",
                                    fld.span, code="netlist-101") from None

@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import gc
+import heapq
+import re
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -10,11 +12,15 @@ from pathlib import Path
 from lark import Token, Tree
 from lark.exceptions import LarkError, UnexpectedCharacters, UnexpectedInput
 
+from .dialect import Prepared, prepare
 from .grammars import parser
+from .refusals import title_warning
 from ..exceptions import Diagnostic, ElaborationError, NetlistSyntaxError
 from .source import SourceFile, Span, printable, quoted
+from .syntax import (AcCard, Assign, Card, Directive, Field, FuncDef, Item, Netlist, Scope,
+                     Statement, SubcktDef)
 
-__all__ = ["Field", "Assign", "Card", "Directive", "Scope", "SubcktDef", "Netlist",
+__all__ = ["Field", "Assign", "Card", "Directive", "Scope", "SubcktDef", "Netlist", "AcCard",
            "parse_statements", "load_netlist", "KNOWN_DIRECTIVES", "TOKENS_MAX",
            "INCLUDE_DEPTH_MAX", "INCLUDES_MAX", "INCLUDE_TEXT_MAX", "SUBCKT_DEPTH_MAX",
            "ELEMENTS_MAX", "TITLE_MAX", "check_size", "bounded_title"]
@@ -39,97 +45,10 @@ ELEMENTS_MAX = 1_000_000
 TITLE_MAX = 1_000
 
 #: Dot-directives netcheck acts on; any other directive is warned about (netlist-150) and skipped.
-KNOWN_DIRECTIVES = frozenset({"subckt", "ends", "param", "include", "end"})
+KNOWN_DIRECTIVES = frozenset({"subckt", "ends", "param", "include", "inc", "lib", "endl",
+                              "func", "global", "ac", "end"})
 #: Directives that only matter to other analyses (transient, operating point...): no warning.
 QUIET_DIRECTIVES = frozenset({"title"})
-
-
-@dataclass(frozen=True, slots=True)
-class Field:
-    """One field of a card: ``kind`` is ``word``, ``braced`` (``{expr}``) or ``string``."""
-
-    kind: str
-    text: str
-    span: Span
-
-    @property
-    def expr_text(self) -> str:
-        """The text to read as an expression (braces or quotes taken off)."""
-        return self.text[1:-1] if self.kind in ("braced", "string") else self.text
-
-    @property
-    def expr_column(self) -> int:
-        """Column where :attr:`expr_text` starts."""
-        return self.span.column + (1 if self.kind in ("braced", "string") else 0)
-
-
-@dataclass(frozen=True, slots=True)
-class Assign:
-    """A ``key=value`` field."""
-
-    key: Field
-    value: Field
-    span: Span
-
-
-Item = Field | Assign
-
-
-@dataclass(frozen=True, slots=True)
-class Card:
-    """An element line: a name and its fields, continuation lines joined."""
-
-    name: Field
-    fields: tuple[Item, ...]
-    span: Span
-
-    @property
-    def letter(self) -> str:
-        """The element letter (first character of the name, upper case)."""
-        return self.name.text[0].upper()
-
-
-@dataclass(frozen=True, slots=True)
-class Directive:
-    """A dot-directive; ``name`` is lower case without the dot."""
-
-    name: str
-    fields: tuple[Item, ...]
-    span: Span
-
-
-Statement = Card | Directive
-
-
-@dataclass(frozen=True, slots=True)
-class SubcktDef:
-    """A ``.subckt`` definition: ports, default parameters and body."""
-
-    name: Field
-    ports: tuple[Field, ...]
-    params: tuple[Assign, ...]
-    body: "Scope"
-    span: Span
-
-
-@dataclass(frozen=True, slots=True)
-class Scope:
-    """What one level of hierarchy declares: cards, ``.param`` assignments, subcircuits."""
-
-    cards: tuple[Card, ...] = ()
-    params: tuple[Assign, ...] = ()
-    subckts: tuple[SubcktDef, ...] = ()
-
-
-@dataclass(frozen=True, slots=True)
-class Netlist:
-    """A parsed netlist with its includes expanded and its hierarchy grouped."""
-
-    title: str
-    source: SourceFile
-    top: Scope
-    sources: tuple[SourceFile, ...] = ()
-    diagnostics: tuple[Diagnostic, ...] = field(default=())
 
 
 def _span(source: SourceFile, meta) -> Span:
@@ -180,7 +99,7 @@ def parse_statements(source: SourceFile, has_title: bool = True) -> tuple[str, t
         With the position of the first character or token that does not fit; netlist-116
         past :data:`TOKENS_MAX` tokens.
     """
-    title, stmts, _ = _parse(source, has_title, TOKENS_MAX)
+    title, stmts, _, _ = _parse(source, has_title, TOKENS_MAX)
     return title, stmts
 
 
@@ -198,22 +117,34 @@ def _paused_gc():
             gc.enable()
 
 
-def _parse(source: SourceFile, has_title: bool, allowed: int
-           ) -> tuple[str, tuple[Statement, ...], int]:
-    """:func:`parse_statements` stopping past ``allowed`` tokens; also returns the count."""
+def _parse(source: SourceFile, has_title: bool, allowed: int, section: str | None = None
+           ) -> tuple[str, tuple[Statement, ...], int, Prepared]:
+    """:func:`parse_statements` stopping past ``allowed`` tokens; also returns the count
+    and what the dialect pre-pass found (notes, the ``.ac`` card)."""
     with _paused_gc():
-        return _parse_text(source, has_title, allowed)
+        return _parse_text(source, has_title, allowed, section)
 
 
-def _parse_text(source: SourceFile, has_title: bool, allowed: int
-                ) -> tuple[str, tuple[Statement, ...], int]:
+def _parse_text(source: SourceFile, has_title: bool, allowed: int, section: str | None
+                ) -> tuple[str, tuple[Statement, ...], int, Prepared]:
     text = source.text.replace("\r\n", "\n")
     title = ""
+    notes = []
+    if source.encoding != "utf-8":
+        notes.append(Diagnostic("netlist-158", f"the file is not UTF-8 text: read as "
+                                f"{source.encoding} (a µ sign is the micro prefix)",
+                                source.span(1, 1)))
     if has_title:
         title, nl, rest = text.partition("\n")
         text = nl + rest  # keep the newline so line numbers stay true
-        title = bounded_title(title)
-    used = 0
+        warn = title_warning(source, title)
+        if warn is not None:
+            notes.append(warn)
+        title = bounded_title(_TITLE_COMMENT.sub("", title))
+    prepared = prepare(source, text, section, allowed)
+    prepared.diags[:0] = notes
+    text = prepared.text
+    used = prepared.tokens
     try:
         run = parser("netlist.lark").parse_interactive(text)
         for tok in run.iter_parse():
@@ -242,7 +173,13 @@ def _parse_text(source: SourceFile, has_title: bool, allowed: int
                                      _token_span(source, head))
         else:
             out.append(Card(Field("word", str(head), _token_span(source, head)), items, span))
-    return title, tuple(out), used
+    if prepared.statements:
+        out = list(heapq.merge(out, prepared.statements, key=lambda st: st.span.line))
+    return title, tuple(out), used, prepared
+
+
+#: an inline ``$`` comment on the title line
+_TITLE_COMMENT = re.compile(r"[ \t]+\$.*$")
 
 
 def _syntax_error(source: SourceFile, text: str, err: UnexpectedInput) -> NetlistSyntaxError:
@@ -255,7 +192,7 @@ def _syntax_error(source: SourceFile, text: str, err: UnexpectedInput) -> Netlis
         elif ch in "()":
             msg = f"unexpected {ch!r}: netcheck cards take plain fields; write expressions in braces, e.g. {{2*(a+b)}}"
         elif ch == "*":
-            msg = "'*' starts a comment only at the beginning of a line; use ';' for an inline comment"
+            msg = _star_message(text, err.pos_in_stream)
         elif ch == "=":
             msg = "'=' needs a name before it (key=value)"
         elif ch in "{}":
@@ -274,9 +211,17 @@ def _syntax_error(source: SourceFile, text: str, err: UnexpectedInput) -> Netlis
     if str(tok) == "=":
         return NetlistSyntaxError("'=' needs a name before it (key=value)", span)
     if tok.type == "_HEAD_COMMENT":  # the only terminal that starts with '*' mid-line
-        return NetlistSyntaxError("'*' starts a comment only at the beginning of a line; "
-                                  "use ';' for an inline comment", span)
+        return NetlistSyntaxError(_star_message(text, tok.start_pos), span)
     return NetlistSyntaxError(f"unexpected {quoted(str(tok))}", span)
+
+
+def _star_message(text: str, pos: int) -> str:
+    """What a '*' inside a line means: a product written without braces, or a comment."""
+    before = text[pos - 1:pos] if pos > 0 else ""
+    if before and not before.isspace():
+        return ("'*' inside a value is a product: write the expression in braces, e.g. "
+                "{R*2} (a '*' comment starts a line; use ';' or '$' for an inline comment)")
+    return "'*' starts a comment only at the beginning of a line; use ';' or '$' for an inline comment"
 
 
 def _read(path: Path, shown: str, at: Span | None = None) -> SourceFile:
@@ -291,11 +236,19 @@ class _Loading:
 
     root: Path
     sources: list[SourceFile] = field(default_factory=list)
-    parsed: dict[Path, tuple[SourceFile, tuple[Statement, ...], int]] = field(
+    parsed: dict[tuple[Path, str], tuple[SourceFile, tuple[Statement, ...], int]] = field(
         default_factory=dict)
     tokens: int = 0
     text: int = 0
     includes: int = 0
+    diags: list[Diagnostic] = field(default_factory=list)
+    ac: AcCard | None = None
+
+    def take(self, prepared: Prepared) -> None:
+        """Keep a file's notes, and the first ``.ac`` card met."""
+        self.diags.extend(prepared.diags)
+        if self.ac is None:
+            self.ac = prepared.ac
 
 
 def load_netlist(path_or_text: str | Path, root: str | Path | None = None) -> Netlist:
@@ -326,12 +279,13 @@ def load_netlist(path_or_text: str | Path, root: str | Path | None = None) -> Ne
         top = _read(top_path, str(path_or_text))
         base = Path(root) if root is not None else top_path.resolve().parent
     state = _Loading(base.resolve(), [top], text=len(top.text))
-    title, stmts, state.tokens = _parse(top, True, TOKENS_MAX)
+    title, stmts, state.tokens, prepared = _parse(top, True, TOKENS_MAX)
+    state.take(prepared)
     chain = (top_path.resolve(),) if top_path is not None else ()
-    diags: list[Diagnostic] = []
+    diags = state.diags
     flat = _expand(stmts, top_path.resolve().parent if top_path else base, chain, state)
-    scope = _group(flat, diags)
-    return Netlist(title, top, scope, tuple(state.sources), tuple(diags))
+    scope, names = _group(flat, diags, title)
+    return Netlist(title, top, scope, tuple(state.sources), tuple(diags), state.ac, names)
 
 
 def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[Path, ...],
@@ -349,10 +303,11 @@ def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[Path, ...],
         if st is None or (isinstance(st, Directive) and st.name == "end"):
             stack.pop()  # '.end' ends the file it is in
             continue
-        if not (isinstance(st, Directive) and st.name == "include"):
+        if not (isinstance(st, Directive) and st.name in ("include", "lib")):
             out.append(st)
             continue
-        path, target = _include_path(st, here, chain, state.root)
+        path, target = _include_path(st, here, chain, state)
+        section = st.fields[1].expr_text if st.name == "lib" and len(st.fields) == 2 else None
         depth = len(stack)
         if depth > INCLUDE_DEPTH_MAX:
             raise NetlistSyntaxError(
@@ -365,14 +320,25 @@ def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[Path, ...],
                 f"this would be include number {state.includes:,}, over the budget of "
                 f"{INCLUDES_MAX:,} .include directives followed for one netlist (a file "
                 "included from several places counts each time)", target.span, code="netlist-116")
-        if path not in state.parsed:
-            sub = _read(path, _display(path, state.root), at=target.span)
-            state.sources.append(sub)
+        key = (path, (section or "").lower())
+        if key not in state.parsed:
+            sub = next((f for f in state.sources if f.path == _display(path, state.root)),
+                       None) or _read(path, _display(path, state.root), at=target.span)
+            if sub not in state.sources:
+                state.sources.append(sub)
             _check_text(state, len(sub.text), target)
-            _, sub_stmts, used = _parse(sub, False, TOKENS_MAX - state.tokens)
-            state.parsed[path] = (sub, sub_stmts, used)
+            _, sub_stmts, used, prepared = _parse(sub, False, TOKENS_MAX - state.tokens,
+                                                  section)
+            if section is not None and not prepared.found_section:
+                raise NetlistSyntaxError(
+                    f"library {quoted(target.expr_text)} has no section "
+                    f"{quoted(section, 60)} (its sections: "
+                    f"{', '.join(printable(x, 40) for x in prepared.sections) or 'none'})",
+                    st.fields[1].span, code="netlist-104")
+            state.take(prepared)
+            state.parsed[key] = (sub, sub_stmts, used)
         else:  # included again: the same text and statements, counted again
-            sub, sub_stmts, used = state.parsed[path]
+            sub, sub_stmts, used = state.parsed[key]
             _check_text(state, len(sub.text), target)
             if state.tokens + used > TOKENS_MAX:
                 raise NetlistSyntaxError(
@@ -384,23 +350,36 @@ def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[Path, ...],
     return out
 
 
-def _include_path(st: Directive, here: Path, chain: tuple[Path, ...], root: Path
+def _include_path(st: Directive, here: Path, chain: tuple[Path, ...], state: _Loading
                   ) -> tuple[Path, Field]:
-    """The file an ``.include`` names, checked (one name, inside the root, no cycle)."""
-    if len(st.fields) != 1 or not isinstance(st.fields[0], Field):
-        raise NetlistSyntaxError('.include takes one file name, e.g. .include "parts.lib"',
-                                 st.span, code="netlist-104")
+    """The file an ``.include`` (or ``.lib FILE [SECTION]``) names, checked (one name,
+    inside the root, no cycle); Windows separators and letter case are resolved with a
+    warning (netlist-159)."""
+    root = state.root
+    most = 2 if st.name == "lib" else 1
+    if not 1 <= len(st.fields) <= most or not isinstance(st.fields[0], Field):
+        raise NetlistSyntaxError('.include takes one file name, e.g. .include "parts.lib"; '
+                                 '.lib takes a file and a section name', st.span,
+                                 code="netlist-104")
     target = st.fields[0]
     name = target.expr_text
     if not name.strip():
         raise NetlistSyntaxError('empty file name in .include; give the file to include, '
                                  'e.g. .include "parts.lib"', target.span, code="netlist-104")
-    if Path(name).is_absolute() or name.startswith("~"):
+    if Path(name).is_absolute() or name.startswith("~") or _DRIVE.match(name):
         raise NetlistSyntaxError(f"absolute include path {quoted(name)} refused; give a path "
                                  "relative to the including file", target.span, code="netlist-104")
     try:
-        path = (here / name).resolve()
+        path = (here / name.replace("\\", "/")).resolve()
         found = path.exists()
+        if not found:
+            path, found = _case_insensitive(here, name.replace("\\", "/"), path)
+        if found and path != (here / name).resolve():
+            state.diags.append(Diagnostic(
+                "netlist-159", f"include {quoted(name)} read as "
+                f"{quoted(_display(path, root), 400)} (Windows separators or letter case "
+                "differ from the file system): write the path as it is on disk",
+                target.span))
     except (OSError, ValueError, RuntimeError) as err:
         # a NUL byte, a name too long for the OS, a symbolic-link loop
         raise NetlistSyntaxError(f"include path {quoted(name)} cannot be used: "
@@ -416,6 +395,26 @@ def _include_path(st: Directive, here: Path, chain: tuple[Path, ...], root: Path
         raise NetlistSyntaxError(f"included file {quoted(name)} not found (looked for "
                                  f"{quoted(str(path), 400)})", target.span, code="netlist-104")
     return path, target
+
+
+_DRIVE = re.compile(r"^[A-Za-z]:[\\/]")
+
+
+def _case_insensitive(here: Path, name: str, path: Path) -> tuple[Path, bool]:
+    """``name`` under ``here`` matched one part at a time ignoring letter case."""
+    cur = here
+    for part in Path(name).parts:
+        if part in (".", ".."):
+            cur = cur / part
+            continue
+        try:
+            match = next((p for p in cur.iterdir() if p.name.lower() == part.lower()), None)
+        except OSError:
+            return path, False
+        if match is None:
+            return path, False
+        cur = match
+    return cur.resolve(), True
 
 
 def _arrows(names: tuple[str, ...] | list[str]) -> str:
@@ -447,12 +446,19 @@ def _display(path: Path, root: Path) -> str:
         return str(path)
 
 
-def _group(stmts: list[Statement], diags: list[Diagnostic]) -> Scope:
-    """Group a flat statement list into nested :class:`Scope` objects."""
-    stack: list[tuple[Directive | None, list, list, list]] = [(None, [], [], [])]
+def _group(stmts: list[Statement], diags: list[Diagnostic], title: str = ""
+           ) -> tuple[Scope, tuple[str, ...]]:
+    """Group a flat statement list into nested :class:`Scope` objects; also the
+    ``.global`` node names (lower case)."""
+    # per level: (head, cards, params, subckts, funcs)
+    stack: list[tuple[Directive | None, list, list, list, list]] = [(None, [], [], [], [])]
+    names: dict[str, None] = {}
     for st in stmts:
         if isinstance(st, Card):
             stack[-1][1].append(st)
+            continue
+        if isinstance(st, FuncDef):
+            stack[-1][4].append(st)
             continue
         if st.name == "param":
             for item in st.fields:
@@ -460,26 +466,32 @@ def _group(stmts: list[Statement], diags: list[Diagnostic]) -> Scope:
                     raise NetlistSyntaxError(".param takes name=value pairs", item.span,
                                              code="netlist-101")
                 stack[-1][2].append(item)
+        elif st.name == "global":
+            names.update((f.text.lower(), None) for f in st.fields if isinstance(f, Field))
         elif st.name == "subckt":
             if len(stack) > SUBCKT_DEPTH_MAX:
                 raise NetlistSyntaxError(
                     f".subckt definitions nest {len(stack)} deep here, over the budget of "
                     f"{SUBCKT_DEPTH_MAX} levels", st.span, code="netlist-116")
-            stack.append((st, [], [], []))
+            stack.append((st, [], [], [], []))
         elif st.name == "ends":
             if len(stack) == 1:
-                raise NetlistSyntaxError(".ends without a matching .subckt", st.span)
-            head, cards, params, subs = stack.pop()
+                hint = (" (the first line of a netlist is its title, so the .subckt "
+                        "written there was not read: put a title line above it)"
+                        if title.lower().startswith(".subckt") else "")
+                raise NetlistSyntaxError(f".ends without a matching .subckt{hint}", st.span)
+            head, cards, params, subs, funcs = stack.pop()
             _check_ends(head, st)
-            stack[-1][3].append(_subckt(head, Scope(tuple(cards), tuple(params), tuple(subs))))
+            stack[-1][3].append(_subckt(head, Scope(tuple(cards), tuple(params), tuple(subs),
+                                                    tuple(funcs))))
         elif st.name not in QUIET_DIRECTIVES:
             diags.append(Diagnostic("netlist-150", f"unknown directive .{printable(st.name)} ignored",
                                     st.span))
     if len(stack) > 1:
         head = stack[-1][0]
         raise NetlistSyntaxError(".subckt has no matching .ends", head.span)
-    _, cards, params, subs = stack[0]
-    return Scope(tuple(cards), tuple(params), tuple(subs))
+    _, cards, params, subs, funcs = stack[0]
+    return Scope(tuple(cards), tuple(params), tuple(subs), tuple(funcs)), tuple(names)
 
 
 def _check_ends(head: Directive, ends: Directive) -> None:

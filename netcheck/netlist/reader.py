@@ -72,12 +72,25 @@ class CardReader:
 
     def more_values(self) -> bool:
         """True if the next field is a value (not a keyword such as AC/DC)."""
-        return self.more() and self.peek_keyword() not in ("ac", "dc")
+        return (self.more() and not isinstance(self.items[self.pos], Assign)
+                and self.peek_keyword() not in ("ac", "dc"))
 
     def peek_keyword(self) -> str:
         """The next field's text, lower case ('' if it is not a plain word)."""
         item = self.items[self.pos]
         return item.text.lower() if isinstance(item, Field) and item.kind == "word" else ""
+
+    def peek_assign(self) -> str:
+        """The key of the next field if it is ``key=value`` (lower case), else ``''``."""
+        item = self.items[self.pos] if self.pos < len(self.items) else None
+        return item.key.text.lower() if isinstance(item, Assign) else ""
+
+    def assigned(self, what: str) -> float:
+        """Read and evaluate the value of the next field, a ``key=value`` one."""
+        item = self.items[self.pos]
+        assert isinstance(item, Assign)
+        self.pos += 1
+        return self.env.value_of(item.value)
 
     def skip(self) -> None:
         """Step over the next field."""

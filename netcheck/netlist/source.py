@@ -116,6 +116,8 @@ class SourceFile:
 
     path: str
     text: str = field(repr=False)
+    #: how the file was decoded: UTF-8, or Latin-1 for a file that is not UTF-8 text
+    encoding: str = field(default="utf-8", compare=False)
     _starts: Any = field(default=None, init=False, repr=False, compare=False)
 
     @classmethod
@@ -124,7 +126,8 @@ class SourceFile:
              ) -> "SourceFile":
         """Read a netlist file through :func:`read_text`.
 
-        Undecodable bytes are replaced (never fatal); everything else :func:`read_text`
+        A file that is not UTF-8 text is read as Latin-1 (ISO 8859-1, where byte 0xB5 is
+        the micro sign) and says so in :attr:`encoding`; everything else :func:`read_text`
         refuses is refused, and so are lone-CR line ends.
 
         Parameters
@@ -143,8 +146,11 @@ class SourceFile:
             Where the file was named (an ``.include``): errors are placed there.
         """
         shown = str(path) if shown is None else shown
-        text = read_text(path, error, what, errors="replace", code=code, at=at, shown=shown,
-                         line_ends=True)
+        text = read_text(path, error, what, errors="surrogateescape", code=code, at=at,
+                         shown=shown, line_ends=True)
+        if _ESCAPED.search(text):
+            return cls(shown, text.encode("utf-8", "surrogateescape").decode("latin-1"),
+                       "Latin-1")
         return cls(shown, text)
 
     def _line_starts(self) -> array:
@@ -242,6 +248,7 @@ def _shown(text: str) -> str:
     return printable(text.expandtabs(1), None)
 
 
+_ESCAPED = re.compile("[\udc80-\udcff]")
 _LONE_CR = re.compile(r"\r[^\S\n]*\S")
 _UTF8 = frozenset({"utf-8", "utf8", "utf-8-sig", "utf_8", "u8"})
 

@@ -130,6 +130,8 @@ def parse_quantity(text: str) -> float:
     (1e-05, 1000000.0, 4700.0)
     >>> parse_quantity("1M")   # milli, as in SPICE
     0.001
+    >>> parse_quantity("18µH"), parse_quantity("18\u03bcH")  # micro sign, Greek mu
+    (1.8e-05, 1.8e-05)
     >>> parse_quantity("1kk")
     Traceback (most recent call last):
     ...
@@ -143,6 +145,8 @@ def parse_quantity(text: str) -> float:
     value = float(mantissa)
     if not rest:
         return _finite(value, text)
+    if "\u03bc" in rest:  # the Greek small mu, written for the micro sign
+        rest = rest.replace("\u03bc", "µ")
     if not (rest[0].isalpha() or rest[0] == "µ"):
         raise UnitError(f"unexpected {quoted(rest[0])} after the number in {quoted(text)}")
     # IEC 60062 letter-and-digit code: <digits><letter><digits>[unit]

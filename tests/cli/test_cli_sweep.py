@@ -218,3 +218,50 @@ def test_summary_peak_is_refined_between_grid_points(capsys, samples):
                  "--start", "1k", "--stop", "1meg", "--ppd", "5"]) == 0
     out = capsys.readouterr().out
     assert "at 40.00000 kHz (refined)" in out
+
+
+class TestAcCardDefault:
+    """With no --start/--stop/--ppd the netlist's own .ac card is the sweep."""
+
+    TEXT = ("Quillmere QM-7 anti-alias RC\nV1 in 0 AC 1\nR1 in out 1k\nC1 out 0 100n\n"
+            ".tran 1u 1m\n{card}\n")
+
+    def write(self, tmp_path, card):
+        path = tmp_path / "qm7.cir"
+        path.write_text(self.TEXT.format(card=card))
+        return str(path)
+
+    def test_dec_card_gives_the_grid_and_the_closed_form(self, capsys, tmp_path):
+        code, out, err = sweep(capsys, self.write(tmp_path, ".ac dec 10 100 100k"),
+                               "--source", "V1", "--node", "out", "--csv", "-")
+        assert code == OK and "sweep taken from the netlist's .ac card" in err
+        data = rows(out)
+        f = data[:, 0]
+        # 3 decades at 10 per decade, both ends included (the card's own numbers)
+        assert f.size == 31 and f[0] == 100.0 and f[-1] == 1e5
+        # RC low-pass |H| = 1/sqrt(1 + (wRC)^2) (common practice, no source)
+        want = -10 * np.log10(1 + (2 * np.pi * f * 1e3 * 100e-9) ** 2)
+        np.testing.assert_allclose(data[:, 1], want, atol=1e-9)
+
+    def test_oct_card_becomes_a_log_grid_and_says_so(self, capsys, tmp_path):
+        code, out, err = sweep(capsys, self.write(tmp_path, ".ac oct 3 1k 8k"),
+                               "--source", "V1", "--node", "out", "--csv", "-")
+        # 3 per octave = 3 log2(10) = 9.97 -> 10 per decade
+        assert code == OK and "3 per octave as 10 per decade" in err
+        f = rows(out)[:, 0]
+        assert f[0] == 1e3 and f[-1] == 8e3
+        # 3 octaves at 3 per octave: the card's own 10 points, log-spaced
+        assert f.size == 10
+        np.testing.assert_allclose(np.diff(np.log10(f)), math.log10(8) / 9, rtol=1e-12)
+
+    def test_flags_given_win_over_the_card(self, capsys, tmp_path):
+        code, out, err = sweep(capsys, self.write(tmp_path, ".ac dec 10 100 100k"),
+                               "--source", "V1", "--node", "out", "--start", "1k",
+                               "--csv", "-")
+        f = rows(out)[:, 0]
+        assert code == OK and f[0] == 1e3 and f[-1] == 1e5
+
+    def test_no_card_and_no_flags_is_a_clear_error(self, capsys, tmp_path):
+        code, out, err = sweep(capsys, self.write(tmp_path, "* no sweep here"),
+                               "--source", "V1", "--node", "out")
+        assert code == BAD_INPUT and "no .ac card" in err and "--start" in err

@@ -97,13 +97,13 @@ class TestCardShape:
             load_netlist("t\nR1 a 0 1\n.ends\n")
 
     def test_unknown_directive_is_a_warning_naming_the_line(self):
-        nl = load_netlist("t\nR1 a 0 1k\n.tran 1n 1u\nR2 a 0 1k\n")
+        nl = load_netlist("t\nR1 a 0 1k\n.qmcheck 1n 1u\nR2 a 0 1k\n")
         [diag] = nl.diagnostics
         assert diag.code == "netlist-150"
         assert str(diag.span) == "<text>:3:1"
-        assert ".tran" in diag.message
+        assert ".qmcheck" in diag.message
         assert diag.format().splitlines()[0] == ("<text>:3:1: warning netlist-150: unknown "
-                                                 "directive .tran ignored")
+                                                 "directive .qmcheck ignored")
         assert [c.name.text for c in nl.top.cards] == ["R1", "R2"]
 
     def test_crlf_and_no_final_newline(self):

@@ -29,31 +29,42 @@ class _Independent(Element):
     def from_card(cls, rd: "CardReader") -> "Element":
         nodes = rd.nodes(2)
         dc = ac = phase = 0.0
-        has_ac = False
-        first = True
+        has_ac = seen_dc = False
         while rd.more():
-            word = rd.peek_keyword()
-            if word == "dc":
-                rd.skip()
-                dc = rd.value("DC value")
-            elif word == "ac":
-                rd.skip()
+            word, key = rd.peek_keyword(), rd.peek_assign()
+            if word == "dc" or key == "dc":
+                dc = rd.assigned("DC value") if key else (rd.skip(), rd.value("DC value"))[1]
+                seen_dc = True
+            elif word == "ac" or key == "ac":
                 has_ac = True
-                ac = rd.value("AC magnitude") if rd.more_values() else 1.0
+                if key:
+                    ac = rd.assigned("AC magnitude")
+                else:
+                    rd.skip()
+                    ac = rd.value("AC magnitude") if rd.more_values() else 1.0
                 if rd.more_values():
                     phase = rd.value("AC phase (degrees)")
-            elif first and rd.more_values():
+            elif key:  # an instance option (Rser=...): the options' reader takes it
+                break
+            elif not seen_dc and rd.more_values():
                 dc = rd.value("DC value")
+                seen_dc = True
+            elif rd.more_values():
+                rd.unexpected("a second value after the DC value; write 'AC mag [phase]' "
+                              "for the AC part (e.g. DC 1 AC 1 0)")
             else:
                 rd.unexpected("expected DC value or 'AC magnitude [phase]'")
-            first = False
         rd.finish()
         return cls(rd.name, nodes, rd.span, dc, ac, phase, has_ac)
 
 
 @dataclass(frozen=True, slots=True)
 class VoltageSource(_Independent):
-    """``Vname n+ n- [DC v] [AC mag [phase]]``: an ideal voltage source (branch current)."""
+    """``Vname n+ n- [DC v] [AC mag [phase]]``: an ideal voltage source (branch current).
+
+    The fields come in any order (``AC 1 0 DC 5``), ``dc=`` and ``ac=`` are accepted, and
+    the transient functions (SIN, PULSE, ...) were taken off before (netcheck.netlist.dialect).
+    """
 
     letter: ClassVar[str] = "V"
     has_branch: ClassVar[bool] = True

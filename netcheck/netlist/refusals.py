@@ -1,0 +1,71 @@
+"""What netcheck refuses or questions by name: devices out of reach, a title that is a card."""
+
+from __future__ import annotations
+
+import re
+
+from ..exceptions import Diagnostic
+from .source import SourceFile, Span, printable
+
+__all__ = ["REFUSED_CODE", "device_advice", "title_warning"]
+
+#: the code of a construct netcheck refuses by name (out of reach of a small-signal solve)
+REFUSED_CODE = "netlist-120"
+
+_DEVICES = {
+    "D": "a diode", "Q": "a bipolar transistor", "J": "a junction FET", "M": "a MOSFET",
+    "Z": "a MESFET", "U": "a distributed or digital element", "O": "a lossy line",
+    "S": "a voltage-controlled switch", "W": "a current-controlled switch",
+    "B": "a behavioural source", "A": "a code-model or digital element",
+    "N": "a simulator-specific device", "P": "a simulator-specific device",
+    "Y": "a simulator-specific device",
+}
+
+
+def device_advice(letter: str, name: str) -> str | None:
+    """Why element ``name`` (letter ``letter``) is out of reach, and what would work instead.
+
+    >>> device_advice("Q", "Q1").split(":")[0]
+    'Q1 is a bipolar transistor'
+    >>> device_advice("R", "R1") is None
+    True
+    """
+    what = _DEVICES.get(letter.upper())
+    if what is None:
+        return None
+    shown = printable(name, 80)
+    if letter.upper() in "DQJMZ":
+        return (f"{shown} is {what}: semiconductor devices are not modelled yet; replace it "
+                "by its small-signal equivalent at the operating point (R, C and controlled "
+                "sources E, F, G, H, in a subcircuit if it is used more than once)")
+    if letter.upper() in "SW":
+        return (f"{shown} is {what}: a switch has no small-signal model; write the resistor "
+                "of the state you want to check (on or off resistance) in its place")
+    if letter.upper() == "B":
+        return (f"{shown} is {what}: netcheck solves linear circuits; write the small-signal "
+                "relation as a controlled source (E, F, G, H) with a constant gain")
+    return (f"{shown} is {what}, which netcheck does not read; a linear equivalent of R, L, "
+            "C, K and controlled sources would work instead")
+
+
+_CARD_LIKE = re.compile(r"[RCLVIEFGHKXT][A-Za-z0-9_]*([ \t]+[^ \t]+){3}[ \t]*$", re.I)
+
+
+def title_warning(source: SourceFile, title: str) -> Diagnostic | None:
+    """A warning when the title line (always the first line) looks like a card.
+
+    >>> title_warning(SourceFile("<t>", "R1 1 2 1k"), "R1 1 2 1k").code
+    'netlist-157'
+    >>> title_warning(SourceFile("<t>", "Quillmere notch"), "Quillmere notch") is None
+    True
+    """
+    line = title.strip()
+    low = line.lower()
+    directive = low.startswith((".subckt", ".param", ".include", ".inc ", ".lib", ".model",
+                                ".ac ", ".tran", ".options", ".global"))
+    if not (directive or _CARD_LIKE.match(line)):
+        return None
+    what = "a directive" if directive else "an element card"
+    return Diagnostic("netlist-157", f"the first line is the title, and this one looks like "
+                      f"{what}: it is not read as part of the circuit; put a title line "
+                      "above it", Span(source, 1, 1, 1, len(title) + 1))
