@@ -54,7 +54,7 @@ import numpy as np
 import scipy.linalg as sla
 from scipy.optimize import minimize_scalar
 
-from ..mna.assemble import System
+from ..mna.assemble import System, delay_seeds
 from ..netlist.elaborate import PartModel
 from ..netlist.elements import (CCCS, CCVS, VCCS, Capacitor, CurrentSource, Element, Inductor,
                        Resistor, VoltageSource)
@@ -257,9 +257,9 @@ def _element_current(system: System, e: Element
     ``(sel, sel_jw, const)`` with I = x·sel + j2πf·(x·sel_jw) + const; None for K."""
     n = system.size
     zero = np.zeros(n)
-    if isinstance(e, Resistor):
+    if isinstance(e, Resistor) and not e.has_branch:  # 0 Ω: its branch current, below
         return _diff_selector(system, *e.terminals) / e.value, zero, 0j
-    if isinstance(e, Capacitor):
+    if isinstance(e, Capacitor) and not e.has_branch:  # with Rser: its branch current
         return zero, _diff_selector(system, *e.terminals) * e.value, 0j
     if isinstance(e, VCCS):  # gm·(v_c+ − v_c−) flows n+ → n−
         return _diff_selector(system, e.nodes[2], e.nodes[3]) * e.gain, zero, 0j
@@ -368,6 +368,8 @@ def _pole_frequencies(response: Response) -> np.ndarray:
     pole–zero engine when it was used, else from the pencil (G, −C) directly.
     """
     f = response.frequency_hz
+    if response.system.delays is not None:  # a transmission line: no finite poles
+        return delay_seeds(response.system, float(f[0]), float(f[-1]))
     poles = np.asarray(response.poles_hz)
     if poles.size == 0 and response.system.size <= DENSE_MAX:
         g = response.system.G.toarray()

@@ -58,7 +58,7 @@ def nonfinite_error(system: System, f_hz: float, solution: bool = False
         if not blamed:
             bad: set[int] = set()
             if not solution:
-                a = (system.G + (1j * w) * system.C).tocoo()
+                a = system.matrix(f_hz).tocoo()
                 off = ~np.isfinite(a.data)
                 bad = set(a.row[off].tolist()) | set(a.col[off].tolist())
             ranked = sorted(((-abs(float(np.log(size))), k, e) for k, (e, size, where)

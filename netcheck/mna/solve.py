@@ -65,7 +65,8 @@ def make_engine(system: System, grid: np.ndarray) -> DenseEngine | SparseEngine 
         sparse.check_regular(probe)
         return sparse
     direct = DenseEngine(system)
-    if grid.size >= PZ_MIN_POINTS:
+    # a transmission line (delayed entries) has no pole-zero form: direct solves only
+    if grid.size >= PZ_MIN_POINTS and system.delays is None:
         try:
             with np.errstate(all="ignore"):
                 pz = PoleZeroEngine.build(direct, grid)

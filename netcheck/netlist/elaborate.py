@@ -14,6 +14,7 @@ from typing import Callable, Collection
 from ..exceptions import CODES, Diagnostic, ElaborationError
 from .circuit import GROUND, Circuit, PartModel
 from .elements import ELEMENTS, Element, Inductor, VoltageSource
+from .models import DEVICE_TYPES, ModelCard, read_model
 from .params import Env
 from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef, _arrows,
                     check_size)
@@ -104,7 +105,7 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     check_size(netlist.top)
     flat = _Flat(diags=list(netlist.diagnostics),
                  models=frozenset(n.lower() for n in part_models))
-    _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative)
+    _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative, {})
     elements = tuple(flat.elements)
     _check_references(elements)
     nodes = tuple(dict.fromkeys(n for e in elements for n in e.nodes if n != GROUND))
@@ -160,10 +161,27 @@ def _list(names: list[str], most: int = 10) -> str:
     return shown + (f" and {len(names) - most:,} more" if len(names) > most else "")
 
 
+def _scope_models(scope: Scope, outer: dict[str, ModelCard]) -> dict[str, ModelCard]:
+    """The ``.model`` cards visible in ``scope``: its own over those of enclosing scopes."""
+    if not scope.models:
+        return outer
+    out = dict(outer)
+    here: dict[str, ModelCard] = {}
+    for st in scope.models:
+        card = read_model(st)
+        key = card.name.lower()
+        if key in here:
+            raise ElaborationError(f"model {quoted(card.name)} defined twice (first at line "
+                                   f"{here[key].span.line})", st.span, code="netlist-130")
+        here[key] = out[key] = card
+    return out
+
+
 def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
                  visible: dict[str, SubcktDef], stack: tuple[str, ...], flat: _Flat,
-                 allow_negative: bool) -> None:
+                 allow_negative: bool, models: dict[str, ModelCard]) -> None:
     defs = dict(visible)
+    models = _scope_models(scope, models)
     here: dict[str, SubcktDef] = {}
     for sub in scope.subckts:
         key = sub.name.text.lower()
@@ -205,15 +223,26 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
         letter = card.letter
         if letter == "X":
             _expand_instance(card, full, prefix, env, defs, stack, flat, allow_negative,
-                             node_of)
+                             node_of, models)
             continue
         cls = ELEMENTS.get(letter)
+        if cls is None and letter in DEVICE_TYPES.values():
+            named = [f.text for f in card.fields if isinstance(f, Field)
+                     and f.text.lower() in models]
+            model = f" (model {printable(named[0])})" if named else ""
+            raise ElaborationError(
+                f"{quoted(card.name.text)} is a semiconductor device{model}; netcheck does "
+                "not read device cards (D, Q, M, J) yet: replace it with its small-signal "
+                "equivalent (R, C, and a G or F source) at the operating point",
+                card.name.span, code="netlist-105")
         if cls is None:
             known = ", ".join(sorted(ELEMENTS) + ["X"])
             raise ElaborationError(f"unknown element letter {quoted(letter)} in "
                                    f"{quoted(card.name.text)} "
                                    f"(netcheck knows {known})", card.name.span, code="netlist-105")
-        element = cls.from_card(CardReader(card, full, env, node_of, ref_of))
+        element = cls.from_card(CardReader(card, full, env, node_of, ref_of,
+                                           lambda text: models.get(text.lower())))
+        flat.diags.extend(getattr(element, "notes", ()))
         if cls.passive:
             _check_passive(element, card, allow_negative)
         _check_range(element, card)
@@ -223,7 +252,8 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
 
 def _expand_instance(card: Card, full: str, prefix: str, env: Env,
                      defs: dict[str, SubcktDef], stack: tuple[str, ...], flat: _Flat,
-                     allow_negative: bool, node_of: Callable[[Field], str]) -> None:
+                     allow_negative: bool, node_of: Callable[[Field], str],
+                     models: dict[str, ModelCard]) -> None:
     words = [f for f in card.fields if isinstance(f, Field)]
     assigns = [f for f in card.fields if isinstance(f, Assign)]
     words = [w for w in words if w.text.lower() not in ("params:", "params")]
@@ -262,7 +292,7 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
         child.define(assign, where=env)
     if key not in flat.models or flat.depth:
         _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
-                     allow_negative)
+                     allow_negative, models)
         return
     # a part model: each port gets a stand-in node of its own while the body expands,
     # so every element node reached through a port is known by port, then the stand-ins
@@ -277,7 +307,7 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
     flat.depth += 1
     try:
         _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
-                     allow_negative)
+                     allow_negative, models)
     finally:
         flat.depth -= 1
     through: list[tuple[str, int, int]] = []
@@ -300,7 +330,7 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
 def _check_passive(element: Element, card: Card, allow_negative: bool) -> None:
     value = element.value
     span = card.fields[2].span if len(card.fields) > 2 else card.span
-    if value == 0:
+    if value == 0 and element.letter != "R":  # a 0 Ω resistor is a wire
         raise ElaborationError(f"{printable(element.name)} has value 0; a zero "
                                f"{type(element).__name__.lower()}"
                                " cannot be solved (use a small value or remove it)", span,
@@ -370,7 +400,8 @@ def _check_references(elements: tuple[Element, ...]) -> None:
             if not -1.0 <= k <= 1.0:
                 raise ElaborationError(f"{printable(e.name)}: coupling coefficient {k:g} is "
                                        "outside [-1, 1]", e.span, code="netlist-114")
-            if e.inductors[0] == e.inductors[1]:
+            twice = next((n for i, n in enumerate(e.inductors) if n in e.inductors[:i]), None)
+            if twice is not None:
                 raise ElaborationError(f"{printable(e.name)} couples "
-                                       f"{printable(e.inductors[0])} to itself", e.span,
+                                       f"{printable(twice)} to itself", e.span,
                                        code="netlist-114")

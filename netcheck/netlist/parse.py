@@ -11,6 +11,7 @@ from lark import Token, Tree
 from lark.exceptions import LarkError, UnexpectedCharacters, UnexpectedInput
 
 from .grammars import parser
+from .models import blank_model_brackets
 from ..exceptions import Diagnostic, ElaborationError, NetlistSyntaxError
 from .source import SourceFile, Span, printable, quoted
 
@@ -39,7 +40,7 @@ ELEMENTS_MAX = 1_000_000
 TITLE_MAX = 1_000
 
 #: Dot-directives netcheck acts on; any other directive is warned about (netlist-150) and skipped.
-KNOWN_DIRECTIVES = frozenset({"subckt", "ends", "param", "include", "end"})
+KNOWN_DIRECTIVES = frozenset({"subckt", "ends", "param", "include", "end", "model"})
 #: Directives that only matter to other analyses (transient, operating point...): no warning.
 QUIET_DIRECTIVES = frozenset({"title"})
 
@@ -119,6 +120,7 @@ class Scope:
     cards: tuple[Card, ...] = ()
     params: tuple[Assign, ...] = ()
     subckts: tuple[SubcktDef, ...] = ()
+    models: tuple[Directive, ...] = ()  # the .model cards (netcheck.netlist.models)
 
 
 @dataclass(frozen=True, slots=True)
@@ -207,7 +209,7 @@ def _parse(source: SourceFile, has_title: bool, allowed: int
 
 def _parse_text(source: SourceFile, has_title: bool, allowed: int
                 ) -> tuple[str, tuple[Statement, ...], int]:
-    text = source.text.replace("\r\n", "\n")
+    text = blank_model_brackets(source.text.replace("\r\n", "\n"))
     title = ""
     if has_title:
         title, nl, rest = text.partition("\n")
@@ -449,7 +451,7 @@ def _display(path: Path, root: Path) -> str:
 
 def _group(stmts: list[Statement], diags: list[Diagnostic]) -> Scope:
     """Group a flat statement list into nested :class:`Scope` objects."""
-    stack: list[tuple[Directive | None, list, list, list]] = [(None, [], [], [])]
+    stack: list[tuple[Directive | None, list, list, list, list]] = [(None, [], [], [], [])]
     for st in stmts:
         if isinstance(st, Card):
             stack[-1][1].append(st)
@@ -465,21 +467,22 @@ def _group(stmts: list[Statement], diags: list[Diagnostic]) -> Scope:
                 raise NetlistSyntaxError(
                     f".subckt definitions nest {len(stack)} deep here, over the budget of "
                     f"{SUBCKT_DEPTH_MAX} levels", st.span, code="netlist-116")
-            stack.append((st, [], [], []))
+            stack.append((st, [], [], [], []))
         elif st.name == "ends":
             if len(stack) == 1:
                 raise NetlistSyntaxError(".ends without a matching .subckt", st.span)
-            head, cards, params, subs = stack.pop()
+            head, cards, params, subs, models = stack.pop()
             _check_ends(head, st)
-            stack[-1][3].append(_subckt(head, Scope(tuple(cards), tuple(params), tuple(subs))))
+            stack[-1][3].append(_subckt(head, Scope(*map(tuple, (cards, params, subs, models)))))
+        elif st.name == "model":
+            stack[-1][4].append(st)
         elif st.name not in QUIET_DIRECTIVES:
             diags.append(Diagnostic("netlist-150", f"unknown directive .{printable(st.name)} ignored",
                                     st.span))
     if len(stack) > 1:
         head = stack[-1][0]
         raise NetlistSyntaxError(".subckt has no matching .ends", head.span)
-    _, cards, params, subs = stack[0]
-    return Scope(tuple(cards), tuple(params), tuple(subs))
+    return Scope(*map(tuple, stack[0][1:]))
 
 
 def _check_ends(head: Directive, ends: Directive) -> None:

@@ -70,13 +70,13 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
     for n in nodes:
         full.find(n)
     for e in two_terminal:
-        a, b = e.terminals
-        full.union(a, b)
+        for a, b in e.links:
+            full.union(a, b)
     ground = full.find(GROUND)
     for root, group in _groups(full, nodes).items():
         if root != ground:
             culprit = first_touch[group[0]]
-            sense_only = all(n not in culprit.terminals for n in group)
+            sense_only = all(n not in x for n in group for x in culprit.links)
             why = (f" (it connects only to the controlling input of "
                    f"{printable(culprit.name, 80)})"
                    if sense_only and len(group) == 1 else "")
@@ -102,8 +102,8 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
         passive.find(n)
     for e in two_terminal:
         if not e.current_defined:
-            a, b = e.terminals
-            passive.union(a, b)
+            for a, b in e.links:
+                passive.union(a, b)
     ground = passive.find(GROUND)
     for root, group in _groups(passive, nodes).items():
         if root != ground:
