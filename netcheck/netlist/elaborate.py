@@ -14,7 +14,7 @@ from typing import Callable, Collection
 from ..exceptions import CODES, Diagnostic, ElaborationError
 from .circuit import GROUND, Circuit, PartModel
 from .elements import ELEMENTS, Element, Inductor, VoltageSource
-from .models import DEVICE_TYPES, ModelCard, read_model
+from .models import ModelCard, read_model
 from .params import Env
 from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef, _arrows,
                     check_size)
@@ -226,7 +226,7 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
                              node_of, models)
             continue
         cls = ELEMENTS.get(letter)
-        if cls is None and letter in DEVICE_TYPES.values():
+        if cls is None and letter in ("D", "Q", "M", "J"):
             named = [f.text for f in card.fields if isinstance(f, Field)
                      and f.text.lower() in models]
             model = f" (model {printable(named[0])})" if named else ""
