@@ -233,11 +233,11 @@ def _probe(system: System, e: Element, quantity: str, amp: float) -> _Probe | st
     n = system.size
     if quantity == "voltage":
         return _Probe(v, False, 0j, amp, 1)
-    if quantity == "power":  # P = |V|²/(2R) for peak |V| [3]
-        return _Probe(v, False, 0j, amp * amp / (2.0 * e.value), 2, -1)
-    if isinstance(e, Resistor):
+    if quantity == "power":  # P = |V|²/(2R) for peak |V| [3]; a 0 Ω wire dissipates none
+        return _Probe(v, False, 0j, amp * amp / (2.0 * e.value) if e.value else 0.0, 2, -1)
+    if isinstance(e, Resistor) and e.value:
         return _Probe(v / e.value, False, 0j, amp, 1, -1)
-    if isinstance(e, Capacitor):
+    if isinstance(e, Capacitor) and not e.has_branch:
         return _Probe(v * e.value, True, 0j, amp, 1, 1)
     if isinstance(e, CCCS):
         sel = np.zeros(n)
@@ -247,20 +247,32 @@ def _probe(system: System, e: Element, quantity: str, amp: float) -> _Probe | st
         active = 1.0 if e.name == system.source else 0.0  # other sources are zeroed
         return _Probe(np.zeros(n), False, complex(active), amp, 1)
     sel = np.zeros(n)
-    sel[system.branch_index[e.name]] = 1.0
+    # a branch current (L, C with Rser, 0 Ω R, sources); m parallel copies share it
+    sel[system.branch_index[e.name]] = 1.0 / getattr(e, "m", 1.0)
     return _Probe(sel, False, 0j, amp, 1)
 
 
 def _element_current(system: System, e: Element
                      ) -> tuple[np.ndarray, np.ndarray, complex] | None:
     """The current through ``e`` from its first node to its second, per unit stimulus:
-    ``(sel, sel_jw, const)`` with I = x·sel + j2πf·(x·sel_jw) + const; None for K."""
+    ``(sel, sel_jw, const)`` with I = x·sel + j2πf·(x·sel_jw) + const; None for K.
+    The Rpar and Cpar of an L or C count: the current is the whole part's."""
+    got = _own_current(system, e)
+    if got is None or not (getattr(e, "rpar", 0.0) or getattr(e, "cpar", 0.0)):
+        return got
+    v = _diff_selector(system, *e.terminals) * e.m
+    sel, sel_jw, const = got
+    return (sel + (v / e.rpar if e.rpar else 0.0), sel_jw + v * e.cpar, const)
+
+
+def _own_current(system: System, e: Element
+                 ) -> tuple[np.ndarray, np.ndarray, complex] | None:
     n = system.size
     zero = np.zeros(n)
     if isinstance(e, Resistor) and not e.has_branch:  # 0 Ω: its branch current, below
-        return _diff_selector(system, *e.terminals) / e.value, zero, 0j
+        return _diff_selector(system, *e.terminals) * (e.m / e.value), zero, 0j
     if isinstance(e, Capacitor) and not e.has_branch:  # with Rser: its branch current
-        return zero, _diff_selector(system, *e.terminals) * e.value, 0j
+        return zero, _diff_selector(system, *e.terminals) * (e.value * e.m), 0j
     if isinstance(e, VCCS):  # gm·(v_c+ − v_c−) flows n+ → n−
         return _diff_selector(system, e.nodes[2], e.nodes[3]) * e.gain, zero, 0j
     if isinstance(e, CCCS):

@@ -136,7 +136,7 @@ def unknown_names(circuit: Circuit) -> tuple[dict[str, int], dict[str, int]]:
         if e.has_branch:
             branches[e.name] = len(nodes) + len(branches)
             for suffix in e.extra_branches:
-                branches[f"{e.name}:{suffix}"] = len(nodes) + len(branches)
+                branches[f"{e.name} {suffix}"] = len(nodes) + len(branches)
     return nodes, branches
 
 

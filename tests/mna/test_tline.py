@@ -156,3 +156,16 @@ def test_bad_lines_name_the_line(card, message):
     with pytest.raises(NetcheckError, match=message) as info:
         read_netlist(f"t\nV1 in 0 AC 1\nRS in a 50\n{card}\nRL b 0 50\n")
     assert info.value.code == "netlist-131" and info.value.span.line == 4
+
+
+def test_a_sweep_ending_on_a_lossless_line_resonance_is_solved():
+    # at 2·F0 every shorted stub is a half wave: a short across each junction, so the
+    # line between two of them is a shorted half-wave line, a lossless resonance that
+    # makes the circuit matrix singular at that one frequency. A sweep ending there is
+    # still checked (the probes of regularity sit beside it) and the output is a short
+    # (the chain-matrix model gives H → 0 there)
+    text, reference = _stub_filter()
+    f = np.array([0.5, 1.0, 1.5, 2.0]) * F0
+    resp = read_netlist("t\n" + text).ac("V1", "c", freqs=f)
+    np.testing.assert_allclose(resp.transfer[:3], reference(f[:3]), rtol=1e-9)
+    assert abs(resp.transfer[3]) < 1e-12

@@ -186,3 +186,35 @@ class TestCouplingOfSeveralInductors:
     def test_naming_an_inductor_twice_is_refused(self):
         with pytest.raises(NetcheckError, match="couples L2 to itself"):
             read_netlist("t\nV1 in 0 AC 1\nR1 in p 1\nL1 p 0 1u\nL2 p 0 1u\nK1 L1 L2 L2 0.5\n")
+
+
+class TestStressOfPartsWithOptions:
+    # part stress judges one physical part: with m copies each carries 1/m of the
+    # current; a capacitor with Rser carries its branch current, not sC·V(terminals).
+    # References: Ohm's law and the divider, closed forms written here.
+    @staticmethod
+    def peak(text, parts, quantity, grid):
+        from netcheck.analyses.stress import judge_stress
+        from netcheck.spec.stress import parse_stress
+        resp = read_netlist("t\n" + text).ac("V1", "out", freqs=grid)
+        (res,) = judge_stress(parse_stress([{"source_amplitude": "1", "parts": parts, quantity: 1e9}],
+                                             "s.toml"), resp)
+        return res.peak
+
+    def test_resistor_copies_share_the_current_and_a_wire_dissipates_nothing(self):
+        grid = np.logspace(1, 3, 5)
+        text = "V1 in 0 AC 1\nR1 in x 1k\nR0 x out 0\nR2 out 0 2k m=2\n"
+        # 1 V over 1k + 1k: 0.5 mA in all, 0.25 mA per copy of R2
+        assert self.peak(text, "R2", "max_current", grid) == pytest.approx(0.25e-3, rel=1e-9)
+        assert self.peak(text, "R0", "max_current", grid) == pytest.approx(0.5e-3, rel=1e-9)
+        assert self.peak(text, "R0", "max_power", grid) == 0.0
+
+    def test_capacitor_with_rser_and_copies(self):
+        # |I| = |1/(R + Rser/m + 1/(sCm))| in all, 1/m of it per capacitor; at the top of
+        # the sweep it is largest (high-pass current)
+        grid = np.logspace(2, 6, 41)
+        R, C, r, m = 1e3, 10e-9, 100.0, 2
+        text = f"V1 in 0 AC 1\nR1 in out {R}\nC1 out 0 {C} Rser={r} m={m}\n"
+        s = 2j * np.pi * grid[-1]
+        expect = abs(1 / (R + r / m + 1 / (s * C * m))) / m
+        assert self.peak(text, "C1", "max_current", grid) == pytest.approx(expect, rel=1e-9)

@@ -44,7 +44,7 @@ class Element:
     voltage_defined: ClassVar[bool] = False
     #: a current-defined two-terminal (I, G, F): cut-sets of these are singular
     current_defined: ClassVar[bool] = False
-    #: branch unknowns beyond the first, named ``<name>:<suffix>`` (a line's second port)
+    #: branch unknowns beyond the first, named ``<name> <suffix>`` (a space: no card name has one) (a line's second port)
     extra_branches: ClassVar[tuple[str, ...]] = ()
     #: a passive part whose value must be positive (R, L, C)
     passive: ClassVar[bool] = False

@@ -56,8 +56,8 @@ class TransmissionLine(Element):
     letter: ClassVar[str] = "T"
     n_nodes: ClassVar[int] = 4
     has_branch: ClassVar[bool] = True
-    #: the second port's current is a second branch unknown, ``<name>:2``
-    extra_branches: ClassVar[tuple[str, ...]] = ("2",)
+    #: the second port's current is a second branch unknown, ``<name> port2``
+    extra_branches: ClassVar[tuple[str, ...]] = ("port2",)
     unit: ClassVar[str] = "Ω"
     range_why: ClassVar[str] = "its characteristic impedance Z0"
 
@@ -114,7 +114,7 @@ class TransmissionLine(Element):
 
     def stamp(self, st: "Stamper", value: Any) -> None:
         n1, n2, n3, n4 = self.nodes
-        k1, k2 = st.branch(self.name), st.branch(f"{self.name}:2")
+        k1, k2 = st.branch(self.name), st.branch(f"{self.name} port2")
         for (a, b, k), (c, d, other) in (((n1, n2, k1), (n3, n4, k2)),
                                          ((n3, n4, k2), (n1, n2, k1))):
             st.incidence(a, b, k)             # KCL, and V(own port) in the row
