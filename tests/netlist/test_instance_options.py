@@ -218,3 +218,28 @@ class TestStressOfPartsWithOptions:
         s = 2j * np.pi * grid[-1]
         expect = abs(1 / (R + r / m + 1 / (s * C * m))) / m
         assert self.peak(text, "C1", "max_current", grid) == pytest.approx(expect, rel=1e-9)
+
+
+def test_sampled_values_move_the_part_and_keep_its_options():
+    # a tolerance varies the part's own value; m, Rser, Rpar and Cpar stay. Reference:
+    # the same circuit written with the sampled value, assembled on its own
+    from netcheck.mna.assemble import assemble, assemble_batch
+    card = "C1 out 0 {c} m=2 Rser=3 Rpar=1meg Cpar=5p\nL1 out x {l} m=3 Rser=2\nR2 x 0 {r} m=2\n"
+    base = "V1 in 0 AC 1\nR1 in out 1k\n"
+    nominal = read_netlist("t\n" + base + card.format(c="10n", l="1m", r="100"))
+    system = assemble(nominal, "V1", "out")
+    G, C = assemble_batch(system, {"C1": np.array([11e-9]), "L1": np.array([0.9e-3]),
+                                   "R2": np.array([105.0])}, 1)
+    moved = assemble(read_netlist("t\n" + base + card.format(c="11n", l="0.9m", r="105")),
+                     "V1", "out")
+    np.testing.assert_allclose(G[0], moved.G.toarray(), rtol=1e-15, atol=0)
+    np.testing.assert_allclose(C[0], moved.C.toarray(), rtol=1e-15, atol=0)
+
+
+def test_voltage_source_with_rser_may_parallel_another_source():
+    # two 1 V sources, 100 Ω and 300 Ω inside, in parallel: Thevenin, 1 V open circuit;
+    # into 50 Ω (V2 zeroed, only V1 drives): 1 V·(300∥50)/(100 + 300∥50) (closed form)
+    got = h("V1 in 0 AC 1 Rser=100\nV2 in 0 AC 1 Rser=300\nR1 in 0 50\n", node="in",
+            freqs=np.array([1e3]))
+    par = 300 * 50 / 350
+    close(got, [par / (100 + par)])

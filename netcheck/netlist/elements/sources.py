@@ -74,6 +74,10 @@ class VoltageSource(_Independent):
     voltage_defined: ClassVar[bool] = True
     unit: ClassVar[str] = "V"
 
+    @property
+    def voltage_defined(self) -> bool:  # type: ignore[override]
+        return not self.rser   # with a series resistance it may sit in a loop of sources
+
     def stamp(self, st: "Stamper", value: Any) -> None:
         k = st.branch(self.name)
         st.incidence(self.nodes[0], self.nodes[1], k)
