@@ -261,8 +261,7 @@ def _element_current(system: System, e: Element
     if got is None or not (getattr(e, "rpar", 0.0) or getattr(e, "cpar", 0.0)):
         return got
     v = _diff_selector(system, *e.terminals) * e.m
-    sel, sel_jw, const = got
-    return (sel + (v / e.rpar if e.rpar else 0.0), sel_jw + v * e.cpar, const)
+    return (got[0] + (v / e.rpar if e.rpar else 0.0), got[1] + v * e.cpar, got[2])
 
 
 def _own_current(system: System, e: Element
@@ -313,9 +312,12 @@ def _model_probes(system: System, model: PartModel, quantity: str, amp: float
     for i, port in enumerate(model.ports):
         sel, sel_jw, const = np.zeros(system.size), np.zeros(system.size), 0j
         for name, node, at in model.through:
+            e = circuit.element(name)
+            if at == i and e.extra_branches and node in (2, 3):  # a line's port 2 branch
+                sel[system.branch_index[f"{name} {e.extra_branches[0]}"]] += 3 - 2 * node
             if at != i or node > 1:
                 continue
-            current = _element_current(system, circuit.element(name))
+            current = _element_current(system, e)
             if current is None:
                 continue
             sign = 1.0 if node == 0 else -1.0

@@ -373,7 +373,7 @@ def _lint_value(element: Element, card: Card, flat: _Flat) -> None:
     while i < len(text) and (text[i].isdigit() or text[i] in ".eE+-"):
         i += 1
     suffix = text[i:]
-    if suffix[:1] == "M" and not suffix.lower().startswith(("meg", "mil")):
+    if i and suffix[:1] == "M" and not suffix.lower().startswith(("meg", "mil")):
         what = "milliohms" if element.letter == "R" else "millihenries"
         flat.diags.append(Diagnostic(
             "netlist-151", f"{printable(element.name)} = {printable(text)} reads as "

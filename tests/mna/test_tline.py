@@ -169,3 +169,37 @@ def test_a_sweep_ending_on_a_lossless_line_resonance_is_solved():
     resp = read_netlist("t\n" + text).ac("V1", "c", freqs=f)
     np.testing.assert_allclose(resp.transfer[:3], reference(f[:3]), rtol=1e-9)
     assert abs(resp.transfer[3]) < 1e-12
+
+
+def test_port_currents_of_a_part_model_holding_a_line():
+    # a matched line inside a one-part model (part_models): 1 V through 50 Ω into a
+    # 50 Ω line ending in 50 Ω draws 1/100 A at each port, at every frequency (closed
+    # form: the line's input impedance is Z0)
+    from netcheck.analyses.stress import judge_stress
+    from netcheck.mna.assemble import assemble
+    from netcheck.mna.solve import solve
+    from netcheck.netlist.elaborate import elaborate
+    from netcheck.netlist.parse import load_netlist
+    from netcheck.spec.stress import parse_stress
+    text = ("t\n.subckt qm_cable a b\nT1 a 0 b 0 Z0=50 TD=3n\n.ends\n"
+            "V1 in 0 AC 1\nRS in p 50\nX1 p q qm_cable\nRL q 0 50\n")
+    ckt = elaborate(load_netlist(text), part_models=["qm_cable"])
+    resp = solve(assemble(ckt, "V1", "q"), np.logspace(6, 9, 31))
+    rows = judge_stress(parse_stress([{"source_amplitude": "1", "parts": "X1",
+                                       "max_current": 1}], "s.toml"), resp)
+    assert [r.ports for r in rows] == [("a",), ("b",)]
+    for r in rows:
+        assert r.peak == pytest.approx(0.01, rel=1e-9)
+
+
+def test_seeds_sit_where_lines_are_whole_quarter_waves():
+    # f = n/(4τ) for each delay (the quarter-wave frequencies, from βl = nπ/2)
+    from netcheck.mna.assemble import DELAY_SEEDS_MAX, delay_seeds
+    ckt = read_netlist("t\nV1 in 0 AC 1\nRS in a 50\nT1 a 0 b 0 Z0=50 TD=1n\n"
+                       "T2 b 0 c 0 Z0=50 TD=0.4n\nRL c 0 50\n")
+    system = assemble(ckt, "V1", "c")
+    np.testing.assert_allclose(delay_seeds(system, 100e6, 1.1e9),
+                               [250e6, 500e6, 625e6, 750e6, 1e9], rtol=1e-15)
+    assert delay_seeds(system, 1.0, 1e15).size == DELAY_SEEDS_MAX
+    rc = assemble(read_netlist("t\nV1 in 0 AC 1\nR1 in out 1k\nC1 out 0 1n\n"), "V1", "out")
+    assert delay_seeds(rc, 1.0, 1e9).size == 0

@@ -243,3 +243,14 @@ def test_voltage_source_with_rser_may_parallel_another_source():
             freqs=np.array([1e3]))
     par = 300 * 50 / 350
     close(got, [par / (100 + par)])
+
+
+def test_a_model_name_starting_with_m_is_not_read_as_milli():
+    # netlist-151 warns of '1M' on a resistor; a model called MFILM is not a value
+    ckt = read_netlist("t\n.model MFILM RES (TC1=50u TNOM=25)\nV1 in 0 AC 1\n"
+                       "R1 in 0 MFILM 1k\nL1 in 0 L=1m TC1=1m\nC1 in 0 1n TC2=2u\n")
+    assert not [d for d in ckt.diagnostics if d.code == "netlist-151"]
+    # TNOM from the model: ΔT = 75 − 25; coefficients on L and C too (the same formula)
+    assert ckt.element("R1").value_at(75.0) == pytest.approx(1e3 * (1 + 50e-6 * 50))
+    assert ckt.element("L1").value_at(127.0) == pytest.approx(1e-3 * (1 + 1e-3 * 100))
+    assert ckt.element("C1").value_at(-23.0) == pytest.approx(1e-9 * (1 + 2e-6 * 2500))
