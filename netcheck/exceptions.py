@@ -44,6 +44,7 @@ CODES: dict[str, str] = {
     "netlist-153": "stimulus has no AC value (warning)",
     "netlist-154": "part value off its preferred-number series (warning)",
     "netlist-160": "initial condition ignored (note)",
+    "netlist-161": "floating port of a transmission line tied to the other port's reference (note)",
     "spec-200": "spec file error",
     "spec-201": "unknown spec key",
     "spec-202": "wrong type or value in spec",

@@ -20,7 +20,7 @@ from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef
                     check_size)
 from .reader import CardReader, card_label
 from .source import Span, printable, quoted
-from .topology import check_topology, lint_nodes
+from .topology import check_topology, lint_nodes, tie_isolated_ports
 
 __all__ = ["Circuit", "PartModel", "elaborate", "CardReader", "GROUND",
            "ELEMENTS_MAX", "DIAGNOSTICS_PER_CODE", "summarise_diagnostics", "VALUE_MAX",
@@ -106,6 +106,7 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     flat = _Flat(diags=list(netlist.diagnostics),
                  models=frozenset(n.lower() for n in part_models))
     _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative, {})
+    flat.diags.extend(tie_isolated_ports(flat.elements))
     elements = tuple(flat.elements)
     _check_references(elements)
     nodes = tuple(dict.fromkeys(n for e in elements for n in e.nodes if n != GROUND))

@@ -203,3 +203,21 @@ def test_seeds_sit_where_lines_are_whole_quarter_waves():
     assert delay_seeds(system, 1.0, 1e15).size == DELAY_SEEDS_MAX
     rc = assemble(read_netlist("t\nV1 in 0 AC 1\nR1 in out 1k\nC1 out 0 1n\n"), "V1", "out")
     assert delay_seeds(rc, 1.0, 1e9).size == 0
+
+
+def test_stubs_written_with_far_nodes_of_their_own():
+    # a series short-circuited stub (far port's two nodes one node: 'T1 a b s s') and a
+    # shunt open stub whose far port has two nodes of its own ('T2 b 0 o1 o2'). Their
+    # far ports float; tied to the near port's reference they are the textbook stubs:
+    # series Z = jZ0·tan βl, shunt Y = j·tan βl/Z0 (from the ABCD matrix, Pozar, from
+    # memory). One netlist-161 note each.
+    text = ("V1 in 0 AC 1\nRS in a 50\nT1 a b s s Z0=80 TD=0.5n\n"
+            "T2 b 0 o1 o2 Z0=30 TD=0.7n\nRL b 0 50\n")
+    ckt = read_netlist("t\n" + text)
+    assert [d.code for d in ckt.diagnostics if d.code == "netlist-161"] == ["netlist-161"] * 2
+    f = np.linspace(0.05e9, 0.95e9, 19)
+    got = ckt.ac("V1", "b", freqs=f).transfer
+    zs = 1j * 80 * np.tan(2 * np.pi * f * 0.5e-9)
+    yl = 1 / 50 + 1j * np.tan(2 * np.pi * f * 0.7e-9) / 30
+    zl = 1 / yl
+    np.testing.assert_allclose(got, zl / (50 + zs + zl), rtol=1e-9)

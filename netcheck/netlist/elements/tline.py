@@ -67,10 +67,11 @@ class TransmissionLine(Element):
 
     @property
     def links(self) -> tuple[tuple[str, str], ...]:
-        """Node pairs the line joins for connectivity: each port, and port to port (at
-        low frequency the line is a pair of wires)."""
+        """Node pairs the line joins for connectivity: each port's two nodes (the ports
+        share only the voltage across each: a port with nothing else on it floats, see
+        :func:`netcheck.netlist.topology.tie_isolated_ports`)."""
         n1, n2, n3, n4 = self.nodes
-        return ((n1, n2), (n3, n4), (n1, n3), (n2, n4))
+        return ((n1, n2), (n3, n4))
 
     @classmethod
     def from_card(cls, rd: "CardReader") -> "Element":
