@@ -106,6 +106,7 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     flat = _Flat(diags=list(netlist.diagnostics),
                  models=frozenset(n.lower() for n in part_models))
     _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative, {})
+    _one_note_for_initial_conditions(flat.diags)
     flat.diags.extend(tie_isolated_ports(flat.elements))
     elements = tuple(flat.elements)
     _check_references(elements)
@@ -154,6 +155,20 @@ def summarise_diagnostics(diags: list[Diagnostic], keep: int = DIAGNOSTICS_PER_C
                               f"({what}) not listed, the first of them here; netcheck lists "
                               f"the first {keep} of each code", d.span, d.severity))
     return tuple(out)
+
+
+def _one_note_for_initial_conditions(diags: list[Diagnostic]) -> None:
+    """The netlist-160 notes of every card merged into one, at the first (in place)."""
+    ics = [k for k, d in enumerate(diags) if d.code == "netlist-160"]
+    if len(ics) < 2:
+        return
+    names = [diags[k].message.split(": IC=")[0] for k in ics]
+    first = diags[ics[0]]
+    diags[ics[0]] = Diagnostic("netlist-160", f"IC= (an initial condition) on {_list(names)} "
+                               "has no meaning in a frequency-domain check; ignored",
+                               first.span, "note")
+    for k in reversed(ics[1:]):
+        del diags[k]
 
 
 def _list(names: list[str], most: int = 10) -> str:

@@ -102,8 +102,12 @@ class TestValueForms:
     def test_initial_condition_is_ignored_with_one_note(self):
         ckt = read_netlist("t\nV1 in 0 AC 1\nR1 in out 1k\nC1 out 0 1n IC=2\nL1 out 0 1 IC=0\n")
         notes = [d for d in ckt.diagnostics if d.code == "netlist-160"]
-        assert [d.severity for d in notes] == ["note", "note"]
+        assert [d.severity for d in notes] == ["note"]   # one note for the kind
+        assert "on C1, L1" in notes[0].message
         assert (notes[0].span.line, notes[0].span.column) == (4, 13)
+        one = read_netlist("t\nV1 in 0 AC 1\nR1 in out 1k\nC1 out 0 1n IC=2\n").diagnostics
+        assert [d.message for d in one] == [
+            "C1: IC= (an initial condition) has no meaning in a frequency-domain check; ignored"]
 
     def test_unknown_option_is_refused_with_its_position(self):
         with pytest.raises(NetcheckError, match="Lser= is not an option") as info:
