@@ -146,12 +146,12 @@ class TestModelCards:
         assert info.value.code == "netlist-130" and info.value.span.line == 2
 
     def test_device_model_is_stored_and_using_it_is_refused_precisely(self):
-        text = ("t\n.model QN NPN (BF=200 IS=1e-15)\n.model DX D(IS=1n)\nV1 in 0 AC 1\n"
-                "R1 in 0 1k\n")
+        text = ("t\n.MODEL QN NPN(BF=200 IS=1e-15\n+ VAF=80 CJC=2p)\n.model DX D(IS=1n)\n"
+                "V1 in 0 AC 1 0 Rser=50\nR1 in 0 1k\n")
         assert read_netlist(text).element("R1").value == 1e3   # stored, not in the way
         with pytest.raises(NetcheckError, match="semiconductor device .model QN.") as info:
             read_netlist(text + "Q1 c in 0 QN\nR2 c 0 1k\n")
-        assert info.value.span.line == 6
+        assert info.value.span.line == 7
         with pytest.raises(NetcheckError, match="device model .D, for D cards."):
             read_netlist(text + "C1 in 0 DX 1n\n")
 
