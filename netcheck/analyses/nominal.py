@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..mna.assemble import System, assemble
+from ..mna.assemble import System, assemble, delay_seeds
 from ..netlist.elaborate import Circuit, elaborate
 from ..netlist.parse import Netlist, load_netlist
 from ..exceptions import ElaborationError, NetcheckError, NetcheckWarning, SpecError
@@ -88,7 +88,9 @@ class ResponseCurve(_CachedCurve):
         f = response.frequency_hz
         poles, zeros, complete = response.roots_hz()
         seeds = np.concatenate([seeds_from_roots(poles, f[0], f[-1]),
-                                seeds_from_roots(zeros, f[0], f[-1])])
+                                seeds_from_roots(zeros, f[0], f[-1]),
+                                # a transmission line: where a line is n quarter waves long
+                                delay_seeds(response.system, float(f[0]), float(f[-1]))])
         return cls(response, f, np.unique(seeds), poles, zeros, complete)
 
     def _evaluate(self, f: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -54,7 +54,7 @@ import numpy as np
 import scipy.linalg as sla
 from scipy.optimize import minimize_scalar
 
-from ..mna.assemble import System
+from ..mna.assemble import System, delay_seeds
 from ..netlist.elaborate import PartModel
 from ..netlist.elements import (CCCS, CCVS, VCCS, Capacitor, CurrentSource, Element, Inductor,
                        Resistor, VoltageSource)
@@ -232,11 +232,11 @@ def _probe(system: System, e: Element, quantity: str, amp: float) -> _Probe | st
     n = system.size
     if quantity == "voltage":
         return _Probe(v, False, 0j, amp, 1)
-    if quantity == "power":  # P = |V|²/(2R) for peak |V| [3]
-        return _Probe(v, False, 0j, amp * amp / (2.0 * e.value), 2, -1)
-    if isinstance(e, Resistor):
+    if quantity == "power":  # P = |V|²/(2R) for peak |V| [3]; a 0 Ω wire dissipates none
+        return _Probe(v, False, 0j, amp * amp / (2.0 * e.value) if e.value else 0.0, 2, -1)
+    if isinstance(e, Resistor) and e.value:
         return _Probe(v / e.value, False, 0j, amp, 1, -1)
-    if isinstance(e, Capacitor):
+    if isinstance(e, Capacitor) and not e.has_branch:
         return _Probe(v * e.value, True, 0j, amp, 1, 1)
     if isinstance(e, CCCS):
         sel = np.zeros(n)
@@ -246,20 +246,31 @@ def _probe(system: System, e: Element, quantity: str, amp: float) -> _Probe | st
         active = 1.0 if e.name == system.source else 0.0  # other sources are zeroed
         return _Probe(np.zeros(n), False, complex(active), amp, 1)
     sel = np.zeros(n)
-    sel[system.branch_index[e.name]] = 1.0
+    # a branch current (L, C with Rser, 0 Ω R, sources); m parallel copies share it
+    sel[system.branch_index[e.name]] = 1.0 / getattr(e, "m", 1.0)
     return _Probe(sel, False, 0j, amp, 1)
 
 
 def _element_current(system: System, e: Element
                      ) -> tuple[np.ndarray, np.ndarray, complex] | None:
     """The current through ``e`` from its first node to its second, per unit stimulus:
-    ``(sel, sel_jw, const)`` with I = x·sel + j2πf·(x·sel_jw) + const; None for K."""
+    ``(sel, sel_jw, const)`` with I = x·sel + j2πf·(x·sel_jw) + const; None for K.
+    The Rpar and Cpar of an L or C count: the current is the whole part's."""
+    got = _own_current(system, e)
+    if got is None or not (getattr(e, "rpar", 0.0) or getattr(e, "cpar", 0.0)):
+        return got
+    v = _diff_selector(system, *e.terminals) * e.m
+    return (got[0] + (v / e.rpar if e.rpar else 0.0), got[1] + v * e.cpar, got[2])
+
+
+def _own_current(system: System, e: Element
+                 ) -> tuple[np.ndarray, np.ndarray, complex] | None:
     n = system.size
     zero = np.zeros(n)
-    if isinstance(e, Resistor):
-        return _diff_selector(system, *e.terminals) / e.value, zero, 0j
-    if isinstance(e, Capacitor):
-        return zero, _diff_selector(system, *e.terminals) * e.value, 0j
+    if isinstance(e, Resistor) and not e.has_branch:  # 0 Ω: its branch current, below
+        return _diff_selector(system, *e.terminals) * (e.m / e.value), zero, 0j
+    if isinstance(e, Capacitor) and not e.has_branch:  # with Rser: its branch current
+        return zero, _diff_selector(system, *e.terminals) * (e.value * e.m), 0j
     if isinstance(e, VCCS):  # gm·(v_c+ − v_c−) flows n+ → n−
         return _diff_selector(system, e.nodes[2], e.nodes[3]) * e.gain, zero, 0j
     if isinstance(e, CCCS):
@@ -300,9 +311,12 @@ def _model_probes(system: System, model: PartModel, quantity: str, amp: float
     for i, port in enumerate(model.ports):
         sel, sel_jw, const = np.zeros(system.size), np.zeros(system.size), 0j
         for name, node, at in model.through:
+            e = circuit.element(name)
+            if at == i and e.extra_branches and node in (2, 3):  # a line's port 2 branch
+                sel[system.branch_index[f"{name} {e.extra_branches[0]}"]] += 3 - 2 * node
             if at != i or node > 1:
                 continue
-            current = _element_current(system, circuit.element(name))
+            current = _element_current(system, e)
             if current is None:
                 continue
             sign = 1.0 if node == 0 else -1.0
@@ -367,6 +381,8 @@ def _pole_frequencies(response: Response) -> np.ndarray:
     pole–zero engine when it was used, else from the pencil (G, −C) directly.
     """
     f = response.frequency_hz
+    if response.system.delays is not None:  # a transmission line: no finite poles
+        return delay_seeds(response.system, float(f[0]), float(f[-1]))
     poles = np.asarray(response.poles_hz)
     if poles.size == 0 and response.system.size <= DENSE_MAX:
         g = response.system.G.toarray()

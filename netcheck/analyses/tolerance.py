@@ -59,7 +59,8 @@ def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>"
     default = dict(tol.default)
     out: dict[str, tuple[float, float]] = {}
     for e in circuit.elements:
-        if e.letter in default and default[e.letter] > 0:
+        # a 0 Ω resistor is a wire, not a part: letter defaults and globs pass over it
+        if e.letter in default and default[e.letter] > 0 and e.value != 0:
             out[e.name] = (e.value, default[e.letter])
     ordered = sorted(tol.parts, key=lambda item: not _is_glob(item[0]))  # stable: globs first
     for pattern, t in ordered:
@@ -75,7 +76,7 @@ def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>"
                             "the drive level as [[stress]] source_amplitude)", code="spec-202",
                             path=path, where=where)
         for e in hits:
-            if e in sources:
+            if e in sources or (e.value == 0 and _is_glob(pattern)):
                 continue
             if e.letter == "K" and t > 0 and abs(e.value) * (1 + t) > 1:
                 raise SpecError(

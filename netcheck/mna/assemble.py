@@ -10,11 +10,57 @@ import scipy.sparse as sp
 
 from ..netlist.elaborate import GROUND, Circuit
 from ..netlist.elements import CurrentSource, VoltageSource
-from ..exceptions import ElaborationError
+from ..exceptions import ElaborationError, MeasurementError
 from ..netlist.source import printable, quoted
 
 __all__ = ["System", "Stamper", "assemble", "assemble_batch", "unknown_names",
-           "element_entries"]
+           "element_entries", "Delays", "delay_seeds", "DELAY_SEEDS_MAX"]
+
+#: the most seeds :func:`delay_seeds` gives one sweep
+DELAY_SEEDS_MAX = 4000
+
+
+@dataclass(frozen=True, slots=True, eq=False)
+class Delays:
+    """The entries of the circuit matrix that carry a delay: A(s) = G + sC + D(s) with
+    D(s)[rows[k], cols[k]] += coef[k]·exp(−s·tau[k]) (transmission lines; duplicates add).
+    """
+
+    rows: np.ndarray
+    cols: np.ndarray
+    coef: np.ndarray
+    tau: np.ndarray
+
+    def values(self, f: np.ndarray) -> np.ndarray:
+        """coef·exp(−j2πf·tau) for each frequency of ``f`` (F × k)."""
+        return self.coef * np.exp(np.multiply.outer(-2j * np.pi * np.asarray(f, float),
+                                                    self.tau))
+
+    def derivative(self, f: np.ndarray) -> np.ndarray:
+        """d/ds of :meth:`values`: −tau·coef·exp(−s·tau) (F × k)."""
+        return -self.tau * self.values(f)
+
+
+def delay_seeds(system: "System", f_lo: float, f_hi: float) -> np.ndarray:
+    """Frequencies in [f_lo, f_hi] where a delay of the circuit is a whole number of
+    quarter periods, f = n/(4τ) (where a line is n quarter wavelengths long: the
+    centres, notches and band edges of a line or stub filter sit there [1]_), at most
+    :data:`DELAY_SEEDS_MAX` (the first ones from f_lo on). Empty without delays.
+
+    .. [1] P. I. Richards, "Resistor-transmission-line circuits", Proc. IRE 36(2),
+       217-220, 1948 (cited from memory).
+    """
+    d = system.delays
+    if d is None:
+        return np.zeros(0)
+    out = []
+    for tau in np.unique(d.tau):
+        q = 1.0 / (4.0 * float(tau))
+        first = max(1, int(np.ceil(f_lo / q)))
+        last = min(int(np.floor(f_hi / q)), first + DELAY_SEEDS_MAX)
+        out.append(q * np.arange(first, last + 1, dtype=float))
+    seeds = np.unique(np.concatenate(out)) if out else np.zeros(0)
+    return seeds[:DELAY_SEEDS_MAX]
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -44,11 +90,22 @@ class System:
     unknowns: tuple[str, ...]
     node_index: Mapping[str, int]
     branch_index: Mapping[str, int]
+    #: entries with a delay (transmission lines), None for a rational circuit
+    delays: Delays | None = None
 
     @property
     def size(self) -> int:
         """Number of unknowns."""
         return len(self.unknowns)
+
+    def matrix(self, f_hz: float) -> sp.csc_matrix:
+        """The complex circuit matrix A = G + j2πfC (+ the delayed entries) at ``f_hz``."""
+        a = (self.G + (2j * np.pi * f_hz) * self.C).tocsc()
+        d = self.delays
+        if d is not None:
+            a = a + sp.csc_matrix((d.values(np.array([f_hz]))[0], (d.rows, d.cols)),
+                                  shape=a.shape)
+        return a.tocsc()
 
     def input_current_selector(self) -> np.ndarray:
         """Selector giving the current the stimulus delivers into the circuit (A per unit)."""
@@ -78,6 +135,8 @@ def unknown_names(circuit: Circuit) -> tuple[dict[str, int], dict[str, int]]:
     for e in circuit.elements:
         if e.has_branch:
             branches[e.name] = len(nodes) + len(branches)
+            for suffix in e.extra_branches:
+                branches[f"{e.name} {suffix}"] = len(nodes) + len(branches)
     return nodes, branches
 
 
@@ -91,6 +150,8 @@ class Stamper:
         self.values = values or {}
         self.entries: dict[str, tuple[list[int], list[int], list[Any]]] = {
             "G": ([], [], []), "C": ([], [], [])}
+        #: delayed entries: rows, columns, coefficients, delays (s)
+        self.delays: tuple[list[int], list[int], list[Any], list[float]] = ([], [], [], [])
         self.rhs = np.zeros(self.n)
 
     def value_of(self, name: str) -> Any:
@@ -114,6 +175,25 @@ class Stamper:
         rows.append(row)
         cols.append(col)
         vals.append(value)
+
+    def delayed(self, row: int | None, col: int | None, coef: Any, tau: float) -> None:
+        """Add coef·exp(−s·tau) at (row, col) of the circuit matrix; ground is dropped."""
+        if row is None or col is None:
+            return
+        for lst, v in zip(self.delays, (row, col, coef, tau)):
+            lst.append(v)
+
+    def delayed_node(self, row: int, node: str, coef: Any, tau: float) -> None:
+        """:meth:`delayed` at (row, column of ``node``)."""
+        self.delayed(row, self._row(node), coef, tau)
+
+    def delay_table(self) -> Delays | None:
+        """The delayed entries collected (None if there are none)."""
+        rows, cols, coef, tau = self.delays
+        if not rows:
+            return None
+        return Delays(np.asarray(rows, int), np.asarray(cols, int),
+                      np.asarray(coef, dtype=float), np.asarray(tau, dtype=float))
 
     def add_node_col(self, mat: str, row: int, node: str, value: Any) -> None:
         """Add at (row, column of ``node``)."""
@@ -246,12 +326,17 @@ def assemble(circuit: Circuit, source: str, node: str, ref: str = GROUND) -> Sys
         arr.flags.writeable = False
     src = circuit.element(source)
     return System(circuit, src.name, node.lower(), ref.lower(), st.sparse("G"), st.sparse("C"),
-                  b, sel, unknowns, nodes, branches)
+                  b, sel, unknowns, nodes, branches, st.delay_table())
 
 
 def assemble_batch(system: System, values: Mapping[str, np.ndarray], samples: int,
                    dtype: Any = float) -> tuple[np.ndarray, np.ndarray]:
-    """Dense (samples, n, n) G and C with element values replaced per sample."""
+    """Dense (samples, n, n) G and C with element values replaced per sample.
+
+    Refused (analysis-305) for a circuit with a transmission line: its delayed entries
+    are not in G and C.
+    """
+    refuse_delays(system, "sampled part values (Monte Carlo, worst case, stress)")
     st = Stamper(system.circuit, values)
     st.stamp_all()
     return st.dense_batch("G", samples, dtype), st.dense_batch("C", samples, dtype)
@@ -283,3 +368,16 @@ def element_entries(circuit: Circuit) -> list[tuple[Any, float, float, frozenset
                 where.update(cols[start[m]:])
             out.append((e, sizes[0], sizes[1], frozenset(where)))
     return out
+
+
+def refuse_delays(system: System, what: str) -> None:
+    """analysis-305 if ``system`` has delayed entries: ``what`` needs a rational circuit."""
+    if system.delays is None:
+        return
+    lines = [e for e in system.circuit.elements if e.extra_branches]
+    first = lines[0] if lines else None
+    raise MeasurementError(
+        f"{what} not available for a circuit with a transmission line "
+        f"({printable(first.name) if first else 'T'}): its response is not a rational "
+        "function of frequency; the nominal check is exact", first.span if first else None,
+        code="analysis-305")

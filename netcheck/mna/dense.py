@@ -35,9 +35,19 @@ class DenseEngine:
         self.G = system.G.toarray()
         self.C = system.C.toarray()
         self.n = system.size
-        rows, cols = np.nonzero((self.G != 0) | (self.C != 0))
+        mask = (self.G != 0) | (self.C != 0)
+        d = system.delays
+        if d is not None:  # a transmission line's entries (exp(-sτ), not in G or C)
+            mask[d.rows, d.cols] = True
+        rows, cols = np.nonzero(mask)
         self._pattern = Pattern(rows, cols, self.n)
         self._gv, self._cv = self.G[rows, cols], self.C[rows, cols]
+        self._dmag = np.zeros(rows.size)
+        if d is not None:
+            where = np.zeros((self.n, self.n), dtype=np.int64)
+            where[rows, cols] = np.arange(rows.size)
+            self._didx = where[d.rows, d.cols]
+            np.add.at(self._dmag, self._didx, np.abs(d.coef))
         self._scales: dict[int, tuple[np.ndarray, np.ndarray]] = {}
         self._roots: dict[tuple, tuple[np.ndarray, np.ndarray, bool]] = {}
         self.chunk = max(1, CHUNK_BYTES // (16 * 4 * max(self.n, 1) ** 2))
@@ -55,8 +65,8 @@ class DenseEngine:
         new = [int(k) for k in bins if int(k) not in self._scales]
         if new:
             w = _TWO_PI * 10.0 ** (np.array(new, dtype=float) / SCALE_BINS_PER_DECADE)
-            r, c = equilibrate(self._pattern, np.abs(self._gv)[None, :] +
-                                w[:, None] * np.abs(self._cv)[None, :])
+            r, c = equilibrate(self._pattern, (np.abs(self._gv) + self._dmag)[None, :] +
+                               w[:, None] * np.abs(self._cv)[None, :])
             for i, k in enumerate(new):
                 self._scales[k] = (r[i], c[i])
         r = np.stack([self._scales[int(k)][0] for k in bins])
@@ -70,6 +80,10 @@ class DenseEngine:
         pat = self._pattern
         with np.errstate(over="ignore", invalid="ignore"):
             vals = self._gv + np.multiply.outer(1j * _TWO_PI * f, self._cv)
+            d = self.system.delays
+            if d is not None:
+                vals = vals.copy()
+                np.add.at(vals, (slice(None), self._didx), d.values(f))
         finite = np.isfinite(vals).all(axis=1)
         if not finite.all():
             raise nonfinite_error(self.system, float(f[np.argmin(finite)]))
@@ -143,6 +157,9 @@ class DenseEngine:
         l = self.system.l if l is None else np.asarray(l, dtype=float)
         w = _TWO_PI * float(np.sqrt(f_lo * f_hi))
         key = (l.tobytes(), w)
+        if self.system.delays is not None:  # not rational: no finite set of roots
+            empty = np.zeros(0, dtype=complex)
+            return empty, empty.copy(), False
         if key not in self._roots:
             with np.errstate(all="ignore"):
                 try:
@@ -170,6 +187,9 @@ class DenseEngine:
         y = self._solve(f, l, transpose=True)
         h = x @ l
         dh_ds = -np.einsum("fi,fi->f", y, x @ self.C.T)
+        d = self.system.delays
+        if d is not None:  # dA/ds also has the delayed entries' −τ·coef·exp(−sτ)
+            dh_ds -= np.einsum("fk,fk->f", y[:, d.rows] * d.derivative(f), x[:, d.cols])
         return h, (1j * _TWO_PI) * dh_ds
 
 

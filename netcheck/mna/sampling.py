@@ -31,7 +31,7 @@ from typing import Mapping
 
 import numpy as np
 
-from .assemble import System, assemble_batch
+from .assemble import System, assemble_batch, refuse_delays
 from .dense import DenseEngine
 from .polezero import PoleZeroEngine
 from .sample_roots import followed_roots
@@ -70,6 +70,7 @@ class SampleSet:
 
     def __init__(self, system: System, values: Mapping[str, np.ndarray], samples: int,
                  grid: np.ndarray, memory_bytes: int = 2**30) -> None:
+        refuse_delays(system, "sampled part values (Monte Carlo, worst case)")
         self.system, self.S, self.grid = system, samples, np.asarray(grid, float)
         self.n = system.size
         self.b = np.asarray(system.b, float)

@@ -37,7 +37,7 @@ import numpy as np
 import scipy.linalg as la
 import scipy.sparse.linalg as spla
 
-from .assemble import Stamper, System
+from .assemble import Stamper, System, refuse_delays
 from ..measure.measurements import Resonance
 
 __all__ = ["AdjointSensitivity", "LogDerivatives", "adjoint_sensitivities", "DENSE_LIMIT"]
@@ -116,6 +116,7 @@ class AdjointSensitivity:
     """
 
     def __init__(self, system: System, parts: list[tuple[str, float, float]]) -> None:
+        refuse_delays(system, "worst-case sensitivities")
         self.system = system
         self.parts = parts
         self._stamps = _PartStamps(system, parts)

@@ -58,7 +58,7 @@ def nonfinite_error(system: System, f_hz: float, solution: bool = False
         if not blamed:
             bad: set[int] = set()
             if not solution:
-                a = (system.G + (1j * w) * system.C).tocoo()
+                a = system.matrix(f_hz).tocoo()
                 off = ~np.isfinite(a.data)
                 bad = set(a.row[off].tolist()) | set(a.col[off].tolist())
             ranked = sorted(((-abs(float(np.log(size))), k, e) for k, (e, size, where)
@@ -151,7 +151,8 @@ def _singular(system: System, f_hz: float, weights: np.ndarray, detail: str,
     elements = f"; the elements touching them most are {parts}" if parts else ""
     if equations is not None and equations.size and equations.max() > 0:
         rows = np.flatnonzero(equations >= 0.5 * equations.max())
-        by_row = {i: name for name, i in system.branch_index.items()}
+        # a line's second port is the branch '<name> port2' of the element <name>
+        by_row = {i: name.split(" ")[0] for name, i in system.branch_index.items()}
         own = [system.circuit.element(by_row[int(i)]) for i in rows if int(i) in by_row]
         own = [e for e in own if e not in touched][:2]
         if own and len(rows) <= 2:

@@ -48,6 +48,8 @@ __all__ = ["Response", "solve", "make_engine", "DenseEngine", "SparseEngine",
 
 #: largest system solved with dense LAPACK (larger ones take the sparse path)
 DENSE_MAX = 300
+#: relative offset of the regularity probes of a circuit with transmission lines
+_PROBE_NUDGE = 1.0 / 997.0
 #: fewest points for which the pole–zero engine is worth building
 PZ_MIN_POINTS = 40
 
@@ -60,12 +62,18 @@ def make_engine(system: System, grid: np.ndarray) -> DenseEngine | SparseEngine 
     """
     check_finite(system, grid)
     probe = np.unique(np.array([grid.min(), np.sqrt(grid.min() * grid.max()), grid.max()]))
+    if system.delays is not None:
+        # a line circuit can be singular at isolated frequencies (a shorted half-wave
+        # line: a lossless resonance), often at round ones such as a sweep end; what is
+        # tested is a circuit singular everywhere, so probe just beside them
+        probe = probe * (1.0 + _PROBE_NUDGE)
     if system.size > DENSE_MAX:
         sparse = SparseEngine(system)
         sparse.check_regular(probe)
         return sparse
     direct = DenseEngine(system)
-    if grid.size >= PZ_MIN_POINTS:
+    # a transmission line (delayed entries) has no pole-zero form: direct solves only
+    if grid.size >= PZ_MIN_POINTS and system.delays is None:
         try:
             with np.errstate(all="ignore"):
                 pz = PoleZeroEngine.build(direct, grid)

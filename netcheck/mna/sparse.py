@@ -31,10 +31,21 @@ class SparseEngine:
         self.system = system
         self.G = system.G.astype(complex).tocsc()
         self.C = system.C.astype(complex).tocsc()
-        rows, cols = (abs(system.G) + abs(system.C)).nonzero()
+        mags = abs(system.G) + abs(system.C)
+        d = system.delays
+        if d is not None:  # a transmission line's entries (exp(-sτ), not in G or C)
+            mags = mags + sp.csc_matrix((np.abs(d.coef) + 1.0, (d.rows, d.cols)),
+                                        shape=mags.shape)
+        rows, cols = mags.nonzero()
         self._pattern = Pattern(rows, cols, system.size)
         self._gv = np.asarray(system.G.tocsr()[rows, cols]).ravel()
         self._cv = np.asarray(system.C.tocsr()[rows, cols]).ravel()
+        self._dmag = np.zeros(rows.size)
+        if d is not None:
+            where = {(int(r), int(c)): i for i, (r, c) in enumerate(zip(rows, cols))}
+            self._didx = np.array([where[(int(r), int(c))] for r, c in zip(d.rows, d.cols)],
+                                  dtype=np.int64)
+            np.add.at(self._dmag, self._didx, np.abs(d.coef))
         self._roots: dict = {}
 
     def _scaled(self, f: float) -> tuple[sp.csc_matrix, np.ndarray, np.ndarray]:
@@ -44,9 +55,13 @@ class SparseEngine:
         pat, gv, cv = self._pattern, self._gv, self._cv
         with np.errstate(over="ignore", invalid="ignore"):
             vals = gv + (1j * w) * cv
+            d = self.system.delays
+            if d is not None:
+                np.add.at(vals, self._didx, d.values(np.array([f]))[0])
         if not np.isfinite(vals).all():
             raise nonfinite_error(self.system, float(f))
-        r, c = (x[0] for x in equilibrate(pat, (np.abs(gv) + w * np.abs(cv))[None, :]))
+        r, c = (x[0] for x in equilibrate(pat, (np.abs(gv) + self._dmag +
+                                                 w * np.abs(cv))[None, :]))
         n = self.system.size
         a = sp.csc_matrix((vals * r[pat.rows] * c[pat.cols], (pat.rows, pat.cols)),
                           shape=(n, n))
@@ -97,6 +112,9 @@ class SparseEngine:
         """
         l = self.system.l if l is None else np.asarray(l, dtype=float)
         key = (l.tobytes(), float(f_lo), float(f_hi))
+        if self.system.delays is not None:  # not rational: no finite set of roots
+            empty = np.zeros(0, dtype=complex)
+            return empty, empty.copy(), False
         if key not in self._roots:
             span = ("poles", float(f_lo), float(f_hi))
             if span not in self._roots:  # the same for every selector
@@ -141,4 +159,7 @@ class SparseEngine:
             if derivative:
                 y = self._finite(r, lu.solve(c * l, trans="T"), fi)
                 dh[i] = -(y @ (self.C @ x))
+                d = self.system.delays
+                if d is not None:  # dA/ds also has −τ·coef·exp(−sτ)
+                    dh[i] -= np.sum(y[d.rows] * d.derivative(np.array([fi]))[0] * x[d.cols])
         return h, ((1j * _TWO_PI) * dh if derivative else None)

@@ -14,13 +14,14 @@ from typing import Callable, Collection
 from ..exceptions import CODES, Diagnostic, ElaborationError
 from .circuit import GROUND, Circuit, PartModel
 from .elements import ELEMENTS, Element, Inductor, VoltageSource
+from .models import ModelCard, read_model
 from .refusals import REFUSED_CODE, device_advice
 from .params import Env
 from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef, _arrows,
                     check_size)
 from .reader import CardReader, card_label
 from .source import Span, printable, quoted
-from .topology import check_topology, lint_nodes
+from .topology import check_topology, lint_nodes, tie_isolated_ports
 
 __all__ = ["Circuit", "PartModel", "elaborate", "CardReader", "GROUND",
            "ELEMENTS_MAX", "DIAGNOSTICS_PER_CODE", "summarise_diagnostics", "VALUE_MAX",
@@ -110,7 +111,9 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     flat = _Flat(diags=list(netlist.diagnostics),
                  models=frozenset(n.lower() for n in part_models),
                  globals=frozenset(netlist.globals))
-    _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative)
+    _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative, {})
+    _one_note_for_initial_conditions(flat.diags)
+    flat.diags.extend(tie_isolated_ports(flat.elements))
     elements = tuple(flat.elements)
     _check_references(elements)
     nodes = tuple(dict.fromkeys(n for e in elements for n in e.nodes if n != GROUND))
@@ -160,16 +163,47 @@ def summarise_diagnostics(diags: list[Diagnostic], keep: int = DIAGNOSTICS_PER_C
     return tuple(out)
 
 
+def _one_note_for_initial_conditions(diags: list[Diagnostic]) -> None:
+    """The netlist-160 notes of every card merged into one, at the first (in place)."""
+    ics = [k for k, d in enumerate(diags) if d.code == "netlist-160"]
+    if len(ics) < 2:
+        return
+    names = [diags[k].message.split(": IC=")[0] for k in ics]
+    first = diags[ics[0]]
+    diags[ics[0]] = Diagnostic("netlist-160", f"IC= (an initial condition) on {_list(names)} "
+                               "has no meaning in a frequency-domain check; ignored",
+                               first.span, "note")
+    for k in reversed(ics[1:]):
+        del diags[k]
+
+
 def _list(names: list[str], most: int = 10) -> str:
     """Up to ``most`` names, comma separated and bounded, and how many more."""
     shown = ", ".join(printable(n, 60) for n in names[:most])
     return shown + (f" and {len(names) - most:,} more" if len(names) > most else "")
 
 
+def _scope_models(scope: Scope, outer: dict[str, ModelCard]) -> dict[str, ModelCard]:
+    """The ``.model`` cards visible in ``scope``: its own over those of enclosing scopes."""
+    if not scope.models:
+        return outer
+    out = dict(outer)
+    here: dict[str, ModelCard] = {}
+    for st in scope.models:
+        card = read_model(st)
+        key = card.name.lower()
+        if key in here:
+            raise ElaborationError(f"model {quoted(card.name)} defined twice (first at line "
+                                   f"{here[key].span.line})", st.span, code="netlist-130")
+        here[key] = out[key] = card
+    return out
+
+
 def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
                  visible: dict[str, SubcktDef], stack: tuple[str, ...], flat: _Flat,
-                 allow_negative: bool) -> None:
+                 allow_negative: bool, models: dict[str, ModelCard]) -> None:
     defs = dict(visible)
+    models = _scope_models(scope, models)
     here: dict[str, SubcktDef] = {}
     for sub in scope.subckts:
         key = sub.name.text.lower()
@@ -213,18 +247,24 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
         letter = card.letter
         if letter == "X":
             _expand_instance(card, full, prefix, env, defs, stack, flat, allow_negative,
-                             node_of)
+                             node_of, models)
             continue
         cls = ELEMENTS.get(letter)
         if cls is None:
             advice = device_advice(letter, card.name.text)
             if advice is not None:
+                named = [f.text for f in card.fields if isinstance(f, Field)
+                         and f.text.lower() in models]
+                if named:  # the device's model card was read: say which one
+                    advice += f" (its model {printable(named[0])} was read and kept)"
                 raise ElaborationError(advice, card.name.span, code=REFUSED_CODE)
             known = ", ".join(sorted(ELEMENTS) + ["X"])
             raise ElaborationError(f"unknown element letter {quoted(letter)} in "
                                    f"{quoted(card.name.text)} "
                                    f"(netcheck knows {known})", card.name.span, code="netlist-105")
-        element = cls.from_card(CardReader(card, full, env, node_of, ref_of))
+        element = cls.from_card(CardReader(card, full, env, node_of, ref_of,
+                                           lambda text: models.get(text.lower())))
+        flat.diags.extend(getattr(element, "notes", ()))
         if cls.passive:
             _check_passive(element, card, allow_negative)
         _check_range(element, card)
@@ -234,7 +274,8 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
 
 def _expand_instance(card: Card, full: str, prefix: str, env: Env,
                      defs: dict[str, SubcktDef], stack: tuple[str, ...], flat: _Flat,
-                     allow_negative: bool, node_of: Callable[[Field], str]) -> None:
+                     allow_negative: bool, node_of: Callable[[Field], str],
+                     models: dict[str, ModelCard]) -> None:
     words = [f for f in card.fields if isinstance(f, Field)]
     assigns = [f for f in card.fields if isinstance(f, Assign)]
     words = [w for w in words if w.text.lower() not in ("params:", "params")]
@@ -275,7 +316,7 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
         child.define(assign, where=env)
     if key not in flat.models or flat.depth:
         _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
-                     allow_negative)
+                     allow_negative, models)
         return
     # a part model: each port gets a stand-in node of its own while the body expands,
     # so every element node reached through a port is known by port, then the stand-ins
@@ -290,7 +331,7 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
     flat.depth += 1
     try:
         _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
-                     allow_negative)
+                     allow_negative, models)
     finally:
         flat.depth -= 1
     through: list[tuple[str, int, int]] = []
@@ -313,7 +354,7 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
 def _check_passive(element: Element, card: Card, allow_negative: bool) -> None:
     value = element.value
     span = card.fields[2].span if len(card.fields) > 2 else card.span
-    if value == 0:
+    if value == 0 and element.letter != "R":  # a 0 Ω resistor is a wire
         raise ElaborationError(f"{printable(element.name)} has value 0; a zero "
                                f"{type(element).__name__.lower()}"
                                " cannot be solved (use a small value or remove it)", span,
@@ -356,7 +397,7 @@ def _lint_value(element: Element, card: Card, flat: _Flat) -> None:
     while i < len(text) and (text[i].isdigit() or text[i] in ".eE+-"):
         i += 1
     suffix = text[i:]
-    if suffix[:1] == "M" and not suffix.lower().startswith(("meg", "mil")):
+    if i and suffix[:1] == "M" and not suffix.lower().startswith(("meg", "mil")):
         what = "milliohms" if element.letter == "R" else "millihenries"
         flat.diags.append(Diagnostic(
             "netlist-151", f"{printable(element.name)} = {printable(text)} reads as "
@@ -383,7 +424,8 @@ def _check_references(elements: tuple[Element, ...]) -> None:
             if not -1.0 <= k <= 1.0:
                 raise ElaborationError(f"{printable(e.name)}: coupling coefficient {k:g} is "
                                        "outside [-1, 1]", e.span, code="netlist-114")
-            if e.inductors[0] == e.inductors[1]:
+            twice = next((n for i, n in enumerate(e.inductors) if n in e.inductors[:i]), None)
+            if twice is not None:
                 raise ElaborationError(f"{printable(e.name)} couples "
-                                       f"{printable(e.inductors[0])} to itself", e.span,
+                                       f"{printable(twice)} to itself", e.span,
                                        code="netlist-114")

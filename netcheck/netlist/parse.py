@@ -15,6 +15,7 @@ from lark.exceptions import LarkError, UnexpectedCharacters, UnexpectedInput
 from .dialect import Prepared, prepare
 from .grammars import parser
 from .refusals import title_warning
+from .models import blank_model_brackets
 from ..exceptions import Diagnostic, ElaborationError, NetlistSyntaxError
 from .source import SourceFile, Span, printable, quoted
 from .syntax import (AcCard, Assign, Card, Directive, Field, FuncDef, Item, Netlist, Scope,
@@ -40,13 +41,13 @@ INCLUDE_TEXT_MAX = 64 * 2**20
 SUBCKT_DEPTH_MAX = 64
 #: the most elements a design may flatten into; counted before flattening
 ELEMENTS_MAX = 1_000_000
-#: the most characters of the title line kept (it names the design in every report);
-#: a longer one is cut there and marked with the count left out, never refused
+#: the most characters of the title line kept (it names the design in every report); a
+#: longer one is cut there and marked with the count left out, never refused
 TITLE_MAX = 1_000
 
 #: Dot-directives netcheck acts on; any other directive is warned about (netlist-150) and skipped.
 KNOWN_DIRECTIVES = frozenset({"subckt", "ends", "param", "include", "inc", "lib", "endl",
-                              "func", "global", "ac", "end"})
+                              "func", "global", "ac", "end", "model"})
 #: Directives that only matter to other analyses (transient, operating point...): no warning.
 QUIET_DIRECTIVES = frozenset({"title"})
 
@@ -127,7 +128,7 @@ def _parse(source: SourceFile, has_title: bool, allowed: int, section: str | Non
 
 def _parse_text(source: SourceFile, has_title: bool, allowed: int, section: str | None
                 ) -> tuple[str, tuple[Statement, ...], int, Prepared]:
-    text = source.text.replace("\r\n", "\n")
+    text = blank_model_brackets(source.text.replace("\r\n", "\n"))
     title = ""
     notes = []
     if source.encoding != "utf-8":
@@ -450,8 +451,8 @@ def _group(stmts: list[Statement], diags: list[Diagnostic], title: str = ""
            ) -> tuple[Scope, tuple[str, ...]]:
     """Group a flat statement list into nested :class:`Scope` objects; also the
     ``.global`` node names (lower case)."""
-    # per level: (head, cards, params, subckts, funcs)
-    stack: list[tuple[Directive | None, list, list, list, list]] = [(None, [], [], [], [])]
+    # per level: (head, cards, params, subckts, funcs, models)
+    stack: list[tuple[Directive | None, list, ...]] = [(None, [], [], [], [], [])]
     names: dict[str, None] = {}
     for st in stmts:
         if isinstance(st, Card):
@@ -473,25 +474,25 @@ def _group(stmts: list[Statement], diags: list[Diagnostic], title: str = ""
                 raise NetlistSyntaxError(
                     f".subckt definitions nest {len(stack)} deep here, over the budget of "
                     f"{SUBCKT_DEPTH_MAX} levels", st.span, code="netlist-116")
-            stack.append((st, [], [], [], []))
+            stack.append((st, [], [], [], [], []))
         elif st.name == "ends":
             if len(stack) == 1:
                 hint = (" (the first line of a netlist is its title, so the .subckt "
                         "written there was not read: put a title line above it)"
                         if title.lower().startswith(".subckt") else "")
                 raise NetlistSyntaxError(f".ends without a matching .subckt{hint}", st.span)
-            head, cards, params, subs, funcs = stack.pop()
+            head, *parts = stack.pop()
             _check_ends(head, st)
-            stack[-1][3].append(_subckt(head, Scope(tuple(cards), tuple(params), tuple(subs),
-                                                    tuple(funcs))))
+            stack[-1][3].append(_subckt(head, Scope(*map(tuple, parts))))
+        elif st.name == "model":
+            stack[-1][5].append(st)
         elif st.name not in QUIET_DIRECTIVES:
             diags.append(Diagnostic("netlist-150", f"unknown directive .{printable(st.name)} ignored",
                                     st.span))
     if len(stack) > 1:
         head = stack[-1][0]
         raise NetlistSyntaxError(".subckt has no matching .ends", head.span)
-    _, cards, params, subs, funcs = stack[0]
-    return Scope(tuple(cards), tuple(params), tuple(subs), tuple(funcs)), tuple(names)
+    return Scope(*map(tuple, stack[0][1:])), tuple(names)
 
 
 def _check_ends(head: Directive, ends: Directive) -> None:

@@ -21,12 +21,49 @@ class CardReader:
     """Reads one card's fields in order for :meth:`Element.from_card`."""
 
     def __init__(self, card: Card, name: str, env: Env, node_of: Callable[[Field], str],
-                 ref_of: Callable[[str], str]) -> None:
+                 ref_of: Callable[[str], str],
+                 model_of: Callable[[str], object | None] | None = None) -> None:
         self.card, self.name, self.env = card, name, env
         self.span = card.span
         self._node_of, self._ref_of = node_of, ref_of
+        self._model_of = model_of
         self.items = list(card.fields)
         self.pos = 0
+
+    def take_options(self, names: tuple[str, ...]) -> dict[str, tuple[float, Span]]:
+        """Take every ``key=value`` field whose key is one of ``names`` (lower case) off
+        the card, wherever it stands: key → (value, span of the field). A key given
+        twice is refused."""
+        out: dict[str, tuple[float, Span]] = {}
+        keep: list = self.items[:self.pos]
+        for item in self.items[self.pos:]:
+            key = item.key.text.lower() if isinstance(item, Assign) else ""
+            if key not in names:
+                keep.append(item)
+                continue
+            if key in out:
+                raise ElaborationError(f"{card_label(self.card)}: {printable(item.key.text)}= "
+                                       "given twice", item.span, code="netlist-105")
+            out[key] = (self.env.value_of(item.value), item.span)
+        self.items = keep
+        return out
+
+    def model(self) -> object | None:
+        """The ``.model`` card the next field names, taking the field, or None (the
+        field is left) when it names none."""
+        if self._model_of is None or not self.more():
+            return None
+        item = self.items[self.pos]
+        if not isinstance(item, Field) or item.kind != "word":
+            return None
+        found = self._model_of(item.text)
+        if found is not None:
+            self.pos += 1
+        return found
+
+    def field_span(self) -> Span:
+        """The span of the next field (or of the card's end)."""
+        return self.items[self.pos].span if self.more() else self._end_span()
 
     def _next(self, what: str) -> Field:
         if self.pos >= len(self.items):

@@ -84,6 +84,7 @@ class Scope:
     params: tuple[Assign, ...] = ()
     subckts: tuple[SubcktDef, ...] = ()
     funcs: tuple["FuncDef", ...] = ()
+    models: tuple[Directive, ...] = ()  # the .model cards (netcheck.netlist.models)
 
 
 @dataclass(frozen=True, slots=True)

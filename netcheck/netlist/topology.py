@@ -2,13 +2,14 @@
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Iterable
 
 from .elements import Element
 from ..exceptions import Diagnostic, ElaborationError
 from .source import Span, printable, quoted
 
-__all__ = ["check_topology", "lint_nodes"]
+__all__ = ["check_topology", "lint_nodes", "tie_isolated_ports"]
 
 GROUND = "0"
 
@@ -70,13 +71,13 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
     for n in nodes:
         full.find(n)
     for e in two_terminal:
-        a, b = e.terminals
-        full.union(a, b)
+        for a, b in e.links:
+            full.union(a, b)
     ground = full.find(GROUND)
     for root, group in _groups(full, nodes).items():
         if root != ground:
             culprit = first_touch[group[0]]
-            sense_only = all(n not in culprit.terminals for n in group)
+            sense_only = all(n not in x for n in group for x in culprit.links)
             why = (f" (it connects only to the controlling input of "
                    f"{printable(culprit.name, 80)})"
                    if sense_only and len(group) == 1 else "")
@@ -102,8 +103,8 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
         passive.find(n)
     for e in two_terminal:
         if not e.current_defined:
-            a, b = e.terminals
-            passive.union(a, b)
+            for a, b in e.links:
+                passive.union(a, b)
     ground = passive.find(GROUND)
     for root, group in _groups(passive, nodes).items():
         if root != ground:
@@ -125,3 +126,47 @@ def lint_nodes(node_spans: dict[str, list[Span]]) -> list[Diagnostic]:
             out.append(Diagnostic("netlist-152", f"node {quoted(node, 80)} has only one connection",
                                   spans[0]))
     return out
+
+
+def tie_isolated_ports(elements: list[Element]) -> list[Diagnostic]:
+    """Give the far port of a transmission line a reference when nothing else does.
+
+    A line couples its ports only through the voltage across each, so a group of
+    nodes reached only through one port of a line (a stub's far end written with
+    nodes of its own, ``T2 a 0 5 6``; a shorted stub ``T1 a b 4 4``) has a voltage
+    against ground that nothing determines, and no current can leave it except through
+    the line. Any value is exact for everything else in the circuit; the group is tied
+    to the other port's reference (its reference node, or its shorted node, becomes that
+    node), in place in ``elements``, with one netlist-161 note per line tied.
+    """
+    lines = [k for k, e in enumerate(elements) if e.extra_branches]
+    if not lines:
+        return []
+    notes: list[Diagnostic] = []
+    sets = None
+    for k in lines:
+        if sets is None:  # made again only after a tie changed the nodes
+            sets = _Sets()
+            sets.find(GROUND)
+            for e in elements:
+                for a, b in e.links:
+                    sets.union(a, b)
+        line = elements[k]
+        n1, n2, n3, n4 = line.nodes
+        for (ra, rb), (oa, ob) in (((n3, n4), (n1, n2)), ((n1, n2), (n3, n4))):
+            root = sets.find(rb)
+            if root in (sets.find(GROUND), sets.find(ob)):
+                continue
+            # the port (ra, rb) and all that hangs on it float: rb becomes ob
+            for j, e in enumerate(elements):
+                if rb in e.nodes:
+                    elements[j] = dataclasses.replace(
+                        e, nodes=tuple(ob if n == rb else n for n in e.nodes))
+            notes.append(Diagnostic(
+                "netlist-161", f"{printable(line.name, 80)}: the port ({printable(ra, 60)}, "
+                f"{printable(rb, 60)}) connects to nothing else, so its voltage against "
+                f"ground is free; node {printable(rb, 60)} is taken as the other port's "
+                f"reference {printable(ob, 60)}", line.span, "note"))
+            sets = None
+            break
+    return notes

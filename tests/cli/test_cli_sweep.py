@@ -161,7 +161,7 @@ class TestStimulus:
 
 
 class TestBadInput:
-    @pytest.mark.parametrize("name,where", [("zero_resistor.cir", "4:14: error netlist-110"),
+    @pytest.mark.parametrize("name,where", [("zero_capacitor.cir", "4:14: error netlist-110"),
                                             ("paren_value.cir", "4:11: error netlist-100"),
                                             ("missing_include.cir", "2:10: error netlist-104")])
     def test_bad_netlist(self, capsys, name, where):

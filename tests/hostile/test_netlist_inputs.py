@@ -456,10 +456,10 @@ def test_singular_circuit_names_file_line_and_elements(tmp_path, padding):
 
 class TestTerminalSafety:
     def test_escape_sequences_in_names_are_shown_escaped(self):
-        err = refused(f"Quillmere QM-17\nR1{ESC}[2J{chr(7)}x a 0 0\n")
+        err = refused(f"Quillmere QM-17\nC1{ESC}[2J{chr(7)}x a 0 0\n")
         text = err.format()
         assert ESC not in text and "\x07" not in text
-        assert "R1\\x1b[2J\\x07X has value 0" in text.split("\n")[0]
+        assert "C1\\x1b[2J\\x07X has value 0" in text.split("\n")[0]
         assert "\\x1b" in text.split("\n")[1]
 
     def test_50_mb_line_gives_a_bounded_message_with_a_true_caret(self):

@@ -12,7 +12,7 @@ from netcheck.netlist import elements
 from netcheck.netlist.elaborate import elaborate
 from netcheck.netlist.elements import (CCCS, CCVS, ELEMENTS, VCCS, VCVS, Capacitor, Coupling,
                                        CurrentSource, Element, Inductor, Resistor,
-                                       VoltageSource)
+                                       TransmissionLine, VoltageSource)
 from netcheck.netlist.parse import load_netlist
 
 #: card letter → the family module its class lives in
@@ -21,6 +21,7 @@ FAMILY = {
     "V": "sources", "I": "sources",
     "E": "controlled", "F": "controlled", "G": "controlled", "H": "controlled",
     "K": "coupling",
+    "T": "tline",
 }
 FAMILIES = sorted(set(FAMILY.values()))
 
@@ -92,6 +93,12 @@ R2 s 0 50
 K1 L1 L2 0.9
 """, {"V1": VoltageSource, "R1": Resistor, "L1": Inductor, "L2": Inductor, "R2": Resistor,
       "K1": Coupling}),
+    "tline": ("""Quillmere Instruments quarter-wave transformer
+V1 in 0 AC 1
+R1 in a 50
+T1 a 0 out 0 Z0=70.7 F=1.2g
+R2 out 0 100
+""", {"V1": VoltageSource, "R1": Resistor, "T1": TransmissionLine, "R2": Resistor}),
 }
 
 

@@ -181,7 +181,7 @@ class TestInclude:
         assert len(ckt.sources) == 3
 
     def test_error_in_included_file_names_that_file(self, tmp_path):
-        write(tmp_path / "bad.lib", "* parts\nR9 a 0 0\n")
+        write(tmp_path / "bad.lib", "* parts\nC9 a 0 0\n")
         top = write(tmp_path / "top.cir", "t\n.include 'bad.lib'\nR0 a 0 1\n")
         with pytest.raises(NetcheckError) as info:
             read_netlist(str(top))

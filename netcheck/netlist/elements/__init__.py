@@ -1,7 +1,7 @@
 """Element kinds, one module per family, and the letter → class table.
 
 ``base`` holds :class:`Element`; ``passives`` (R, L, C), ``sources`` (V, I),
-``controlled`` (E, F, G, H) and ``coupling`` (K) hold the kinds, each with its card
+``controlled`` (E, F, G, H), ``coupling`` (K) and ``tline`` (T) hold the kinds, each with its card
 reader and MNA stamp; ``table`` holds :data:`ELEMENTS`. Adding a kind is one class in
 its family's module and one line in the table.
 """
@@ -14,6 +14,7 @@ from .coupling import Coupling
 from .passives import Capacitor, Inductor, Resistor
 from .sources import CurrentSource, VoltageSource
 from .table import ELEMENTS
+from .tline import TransmissionLine
 
 __all__ = ["Element", "Resistor", "Capacitor", "Inductor", "VoltageSource", "CurrentSource",
-           "VCVS", "VCCS", "CCCS", "CCVS", "Coupling", "ELEMENTS"]
+           "VCVS", "VCCS", "CCCS", "CCVS", "Coupling", "TransmissionLine", "ELEMENTS"]

@@ -44,6 +44,8 @@ class Element:
     voltage_defined: ClassVar[bool] = False
     #: a current-defined two-terminal (I, G, F): cut-sets of these are singular
     current_defined: ClassVar[bool] = False
+    #: branch unknowns beyond the first, named ``<name> <suffix>`` (a space: no card name has one) (a line's second port)
+    extra_branches: ClassVar[tuple[str, ...]] = ()
     #: a passive part whose value must be positive (R, L, C)
     passive: ClassVar[bool] = False
     #: the unit of ``value`` for reports
@@ -61,6 +63,11 @@ class Element:
     def terminals(self) -> tuple[str, str]:
         """The two nodes the element's own current flows between."""
         return self.nodes[0], self.nodes[1]
+
+    @property
+    def links(self) -> tuple[tuple[str, str], ...]:
+        """The node pairs the element joins, for connectivity (its terminals)."""
+        return (self.terminals,)
 
     def controls(self) -> tuple[str, ...]:
         """Names of other elements this one refers to (controlling sources, inductors)."""

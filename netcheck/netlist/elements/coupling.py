@@ -1,4 +1,9 @@
-"""Magnetic coupling between two inductors: mutual inductance (K)."""
+"""Magnetic coupling between inductors: mutual inductance (K).
+
+``K1 L1 L2 k`` couples two inductors; ``K1 L1 L2 L3 k`` couples every pair of the listed
+inductors with the same k (common practice, no source: a transformer with several
+windings on one core written on one card).
+"""
 
 from __future__ import annotations
 
@@ -16,9 +21,10 @@ __all__ = ["Coupling"]
 
 @dataclass(frozen=True, slots=True)
 class Coupling(Element):
-    """``Kname L1 L2 k``: mutual inductance M = k·√(L1·L2), |k| ≤ 1."""
+    """``Kname L1 L2 [L3 ...] k``: mutual inductance M = k·√(Li·Lj) between every pair,
+    |k| ≤ 1 (Li the inductance each card stamps, m= counted)."""
 
-    inductors: tuple[str, str] = ("", "")
+    inductors: tuple[str, ...] = ("", "")
     k: float = 0.0
 
     letter: ClassVar[str] = "K"
@@ -38,15 +44,19 @@ class Coupling(Element):
 
     @classmethod
     def from_card(cls, rd: "CardReader") -> "Element":
-        a = rd.reference("first inductor")
-        b = rd.reference("second inductor")
+        names = [rd.reference("first inductor"), rd.reference("second inductor")]
+        while rd.pos < len(rd.items) - 1:
+            names.append(rd.reference(f"inductor {len(names) + 1}"))
         k = rd.value("coupling coefficient")
         rd.finish()
-        return cls(rd.name, (), rd.span, (a, b), k)
+        return cls(rd.name, (), rd.span, tuple(names), k)
 
     def stamp(self, st: "Stamper", value: Any) -> None:
-        a, b = self.inductors
-        m = value * (st.value_of(a) * st.value_of(b)) ** 0.5
-        ka, kb = st.branch(a), st.branch(b)
-        st.add("C", ka, kb, -m)
-        st.add("C", kb, ka, -m)
+        names = self.inductors
+        ind = [st.circuit.element(n).effective(st.value_of(n)) for n in names]
+        for i in range(len(names)):
+            for j in range(i + 1, len(names)):
+                m = value * (ind[i] * ind[j]) ** 0.5
+                ki, kj = st.branch(names[i]), st.branch(names[j])
+                st.add("C", ki, kj, -m)
+                st.add("C", kj, ki, -m)

@@ -20,6 +20,8 @@ class _Independent(Element):
     ac_magnitude: float = 0.0
     ac_phase_deg: float = 0.0
     has_ac: bool = False
+    #: series resistance, Ω (V only; 0: none), a real resistor inside the source
+    rser: float = 0.0
 
     @property
     def value(self) -> float:
@@ -28,6 +30,7 @@ class _Independent(Element):
     @classmethod
     def from_card(cls, rd: "CardReader") -> "Element":
         nodes = rd.nodes(2)
+        rser = _series_resistance(rd) if cls.letter == "V" else 0.0
         dc = ac = phase = 0.0
         has_ac = seen_dc = False
         while rd.more():
@@ -55,12 +58,23 @@ class _Independent(Element):
             else:
                 rd.unexpected("expected DC value or 'AC magnitude [phase]'")
         rd.finish()
-        return cls(rd.name, nodes, rd.span, dc, ac, phase, has_ac)
+        return cls(rd.name, nodes, rd.span, dc, ac, phase, has_ac, rser)
+
+
+def _series_resistance(rd: "CardReader") -> float:
+    """``Rser=`` taken off a V card (netlist-110 if negative)."""
+    value, span = rd.take_options(("rser",)).get("rser", (0.0, None))
+    if not value >= 0:
+        from ...exceptions import ElaborationError
+        raise ElaborationError(f"{rd.name}: Rser={value:g} — a series resistance must be "
+                               "zero or positive", span, code="netlist-110")
+    return value
 
 
 @dataclass(frozen=True, slots=True)
 class VoltageSource(_Independent):
-    """``Vname n+ n- [DC v] [AC mag [phase]]``: an ideal voltage source (branch current).
+    """``Vname n+ n- [DC v] [AC mag [phase]] [Rser=r]``: a voltage source (branch current),
+    ideal or with a series resistance: v+ − v− − Rser·i = value.
 
     The fields come in any order (``AC 1 0 DC 5``), ``dc=`` and ``ac=`` are accepted, and
     the transient functions (SIN, PULSE, ...) were taken off before (netcheck.netlist.dialect).
@@ -71,8 +85,15 @@ class VoltageSource(_Independent):
     voltage_defined: ClassVar[bool] = True
     unit: ClassVar[str] = "V"
 
+    @property
+    def voltage_defined(self) -> bool:  # type: ignore[override]
+        return not self.rser   # with a series resistance it may sit in a loop of sources
+
     def stamp(self, st: "Stamper", value: Any) -> None:
-        st.incidence(self.nodes[0], self.nodes[1], st.branch(self.name))
+        k = st.branch(self.name)
+        st.incidence(self.nodes[0], self.nodes[1], k)
+        if self.rser:
+            st.add("G", k, k, -self.rser)
 
     def excite(self, st: "Stamper") -> None:
         """Unit stimulus: v+ − v− = 1."""

@@ -7,6 +7,7 @@ from .controlled import CCCS, CCVS, VCCS, VCVS
 from .coupling import Coupling
 from .passives import Capacitor, Inductor, Resistor
 from .sources import CurrentSource, VoltageSource
+from .tline import TransmissionLine
 
 __all__ = ["ELEMENTS"]
 
@@ -23,4 +24,5 @@ ELEMENTS: dict[str, type[Element]] = {
     "F": CCCS,
     "H": CCVS,
     "K": Coupling,
+    "T": TransmissionLine,
 }

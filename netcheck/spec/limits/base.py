@@ -77,7 +77,7 @@ def _rounding_bound(system: Any, f_hz: float) -> float | None:
     """
     import scipy.sparse.linalg as sla
 
-    a = (system.G + (2j * math.pi * f_hz) * system.C).tocsc()
+    a = system.matrix(f_hz)
     n = a.shape[0]
     try:
         with warnings.catch_warnings():
