@@ -69,7 +69,7 @@ _GRAMMAR = frozenset({"subckt", "ends", "model", "title", "end"})
 _TOKEN = re.compile(r"""\{[^{}\n]*\}|"[^"\n]*"|'[^'\n]*'|[=(),]|;.*|[^\s=(),{}"';]+""")
 _DIRECTIVE = re.compile(r"\.([A-Za-z][A-Za-z0-9_]*)")
 _BRACED = re.compile(r"""\{[^{}\n]*\}|"[^"\n]*"|'[^'\n]*'""")
-_BEHAVIOURAL = re.compile(r"(?i)\b(laplace|freq|table|value|poly|opamp)\b")
+_BEHAVIOURAL = re.compile(r"(?i)\b(laplace|freq|table|value|poly)\b")
 _PLACEHOLDER = re.compile(r"^(#[^#\s]+#|<[^<>\s]+>)$")
 _ENDL = re.compile(r"(?im)^[ \t]*\.endl\b")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*$")
@@ -496,11 +496,6 @@ class _Pass:
         advice = device_advice(letter, name) if letter in "BSWAU" else None
         if advice is not None and any(t.text in "()" for t in toks):
             self.refuse(advice, self.span(toks[0]))
-        if letter == "E" and len(toks) > 3 and toks[3].text.lower() == "opamp":
-            self.refuse(f"{shown}: 'E … OPAMP' is another simulator's ideal op-amp keyword; "
-                        "write it as a controlled source with a high gain, "
-                        "E<name> out 0 in+ in- 1e6 (or a macromodel subcircuit)",
-                        self.span(toks[3]))
         if letter in "EFGHB":
             for t in toks[1:]:
                 word = t.text.lower()

@@ -112,9 +112,12 @@ class CardReader:
         return (self.more() and not isinstance(self.items[self.pos], Assign)
                 and self.peek_keyword() not in ("ac", "dc"))
 
-    def peek_keyword(self) -> str:
-        """The next field's text, lower case ('' if it is not a plain word)."""
-        item = self.items[self.pos]
+    def peek_keyword(self, ahead: int = 0) -> str:
+        """The next field's text (or the one ``ahead`` fields further), lower case ('' if
+        it is not a plain word or there is none)."""
+        if self.pos + ahead >= len(self.items):
+            return ""
+        item = self.items[self.pos + ahead]
         return item.text.lower() if isinstance(item, Field) and item.kind == "word" else ""
 
     def peek_assign(self) -> str:

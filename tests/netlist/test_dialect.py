@@ -327,7 +327,6 @@ class TestRefused:
         ("B1 out 0 V=V(in)*2", "behavioural source", 1),
         ("E1 out 0 in 0 laplace=1/(1+s)", "LAPLACE", 15),
         ("E2 out 0 poly(1) in 0 0 1", "POLY", 10),
-        ("E3 out 0 opamp in 0", "ideal op-amp", 10),
         ("C1 out 0 #C1#  $ #CSMD_50p80p#", "placeholder", 10),
         ("L1 out 0 <Le_T>", "placeholder", 10),
     ])

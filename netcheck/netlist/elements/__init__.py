@@ -9,7 +9,7 @@ its family's module and one line in the table.
 from __future__ import annotations
 
 from .base import Element
-from .controlled import CCCS, CCVS, VCCS, VCVS
+from .controlled import CCCS, CCVS, VCCS, VCVS, IdealOpAmp
 from .coupling import Coupling
 from .passives import Capacitor, Inductor, Resistor
 from .sources import CurrentSource, VoltageSource
@@ -17,4 +17,4 @@ from .table import ELEMENTS
 from .tline import TransmissionLine
 
 __all__ = ["Element", "Resistor", "Capacitor", "Inductor", "VoltageSource", "CurrentSource",
-           "VCVS", "VCCS", "CCCS", "CCVS", "Coupling", "TransmissionLine", "ELEMENTS"]
+           "VCVS", "IdealOpAmp", "VCCS", "CCCS", "CCVS", "Coupling", "TransmissionLine", "ELEMENTS"]

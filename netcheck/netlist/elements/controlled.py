@@ -11,7 +11,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from ...mna.assemble import Stamper
     from ..reader import CardReader
 
-__all__ = ["VCVS", "VCCS", "CCCS", "CCVS"]
+__all__ = ["VCVS", "IdealOpAmp", "VCCS", "CCCS", "CCVS"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -40,6 +40,8 @@ class VCVS(_Controlled):
 
     @classmethod
     def from_card(cls, rd: "CardReader") -> "Element":
+        if rd.peek_keyword(2) == "opamp":
+            return IdealOpAmp.read(rd)
         nodes = rd.nodes(4)
         gain = rd.value("gain")
         rd.finish()
@@ -50,6 +52,43 @@ class VCVS(_Controlled):
         st.incidence(self.nodes[0], self.nodes[1], k)
         st.add_node_col("G", k, self.nodes[2], -value)
         st.add_node_col("G", k, self.nodes[3], value)
+
+
+@dataclass(frozen=True, slots=True)
+class IdealOpAmp(VCVS):
+    """``Ename out+ out- OPAMP in+ in-``: an ideal op-amp, the limit of an E card of
+    infinite gain (a nullor): v(in+) = v(in−), and the output branch carries whatever
+    current that takes.
+
+    Stamp: the branch current k leaves node out+ and enters out− (the columns of an E
+    card), and its row is v(in+) − v(in−) = 0 — the E card's row divided by −gain as
+    the gain grows without bound. Common practice for modified nodal analysis, no source.
+    The circuit needs negative feedback around it, or the system is singular.
+    """
+
+    notes: tuple = ()
+
+    @classmethod
+    def read(cls, rd: "CardReader") -> "IdealOpAmp":
+        """An ``E out+ out- OPAMP in+ in-`` card."""
+        from ...exceptions import Diagnostic
+        from ..source import printable
+        outputs = rd.nodes(2)
+        span = rd.field_span()
+        rd.skip()  # the OPAMP keyword
+        nodes = outputs + rd.nodes(2)
+        rd.finish()
+        note = Diagnostic("netlist-162", f"{printable(rd.name)}: 'OPAMP' read as an ideal "
+                          "op-amp: infinite gain, v(in+) = v(in-) (docs/elements.md)",
+                          span, "note")
+        return cls(rd.name, nodes, rd.span, 0.0, notes=(note,))
+
+    def stamp(self, st: "Stamper", value: Any) -> None:
+        k = st.branch(self.name)
+        st.add_node_row("G", self.nodes[0], k, 1.0)  # the output current, as an E card's
+        st.add_node_row("G", self.nodes[1], k, -1.0)
+        st.add_node_col("G", k, self.nodes[2], 1.0)  # its row: v(in+) − v(in−) = 0
+        st.add_node_col("G", k, self.nodes[3], -1.0)
 
 
 @dataclass(frozen=True, slots=True)
