@@ -71,6 +71,9 @@ FUNCTIONS: dict[str, tuple[int, int, Callable[..., float]]] = {
     "log10": (1, 1, math.log10), "sin": (1, 1, math.sin), "cos": (1, 1, math.cos),
     "tan": (1, 1, math.tan), "atan": (1, 1, math.atan), "abs": (1, 1, abs),
     "min": (1, 64, lambda *a: min(a)), "max": (1, 64, lambda *a: max(a)),
+    "pow": (2, 2, math.pow), "atan2": (2, 2, math.atan2), "asin": (1, 1, math.asin),
+    "acos": (1, 1, math.acos), "sinh": (1, 1, math.sinh), "cosh": (1, 1, math.cosh),
+    "tanh": (1, 1, math.tanh),
 }
 CONSTANTS: dict[str, float] = {"pi": math.pi}
 #: the longest expression read, in characters (its parse tree grows with its length)

@@ -237,3 +237,15 @@ def test_random_parenthesised_arithmetic(tree):
             value(text)
     else:
         assert value(text) == expected
+
+
+@pytest.mark.parametrize("text, expected", [
+    # references: Python's math module (an independent implementation of each function)
+    ("pow(10, 6/20)", math.pow(10, 0.3)), ("atan2(1, -1)", math.atan2(1, -1)),
+    ("asin(0.5)", math.asin(0.5)), ("acos(0.5)", math.acos(0.5)),
+    ("sinh(1)", math.sinh(1)), ("cosh(1)", math.cosh(1)), ("tanh(0.5)", math.tanh(0.5)),
+    # a level in dB to a ratio, the form a filter library writes (common practice)
+    ("1k/(pow(10, 3/20) - 1)", 1e3 / (10 ** 0.15 - 1)),
+])
+def test_more_functions(text, expected):
+    assert value(text) == pytest.approx(expected, rel=1e-15)
