@@ -53,7 +53,8 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
 
     Three structural causes are named: a group of nodes with no path to ground
     (floating), a loop made only of voltage-defined elements (V, E, H), and a
-    group of nodes joined to the rest only by current sources (I, G, F).
+    group of nodes joined to the rest only by current sources (I, G, F), unless one of
+    them senses a voltage across that cut (:func:`_sensed_across`).
 
     Raises
     ------
@@ -106,8 +107,9 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
             for a, b in e.links:
                 passive.union(a, b)
     ground = passive.find(GROUND)
+    sensing = [e for e in two_terminal if e.current_defined and e.sensed]
     for root, group in _groups(passive, nodes).items():
-        if root != ground:
+        if root != ground and not _sensed_across(group, sensing):
             culprit = next(e for e in two_terminal if e.current_defined
                            and set(e.terminals) & set(group))
             raise ElaborationError(
@@ -116,6 +118,24 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
                 "through current sources (a cut-set of current sources, e.g. "
                 f"{printable(culprit.name, 80)}); "
                 "their voltage is undetermined", culprit.span, code="netlist-113")
+
+
+def _sensed_across(group: list[str], sensing: list[Element]) -> bool:
+    """True when a controlled current source crossing the cut around ``group`` senses a
+    voltage across that cut (``G1 out 0 0 out gm``: a conductance in all but name).
+
+    Its current into the group then depends on the group's own voltages, so neither the
+    group's summed KCL row nor a common shift of its voltages is a null vector of the
+    system, and the cut no longer makes it singular. Other singular systems are still
+    found by the solver (analysis-300).
+    """
+    inside = set(group)
+    for e in sensing:
+        a, b = e.terminals
+        if (a in inside) != (b in inside) and any(
+                (p in inside) != (n in inside) for p, n in e.sensed):
+            return True
+    return False
 
 
 def lint_nodes(node_spans: dict[str, list[Span]]) -> list[Diagnostic]:

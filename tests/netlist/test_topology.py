@@ -96,3 +96,25 @@ class TestAcceptedCircuitsAreRegular:
         resp = read_netlist(text).ac("V1" if "V1" in text else "I1", "a",
                                      freqs=np.array([1e2, 1e4, 1e6]))
         assert np.all(np.isfinite(resp.transfer))
+
+
+class TestSensedCutSet:
+    """A group joined to the rest only by current sources is regular when a controlled
+    source senses a voltage across the cut (the group's voltage then enters a current)."""
+
+    def test_self_sensing_g_card_is_a_conductance(self):
+        # G1 drives 1 mA/V·v(in) into a; R1 takes it to b; G2 reads v(b) and sinks
+        # 1 mS·v(b). Independent calculation by hand: v(b) = 1m·v(in)/1m = v(in),
+        # v(a) = v(b) + 1k·1m·v(in) = 2·v(in).
+        text = "t\nV1 in 0 AC 1\nR0 in 0 1k\nG1 0 a in 0 1m\nR1 a b 1k\nG2 b 0 b 0 1m\n"
+        f = np.array([1e2, 1e4])
+        circuit = read_netlist(text)
+        np.testing.assert_allclose(circuit.ac("V1", "b", freqs=f).transfer, 1.0, rtol=1e-12)
+        np.testing.assert_allclose(circuit.ac("V1", "a", freqs=f).transfer, 2.0, rtol=1e-12)
+
+    def test_sensing_inside_the_group_only_is_still_refused(self):
+        # G2 reads a voltage with both nodes inside the group: shifting the group's
+        # voltages changes nothing, so the system is singular and the check says so
+        err = refused("t\nV1 in 0 AC 1\nR0 in 0 1k\nG1 0 a in 0 1m\nR1 a b 1k\n"
+                      "G2 b 0 a b 1m\n")
+        assert err.code == "netlist-113"

@@ -69,6 +69,12 @@ class Element:
         """The node pairs the element joins, for connectivity (its terminals)."""
         return (self.terminals,)
 
+    @property
+    def sensed(self) -> tuple[tuple[str, str], ...]:
+        """Node pairs whose voltage difference the element's equations read besides its
+        own terminals (the controlling input of E and G)."""
+        return ()
+
     def controls(self) -> tuple[str, ...]:
         """Names of other elements this one refers to (controlling sources, inductors)."""
         return ()

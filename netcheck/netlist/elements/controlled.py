@@ -28,6 +28,10 @@ class _Controlled(Element):
     def controls(self) -> tuple[str, ...]:
         return (self.control,) if self.control else ()
 
+    @property
+    def sensed(self) -> tuple[tuple[str, str], ...]:
+        return ((self.nodes[2], self.nodes[3]),) if len(self.nodes) == 4 else ()
+
 
 @dataclass(frozen=True, slots=True)
 class VCVS(_Controlled):
