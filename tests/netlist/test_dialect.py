@@ -327,8 +327,8 @@ class TestRefused:
         ("B1 out 0 V=V(in)*2", "behavioural source", 1),
         ("E1 out 0 in 0 laplace=1/(1+s)", "LAPLACE", 15),
         ("E2 out 0 poly(1) in 0 0 1", "POLY", 10),
-        ("C1 out 0 #C1#  $ #CSMD_50p80p#", "placeholder", 10),
-        ("L1 out 0 <Le_T>", "placeholder", 10),
+        ("C1 out 0 #CTUNE#  $ #trim 2p..9p#", "placeholder", 10),
+        ("L1 out 0 <L_woofer>", "placeholder", 10),
     ])
     def test_constructs_are_refused_by_name_at_their_place(self, card, what, col):
         with pytest.raises(NetlistSyntaxError, match=what) as info:
