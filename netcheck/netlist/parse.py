@@ -15,6 +15,7 @@ from lark.exceptions import LarkError, UnexpectedCharacters, UnexpectedInput
 from .dialect import Prepared, prepare
 from .grammars import parser
 from .refusals import title_warning
+from .scan import scan_statements
 from ..exceptions import Diagnostic, ElaborationError, NetlistSyntaxError
 from .source import SourceFile, Span, printable, quoted
 from .syntax import (AcCard, Assign, Card, Directive, Field, FuncDef, Item, Netlist, Scope,
@@ -105,9 +106,8 @@ def parse_statements(source: SourceFile, has_title: bool = True) -> tuple[str, t
 
 @contextmanager
 def _paused_gc():
-    """The cyclic garbage collector off while a parse builds its many small objects, so
-    it does not scan them again and again (a third less time for a large netlist; any
-    cycles are collected once it is back on)."""
+    """The cyclic garbage collector off while a parse builds its many small objects (a
+    third less time for a large netlist; any cycles are collected once it is back on)."""
     enabled = gc.isenabled()
     gc.disable()
     try:
@@ -143,8 +143,9 @@ def _parse_text(source: SourceFile, has_title: bool, allowed: int, section: str 
         title = bounded_title(_TITLE_COMMENT.sub("", title))
     prepared = prepare(source, text, section, allowed)
     prepared.diags[:0] = notes
-    text = prepared.text
-    used = prepared.tokens
+    text, used = prepared.text, prepared.tokens
+    if scanned := scan_statements(source, text, used, allowed, prepared.statements):
+        return title, *scanned, prepared  # plain cards, read without the grammar (scan.py)
     try:
         run = parser("netlist.lark").parse_interactive(text)
         for tok in run.iter_parse():
