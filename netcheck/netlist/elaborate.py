@@ -17,7 +17,7 @@ from .elements import ELEMENTS, Element, Inductor, VoltageSource
 from .refusals import REFUSED_CODE, device_advice
 from .params import Env
 from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef, _arrows,
-                    check_size)
+                    _paused_gc, check_size)
 from .reader import CardReader, card_label
 from .source import Span, printable, quoted
 from .topology import check_topology, lint_nodes
@@ -110,7 +110,8 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     flat = _Flat(diags=list(netlist.diagnostics),
                  models=frozenset(n.lower() for n in part_models),
                  globals=frozenset(netlist.globals))
-    _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative)
+    with _paused_gc():  # flattening makes many small objects, as parsing does
+        _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative)
     elements = tuple(flat.elements)
     _check_references(elements)
     nodes = tuple(dict.fromkeys(n for e in elements for n in e.nodes if n != GROUND))
