@@ -16,7 +16,7 @@ import numpy as np
 from .netlist.elaborate import GROUND
 from .netlist.elaborate import Circuit as _Circuit
 from .netlist.elaborate import elaborate as _elaborate
-from .netlist.parse import Netlist, load_netlist
+from .netlist.parse import Netlist, _paused_gc, load_netlist
 
 if TYPE_CHECKING:  # pragma: no cover
     from .mna.solve import Response
@@ -82,4 +82,5 @@ def read_netlist(path_or_text: str, root: str | None = None, allow_negative: boo
     >>> [e.name for e in ckt.elements], ckt.nodes
     (['V1', 'R1', 'L1', 'C1'], ('in', 'a', 'b'))
     """
-    return elaborate(load_netlist(path_or_text, root), allow_negative, overrides)
+    with _paused_gc():  # one collection after reading and flattening, not one after each
+        return elaborate(load_netlist(path_or_text, root), allow_negative, overrides)

@@ -18,7 +18,7 @@ from .models import ModelCard, read_model
 from .refusals import REFUSED_CODE, device_advice
 from .params import Env
 from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef, _arrows,
-                    check_size)
+                    _paused_gc, check_size)
 from .reader import CardReader, card_label
 from .source import Span, printable, quoted
 from .topology import check_topology, lint_nodes, tie_isolated_ports
@@ -111,7 +111,8 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     flat = _Flat(diags=list(netlist.diagnostics),
                  models=frozenset(n.lower() for n in part_models),
                  globals=frozenset(netlist.globals))
-    _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative, {})
+    with _paused_gc():  # flattening makes many small objects, as parsing does
+        _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative, {})
     _one_note_for_initial_conditions(flat.diags)
     flat.diags.extend(tie_isolated_ports(flat.elements))
     elements = tuple(flat.elements)

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import functools
 import math
+import re
 from dataclasses import dataclass
 from typing import Callable
 
@@ -162,6 +164,68 @@ def parse_expression(text: str, source: SourceFile, line: int, column: int,
         raise NetlistSyntaxError(f"expression is {len(text):,} characters long, over the "
                                  f"budget of {EXPR_MAX:,}; split it with .param",
                                  source.span(line, column), code="netlist-101")
+    if "\n" in text:  # a value never spans lines today; keep the general path for it
+        return _parse_at(text, source, line, column, user)
+    quantity = _QUANTITY.match(text)
+    if quantity is not None and quantity.end() == len(text):
+        # a plain number (what most cards hold): the token the grammar would read alone
+        span = Span(source, line, column, line, column + len(text))
+        try:
+            return Num(parse_quantity(text), span)
+        except UnitError as err:
+            raise NetlistSyntaxError(str(err), span, code="netlist-101") from None
+    if _NAME.fullmatch(text):
+        return Name(text.lower(), Span(source, line, column, line, column + len(text)))
+    try:
+        template = _template(text, user)
+    except (NetlistSyntaxError, RecursionError):
+        template = None
+    if template is None:  # an error: raised where it is, with its position in the file
+        return _parse_at(text, source, line, column, user)
+    try:
+        return _relocate(template, source, line, column - 1)
+    except RecursionError:
+        return _parse_at(text, source, line, column, user)
+
+
+#: the expression grammar's QUANTITY and NAME terminals (grammar/expr.lark)
+_QUANTITY = re.compile(r"(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?[A-Za-zµμ]*\d*[A-Za-z]*")
+_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
+#: a source file for the position-free parses kept by :func:`_template`
+_NOWHERE = SourceFile("<expression>", "")
+
+
+@functools.lru_cache(maxsize=4096)
+def _template(text: str, user: frozenset[str]) -> Expr:
+    """``text`` parsed once as if at line 1, column 1 (cached by text: a netlist repeats
+    the same expressions on many cards); :func:`_relocate` places a copy in the file."""
+    return _parse_at(text, _NOWHERE, 1, 1, user)
+
+
+def _relocate(expr: Expr, source: SourceFile, line: int, shift: int) -> Expr:
+    """A copy of a one-line :func:`_template` expression at ``line``, its columns shifted
+    by ``shift`` (the ASTs are frozen; only their spans differ)."""
+    sp = expr.span
+    span = Span(source, line, sp.column + shift, line, sp.end_column + shift)
+    match expr:
+        case Num():
+            return Num(expr.value, span)
+        case Name():
+            return Name(expr.name, span)
+        case Neg():
+            return Neg(_relocate(expr.operand, source, line, shift), span)
+        case BinOp():
+            return BinOp(expr.op, _relocate(expr.left, source, line, shift),
+                         _relocate(expr.right, source, line, shift), span)
+        case Call():
+            return Call(expr.func, tuple(_relocate(a, source, line, shift) for a in expr.args),
+                        span, expr.user)
+    raise TypeError(f"not an expression: {expr!r}")  # pragma: no cover - programming error
+
+
+def _parse_at(text: str, source: SourceFile, line: int, column: int,
+              user: frozenset[str]) -> Expr:
+    """Parse ``text`` with the expression grammar, positions relative to ``line``:``column``."""
     try:
         tree = parser("expr.lark").parse(text)
     except UnexpectedInput as err:

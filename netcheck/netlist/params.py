@@ -26,10 +26,15 @@ class Env:
         self.parsed: dict[int, tuple[Field, object]] = parent.parsed if parent else {}
         #: ``.func`` user functions defined in this scope, by lower-case name
         self.funcs: dict[str, FuncDef] = {}
+        #: values of the expression texts evaluated here, by text: many cards write the same
+        #: expression (a value that evaluated once evaluates the same again, every parameter
+        #: it uses being memoised); emptied whenever a definition here changes
+        self.by_text: dict[str, float] = {}
 
     def define_func(self, fd: FuncDef) -> None:
         """Define a ``.func`` user function in this scope."""
         self.funcs[fd.name] = fd
+        self.by_text.clear()
 
     def func_names(self) -> frozenset[str]:
         """The user functions visible here (this scope and the enclosing ones)."""
@@ -61,6 +66,7 @@ class Env:
         """Bind ``key`` to a number (a variant's override of a ``.param``)."""
         self.exprs[key.lower()] = (None, self)  # type: ignore[assignment]
         self.values[key.lower()] = float(value)
+        self.by_text.clear()
 
     def define(self, assign: Assign, where: "Env | None" = None) -> None:
         """Bind ``key`` to ``value`` (evaluated lazily in ``where``, default self)."""
@@ -70,6 +76,7 @@ class Env:
                                    assign.key.span, code="netlist-101")
         self.exprs[key] = (assign.value, where or self)
         self.values.pop(key, None)
+        self.by_text.clear()
 
     def lookup(self, ref: Name) -> float:
         """Value of ``ref`` in this scope or an enclosing one."""
@@ -100,8 +107,17 @@ class Env:
 
     def value_of(self, fld: Field) -> float:
         """Evaluate a value field (a quantity, a parameter name or an ``{expression}``)."""
-        if fld.kind == "string" and not fld.expr_text.strip():
+        text = fld.expr_text
+        if fld.kind == "string" and not text.strip():
             raise ElaborationError("empty value", fld.span, code="netlist-101")
+        value = self.by_text.get(text)
+        if value is not None:
+            return value
+        value = self._evaluate(fld)
+        self.by_text[text] = value
+        return value
+
+    def _evaluate(self, fld: Field) -> float:
         got = self.parsed.get(id(fld))
         if got is not None and got[0] is fld:
             expr = got[1]

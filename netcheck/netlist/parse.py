@@ -16,6 +16,7 @@ from .dialect import Prepared, prepare
 from .grammars import parser
 from .refusals import title_warning
 from .models import blank_model_brackets
+from .scan import scan_statements
 from ..exceptions import Diagnostic, ElaborationError, NetlistSyntaxError
 from .source import SourceFile, Span, printable, quoted
 from .syntax import (AcCard, Assign, Card, Directive, Field, FuncDef, Item, Netlist, Scope,
@@ -106,9 +107,8 @@ def parse_statements(source: SourceFile, has_title: bool = True) -> tuple[str, t
 
 @contextmanager
 def _paused_gc():
-    """The cyclic garbage collector off while a parse builds its many small objects, so
-    it does not scan them again and again (a third less time for a large netlist; any
-    cycles are collected once it is back on)."""
+    """The cyclic garbage collector off while a parse builds its many small objects (a
+    third less time for a large netlist; any cycles are collected once it is back on)."""
     enabled = gc.isenabled()
     gc.disable()
     try:
@@ -138,14 +138,14 @@ def _parse_text(source: SourceFile, has_title: bool, allowed: int, section: str 
     if has_title:
         title, nl, rest = text.partition("\n")
         text = nl + rest  # keep the newline so line numbers stay true
-        warn = title_warning(source, title)
-        if warn is not None:
+        if (warn := title_warning(source, title)) is not None:
             notes.append(warn)
         title = bounded_title(_TITLE_COMMENT.sub("", title))
     prepared = prepare(source, text, section, allowed)
     prepared.diags[:0] = notes
-    text = prepared.text
-    used = prepared.tokens
+    text, used = prepared.text, prepared.tokens
+    if scanned := scan_statements(source, text, used, allowed, prepared.statements):
+        return title, *scanned, prepared  # plain cards, read without the grammar (scan.py)
     try:
         run = parser("netlist.lark").parse_interactive(text)
         for tok in run.iter_parse():

@@ -49,6 +49,19 @@ class TestSubcircuits:
             "X3.R1", "V1"]
         assert set(ckt.nodes) == {"in", "x1.x2.mid", "x3.x2.mid"}
 
+    def test_same_expression_text_in_different_scopes(self):
+        # one text, {w*2}, read in three scopes: each value is its own scope's, and the
+        # error is placed at the card where it is written (column counted in the text)
+        text = ("repeated expressions\n.subckt s a b params: w=5\nR1 a b {w*2}\n.ends s\n"
+                "X1 in 0 s w=7\nX2 in 0 s\nV1 in 0 AC 1\nR9 in 0  {w*2}\n")
+        with pytest.raises(ElaborationError, match="undefined parameter 'w'") as info:
+            read_netlist(text)
+        span = info.value.span
+        assert (span.line, span.column, span.end_column) == (8, 11, 12)
+        ckt = read_netlist(text + ".param w=1.5\n")  # now w is defined at the top too
+        assert {e.name: e.value for e in ckt.elements if e.letter == "R"} == {
+            "X1.R1": 14.0, "X2.R1": 10.0, "R9": 3.0}
+
     def test_element_lookup_is_case_insensitive(self):
         ckt = read_netlist(NESTED)
         assert ckt.element("x1.x2.c3") is ckt.element("X1.X2.C3")
