@@ -132,7 +132,11 @@ class PoleZeroEngine:
         w = (_TWO_PI / self.w_scale) * f
         h, dlog, est = self._evaluate_w(w, derivative)
         est[~np.isfinite(h) | ~np.isfinite(est)] = np.inf
-        dh = h * dlog * (1j * _TWO_PI / self.w_scale) if derivative else None
+        if not derivative:
+            return h, None, est
+        with np.errstate(invalid="ignore"):  # 0·∞ exactly on a zero: H' = 0·(1/0)
+            dh = h * dlog * (1j * _TWO_PI / self.w_scale)
+        est[~np.isfinite(dh)] = np.inf  # such a point is solved directly instead
         return h, dh, est
 
     def transfer(self, f: np.ndarray, derivative: bool = True
