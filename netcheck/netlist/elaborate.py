@@ -59,6 +59,8 @@ class _Flat:
     log: list[tuple[str, Span]] | None = None
     #: templates of expanded instances, by (definition, enclosing scope, parameter values)
     copies: dict[tuple, "_Template"] = field(default_factory=dict)
+    #: by id of a subcircuit definition: True if its body is only R, L and C cards
+    rlc: dict[int, bool] = field(default_factory=dict)
 
 
 def subckt_names(netlist: Netlist) -> tuple[str, ...]:
@@ -310,7 +312,10 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
     child = _child_env(sub, env, full, assigns)
     if key not in flat.models or flat.depth:
         shape = None
-        if not flat.depth and all(c.letter in "RCL" for c in sub.body.cards):
+        rlc = flat.rlc.get(id(sub))
+        if rlc is None:
+            rlc = flat.rlc[id(sub)] = all(c.letter in "RCL" for c in sub.body.cards)
+        if rlc and not flat.depth:
             shape = _shape(sub, env, child)
             if shape is None:  # a parameter did not evaluate: start afresh, card by card
                 child = _child_env(sub, env, full, assigns)
