@@ -269,4 +269,5 @@ def test_three_fields_naming_a_model_are_not_a_value():
     for card in ("R1 a 0 rmet 5", "R1 a 0 5 rmet"):
         ckt = read_netlist(f"t\n.model rmet R(R=2)\n{card}\nV1 a 0 AC 1\n")
         assert (ckt.element("R1").value, ckt.element("R1").model) == (10.0, "rmet")
-    assert read_netlist("t\n.model rmet R(R=2)\nR1 a 0 5\nV1 a 0 AC 1\n").element("R1").model == ""
+    plain = read_netlist("t\n.model rmet R(R=2)\nR1 a 0 5\nV1 a 0 AC 1\n").element("R1")
+    assert (plain.value, plain.model) == (5.0, "")
