@@ -13,7 +13,7 @@ from typing import Callable, Collection
 
 from ..exceptions import CODES, Diagnostic, ElaborationError
 from .circuit import GROUND, Circuit, PartModel
-from .elements import ELEMENTS, Element, Inductor, VoltageSource
+from .elements import ELEMENTS, Capacitor, Element, Inductor, Resistor, VoltageSource
 from .models import ModelCard, read_model
 from .refusals import REFUSED_CODE, device_advice
 from .params import Env
@@ -54,6 +54,13 @@ class _Flat:
     depth: int = 0
     #: node names declared ``.global`` (lower case): the same node at every level
     globals: frozenset[str] = frozenset()
+    #: while an instance is expanded to serve as a template: every (node, span) that
+    #: node_of gives, in order (else None)
+    log: list[tuple[str, Span]] | None = None
+    #: templates of expanded instances, by (definition, enclosing scope, parameter values)
+    copies: dict[tuple, "_Template"] = field(default_factory=dict)
+    #: by id of a subcircuit definition: True if its body is only R, L and C cards
+    rlc: dict[int, bool] = field(default_factory=dict)
 
 
 def subckt_names(netlist: Netlist) -> tuple[str, ...]:
@@ -232,6 +239,8 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
         else:
             name = prefix.lower() + low
         flat.node_spans.setdefault(name, []).append(fld.span)
+        if flat.log is not None:
+            flat.log.append((name, fld.span))
         return name
 
     def ref_of(text: str) -> str:
@@ -300,24 +309,32 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
     child_map: dict[str, str] = {}
     for port, fld in zip(sub.ports, node_fields):
         child_map[port.text.lower()] = node_of(fld)
-    child = Env(env, full)
-    for assign in sub.params:
-        child.define(assign)
-    for assign in sub.body.params:
-        child.define(assign)
-    for fd in sub.body.funcs:
-        child.define_func(fd)
-    declared = {a.key.text.lower() for a in sub.params}
-    for assign in assigns:
-        if assign.key.text.lower() not in declared and declared:
-            raise ElaborationError(f"subcircuit {printable(sub.name.text)} has no parameter "
-                                   f"{quoted(assign.key.text)} (it has "
-                                   f"{_list(sorted(declared))})",
-                                   assign.key.span, code="netlist-102")
-        child.define(assign, where=env)
+    child = _child_env(sub, env, full, assigns)
     if key not in flat.models or flat.depth:
-        _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
-                     allow_negative, models)
+        shape = None
+        rlc = flat.rlc.get(id(sub))
+        if rlc is None:
+            rlc = flat.rlc[id(sub)] = all(c.letter in "RCL" for c in sub.body.cards)
+        if rlc and not flat.depth:
+            shape = _shape(sub, env, child)
+            if shape is None:  # a parameter did not evaluate: start afresh, card by card
+                child = _child_env(sub, env, full, assigns)
+        ports = [child_map[p.text.lower()] for p in sub.ports]
+        template = flat.copies.get(shape) if shape is not None else None
+        if template is not None and _copy(template, full, ports, flat):
+            return
+        start, said = len(flat.elements), len(flat.diags)
+        if shape is not None and _plain_ports(ports, full, flat):
+            flat.log = []
+        try:
+            _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
+                         allow_negative, models)
+            if flat.log is not None and len(flat.diags) == said:
+                made = _template(sub, full, ports, flat.elements[start:], flat)
+                if made is not None:
+                    flat.copies[shape] = made
+        finally:
+            flat.log = None
         return
     # a part model: each port gets a stand-in node of its own while the body expands,
     # so every element node reached through a port is known by port, then the stand-ins
@@ -350,6 +367,118 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
             flat.node_spans.setdefault(outside[i], []).extend(spans)
     flat.found.append(PartModel(full, sub.name.text, tuple(p.text for p in sub.ports),
                                 tuple(outside), tuple(through), card.name.span))
+
+
+def _child_env(sub: SubcktDef, env: Env, full: str, assigns: list[Assign]) -> Env:
+    """The parameter scope of one instance of ``sub``: its defaults, its body's ``.param``
+    and ``.func``, and the instance's own assignments (evaluated in ``env``)."""
+    child = Env(env, full)
+    for assign in sub.params:
+        child.define(assign)
+    for assign in sub.body.params:
+        child.define(assign)
+    for fd in sub.body.funcs:
+        child.define_func(fd)
+    declared = {a.key.text.lower() for a in sub.params}
+    for assign in assigns:
+        if assign.key.text.lower() not in declared and declared:
+            raise ElaborationError(f"subcircuit {printable(sub.name.text)} has no parameter "
+                                   f"{quoted(assign.key.text)} (it has "
+                                   f"{_list(sorted(declared))})",
+                                   assign.key.span, code="netlist-102")
+        child.define(assign, where=env)
+    return child
+
+
+# Repeated instances. Generated netlists instantiate one subcircuit thousands of times
+# with a handful of distinct parameter values. An instance whose body is only R, L and C
+# cards, whose ports reach distinct ordinary nodes and whose expansion said nothing
+# (no diagnostic) is kept as a template; a later instance of the same definition in the
+# same scope whose parameters all evaluate to the same values is made from it: the same
+# element values, names and local nodes renamed, port nodes mapped, the same node spans
+# recorded. Anything else, or any doubt, expands the instance card by card as before.
+
+_COPYABLE = (Resistor, Capacitor, Inductor)
+
+
+@dataclass(frozen=True, slots=True)
+class _Template:
+    #: the nodes an instance makes, as its ports (first) and these: nodes the same in every
+    #: instance (ground, globals), then local nodes (the text after the instance's prefix)
+    fixed: tuple[str, ...]
+    local: tuple[str, ...]
+    #: per element: its class, its card's name as written, its nodes (indices into the
+    #: instance's node table), span and the values of its other fields
+    elements: tuple[tuple[type, str, tuple[int, ...], Span, tuple], ...]
+    #: per element: the span of its card's name (duplicate-name messages point there)
+    name_spans: tuple[Span, ...]
+    #: every node_of call of the expansion, in order: (node index, span of the field)
+    log: tuple[tuple[int, Span], ...]
+
+
+def _shape(sub: SubcktDef, env: Env, child: Env) -> tuple | None:
+    """The template key of an instance: the definition, the enclosing scope and the value
+    of every parameter of the instance; None if one of them does not evaluate (the
+    instance is then expanded card by card, so any error is raised where it is today)."""
+    try:
+        values = tuple((k, repr(child._get(k, sub.span))) for k in child.exprs)
+    except Exception:  # noqa: BLE001 - the card-by-card expansion raises it properly
+        return None
+    return (id(sub), env, values)
+
+
+def _plain_ports(ports: list[str], full: str, flat: _Flat) -> bool:
+    """True if the port nodes are distinct, not ground nor global, and none of them
+    looks like one of the instance's own local nodes."""
+    low = full.lower() + "."
+    return len(set(ports)) == len(ports) and not any(
+        p == GROUND or p in flat.globals or p.startswith(low) for p in ports)
+
+
+def _template(sub: SubcktDef, full: str, ports: list[str], made: list[Element],
+              flat: _Flat) -> _Template | None:
+    """The template of the expansion that made ``made`` (None if it cannot be one)."""
+    cards = sub.body.cards
+    if len(made) != len(cards) or flat.log is None:
+        return None
+    low = full.lower() + "."
+    seen = [n for e in made for n in e.nodes] + [n for n, _ in flat.log]
+    fixed = tuple(dict.fromkeys(n for n in seen if n == GROUND or n in flat.globals))
+    local = tuple(dict.fromkeys(n[len(low):] for n in seen if n.startswith(low)))
+    index = {n: i for i, n in enumerate(ports + list(fixed) + [low + x for x in local])}
+    if len(index) != len(ports) + len(fixed) + len(local) or any(n not in index for n in seen):
+        return None
+    elements = []
+    for e, card in zip(made, cards):
+        if type(e) not in _COPYABLE or e.name != (full + "." + card.name.text).upper():
+            return None
+        rest = tuple(getattr(e, f.name) for f in dataclasses.fields(e)[3:])
+        elements.append((type(e), card.name.text, tuple(index[n] for n in e.nodes), e.span,
+                         rest))
+    return _Template(fixed, local, tuple(elements), tuple(c.name.span for c in cards),
+                     tuple((index[n], span) for n, span in flat.log))
+
+
+def _copy(template: _Template, full: str, ports: list[str], flat: _Flat) -> bool:
+    """Add an instance made from ``template``; False (nothing added) if it cannot be."""
+    if not _plain_ports(ports, full, flat):
+        return False
+    pre = full + "."
+    names = [(pre + text).upper() for _, text, _, _, _ in template.elements]
+    if any(n in flat.names for n in names):
+        return False  # the card-by-card expansion says which
+    low = pre.lower()
+    table = ports + list(template.fixed) + [low + x for x in template.local]
+    for name, span in zip(names, template.name_spans):
+        flat.names[name] = span
+    node_spans = flat.node_spans
+    for i, span in template.log:
+        node_spans.setdefault(table[i], []).append(span)
+    append = flat.elements.append
+    at = table.__getitem__
+    for name, (cls, _, codes, span, rest) in zip(names, template.elements):
+        append(cls(name, tuple(map(at, codes)), span, *rest))
+    return True
 
 
 def _check_passive(element: Element, card: Card, allow_negative: bool) -> None:

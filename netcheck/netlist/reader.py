@@ -48,6 +48,23 @@ class CardReader:
         self.items = keep
         return out
 
+    def plain(self) -> tuple[tuple[str, str], float] | None:
+        """For a card of exactly two node names and a value (no option, no model), its
+        nodes and value, read as :meth:`nodes` then :meth:`value` read them; else None
+        (nothing read). The common card, read without the general steps."""
+        items = self.items
+        if self.pos or len(items) != 3:
+            return None
+        a, b, v = items
+        if type(a) is not Field or type(b) is not Field or type(v) is not Field \
+                or a.kind != "word" or b.kind != "word":
+            return None
+        if v.kind == "word" and self._model_of is not None and \
+                self._model_of(v.text) is not None:
+            return None
+        self.pos = 3
+        return (self._node_of(a), self._node_of(b)), self.env.value_of(v)
+
     def model(self) -> object | None:
         """The ``.model`` card the next field names, taking the field, or None (the
         field is left) when it names none."""

@@ -15,16 +15,23 @@ GROUND = "0"
 
 
 class _Sets:
-    """Union-find over node names."""
+    """Union-find over node names (path halving); ``count`` is the number of sets."""
 
     def __init__(self) -> None:
         self.parent: dict[str, str] = {}
+        self.count = 0
 
     def find(self, a: str) -> str:
-        self.parent.setdefault(a, a)
-        while self.parent[a] != a:
-            self.parent[a] = self.parent[self.parent[a]]
-            a = self.parent[a]
+        parent = self.parent
+        p = parent.get(a)
+        if p is None:
+            parent[a] = a
+            self.count += 1
+            return a
+        while p != a:
+            gp = parent[p]
+            parent[a] = gp
+            a, p = gp, parent[gp]
         return a
 
     def union(self, a: str, b: str) -> bool:
@@ -33,6 +40,7 @@ class _Sets:
         if ra == rb:
             return False
         self.parent[ra] = rb
+        self.count -= 1
         return True
 
 
@@ -75,7 +83,7 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
         for a, b in e.links:
             full.union(a, b)
     ground = full.find(GROUND)
-    for root, group in _groups(full, nodes).items():
+    for root, group in (_groups(full, nodes) if full.count > 1 else {}).items():
         if root != ground:
             culprit = first_touch[group[0]]
             sense_only = all(n not in x for n in group for x in culprit.links)
@@ -98,6 +106,8 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
                     "current is undetermined", e.span,
                     code="netlist-112")
 
+    if not any(e.current_defined for e in two_terminal):
+        return  # the groups below are those above: all reach ground
     passive = _Sets()
     passive.find(GROUND)
     for n in nodes:
@@ -108,7 +118,7 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
                 passive.union(a, b)
     ground = passive.find(GROUND)
     sensing = [e for e in two_terminal if e.current_defined and e.sensed]
-    for root, group in _groups(passive, nodes).items():
+    for root, group in (_groups(passive, nodes) if passive.count > 1 else {}).items():
         if root != ground and not _sensed_across(group, sensing):
             culprit = next(e for e in two_terminal if e.current_defined
                            and set(e.terminals) & set(group))

@@ -258,3 +258,16 @@ def test_a_model_name_starting_with_m_is_not_read_as_milli():
     assert ckt.element("R1").value_at(75.0) == pytest.approx(1e3 * (1 + 50e-6 * 50))
     assert ckt.element("L1").value_at(127.0) == pytest.approx(1e-3 * (1 + 1e-3 * 100))
     assert ckt.element("C1").value_at(-23.0) == pytest.approx(1e-9 * (1 + 2e-6 * 2500))
+
+
+def test_three_fields_naming_a_model_are_not_a_value():
+    # 'R1 a 0 rmet': the third field names a .model, so the value is missing (the error
+    # points just past the card); with a value the model's R= multiplier applies (2 × 5 Ω)
+    with pytest.raises(NetcheckError, match="R1: missing resistor value") as info:
+        read_netlist("t\n.model rmet R(R=2)\nR1 a 0 rmet\nV1 a 0 AC 1\n")
+    assert (info.value.span.line, info.value.span.column) == (3, 12)
+    for card in ("R1 a 0 rmet 5", "R1 a 0 5 rmet"):
+        ckt = read_netlist(f"t\n.model rmet R(R=2)\n{card}\nV1 a 0 AC 1\n")
+        assert (ckt.element("R1").value, ckt.element("R1").model) == (10.0, "rmet")
+    plain = read_netlist("t\n.model rmet R(R=2)\nR1 a 0 5\nV1 a 0 AC 1\n").element("R1")
+    assert (plain.value, plain.model) == (5.0, "")

@@ -75,6 +75,9 @@ class _TwoTerminal(Element):
 
     @classmethod
     def from_card(cls, rd: "CardReader") -> "Element":
+        plain = rd.plain()
+        if plain is not None:
+            return cls(rd.name, plain[0], rd.span, plain[1])
         nodes = rd.nodes(2)
         letter = cls.letter
         key = letter.lower()

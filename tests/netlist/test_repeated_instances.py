@@ -1,0 +1,119 @@
+"""Many instances of one subcircuit: every instance flattens to its own elements.
+
+Instances whose parameters evaluate to the same values are made from the first one's
+expansion (netlist/elaborate.py), so these checks write the expected flat circuit out by
+hand — names X<k>.<card>, local nodes x<k>.<node>, values from the parameters — and
+compare every element, its nodes, value and span, the warnings and the errors.
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from netcheck import ElaborationError, read_netlist
+
+SECTION = """.subckt sect a b params: rs=1k cs=1n
+R1 a m {rs}
+C1 m 0 {cs}
+R2 m b {rs*2}
+L1 b gsup 1u
+.ends sect
+"""
+#: the line of each card of SECTION (the netlist starts with a title and a .global line)
+LINES = {"R1": 4, "C1": 5, "R2": 6, "L1": 7}
+
+
+def _chain(params: list[str]) -> str:
+    """A title, the section, and one instance per entry of ``params`` in a chain."""
+    lines = ["repeated sections", ".global gsup"] + SECTION.splitlines()
+    for k, p in enumerate(params):
+        lines.append(f"X{k} n{k} n{k + 1} sect {p}".rstrip())
+        lines.append(f"R{k}p n{k + 1} 0 {k + 1}k")
+    lines += ["V1 n0 0 AC 1", "Vs gsup 0 0"]
+    return "\n".join(lines) + "\n"
+
+
+def _expected(k: int, rs: float, cs: float) -> list[tuple]:
+    """Instance k's elements, written from the definition (independent of netcheck)."""
+    x = f"x{k}"
+    return [(f"X{k}.R1", (f"n{k}", f"{x}.m"), rs, LINES["R1"]),
+            (f"X{k}.C1", (f"{x}.m", "0"), cs, LINES["C1"]),
+            (f"X{k}.R2", (f"{x}.m", f"n{k + 1}"), 2 * rs, LINES["R2"]),
+            (f"X{k}.L1", (f"n{k + 1}", "gsup"), 1e-6, LINES["L1"])]
+
+
+class TestRepeatedInstances:
+    def test_every_instance_its_own_names_nodes_values_and_spans(self):
+        # values repeat (instances 0, 2, 4 alike; 1 and 3 alike) and one takes the defaults
+        params = ["rs=2k cs=3n", "rs=5k", "rs=2k cs=3n", "rs=5k", "rs=2k cs=3n", ""]
+        values = [(2e3, 3e-9), (5e3, 1e-9), (2e3, 3e-9), (5e3, 1e-9), (2e3, 3e-9),
+                  (1e3, 1e-9)]
+        ckt = read_netlist(_chain(params))
+        want = []
+        for k, (rs, cs) in enumerate(values):
+            want += _expected(k, rs, cs)
+            want.append((f"R{k}P", (f"n{k + 1}", "0"), (k + 1) * 1e3, 10 + 2 * k))
+        want += [("V1", ("n0", "0"), None, 21), ("VS", ("gsup", "0"), None, 22)]
+        got = [(e.name, e.nodes, None if e.letter == "V" else e.value, e.span.line)
+               for e in ckt.elements]
+        assert [g[:2] for g in got] == [w[:2] for w in want]
+        assert [g[3] for g in got] == [w[3] for w in want]
+        for g, w in zip(got, want):
+            assert g[2] == pytest.approx(w[2], rel=1e-15) if w[2] is not None else g[2] is None
+        # the span of a copied element is the whole definition card, as for the first
+        first, copy = ckt.elements[1], ckt.elements[11]   # X0.C1 and X2.C1
+        assert (copy.name, copy.span) == ("X2.C1", first.span)
+
+    def test_same_words_different_values_in_scope(self):
+        # the same instance text in two scopes of different parameter values: each keeps
+        # its own scope's value (rs is a global .param redefined by the override)
+        text = (".param r0=1k\n" + SECTION + "X1 a b sect rs={r0}\nX2 b c sect rs={r0}\n"
+                "V1 a 0 AC 1\nR9 c 0 1k\nVs gsup 0 0\n")
+        for r0 in (1e3, 4.7e3):
+            ckt = read_netlist("t\n.global gsup\n" + text.replace("r0=1k", f"r0={r0:g}"))
+            got = {e.name: e.value for e in ckt.elements}
+            assert got["X1.R1"] == got["X2.R1"] == r0
+            assert got["X1.R2"] == got["X2.R2"] == 2 * r0
+
+    def test_one_connection_warning_for_every_instance(self):
+        # a body node reached by one card only: netlist-152 once per instance, each at
+        # the field of the body card that names it
+        text = ("dangling\n.subckt tap a b\nR1 a b 1k\nR2 b stub 1k\n.ends tap\n"
+                "X1 n0 n1 tap\nX2 n1 n2 tap\nX3 n2 n3 tap\nR9 n3 0 1k\nV1 n0 0 AC 1\n")
+        ckt = read_netlist(text)
+        warned = [(d.message, d.span.line, d.span.column) for d in ckt.diagnostics
+                  if d.code == "netlist-152"]
+        assert warned == [(f"node 'x{k}.stub' has only one connection", 4, 6)
+                          for k in (1, 2, 3)]
+
+    def test_ports_to_ground_or_shared_node(self):
+        # ports tied to ground or to one node: the nodes are those of the card, as written
+        text = ("tied\n.subckt pair a b\nR1 a m 1k\nR2 m b 2k\n.ends pair\n"
+                "X1 n1 0 pair\nX2 n1 0 pair\nX3 n1 n1 pair\nX4 n1 x4.m pair\nV1 n1 0 AC 1\n")
+        ckt = read_netlist(text)
+        got = [(e.name, e.nodes) for e in ckt.elements if e.letter == "R"]
+        assert got == [("X1.R1", ("n1", "x1.m")), ("X1.R2", ("x1.m", "0")),
+                       ("X2.R1", ("n1", "x2.m")), ("X2.R2", ("x2.m", "0")),
+                       ("X3.R1", ("n1", "x3.m")), ("X3.R2", ("x3.m", "n1")),
+                       ("X4.R1", ("n1", "x4.m")), ("X4.R2", ("x4.m", "x4.m"))]
+
+
+class TestErrorsAfterRepeats:
+    def test_parameter_error_at_the_later_instance(self):
+        text = _chain(["rs=2k", "rs=2k", "rs={nope}"])
+        with pytest.raises(ElaborationError, match="undefined parameter 'nope'") as info:
+            read_netlist(text)
+        assert info.value.span.line == 13   # X2's card
+
+    def test_value_error_at_the_definition_card(self):
+        # the third instance gives the body a zero capacitor: refused at C1's value
+        text = _chain(["cs=1n", "cs=1n", "cs=0"])
+        with pytest.raises(ElaborationError, match=r"X2\.C1 has value 0") as info:
+            read_netlist(text)
+        assert (info.value.span.line, info.value.code) == (LINES["C1"], "netlist-110")
+
+    def test_duplicate_instance_name(self):
+        text = _chain(["rs=2k", "rs=2k"]).replace("X1 n1 n2", "x0 n1 n2")
+        with pytest.raises(ElaborationError, match="duplicate element name X0") as info:
+            read_netlist(text)
+        assert info.value.span.line == 11
