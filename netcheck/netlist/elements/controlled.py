@@ -5,6 +5,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, ClassVar
 
+from ...exceptions import Diagnostic
+from ..source import printable
 from .base import Element
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -70,13 +72,11 @@ class IdealOpAmp(VCVS):
     The circuit needs negative feedback around it, or the system is singular.
     """
 
-    notes: tuple = ()
+    notes: tuple[Diagnostic, ...] = ()
 
     @classmethod
     def read(cls, rd: "CardReader") -> "IdealOpAmp":
         """An ``E out+ out- OPAMP in+ in-`` card."""
-        from ...exceptions import Diagnostic
-        from ..source import printable
         outputs = rd.nodes(2)
         span = rd.field_span()
         rd.skip()  # the OPAMP keyword

@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, ClassVar
 
+from ...exceptions import ElaborationError
 from .base import Element
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -65,7 +66,6 @@ def _series_resistance(rd: "CardReader") -> float:
     """``Rser=`` taken off a V card (netlist-110 if negative)."""
     value, span = rd.take_options(("rser",)).get("rser", (0.0, None))
     if not value >= 0:
-        from ...exceptions import ElaborationError
         raise ElaborationError(f"{rd.name}: Rser={value:g} — a series resistance must be "
                                "zero or positive", span, code="netlist-110")
     return value
