@@ -27,6 +27,11 @@ _DIRECTIVE = re.compile(r"\.[A-Za-z][A-Za-z0-9_]*")
 #: ``.end`` first on a line ends the file (the grammar's _END terminal)
 _END = re.compile(r"\.end(?![A-Za-z0-9_])", re.I)
 _KINDS = (None, "word", "braced", "string")
+#: the rest of a common line: white-space-separated words, ``{braced}`` values without white
+#: space, and ``key=value`` fields written without spaces, nothing else (no comment, quote,
+#: parenthesis): ``str.split`` gives exactly its tokens
+_WORD = r"""[^\s=;{}()"',*]+"""
+_SIMPLE = re.compile(rf"(?:[ \t]+(?:{_WORD}=)?(?:{_WORD}|\{{[^{{}}\s]*\}}))*[ \t]*")
 
 
 class _GiveUp(Exception):
@@ -96,6 +101,25 @@ def _scan(source: SourceFile, text: str, used: int) -> tuple[list[Statement], in
             used += 1
             pos = m.end()
             end = (lineno, pos + 1)
+        if _SIMPLE.fullmatch(line, pos):  # the common line: split it, no token regex
+            for tok in line[pos:].split():
+                col = line.find(tok, pos)
+                pos = col + len(tok)
+                eq = tok.find("=") if tok[0] != "{" else -1
+                if eq < 0:
+                    items.append(Field("braced" if tok[0] == "{" else "word", tok,
+                                       Span(source, lineno, col + 1, lineno, pos + 1)))
+                    used += 1
+                    continue
+                value = tok[eq + 1:]
+                items.append(Assign(
+                    Field("word", tok[:eq], Span(source, lineno, col + 1, lineno, col + eq + 1)),
+                    Field("braced" if value[0] == "{" else "word", value,
+                          Span(source, lineno, col + eq + 2, lineno, pos + 1)),
+                    Span(source, lineno, col + 1, lineno, pos + 1)))
+                used += 3
+            end = (lineno, pos + 1)
+            continue
         n = len(line)
         while pos < n:
             m = match_token(line, pos)

@@ -181,7 +181,7 @@ class SourceFile:
         return Span(self, line, column, line, end_column if end_column else column + 1)
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Span:
     """A region of a source file: 1-based line and column, end exclusive."""
 

@@ -1,4 +1,11 @@
-"""The syntax a netlist reads into: fields, cards, directives, subcircuit scopes, Netlist."""
+"""The syntax a netlist reads into: fields, cards, directives, subcircuit scopes, Netlist.
+
+:class:`Field`, :class:`Assign`, :class:`Card` and :class:`Directive` (and
+:class:`~.source.Span`) are made by the hundred thousand for a big netlist, so they are
+plain slotted classes rather than frozen ones (a frozen dataclass pays a call per field
+to be built: 2-3 times the cost). Nothing changes them after they are made; they hash and
+compare by value like the frozen ones around them.
+"""
 
 from __future__ import annotations
 
@@ -11,7 +18,7 @@ __all__ = ["Field", "Assign", "Item", "Card", "Directive", "Statement", "SubcktD
            "Netlist", "AcCard", "FuncDef"]
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Field:
     """One field of a card: ``kind`` is ``word``, ``braced`` (``{expr}``) or ``string``."""
 
@@ -30,7 +37,7 @@ class Field:
         return self.span.column + (1 if self.kind in ("braced", "string") else 0)
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Assign:
     """A ``key=value`` field."""
 
@@ -42,7 +49,7 @@ class Assign:
 Item = Field | Assign
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Card:
     """An element line: a name and its fields, continuation lines joined."""
 
@@ -56,7 +63,7 @@ class Card:
         return self.name.text[0].upper()
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Directive:
     """A dot-directive; ``name`` is lower case without the dot."""
 

@@ -27,9 +27,14 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["Element"]
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Element:
-    """Base of all elements: hierarchical name, node names, source position."""
+    """Base of all elements: hierarchical name, node names, source position.
+
+    Elements are treated as immutable (use :func:`dataclasses.replace`), but are not
+    frozen dataclasses: a big netlist makes them by the hundred thousand, and a frozen
+    dataclass pays a call per field to be built.
+    """
 
     name: str
     nodes: tuple[str, ...]

@@ -16,7 +16,7 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["VCVS", "IdealOpAmp", "VCCS", "CCCS", "CCVS"]
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class _Controlled(Element):
     gain: float = 0.0
     control: str = ""
@@ -35,7 +35,7 @@ class _Controlled(Element):
         return ((self.nodes[2], self.nodes[3]),) if len(self.nodes) == 4 else ()
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class VCVS(_Controlled):
     """``Ename n+ n- nc+ nc- gain``: v+ − v− = gain·(vc+ − vc−)."""
 
@@ -60,7 +60,7 @@ class VCVS(_Controlled):
         st.add_node_col("G", k, self.nodes[3], value)
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class IdealOpAmp(VCVS):
     """``Ename out+ out- OPAMP in+ in-``: an ideal op-amp, the limit of an E card of
     infinite gain (a nullor): v(in+) = v(in−), and the output branch carries whatever
@@ -95,7 +95,7 @@ class IdealOpAmp(VCVS):
         st.add_node_col("G", k, self.nodes[3], -1.0)
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class VCCS(_Controlled):
     """``Gname n+ n- nc+ nc- gm``: current gm·(vc+ − vc−) flows n+ → n−."""
 
@@ -116,7 +116,7 @@ class VCCS(_Controlled):
         st.transadmittance(p, n, cp, cn, value)
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class CCCS(_Controlled):
     """``Fname n+ n- Vctl gain``: current gain·i(Vctl) flows n+ → n−."""
 
@@ -137,7 +137,7 @@ class CCCS(_Controlled):
         st.add_node_row("G", self.nodes[1], k, -value)
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class CCVS(_Controlled):
     """``Hname n+ n- Vctl r``: v+ − v− = r·i(Vctl)."""
 

@@ -19,7 +19,7 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["Coupling"]
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Coupling(Element):
     """``Kname L1 L2 [L3 ...] k``: mutual inductance M = k·√(Li·Lj) between every pair,
     |k| ≤ 1 (Li the inductance each card stamps, m= counted)."""

@@ -42,7 +42,7 @@ _LABELS = {"m": "m", "rser": "Rser", "rpar": "Rpar", "cpar": "Cpar", "tc1": "TC1
            "tc2": "TC2", "r": "R", "c": "C", "l": "L"}
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class _TwoTerminal(Element):
     magnitude: float = 0.0
     #: parallel copies
@@ -127,7 +127,7 @@ def _check_option(part: str, name: str, v: float, span: Span) -> None:
                                span, code="netlist-110")
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class _WithParasitics(_TwoTerminal):
     OPTIONS: ClassVar[tuple[str, ...]] = ("m", "rser", "rpar", "cpar", "tc1", "tc2")
 
@@ -139,7 +139,7 @@ class _WithParasitics(_TwoTerminal):
             st.admittance("C", a, b, self.cpar * self.m)
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Resistor(_TwoTerminal):
     """``Rname n+ n- value [model] [m=] [TC1=] [TC2=]``: conductance m/R between the
     nodes; R = 0 is a wire (a 0 V branch)."""
@@ -164,7 +164,7 @@ class Resistor(_TwoTerminal):
         st.admittance("G", self.nodes[0], self.nodes[1], self.m / value)
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Capacitor(_WithParasitics):
     """``Cname n+ n- value [model] [m=] [Rser=] [Rpar=] [Cpar=] [TC1=] [TC2=] [IC=]``:
     admittance sC·m between the nodes; with Rser a branch whose current i obeys
@@ -195,7 +195,7 @@ class Capacitor(_WithParasitics):
         st.add("G", k, k, -1.0)
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class Inductor(_WithParasitics):
     """``Lname n+ n- value [model] [m=] [Rser=] [Rpar=] [Cpar=] [TC1=] [TC2=] [IC=]``:
     branch current i with v+ − v− − (sL/m + Rser/m)·i = 0."""

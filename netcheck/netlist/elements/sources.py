@@ -15,7 +15,7 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["VoltageSource", "CurrentSource"]
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class _Independent(Element):
     dc: float = 0.0
     ac_magnitude: float = 0.0
@@ -71,7 +71,7 @@ def _series_resistance(rd: "CardReader") -> float:
     return value
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class VoltageSource(_Independent):
     """``Vname n+ n- [DC v] [AC mag [phase]] [Rser=r]``: a voltage source (branch current),
     ideal or with a series resistance: v+ − v− − Rser·i = value.
@@ -100,7 +100,7 @@ class VoltageSource(_Independent):
         st.rhs_branch(self.name, 1.0)
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class CurrentSource(_Independent):
     """``Iname n+ n- [DC i] [AC mag [phase]]``: current flows n+ → source → n−."""
 

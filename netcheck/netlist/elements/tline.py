@@ -46,7 +46,7 @@ __all__ = ["TransmissionLine"]
 NL_DEFAULT = 0.25
 
 
-@dataclass(frozen=True, slots=True)
+@dataclass(slots=True, unsafe_hash=True)
 class TransmissionLine(Element):
     """``Tname n1 n2 n3 n4 Z0= TD=`` (or ``F= [NL=]``): a lossless line, Z0 in Ω, delay s."""
 
