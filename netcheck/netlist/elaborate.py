@@ -8,19 +8,21 @@ use is :mod:`netcheck.netlist.reader`, the Circuit and PartModel types are
 from __future__ import annotations
 
 import dataclasses
-from dataclasses import dataclass, field
 from typing import Callable, Collection
 
 from ..exceptions import CODES, Diagnostic, ElaborationError
 from .circuit import GROUND, Circuit, PartModel
-from .elements import ELEMENTS, Capacitor, Element, Inductor, Resistor, VoltageSource
+from .elements import ELEMENTS, Element, Inductor, VoltageSource
 from .models import ModelCard, read_model
 from .refusals import REFUSED_CODE, device_advice
 from .params import Env
 from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef, _arrows,
-                    _paused_gc, check_size)
+                    _paused_gc)
+from .sizing import check_size
+from .flat import (COPYABLE, Flat, copy_by_words, copy_template, make_template, plain_ports,
+                   plain_rlc, remember_words, instance_shape, where_span, Where)
 from .reader import CardReader, card_label
-from .source import Span, printable, quoted
+from .source import printable, quoted
 from .topology import check_topology, lint_nodes, tie_isolated_ports
 
 __all__ = ["Circuit", "PartModel", "elaborate", "CardReader", "GROUND",
@@ -38,29 +40,6 @@ DIAGNOSTICS_PER_CODE = 10
 VALUE_MAX = 1e200
 #: smallest magnitude of a non-zero stamped value (see :data:`VALUE_MAX`)
 VALUE_MIN = 1e-200
-
-
-@dataclass
-class _Flat:
-    elements: list[Element] = field(default_factory=list)
-    names: dict[str, Span] = field(default_factory=dict)
-    node_spans: dict[str, list[Span]] = field(default_factory=dict)
-    diags: list[Diagnostic] = field(default_factory=list)
-    #: lower-case names of the subcircuits whose instances are part models
-    models: frozenset[str] = frozenset()
-    #: the part models found, in the order they were expanded
-    found: list[PartModel] = field(default_factory=list)
-    #: how many part-model instances the expansion is inside (the outermost one counts)
-    depth: int = 0
-    #: node names declared ``.global`` (lower case): the same node at every level
-    globals: frozenset[str] = frozenset()
-    #: while an instance is expanded to serve as a template: every (node, span) that
-    #: node_of gives, in order (else None)
-    log: list[tuple[str, Span]] | None = None
-    #: templates of expanded instances, by (definition, enclosing scope, parameter values)
-    copies: dict[tuple, "_Template"] = field(default_factory=dict)
-    #: by id of a subcircuit definition: True if its body is only R, L and C cards
-    rlc: dict[int, bool] = field(default_factory=dict)
 
 
 def subckt_names(netlist: Netlist) -> tuple[str, ...]:
@@ -115,7 +94,7 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     for key, value in (overrides or {}).items():
         top_env.fix(key, value)
     check_size(netlist.top)
-    flat = _Flat(diags=list(netlist.diagnostics),
+    flat = Flat(diags=list(netlist.diagnostics),
                  models=frozenset(n.lower() for n in part_models),
                  globals=frozenset(netlist.globals))
     with _paused_gc():  # flattening makes many small objects, as parsing does
@@ -126,7 +105,8 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     _check_references(elements)
     nodes = tuple(dict.fromkeys(n for e in elements for n in e.nodes if n != GROUND))
     check_topology(elements, nodes)
-    flat.diags.extend(lint_nodes(flat.node_spans))
+    flat.diags.extend(lint_nodes({n: [where_span(w[0])] for n, w in flat.node_spans.items()
+                                  if len(w) == 1}))
     where = netlist.top.params[0].span if netlist.top.params else None
     params = tuple(sorted((k, top_env._get(k, where)) for k in top_env.exprs))
     return Circuit(netlist.title, elements, nodes, netlist.sources,
@@ -208,7 +188,7 @@ def _scope_models(scope: Scope, outer: dict[str, ModelCard]) -> dict[str, ModelC
 
 
 def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
-                 visible: dict[str, SubcktDef], stack: tuple[str, ...], flat: _Flat,
+                 visible: dict[str, SubcktDef], stack: tuple[str, ...], flat: Flat,
                  allow_negative: bool, models: dict[str, ModelCard]) -> None:
     defs = dict(visible)
     models = _scope_models(scope, models)
@@ -228,38 +208,54 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
                                        f"{quoted(port.text)} twice", port.span, code="netlist-106")
             ports[port.text.lower()] = port
 
-    def node_of(fld: Field) -> str:
-        low = fld.text.lower()
+    low_prefix = prefix.lower()
+
+    def resolve(text: str) -> str:
+        low = text.lower()
         if low in _GROUND_ALIASES:
-            name = GROUND
-        elif low in portmap:
-            name = portmap[low]
-        elif low in flat.globals:
-            name = low
-        else:
-            name = prefix.lower() + low
-        flat.node_spans.setdefault(name, []).append(fld.span)
+            return GROUND
+        if low in portmap:
+            return portmap[low]
+        if low in flat.globals:
+            return low
+        return low_prefix + low
+
+    def node_name(text: str, where: Where) -> str:
+        name = resolve(text)
+        flat.node_spans.setdefault(name, []).append(where)
         if flat.log is not None:
-            flat.log.append((name, fld.span))
+            flat.log.append((name, where))
         return name
+
+    def node_of(fld: Field) -> str:
+        return node_name(fld.text, fld.span)
 
     def ref_of(text: str) -> str:
         return (prefix + text).upper()
 
     for card in scope.cards:
-        full = (prefix + card.name.text).upper()
+        full = (prefix + card.head).upper()
         if full in flat.names:
-            first = flat.names[full]
+            first = flat.names[full].name.span
             raise ElaborationError(f"duplicate element name {printable(full)} (first defined "
                                    f"at {printable(first.path)}:{first.line})", card.name.span,
                                    code="netlist-106")
-        flat.names[full] = card.name.span
+        flat.names[full] = card
         letter = card.letter
         if letter == "X":
-            _expand_instance(card, full, prefix, env, defs, stack, flat, allow_negative,
-                             node_of, models)
+            if not copy_by_words(card, full, env, defs, flat, resolve, node_name):
+                _expand_instance(card, full, prefix, env, defs, stack, flat, allow_negative,
+                                 node_of, models)
             continue
         cls = ELEMENTS.get(letter)
+        if card.words is not None and cls in COPYABLE:
+            element = plain_rlc(card, cls, full, env, node_name, models)
+            if element is not None:
+                _check_passive(element, card, allow_negative)
+                _check_range(element, card)
+                flat.elements.append(element)
+                _lint_value(element, card, flat)
+                continue
         if cls is None:
             advice = device_advice(letter, card.name.text)
             if advice is not None:
@@ -283,7 +279,7 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
 
 
 def _expand_instance(card: Card, full: str, prefix: str, env: Env,
-                     defs: dict[str, SubcktDef], stack: tuple[str, ...], flat: _Flat,
+                     defs: dict[str, SubcktDef], stack: tuple[str, ...], flat: Flat,
                      allow_negative: bool, node_of: Callable[[Field], str],
                      models: dict[str, ModelCard]) -> None:
     words = [f for f in card.fields if isinstance(f, Field)]
@@ -316,23 +312,25 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
         if rlc is None:
             rlc = flat.rlc[id(sub)] = all(c.letter in "RCL" for c in sub.body.cards)
         if rlc and not flat.depth:
-            shape = _shape(sub, env, child)
+            shape = instance_shape(sub, env, child)
             if shape is None:  # a parameter did not evaluate: start afresh, card by card
                 child = _child_env(sub, env, full, assigns)
         ports = [child_map[p.text.lower()] for p in sub.ports]
         template = flat.copies.get(shape) if shape is not None else None
-        if template is not None and _copy(template, full, ports, flat):
+        if template is not None and copy_template(template, full, ports, flat):
+            remember_words(card, sub, env, template, flat)
             return
         start, said = len(flat.elements), len(flat.diags)
-        if shape is not None and _plain_ports(ports, full, flat):
+        if shape is not None and plain_ports(ports, full, flat):
             flat.log = []
         try:
             _instantiate(sub.body, full + ".", child_map, child, defs, stack + (key,), flat,
                          allow_negative, models)
             if flat.log is not None and len(flat.diags) == said:
-                made = _template(sub, full, ports, flat.elements[start:], flat)
+                made = make_template(sub, full, ports, flat.elements[start:], flat)
                 if made is not None:
                     flat.copies[shape] = made
+                    remember_words(card, sub, env, made, flat)
         finally:
             flat.log = None
         return
@@ -390,99 +388,10 @@ def _child_env(sub: SubcktDef, env: Env, full: str, assigns: list[Assign]) -> En
     return child
 
 
-# Repeated instances. Generated netlists instantiate one subcircuit thousands of times
-# with a handful of distinct parameter values. An instance whose body is only R, L and C
-# cards, whose ports reach distinct ordinary nodes and whose expansion said nothing
-# (no diagnostic) is kept as a template; a later instance of the same definition in the
-# same scope whose parameters all evaluate to the same values is made from it: the same
-# element values, names and local nodes renamed, port nodes mapped, the same node spans
-# recorded. Anything else, or any doubt, expands the instance card by card as before.
-
-_COPYABLE = (Resistor, Capacitor, Inductor)
-
-
-@dataclass(frozen=True, slots=True)
-class _Template:
-    #: the nodes an instance makes, as its ports (first) and these: nodes the same in every
-    #: instance (ground, globals), then local nodes (the text after the instance's prefix)
-    fixed: tuple[str, ...]
-    local: tuple[str, ...]
-    #: per element: its class, its card's name as written, its nodes (indices into the
-    #: instance's node table), span and the values of its other fields
-    elements: tuple[tuple[type, str, tuple[int, ...], Span, tuple], ...]
-    #: per element: the span of its card's name (duplicate-name messages point there)
-    name_spans: tuple[Span, ...]
-    #: every node_of call of the expansion, in order: (node index, span of the field)
-    log: tuple[tuple[int, Span], ...]
-
-
-def _shape(sub: SubcktDef, env: Env, child: Env) -> tuple | None:
-    """The template key of an instance: the definition, the enclosing scope and the value
-    of every parameter of the instance; None if one of them does not evaluate (the
-    instance is then expanded card by card, so any error is raised where it is today)."""
-    try:
-        values = tuple((k, repr(child._get(k, sub.span))) for k in child.exprs)
-    except Exception:  # noqa: BLE001 - the card-by-card expansion raises it properly
-        return None
-    return (id(sub), env, values)
-
-
-def _plain_ports(ports: list[str], full: str, flat: _Flat) -> bool:
-    """True if the port nodes are distinct, not ground nor global, and none of them
-    looks like one of the instance's own local nodes."""
-    low = full.lower() + "."
-    return len(set(ports)) == len(ports) and not any(
-        p == GROUND or p in flat.globals or p.startswith(low) for p in ports)
-
-
-def _template(sub: SubcktDef, full: str, ports: list[str], made: list[Element],
-              flat: _Flat) -> _Template | None:
-    """The template of the expansion that made ``made`` (None if it cannot be one)."""
-    cards = sub.body.cards
-    if len(made) != len(cards) or flat.log is None:
-        return None
-    low = full.lower() + "."
-    seen = [n for e in made for n in e.nodes] + [n for n, _ in flat.log]
-    fixed = tuple(dict.fromkeys(n for n in seen if n == GROUND or n in flat.globals))
-    local = tuple(dict.fromkeys(n[len(low):] for n in seen if n.startswith(low)))
-    index = {n: i for i, n in enumerate(ports + list(fixed) + [low + x for x in local])}
-    if len(index) != len(ports) + len(fixed) + len(local) or any(n not in index for n in seen):
-        return None
-    elements = []
-    for e, card in zip(made, cards):
-        if type(e) not in _COPYABLE or e.name != (full + "." + card.name.text).upper():
-            return None
-        rest = tuple(getattr(e, f.name) for f in dataclasses.fields(e)[3:])
-        elements.append((type(e), card.name.text, tuple(index[n] for n in e.nodes), e.span,
-                         rest))
-    return _Template(fixed, local, tuple(elements), tuple(c.name.span for c in cards),
-                     tuple((index[n], span) for n, span in flat.log))
-
-
-def _copy(template: _Template, full: str, ports: list[str], flat: _Flat) -> bool:
-    """Add an instance made from ``template``; False (nothing added) if it cannot be."""
-    if not _plain_ports(ports, full, flat):
-        return False
-    pre = full + "."
-    names = [(pre + text).upper() for _, text, _, _, _ in template.elements]
-    if any(n in flat.names for n in names):
-        return False  # the card-by-card expansion says which
-    low = pre.lower()
-    table = ports + list(template.fixed) + [low + x for x in template.local]
-    for name, span in zip(names, template.name_spans):
-        flat.names[name] = span
-    node_spans = flat.node_spans
-    for i, span in template.log:
-        node_spans.setdefault(table[i], []).append(span)
-    append = flat.elements.append
-    at = table.__getitem__
-    for name, (cls, _, codes, span, rest) in zip(names, template.elements):
-        append(cls(name, tuple(map(at, codes)), span, *rest))
-    return True
-
-
 def _check_passive(element: Element, card: Card, allow_negative: bool) -> None:
     value = element.value
+    if value > 0:
+        return
     span = card.fields[2].span if len(card.fields) > 2 else card.span
     if value == 0 and element.letter != "R":  # a 0 Ω resistor is a wire
         raise ElaborationError(f"{printable(element.name)} has value 0; a zero "
@@ -515,9 +424,14 @@ def _check_range(element: Element, card: Card) -> None:
         span, code="netlist-118")
 
 
-def _lint_value(element: Element, card: Card, flat: _Flat) -> None:
+def _lint_value(element: Element, card: Card, flat: Flat) -> None:
     """Warn about ``1M`` on a resistor or inductor (SPICE reads milli, rarely meant)."""
-    if element.letter not in ("R", "L") or len(card.fields) < 3:
+    if element.letter not in ("R", "L"):
+        return
+    if card.words is not None:
+        if len(card.words) < 3 or "M" not in card.words[2] or "=" in card.words[2]:
+            return
+    if len(card.fields) < 3:
         return
     fld = card.fields[2]
     if not isinstance(fld, Field) or fld.kind != "word":

@@ -16,7 +16,7 @@ import heapq
 import re
 
 from .source import SourceFile, Span
-from .syntax import Assign, Card, Directive, Field, Item, Statement
+from .syntax import PLAIN_REST, Assign, Card, Directive, Field, Item, Statement, plain_items
 
 __all__ = ["scan_statements"]
 
@@ -27,11 +27,6 @@ _DIRECTIVE = re.compile(r"\.[A-Za-z][A-Za-z0-9_]*")
 #: ``.end`` first on a line ends the file (the grammar's _END terminal)
 _END = re.compile(r"\.end(?![A-Za-z0-9_])", re.I)
 _KINDS = (None, "word", "braced", "string")
-#: the rest of a common line: white-space-separated words, ``{braced}`` values without white
-#: space, and ``key=value`` fields written without spaces, nothing else (no comment, quote,
-#: parenthesis): ``str.split`` gives exactly its tokens
-_WORD = r"""[^\s=;{}()"',*]+"""
-_SIMPLE = re.compile(rf"(?:[ \t]+(?:{_WORD}=)?(?:{_WORD}|\{{[^{{}}\s]*\}}))*[ \t]*")
 
 
 class _GiveUp(Exception):
@@ -51,7 +46,8 @@ def scan_statements(source: SourceFile, text: str, used: int, allowed: int,
     if used > allowed:
         return None  # the grammar stops at the exact token over the budget
     if prepared:
-        out = list(heapq.merge(out, prepared, key=lambda st: st.span.line))
+        out = list(heapq.merge(out, prepared,
+                               key=lambda st: st.line if type(st) is Card else st.span.line))
     return tuple(out), used
 
 
@@ -60,9 +56,11 @@ def _scan(source: SourceFile, text: str, used: int) -> tuple[list[Statement], in
     lines = text.split("\n")
     head: Field | None = None        # the statement being read: its head and fields
     items: list[Item] = []
+    lazy: Card | None = None         # or a card read from one plain line, kept as its words
     end = (0, 0)                     # (line, column) just after its last token
     separator = True                 # the line before was blank or a comment
     match_token = _TOKEN.match
+    plain_rest = PLAIN_REST.fullmatch
     for i, line in enumerate(lines):
         s = line.lstrip(" \t")
         if i == 1 or (i and not separator):
@@ -78,13 +76,19 @@ def _scan(source: SourceFile, text: str, used: int) -> tuple[list[Statement], in
         lineno = i + 1
         pos = len(line) - len(s)
         if s[0] == "+":
+            if lazy is not None:  # the plain card goes on: read it as fields after all
+                head, items, lazy = lazy.name, list(lazy.fields), None
             if head is None or line[pos + 1:].lstrip(" \t").startswith("="):
                 raise _GiveUp
             end = (lineno, pos + 2)
             pos += 1
         else:
-            if head is not None:
+            if lazy is not None:
+                out.append(lazy)
+                lazy = None
+            elif head is not None:
                 out.append(_statement(source, head, items, end))
+            head = None
             if s[0] == ".":
                 if _END.match(s):
                     return out, used + 1
@@ -95,30 +99,23 @@ def _scan(source: SourceFile, text: str, used: int) -> tuple[list[Statement], in
                 m = match_token(line, pos)
                 if m is None or m.lastindex != 1:
                     raise _GiveUp
+                if plain_rest(line, m.end()):  # the common card: kept as its words
+                    words = line.split()
+                    lazy = Card.from_line(source, lineno, line, pos, words)
+                    used += len(words) + 2 * line.count("=", m.end())
+                    continue
             tok = m.group()
             head = Field("word", tok, Span(source, lineno, pos + 1, lineno, pos + 1 + len(tok)))
             items = []
             used += 1
             pos = m.end()
             end = (lineno, pos + 1)
-        if _SIMPLE.fullmatch(line, pos):  # the common line: split it, no token regex
-            for tok in line[pos:].split():
-                col = line.find(tok, pos)
-                pos = col + len(tok)
-                eq = tok.find("=") if tok[0] != "{" else -1
-                if eq < 0:
-                    items.append(Field("braced" if tok[0] == "{" else "word", tok,
-                                       Span(source, lineno, col + 1, lineno, pos + 1)))
-                    used += 1
-                    continue
-                value = tok[eq + 1:]
-                items.append(Assign(
-                    Field("word", tok[:eq], Span(source, lineno, col + 1, lineno, col + eq + 1)),
-                    Field("braced" if value[0] == "{" else "word", value,
-                          Span(source, lineno, col + eq + 2, lineno, pos + 1)),
-                    Span(source, lineno, col + 1, lineno, pos + 1)))
-                used += 3
-            end = (lineno, pos + 1)
+        if plain_rest(line, pos):  # no token regex needed
+            new = plain_items(source, lineno, line, pos)
+            if new:
+                items.extend(new)
+                used += len(new) + 2 * line.count("=", pos)
+                end = (lineno, new[-1].span.end_column)
             continue
         n = len(line)
         while pos < n:
@@ -152,7 +149,9 @@ def _scan(source: SourceFile, text: str, used: int) -> tuple[list[Statement], in
                 used += 1
             pos = m.end()
             end = (lineno, pos + 1)
-    if head is not None:
+    if lazy is not None:
+        out.append(lazy)
+    elif head is not None:
         out.append(_statement(source, head, items, end))
     return out, used
 

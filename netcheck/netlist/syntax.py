@@ -9,12 +9,13 @@ compare by value like the frozen ones around them.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass, field
 
 from ..exceptions import Diagnostic
 from .source import SourceFile, Span
 
-__all__ = ["Field", "Assign", "Item", "Card", "Directive", "Statement", "SubcktDef", "Scope",
+__all__ = ["Field", "Assign", "Item", "Card", "PLAIN_REST", "plain_items", "Directive", "Statement", "SubcktDef", "Scope",
            "Netlist", "AcCard", "FuncDef"]
 
 
@@ -49,18 +50,115 @@ class Assign:
 Item = Field | Assign
 
 
-@dataclass(slots=True, unsafe_hash=True)
 class Card:
-    """An element line: a name and its fields, continuation lines joined."""
+    """An element line: a name and its fields, continuation lines joined.
 
-    name: Field
-    fields: tuple[Item, ...]
-    span: Span
+    A card the scanner read from one plain line (:meth:`from_line`) keeps that line and
+    its white-space-separated :attr:`words`, and makes its :class:`Field` objects and
+    spans only when something asks for them: a big netlist's plain cards are elaborated
+    from their words, and most of their fields are never looked at.
+    """
+
+    __slots__ = ("_name", "_fields", "_span", "_line", "head", "words")
+
+    def __init__(self, name: Field, fields: tuple[Item, ...], span: Span) -> None:
+        self._name, self._fields, self._span = name, fields, span
+        self._line: tuple[SourceFile, int, str, int] | None = None
+        #: the name as written
+        self.head: str = name.text
+        #: the fields as written, when the card is one plain line (:data:`PLAIN_REST`);
+        #: else None
+        self.words: tuple[str, ...] | None = None
+
+    @classmethod
+    def from_line(cls, source: SourceFile, lineno: int, line: str, column: int,
+                  words: list[str]) -> "Card":
+        """The card on line ``lineno`` (text ``line``, name starting at 0-based ``column``)
+        whose name and fields are ``words`` (``line.split()``); the rest of the line after
+        the name must match :data:`PLAIN_REST`."""
+        card = cls.__new__(cls)
+        card._name = card._fields = card._span = None
+        card._line = (source, lineno, line, column)
+        card.head = words[0]
+        card.words = tuple(words[1:])
+        return card
+
+    def _make(self) -> None:
+        source, lineno, line, column = self._line  # type: ignore[misc]
+        self._fields = tuple(plain_items(source, lineno, line, column + len(self.head)))
+
+    @property
+    def name(self) -> Field:
+        """The card's name (its first field)."""
+        if self._name is None:
+            source, lineno, _, column = self._line  # type: ignore[misc]
+            self._name = Field("word", self.head, Span(source, lineno, column + 1, lineno,
+                                                       column + len(self.head) + 1))
+        return self._name
+
+    @property
+    def fields(self) -> tuple[Item, ...]:
+        """The fields after the name."""
+        if self._fields is None:
+            self._make()
+        return self._fields  # type: ignore[return-value]
+
+    @property
+    def span(self) -> Span:
+        """From the start of the name to the end of the last field."""
+        if self._span is None:
+            source, lineno, line, column = self._line  # type: ignore[misc]
+            self._span = Span(source, lineno, column + 1, lineno, len(line.rstrip(" \t")) + 1)
+        return self._span
 
     @property
     def letter(self) -> str:
         """The element letter (first character of the name, upper case)."""
-        return self.name.text[0].upper()
+        return self.head[0].upper()
+
+    @property
+    def line(self) -> int:
+        """The line the card starts on."""
+        return self._line[1] if self._line is not None else self._span.line  # type: ignore[union-attr]
+
+    def __eq__(self, other: object) -> bool:
+        if not isinstance(other, Card):
+            return NotImplemented
+        return (self.name, self.fields, self.span) == (other.name, other.fields, other.span)
+
+    def __hash__(self) -> int:
+        return hash((self.name, self.fields, self.span))
+
+    def __repr__(self) -> str:
+        return f"Card(name={self.name!r}, fields={self.fields!r}, span={self.span!r})"
+
+
+#: what may follow a card's name on a plain line: white-space-separated words, ``{braced}``
+#: values without white space or ``=``, and ``key=value`` fields written without spaces;
+#: nothing else (no comment, quote or parenthesis), so ``str.split`` gives its fields
+_WORD = r"""[^\s=;{}()"',*]+"""
+PLAIN_REST = re.compile(rf"(?:[ \t]+(?:{_WORD}=)?(?:{_WORD}|\{{[^{{}}\s=]*\}}))*[ \t]*")
+
+
+def plain_items(source: SourceFile, lineno: int, line: str, pos: int) -> list[Item]:
+    """The fields of ``line`` from 0-based ``pos`` on, where ``line[pos:]`` matches
+    :data:`PLAIN_REST`: words, ``{braced}`` values and ``key=value`` fields."""
+    out: list[Item] = []
+    for tok in line[pos:].split():
+        col = line.find(tok, pos)
+        pos = col + len(tok)
+        eq = tok.find("=") if tok[0] != "{" else -1
+        if eq < 0:
+            out.append(Field("braced" if tok[0] == "{" else "word", tok,
+                             Span(source, lineno, col + 1, lineno, pos + 1)))
+            continue
+        value = tok[eq + 1:]
+        out.append(Assign(
+            Field("word", tok[:eq], Span(source, lineno, col + 1, lineno, col + eq + 1)),
+            Field("braced" if value[0] == "{" else "word", value,
+                  Span(source, lineno, col + eq + 2, lineno, pos + 1)),
+            Span(source, lineno, col + 1, lineno, pos + 1)))
+    return out
 
 
 @dataclass(slots=True, unsafe_hash=True)

@@ -1,0 +1,225 @@
+"""The state of one flattening, and instances made from the expansion of an earlier one.
+
+Generated netlists instantiate one subcircuit thousands of times with a handful of
+distinct parameter values, and write thousands of plain ``R1 a b 1k`` cards; both are
+made here without the general card reader.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass, field
+from typing import Callable
+
+from .circuit import GROUND, PartModel
+from ..exceptions import Diagnostic
+from .elements import Capacitor, Element, Inductor, Resistor
+from .models import ModelCard
+from .params import Env
+from .syntax import Card, SubcktDef
+from .source import Span
+
+__all__ = ["Flat", "Where", "where_span", "COPYABLE", "Template", "instance_shape",
+           "plain_ports", "make_template", "copy_template", "plain_rlc", "remember_words",
+           "copy_by_words"]
+
+#: where a node was named: the span of its field, or (card, index of the field) for a card
+#: elaborated from its words (the span is made only if a message needs it)
+Where = Span | tuple[Card, int]
+
+
+@dataclass
+class Flat:
+    elements: list[Element] = field(default_factory=list)
+    #: every element and instance name made so far: the card that made it
+    names: dict[str, Card] = field(default_factory=dict)
+    #: every node named so far: where it was named (:data:`Where`), in order
+    node_spans: dict[str, list["Where"]] = field(default_factory=dict)
+    diags: list[Diagnostic] = field(default_factory=list)
+    #: lower-case names of the subcircuits whose instances are part models
+    models: frozenset[str] = frozenset()
+    #: the part models found, in the order they were expanded
+    found: list[PartModel] = field(default_factory=list)
+    #: how many part-model instances the expansion is inside (the outermost one counts)
+    depth: int = 0
+    #: node names declared ``.global`` (lower case): the same node at every level
+    globals: frozenset[str] = frozenset()
+    #: while an instance is expanded to serve as a template: every (node, span) that
+    #: node_of gives, in order (else None)
+    log: list[tuple[str, "Where"]] | None = None
+    #: templates of expanded instances, by (definition, enclosing scope, parameter values)
+    copies: dict[tuple, "Template"] = field(default_factory=dict)
+    #: the same templates by (definition, enclosing scope, node count, the instance card's
+    #: ``key=value`` words as written): a card that repeats an earlier one's assignments
+    #: is made without evaluating them again
+    by_words: dict[tuple, "Template"] = field(default_factory=dict)
+    #: by id of a subcircuit definition: True if its body is only R, L and C cards
+    rlc: dict[int, bool] = field(default_factory=dict)
+
+
+# Repeated instances. Generated netlists instantiate one subcircuit thousands of times
+# with a handful of distinct parameter values. An instance whose body is only R, L and C
+# cards, whose ports reach distinct ordinary nodes and whose expansion said nothing
+# (no diagnostic) is kept as a template; a later instance of the same definition in the
+# same scope whose parameters all evaluate to the same values is made from it: the same
+# element values, names and local nodes renamed, port nodes mapped, and the places where
+# a node is named recorded where a message may need them (every place of a port or global
+# node; a local node only if the body names it once, the one case netlist-152 warns of).
+# Anything else, or any doubt, expands the instance card by card as before.
+
+COPYABLE = (Resistor, Capacitor, Inductor)
+
+
+@dataclass(frozen=True, slots=True)
+class Template:
+    #: the nodes an instance makes, as its ports (first) and these: nodes the same in every
+    #: instance (ground, globals), then local nodes (the text after the instance's prefix)
+    fixed: tuple[str, ...]
+    local: tuple[str, ...]
+    #: per element: its class, its card's name in upper case, its two nodes (indices into
+    #: the instance's node table), span and the values of its other fields
+    elements: tuple[tuple[type, str, int, int, Span, tuple], ...]
+    #: per element: its card (duplicate-name messages point at its name)
+    cards: tuple[Card, ...]
+    #: (node index, where the expansion named it) to record for each copy, grouped by node
+    uses: tuple[tuple[int, tuple["Where", ...]], ...]
+
+
+def instance_shape(sub: SubcktDef, env: Env, child: Env) -> tuple | None:
+    """The template key of an instance: the definition, the enclosing scope and the value
+    of every parameter of the instance; None if one of them does not evaluate (the
+    instance is then expanded card by card, so any error is raised where it is today)."""
+    try:
+        values = tuple((k, repr(child._get(k, sub.span))) for k in child.exprs)
+    except Exception:  # noqa: BLE001 - the card-by-card expansion raises it properly
+        return None
+    return (id(sub), env, values)
+
+
+def plain_ports(ports: list[str], full: str, flat: Flat) -> bool:
+    """True if the port nodes are distinct, not ground nor global, and none of them
+    looks like one of the instance's own local nodes."""
+    low = full.lower() + "."
+    return len(set(ports)) == len(ports) and not any(
+        p == GROUND or p in flat.globals or p.startswith(low) for p in ports)
+
+
+def make_template(sub: SubcktDef, full: str, ports: list[str], made: list[Element],
+                  flat: Flat) -> Template | None:
+    """The template of the expansion that made ``made`` (None if it cannot be one)."""
+    cards = sub.body.cards
+    if len(made) != len(cards) or flat.log is None:
+        return None
+    low = full.lower() + "."
+    seen = [n for e in made for n in e.nodes] + [n for n, _ in flat.log]
+    fixed = tuple(dict.fromkeys(n for n in seen if n == GROUND or n in flat.globals))
+    local = tuple(dict.fromkeys(n[len(low):] for n in seen if n.startswith(low)))
+    index = {n: i for i, n in enumerate(ports + list(fixed) + [low + x for x in local])}
+    if len(index) != len(ports) + len(fixed) + len(local) or any(n not in index for n in seen):
+        return None
+    elements = []
+    for e, card in zip(made, cards):
+        if type(e) not in COPYABLE or e.name != (full + "." + card.head).upper():
+            return None
+        rest = tuple(getattr(e, f.name) for f in dataclasses.fields(e)[3:])
+        a, b = e.nodes
+        elements.append((type(e), card.head.upper(), index[a], index[b], e.span, rest))
+    uses: dict[int, list[Where]] = {}
+    for n, where in flat.log:
+        uses.setdefault(index[n], []).append(where)
+    shared = len(ports) + len(fixed)
+    return Template(fixed, local, tuple(elements), tuple(cards),
+                    tuple((i, tuple(w)) for i, w in uses.items() if i < shared or len(w) == 1))
+
+
+def copy_template(template: Template, full: str, ports: list[str], flat: Flat) -> bool:
+    """Add an instance made from ``template``; False (nothing added) if it cannot be."""
+    if not plain_ports(ports, full, flat):
+        return False
+    pre = full + "."
+    names = [pre + text for _, text, _, _, _, _ in template.elements]
+    known = flat.names
+    for name in names:
+        if name in known:
+            return False  # the card-by-card expansion says which
+    low = pre.lower()
+    table = ports + list(template.fixed) + [low + x for x in template.local]
+    for name, card in zip(names, template.cards):
+        known[name] = card
+    node_spans = flat.node_spans
+    for i, wheres in template.uses:
+        node_spans.setdefault(table[i], []).extend(wheres)
+    append = flat.elements.append
+    for name, (cls, _, a, b, span, rest) in zip(names, template.elements):
+        append(cls(name, (table[a], table[b]), span, *rest))
+    return True
+
+
+
+
+def where_span(where: Where) -> Span:
+    """The span of a :data:`Where`."""
+    if isinstance(where, Span):
+        return where
+    card, index = where
+    return card.fields[index].span
+
+
+def plain_rlc(card: Card, cls: type, full: str, env: Env,
+               node_name: Callable[[str, Where], str],
+               models: dict[str, ModelCard]) -> Element | None:
+    """The R, L or C of a card written as two node names and a value (``R1 a b 1k``),
+    read from its words as :meth:`CardReader.plain` reads its fields; None (nothing
+    read) for any other card."""
+    words = card.words
+    if words is None or len(words) != 3:
+        return None
+    a, b, v = words
+    if a[0] == "{" or b[0] == "{" or "=" in a or "=" in b or "=" in v:
+        return None
+    braced = v[0] == "{"
+    if not braced and models and v.lower() in models:
+        return None  # a model name: the general reader
+    value = env.by_text.get(v[1:-1] if braced else v)
+    if value is None:
+        value = env.value_of(card.fields[2])
+    return cls(full, (node_name(a, (card, 0)), node_name(b, (card, 1))), card.span, value)
+
+
+def words_key(card: Card, sub: SubcktDef, env: Env) -> tuple | None:
+    """The :attr:`Flat.by_words` key of an instance card of ``sub`` in ``env``."""
+    words = card.words
+    if words is None:
+        return None
+    nodes = sum(1 for w in words if "=" not in w and w.lower() not in ("params:", "params"))
+    return (id(sub), env, nodes - 1, tuple(w for w in words if "=" in w))
+
+
+def remember_words(card: Card, sub: SubcktDef, env: Env, template: Template,
+                    flat: Flat) -> None:
+    key = words_key(card, sub, env)
+    if key is not None:
+        flat.by_words[key] = template
+
+
+def copy_by_words(card: Card, full: str, env: Env, defs: dict[str, SubcktDef], flat: Flat,
+                   resolve: Callable[[str], str],
+                   node_name: Callable[[str, Where], str]) -> bool:
+    """Make the instance ``card`` from the template of an earlier card of the same
+    definition, scope, node count and assignments as written; False (nothing made) when
+    there is none or it cannot be used."""
+    words = card.words
+    if words is None or flat.depth or not flat.by_words:
+        return False
+    at = [i for i, w in enumerate(words) if "=" not in w and w.lower() not in ("params:", "params")]
+    if not at:
+        return False
+    sub = defs.get(words[at[-1]].lower())
+    if sub is None:
+        return False
+    template = flat.by_words.get((id(sub), env, len(at) - 1, tuple(w for w in words if "=" in w)))
+    if template is None or not copy_template(template, full, [resolve(words[i]) for i in at[:-1]], flat):
+        return False
+    for i in at[:-1]:
+        node_name(words[i], (card, i))
+    return True
