@@ -52,6 +52,8 @@ CODES: dict[str, str] = {
     "netlist-160": "initial condition ignored (note)",
     "netlist-161": "floating port of a transmission line tied to the other port's reference (note)",
     "netlist-162": "E … OPAMP read as an ideal op-amp (note)",
+    "netlist-163": ".lib sections of a file that no .lib card selects, not read (note)",
+    "netlist-164": "sweep taken from the netlist's .ac card (note)",
     "spec-200": "spec file error",
     "spec-201": "unknown spec key",
     "spec-202": "wrong type or value in spec",

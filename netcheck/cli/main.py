@@ -195,8 +195,8 @@ def _sweep(args: argparse.Namespace) -> int:
 
 
 def _default_sweep(args: argparse.Namespace, ac) -> NetcheckError | None:
-    """Fill --start/--stop/--ppd not given from the netlist's own ``.ac`` card (a note says
-    so); the flags given win. The problem, if the sweep still cannot be made."""
+    """Fill --start/--stop/--ppd not given from the netlist's own ``.ac`` card (a
+    netlist-164 note says so); the flags given win. The problem, if the sweep still cannot be made."""
     if ac is None:
         missing = ", ".join(f"--{k}" for k in ("start", "stop", "ppd")
                             if getattr(args, k) is None)
@@ -210,11 +210,11 @@ def _default_sweep(args: argparse.Namespace, ac) -> NetcheckError | None:
     args.start = start if args.start is None else args.start
     args.stop = stop if args.stop is None else args.stop
     args.ppd = ppd if args.ppd is None else args.ppd
-    if not args.quiet:
-        print(safe_text(f"{printable(str(ac.span), 400)}: note: sweep taken from the netlist's "
-                        f"{where}: {format_si(args.start, 'Hz')} to "
-                        f"{format_si(args.stop, 'Hz')}, {args.ppd} points per decade{how}; "
-                        "--start, --stop and --ppd override it"), file=sys.stderr)
+    print_diagnostics([Diagnostic(
+        "netlist-164", f"sweep taken from the netlist's {where}: "
+        f"{format_si(args.start, 'Hz')} to {format_si(args.stop, 'Hz')}, {args.ppd} points "
+        f"per decade{how}; --start, --stop and --ppd override it", ac.span, "note")],
+        args.quiet)
     return _sweep_problem(args.start, args.stop, args.ppd)
 
 

@@ -85,6 +85,7 @@ class Prepared:
     ac: AcCard | None = None
     #: the section asked for was found (``.lib FILE SECTION``)
     found_section: bool = False
+    #: the section heads (``.lib SECTION``) of the file, each its name as a Field
     sections: list = field(default_factory=list)
     #: the fields the pre-pass read into statements (counted in the token budget)
     tokens: int = 0
@@ -426,7 +427,7 @@ class _Pass:
             return i + 1, self.section is None
         if len(toks) == 2 and toks[1].text[0] not in "\"'":  # .lib SECTION: a section head
             label = toks[1].text
-            self.out.sections.append(label)
+            self.out.sections.append(Field("word", label, self.span(toks[1])))
             self.lines[i] = ""
             wanted = self.section is not None and label.lower() == self.section.lower()
             self.out.found_section |= wanted

@@ -14,6 +14,8 @@ from lark.exceptions import LarkError, UnexpectedCharacters, UnexpectedInput
 
 from .dialect import Prepared, prepare
 from .grammars import parser
+from .includes import (IncludeKey, arrows as _arrows, chain_text, display, include_path,
+                       unselected_sections)
 from .refusals import title_warning
 from .models import blank_model_brackets
 from .scan import scan_statements
@@ -237,13 +239,18 @@ class _Loading:
 
     root: Path
     sources: list[SourceFile] = field(default_factory=list)
-    parsed: dict[tuple[Path, str], tuple[SourceFile, tuple[Statement, ...], int]] = field(
+    files: dict[Path, SourceFile] = field(default_factory=dict)  # by resolved path
+    parsed: dict[IncludeKey, tuple[SourceFile, tuple[Statement, ...], int]] = field(
         default_factory=dict)
     tokens: int = 0
     text: int = 0
     includes: int = 0
     diags: list[Diagnostic] = field(default_factory=list)
     ac: AcCard | None = None
+    #: the ``.lib`` section heads of each file read (None: netlist text), and the
+    #: sections selected by ``.lib FILE SECTION`` (file, lower-case name)
+    defined: dict[Path | None, list[Field]] = field(default_factory=dict)
+    asked: set[tuple[Path | None, str]] = field(default_factory=set)
 
     def take(self, prepared: Prepared) -> None:
         """Keep a file's notes, and the first ``.ac`` card met."""
@@ -282,16 +289,22 @@ def load_netlist(path_or_text: str | Path, root: str | Path | None = None) -> Ne
     state = _Loading(base.resolve(), [top], text=len(top.text))
     title, stmts, state.tokens, prepared = _parse(top, True, TOKENS_MAX)
     state.take(prepared)
-    chain = (top_path.resolve(),) if top_path is not None else ()
+    chain: tuple[IncludeKey, ...] = ((top_path.resolve(), None),) if top_path else ()
+    if chain:
+        state.files[chain[0][0]] = top
+    if prepared.sections:
+        state.defined[chain[0][0] if chain else None] = prepared.sections
     diags = state.diags
     flat = _expand(stmts, top_path.resolve().parent if top_path else base, chain, state)
+    diags.extend(unselected_sections(state.defined, state.asked))
     scope, names = _group(flat, diags, title)
     return Netlist(title, top, scope, tuple(state.sources), tuple(diags), state.ac, names)
 
 
-def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[Path, ...],
+def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[IncludeKey, ...],
             state: _Loading) -> list[Statement]:
-    """The statements with every ``.include`` replaced by the file's, depth first.
+    """The statements with every ``.include`` replaced by the file's (``.lib FILE
+    SECTION``: by the section's), depth first. A file may select a section of its own.
 
     Iterative (an explicit stack of open files), so the include depth is limited by
     :data:`INCLUDE_DEPTH_MAX` alone, not by Python's recursion limit.
@@ -307,13 +320,13 @@ def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[Path, ...],
         if not (isinstance(st, Directive) and st.name in ("include", "lib")):
             out.append(st)
             continue
-        path, target = _include_path(st, here, chain, state)
-        section = st.fields[1].expr_text if st.name == "lib" and len(st.fields) == 2 else None
+        key, target = include_path(st, here, chain, state.root, state.diags)
+        path, section = key[0], st.fields[1].expr_text if key[1] is not None else None
         depth = len(stack)
         if depth > INCLUDE_DEPTH_MAX:
             raise NetlistSyntaxError(
                 f"includes nest {depth} deep here, over the budget of {INCLUDE_DEPTH_MAX} "
-                f"nested .include files ({_chain_text(chain + (path,))})", target.span,
+                f"nested .include files ({chain_text(chain + (key,))})", target.span,
                 code="netlist-116")
         state.includes += 1
         if state.includes > INCLUDES_MAX:
@@ -321,11 +334,10 @@ def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[Path, ...],
                 f"this would be include number {state.includes:,}, over the budget of "
                 f"{INCLUDES_MAX:,} .include directives followed for one netlist (a file "
                 "included from several places counts each time)", target.span, code="netlist-116")
-        key = (path, (section or "").lower())
         if key not in state.parsed:
-            sub = next((f for f in state.sources if f.path == _display(path, state.root)),
-                       None) or _read(path, _display(path, state.root), at=target.span)
-            if sub not in state.sources:
+            sub = state.files.get(path)
+            if sub is None:
+                sub = state.files[path] = _read(path, display(path), at=target.span)
                 state.sources.append(sub)
             _check_text(state, len(sub.text), target)
             _, sub_stmts, used, prepared = _parse(sub, False, TOKENS_MAX - state.tokens,
@@ -334,9 +346,13 @@ def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[Path, ...],
                 raise NetlistSyntaxError(
                     f"library {quoted(target.expr_text)} has no section "
                     f"{quoted(section, 60)} (its sections: "
-                    f"{', '.join(printable(x, 40) for x in prepared.sections) or 'none'})",
+                    f"{', '.join(printable(x.text, 40) for x in prepared.sections) or 'none'})",
                     st.fields[1].span, code="netlist-104")
             state.take(prepared)
+            if prepared.sections:
+                state.defined.setdefault(path, prepared.sections)
+            if key[1] is not None:
+                state.asked.add(key)
             state.parsed[key] = (sub, sub_stmts, used)
         else:  # included again: the same text and statements, counted again
             sub, sub_stmts, used = state.parsed[key]
@@ -347,88 +363,8 @@ def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[Path, ...],
                     f"the budget of {TOKENS_MAX:,} tokens (its includes counted)",
                     target.span, code="netlist-116")
         state.tokens += used
-        stack.append((iter(sub_stmts), path.parent, chain + (path,)))
+        stack.append((iter(sub_stmts), path.parent, chain + (key,)))
     return out
-
-
-def _include_path(st: Directive, here: Path, chain: tuple[Path, ...], state: _Loading
-                  ) -> tuple[Path, Field]:
-    """The file an ``.include`` (or ``.lib FILE [SECTION]``) names, checked (one name,
-    inside the root, no cycle); Windows separators and letter case are resolved with a
-    warning (netlist-159)."""
-    root = state.root
-    most = 2 if st.name == "lib" else 1
-    if not 1 <= len(st.fields) <= most or not isinstance(st.fields[0], Field):
-        raise NetlistSyntaxError('.include takes one file name, e.g. .include "parts.lib"; '
-                                 '.lib takes a file and a section name', st.span,
-                                 code="netlist-104")
-    target = st.fields[0]
-    name = target.expr_text
-    if not name.strip():
-        raise NetlistSyntaxError('empty file name in .include; give the file to include, '
-                                 'e.g. .include "parts.lib"', target.span, code="netlist-104")
-    if Path(name).is_absolute() or name.startswith("~") or _DRIVE.match(name):
-        raise NetlistSyntaxError(f"absolute include path {quoted(name)} refused; give a path "
-                                 "relative to the including file", target.span, code="netlist-104")
-    try:
-        path = (here / name.replace("\\", "/")).resolve()
-        found = path.exists()
-        if not found:
-            path, found = _case_insensitive(here, name.replace("\\", "/"), path)
-        if found and path != (here / name).resolve():
-            state.diags.append(Diagnostic(
-                "netlist-159", f"include {quoted(name)} read as "
-                f"{quoted(_display(path, root), 400)} (Windows separators or letter case "
-                "differ from the file system): write the path as it is on disk",
-                target.span))
-    except (OSError, ValueError, RuntimeError) as err:
-        # a NUL byte, a name too long for the OS, a symbolic-link loop
-        raise NetlistSyntaxError(f"include path {quoted(name)} cannot be used: "
-                                 f"{quoted(str(err))}", target.span, code="netlist-104") from None
-    if not path.is_relative_to(root):
-        raise NetlistSyntaxError(f"include {quoted(name)} leaves the design root "
-                                 f"{quoted(str(root), 400)}; use --root to widen it",
-                                 target.span, code="netlist-104")
-    if path in chain:
-        cycle = _chain_text(chain[chain.index(path):] + (path,))
-        raise NetlistSyntaxError(f"include cycle: {cycle}", target.span, code="netlist-104")
-    if not found:
-        raise NetlistSyntaxError(f"included file {quoted(name)} not found (looked for "
-                                 f"{quoted(str(path), 400)})", target.span, code="netlist-104")
-    return path, target
-
-
-_DRIVE = re.compile(r"^[A-Za-z]:[\\/]")
-
-
-def _case_insensitive(here: Path, name: str, path: Path) -> tuple[Path, bool]:
-    """``name`` under ``here`` matched one part at a time ignoring letter case."""
-    cur = here
-    for part in Path(name).parts:
-        if part in (".", ".."):
-            cur = cur / part
-            continue
-        try:
-            match = next((p for p in cur.iterdir() if p.name.lower() == part.lower()), None)
-        except OSError:
-            return path, False
-        if match is None:
-            return path, False
-        cur = match
-    return cur.resolve(), True
-
-
-def _arrows(names: tuple[str, ...] | list[str]) -> str:
-    """Names joined with arrows, escaped and bounded; the middle of a long chain left out."""
-    shown = [printable(n, 60) for n in names]
-    if len(shown) > 8:
-        shown = shown[:3] + [f"… {len(shown) - 6} more …"] + shown[-3:]
-    return " -> ".join(shown)
-
-
-def _chain_text(chain: tuple[Path, ...]) -> str:
-    """File names of an include chain."""
-    return _arrows([p.name for p in chain])
 
 
 def _check_text(state: _Loading, size: int, target: Field) -> None:
@@ -438,13 +374,6 @@ def _check_text(state: _Loading, size: int, target: Field) -> None:
             f"with this include the netlist text reaches {state.text:,} characters, over "
             f"the budget of {INCLUDE_TEXT_MAX:,} for one netlist with its includes (a file "
             "included from several places counts each time)", target.span, code="netlist-116")
-
-
-def _display(path: Path, root: Path) -> str:
-    try:
-        return str(path.relative_to(Path.cwd()))
-    except ValueError:
-        return str(path)
 
 
 def _group(stmts: list[Statement], diags: list[Diagnostic], title: str = ""

@@ -243,6 +243,20 @@ class TestAcCardDefault:
         want = -10 * np.log10(1 + (2 * np.pi * f * 1e3 * 100e-9) ** 2)
         np.testing.assert_allclose(data[:, 1], want, atol=1e-9)
 
+    def test_the_note_has_its_code_and_the_card_position_like_every_note(self, capsys,
+                                                                         tmp_path):
+        path = self.write(tmp_path, "  .ac dec 10 100 100k")
+        code, out, err = sweep(capsys, path, "--source", "V1", "--node", "out", "--csv", "-")
+        # the card is line 6 of TEXT (title, V1, R1, C1, .tran, card), column 3
+        head, caret = err.splitlines()[:2]
+        assert code == OK and head.startswith(
+            f"{path}:6:3: note netlist-164: sweep taken from the netlist's .ac card: "
+            "100.0 Hz to 100.0 kHz, 10 points per decade;")
+        assert caret.strip() == ".ac dec 10 100 100k"
+        code, out, err = sweep(capsys, path, "--source", "V1", "--node", "out", "--csv", "-",
+                               "--quiet")
+        assert code == OK and "netlist-164" not in err
+
     def test_oct_card_becomes_a_log_grid_and_says_so(self, capsys, tmp_path):
         code, out, err = sweep(capsys, self.write(tmp_path, ".ac oct 3 1k 8k"),
                                "--source", "V1", "--node", "out", "--csv", "-")

@@ -11,6 +11,7 @@ checked against closed forms written in the test:
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -295,6 +296,109 @@ class TestIncludes:
     def test_greek_mu_is_micro(self):
         ckt = read_netlist("Quillmere QM-9\nV1 in 0 AC 1\nL1 in 0 18\u03bcH\n")
         assert ckt.element("L1").value == pytest.approx(18e-6, rel=1e-15)
+
+
+class TestLibrarySections:
+    """``.lib`` sections: a library selecting its own, cycles, and the note on sections
+    nothing selects. The divider is checked against H = R2/(R1 + R2) (Ohm's law)."""
+
+    #: a Quillmere load library whose top selects its own 'typ' section
+    LIB = ("* Quillmere QM-5 loads\n.lib qm5.lib typ\n"
+           ".lib typ\nR2 out 0 1k\n.endl typ\n.lib heavy\nR2 out 0 3k\n.endl heavy\n")
+    TOP = "Quillmere QM-5 divider\n{line}\nV1 in 0 AC 1\nR1 in out 1k\n"
+
+    def load(self, tmp_path, files, line=".include qm5.lib"):
+        for name, text in files.items():
+            (tmp_path / name).write_text(text)
+        top = tmp_path / "qm5.cir"
+        top.write_text(self.TOP.format(line=line))
+        return str(top)
+
+    def gain(self, top):
+        return read_netlist(top).ac("V1", "out", freqs=np.array([1e3])).magnitude_db[0]
+
+    def test_a_library_reads_the_section_it_selects_itself(self, tmp_path):
+        top = self.load(tmp_path, {"qm5.lib": self.LIB})
+        assert self.gain(top) == pytest.approx(20 * math.log10(1 / 2), abs=1e-12)
+        nl = load_netlist(top)  # the section is read once: one R2, the file listed once
+        assert [c.name.text for c in nl.top.cards] == ["R2", "V1", "R1"]
+        assert [Path(s.path).name for s in nl.sources] == ["qm5.cir", "qm5.lib"]
+
+    def test_a_library_selected_from_outside_skips_its_own_selection(self, tmp_path):
+        # '.lib qm5.lib heavy' reads only the heavy section: the top's '.lib qm5.lib typ'
+        # is outside it, so typ is not read as well (that would be a second R2)
+        top = self.load(tmp_path, {"qm5.lib": self.LIB}, ".lib qm5.lib heavy")
+        assert self.gain(top) == pytest.approx(20 * math.log10(3 / 4), abs=1e-12)
+
+    def test_the_top_netlist_may_select_its_own_section(self, tmp_path):
+        top = tmp_path / "qm5.cir"
+        top.write_text("Quillmere QM-5 divider, corners in the file\n.lib qm5.cir heavy\n"
+                       "V1 in 0 AC 1\nR1 in out 1k\n.lib typ\nR2 out 0 1k\n.endl\n"
+                       ".lib heavy\nR2 out 0 3k\n.endl\n")
+        assert self.gain(str(top)) == pytest.approx(20 * math.log10(3 / 4), abs=1e-12)
+        assert len(load_netlist(str(top)).sources) == 1
+
+    def test_a_section_may_select_another_section_of_its_file(self, tmp_path):
+        lib = ("* Quillmere QM-5 loads\n.lib typ\n.lib qm5.lib common\nR2 out 0 {rl}\n"
+               ".endl\n.lib common\n.param rl=3k\n.endl\n")
+        top = self.load(tmp_path, {"qm5.lib": lib}, ".lib qm5.lib typ")
+        assert self.gain(top) == pytest.approx(20 * math.log10(3 / 4), abs=1e-12)
+
+    @pytest.mark.parametrize("inner, files, chain", [
+        # the section selects itself
+        (".lib qm5.lib typ", {}, "qm5.lib section typ -> qm5.lib section typ"),
+        # through another file's section
+        (".lib loads.lib x", {"loads.lib": ".lib x\n.lib qm5.lib typ\n.endl\n"},
+         "qm5.lib section typ -> loads.lib section x -> qm5.lib section typ"),
+        # the whole file again, which selects the section again
+        (".include qm5.lib", {}, "qm5.lib -> qm5.lib section typ -> qm5.lib"),
+    ])
+    def test_a_section_that_comes_back_to_itself_is_a_cycle(self, tmp_path, inner, files,
+                                                            chain):
+        lib = ("* Quillmere QM-5 loads\n.lib qm5.lib typ\n"
+               f".lib typ\nR2 out 0 1k\n{inner}\n.endl typ\n")
+        top = self.load(tmp_path, {"qm5.lib": lib, **files})
+        with pytest.raises(NetlistSyntaxError) as info:
+            load_netlist(top)
+        assert info.value.code == "netlist-104"
+        assert info.value.message == f"include cycle: {chain}"
+
+    def notes(self, top):
+        return [d for d in load_netlist(top).diagnostics if d.code == "netlist-163"]
+
+    def test_sections_nobody_selects_get_one_note_per_file(self, tmp_path):
+        lib = ("* Quillmere QM-5 loads\n.lib typ\n.param rt=1k\n.endl\n"
+               ".lib heavy\n.param rh=3k\n.endl\n")
+        top = self.load(tmp_path, {"qm5.lib": lib}, ".include qm5.lib\n.include qm5.lib")
+        (note,) = self.notes(top)
+        assert note.severity == "note"
+        assert note.message.startswith(".lib sections typ, heavy of qm5.lib not read")
+        assert "'.lib qm5.lib SECTION'" in note.message
+        assert (Path(note.span.path).name, note.span.line, note.span.column) == ("qm5.lib", 2, 6)
+        # selecting one leaves the other named; selecting both leaves nothing to say
+        (note,) = self.notes(self.load(tmp_path, {}, ".lib qm5.lib heavy"))
+        assert note.message.startswith(".lib section typ of qm5.lib not read")
+        assert note.span.line == 2
+        assert self.notes(self.load(tmp_path, {}, ".lib qm5.lib heavy\n.lib qm5.lib TYP")) == []
+
+    def test_the_self_selecting_library_names_the_sections_it_left(self, tmp_path):
+        (note,) = self.notes(self.load(tmp_path, {"qm5.lib": self.LIB}))
+        assert note.message.startswith(".lib section heavy of qm5.lib not read")
+
+    def test_the_note_is_bounded(self, tmp_path):
+        lib = "".join(f".lib corner{k}\n.param r{k}=1k\n.endl\n" for k in range(20))
+        top = self.load(tmp_path, {"qm5.lib": lib}, ".lib qm5.lib corner0")
+        (note,) = self.notes(top)
+        shown = ", ".join(f"corner{k}" for k in range(1, 8))
+        assert f"sections {shown}, and 12 more of qm5.lib" in note.message
+        assert "corner8" not in note.message
+
+    def test_netlist_text_with_sections_is_told_too(self):
+        nl = load_netlist("Quillmere QM-5\nV1 in 0 AC 1\nR1 in out 1k\nR2 out 0 1k\n"
+                          ".lib spare\nR3 out 0 1k\n.endl\n")
+        (note,) = [d for d in nl.diagnostics if d.code == "netlist-163"]
+        assert note.message.startswith(".lib section spare of the netlist not read")
+        assert [c.name.text for c in nl.top.cards] == ["V1", "R1", "R2"]
 
 
 class TestTitleAndAc:
