@@ -116,11 +116,15 @@ def _case_insensitive(here: Path, name: str, path: Path) -> tuple[Path, bool]:
 
 def unselected_sections(defined: dict[Path | None, list[Field]],
                         asked: set[tuple[Path | None, str]]) -> list[Diagnostic]:
-    """One netlist-163 note per file whose ``.lib`` sections (``defined``, by file) were
-    not all read: the sections that no ``.lib FILE SECTION`` of the netlist selected
-    (``asked``: file and lower-case section), named up to :data:`SECTIONS_SHOWN`."""
+    """One netlist-163 note per file that defines ``.lib`` sections (``defined``, by file)
+    of which no ``.lib FILE SECTION`` of the netlist selected any (``asked``: file and
+    lower-case section), naming them up to :data:`SECTIONS_SHOWN`. A file one of whose
+    sections was selected says nothing: choosing one corner of a library is the point."""
     out = []
+    chosen = {path for path, _ in asked}
     for path, heads in defined.items():
+        if path in chosen:
+            continue
         skipped: dict[str, Field] = {}
         for head in heads:
             if (path, head.text.lower()) not in asked:
