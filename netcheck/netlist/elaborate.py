@@ -8,6 +8,7 @@ use is :mod:`netcheck.netlist.reader`, the Circuit and PartModel types are
 from __future__ import annotations
 
 import dataclasses
+from itertools import chain
 from typing import Callable, Collection
 
 from ..exceptions import CODES, Diagnostic, ElaborationError
@@ -16,11 +17,12 @@ from .elements import ELEMENTS, Element, Inductor, VoltageSource
 from .models import ModelCard, read_model
 from .refusals import REFUSED_CODE, device_advice
 from .params import Env
-from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef, _arrows,
+from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef,
                     _paused_gc)
+from .includes import arrows as _arrows
 from .sizing import check_size
 from .flat import (COPYABLE, Flat, copy_by_words, copy_template, make_template, plain_ports,
-                   plain_rlc, remember_words, instance_shape, where_span, Where)
+                   plain_rlc, remember_words, instance_shape, Where)
 from .reader import CardReader, card_label
 from .source import printable, quoted
 from .topology import check_topology, lint_nodes, tie_isolated_ports
@@ -95,18 +97,19 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
         top_env.fix(key, value)
     check_size(netlist.top)
     flat = Flat(diags=list(netlist.diagnostics),
-                 models=frozenset(n.lower() for n in part_models),
-                 globals=frozenset(netlist.globals))
+                models=frozenset(n.lower() for n in part_models),
+                globals=frozenset(netlist.globals))
     with _paused_gc():  # flattening makes many small objects, as parsing does
         _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative, {})
     _one_note_for_initial_conditions(flat.diags)
     flat.diags.extend(tie_isolated_ports(flat.elements))
     elements = tuple(flat.elements)
     _check_references(elements)
-    nodes = tuple(dict.fromkeys(n for e in elements for n in e.nodes if n != GROUND))
+    named = dict.fromkeys(chain.from_iterable(e.nodes for e in elements))
+    named.pop(GROUND, None)
+    nodes = tuple(named)
     check_topology(elements, nodes)
-    flat.diags.extend(lint_nodes({n: [where_span(w[0])] for n, w in flat.node_spans.items()
-                                  if len(w) == 1}))
+    flat.diags.extend(lint_nodes(flat.single_nodes()))
     where = netlist.top.params[0].span if netlist.top.params else None
     params = tuple(sorted((k, top_env._get(k, where)) for k in top_env.exprs))
     return Circuit(netlist.title, elements, nodes, netlist.sources,
@@ -220,9 +223,16 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
             return low
         return low_prefix + low
 
+    uses, first = flat.uses, flat.first
+
     def node_name(text: str, where: Where) -> str:
         name = resolve(text)
-        flat.node_spans.setdefault(name, []).append(where)
+        count = uses.get(name)
+        if count is None:
+            uses[name] = 1
+            first[name] = where
+        else:
+            uses[name] = count + 1
         if flat.log is not None:
             flat.log.append((name, where))
         return name
@@ -251,10 +261,12 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
         if card.words is not None and cls in COPYABLE:
             element = plain_rlc(card, cls, full, env, node_name, models)
             if element is not None:
-                _check_passive(element, card, allow_negative)
-                _check_range(element, card)
+                if not VALUE_MIN <= element.magnitude <= VALUE_MAX:  # else nothing to say
+                    _check_passive(element, card, allow_negative)
+                    _check_range(element, card)
                 flat.elements.append(element)
-                _lint_value(element, card, flat)
+                if "M" in card.words[2]:
+                    _lint_value(element, card, flat)
                 continue
         if cls is None:
             advice = device_advice(letter, card.name.text)
@@ -360,9 +372,9 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
         flat.elements[k] = dataclasses.replace(
             e, nodes=tuple(outside[stand_in[n]] if n in stand_in else n for n in e.nodes))
     for alias, i in stand_in.items():
-        spans = flat.node_spans.pop(alias, None)
-        if spans:
-            flat.node_spans.setdefault(outside[i], []).extend(spans)
+        count = flat.uses.pop(alias, None)
+        if count:
+            flat.note_node(outside[i], flat.first.pop(alias), count)
     flat.found.append(PartModel(full, sub.name.text, tuple(p.text for p in sub.ports),
                                 tuple(outside), tuple(through), card.name.span))
 
@@ -450,8 +462,11 @@ def _lint_value(element: Element, card: Card, flat: Flat) -> None:
 
 
 def _check_references(elements: tuple[Element, ...]) -> None:
+    refers = [e for e in elements if type(e).controls is not Element.controls]
+    if not refers:
+        return
     by_name = {e.name: e for e in elements}
-    for e in elements:
+    for e in refers:
         for ref in e.controls():
             target = by_name.get(ref)
             want = Inductor if e.letter == "K" else VoltageSource

@@ -33,8 +33,10 @@ class Flat:
     elements: list[Element] = field(default_factory=list)
     #: every element and instance name made so far: the card that made it
     names: dict[str, Card] = field(default_factory=dict)
-    #: every node named so far: where it was named (:data:`Where`), in order
-    node_spans: dict[str, list["Where"]] = field(default_factory=dict)
+    #: every node named so far: how many times, and where first (:data:`Where`); a node
+    #: named once is netlist-152's (:meth:`note_node`)
+    uses: dict[str, int] = field(default_factory=dict)
+    first: dict[str, "Where"] = field(default_factory=dict)
     diags: list[Diagnostic] = field(default_factory=list)
     #: lower-case names of the subcircuits whose instances are part models
     models: frozenset[str] = frozenset()
@@ -55,6 +57,19 @@ class Flat:
     by_words: dict[tuple, "Template"] = field(default_factory=dict)
     #: by id of a subcircuit definition: True if its body is only R, L and C cards
     rlc: dict[int, bool] = field(default_factory=dict)
+
+    def note_node(self, name: str, where: "Where", times: int = 1) -> None:
+        """Count ``times`` more uses of node ``name``, the first of them at ``where``."""
+        count = self.uses.get(name)
+        if count is None:
+            self.uses[name] = times
+            self.first[name] = where
+        else:
+            self.uses[name] = count + times
+
+    def single_nodes(self) -> dict[str, Span]:
+        """The nodes named only once, and where."""
+        return {n: where_span(self.first[n]) for n, c in self.uses.items() if c == 1}
 
 
 # Repeated instances. Generated netlists instantiate one subcircuit thousands of times
@@ -81,8 +96,8 @@ class Template:
     elements: tuple[tuple[type, str, int, int, Span, tuple], ...]
     #: per element: its card (duplicate-name messages point at its name)
     cards: tuple[Card, ...]
-    #: (node index, where the expansion named it) to record for each copy, grouped by node
-    uses: tuple[tuple[int, tuple["Where", ...]], ...]
+    #: (node index, times the expansion named it, where first) to count for each copy
+    uses: tuple[tuple[int, int, "Where"], ...]
 
 
 def instance_shape(sub: SubcktDef, env: Env, child: Env) -> tuple | None:
@@ -100,8 +115,10 @@ def plain_ports(ports: list[str], full: str, flat: Flat) -> bool:
     """True if the port nodes are distinct, not ground nor global, and none of them
     looks like one of the instance's own local nodes."""
     low = full.lower() + "."
-    return len(set(ports)) == len(ports) and not any(
-        p == GROUND or p in flat.globals or p.startswith(low) for p in ports)
+    for p in ports:
+        if p == GROUND or p in flat.globals or p.startswith(low):
+            return False
+    return len(set(ports)) == len(ports)
 
 
 def make_template(sub: SubcktDef, full: str, ports: list[str], made: list[Element],
@@ -129,7 +146,8 @@ def make_template(sub: SubcktDef, full: str, ports: list[str], made: list[Elemen
         uses.setdefault(index[n], []).append(where)
     shared = len(ports) + len(fixed)
     return Template(fixed, local, tuple(elements), tuple(cards),
-                    tuple((i, tuple(w)) for i, w in uses.items() if i < shared or len(w) == 1))
+                    tuple((i, len(w), w[0]) for i, w in uses.items()
+                          if i < shared or len(w) == 1))
 
 
 def copy_template(template: Template, full: str, ports: list[str], flat: Flat) -> bool:
@@ -146,9 +164,9 @@ def copy_template(template: Template, full: str, ports: list[str], flat: Flat) -
     table = ports + list(template.fixed) + [low + x for x in template.local]
     for name, card in zip(names, template.cards):
         known[name] = card
-    node_spans = flat.node_spans
-    for i, wheres in template.uses:
-        node_spans.setdefault(table[i], []).extend(wheres)
+    note = flat.note_node
+    for i, times, where in template.uses:
+        note(table[i], where, times)
     append = flat.elements.append
     for name, (cls, _, a, b, span, rest) in zip(names, template.elements):
         append(cls(name, (table[a], table[b]), span, *rest))
@@ -203,23 +221,27 @@ def remember_words(card: Card, sub: SubcktDef, env: Env, template: Template,
 
 
 def copy_by_words(card: Card, full: str, env: Env, defs: dict[str, SubcktDef], flat: Flat,
-                   resolve: Callable[[str], str],
-                   node_name: Callable[[str, Where], str]) -> bool:
+                  resolve: Callable[[str], str],
+                  node_name: Callable[[str, Where], str]) -> bool:
     """Make the instance ``card`` from the template of an earlier card of the same
     definition, scope, node count and assignments as written; False (nothing made) when
     there is none or it cannot be used."""
     words = card.words
     if words is None or flat.depth or not flat.by_words:
         return False
-    at = [i for i, w in enumerate(words) if "=" not in w and w.lower() not in ("params:", "params")]
-    if not at:
-        return False
-    sub = defs.get(words[at[-1]].lower())
+    assigns = tuple(w for w in words if "=" in w)
+    head = words[:len(words) - len(assigns)]  # nodes, subcircuit, perhaps 'params:'
+    if head and head[-1].lower() in ("params:", "params"):
+        head = head[:-1]
+    if len(head) < 2 or assigns and words[-len(assigns):] != assigns:
+        return False  # assignments among the nodes: the general path
+    sub = defs.get(head[-1].lower())
     if sub is None:
         return False
-    template = flat.by_words.get((id(sub), env, len(at) - 1, tuple(w for w in words if "=" in w)))
-    if template is None or not copy_template(template, full, [resolve(words[i]) for i in at[:-1]], flat):
+    template = flat.by_words.get((id(sub), env, len(head) - 1, assigns))
+    if template is None or not copy_template(template, full, [resolve(w) for w in head[:-1]],
+                                             flat):
         return False
-    for i in at[:-1]:
+    for i in range(len(head) - 1):
         node_name(words[i], (card, i))
     return True

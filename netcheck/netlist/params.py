@@ -6,7 +6,8 @@ import numpy as np
 
 from ..exceptions import ElaborationError
 from .expressions import Call, Name, evaluate, parse_expression
-from .parse import Assign, Field, _arrows
+from .includes import arrows as _arrows
+from .parse import Assign, Field
 from .syntax import FuncDef
 from .source import Span, quoted
 

@@ -14,12 +14,11 @@ from lark.exceptions import LarkError, UnexpectedCharacters, UnexpectedInput
 
 from .dialect import Prepared, prepare
 from .grammars import parser
-from .includes import (IncludeKey, arrows as _arrows, chain_text, display, include_path,
-                       unselected_sections)
+from .includes import IncludeKey, chain_text, display, include_path, unselected_sections
 from .refusals import title_warning
 from .models import blank_model_brackets
 from .scan import scan_statements
-from ..exceptions import Diagnostic, ElaborationError, NetlistSyntaxError
+from ..exceptions import Diagnostic, NetlistSyntaxError
 from .source import SourceFile, Span, printable, quoted
 from .syntax import (AcCard, Assign, Card, Directive, Field, FuncDef, Item, Netlist, Scope,
                      Statement, SubcktDef)

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from ..exceptions import ElaborationError
 from . import parse as budgets  # the *_MAX constants, read at each use
-from .parse import _arrows
+from .includes import arrows as _arrows
 from .source import printable
 from .syntax import Card, Field, Scope, SubcktDef
 

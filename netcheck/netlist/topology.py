@@ -158,14 +158,11 @@ def _sensed_across(group: list[str], sensing: list[Element]) -> bool:
     return False
 
 
-def lint_nodes(node_spans: dict[str, list[Span]]) -> list[Diagnostic]:
-    """Warn about nodes touched by a single terminal (usually a typo)."""
-    out = []
-    for node, spans in node_spans.items():
-        if node != GROUND and len(spans) == 1:
-            out.append(Diagnostic("netlist-152", f"node {quoted(node, 80)} has only one connection",
-                                  spans[0]))
-    return out
+def lint_nodes(single: dict[str, Span]) -> list[Diagnostic]:
+    """Warn about nodes touched by a single terminal (usually a typo): ``single`` holds
+    each node named once, and where."""
+    return [Diagnostic("netlist-152", f"node {quoted(node, 80)} has only one connection", span)
+            for node, span in single.items() if node != GROUND]
 
 
 def tie_isolated_ports(elements: list[Element]) -> list[Diagnostic]:
