@@ -253,7 +253,7 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
         flat.names[full] = card
         letter = card.letter
         if letter == "X":
-            if not copy_by_words(card, full, env, defs, flat, resolve, node_name):
+            if not copy_by_words(card, full, env, defs, flat, resolve):
                 _expand_instance(card, full, prefix, env, defs, stack, flat, allow_negative,
                                  node_of, models)
             continue

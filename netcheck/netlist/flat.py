@@ -90,9 +90,11 @@ class Template:
     #: the nodes an instance makes, as its ports (first) and these: nodes the same in every
     #: instance (ground, globals), then local nodes (the text after the instance's prefix)
     fixed: tuple[str, ...]
+    #: the local nodes, each as ``.`` and its name (lower case)
     local: tuple[str, ...]
-    #: per element: its class, its card's name in upper case, its two nodes (indices into
-    #: the instance's node table), span and the values of its other fields
+    #: per element: its class, ``.`` and its card's name in upper case (the instance name
+    #: comes first), its two nodes (indices into the instance's node table), span and the
+    #: values of its other fields
     elements: tuple[tuple[type, str, int, int, Span, tuple], ...]
     #: per element: its card (duplicate-name messages point at its name)
     cards: tuple[Card, ...]
@@ -140,36 +142,50 @@ def make_template(sub: SubcktDef, full: str, ports: list[str], made: list[Elemen
             return None
         rest = tuple(getattr(e, f.name) for f in dataclasses.fields(e)[3:])
         a, b = e.nodes
-        elements.append((type(e), card.head.upper(), index[a], index[b], e.span, rest))
+        elements.append((type(e), "." + card.head.upper(), index[a], index[b], e.span, rest))
     uses: dict[int, list[Where]] = {}
     for n, where in flat.log:
         uses.setdefault(index[n], []).append(where)
     shared = len(ports) + len(fixed)
-    return Template(fixed, local, tuple(elements), tuple(cards),
+    return Template(fixed, tuple("." + x for x in local), tuple(elements), tuple(cards),
                     tuple((i, len(w), w[0]) for i, w in uses.items()
                           if i < shared or len(w) == 1))
 
 
-def copy_template(template: Template, full: str, ports: list[str], flat: Flat) -> bool:
-    """Add an instance made from ``template``; False (nothing added) if it cannot be."""
+def copy_template(template: Template, full: str, ports: list[str], flat: Flat,
+                  card: Card | None = None) -> bool:
+    """Add an instance made from ``template``; False (nothing added) if it cannot be.
+    With ``card`` (an instance card read from its words), its port fields count as uses
+    of the port nodes too, before the template's."""
     if not plain_ports(ports, full, flat):
         return False
-    pre = full + "."
-    names = [pre + text for _, text, _, _, _, _ in template.elements]
+    names = [full + sfx for _, sfx, _, _, _, _ in template.elements]
     known = flat.names
     for name in names:
         if name in known:
             return False  # the card-by-card expansion says which
-    low = pre.lower()
+    low = full.lower()
     table = ports + list(template.fixed) + [low + x for x in template.local]
-    for name, card in zip(names, template.cards):
-        known[name] = card
-    note = flat.note_node
+    known.update(zip(names, template.cards))
+    uses, first = flat.uses, flat.first
+    if card is not None:
+        for i, node in enumerate(ports):
+            count = uses.get(node)
+            if count is None:
+                uses[node] = 1
+                first[node] = (card, i)
+            else:
+                uses[node] = count + 1
     for i, times, where in template.uses:
-        note(table[i], where, times)
-    append = flat.elements.append
-    for name, (cls, _, a, b, span, rest) in zip(names, template.elements):
-        append(cls(name, (table[a], table[b]), span, *rest))
+        node = table[i]
+        count = uses.get(node)
+        if count is None:
+            uses[node] = times
+            first[node] = where
+        else:
+            uses[node] = count + times
+    flat.elements.extend([cls(name, (table[a], table[b]), span, *rest) for name, (
+        cls, _, a, b, span, rest) in zip(names, template.elements)])
     return True
 
 
@@ -221,15 +237,14 @@ def remember_words(card: Card, sub: SubcktDef, env: Env, template: Template,
 
 
 def copy_by_words(card: Card, full: str, env: Env, defs: dict[str, SubcktDef], flat: Flat,
-                  resolve: Callable[[str], str],
-                  node_name: Callable[[str, Where], str]) -> bool:
+                  resolve: Callable[[str], str]) -> bool:
     """Make the instance ``card`` from the template of an earlier card of the same
     definition, scope, node count and assignments as written; False (nothing made) when
     there is none or it cannot be used."""
     words = card.words
     if words is None or flat.depth or not flat.by_words:
         return False
-    assigns = tuple(w for w in words if "=" in w)
+    assigns = tuple([w for w in words if "=" in w])
     head = words[:len(words) - len(assigns)]  # nodes, subcircuit, perhaps 'params:'
     if head and head[-1].lower() in ("params:", "params"):
         head = head[:-1]
@@ -239,9 +254,6 @@ def copy_by_words(card: Card, full: str, env: Env, defs: dict[str, SubcktDef], f
     if sub is None:
         return False
     template = flat.by_words.get((id(sub), env, len(head) - 1, assigns))
-    if template is None or not copy_template(template, full, [resolve(w) for w in head[:-1]],
-                                             flat):
+    if template is None or flat.log is not None:
         return False
-    for i in range(len(head) - 1):
-        node_name(words[i], (card, i))
-    return True
+    return copy_template(template, full, [resolve(w) for w in head[:-1]], flat, card)

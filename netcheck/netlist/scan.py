@@ -16,7 +16,8 @@ import heapq
 import re
 
 from .source import SourceFile, Span
-from .syntax import PLAIN_REST, Assign, Card, Directive, Field, Item, Statement, plain_items
+from .syntax import (PLAIN_REST, Assign, Card, Directive, Field, Item, LineCard, Statement,
+                     plain_items)
 
 __all__ = ["scan_statements"]
 
@@ -27,6 +28,8 @@ _DIRECTIVE = re.compile(r"\.[A-Za-z][A-Za-z0-9_]*")
 #: ``.end`` first on a line ends the file (the grammar's _END terminal)
 _END = re.compile(r"\.end(?![A-Za-z0-9_])", re.I)
 _KINDS = (None, "word", "braced", "string")
+#: a whole plain card line: white space, a name (a NAME token), then :data:`PLAIN_REST`
+_PLAIN_CARD = re.compile(r"""[ \t]*[^\s=;{}()"',*]+""" + PLAIN_REST.pattern)
 
 
 class _GiveUp(Exception):
@@ -47,7 +50,7 @@ def scan_statements(source: SourceFile, text: str, used: int, allowed: int,
         return None  # the grammar stops at the exact token over the budget
     if prepared:
         out = list(heapq.merge(out, prepared,
-                               key=lambda st: st.line if type(st) is Card else st.span.line))
+                               key=lambda st: st.line if isinstance(st, Card) else st.span.line))
     return tuple(out), used
 
 
@@ -61,6 +64,7 @@ def _scan(source: SourceFile, text: str, used: int) -> tuple[list[Statement], in
     separator = True                 # the line before was blank or a comment
     match_token = _TOKEN.match
     plain_rest = PLAIN_REST.fullmatch
+    plain_card = _PLAIN_CARD.fullmatch
     for i, line in enumerate(lines):
         s = line.lstrip(" \t")
         if i == 1 or (i and not separator):
@@ -96,14 +100,14 @@ def _scan(source: SourceFile, text: str, used: int) -> tuple[list[Statement], in
                 if m is None:
                     raise _GiveUp
             else:
+                if plain_card(line):  # the common card: kept as its words
+                    words = line.split()
+                    lazy = LineCard(source, lineno, line, pos, words)
+                    used += len(words) + 2 * line.count("=")
+                    continue
                 m = match_token(line, pos)
                 if m is None or m.lastindex != 1:
                     raise _GiveUp
-                if plain_rest(line, m.end()):  # the common card: kept as its words
-                    words = line.split()
-                    lazy = Card.from_line(source, lineno, line, pos, words)
-                    used += len(words) + 2 * line.count("=", m.end())
-                    continue
             tok = m.group()
             head = Field("word", tok, Span(source, lineno, pos + 1, lineno, pos + 1 + len(tok)))
             items = []

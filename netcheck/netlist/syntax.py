@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 from ..exceptions import Diagnostic
 from .source import SourceFile, Span
 
-__all__ = ["Field", "Assign", "Item", "Card", "PLAIN_REST", "plain_items", "Directive", "Statement", "SubcktDef", "Scope",
+__all__ = ["Field", "Assign", "Item", "Card", "LineCard", "PLAIN_REST", "plain_items", "Directive", "Statement", "SubcktDef", "Scope",
            "Netlist", "AcCard", "FuncDef"]
 
 
@@ -53,7 +53,7 @@ Item = Field | Assign
 class Card:
     """An element line: a name and its fields, continuation lines joined.
 
-    A card the scanner read from one plain line (:meth:`from_line`) keeps that line and
+    A card the scanner read from one plain line (a :class:`LineCard`) keeps that line and
     its white-space-separated :attr:`words`, and makes its :class:`Field` objects and
     spans only when something asks for them: a big netlist's plain cards are elaborated
     from their words, and most of their fields are never looked at.
@@ -69,19 +69,6 @@ class Card:
         #: the fields as written, when the card is one plain line (:data:`PLAIN_REST`);
         #: else None
         self.words: tuple[str, ...] | None = None
-
-    @classmethod
-    def from_line(cls, source: SourceFile, lineno: int, line: str, column: int,
-                  words: list[str]) -> "Card":
-        """The card on line ``lineno`` (text ``line``, name starting at 0-based ``column``)
-        whose name and fields are ``words`` (``line.split()``); the rest of the line after
-        the name must match :data:`PLAIN_REST`."""
-        card = cls.__new__(cls)
-        card._name = card._fields = card._span = None
-        card._line = (source, lineno, line, column)
-        card.head = words[0]
-        card.words = tuple(words[1:])
-        return card
 
     def _make(self) -> None:
         source, lineno, line, column = self._line  # type: ignore[misc]
@@ -131,6 +118,21 @@ class Card:
 
     def __repr__(self) -> str:
         return f"Card(name={self.name!r}, fields={self.fields!r}, span={self.span!r})"
+
+
+class LineCard(Card):
+    """A :class:`Card` read from one plain line: ``line`` (the text of line ``lineno``),
+    its name starting at 0-based ``column``, and ``words`` = ``line.split()`` (the name
+    and the fields). The text after the name matches :data:`PLAIN_REST`."""
+
+    __slots__ = ()
+
+    def __init__(self, source: SourceFile, lineno: int, line: str, column: int,
+                 words: list[str]) -> None:
+        self._name = self._fields = self._span = None
+        self._line = (source, lineno, line, column)
+        self.head = words[0]
+        self.words = tuple(words[1:])
 
 
 #: what may follow a card's name on a plain line: white-space-separated words, ``{braced}``

@@ -71,6 +71,20 @@ def _groups(sets: _Sets, nodes: Iterable[str]) -> dict[str, list[str]]:
     return out
 
 
+def _ungrounded(elements: list[Element], nodes: tuple[str, ...]) -> list[list[str]]:
+    """The groups of ``nodes`` the links of ``elements`` do not join to ground, each in
+    node order, in the order of their first node."""
+    sets = _Sets()
+    sets.find(GROUND)
+    for n in nodes:
+        sets.find(n)
+    _join_links(sets, elements)
+    if sets.count == 1:
+        return []
+    ground = sets.find(GROUND)
+    return [group for root, group in _groups(sets, nodes).items() if root != ground]
+
+
 def _names(nodes: list[str]) -> str:
     shown = ", ".join(printable(n, 60) for n in nodes[:6])
     return shown + (f" and {len(nodes) - 6} more" if len(nodes) > 6 else "")
@@ -90,23 +104,16 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
         netlist-111, netlist-112 or netlist-113, at the first element touching the offending nodes.
     """
     two_terminal = [e for e in elements if e.letter != "K"]
-    full = _Sets()
-    full.find(GROUND)
-    for n in nodes:
-        full.find(n)
-    _join_links(full, two_terminal)
-    ground = full.find(GROUND)
-    for root, group in (_groups(full, nodes) if full.count > 1 else {}).items():
-        if root != ground:
-            culprit = next(e for e in two_terminal if group[0] in e.nodes)
-            sense_only = all(n not in x for n in group for x in culprit.links)
-            why = (f" (it connects only to the controlling input of "
-                   f"{printable(culprit.name, 80)})"
-                   if sense_only and len(group) == 1 else "")
-            raise ElaborationError(
-                f"node{'s' if len(group) > 1 else ''} {_names(group)} "
-                f"{'have' if len(group) > 1 else 'has'} no path to ground{why}; connect it "
-                "or tie it to ground through a resistor", culprit.span, code="netlist-111")
+    for group in _ungrounded(two_terminal, nodes)[:1]:
+        culprit = next(e for e in two_terminal if group[0] in e.nodes)
+        sense_only = all(n not in x for n in group for x in culprit.links)
+        why = (f" (it connects only to the controlling input of "
+               f"{printable(culprit.name, 80)})"
+               if sense_only and len(group) == 1 else "")
+        raise ElaborationError(
+            f"node{'s' if len(group) > 1 else ''} {_names(group)} "
+            f"{'have' if len(group) > 1 else 'has'} no path to ground{why}; connect it "
+            "or tie it to ground through a resistor", culprit.span, code="netlist-111")
 
     loops = _Sets()
     for e in two_terminal:
@@ -121,15 +128,9 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
 
     if not any(e.current_defined for e in two_terminal):
         return  # the groups below are those above: all reach ground
-    passive = _Sets()
-    passive.find(GROUND)
-    for n in nodes:
-        passive.find(n)
-    _join_links(passive, (e for e in two_terminal if not e.current_defined))
-    ground = passive.find(GROUND)
     sensing = [e for e in two_terminal if e.current_defined and e.sensed]
-    for root, group in (_groups(passive, nodes) if passive.count > 1 else {}).items():
-        if root != ground and not _sensed_across(group, sensing):
+    for group in _ungrounded([e for e in two_terminal if not e.current_defined], nodes):
+        if not _sensed_across(group, sensing):
             culprit = next(e for e in two_terminal if e.current_defined
                            and set(e.terminals) & set(group))
             raise ElaborationError(

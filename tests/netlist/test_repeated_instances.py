@@ -75,6 +75,26 @@ class TestRepeatedInstances:
             assert got["X1.R1"] == got["X2.R1"] == r0
             assert got["X1.R2"] == got["X2.R2"] == 2 * r0
 
+    def test_the_same_card_text_in_two_scopes(self):
+        # one instance card, word for word, inside two instances of an outer definition
+        # whose parameter r0 differs: each copy takes its own outer scope's value
+        text = ("nested\n.global gsup\n" + SECTION +
+                ".subckt outer p q params: r0=1k\nX1 p q sect rs={r0}\n.ends outer\n"
+                "XA n0 n1 outer r0=2k\nXB n1 n2 outer r0=3k\nXC n2 n3 outer r0=2k\n"
+                "V1 n0 0 AC 1\nR9 n3 0 1k\nVs gsup 0 0\n")
+        got = {e.name: e.value for e in read_netlist(text).elements}
+        assert (got["XA.X1.R1"], got["XB.X1.R1"], got["XC.X1.R1"]) == (2e3, 3e3, 2e3)
+        assert (got["XA.X1.R2"], got["XB.X1.R2"], got["XC.X1.R2"]) == (4e3, 6e3, 4e3)
+
+    def test_a_port_node_named_only_by_the_instance_card(self):
+        # X2's second port reaches nothing but the body's R2: two uses, no warning; a
+        # plain card's node named once is warned at that card's field
+        text = ("ports\n.subckt pair a b\nR1 a m 1k\nR2 m b 2k\n.ends pair\n"
+                "X1 n0 n1 pair\nX2 n1 n2 pair\nR9 n2 0 1k\nR8 n1 lone 1k\nV1 n0 0 AC 1\n")
+        warned = [(d.message, d.span.line, d.span.column)
+                  for d in read_netlist(text).diagnostics if d.code == "netlist-152"]
+        assert warned == [("node 'lone' has only one connection", 9, 7)]
+
     def test_one_connection_warning_for_every_instance(self):
         # a body node reached by one card only: netlist-152 once per instance, each at
         # the field of the body card that names it
