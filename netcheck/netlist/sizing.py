@@ -14,8 +14,10 @@ __all__ = ["check_size"]
 def _instance_target(card: Card) -> str | None:
     """The subcircuit an X card names (its last plain word), or None."""
     if card.words is not None:
-        words = [w for w in card.words if "=" not in w and w.lower() not in ("params:", "params")]
-        return words[-1] if words else None
+        for w in reversed(card.words):
+            if "=" not in w and w.lower() not in ("params:", "params"):
+                return w
+        return None
     fields = [f.text for f in card.fields if isinstance(f, Field)
               and f.text.lower() not in ("params:", "params")]
     return fields[-1] if fields else None

@@ -59,13 +59,15 @@ class Card:
     from their words, and most of their fields are never looked at.
     """
 
-    __slots__ = ("_name", "_fields", "_span", "_line", "head", "words")
+    __slots__ = ("_name", "_fields", "_span", "_line", "head", "words", "letter")
 
     def __init__(self, name: Field, fields: tuple[Item, ...], span: Span) -> None:
         self._name, self._fields, self._span = name, fields, span
         self._line: tuple[SourceFile, int, str, int] | None = None
         #: the name as written
         self.head: str = name.text
+        #: the element letter (first character of the name, upper case)
+        self.letter: str = name.text[:1].upper()
         #: the fields as written, when the card is one plain line (:data:`PLAIN_REST`);
         #: else None
         self.words: tuple[str, ...] | None = None
@@ -99,11 +101,6 @@ class Card:
         return self._span
 
     @property
-    def letter(self) -> str:
-        """The element letter (first character of the name, upper case)."""
-        return self.head[0].upper()
-
-    @property
     def line(self) -> int:
         """The line the card starts on."""
         return self._line[1] if self._line is not None else self._span.line  # type: ignore[union-attr]
@@ -132,6 +129,7 @@ class LineCard(Card):
         self._name = self._fields = self._span = None
         self._line = (source, lineno, line, column)
         self.head = words[0]
+        self.letter = words[0][0].upper()
         self.words = tuple(words[1:])
 
 
