@@ -243,8 +243,10 @@ def device_model(card: ModelCard, value_of: Callable[["Field"], float]
         value = value_of(assign.value)
         ok, why = _RULES[rule]
         if not (math.isfinite(value) and ok(value)):
-            raise ElaborationError(f"{label}: {printable(written)}={value:g} is out of range: "
-                                   f"{name} {why}", assign.span, code="netlist-132")
+            shown = printable(written.upper()) + ("" if written.upper() == name
+                                                   else f" (read as {name})")
+            raise ElaborationError(f"{label}: {shown}={value:g} is out of range: {name} "
+                                   f"{why}", assign.span, code="netlist-132")
         if name == "VAF" and value == 0:
             value = INF  # VAF = 0 means no Early effect (common SPICE convention)
         values[name] = value
@@ -261,7 +263,7 @@ def device_model(card: ModelCard, value_of: Callable[["Field"], float]
 def _check_level(label: str, level: float, assign) -> None:
     if level != 1:
         raise ElaborationError(
-            f"{label}: LEVEL={level:g} is not a MOS model netcheck has: it models level 1 "
+            f"{label}: LEVEL={level:g} asks for a MOS model netcheck does not have: it models level 1 "
             "(Shichman–Hodges) only; write LEVEL=1 or leave LEVEL out", assign.span,
             code="netlist-130")
 
