@@ -45,6 +45,8 @@ INF = math.inf
 #: default MOS channel width and length, m (common SPICE convention, from memory: 100 µm)
 DEFAULT_W = 100e-6
 DEFAULT_L = 100e-6
+#: the mobility a card with TOX but neither KP nor UO gets, cm²/V·s (from memory)
+DEFAULT_UO = 600.0
 #: permittivity of silicon dioxide, F/m: 3.9·ε0 (ε0 = 8.8541878128e-12 F/m, CODATA 2018;
 #: the relative permittivity 3.9 is common practice, no source)
 EPS_OX = 3.9 * 8.8541878128e-12
@@ -127,7 +129,7 @@ class MosModel:
     CGDO: float = 0.0
     CGBO: float = 0.0
     TOX: float = INF
-    UO: float = 600.0
+    UO: float = DEFAULT_UO
     RD: float = 0.0
     RS: float = 0.0
     TNOM: float = NOMINAL_C
@@ -253,7 +255,7 @@ def device_model(card: ModelCard, value_of: Callable[["Field"], float]
         if name in kept_only:
             ignored.append(written)
     if cls is MosModel and "TOX" in values and "KP" not in values:
-        uo = values.get("UO", MosModel.UO)
+        uo = values.get("UO", DEFAULT_UO)
         values["KP"] = uo * 1e-4 * EPS_OX / values["TOX"]  # cm²/V·s → m²/V·s
     if cls is not DiodeModel:
         values["polarity"] = polarity
