@@ -34,7 +34,7 @@ from ..netlist.device_models import BjtModel, DiodeModel, JfetModel, MosModel
 
 __all__ = ["BOLTZMANN", "ELEMENTARY_CHARGE", "ZERO_CELSIUS", "thermal_voltage",
            "Junction", "depletion_charge", "junction", "diode", "BjtPoint", "bjt",
-           "bjt_region", "MosPoint", "mos1", "JfetPoint", "jfet", "critical_voltage",
+           "bjt_region", "MosPoint", "mos1", "MosCaps", "mos1_capacitances", "JfetPoint", "jfet", "critical_voltage",
            "bounded_junction_voltage"]
 
 #: Boltzmann constant, J/K, and elementary charge, C: exact in the SI since 2019
@@ -216,9 +216,8 @@ def mos1(model: MosModel, vgs: float, vds: float, vbs: float, w: float | None = 
     return MosPoint(-p * i, -fg, fg + fd + fb, -fb, p * vth, region, True)
 
 
-def _mos_forward(model: MosModel, beta: float, vgs: float, vds: float, vbs: float
-                 ) -> tuple[float, float, float, float, float, str]:
-    """(id, ∂id/∂vgs, ∂id/∂vds, ∂id/∂vbs, VT, region) of an n-type device, vds ≥ 0."""
+def _threshold(model: MosModel, vbs: float) -> tuple[float, float]:
+    """(VT, ∂VT/∂vbs) in the n-type frame."""
     sphi = math.sqrt(model.PHI)
     if vbs <= 0:
         root = math.sqrt(model.PHI - vbs)
@@ -228,8 +227,13 @@ def _mos_forward(model: MosModel, beta: float, vgs: float, vds: float, vbs: floa
         d_root = -0.5 / sphi
         if root <= 0:
             root, d_root = 0.0, 0.0
-    vth = model.VTO * model.polarity + model.GAMMA * (root - sphi)
-    dvth = model.GAMMA * d_root                       # ∂VT/∂vbs
+    return model.VTO * model.polarity + model.GAMMA * (root - sphi), model.GAMMA * d_root
+
+
+def _mos_forward(model: MosModel, beta: float, vgs: float, vds: float, vbs: float
+                 ) -> tuple[float, float, float, float, float, str]:
+    """(id, ∂id/∂vgs, ∂id/∂vds, ∂id/∂vbs, VT, region) of an n-type device, vds ≥ 0."""
+    vth, dvth = _threshold(model, vbs)
     vgst = vgs - vth
     if vgst <= 0:
         return 0.0, 0.0, 0.0, 0.0, vth, "cutoff"
@@ -246,6 +250,53 @@ def _mos_forward(model: MosModel, beta: float, vgs: float, vds: float, vbs: floa
         fd = beta * (vgst - vds) * clm + beta * core * model.LAMBDA
         region = "triode"
     return i, fg, fd, -fg * dvth, vth, region
+
+
+class MosCaps(NamedTuple):
+    """The gate capacitances of a MOSFET at a bias point, F: gate–source, gate–drain,
+    gate–body (terminal frame: ``cgs`` is to the source terminal as written)."""
+
+    cgs: float
+    cgd: float
+    cgb: float
+
+
+def mos1_capacitances(model: MosModel, vgs: float, vds: float, vbs: float,
+                      w: float | None = None, l: float | None = None) -> MosCaps:
+    """Meyer's (1971) gate capacitances plus the overlap capacitances.
+
+    With C = COX·W·L and vgst = vgs − VT (VT with the body effect, as in :func:`mos1`):
+    saturation cgs = ⅔C, cgd = 0; triode cgs = ⅔C[1 − ((vgst − vds)/(2vgst − vds))²],
+    cgd = ⅔C[1 − (vgst/(2vgst − vds))²] (both ½C at vds = 0, continuous at the
+    saturation edge); cutoff cgs = cgd = 0, cgb = C — the simple form of the textbooks:
+    the depletion region's series capacitance below threshold is not modelled, and the
+    capacitances jump at vgs = VT as Meyer's piecewise model does. Overlaps add CGSO·W
+    to cgs, CGDO·W to cgd, CGBO·L to cgb. A card without TOX has no intrinsic part
+    (COX = 0). For vds < 0 the roles of the two ends swap, as in :func:`mos1`. These are
+    small-signal capacitances, not derivatives of a charge (Meyer's model conserves no
+    charge), which is all a frequency-domain check uses.
+    """
+    w = model.W if w is None else w
+    l = model.L if l is None else l
+    p = model.polarity
+    vgs, vds, vbs = p * vgs, p * vds, p * vbs
+    swap = vds < 0
+    if swap:
+        vgs, vds, vbs = vgs - vds, -vds, vbs - vds
+    vgst = vgs - _threshold(model, vbs)[0]
+    c = model.COX * w * l
+    if vgst <= 0:
+        cs, cd, cb = 0.0, 0.0, c
+    elif vds >= vgst:
+        cs, cd, cb = 2.0 * c / 3.0, 0.0, 0.0
+    else:
+        den = 2.0 * vgst - vds
+        cs = 2.0 * c / 3.0 * (1.0 - ((vgst - vds) / den) ** 2)
+        cd = 2.0 * c / 3.0 * (1.0 - (vgst / den) ** 2)
+        cb = 0.0
+    if swap:
+        cs, cd = cd, cs
+    return MosCaps(cs + model.CGSO * w, cd + model.CGDO * w, cb + model.CGBO * l)
 
 
 # --------------------------------------------------------------------------- JFET

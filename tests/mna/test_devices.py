@@ -19,7 +19,8 @@ import sympy as sp
 from scipy.optimize import brentq
 
 from netcheck.mna.devices import (bjt, bounded_junction_voltage, critical_voltage,
-                                  depletion_charge, diode, jfet, mos1, thermal_voltage)
+                                  depletion_charge, diode, jfet, mos1, mos1_capacitances,
+                                  thermal_voltage)
 from netcheck.netlist.device_models import BjtModel, DiodeModel, JfetModel, MosModel
 
 T = 27.0
@@ -354,6 +355,65 @@ def test_mos_continuous_at_every_region_boundary(vbs, polarity):
 def test_mos_instance_geometry_overrides_the_model():
     a = mos1(MOS, 1.5, 2.0, 0.0, w=40e-6, l=2e-6)
     close(a.id, 2 * mos1(MOS, 1.5, 2.0, 0.0).id, 1e-14)   # Id ∝ W/L
+
+
+# Meyer (1971) gate capacitances, written here from the published form (textbook
+# statement, from memory): C = Cox·W·L, Cox = ε_ox/tox with ε_ox = 3.9·ε0 (CODATA 2018 ε0)
+CAPS = MosModel(KP=110e-6, VTO=0.7, GAMMA=0.45, PHI=0.7, W=20e-6, L=2e-6, TOX=25e-9,
+                CGSO=0.2e-9, CGDO=0.25e-9, CGBO=0.1e-9)
+C_OX = 3.9 * 8.8541878128e-12 / 25e-9 * 20e-6 * 2e-6
+OVERLAP = (0.2e-9 * 20e-6, 0.25e-9 * 20e-6, 0.1e-9 * 2e-6)
+
+
+def meyer(vgst, vds):
+    if vgst <= 0:
+        return 0.0, 0.0, C_OX
+    if vds >= vgst:
+        return 2 / 3 * C_OX, 0.0, 0.0
+    return (2 / 3 * C_OX * (1 - ((vgst - vds) / (2 * vgst - vds)) ** 2),
+            2 / 3 * C_OX * (1 - (vgst / (2 * vgst - vds)) ** 2), 0.0)
+
+
+@pytest.mark.parametrize("vgs,vds,vbs", [(1.5, 2.0, 0.0), (2.0, 0.3, -1.0), (0.3, 1.0, 0.0),
+                                         (1.6, 0.05, -2.0), (3.0, 1.0, -0.5)])
+@pytest.mark.parametrize("polarity", [1, -1])
+def test_meyer_capacitances_against_the_published_form(vgs, vds, vbs, polarity):
+    from dataclasses import replace
+    mod = replace(CAPS, polarity=polarity, VTO=polarity * CAPS.VTO)
+    vth = 0.7 + 0.45 * (math.sqrt(0.7 - vbs) - math.sqrt(0.7))
+    want = [a + b for a, b in zip(meyer(vgs - vth, vds), OVERLAP)]
+    got = mos1_capacitances(mod, polarity * vgs, polarity * vds, polarity * vbs)
+    close(list(got), want, 1e-12, 1e-30)
+
+
+def test_meyer_known_values_and_continuity():
+    # at vds = 0 the channel splits evenly: cgs = cgd = ½·Cox·W·L; in saturation ⅔ and 0
+    # (Meyer 1971; textbook values, from memory)
+    bare = MosModel(VTO=0.7, W=20e-6, L=2e-6, TOX=25e-9)
+    at0 = mos1_capacitances(bare, 1.5, 0.0, 0.0)
+    close(at0.cgs, C_OX / 2, 1e-13)
+    close(at0.cgd, C_OX / 2, 1e-13)
+    sat = mos1_capacitances(bare, 1.5, 3.0, 0.0)
+    assert sat == pytest.approx((2 / 3 * C_OX, 0.0, 0.0), rel=1e-13, abs=1e-30)
+    # continuous at the saturation edge (vds = vgst = 0.8 V)
+    lo, hi = mos1_capacitances(bare, 1.5, 0.8 - EDGE, 0.0), mos1_capacitances(bare, 1.5, 0.8 + EDGE, 0.0)
+    assert lo == pytest.approx(hi, rel=1e-9, abs=1e-24)
+    # the ends swap roles when vds < 0: cgs and cgd exchange (body at the lower end)
+    fwd, rev = mos1_capacitances(bare, 1.5, 0.3, 0.0), mos1_capacitances(bare, 1.2, -0.3, -0.3)
+    close(rev.cgs, fwd.cgd, 1e-13)
+    close(rev.cgd, fwd.cgs, 1e-13)
+    # Meyer's piecewise model jumps at vgs = VT: the whole gate goes from the body
+    # (cutoff) to the channel; stated in docs/devices.md
+    off, on = mos1_capacitances(bare, 0.7 - EDGE, 1.0, 0.0), mos1_capacitances(bare, 0.7 + EDGE, 1.0, 0.0)
+    assert (off.cgs, off.cgb) == (0.0, pytest.approx(C_OX, rel=1e-13))
+    assert (on.cgs, on.cgb) == (pytest.approx(2 / 3 * C_OX, rel=1e-13), 0.0)
+    # no TOX, no intrinsic part: the overlaps alone
+    assert mos1_capacitances(replace_tox(CAPS), 1.5, 2.0, 0.0) == pytest.approx(OVERLAP, rel=1e-14)
+
+
+def replace_tox(model):
+    from dataclasses import replace
+    return replace(model, TOX=math.inf)
 
 
 # ------------------------------------------------------------------ JFET
