@@ -39,6 +39,7 @@ CODES: dict[str, str] = {
     "netlist-120": "construct netcheck does not solve (a device, switch, behavioural model, placeholder)",
     "netlist-130": "model card unusable (no name or type, unknown parameter, wrong kind)",
     "netlist-131": "bad transmission line (missing or non-positive Z0, delay or length)",
+    "netlist-132": "device model parameter out of range",
     "netlist-150": "unknown directive (warning)",
     "netlist-151": "probable milli/mega mix-up (warning)",
     "netlist-152": "node with one connection (warning)",
