@@ -8,7 +8,7 @@ from .netlist.source import Span, display_path, format_caret, printable
 
 __all__ = [
     "NetcheckError", "NetlistSyntaxError", "ElaborationError", "SpecError",
-    "SingularCircuitError", "MeasurementError", "RenderError", "NetcheckWarning",
+    "SingularCircuitError", "MeasurementError", "OperatingPointError", "RenderError", "NetcheckWarning",
     "Diagnostic", "CODES", "INTERNAL_CODE",
 ]
 
@@ -40,6 +40,7 @@ CODES: dict[str, str] = {
     "netlist-130": "model card unusable (no name or type, unknown parameter, wrong kind)",
     "netlist-131": "bad transmission line (missing or non-positive Z0, delay or length)",
     "netlist-132": "device model parameter out of range",
+    "netlist-133": "device parameter or option read and not modelled (note)",
     "netlist-150": "unknown directive (warning)",
     "netlist-151": "probable milli/mega mix-up (warning)",
     "netlist-152": "node with one connection (warning)",
@@ -68,6 +69,7 @@ CODES: dict[str, str] = {
     "analysis-303": "circuit matrix or solution not finite (part values out of range)",
     "analysis-304": "no signal at the output (zero, or rounding noise, at every swept frequency)",
     "analysis-305": "analysis not available for a circuit with a transmission line",
+    "analysis-306": "DC operating point not found",
     "run-400": "could not write output",
     "run-401": "output refused (an input of the run, a device or FIFO, two outputs to -)",
     "run-402": "bad command-line value",
@@ -169,6 +171,12 @@ class MeasurementError(NetcheckError, ArithmeticError):
     """A requested measurement cannot be made on the response."""
 
     code = "analysis-301"
+
+
+class OperatingPointError(NetcheckError, ArithmeticError):
+    """The DC operating point of a circuit with devices cannot be found."""
+
+    code = "analysis-306"
 
 
 class RenderError(NetcheckError, OSError):

@@ -14,6 +14,7 @@ from typing import Callable, Collection
 from ..exceptions import CODES, Diagnostic, ElaborationError
 from .circuit import GROUND, Circuit, PartModel
 from .elements import ELEMENTS, Element, Inductor, VoltageSource
+from .elements.devices import DEVICE_NOTE_CODE, Device, with_series_resistors
 from .models import ModelCard, read_model
 from .refusals import REFUSED_CODE, device_advice
 from .params import Env
@@ -282,7 +283,12 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
                                    f"(netcheck knows {known})", card.name.span, code="netlist-105")
         element = cls.from_card(CardReader(card, full, env, node_of, ref_of,
                                            lambda text: models.get(text.lower())))
-        flat.diags.extend(getattr(element, "notes", ()))
+        for note in getattr(element, "notes", ()):
+            if note.code != DEVICE_NOTE_CODE or note not in flat.diags:
+                flat.diags.append(note)
+        if isinstance(element, Device):
+            flat.elements.extend(with_series_resistors(element))
+            continue
         if cls.passive:
             _check_passive(element, card, allow_negative)
         _check_range(element, card)

@@ -474,7 +474,7 @@ class TestTerminalSafety:
 
     def test_huge_name_in_a_message_is_bounded(self):
         err = refused("Quillmere QM-19\nQ" + "x" * 2_000_000 + " a 0 1\n")
-        assert err.code == "netlist-120"  # a transistor: refused by name
+        assert err.code == "netlist-130"  # a transistor without its model card
         assert len(err.message) < 1000 and len(err.format()) < 2000
         assert "more characters" in err.message
 

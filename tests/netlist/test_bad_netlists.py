@@ -20,14 +20,11 @@ def test_every_file_has_an_expectation_and_back():
 
 def test_every_netlist_error_code_is_covered():
     # every netlist-1xx error code (not the warnings and notes) has at least one bad
-    # netlist, except netlist-115 (unknown output node), which only a sweep request can produce,
-    # and netlist-132 (device model parameter out of range), which no netlist reaches until the
-    # device elements read their models (tests/netlist/test_device_models.py checks it until
-    # then; give it a bad netlist here when they do)
+    # netlist, except netlist-115 (unknown output node), which only a sweep request can produce
     errors = {c for c, what in CODES.items() if c.startswith("netlist-1")
               and not what.endswith(("(warning)", "(note)"))}
     covered = {e["expect"].split()[-1] for e in EXPECTED.values()}
-    assert errors - covered == {"netlist-115", "netlist-132"}
+    assert errors - covered == {"netlist-115"}
 
 
 @pytest.mark.parametrize("name", sorted(EXPECTED))

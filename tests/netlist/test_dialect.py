@@ -415,8 +415,8 @@ class TestTitleAndAc:
 
 class TestRefused:
     @pytest.mark.parametrize("card, what", [
-        ("D1 out 0 qm_diode", "diode"),
-        ("Q1 out in 0 qm_npn", "bipolar transistor"),
+        ("Z1 out in 0 qm_mesfet", "MESFET"),
+        ("W1 out 0 vsense qm_csw", "current-controlled switch"),
         ("S1 out 0 in 0 qm_sw", "switch"),
     ])
     def test_devices_are_refused_by_name(self, card, what):

@@ -145,15 +145,18 @@ class TestModelCards:
             read_netlist("t\n.model RD R (RSH=10)\nV1 in 0 AC 1\nR1 in 0 RD 1k\n")
         assert info.value.code == "netlist-130" and info.value.span.line == 2
 
-    def test_device_model_is_stored_and_using_it_is_refused_precisely(self):
+    def test_device_model_is_stored_and_used_by_its_device_only(self):
         text = ("t\n.MODEL QN NPN(BF=200 IS=1e-15\n+ VAF=80 CJC=2p)\n.model DX D(IS=1n)\n"
                 "V1 in 0 AC 1 0 Rser=50\nR1 in 0 1k\n")
         assert read_netlist(text).element("R1").value == 1e3   # stored, not in the way
-        with pytest.raises(NetcheckError, match="bipolar transistor.*its model QN was read and kept") as info:
-            read_netlist(text + "Q1 c in 0 QN\nR2 c 0 1k\n")
-        assert info.value.span.line == 7
+        q1 = read_netlist(text + "Q1 c in 0 QN\nR2 c 0 1k\nVC c 0 DC 5\n").element("Q1")
+        assert (q1.model.BF, q1.model.IS, q1.model.VAF, q1.model.CJC) == (200, 1e-15, 80, 2e-12)
         with pytest.raises(NetcheckError, match="device model .D, for D cards."):
             read_netlist(text + "C1 in 0 DX 1n\n")
+        with pytest.raises(NetcheckError, match="model DX is of type D, not a model for a bjt") \
+                as info:
+            read_netlist(text + "Q1 c in 0 DX\n")
+        assert info.value.code == "netlist-130" and info.value.span.line == 4
 
 
 class TestZeroOhm:

@@ -5,6 +5,7 @@ from __future__ import annotations
 from .base import Element
 from .controlled import CCCS, CCVS, VCCS, VCVS
 from .coupling import Coupling
+from .devices import Bjt, Diode, Jfet, Mosfet
 from .passives import Capacitor, Inductor, Resistor
 from .sources import CurrentSource, VoltageSource
 from .tline import TransmissionLine
@@ -25,4 +26,8 @@ ELEMENTS: dict[str, type[Element]] = {
     "H": CCVS,
     "K": Coupling,
     "T": TransmissionLine,
+    "D": Diode,
+    "Q": Bjt,
+    "M": Mosfet,
+    "J": Jfet,
 }

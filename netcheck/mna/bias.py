@@ -1,0 +1,403 @@
+"""The DC operating point of a circuit with devices, and its small-signal equivalent.
+
+The DC equations are the circuit's modified nodal equations at s = 0 (capacitors open,
+inductors shorted, every independent source at its DC value) plus the device currents
+of :mod:`netcheck.mna.devices`:
+
+    G·x + i_dev(x) = b_dc.
+
+They are solved by Newton–Raphson from x = 0. Each iteration replaces every device by
+its companion model at a bias point: the current it carries there plus its conductances
+(the exact partial derivatives) times the departure from it. A junction voltage that
+would rise too far in one step is held back (:func:`~netcheck.mna.devices.bounded_junction_voltage`),
+so the exponential of a junction cannot overflow and the step in its current stays
+bounded. When plain Newton does not converge, two homotopies take over, each starting
+from the zero solution:
+
+* conductance stepping: a conductance from every node to ground, 10 mS, is made ten
+  times smaller at each step down to 1 pS, each step solved from the last, then removed;
+* source stepping: every independent source scaled by λ, from 0 (where x = 0 solves the
+  equations: no device carries current at zero bias) to 1, in steps that grow while
+  Newton converges and shrink where it does not.
+
+Newton has converged when a step changes no node voltage by more than 1e-10 of its
+value (plus 1 pV) and no branch current by more than 1e-10 of its value (plus 1 fA),
+with every junction voltage taken as proposed (no step held back). A circuit with
+several DC solutions (a latch) gets the one Newton reaches from zero, or the first
+homotopy that converges reaches; the operating point records which method found it.
+
+:func:`linearised` then replaces each device by a :class:`~netcheck.netlist.elements.devices.Linearised`
+element: its small-signal conductances and capacitances at the operating point, so every
+engine, measurement, tolerance and worst-case path solves the circuit unchanged.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+from ..exceptions import OperatingPointError
+from ..netlist.circuit import GROUND, Circuit
+from ..netlist.elements.devices import Bjt, Device, Diode, Jfet, Linearised, Mosfet
+from ..netlist.elements.sources import CurrentSource, VoltageSource
+from ..netlist.source import printable
+from . import devices as eq
+from .stamp import Stamper
+
+__all__ = ["DevicePoint", "OperatingPoint", "operating_point", "linearised", "has_devices",
+           "NOMINAL_TEMP_C"]
+
+NOMINAL_TEMP_C = eq.NOMINAL_TEMP_C
+#: Newton's convergence test: relative change and the absolute floors (V, A)
+RELTOL, VNTOL, ABSTOL = 1e-10, 1e-12, 1e-15
+#: most Newton iterations in one solve
+MAX_ITERATIONS = 200
+#: conductance stepping: first and last conductance to ground, S
+GMIN_START, GMIN_END = 1e-2, 1e-12
+
+
+@dataclass(frozen=True, slots=True)
+class DevicePoint:
+    """One device at the operating point: its kind (``diode``, ``npn``, ``pmos``...),
+    region, and the quantities a report shows, (name, value, unit) in order."""
+
+    name: str
+    kind: str
+    region: str
+    quantities: tuple[tuple[str, float, str], ...]
+
+
+@dataclass(frozen=True, slots=True)
+class OperatingPoint:
+    """The DC solution: node voltages (V), source branch currents (A), the devices, the
+    temperature and how it was found (``Newton``, ``conductance stepping``,
+    ``source stepping``) in how many Newton iterations in all."""
+
+    voltages: tuple[tuple[str, float], ...]
+    currents: tuple[tuple[str, float], ...]
+    devices: tuple[DevicePoint, ...]
+    temp_c: float
+    method: str
+    iterations: int
+
+    def voltage(self, node: str) -> float:
+        """The voltage of ``node`` (0 for ground)."""
+        key = node.lower()
+        if key in (GROUND, "gnd"):
+            return 0.0
+        return dict(self.voltages)[key]
+
+
+def has_devices(circuit: Circuit) -> bool:
+    """True if ``circuit`` has an element that must be linearised before solving."""
+    return any(isinstance(e, Device) for e in circuit.elements)
+
+
+# ------------------------------------------------------------------ device companions
+
+class _Companion:
+    """One device in the Newton iteration: its terminal rows and, at each iterate, the
+    currents into its terminals and their Jacobian at the (limited) bias point."""
+
+    def __init__(self, device: Device, rows: list[int | None], temp_c: float) -> None:
+        self.device, self.rows, self.temp_c = device, rows, temp_c
+        self.vt = eq.thermal_voltage(temp_c)
+        self.junctions: list[float] = []   # the last junction voltages used (device frame)
+        self.held = False                  # a junction step was held back this iteration
+
+    def voltages(self, x: np.ndarray) -> np.ndarray:
+        return np.array([0.0 if r is None else x[r] for r in self.rows])
+
+    def _limit(self, k: int, v: float, n: float, is_: float) -> float:
+        """Junction k's voltage ``v`` (device frame) after limiting against the last."""
+        if len(self.junctions) <= k:
+            self.junctions.append(0.0)
+        nvt = n * self.vt
+        crit = nvt * math.log(nvt / (math.sqrt(2.0) * is_))
+        got = eq.bounded_junction_voltage(v, self.junctions[k], nvt, crit)
+        if got != v:
+            self.held = True
+        self.junctions[k] = got
+        return got
+
+    def evaluate(self, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(currents into the terminals, their Jacobian) at terminal voltages ``v``,
+        linearised at the limited bias point: i(v) ≈ i0 + J·(v − v0)."""
+        self.held = False
+        d = self.device
+        if isinstance(d, Diode):
+            m = d.model
+            vd = self._limit(0, v[0] - v[1], m.N, m.IS)
+            j = eq.diode(m, vd, self.temp_c)
+            jac = j.g * np.array([[1.0, -1.0], [-1.0, 1.0]])
+            i0 = np.array([j.i, -j.i]) + jac @ v - j.g * np.array([vd, -vd])
+            return i0, jac
+        if isinstance(d, Bjt):
+            m = d.model
+            p = m.polarity
+            vbe = p * self._limit(0, p * (v[1] - v[2]), m.NF, m.IS)
+            vbc = p * self._limit(1, p * (v[1] - v[0]), m.NR, m.IS)
+            q = eq.bjt(m, vbe, vbc, self.temp_c)
+            # rows: collector, base, emitter; columns d/d(vc, vb, ve)
+            dic = np.array([-q.dic_dvbc, q.dic_dvbe + q.dic_dvbc, -q.dic_dvbe])
+            dib = np.array([-q.dib_dvbc, q.dib_dvbe + q.dib_dvbc, -q.dib_dvbe])
+            jac = np.array([dic, dib, -(dic + dib)])
+            at = np.array([v[1] - vbc, v[1], v[1] - vbe])  # terminal voltages of the bias point
+            i0 = np.array([q.ic, q.ib, -(q.ic + q.ib)]) + jac @ (v - at)
+            return i0, jac
+        if isinstance(d, Mosfet):
+            m = d.model
+            q = eq.mos1(m, v[1] - v[2], v[0] - v[2], v[3] - v[2], d.w, d.l)
+            did = np.array([q.gds, q.gm, -(q.gm + q.gds + q.gmbs), q.gmbs])
+            jac = np.zeros((4, 4))
+            jac[0], jac[2] = did, -did
+            return np.array([q.id, 0.0, -q.id, 0.0]), jac
+        if isinstance(d, Jfet):
+            m = d.model
+            q = eq.jfet(m, v[1] - v[2], v[0] - v[2], self.temp_c)
+            gs, gd = q.gate_source, q.gate_drain
+            # columns d/d(vd, vg, vs)
+            did = np.array([q.gds, q.gm, -(q.gm + q.gds)])
+            dgs = np.array([0.0, gs.g, -gs.g])
+            dgd = np.array([-gd.g, gd.g, 0.0])
+            jac = np.array([did - dgd, dgs + dgd, -did - dgs])
+            return np.array([q.id - gd.i, gs.i + gd.i, -q.id - gs.i]), jac
+        raise AssertionError(f"no equations for {type(d).__name__}")
+
+
+# ------------------------------------------------------------------ the DC system
+
+class _DcSystem:
+    """The linear part of the DC equations and the devices' companions."""
+
+    def __init__(self, circuit: Circuit, temp_c: float) -> None:
+        st = Stamper(circuit)
+        for e in circuit.elements:
+            if not isinstance(e, Device):
+                e.stamp(st, st.value_of(e.name))
+        for e in circuit.elements:
+            if isinstance(e, VoltageSource):
+                st.rhs_branch(e.name, e.dc)
+            elif isinstance(e, CurrentSource):
+                st.rhs_node(e.nodes[0], -e.dc)
+                st.rhs_node(e.nodes[1], e.dc)
+        self.st = st
+        g = st.sparse("G").tocsc()
+        delays = st.delay_table()
+        if delays is not None:  # exp(−s·τ) = 1 at DC
+            g = g + sp.csc_matrix((delays.coef, (delays.rows, delays.cols)), shape=g.shape)
+        self.g = g
+        self.b = st.rhs.copy()
+        self.n = st.n
+        self.n_nodes = len(st.nodes)
+        self.companions = [_Companion(e, [st.row_of(n) for n in e.nodes], temp_c)
+                           for e in circuit.elements if isinstance(e, Device)]
+
+    def newton(self, x: np.ndarray, scale: float = 1.0, gmin: float = 0.0
+               ) -> tuple[np.ndarray, int] | None:
+        """Newton from ``x`` with the sources scaled by ``scale`` and ``gmin`` from every
+        node to ground: (solution, iterations), or None if it does not converge."""
+        diag = sp.diags(np.r_[np.full(self.n_nodes, gmin), np.zeros(self.n - self.n_nodes)])
+        base = (self.g + diag).tolil() if gmin else self.g.tolil()
+        for c in self.companions:
+            c.junctions = []
+        b = scale * self.b
+        for it in range(1, MAX_ITERATIONS + 1):
+            a = base.copy()
+            rhs = b.copy()
+            held = False
+            try:
+                for c in self.companions:
+                    v = c.voltages(x)
+                    i0, jac = c.evaluate(v)
+                    held |= c.held
+                    for r, ii, row in zip(c.rows, i0 - jac @ v, jac):
+                        if r is None:
+                            continue
+                        rhs[r] -= ii
+                        for k, jj in zip(c.rows, row):
+                            if k is not None and jj:
+                                a[r, k] += jj
+            except OverflowError:
+                return None
+            try:
+                new = _solve(a.tocsc(), rhs)
+            except (RuntimeError, ValueError, np.linalg.LinAlgError):
+                return None
+            if not np.all(np.isfinite(new)):
+                return None
+            step = np.abs(new - x)
+            floor = np.r_[np.full(self.n_nodes, VNTOL), np.full(self.n - self.n_nodes, ABSTOL)]
+            x = new
+            if not held and np.all(step <= RELTOL * np.abs(x) + floor):
+                return x, it
+        return None
+
+
+def _solve(a: sp.csc_matrix, rhs: np.ndarray) -> np.ndarray:
+    if a.shape[0] <= 200:
+        return np.linalg.solve(a.toarray(), rhs)
+    return spla.splu(a).solve(rhs)
+
+
+def _solve_dc(system: _DcSystem) -> tuple[np.ndarray, str, int]:
+    zero = np.zeros(system.n)
+    got = system.newton(zero)
+    if got is not None:
+        return got[0], "Newton", got[1]
+    total = MAX_ITERATIONS
+    # conductance stepping
+    x, gmin, ok = zero, GMIN_START, True
+    while gmin >= GMIN_END:
+        got = system.newton(x, gmin=gmin)
+        if got is None:
+            ok = False
+            break
+        x, total = got[0], total + got[1]
+        gmin /= 10.0
+    if ok:
+        got = system.newton(x)
+        if got is not None:
+            return got[0], "conductance stepping", total + got[1]
+    # source stepping
+    x, lam, step = zero, 0.0, 0.1
+    while lam < 1.0:
+        target = min(1.0, lam + step)
+        got = system.newton(x, scale=target)
+        if got is None:
+            step /= 4.0
+            if step < 1e-6:
+                break
+            continue
+        x, lam, total = got[0], target, total + got[1]
+        step = min(step * 2.0, 0.5)
+    if lam >= 1.0:
+        return x, "source stepping", total
+    raise OperatingPointError(_failure(system))
+
+
+def _failure(system: _DcSystem) -> str:
+    names = ", ".join(printable(c.device.name, 60) for c in system.companions[:8])
+    more = f" and {len(system.companions) - 8} more" if len(system.companions) > 8 else ""
+    return ("the DC operating point did not converge: Newton from zero, conductance "
+            "stepping and source stepping all failed for the devices "
+            f"{names}{more}; check the bias network (a node with no DC path, a supply "
+            "missing, a model parameter far off)")
+
+
+# ------------------------------------------------------------------ results
+
+def operating_point(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C) -> OperatingPoint:
+    """The DC operating point of ``circuit`` at ``temp_c`` °C (analysis-306 if it cannot
+    be found)."""
+    return linearised(circuit, temp_c)[1]
+
+
+def linearised(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C
+               ) -> tuple[Circuit, OperatingPoint]:
+    """``circuit`` with every device replaced by its small-signal equivalent at the
+    operating point, and the operating point."""
+    system = _DcSystem(circuit, temp_c)
+    x, method, iterations = _solve_dc(system)
+    points: list[DevicePoint] = []
+    replaced: dict[str, Linearised] = {}
+    for c in system.companions:
+        small, point = _small_signal(c.device, c.voltages(x), temp_c)
+        replaced[c.device.name] = small
+        points.append(point)
+    st = system.st
+    op = OperatingPoint(tuple((n, float(x[i])) for n, i in st.nodes.items()),
+                        tuple((b, float(x[i])) for b, i in st.branches.items()),
+                        tuple(points), temp_c, method, iterations)
+    elements = tuple(replaced.get(e.name, e) for e in circuit.elements)
+    return dataclasses.replace(circuit, elements=elements, _index=None), op
+
+
+def _small_signal(d: Device, v: np.ndarray, temp_c: float) -> tuple[Linearised, DevicePoint]:
+    """The small-signal element and the report of device ``d`` at terminal voltages ``v``."""
+    k = len(d.nodes)
+    g = np.zeros((k, k))
+    cap = np.zeros((k, k))
+    kind = d.MODEL_LETTER.lower()
+    if isinstance(d, Diode):
+        j = eq.diode(d.model, v[0] - v[1], temp_c)
+        g[:] = [[j.g, -j.g], [-j.g, j.g]]
+        _between(cap, ((0, 1, j.c),))
+        region = "forward" if v[0] - v[1] > 0 else "reverse"
+        quantities = (("Vd", v[0] - v[1], "V"), ("Id", j.i, "A"), ("gd", j.g, "S"),
+                      ("Cd", j.c, "F"))
+        kind = "diode"
+    elif isinstance(d, Bjt):
+        m = d.model
+        vbe, vbc = v[1] - v[2], v[1] - v[0]
+        q = eq.bjt(m, vbe, vbc, temp_c)
+        dic = np.array([-q.dic_dvbc, q.dic_dvbe + q.dic_dvbc, -q.dic_dvbe])
+        dib = np.array([-q.dib_dvbc, q.dib_dvbe + q.dib_dvbc, -q.dib_dvbe])
+        g[:] = [dic, dib, -(dic + dib)]
+        # charges: qbe between base and emitter (depends on vbe and vbc), qbc base-collector
+        dqbe = np.array([-q.cbe_bc, q.cbe + q.cbe_bc, -q.cbe])
+        dqbc = np.array([-q.cbc, q.cbc, 0.0])
+        cap[:] = [-dqbc, dqbe + dqbc, -dqbe]
+        region = q.region
+        kind = "npn" if m.polarity > 0 else "pnp"
+        quantities = (("Vbe", vbe, "V"), ("Vce", v[0] - v[2], "V"), ("Ic", q.ic, "A"),
+                      ("Ib", q.ib, "A"), ("gm", q.dic_dvbe, "S"),
+                      ("rpi", _inverse(q.dib_dvbe), "Ω"), ("ro", _inverse(-q.dic_dvbc), "Ω"),
+                      ("Cpi", q.cbe, "F"), ("Cmu", q.cbc, "F"))
+    elif isinstance(d, Mosfet):
+        m = d.model
+        vgs, vds, vbs = v[1] - v[2], v[0] - v[2], v[3] - v[2]
+        q = eq.mos1(m, vgs, vds, vbs, d.w, d.l)
+        did = np.array([q.gds, q.gm, -(q.gm + q.gds + q.gmbs), q.gmbs])
+        g[0], g[2] = did, -did
+        caps = eq.mos1_capacitances(m, vgs, vds, vbs, d.w, d.l)
+        _between(cap, ((1, 2, caps.cgs), (1, 0, caps.cgd), (1, 3, caps.cgb)))
+        region = q.region
+        kind = "nmos" if m.polarity > 0 else "pmos"
+        quantities = (("Vgs", vgs, "V"), ("Vds", vds, "V"), ("Vbs", vbs, "V"),
+                      ("Id", q.id, "A"), ("Vth", q.vth, "V"), ("gm", q.gm, "S"),
+                      ("gds", q.gds, "S"), ("gmbs", q.gmbs, "S"), ("Cgs", caps.cgs, "F"),
+                      ("Cgd", caps.cgd, "F"))
+    else:
+        assert isinstance(d, Jfet)
+        m = d.model
+        vgs, vds = v[1] - v[2], v[0] - v[2]
+        q = eq.jfet(m, vgs, vds, temp_c)
+        gs, gd = q.gate_source, q.gate_drain
+        did = np.array([q.gds, q.gm, -(q.gm + q.gds)])
+        dgs = np.array([0.0, gs.g, -gs.g])
+        dgd = np.array([-gd.g, gd.g, 0.0])
+        g[:] = [did - dgd, dgs + dgd, -did - dgs]
+        _between(cap, ((1, 2, gs.c), (1, 0, gd.c)))
+        region = q.region
+        kind = "njf" if m.polarity > 0 else "pjf"
+        quantities = (("Vgs", vgs, "V"), ("Vds", vds, "V"), ("Id", q.id, "A"),
+                      ("gm", q.gm, "S"), ("gds", q.gds, "S"), ("Cgs", gs.c, "F"),
+                      ("Cgd", gd.c, "F"))
+    quantities = tuple((n, float(val), unit) for n, val, unit in quantities)
+    small = Linearised(d.name, d.nodes, d.span, _rows(g), _rows(cap), kind, region,
+                       tuple((n, val) for n, val, _ in quantities))
+    return small, DevicePoint(d.name, kind, region, quantities)
+
+
+def _between(cap: np.ndarray, pairs: tuple[tuple[int, int, float], ...]) -> None:
+    """Add to ``cap`` a capacitance c between terminals a and b for each (a, b, c)."""
+    for a, b, c in pairs:
+        cap[a, a] += c
+        cap[b, b] += c
+        cap[a, b] -= c
+        cap[b, a] -= c
+
+
+def _rows(m: np.ndarray) -> tuple[tuple[float, ...], ...]:
+    return tuple(tuple(float(x) for x in row) for row in m)
+
+
+def _inverse(g: float) -> float:
+    return 1.0 / g if g else math.inf
+
