@@ -22,6 +22,7 @@ from ..mna.solve import Response, solve
 from ..spec.load import Spec, load_spec, locate
 from ..netlist.units import format_eng, format_si
 from .hazard import magnification_caution
+from .operating import operating_point_block, region_cautions
 from .registry import Nominal, diag_caution, run_analyses
 
 __all__ = ["ResponseCurve", "SpecProbe", "evaluate", "check_spec", "seeds_from_roots",
@@ -258,6 +259,10 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         if issubclass(w.category, NetcheckWarning):
             cautions.append(Caution("analysis-302", str(w.message), "warning"))
     extra: list[tuple[str, object]] = []
+    op = system.circuit.operating_point
+    if op is not None:  # a circuit with devices: checked around this operating point
+        extra.append(("operating_point", operating_point_block(op)))
+        cautions.extend(region_cautions(op, system.circuit))
     envelope: tuple = (None, None)
     nominal = Nominal(spec, circuit, system, probe, tuple(limits), dict(measurements))
     for name, outcome in run_analyses(nominal):

@@ -315,7 +315,7 @@ def linearised(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C
                         tuple((b, float(x[i])) for b, i in st.branches.items()),
                         tuple(points), temp_c, method, iterations)
     elements = tuple(replaced.get(e.name, e) for e in circuit.elements)
-    return dataclasses.replace(circuit, elements=elements, _index=None), op
+    return dataclasses.replace(circuit, elements=elements, operating_point=op, _index=None), op
 
 
 def _small_signal(d: Device, v: np.ndarray, temp_c: float) -> tuple[Linearised, DevicePoint]:

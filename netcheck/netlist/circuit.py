@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Any
 
 from ..exceptions import Diagnostic
 from .elements.base import Element
@@ -66,6 +67,9 @@ class Circuit:
     params: tuple[tuple[str, float], ...] = ()
     #: instances of subcircuits that model one physical part each (:class:`PartModel`)
     part_models: tuple[PartModel, ...] = ()
+    #: for a circuit whose devices were replaced by their small-signal equivalents: the
+    #: DC operating point they were linearised at (a netcheck.mna.bias.OperatingPoint)
+    operating_point: Any = field(default=None, compare=False, repr=False)
     _index: dict = field(default=None, compare=False, repr=False)
     _models: dict = field(default=None, compare=False, repr=False)
 

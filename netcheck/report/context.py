@@ -15,6 +15,7 @@ from .formatting import (LISTING_ROWS_MAX, LISTING_TOTAL_MAX, MEASUREMENTS, caut
                          listing, shown_name, status_view, unit_of)
 from .plot_gain import limit_tag
 from .view_family import family_views
+from .view_bias import bias_view
 from .view_stress import stress_view
 from .view_tolerance import tolerance_view
 
@@ -164,7 +165,8 @@ def _spec_view(s: SpecResult, number: int, with_plots: bool = True) -> dict[str,
                     for k, v in s.measurements]
     tolerance = tolerance_view(s, with_plots)
     stress = stress_view(s)
-    shown = {"git", "stress"} | ({"tolerance"} if tolerance else set())
+    bias = bias_view(s)
+    shown = {"git", "stress", "operating_point"} | ({"tolerance"} if tolerance else set())
     extra = [(k, _extra_rows(v)) for k, v in s.extra if k not in shown]
     n = s.counts
     return {
@@ -181,7 +183,7 @@ def _spec_view(s: SpecResult, number: int, with_plots: bool = True) -> dict[str,
         "cautions": [c for c in cautions if c["severity"] != HAZARD_SEVERITY],
         "hazards": [c for c in cautions if c["severity"] == HAZARD_SEVERITY],
         "plots": spec_plots(s) if with_plots else (), "sources": sources, "extra": extra,
-        "anchor": f"spec-{number}", "tolerance": tolerance, "stress": stress,
+        "anchor": f"spec-{number}", "tolerance": tolerance, "stress": stress, "bias": bias,
     }
 
 
