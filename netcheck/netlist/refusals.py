@@ -13,7 +13,6 @@ __all__ = ["REFUSED_CODE", "device_advice", "title_warning"]
 REFUSED_CODE = "netlist-120"
 
 _DEVICES = {
-    "D": "a diode", "Q": "a bipolar transistor", "J": "a junction FET", "M": "a MOSFET",
     "Z": "a MESFET", "U": "a distributed or digital element", "O": "a lossy line",
     "S": "a voltage-controlled switch", "W": "a current-controlled switch",
     "B": "a behavioural source", "A": "a code-model or digital element",
@@ -25,8 +24,8 @@ _DEVICES = {
 def device_advice(letter: str, name: str) -> str | None:
     """Why element ``name`` (letter ``letter``) is out of reach, and what would work instead.
 
-    >>> device_advice("Q", "Q1").split(":")[0]
-    'Q1 is a bipolar transistor'
+    >>> device_advice("Z", "Z1").split(":")[0]
+    'Z1 is a MESFET'
     >>> device_advice("R", "R1") is None
     True
     """
@@ -34,8 +33,9 @@ def device_advice(letter: str, name: str) -> str | None:
     if what is None:
         return None
     shown = printable(name, 80)
-    if letter.upper() in "DQJMZ":
-        return (f"{shown} is {what}: semiconductor devices are not modelled yet; replace it "
+    if letter.upper() == "Z":
+        return (f"{shown} is {what}: netcheck has no equations for it (it solves D, Q, M and "
+                "J devices at their operating point); replace it "
                 "by its small-signal equivalent at the operating point (R, C and controlled "
                 "sources E, F, G, H, in a subcircuit if it is used more than once)")
     if letter.upper() in "SW":
