@@ -9,7 +9,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from ..netlist.elaborate import GROUND, Circuit
-from ..netlist.elements import CurrentSource, Device, VoltageSource
+from ..netlist.elements import CurrentSource, VoltageSource
 from ..exceptions import ElaborationError, MeasurementError
 from ..netlist.source import printable, quoted
 from .bias import linearised
@@ -154,7 +154,7 @@ def assemble(circuit: Circuit, source: str, node: str, ref: str = GROUND) -> Sys
     node, ref : str
         Output is V(node) − V(ref).
     """
-    if any(isinstance(e, Device) for e in circuit.elements):  # around its DC operating point
+    if any(getattr(e, "nonlinear", False) for e in circuit.elements):  # at its operating point
         circuit = linearised(circuit)[0]
     st = Stamper(circuit)
     st.stamp_all()

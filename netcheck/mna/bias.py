@@ -36,6 +36,7 @@ from __future__ import annotations
 import dataclasses
 import math
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import scipy.sparse as sp
@@ -43,6 +44,8 @@ import scipy.sparse.linalg as spla
 
 from ..exceptions import OperatingPointError
 from ..netlist.circuit import GROUND, Circuit
+from ..netlist.elements import Element
+from ..netlist.elements.controlled import LinearisedSource, poly_terms, poly_value
 from ..netlist.elements.devices import Bjt, Device, Diode, Jfet, Linearised, Mosfet
 from ..netlist.elements.sources import CurrentSource, VoltageSource
 from ..netlist.source import printable
@@ -106,12 +109,13 @@ class _Companion:
 
     def __init__(self, device: Device, rows: list[int | None], temp_c: float) -> None:
         self.device, self.rows, self.temp_c = device, rows, temp_c
+        self.cols = rows  # a device's currents depend on its own terminal voltages
         self.vt = eq.thermal_voltage(temp_c)
         self.junctions: list[float] = []   # the last junction voltages used (device frame)
         self.held = False                  # a junction step was held back this iteration
 
     def voltages(self, x: np.ndarray) -> np.ndarray:
-        return np.array([0.0 if r is None else x[r] for r in self.rows])
+        return np.array([0.0 if r is None else x[r] for r in self.cols])
 
     def _limit(self, k: int, v: float, n: float, is_: float) -> float:
         """Junction k's voltage ``v`` (device frame) after limiting against the last."""
@@ -170,6 +174,52 @@ class _Companion:
         raise AssertionError(f"no equations for {type(d).__name__}")
 
 
+class _PolyCompanion:
+    """A polynomial source in the Newton iteration: its output equation's rows (the
+    branch row of E and H, the two output nodes of G and F) as functions of the unknowns
+    its controls read (node voltages, branch currents)."""
+
+    def __init__(self, source: Any, st: Stamper) -> None:
+        self.device, self.held = source, False
+        cols: dict[int | None, int] = {}
+        self.inputs = []  # per control: [(column position, sign)]
+        for control in source.inputs:
+            where = ([(st.row_of(control[1]), 1.0), (st.row_of(control[2]), -1.0)]
+                     if control[0] == "v" else [(st.branch(control[1]), 1.0)])
+            self.inputs.append([(cols.setdefault(r, len(cols)), s) for r, s in where])
+        self.cols = list(cols)
+        self.terms = poly_terms(len(self.inputs), len(source.coefficients))
+        self.voltage = source.has_branch
+        self.rows = ([st.branch(source.name)] if self.voltage else
+                     [st.row_of(source.nodes[0]), st.row_of(source.nodes[1])])
+
+    def voltages(self, x: np.ndarray) -> np.ndarray:
+        return np.array([0.0 if r is None else x[r] for r in self.cols])
+
+    def controls(self, v: np.ndarray) -> tuple[list[float], np.ndarray]:
+        """The control values at unknowns ``v`` and their matrix d(controls)/d(v)."""
+        m = np.zeros((len(self.inputs), len(self.cols)))
+        for k, where in enumerate(self.inputs):
+            for pos, s in where:
+                m[k, pos] += s
+        return list(m @ v), m
+
+    def evaluate(self, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        u, m = self.controls(v)
+        p, grad = poly_value(self.terms, self.device.coefficients, u)
+        g = np.asarray(grad) @ m
+        if self.voltage:  # row k: v+ − v− − P = 0
+            return np.array([-p]), -g[None, :]
+        return np.array([p, -p]), np.array([g, -g])
+
+    def small_signal(self, x: np.ndarray) -> LinearisedSource:
+        u, _ = self.controls(self.voltages(x))
+        _, grad = poly_value(self.terms, self.device.coefficients, u)
+        s = self.device
+        return LinearisedSource(s.name, s.nodes[:2], s.span, "v" if self.voltage else "i",
+                                s.inputs, tuple(float(g) for g in grad))
+
+
 # ------------------------------------------------------------------ the DC system
 
 class _DcSystem:
@@ -178,7 +228,10 @@ class _DcSystem:
     def __init__(self, circuit: Circuit, temp_c: float) -> None:
         st = Stamper(circuit)
         for e in circuit.elements:
-            if not isinstance(e, Device):
+            if getattr(e, "nonlinear", False):
+                if not isinstance(e, Device):
+                    e.stamp_linear(st)
+            else:
                 e.stamp(st, st.value_of(e.name))
         for e in circuit.elements:
             if isinstance(e, VoltageSource):
@@ -195,8 +248,10 @@ class _DcSystem:
         self.b = st.rhs.copy()
         self.n = st.n
         self.n_nodes = len(st.nodes)
-        self.companions = [_Companion(e, [st.row_of(n) for n in e.nodes], temp_c)
-                           for e in circuit.elements if isinstance(e, Device)]
+        self.companions: list[Any] = [
+            _Companion(e, [st.row_of(n) for n in e.nodes], temp_c) if isinstance(e, Device)
+            else _PolyCompanion(e, st)
+            for e in circuit.elements if getattr(e, "nonlinear", False)]
 
     def newton(self, x: np.ndarray, scale: float = 1.0, gmin: float = 0.0
                ) -> tuple[np.ndarray, int] | None:
@@ -205,7 +260,7 @@ class _DcSystem:
         diag = sp.diags(np.r_[np.full(self.n_nodes, gmin), np.zeros(self.n - self.n_nodes)])
         base = (self.g + diag).tolil() if gmin else self.g.tolil()
         for c in self.companions:
-            c.junctions = []
+            c.junctions = []  # a polynomial source has none: harmless
         b = scale * self.b
         for it in range(1, MAX_ITERATIONS + 1):
             a = base.copy()
@@ -220,7 +275,7 @@ class _DcSystem:
                         if r is None:
                             continue
                         rhs[r] -= ii
-                        for k, jj in zip(c.rows, row):
+                        for k, jj in zip(c.cols, row):
                             if k is not None and jj:
                                 a[r, k] += jj
             except OverflowError:
@@ -305,8 +360,11 @@ def linearised(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C
     system = _DcSystem(circuit, temp_c)
     x, method, iterations = _solve_dc(system)
     points: list[DevicePoint] = []
-    replaced: dict[str, Linearised] = {}
+    replaced: dict[str, Element] = {}
     for c in system.companions:
+        if isinstance(c, _PolyCompanion):
+            replaced[c.device.name] = c.small_signal(x)
+            continue
         small, point = _small_signal(c.device, c.voltages(x), temp_c)
         replaced[c.device.name] = small
         points.append(point)

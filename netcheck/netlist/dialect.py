@@ -497,6 +497,13 @@ class _Pass:
         advice = device_advice(letter, name) if letter in "BSWAU" else None
         if advice is not None and any(t.text in "()" for t in toks):
             self.refuse(advice, self.span(toks[0]))
+        if letter in "EFGH" and len(toks) > 3 and toks[3].text.lower() == "poly":
+            # POLY(n) (a,b) (c,d) ...: the brackets and commas of the polynomial form
+            # become spaces (columns kept) and the card reader reads it (controlled.py)
+            for t in toks[1:]:
+                if t.text in "(),":
+                    self.blank(t.line, t.col, t.col + 1)
+            return
         if letter in "EFGHB":
             for t in toks[1:]:
                 word = t.text.lower()

@@ -427,7 +427,7 @@ class TestRefused:
     @pytest.mark.parametrize("card, what, col", [
         ("B1 out 0 V=V(in)*2", "behavioural source", 1),
         ("E1 out 0 in 0 laplace=1/(1+s)", "LAPLACE", 15),
-        ("E2 out 0 poly(1) in 0 0 1", "POLY", 10),
+        ("E2 out 0 value={v(in)*2}", "VALUE", 10),
         ("C1 out 0 #CTUNE#  $ #trim 2p..9p#", "placeholder", 10),
         ("L1 out 0 <L_woofer>", "placeholder", 10),
     ])

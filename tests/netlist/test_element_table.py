@@ -12,8 +12,8 @@ from netcheck.netlist import elements
 from netcheck.netlist.elaborate import elaborate
 from netcheck.netlist.elements import (CCCS, CCVS, ELEMENTS, VCCS, VCVS, Bjt, Capacitor,
                                        Coupling, CurrentSource, Diode, Element, IdealOpAmp,
-                                       Inductor, Jfet, Mosfet, Resistor, TransmissionLine,
-                                       VoltageSource)
+                                       Inductor, Jfet, Mosfet, PolyCCCS, PolyCCVS, PolyVCCS,
+                                       PolyVCVS, Resistor, TransmissionLine, VoltageSource)
 from netcheck.netlist.parse import load_netlist
 
 #: card letter → the family module its class lives in
@@ -26,8 +26,9 @@ FAMILY = {
     "D": "devices", "Q": "devices", "M": "devices", "J": "devices",
 }
 #: element classes no card makes: the devices' common base, and a device's small-signal
-#: equivalent, which the operating point puts in the device's place (netcheck.mna.bias)
-NOT_FROM_CARDS = {"Device", "Linearised"}
+#: equivalent and a polynomial source's linearisation, which the operating point puts in their
+#: places (netcheck.mna.bias)
+NOT_FROM_CARDS = {"Device", "Linearised", "LinearisedSource"}
 FAMILIES = sorted(set(FAMILY.values()))
 
 
@@ -95,9 +96,19 @@ R5 d 0 1k
 R6 d e 1k
 R7 e f 2k
 E2 f 0 opamp 0 e
+E3 g 0 POLY(1) in 0 0 2
+R8 g 0 1k
+G2 0 h POLY(1) in 0 0 1m
+R9 h 0 1k
+F2 0 i POLY(1) V1 0 1
+R10 i 0 1k
+H2 j 0 POLY(1) V1 0 100
+R11 j 0 1k
 """, {"V1": VoltageSource, "R1": Resistor, "E1": VCVS, "R2": Resistor, "G1": VCCS,
       "R3": Resistor, "F1": CCCS, "R4": Resistor, "H1": CCVS, "R5": Resistor,
-      "R6": Resistor, "R7": Resistor, "E2": IdealOpAmp}),
+      "R6": Resistor, "R7": Resistor, "E2": IdealOpAmp, "E3": PolyVCVS, "R8": Resistor,
+      "G2": PolyVCCS, "R9": Resistor, "F2": PolyCCCS, "R10": Resistor, "H2": PolyCCVS,
+      "R11": Resistor}),
     "coupling": ("""Quillmere Instruments coupled coils
 V1 in 0 AC 1
 R1 in p 50

@@ -10,7 +10,8 @@ its family's module and one line in the table.
 from __future__ import annotations
 
 from .base import Element
-from .controlled import CCCS, CCVS, VCCS, VCVS, IdealOpAmp
+from .controlled import (CCCS, CCVS, VCCS, VCVS, IdealOpAmp, LinearisedSource, PolyCCCS,
+                         PolyCCVS, PolyVCCS, PolyVCVS)
 from .coupling import Coupling
 from .devices import Bjt, Device, Diode, Jfet, Linearised, Mosfet
 from .passives import Capacitor, Inductor, Resistor
@@ -20,4 +21,5 @@ from .tline import TransmissionLine
 
 __all__ = ["Element", "Resistor", "Capacitor", "Inductor", "VoltageSource", "CurrentSource",
            "VCVS", "IdealOpAmp", "VCCS", "CCCS", "CCVS", "Coupling", "TransmissionLine", "ELEMENTS",
-           "Device", "Diode", "Bjt", "Mosfet", "Jfet", "Linearised"]
+           "Device", "Diode", "Bjt", "Mosfet", "Jfet", "Linearised", "PolyVCVS", "PolyVCCS",
+           "PolyCCCS", "PolyCCVS", "LinearisedSource"]
