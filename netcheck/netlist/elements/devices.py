@@ -10,7 +10,8 @@ instance values:
 * ``Jname drain gate source MODEL [area] [OFF] [area=a] [m=k]``
 
 ``area`` and ``m`` (parallel copies) scale a device's currents and capacitances and
-divide its series resistances; for a MOSFET ``m`` scales the width. A device is not
+divide its series resistances; for a MOSFET ``m`` scales the width and the overlap
+``CGBO`` (per metre of length) and divides ``RD`` and ``RS``. A device is not
 linear: it has no stamp of its own. The operating point (:mod:`netcheck.mna.bias`)
 solves the circuit's DC equations with the device equations of
 :mod:`netcheck.mna.devices`, and each device is then replaced by its small-signal
@@ -255,7 +256,11 @@ class Mosfet(Device):
         w = opts["w"][0] if "w" in opts else model.W
         l = opts["l"][0] if "l" in opts else model.L  # noqa: E741
         check_geometry(w, l, rd.span)
-        w *= opts.get("m", (1.0, None))[0]
+        copies = opts.get("m", (1.0, None))[0]
+        # m copies in parallel: m times the width (currents, W-scaled capacitances), the
+        # length-scaled overlap CGBO·L m times, RD and RS each 1/m
+        w *= copies
+        model = _scaled(model, copies, ("CGBO",), ("RD", "RS"))
         return cls(rd.name, nodes, rd.span, card.name, model, off, tuple(notes + more), w, l)
 
 
