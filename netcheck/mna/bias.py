@@ -113,6 +113,18 @@ class _Companion:
     def voltages(self, x: np.ndarray) -> np.ndarray:
         return np.array([0.0 if r is None else x[r] for r in self.rows])
 
+    def start(self, v: np.ndarray) -> None:
+        """Take the junction voltages at terminal voltages ``v`` as the last ones used:
+        a solve continued from a solution limits its first step from there, not from 0."""
+        d = self.device
+        if isinstance(d, Diode):
+            self.junctions = [float(v[0] - v[1])]
+        elif isinstance(d, Bjt):
+            p = d.model.polarity
+            self.junctions = [float(p * (v[1] - v[2])), float(p * (v[1] - v[0]))]
+        else:
+            self.junctions = []
+
     def _limit(self, k: int, v: float, n: float, is_: float) -> float:
         """Junction k's voltage ``v`` (device frame) after limiting against the last."""
         if len(self.junctions) <= k:
@@ -205,7 +217,7 @@ class _DcSystem:
         diag = sp.diags(np.r_[np.full(self.n_nodes, gmin), np.zeros(self.n - self.n_nodes)])
         base = (self.g + diag).tolil() if gmin else self.g.tolil()
         for c in self.companions:
-            c.junctions = []
+            c.start(c.voltages(x))
         b = scale * self.b
         for it in range(1, MAX_ITERATIONS + 1):
             a = base.copy()
