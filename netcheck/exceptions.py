@@ -70,6 +70,7 @@ CODES: dict[str, str] = {
     "analysis-304": "no signal at the output (zero, or rounding noise, at every swept frequency)",
     "analysis-305": "analysis not available for a circuit with a transmission line",
     "analysis-306": "DC operating point not found",
+    "analysis-307": "analysis not available for a circuit with semiconductor devices",
     "run-400": "could not write output",
     "run-401": "output refused (an input of the run, a device or FIFO, two outputs to -)",
     "run-402": "bad command-line value",

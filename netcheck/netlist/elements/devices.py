@@ -28,7 +28,7 @@ import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, ClassVar
 
-from ...exceptions import Diagnostic, ElaborationError
+from ...exceptions import Diagnostic, ElaborationError, MeasurementError
 from ..device_models import (BjtModel, DeviceModel, JfetModel, MosModel,
                              check_geometry, device_model)
 from ..source import printable
@@ -91,12 +91,15 @@ class Device(Element):
             extra += 1
             card = rd.model()
         if card is None:
-            what = rd.peek_keyword() or "nothing"
+            if extra and not rd.more():
+                rd.pos -= 1  # the word read as a substrate node was the model's name
+            what = rd.peek_keyword()
+            found = (f"found {printable(what)}, which names no .model card" if what
+                     else "found nothing")
             raise ElaborationError(
                 f"{printable(rd.name)}: expected the name of a .model card of type "
-                f"{cls.MODEL_LETTER.replace(',', ' or ')} after the nodes, found "
-                f"{printable(what)} (define it with .model NAME TYPE (...))",
-                rd.field_span(), code="netlist-130")
+                f"{cls.MODEL_LETTER.replace(',', ' or ')} after the nodes, {found} "
+                "(define it with .model NAME TYPE (...))", rd.field_span(), code="netlist-130")
         if card.letter != cls.letter:
             raise ElaborationError(
                 f"{printable(rd.name)}: model {printable(card.name)} is of type "
@@ -332,6 +335,16 @@ class Linearised(Element):
         return tuple((first, n) for n in self.nodes[1:])
 
     def stamp(self, st: "Stamper", value: Any) -> None:
+        if st.values:
+            # sampled or perturbed part values (Monte Carlo, worst case, stress): these
+            # conductances hold at the nominal operating point only, so stamping them
+            # beside other values would answer silently wrong
+            raise MeasurementError(
+                f"{printable(self.name)}: Monte Carlo, worst case and part stress are not "
+                "available yet for a circuit with semiconductor devices: each sample would "
+                "need its own DC operating point, and the nominal one would give wrong "
+                "answers; the nominal check is exact (it solves the operating point)",
+                self.span, code="analysis-307")
         rows = [st.row_of(n) for n in self.nodes]
         for mat, table in (("G", self.g), ("C", self.c)):
             for r, line in zip(rows, table):
