@@ -349,3 +349,43 @@ def test_sampled_and_perturbed_part_values_are_refused_on_a_device_circuit():
     with pytest.raises(NetcheckError) as info:
         AdjointSensitivity(system, [("RB2", 10e3, 0.1)])
     assert info.value.code == "analysis-307"
+
+
+def test_saturated_switch_against_fsolve():
+    """Both junctions forward: the same Ebers–Moll law, far from the textbook
+    forward-active shortcuts."""
+    text = ("Quillmere qm_sw1 relay driver, hard on\nVCC vcc 0 DC 5\nVIN in 0 DC 0 AC 1\n"
+            "RB vcc b 10k\nRI in b 10k\nRC vcc c 10k\nQ1 c b 0 qm_qsw\n"
+            ".model qm_qsw NPN (IS=4f BF=180 BR=3 VAF=70)\n")
+    circuit = read_netlist(text)
+    op = operating_point(circuit)
+
+    def kcl(x):
+        vb, vc = x
+        t = ebers_moll(vb, vb - vc, 70.0)
+        return [(5 - vb) / 10e3 - vb / 10e3 - t["ib"], (5 - vc) / 10e3 - t["ic"]]
+
+    vb, vc = polish(kcl, np.array([0.7, 0.1]))
+    assert op.devices[0].region == "saturated" and vb - vc > 0.4
+    assert op.voltage("b") == pytest.approx(vb, rel=REL)
+    assert op.voltage("c") == pytest.approx(vc, rel=REL)
+    # small signal: ic = gm·vbe + (∂Ic/∂Vbc)·vbc, ib likewise, at node b (RB ‖ RI to
+    # the source through RI) and node c (RC): the 2×2 nodal solve
+    t = ebers_moll(vb, vb - vc, 70.0)
+    y = np.array([[2 / 10e3 + t["dib_dvbe"] + t["dib_dvbc"], -t["dib_dvbc"]],
+                  [t["dic_dvbe"] + t["dic_dvbc"], 1 / 10e3 - t["dic_dvbc"]]])
+    want = np.linalg.solve(y, [1 / 10e3, 0])[1]
+    assert circuit.ac("VIN", "c", freqs=np.array([10.0])).transfer[0] == pytest.approx(
+        want, rel=REL)
+
+
+def test_the_operating_point_follows_the_temperature_through_vt_only():
+    # parameters are not scaled with temperature (docs/devices.md): at 75 °C only
+    # Vt = k·(348.15 K)/q changes in the Shockley law
+    vt = K_B * 348.15 / Q_E
+    v = brentq(lambda v: (VCC - v) / R1 - v / R2 - IS_D * math.expm1(v / (N_D * vt)), 0, VCC,
+               xtol=1e-15, rtol=1e-15)
+    op = operating_point(read_netlist(DIODE_ATT.format(caps="")), temp_c=75.0)
+    assert op.temp_c == 75.0
+    assert op.voltage("out") == pytest.approx(v, rel=REL)
+    assert v > diode_reference()[0] + 0.1  # the same IS at a larger Vt: a higher drop

@@ -231,3 +231,34 @@ def test_fet_solutions_satisfy_kcl_to_picoamperes():
     i_d = mos_sat(VG - vs, vd - vs, vs, 0.04, 0.45)[0]
     assert abs(vs / RS - i_d) < 1e-12
     assert abs((VDD - vd) / RD - i_d) < 1e-12
+
+
+def test_mos_in_triode_against_fsolve():
+    """A drain resistor large enough to pull the drain below Vgs − VT: the triode law
+    Id = β·Vds·(Vgs − VT − Vds/2)·(1 + λ·Vds) (Shichman & Hodges 1968), written here."""
+    lam = 0.04
+    text = CS.format(lam=lam, gamma=0, caps="").replace("RD vdd d 10k", "RD vdd d 100k")
+    circuit = read_netlist(text)
+
+    def triode(vgs, vds):
+        u = vgs - VTO
+        assert 0 < vds < u
+        return (BETA * vds * (u - vds / 2) * (1 + lam * vds),
+                BETA * vds * (1 + lam * vds),  # ∂/∂vgs
+                BETA * (u - vds) * (1 + lam * vds) + BETA * vds * (u - vds / 2) * lam)
+
+    def kcl(x):
+        vs, vd = x
+        i_d = triode(VG - vs, vd - vs)[0]
+        return [vs / RS - i_d, (VDD - vd) / 100e3 - i_d]
+
+    vs, vd = root(kcl, [0.3, 0.5])
+    op = operating_point(circuit)
+    assert op.devices[0].region == "triode"
+    assert op.voltage("s") == pytest.approx(vs, rel=REL)
+    assert op.voltage("d") == pytest.approx(vd, rel=REL)
+    _, gm, gds = triode(VG - vs, vd - vs)
+    y = np.array([[1 / 100e3 + gds, -(gm + gds)], [-gds, 1 / RS + gm + gds]])
+    want = np.linalg.solve(y, [-gm * DIVIDE, gm * DIVIDE])[0]
+    got = circuit.ac("VIN", "d", freqs=np.array([10.0])).transfer[0]
+    assert got == pytest.approx(want, rel=REL)
