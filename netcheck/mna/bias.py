@@ -290,7 +290,8 @@ def _solve_dc(system: _DcSystem) -> tuple[np.ndarray, str, int]:
         step = min(step * 2.0, 0.5)
     if lam >= 1.0:
         return x, "source stepping", total
-    raise OperatingPointError(_failure(system))
+    first = system.companions[0].device.span if system.companions else None
+    raise OperatingPointError(_failure(system), first)  # at the first device's card
 
 
 def _failure(system: _DcSystem) -> str:

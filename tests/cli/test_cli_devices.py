@@ -141,3 +141,17 @@ def test_the_nominal_check_of_a_device_circuit_judges_the_independent_gain(tmp_p
     # the band's lowest gain is at 1 kHz (the response falls monotonically)
     want = 20 * math.log10(abs(attenuator(np.array([1e3]))[0]))
     assert f"{want:.3f} dB" in line
+
+
+def test_a_circuit_without_an_operating_point_is_refused_at_the_device(tmp_path):
+    # 1 mA drawn backwards through a diode, which carries at most IS in reverse
+    # (Shockley 1949): no DC solution exists
+    path = tmp_path / "qm_clamp2.cir"
+    path.write_text("Quillmere qm_clamp2 clamp fed backwards\nI1 a 0 DC 1m AC 1\n"
+                    "D1 a 0 qm_dclamp\n.model qm_dclamp D (IS=10f)\n")
+    run = netcheck("sweep", str(path), "--source", "I1", "--node", "a", "--start", "10",
+                   "--stop", "1meg", "--ppd", "10")
+    assert run.returncode == 2
+    assert "Traceback" not in run.stderr
+    assert f"{path}:3:1: error analysis-306" in run.stderr
+    assert "for the devices D1" in run.stderr

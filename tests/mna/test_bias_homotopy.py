@@ -128,6 +128,7 @@ def test_a_circuit_with_no_dc_solution_is_refused_naming_the_device():
         bias.operating_point(read_netlist(NO_SOLUTION))
     assert err.value.code == "analysis-306"
     assert "D1" in str(err.value)
+    assert err.value.span is not None and err.value.span.line == 3  # at D1's card
     # and through the convenience API, a frequency response is refused the same way
     with pytest.raises(OperatingPointError):
         read_netlist(NO_SOLUTION.replace("I1 a 0 DC 1m", "I1 a 0 DC 1m AC 1")).ac(
