@@ -92,7 +92,8 @@ Q1 c b 0 qm_qpass
 
 def test_a_solve_continued_from_a_solution_starts_its_junctions_there():
     # 140 mA in the diodes and 240 mA in the transistor put the junctions above
-    # Vcrit (the current n·Vt/√2 ≈ 18 mA, docs/devices.md), where steps are limited.
+    # Vcrit = n·Vt·ln(n·Vt/(√2·IS)) (docs/devices.md; there the Shockley current is
+    # n·Vt/√2 taken in amperes, about 18 mA), where steps are limited.
     # A solve started at the solution must stay there at once: the limiting of its
     # first step starts from the junction voltages it is given, not from 0 V
     circuit = read_netlist(POWER)
