@@ -119,7 +119,7 @@ class _Companion:
         d = self.device
         if isinstance(d, Diode):
             self.junctions = [float(v[0] - v[1])]
-        elif isinstance(d, Bjt):
+        elif isinstance(d, (Bjt, Jfet)):  # base/gate to emitter/source, to collector/drain
             p = d.model.polarity
             self.junctions = [float(p * (v[1] - v[2])), float(p * (v[1] - v[0]))]
         else:
@@ -171,14 +171,20 @@ class _Companion:
             return np.array([q.id, 0.0, -q.id, 0.0]), jac
         if isinstance(d, Jfet):
             m = d.model
-            q = eq.jfet(m, v[1] - v[2], v[0] - v[2], self.temp_c)
+            p = m.polarity
+            # the gate junctions are limited like a bipolar transistor's
+            vgs = p * self._limit(0, p * (v[1] - v[2]), m.N, m.IS)
+            vgd = p * self._limit(1, p * (v[1] - v[0]), m.N, m.IS)
+            q = eq.jfet(m, vgs, vgs - vgd, self.temp_c)
             gs, gd = q.gate_source, q.gate_drain
             # columns d/d(vd, vg, vs)
             did = np.array([q.gds, q.gm, -(q.gm + q.gds)])
             dgs = np.array([0.0, gs.g, -gs.g])
             dgd = np.array([-gd.g, gd.g, 0.0])
             jac = np.array([did - dgd, dgs + dgd, -did - dgs])
-            return np.array([q.id - gd.i, gs.i + gd.i, -q.id - gs.i]), jac
+            at = np.array([v[1] - vgd, v[1], v[1] - vgs])  # terminal voltages of the bias point
+            i0 = np.array([q.id - gd.i, gs.i + gd.i, -q.id - gs.i]) + jac @ (v - at)
+            return i0, jac
         raise AssertionError(f"no equations for {type(d).__name__}")
 
 

@@ -16,7 +16,7 @@ import math
 
 import numpy as np
 import pytest
-from scipy.optimize import fsolve
+from scipy.optimize import brentq, fsolve
 
 from netcheck.api import read_netlist
 from netcheck.mna.bias import operating_point
@@ -262,3 +262,29 @@ def test_mos_in_triode_against_fsolve():
     want = np.linalg.solve(y, [-gm * DIVIDE, gm * DIVIDE])[0]
     got = circuit.ac("VIN", "d", freqs=np.array([10.0])).transfer[0]
     assert got == pytest.approx(want, rel=REL)
+
+
+@pytest.mark.parametrize("drive, rg", [(24.0, 100.0), (200.0, 1.0)])
+def test_jfet_with_its_gate_driven_forward_against_brentq(drive, rg):
+    """A gate junction forward-biased hard (a mis-wired gate, 24 V through 100 Ω): its
+    steps are limited like any junction's, so plain Newton finds the point; the gate
+    diodes are Shockley's (1949), the channel the square law, written here."""
+    is_, vt = 1e-14, 1.380649e-23 * 300.15 / 1.602176634e-19
+    text = (f"Quillmere qm_buf1 JFET with the gate mis-wired\nVG gg 0 DC {drive}\n"
+            f"RG gg g {rg}\nVDD vdd 0 DC 15\nRD vdd d 1k\nJ1 d g 0 qm_jin\n"
+            ".model qm_jin NJF (BETA=1m VTO=-2 IS=10f)\n")
+    op = operating_point(read_netlist(text))
+    assert op.method == "Newton"
+
+    def drain(vg):  # KCL at the drain for a given gate voltage (saturation: vd ≥ vg + 2)
+        return brentq(lambda vd: (15 - vd) / 1e3 - 1e-3 * (vg + 2) ** 2
+                      + is_ * math.expm1((vg - vd) / vt), vg + 2, 16, xtol=1e-15, rtol=1e-15)
+
+    def gate(vg):  # KCL at the gate: the feed current into both gate diodes
+        vd = drain(vg)
+        return (drive - vg) / rg - is_ * math.expm1(vg / vt) - is_ * math.expm1((vg - vd) / vt)
+
+    vg = brentq(gate, 0.3, 1.3, xtol=1e-15, rtol=1e-15)
+    vd = drain(vg)
+    assert op.voltage("g") == pytest.approx(vg, rel=REL)
+    assert op.voltage("d") == pytest.approx(vd, rel=REL)
