@@ -71,6 +71,7 @@ CODES: dict[str, str] = {
     "analysis-305": "analysis not available for a circuit with a transmission line",
     "analysis-306": "DC operating point not found",
     "analysis-307": "device outside its usual region at the operating point (warning)",
+    "analysis-308": "analysis not available for a circuit with semiconductor devices",
     "run-400": "could not write output",
     "run-401": "output refused (an input of the run, a device or FIFO, two outputs to -)",
     "run-402": "bad command-line value",

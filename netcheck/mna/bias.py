@@ -117,6 +117,18 @@ class _Companion:
     def voltages(self, x: np.ndarray) -> np.ndarray:
         return np.array([0.0 if r is None else x[r] for r in self.cols])
 
+    def start(self, v: np.ndarray) -> None:
+        """Take the junction voltages at terminal voltages ``v`` as the last ones used:
+        a solve continued from a solution limits its first step from there, not from 0."""
+        d = self.device
+        if isinstance(d, Diode):
+            self.junctions = [float(v[0] - v[1])]
+        elif isinstance(d, (Bjt, Jfet)):  # base/gate to emitter/source, to collector/drain
+            p = d.model.polarity
+            self.junctions = [float(p * (v[1] - v[2])), float(p * (v[1] - v[0]))]
+        else:
+            self.junctions = []
+
     def _limit(self, k: int, v: float, n: float, is_: float) -> float:
         """Junction k's voltage ``v`` (device frame) after limiting against the last."""
         if len(self.junctions) <= k:
@@ -163,14 +175,20 @@ class _Companion:
             return np.array([q.id, 0.0, -q.id, 0.0]), jac
         if isinstance(d, Jfet):
             m = d.model
-            q = eq.jfet(m, v[1] - v[2], v[0] - v[2], self.temp_c)
+            p = m.polarity
+            # the gate junctions are limited like a bipolar transistor's
+            vgs = p * self._limit(0, p * (v[1] - v[2]), m.N, m.IS)
+            vgd = p * self._limit(1, p * (v[1] - v[0]), m.N, m.IS)
+            q = eq.jfet(m, vgs, vgs - vgd, self.temp_c)
             gs, gd = q.gate_source, q.gate_drain
             # columns d/d(vd, vg, vs)
             did = np.array([q.gds, q.gm, -(q.gm + q.gds)])
             dgs = np.array([0.0, gs.g, -gs.g])
             dgd = np.array([-gd.g, gd.g, 0.0])
             jac = np.array([did - dgd, dgs + dgd, -did - dgs])
-            return np.array([q.id - gd.i, gs.i + gd.i, -q.id - gs.i]), jac
+            at = np.array([v[1] - vgd, v[1], v[1] - vgs])  # terminal voltages of the bias point
+            i0 = np.array([q.id - gd.i, gs.i + gd.i, -q.id - gs.i]) + jac @ (v - at)
+            return i0, jac
         raise AssertionError(f"no equations for {type(d).__name__}")
 
 
@@ -195,6 +213,9 @@ class _PolyCompanion:
 
     def voltages(self, x: np.ndarray) -> np.ndarray:
         return np.array([0.0 if r is None else x[r] for r in self.cols])
+
+    def start(self, v: np.ndarray) -> None:
+        """Nothing to remember between solves: no junction to limit."""
 
     def controls(self, v: np.ndarray) -> tuple[list[float], np.ndarray]:
         """The control values at unknowns ``v`` and their matrix d(controls)/d(v)."""
@@ -260,7 +281,7 @@ class _DcSystem:
         diag = sp.diags(np.r_[np.full(self.n_nodes, gmin), np.zeros(self.n - self.n_nodes)])
         base = (self.g + diag).tolil() if gmin else self.g.tolil()
         for c in self.companions:
-            c.junctions = []  # a polynomial source has none: harmless
+            c.start(c.voltages(x))
         b = scale * self.b
         for it in range(1, MAX_ITERATIONS + 1):
             a = base.copy()
@@ -333,7 +354,8 @@ def _solve_dc(system: _DcSystem) -> tuple[np.ndarray, str, int]:
         step = min(step * 2.0, 0.5)
     if lam >= 1.0:
         return x, "source stepping", total
-    raise OperatingPointError(_failure(system))
+    first = system.companions[0].device.span if system.companions else None
+    raise OperatingPointError(_failure(system), first)  # at the first device's card
 
 
 def _failure(system: _DcSystem) -> str:

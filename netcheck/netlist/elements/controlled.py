@@ -8,7 +8,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, ClassVar
 
-from ...exceptions import Diagnostic, ElaborationError
+from ...exceptions import Diagnostic, ElaborationError, MeasurementError
 from ..source import printable
 from .base import Element
 
@@ -360,6 +360,13 @@ class LinearisedSource(Element):
         return tuple(c[1] for c in self.inputs if c[0] == "i")
 
     def stamp(self, st: "Stamper", value: Any) -> None:
+        if st.values:  # sampled part values move the operating point (see Linearised)
+            raise MeasurementError(
+                f"{printable(self.name)}: Monte Carlo, worst case and part stress are not "
+                "available yet for a circuit with polynomial sources: each sample would "
+                "need its own DC operating point, and the nominal one would give wrong "
+                "answers; the nominal check is exact (it solves the operating point)",
+                self.span, code="analysis-308")
         p, n = self.nodes[0], self.nodes[1]
         if self.output == "v":
             k = st.branch(self.name)

@@ -10,7 +10,8 @@ instance values:
 * ``Jname drain gate source MODEL [area] [OFF] [area=a] [m=k]``
 
 ``area`` and ``m`` (parallel copies) scale a device's currents and capacitances and
-divide its series resistances; for a MOSFET ``m`` scales the width. A device is not
+divide its series resistances; for a MOSFET ``m`` scales the width and the overlap
+``CGBO`` (per metre of length) and divides ``RD`` and ``RS``. A device is not
 linear: it has no stamp of its own. The operating point (:mod:`netcheck.mna.bias`)
 solves the circuit's DC equations with the device equations of
 :mod:`netcheck.mna.devices`, and each device is then replaced by its small-signal
@@ -27,7 +28,7 @@ import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, ClassVar
 
-from ...exceptions import Diagnostic, ElaborationError
+from ...exceptions import Diagnostic, ElaborationError, MeasurementError
 from ..device_models import (BjtModel, DeviceModel, JfetModel, MosModel,
                              check_geometry, device_model)
 from ..source import printable
@@ -90,12 +91,15 @@ class Device(Element):
             extra += 1
             card = rd.model()
         if card is None:
-            what = rd.peek_keyword() or "nothing"
+            if extra and not rd.more():
+                rd.pos -= 1  # the word read as a substrate node was the model's name
+            what = rd.peek_keyword()
+            found = (f"found {printable(what)}, which names no .model card" if what
+                     else "found nothing")
             raise ElaborationError(
                 f"{printable(rd.name)}: expected the name of a .model card of type "
-                f"{cls.MODEL_LETTER.replace(',', ' or ')} after the nodes, found "
-                f"{printable(what)} (define it with .model NAME TYPE (...))",
-                rd.field_span(), code="netlist-130")
+                f"{cls.MODEL_LETTER.replace(',', ' or ')} after the nodes, {found} "
+                "(define it with .model NAME TYPE (...))", rd.field_span(), code="netlist-130")
         if card.letter != cls.letter:
             raise ElaborationError(
                 f"{printable(rd.name)}: model {printable(card.name)} is of type "
@@ -255,7 +259,11 @@ class Mosfet(Device):
         w = opts["w"][0] if "w" in opts else model.W
         l = opts["l"][0] if "l" in opts else model.L  # noqa: E741
         check_geometry(w, l, rd.span)
-        w *= opts.get("m", (1.0, None))[0]
+        copies = opts.get("m", (1.0, None))[0]
+        # m copies in parallel: m times the width (currents, W-scaled capacitances), the
+        # length-scaled overlap CGBO·L m times, RD and RS each 1/m
+        w *= copies
+        model = _scaled(model, copies, ("CGBO",), ("RD", "RS"))
         return cls(rd.name, nodes, rd.span, card.name, model, off, tuple(notes + more), w, l)
 
 
@@ -327,6 +335,16 @@ class Linearised(Element):
         return tuple((first, n) for n in self.nodes[1:])
 
     def stamp(self, st: "Stamper", value: Any) -> None:
+        if st.values:
+            # sampled or perturbed part values (Monte Carlo, worst case, stress): these
+            # conductances hold at the nominal operating point only, so stamping them
+            # beside other values would answer silently wrong
+            raise MeasurementError(
+                f"{printable(self.name)}: Monte Carlo, worst case and part stress are not "
+                "available yet for a circuit with semiconductor devices: each sample would "
+                "need its own DC operating point, and the nominal one would give wrong "
+                "answers; the nominal check is exact (it solves the operating point)",
+                self.span, code="analysis-308")
         rows = [st.row_of(n) for n in self.nodes]
         for mat, table in (("G", self.g), ("C", self.c)):
             for r, line in zip(rows, table):
