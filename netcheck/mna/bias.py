@@ -45,7 +45,8 @@ import scipy.sparse.linalg as spla
 from ..exceptions import OperatingPointError
 from ..netlist.circuit import GROUND, Circuit
 from ..netlist.elements import Element
-from ..netlist.elements.controlled import LinearisedSource, poly_terms, poly_value
+from ..netlist.elements.controlled import LinearisedSource
+from ..netlist.gradients import NoValue
 from ..netlist.elements.devices import Bjt, Device, Diode, Jfet, Linearised, Mosfet
 from ..netlist.elements.sources import CurrentSource, VoltageSource
 from ..netlist.source import printable
@@ -192,10 +193,12 @@ class _Companion:
         raise AssertionError(f"no equations for {type(d).__name__}")
 
 
-class _PolyCompanion:
-    """A polynomial source in the Newton iteration: its output equation's rows (the
-    branch row of E and H, the two output nodes of G and F) as functions of the unknowns
-    its controls read (node voltages, branch currents)."""
+class _SourceCompanion:
+    """A nonlinear source (POLY or behavioural) in the Newton iteration: output = F(controls).
+    Its rows are the output equation's (the branch row of a voltage output, the two
+    output nodes of a current output); its columns the unknowns its controls read (node
+    voltages, branch currents). F and its exact gradient come from the source's
+    ``output``."""
 
     def __init__(self, source: Any, st: Stamper) -> None:
         self.device, self.held = source, False
@@ -206,10 +209,14 @@ class _PolyCompanion:
                      if control[0] == "v" else [(st.branch(control[1]), 1.0)])
             self.inputs.append([(cols.setdefault(r, len(cols)), s) for r, s in where])
         self.cols = list(cols)
-        self.terms = poly_terms(len(self.inputs), len(source.coefficients))
         self.voltage = source.has_branch
         self.rows = ([st.branch(source.name)] if self.voltage else
                      [st.row_of(source.nodes[0]), st.row_of(source.nodes[1])])
+        m = np.zeros((len(self.inputs), len(self.cols)))
+        for k, where in enumerate(self.inputs):
+            for pos, s in where:
+                m[k, pos] += s
+        self.m = m  # d(controls)/d(unknowns read)
 
     def voltages(self, x: np.ndarray) -> np.ndarray:
         return np.array([0.0 if r is None else x[r] for r in self.cols])
@@ -217,25 +224,20 @@ class _PolyCompanion:
     def start(self, v: np.ndarray) -> None:
         """Nothing to remember between solves: no junction to limit."""
 
-    def controls(self, v: np.ndarray) -> tuple[list[float], np.ndarray]:
-        """The control values at unknowns ``v`` and their matrix d(controls)/d(v)."""
-        m = np.zeros((len(self.inputs), len(self.cols)))
-        for k, where in enumerate(self.inputs):
-            for pos, s in where:
-                m[k, pos] += s
-        return list(m @ v), m
+    def output(self, v: np.ndarray) -> tuple[float, np.ndarray]:
+        """F and dF/d(controls) at unknowns ``v`` (NoValue where F has none)."""
+        value, grad = self.device.output(list(self.m @ v))
+        return float(value), np.asarray(grad, dtype=float)
 
     def evaluate(self, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        u, m = self.controls(v)
-        p, grad = poly_value(self.terms, self.device.coefficients, u)
-        g = np.asarray(grad) @ m
-        if self.voltage:  # row k: v+ − v− − P = 0
-            return np.array([-p]), -g[None, :]
-        return np.array([p, -p]), np.array([g, -g])
+        f, grad = self.output(v)
+        g = grad @ self.m
+        if self.voltage:  # row k: v+ − v− − F = 0
+            return np.array([-f]), -g[None, :]
+        return np.array([f, -f]), np.array([g, -g])
 
     def small_signal(self, x: np.ndarray) -> LinearisedSource:
-        u, _ = self.controls(self.voltages(x))
-        _, grad = poly_value(self.terms, self.device.coefficients, u)
+        _, grad = self.output(self.voltages(x))
         s = self.device
         return LinearisedSource(s.name, s.nodes[:2], s.span, "v" if self.voltage else "i",
                                 s.inputs, tuple(float(g) for g in grad))
@@ -271,8 +273,19 @@ class _DcSystem:
         self.n_nodes = len(st.nodes)
         self.companions: list[Any] = [
             _Companion(e, [st.row_of(n) for n in e.nodes], temp_c) if isinstance(e, Device)
-            else _PolyCompanion(e, st)
+            else _SourceCompanion(e, st)
             for e in circuit.elements if getattr(e, "nonlinear", False)]
+        #: the last behavioural expression found with no value at an iterate
+        self.no_value: NoValue | None = None
+
+    def linear_start(self) -> np.ndarray | None:
+        """The solution with every nonlinear element's output at zero (devices and sources
+        off): a start where an expression that has no value at x = 0 may have one."""
+        try:
+            x = _solve(self.g.tocsc(), self.b)
+        except (RuntimeError, ValueError, np.linalg.LinAlgError):
+            return None
+        return x if np.all(np.isfinite(x)) else None
 
     def newton(self, x: np.ndarray, scale: float = 1.0, gmin: float = 0.0
                ) -> tuple[np.ndarray, int] | None:
@@ -301,6 +314,9 @@ class _DcSystem:
                                 a[r, k] += jj
             except OverflowError:
                 return None
+            except NoValue as err:  # a behavioural expression out of its domain here
+                self.no_value = err
+                return None
             try:
                 new = _solve(a.tocsc(), rhs)
             except (RuntimeError, ValueError, np.linalg.LinAlgError):
@@ -327,6 +343,12 @@ def _solve_dc(system: _DcSystem) -> tuple[np.ndarray, str, int]:
     if got is not None:
         return got[0], "Newton", got[1]
     total = MAX_ITERATIONS
+    if system.no_value is not None:  # an expression with no value at zero: start elsewhere
+        start = system.linear_start()
+        got = None if start is None else system.newton(start)
+        if got is not None:
+            return got[0], "Newton", total + got[1]
+        total += MAX_ITERATIONS
     # conductance stepping
     x, gmin, ok = zero, GMIN_START, True
     while gmin >= GMIN_END:
@@ -354,8 +376,19 @@ def _solve_dc(system: _DcSystem) -> tuple[np.ndarray, str, int]:
         step = min(step * 2.0, 0.5)
     if lam >= 1.0:
         return x, "source stepping", total
+    if system.no_value is not None:
+        raise _no_value(system.no_value, "where the DC solve went (from zero, from the "
+                        "linear solution and with both homotopies)")
     first = system.companions[0].device.span if system.companions else None
     raise OperatingPointError(_failure(system), first)  # at the first device's card
+
+
+def _no_value(err: NoValue, where: str) -> OperatingPointError:
+    """analysis-309 at the operator or function of a behavioural expression that has no value."""
+    return OperatingPointError(
+        f"a behavioural expression has no value {where}: {err.message}; keep its "
+        "arguments inside their domain at the operating point (a divisor away from zero, "
+        "a logarithm's argument positive)", err.span, code="analysis-309")
 
 
 def _failure(system: _DcSystem) -> str:
@@ -384,8 +417,11 @@ def linearised(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C
     points: list[DevicePoint] = []
     replaced: dict[str, Element] = {}
     for c in system.companions:
-        if isinstance(c, _PolyCompanion):
-            replaced[c.device.name] = c.small_signal(x)
+        if isinstance(c, _SourceCompanion):
+            try:
+                replaced[c.device.name] = c.small_signal(x)
+            except NoValue as err:
+                raise _no_value(err, "at the DC operating point") from None
             continue
         small, point = _small_signal(c.device, c.voltages(x), temp_c)
         replaced[c.device.name] = small

@@ -105,6 +105,7 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     _one_note_for_initial_conditions(flat.diags)
     flat.diags.extend(tie_isolated_ports(flat.elements))
     elements = tuple(flat.elements)
+    _check_probes(elements)
     _check_references(elements)
     named = dict.fromkeys(chain.from_iterable(e.nodes for e in elements))
     named.pop(GROUND, None)
@@ -465,6 +466,35 @@ def _lint_value(element: Element, card: Card, flat: Flat) -> None:
             "netlist-151", f"{printable(element.name)} = {printable(text)} reads as "
             f"{element.value:g} ({what}: SPICE 'M' is milli); write "
             f"{printable(text[:i])}meg if mega was meant", fld.span))
+
+
+def _check_probes(elements: tuple[Element, ...]) -> None:
+    """Each v() of a behavioural expression names a node some element connects to (netlist-115),
+    each i() a voltage source (netlist-107), at the place the expression writes it."""
+    probing = [e for e in elements if getattr(e, "probe_spans", None)]
+    if not probing:
+        return
+    by_name = {e.name: e for e in elements}
+    known = {GROUND}
+    for e in elements:
+        known.update(e.nodes[:2] if getattr(e, "probe_spans", None) is not None else e.nodes)
+    for e in probing:
+        for control, span in zip(e.inputs, e.probe_spans):  # type: ignore[attr-defined]
+            if control[0] == "i":
+                target = by_name.get(control[1])
+                if not isinstance(target, VoltageSource):
+                    found = "" if target is None else f" ({printable(control[1])} is not one)"
+                    raise ElaborationError(
+                        f"{printable(e.name)}: i() names voltage source "
+                        f"{printable(control[1].split('.')[-1])}, which is not defined in "
+                        f"its scope{found}; i() reads the current of a V card", span,
+                        code="netlist-107")
+                continue
+            for node in control[1:]:
+                if node not in known:
+                    raise ElaborationError(
+                        f"{printable(e.name)}: v() names node {printable(node)}, which no "
+                        "element connects to", span, code="netlist-115")
 
 
 def _check_references(elements: tuple[Element, ...]) -> None:

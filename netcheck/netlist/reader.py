@@ -137,10 +137,27 @@ class CardReader:
         item = self.items[self.pos + ahead]
         return item.text.lower() if isinstance(item, Field) and item.kind == "word" else ""
 
-    def peek_assign(self) -> str:
-        """The key of the next field if it is ``key=value`` (lower case), else ``''``."""
-        item = self.items[self.pos] if self.pos < len(self.items) else None
+    def peek_assign(self, ahead: int = 0) -> str:
+        """The key of the next field (or the one ``ahead`` fields further) if it is
+        ``key=value`` (lower case), else ``''``."""
+        k = self.pos + ahead
+        item = self.items[k] if k < len(self.items) else None
         return item.key.text.lower() if isinstance(item, Assign) else ""
+
+    def assigned_field(self) -> Field:
+        """The value field of the next field, a ``key=value`` one (not evaluated)."""
+        item = self.items[self.pos]
+        assert isinstance(item, Assign)
+        self.pos += 1
+        return item.value
+
+    def node_at(self, text: str, span: Span) -> str:
+        """The circuit node that node name ``text`` (written at ``span``) is in this scope."""
+        return self._node_of(Field("word", text, span))
+
+    def element_ref(self, text: str) -> str:
+        """The (scope-qualified) name of the element ``text`` names."""
+        return self._ref_of(text)
 
     def assigned(self, what: str) -> float:
         """Read and evaluate the value of the next field, a ``key=value`` one."""

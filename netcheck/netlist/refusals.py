@@ -42,8 +42,9 @@ def device_advice(letter: str, name: str) -> str | None:
         return (f"{shown} is {what}: a switch has no small-signal model; write the resistor "
                 "of the state you want to check (on or off resistance) in its place")
     if letter.upper() == "B":
-        return (f"{shown} is {what}: netcheck solves linear circuits; write the small-signal "
-                "relation as a controlled source (E, F, G, H) with a constant gain")
+        return (f"{shown} is {what} in a form netcheck does not read: write "
+                "Bname n+ n- V={expression} (a voltage) or Bname n+ n- I={expression} (a "
+                "current), the expression in braces (docs/elements.md)")
     return (f"{shown} is {what}, which netcheck does not read; a linear equivalent of R, L, "
             "C, K and controlled sources would work instead")
 

@@ -10,7 +10,8 @@ import pytest
 
 from netcheck.netlist import elements
 from netcheck.netlist.elaborate import elaborate
-from netcheck.netlist.elements import (CCCS, CCVS, ELEMENTS, VCCS, VCVS, Bjt, Capacitor,
+from netcheck.netlist.elements import (CCCS, CCVS, ELEMENTS, VCCS, VCVS, BehaviouralSource,
+                                       BehaviouralVCCS, BehaviouralVCVS, Bjt, Capacitor,
                                        Coupling, CurrentSource, Diode, Element, IdealOpAmp,
                                        Inductor, Jfet, Mosfet, PolyCCCS, PolyCCVS, PolyVCCS,
                                        PolyVCVS, Resistor, TransmissionLine, VoltageSource)
@@ -24,6 +25,7 @@ FAMILY = {
     "K": "coupling",
     "T": "tline",
     "D": "devices", "Q": "devices", "M": "devices", "J": "devices",
+    "B": "behavioural",
 }
 #: element classes no card makes: the devices' common base, and a device's small-signal
 #: equivalent and a polynomial source's linearisation, which the operating point puts in their
@@ -104,11 +106,25 @@ F2 0 i POLY(1) V1 0 1
 R10 i 0 1k
 H2 j 0 POLY(1) V1 0 100
 R11 j 0 1k
+E4 k 0 VALUE={2*v(in)}
+R12 k 0 1k
+G3 0 l value={1m*v(in,0)^2}
+R13 l 0 1k
 """, {"V1": VoltageSource, "R1": Resistor, "E1": VCVS, "R2": Resistor, "G1": VCCS,
       "R3": Resistor, "F1": CCCS, "R4": Resistor, "H1": CCVS, "R5": Resistor,
       "R6": Resistor, "R7": Resistor, "E2": IdealOpAmp, "E3": PolyVCVS, "R8": Resistor,
       "G2": PolyVCCS, "R9": Resistor, "F2": PolyCCCS, "R10": Resistor, "H2": PolyCCVS,
-      "R11": Resistor}),
+      "R11": Resistor, "E4": BehaviouralVCVS, "R12": Resistor, "G3": BehaviouralVCCS,
+      "R13": Resistor}),
+    "behavioural": ("""Quillmere Instruments behavioural sources
+V1 in 0 DC 1 AC 1
+R1 in 0 1k
+B1 c 0 V={tanh(v(in))}
+R4 c 0 1k
+B2 0 d I={0.5*i(V1)}
+R5 d 0 1k
+""", {"V1": VoltageSource, "R1": Resistor, "B1": BehaviouralSource, "R4": Resistor,
+      "B2": BehaviouralSource, "R5": Resistor}),
     "coupling": ("""Quillmere Instruments coupled coils
 V1 in 0 AC 1
 R1 in p 50

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 import itertools
 import math
 from collections.abc import Sequence
@@ -9,7 +10,9 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, ClassVar
 
 from ...exceptions import Diagnostic, ElaborationError, MeasurementError
-from ..source import printable
+from ..gradients import read_expression, value_and_gradient
+from ..source import Span, printable
+from ..syntax import Field
 from .base import Element
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -17,7 +20,8 @@ if TYPE_CHECKING:  # pragma: no cover
     from ..reader import CardReader
 
 __all__ = ["VCVS", "IdealOpAmp", "VCCS", "CCCS", "CCVS", "PolyVCVS", "PolyVCCS", "PolyCCCS",
-           "PolyCCVS", "LinearisedSource", "poly_terms", "poly_value"]
+           "PolyCCVS", "BehaviouralVCVS", "BehaviouralVCCS", "LinearisedSource", "poly_terms",
+           "poly_value", "is_value_card"]
 
 
 @dataclass(slots=True, unsafe_hash=True)
@@ -54,6 +58,8 @@ class VCVS(_Controlled):
             return IdealOpAmp.read(rd)
         if rd.peek_keyword(2) == "poly":
             return PolyVCVS.read(rd)
+        if is_value_card(rd):
+            return BehaviouralVCVS.read(rd)
         nodes = rd.nodes(4)
         gain = rd.value("gain")
         rd.finish()
@@ -114,6 +120,8 @@ class VCCS(_Controlled):
     def from_card(cls, rd: "CardReader") -> "Element":
         if rd.peek_keyword(2) == "poly":
             return PolyVCCS.read(rd)
+        if is_value_card(rd):
+            return BehaviouralVCCS.read(rd)
         nodes = rd.nodes(4)
         gm = rd.value("transconductance")
         rd.finish()
@@ -191,6 +199,11 @@ def poly_terms(n: int, count: int) -> list[tuple[int, ...]]:
     return out[:count]
 
 
+@functools.lru_cache(maxsize=256)
+def _terms(n: int, count: int) -> list[tuple[int, ...]]:
+    return poly_terms(n, count)
+
+
 def poly_value(terms: list[tuple[int, ...]], coefficients: tuple[float, ...],
                u: Sequence[float]) -> tuple[float, list[float]]:
     """The polynomial at controls ``u`` and its gradient (exact: each monomial's
@@ -211,8 +224,42 @@ def poly_value(terms: list[tuple[int, ...]], coefficients: tuple[float, ...],
     return value, grad
 
 
+class _Nonlinear:
+    """What every source whose output is a nonlinear function F of its controls shares
+    (the POLY forms here, the behavioural ones in :mod:`.behavioural`): the circuit is
+    solved at its DC operating point and the source replaced there by its linearisation
+    (netcheck.mna.bias), a :class:`LinearisedSource` of gains dF/d(control).
+
+    A subclass gives :attr:`inputs` (each control ``("v", node+, node-)`` or
+    ``("i", source)``) and :meth:`output` (F and its gradient at control values).
+    """
+
+    __slots__ = ()
+    nonlinear: ClassVar[bool] = True
+
+    def output(self, u: Sequence[float]) -> tuple[float, Sequence[float]]:
+        """F at control values ``u`` and its exact gradient dF/du."""
+        raise NotImplementedError
+
+    def stamp(self, st: "Stamper", value: Any) -> None:
+        raise AssertionError(f"{self.name} is a nonlinear source: linearise the circuit at "  # type: ignore[attr-defined]
+                             "its operating point before stamping it (netcheck.mna.bias)")
+
+    def stamp_linear(self, st: "Stamper") -> None:
+        """The linear part of the DC equations: the output branch of a voltage output."""
+        if self.has_branch:  # type: ignore[attr-defined]
+            st.incidence(self.nodes[0], self.nodes[1], st.branch(self.name))  # type: ignore[attr-defined]
+
+    @property
+    def sensed(self) -> tuple[tuple[str, str], ...]:
+        return tuple((c[1], c[2]) for c in self.inputs if c[0] == "v")  # type: ignore[attr-defined]
+
+    def controls(self) -> tuple[str, ...]:
+        return tuple(c[1] for c in self.inputs if c[0] == "i")  # type: ignore[attr-defined]
+
+
 @dataclass(slots=True, unsafe_hash=True)
-class _Poly:
+class _Poly(_Nonlinear):
     """What the four polynomial forms share: ``Xname n+ n- POLY(n) controls... p0 p1 ...``.
 
     The output (voltage for E and H, current for G and F) is the polynomial of the
@@ -222,7 +269,6 @@ class _Poly:
     replaced by its linearisation there (netcheck.mna.bias).
     """
 
-    nonlinear: ClassVar[bool] = True
     #: the controls are currents through voltage sources (F, H), not voltages (E, G)
     CURRENTS: ClassVar[bool] = False
 
@@ -264,15 +310,6 @@ class _Poly:
             coefficients = [0.0, coefficients[0]]
         return nodes, sources, tuple(coefficients)
 
-    def stamp(self, st: "Stamper", value: Any) -> None:
-        raise AssertionError(f"{self.name} is a polynomial source: linearise the circuit at "
-                             "its operating point before stamping it (netcheck.mna.bias)")
-
-    def stamp_linear(self, st: "Stamper") -> None:
-        """The linear part of the DC equations: the output branch of E and H."""
-        if self.has_branch:
-            st.incidence(self.nodes[0], self.nodes[1], st.branch(self.name))
-
     @property
     def inputs(self) -> tuple[tuple[str, ...], ...]:
         """Each control: ``("v", node+, node-)`` or ``("i", source)``."""
@@ -281,12 +318,9 @@ class _Poly:
         nodes = self.nodes[2:]
         return tuple(("v", nodes[2 * i], nodes[2 * i + 1]) for i in range(len(nodes) // 2))
 
-    @property
-    def sensed(self) -> tuple[tuple[str, str], ...]:
-        return tuple((c[1], c[2]) for c in self.inputs if c[0] == "v")
-
-    def controls(self) -> tuple[str, ...]:
-        return self.sources
+    def output(self, u: Sequence[float]) -> tuple[float, Sequence[float]]:
+        return poly_value(_terms(len(self.inputs), len(self.coefficients)),
+                          self.coefficients, u)
 
     @property
     def value(self) -> float:
@@ -330,31 +364,113 @@ class PolyCCVS(_Poly, CCVS):
     CURRENTS: ClassVar[bool] = True
 
 
+# ---------------------------------------------------------------- behavioural sources
+
+class _Behavioural(_Nonlinear):
+    """What the behavioural forms share: the expression tree, its controls and where
+    each control is written (for errors)."""
+
+    __slots__ = ()
+    range_why: ClassVar[str] = ""
+
+    @staticmethod
+    def read_expression(rd: "CardReader", fld: Field
+                        ) -> tuple[tuple[str, ...], Any, tuple[tuple[str, ...], ...],
+                                   tuple[Span, ...]]:
+        """(output nodes + the nodes v() reads, tree, controls, their places) after the
+        output nodes, read already, and the expression ``fld``."""
+        tree, inputs, spans = read_expression(rd, fld)
+        sensed = tuple(n for c in inputs if c[0] == "v" for n in c[1:])
+        return sensed, tree, inputs, spans
+
+    @classmethod
+    def read(cls, rd: "CardReader") -> Any:
+        """An E or G card ``n+ n- VALUE={expr}``."""
+        outputs = rd.nodes(2)
+        sensed, tree, inputs, spans = cls.read_expression(rd, _value_field(rd))
+        rd.finish()
+        return cls(rd.name, outputs + sensed, rd.span, 0.0, "", tree, inputs, spans)  # type: ignore[call-arg]
+
+    def output(self, u: Sequence[float]) -> tuple[float, Sequence[float]]:
+        return value_and_gradient(self.expression, u)  # type: ignore[attr-defined]
+
+    @property
+    def value(self) -> float:
+        return float("nan")
+
+
+def _value_field(rd: "CardReader") -> Field:
+    """The expression of ``VALUE={expr}`` (or ``VALUE {expr}``), the key taken."""
+    if rd.peek_assign() == "value":
+        return rd.assigned_field()
+    rd.skip()  # VALUE
+    if not rd.more():
+        raise ElaborationError(f"{printable(rd.name)}: VALUE needs its expression, "
+                               "VALUE={...}", rd.field_span(), code="netlist-105")
+    fld = rd.items[rd.pos]
+    if not isinstance(fld, Field):
+        rd.unexpected("VALUE needs its expression, VALUE={...}")
+    rd.skip()
+    return fld  # type: ignore[return-value]
+
+
+def is_value_card(rd: "CardReader") -> bool:
+    """True if the card reads ``n+ n- VALUE...`` (an E or G behavioural source)."""
+    return rd.peek_assign(2) == "value" or rd.peek_keyword(2) == "value"
+
+
 @dataclass(slots=True, unsafe_hash=True)
-class LinearisedSource(Element):
-    """A polynomial source replaced by its linearisation at the operating point: the
-    output (``v``: voltage with its own branch, ``i``: current n+ → n−) is
-    Σ gains[k]·control[k] for the controls of :attr:`_Poly.inputs` (the constant part
+class BehaviouralVCVS(_Behavioural, VCVS):
+    """``Ename n+ n- VALUE={expr}``: v(n+) − v(n−) = expr."""
+
+    expression: Any = None
+    inputs: tuple[tuple[str, ...], ...] = ()
+    probe_spans: tuple[Span, ...] = ()
+
+
+
+@dataclass(slots=True, unsafe_hash=True)
+class BehaviouralVCCS(_Behavioural, VCCS):
+    """``Gname n+ n- VALUE={expr}``: current expr flows from n+ through the source to n−."""
+
+    expression: Any = None
+    inputs: tuple[tuple[str, ...], ...] = ()
+    probe_spans: tuple[Span, ...] = ()
+
+
+
+class _OutputKind:
+    """A two-terminal source whose output is a voltage (``output_kind`` ``v``: its own
+    branch current, voltage-defined) or a current (``i``: current-defined)."""
+
+    __slots__ = ()
+
+    @property
+    def has_branch(self) -> bool:
+        return self.output_kind == "v"  # type: ignore[attr-defined]
+
+    @property
+    def voltage_defined(self) -> bool:
+        return self.output_kind == "v"  # type: ignore[attr-defined]
+
+    @property
+    def current_defined(self) -> bool:
+        return self.output_kind == "i"  # type: ignore[attr-defined]
+
+
+@dataclass(slots=True, unsafe_hash=True)
+class LinearisedSource(_OutputKind, Element):
+    """A polynomial or behavioural source replaced by its linearisation at the operating point: the
+    output (``output_kind`` ``v``: voltage with its own branch, ``i``: current n+ → n−) is
+    Σ gains[k]·control[k] for the controls of the source's ``inputs`` (the constant part
     belongs to the operating point, not to the small-signal circuit)."""
 
-    output: str = "v"
+    output_kind: str = "v"
     inputs: tuple[tuple[str, ...], ...] = ()
     gains: tuple[float, ...] = ()
 
     letter: ClassVar[str] = "Y"
     n_nodes: ClassVar[int] = 2
-
-    @property
-    def has_branch(self) -> bool:  # type: ignore[override]
-        return self.output == "v"
-
-    @property
-    def voltage_defined(self) -> bool:  # type: ignore[override]
-        return self.output == "v"
-
-    @property
-    def current_defined(self) -> bool:  # type: ignore[override]
-        return self.output == "i"
 
     def controls(self) -> tuple[str, ...]:
         return tuple(c[1] for c in self.inputs if c[0] == "i")
@@ -363,12 +479,13 @@ class LinearisedSource(Element):
         if st.values:  # sampled part values move the operating point (see Linearised)
             raise MeasurementError(
                 f"{printable(self.name)}: Monte Carlo, worst case and part stress are not "
-                "available yet for a circuit with polynomial sources: each sample would "
-                "need its own DC operating point, and the nominal one would give wrong "
-                "answers; the nominal check is exact (it solves the operating point)",
+                "available yet for a circuit with polynomial or behavioural sources: each "
+                "sample would need its own DC operating point, and the nominal one would "
+                "give wrong answers; the nominal check is exact (it solves the operating "
+                "point)",
                 self.span, code="analysis-308")
         p, n = self.nodes[0], self.nodes[1]
-        if self.output == "v":
+        if self.output_kind == "v":
             k = st.branch(self.name)
             st.incidence(p, n, k)
             rows, sign = [k], [-1.0]

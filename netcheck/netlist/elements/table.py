@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from .base import Element
+from .behavioural import BehaviouralSource
 from .controlled import CCCS, CCVS, VCCS, VCVS
 from .coupling import Coupling
 from .devices import Bjt, Diode, Jfet, Mosfet
@@ -30,4 +31,5 @@ ELEMENTS: dict[str, type[Element]] = {
     "Q": Bjt,
     "M": Mosfet,
     "J": Jfet,
+    "B": BehaviouralSource,
 }
