@@ -29,7 +29,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from ..exceptions import ElaborationError
+from ..exceptions import ElaborationError, NetlistSyntaxError
 from .expressions import FUNCTIONS, BinOp, Call, Name, Neg, Num, parse_expression
 from .source import Span, printable
 from .syntax import Field
@@ -74,10 +74,12 @@ def _first(pick: Callable[..., float]) -> Callable[..., list[float]]:
     return partials
 
 
-def _pow_partials(a: float, b: float) -> list[float]:
-    """∂(a^b)/∂a = b·a^(b−1), ∂(a^b)/∂b = a^b·ln a (0 for a = 0 < b, the limit)."""
-    da = 0.0 if b == 0 else b * math.pow(a, b - 1.0)
-    db = 0.0 if a == 0 and b > 0 else math.pow(a, b) * math.log(a)
+def _pow_partials(a: float, b: float, need: Sequence[bool] = (True, True)) -> list[float]:
+    """∂(a^b)/∂a = b·a^(b−1), ∂(a^b)/∂b = a^b·ln a (0 for a = 0 < b, the limit); each
+    only where ``need`` asks (a^b of a negative a has a value and a derivative in a but
+    none in b)."""
+    da = 0.0 if b == 0 or not need[0] else b * math.pow(a, b - 1.0)
+    db = 0.0 if (a == 0 and b > 0) or not need[1] else math.pow(a, b) * math.log(a)
     return [da, db]
 
 
@@ -109,7 +111,7 @@ _BINARY: dict[str, Callable[[float, float], float]] = {
 }
 
 
-def _binary_partials(op: str, a: float, b: float) -> list[float]:
+def _binary_partials(op: str, a: float, b: float, need: Sequence[bool]) -> list[float]:
     if op == "+":
         return [1.0, 1.0]
     if op == "-":
@@ -118,7 +120,7 @@ def _binary_partials(op: str, a: float, b: float) -> list[float]:
         return [b, a]
     if op == "/":
         return [1.0 / b, -a / (b * b)]
-    return _pow_partials(a, b)
+    return _pow_partials(a, b, need)
 
 
 def value_and_gradient(expr: Any, u: Sequence[float]) -> tuple[float, np.ndarray]:
@@ -140,19 +142,22 @@ def _dual(expr: Any, u: Sequence[float]) -> tuple[float, np.ndarray]:
             return -a, -da
         case BinOp(op=op, left=left, right=right, span=span):
             args = [_dual(left, u), _dual(right, u)]
-            return _combine(op, f"{{}} {op} {{}}", _BINARY[op],
-                            lambda *v: _binary_partials(op, *v), args, span)
+            return _combine(f"{{}} {op} {{}}", _BINARY[op],
+                            lambda a, b, need: _binary_partials(op, a, b, need), args, span)
         case Call(func=func, args=args, span=span):
             values = [_dual(a, u) for a in args]
-            return _combine(func, f"{func}({', '.join(['{}'] * len(args))})",
-                            FUNCTIONS[func][2], DERIVATIVES[func], values, span)
+            partials = DERIVATIVES[func]
+            return _combine(f"{func}({', '.join(['{}'] * len(args))})",
+                            FUNCTIONS[func][2], _pow_partials if func == "pow" else
+                            lambda *v, need: partials(*v), values, span)
     raise TypeError(f"not a behavioural expression: {expr!r}")  # pragma: no cover
 
 
-def _combine(what: str, form: str, f: Callable[..., float],
+def _combine(form: str, f: Callable[..., float],
              partials: Callable[..., list[float]], args: list[tuple[float, np.ndarray]],
              span: Span) -> tuple[float, np.ndarray]:
-    """f of the arguments and, by the chain rule, its gradient."""
+    """f of the arguments and, by the chain rule, its gradient; ``partials(*values,
+    need=...)`` gives ∂f/∂(each argument) (those not needed may be left 0)."""
     values = [a for a, _ in args]
     shown = form.format(*(f"{v:g}" for v in values))
     try:
@@ -162,13 +167,14 @@ def _combine(what: str, form: str, f: Callable[..., float],
     if not math.isfinite(value):
         raise NoValue(f"{shown} is not finite ({value})", span)
     grad = np.zeros(len(args[0][1]))
-    if any(g.any() for _, g in args):
+    need = [bool(g.any()) for _, g in args]
+    if any(need):
         try:
-            d = partials(*values)
+            d = partials(*values, need=need)
         except (ZeroDivisionError, ValueError, OverflowError) as err:
             raise NoValue(f"{shown} has no derivative ({err})", span) from None
-        for dk, (_, g) in zip(d, args):
-            if g.any():
+        for dk, (_, g), wanted in zip(d, args, need):
+            if wanted:
                 if not math.isfinite(dk):
                     raise NoValue(f"{shown} has no finite derivative", span)
                 grad = grad + dk * g
@@ -183,8 +189,15 @@ def read_expression(rd: "CardReader", fld: Field) -> tuple[Any, tuple[tuple[str,
     (tree, controls, where each control is first written). Each control is
     ``("v", node+, node-)`` or ``("i", source)``, its names resolved in the card's scope."""
     env = rd.env
-    tree = parse_expression(fld.expr_text, fld.span.source, fld.span.line, fld.expr_column,
-                            env.func_names() | frozenset(PROBES))
+    try:
+        tree = parse_expression(fld.expr_text, fld.span.source, fld.span.line,
+                                fld.expr_column, env.func_names() | frozenset(PROBES))
+    except NetlistSyntaxError as err:
+        if err.message.startswith("unknown function"):
+            err = NetlistSyntaxError(err.message + "; in a behavioural expression also "
+                                     "v(node), v(node, node) and i(voltage source)",
+                                     err.span, code=err.code)
+        raise err from None
     reading = _Reading(rd)
     try:
         out = reading.compile(tree, env, {}, 0)
