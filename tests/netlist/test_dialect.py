@@ -18,7 +18,7 @@ import pytest
 
 from netcheck import read_netlist
 from netcheck.exceptions import ElaborationError, NetcheckError, NetlistSyntaxError
-from netcheck.netlist.parse import load_netlist
+from netcheck.netlist.parse import Assign, load_netlist
 
 F = np.array([100.0, 1e3, 1591.5494, 1e4, 1e5])
 
@@ -439,6 +439,25 @@ class TestRefused:
             load_netlist(f"Quillmere QM-7\nV1 in 0 AC 1\nR1 in out 1k\n{card}\n")
         assert info.value.code == "netlist-120"
         assert (info.value.span.line, info.value.span.column) == (4, col)
+
+    @pytest.mark.parametrize("card, col", [("E1 out 0 VALUE=2*v(in)", 19),
+                                           ("G1 out 0 value = 1m*v(in)", 22)])
+    def test_an_unbraced_behavioural_expression_asks_for_braces(self, card, col):
+        with pytest.raises(NetlistSyntaxError, match="in braces") as info:
+            load_netlist(f"Quillmere QM-7\nV1 in 0 AC 1\nR1 in out 1k\n{card}\n")
+        assert info.value.code == "netlist-100"
+        assert (info.value.span.line, info.value.span.column) == (4, col)
+
+    @pytest.mark.parametrize("card, key, col", [("E1 out 0 VALUE={2*v(in)}", "VALUE", 16),
+                                                ("B1 out 0 V = {tanh(v(in, 0))}", "V", 14),
+                                                ("B2 0 out I={1m*i(V1)}", "I", 12)])
+    def test_behavioural_cards_reach_the_card_reader_whole_with_their_columns(self, card,
+                                                                              key, col):
+        netlist = load_netlist(f"Quillmere QM-7\nV1 in 0 AC 1\nR1 in out 1k\n{card}\n")
+        fld = netlist.top.cards[-1].fields[-1]
+        assert isinstance(fld, Assign) and fld.key.text == key
+        assert fld.value.kind == "braced" and fld.value.text == card[col - 1:]
+        assert (fld.value.span.line, fld.value.span.column) == (4, col)
 
     @pytest.mark.parametrize("card", [".if (fast == 1)", ".alter"])
     def test_directives_that_would_change_the_circuit_are_refused(self, card):
