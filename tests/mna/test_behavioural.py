@@ -330,3 +330,24 @@ def test_the_command_line_names_file_line_and_code_of_a_bad_expression(tmp_path)
                    "--stop", "1k", "--ppd", "5")
     assert run.returncode == 2 and "Traceback" not in run.stderr
     assert f"{path}:5:13: error analysis-309" in run.stderr
+
+
+def test_the_other_written_forms_read_the_same():
+    """VALUE {expr} without '=', '**' for '^', v(a, gnd) for v(a): 3·v(a)² at 1.5 V is
+    6.75 V with gain 6·v(a) = 9 (power rule); a constant B source sets its node and
+    passes no signal (the constant belongs to the operating point); max(v(a), 1) takes
+    the v(a) branch and abs(−v(a)) has slope −1·−1 = +1, so the gain is 2."""
+    circuit = read_netlist("""Quillmere QM-B11 written forms
+V1 a 0 DC 1.5 AC 1
+R1 a 0 1k
+E1 b 0 VALUE {3*v(a, gnd)**2}
+R2 b 0 1k
+B1 c 0 V={2}
+R3 c 0 1k
+B2 d 0 V={max(v(a), 1) + abs(-v(a))}
+R4 d 0 1k
+""")
+    op = operating_point(circuit)
+    assert [op.voltage(n) for n in "bcd"] == pytest.approx([6.75, 2.0, 3.0], rel=1e-14)
+    gains = [circuit.ac("V1", n, freqs=np.array([1e3])).transfer[0] for n in "bcd"]
+    assert gains == pytest.approx([9.0, 0.0, 2.0], rel=1e-14, abs=1e-300)
