@@ -159,24 +159,27 @@ def _combine(form: str, f: Callable[..., float],
     """f of the arguments and, by the chain rule, its gradient; ``partials(*values,
     need=...)`` gives ∂f/∂(each argument) (those not needed may be left 0)."""
     values = [a for a, _ in args]
-    shown = form.format(*(f"{v:g}" for v in values))
+
+    def shown() -> str:  # the operation with its argument values, for a message
+        return form.format(*(f"{v:g}" for v in values))
+
     try:
         value = float(f(*values))
     except (ZeroDivisionError, ValueError, OverflowError) as err:
-        raise NoValue(f"{shown} has no value ({err})", span) from None
+        raise NoValue(f"{shown()} has no value ({err})", span) from None
     if not math.isfinite(value):
-        raise NoValue(f"{shown} is not finite ({value})", span)
+        raise NoValue(f"{shown()} is not finite ({value})", span)
     grad = np.zeros(len(args[0][1]))
     need = [bool(g.any()) for _, g in args]
     if any(need):
         try:
             d = partials(*values, need=need)
         except (ZeroDivisionError, ValueError, OverflowError) as err:
-            raise NoValue(f"{shown} has no derivative ({err})", span) from None
+            raise NoValue(f"{shown()} has no derivative ({err})", span) from None
         for dk, (_, g), wanted in zip(d, args, need):
             if wanted:
                 if not math.isfinite(dk):
-                    raise NoValue(f"{shown} has no finite derivative", span)
+                    raise NoValue(f"{shown()} has no finite derivative", span)
                 grad = grad + dk * g
     return value, grad
 

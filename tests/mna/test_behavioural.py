@@ -26,9 +26,8 @@ from scipy.optimize import brentq
 from netcheck.api import read_netlist
 from netcheck.exceptions import NetcheckError
 from netcheck.mna.bias import linearised, operating_point
-from netcheck.netlist.expressions import FUNCTIONS
+from netcheck.netlist.expressions import FUNCTIONS, BinOp, Call, Num
 from netcheck.netlist.gradients import DERIVATIVES, NoValue, Probe, value_and_gradient
-from netcheck.netlist.expressions import BinOp, Call, Num
 
 ROOT = Path(__file__).resolve().parents[2]
 F = np.logspace(1, 7, 13)
