@@ -44,6 +44,8 @@ __all__ = ["Probe", "NoValue", "read_expression", "value_and_gradient", "DERIVAT
 PROBES = ("v", "i")
 #: deepest nesting of .func calls written out in one expression
 _INLINE_MAX = 64
+#: deepest expression tree valued (one stack frame per level, within Python's 1000)
+DEPTH_MAX = 600
 
 
 @dataclass(frozen=True, slots=True)
@@ -145,7 +147,9 @@ def _dual(expr: Any, u: Sequence[float]) -> tuple[float, np.ndarray]:
             return _combine(f"{{}} {op} {{}}", _BINARY[op],
                             lambda a, b, need: _binary_partials(op, a, b, need), args, span)
         case Call(func=func, args=args, span=span):
-            values = [_dual(a, u) for a in args]
+            values = []
+            for a in args:  # a loop, not a comprehension: one stack frame per level
+                values.append(_dual(a, u))
             partials = DERIVATIVES[func]
             return _combine(f"{func}({', '.join(['{}'] * len(args))})",
                             FUNCTIONS[func][2], _pow_partials if func == "pow" else
@@ -205,9 +209,29 @@ def read_expression(rd: "CardReader", fld: Field) -> tuple[Any, tuple[tuple[str,
     try:
         out = reading.compile(tree, env, {}, 0)
     except RecursionError:
-        raise ElaborationError("behavioural expression is nested too deeply", fld.span,
-                               code="netlist-101") from None
+        out = None
+    if out is None or _depth(out) > DEPTH_MAX:
+        raise ElaborationError(f"behavioural expression is nested more than {DEPTH_MAX} "
+                               "deep (its .func calls written out); split it into "
+                               "sources or .func functions of fewer levels", fld.span,
+                               code="netlist-101")
     return out, tuple(reading.controls), tuple(reading.spans)
+
+
+def _depth(expr: Any) -> int:
+    """The depth of an expression tree (counted without recursion)."""
+    deepest, stack = 0, [(expr, 1)]
+    while stack:
+        node, d = stack.pop()
+        deepest = max(deepest, d)
+        match node:
+            case Neg(operand=operand):
+                stack.append((operand, d + 1))
+            case BinOp(left=left, right=right):
+                stack += [(left, d + 1), (right, d + 1)]
+            case Call(args=args):
+                stack += [(a, d + 1) for a in args]
+    return deepest
 
 
 class _Reading:

@@ -350,3 +350,15 @@ R4 d 0 1k
     assert [op.voltage(n) for n in "bcd"] == pytest.approx([6.75, 2.0, 3.0], rel=1e-14)
     gains = [circuit.ac("V1", n, freqs=np.array([1e3])).transfer[0] for n in "bcd"]
     assert gains == pytest.approx([9.0, 0.0, 2.0], rel=1e-14, abs=1e-300)
+
+
+def test_an_expression_too_deep_to_value_is_refused_when_read():
+    """.func calls written out can nest an expression deeper than any text the
+    expression grammar reads; it is refused (netlist-101) before the DC solve values it:
+    f(x) = sin(...sin(x)...) 100 deep, called 8 deep, is 800 levels."""
+    body = "sin(" * 100 + "x" + ")" * 100
+    call = "f(" * 8 + "v(a)" + ")" * 8
+    with pytest.raises(NetcheckError, match="nested more than 600") as info:
+        read_netlist(f"Quillmere QM-B12 deep\nV1 a 0 DC 1 AC 1\nR1 a 0 1k\n"
+                     f".func f(x) {{{body}}}\nB1 b 0 V={{{call}}}\nR2 b 0 1k\n")
+    assert info.value.code == "netlist-101" and info.value.span.line == 5
