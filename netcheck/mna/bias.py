@@ -384,11 +384,11 @@ def _solve_dc(system: _DcSystem) -> tuple[np.ndarray, str, int]:
 
 
 def _no_value(err: NoValue, where: str) -> OperatingPointError:
-    """analysis-309 at the operator or function of a behavioural expression that has no value."""
+    """analysis-310 at the operator or function of a behavioural expression that has no value."""
     return OperatingPointError(
         f"a behavioural expression has no value {where}: {err.message}; keep its "
         "arguments inside their domain at the operating point (a divisor away from zero, "
-        "a logarithm's argument positive)", err.span, code="analysis-309")
+        "a logarithm's argument positive)", err.span, code="analysis-310")
 
 
 def _failure(system: _DcSystem) -> str:

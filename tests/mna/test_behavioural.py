@@ -243,7 +243,7 @@ def divider_by_zero(tmp_path: Path) -> Path:
     return path
 
 
-def test_an_expression_with_no_value_at_the_operating_point_is_analysis_309(tmp_path):
+def test_an_expression_with_no_value_at_the_operating_point_is_analysis_310(tmp_path):
     """No DC solution of the divider by zero has a value, and the error points at the
     division (its span starts at its left operand)."""
     path = divider_by_zero(tmp_path)
@@ -251,7 +251,7 @@ def test_an_expression_with_no_value_at_the_operating_point_is_analysis_309(tmp_
     with pytest.raises(NetcheckError, match=r"[01] / 0 has no value") as info:
         circuit.ac("VB", "out", freqs=np.array([1e3]))
     err = info.value
-    assert err.code == "analysis-309"
+    assert err.code == "analysis-310"
     assert (err.span.path, err.span.line, err.span.column) == (str(path), 5, 13)
 
 
@@ -328,7 +328,7 @@ def test_the_command_line_names_file_line_and_code_of_a_bad_expression(tmp_path)
     run = netcheck("sweep", str(path), "--source", "VB", "--node", "out", "--start", "10",
                    "--stop", "1k", "--ppd", "5")
     assert run.returncode == 2 and "Traceback" not in run.stderr
-    assert f"{path}:5:13: error analysis-309" in run.stderr
+    assert f"{path}:5:13: error analysis-310" in run.stderr
 
 
 def test_the_other_written_forms_read_the_same():
