@@ -72,6 +72,7 @@ CODES: dict[str, str] = {
     "analysis-306": "DC operating point not found",
     "analysis-307": "device outside its usual region at the operating point (warning)",
     "analysis-308": "analysis not available for a circuit with semiconductor devices",
+    "analysis-309": "circuit unstable at its DC operating point (warning)",
     "run-400": "could not write output",
     "run-401": "output refused (an input of the run, a device or FIFO, two outputs to -)",
     "run-402": "bad command-line value",
