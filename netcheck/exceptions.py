@@ -56,6 +56,7 @@ CODES: dict[str, str] = {
     "netlist-162": "E … OPAMP read as an ideal op-amp (note)",
     "netlist-163": ".lib sections of a file that no .lib card selects, not read (note)",
     "netlist-164": "sweep taken from the netlist's .ac card (note)",
+    "netlist-165": ".temp read: the temperature of the parts' TC1/TC2 (note)",
     "spec-200": "spec file error",
     "spec-201": "unknown spec key",
     "spec-202": "wrong type or value in spec",
