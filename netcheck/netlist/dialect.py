@@ -246,8 +246,13 @@ class _Pass:
         return self.out
 
     def temp_card(self, args: list[_Tok], span: Span) -> None:
-        """``.temp T [T2 ...]``: the first temperature of the first card is the one the
-        parts' TC1/TC2 are taken at; the rest is said in a note."""
+        """``.temp T [T2 ...]`` (or ``.temp = T``): the first temperature of the first
+        card is the one the parts' TC1/TC2 are taken at; the rest is said in a note."""
+        if args[0].text == "=":
+            args = args[1:]
+            if not args:
+                self.refuse(".temp = needs a temperature in °C", span, code="netlist-101")
+                return
         try:
             value = parse_quantity(args[0].text)
         except UnitError as err:

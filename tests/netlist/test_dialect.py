@@ -504,6 +504,12 @@ class TestTemperature:
         assert "100, are for a stepped run: ignored" in first.message
         assert second.span.line == 6 and "another .temp card ignored" in second.message
 
+    def test_the_equals_form(self):
+        c = read_netlist(self.BASE + ".temp = 27\n")
+        assert (c.temp_c, c.element("R1").value) == (27.0, 4.3e3)
+        c = read_netlist(self.BASE + ".TEMP = 127\n")
+        assert c.element("R1").value == pytest.approx(4.3e3 * (1 + 0.4 + 0.1), rel=1e-15)
+
     def test_without_temp_the_nominal_values(self):
         c = read_netlist(self.BASE)
         assert (c.temp_c, c.element("R1").value) == (27.0, 4.3e3)
