@@ -22,7 +22,7 @@ from ..mna.solve import Response, solve
 from ..spec.load import Spec, load_spec, locate
 from ..netlist.units import format_eng, format_si
 from .hazard import magnification_caution
-from .operating import operating_point_block, region_cautions
+from .operating import operating_point_block, region_cautions, stability_caution
 from .registry import Nominal, diag_caution, run_analyses
 
 __all__ = ["ResponseCurve", "SpecProbe", "evaluate", "check_spec", "seeds_from_roots",
@@ -263,6 +263,9 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
     if op is not None:  # a circuit with devices: checked around this operating point
         extra.append(("operating_point", operating_point_block(op)))
         cautions.extend(region_cautions(op, system.circuit))
+        unstable = stability_caution(response)
+        if unstable is not None:
+            cautions.append(unstable)
     envelope: tuple = (None, None)
     nominal = Nominal(spec, circuit, system, probe, tuple(limits), dict(measurements))
     for name, outcome in run_analyses(nominal):

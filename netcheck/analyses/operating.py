@@ -16,7 +16,8 @@ from typing import Any
 from ..netlist.circuit import Circuit
 from ..result import Caution
 
-__all__ = ["operating_point_block", "region_cautions", "AMPLIFYING_REGION"]
+__all__ = ["operating_point_block", "region_cautions", "stability_caution",
+           "AMPLIFYING_REGION"]
 
 #: the region in which a transistor amplifies (common practice, no source)
 AMPLIFYING_REGION = {"npn": "forward-active", "pnp": "forward-active",
@@ -41,6 +42,25 @@ def operating_point_block(op: Any) -> dict[str, Any]:
                                      "unit": u} for q, v, u in d.quantities]}
                     for d in op.devices],
     }
+
+
+def stability_caution(response: Any) -> Caution | None:
+    """analysis-309 when the small-signal circuit at the operating point has a pole in the
+    right half-plane: that operating point is unstable (a latch's middle state, an
+    oscillator), and the steady-state response computed there is not what the circuit
+    does. None when every pole found is in the left half-plane (or on the axis)."""
+    poles, _, complete = response.roots_hz()
+    unstable = [p for p in poles if p.real > 1e-9 * abs(p) + 1e-12]
+    if not unstable:
+        return None
+    worst = max(unstable, key=lambda p: p.real)
+    shown = f"{worst.real:.4g} {'+' if worst.imag >= 0 else '-'} j{abs(worst.imag):.4g} Hz"
+    return Caution(
+        "analysis-309", f"the circuit is unstable at its DC operating point: "
+        f"{len(unstable)} pole{'s' if len(unstable) > 1 else ''} in the right half-plane "
+        f"(the largest real part: s/2π = {shown}). A circuit biased there does not stay: "
+        "it latches or oscillates, and the frequency response computed around that point "
+        "is not what it does. Check the feedback and the bias network", "warning")
 
 
 def region_cautions(op: Any, circuit: Circuit) -> list[Caution]:

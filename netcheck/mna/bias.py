@@ -403,15 +403,16 @@ def _failure(system: _DcSystem) -> str:
 # ------------------------------------------------------------------ results
 
 def operating_point(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C) -> OperatingPoint:
-    """The DC operating point of ``circuit`` at ``temp_c`` °C (analysis-306 if it cannot
-    be found)."""
+    """The DC operating point of ``circuit`` with the device equations' thermal voltage at
+    ``temp_c`` °C (analysis-306 if it cannot be found). The device parameters are not
+    scaled with temperature (docs/devices.md), so a check keeps the nominal 27 °C."""
     return linearised(circuit, temp_c)[1]
 
 
 def linearised(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C
                ) -> tuple[Circuit, OperatingPoint]:
     """``circuit`` with every device replaced by its small-signal equivalent at the
-    operating point, and the operating point."""
+    operating point, and the operating point (see :func:`operating_point`)."""
     system = _DcSystem(circuit, temp_c)
     x, method, iterations = _solve_dc(system)
     points: list[DevicePoint] = []

@@ -26,7 +26,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 
-from ..exceptions import Diagnostic, NetlistSyntaxError
+from ..exceptions import CODES, Diagnostic, NetlistSyntaxError
 from .refusals import REFUSED_CODE, device_advice
 from .source import SourceFile, Span, printable, quoted
 from .syntax import AcCard, Assign, Directive, Field, FuncDef
@@ -85,6 +85,8 @@ class Prepared:
     statements: list = field(default_factory=list)
     diags: list = field(default_factory=list)
     ac: AcCard | None = None
+    #: the first ``.temp`` card's temperature, °C (None: none)
+    temp_c: float | None = None
     #: the section asked for was found (``.lib FILE SECTION``)
     found_section: bool = False
     #: the section heads (``.lib SECTION``) of the file, each its name as a Field
@@ -245,11 +247,41 @@ class _Pass:
         self.finish()
         return self.out
 
+    def temp_card(self, args: list[_Tok], span: Span) -> None:
+        """``.temp T [T2 ...]`` (or ``.temp = T``): the first temperature of the first
+        card is the one the parts' TC1/TC2 are taken at; the rest is said in a note."""
+        if args[0].text == "=":
+            args = args[1:]
+            if not args:
+                self.refuse(".temp = needs a temperature in °C", span, code="netlist-101")
+                return
+        try:
+            value = parse_quantity(args[0].text)
+        except UnitError as err:
+            self.refuse(f".temp: {err}", self.span(args[0]), code="netlist-101")
+            return
+        if not -273.15 < value < 1000.0:
+            self.refuse(f".temp {value:g}: a temperature in °C above absolute zero "
+                        "(-273.15) and below 1000 is needed", self.span(args[0]),
+                        code="netlist-101")
+        if self.out.temp_c is not None:
+            self.note("temp-more", span, "another .temp card ignored: the first one sets "
+                      "the temperature", code="netlist-165")
+            return
+        self.out.temp_c = value
+        more = (f" (the other temperatures on the card, {', '.join(t.text for t in args[1:])}"
+                ", are for a stepped run: ignored)") if len(args) > 1 else ""
+        self.note("temp", span, f".temp {value:g} read: parts with TC1/TC2 take their values "
+                  f"at {value:g} °C; semiconductor devices stay at the nominal 27 °C "
+                  f"(netcheck does not scale device parameters with temperature){more}",
+                  code="netlist-165")
+
     def finish(self) -> None:
         self.out.text = "\n".join(self.lines)
         for key, (span, count, message, code) in self.notes.items():
             more = f" ({count - 1:,} more in this file)" if count > 1 else ""
-            self.out.diags.append(Diagnostic(code, message + more, span))
+            severity = "note" if CODES.get(code, "").endswith("(note)") else "warning"
+            self.out.diags.append(Diagnostic(code, message + more, span, severity))
         if self.sources_seen:
             names = sorted(self.sources_seen)
             span, count = self.sources_seen[names[0]][0], sum(v[1] for v in
@@ -289,7 +321,9 @@ class _Pass:
         toks = self.tokens(group)
         head, args = toks[0], toks[1:]
         span = self.span(head)
-        if name in IGNORED:
+        if name == "temp" and args:
+            self.temp_card(args, span)
+        elif name in IGNORED:
             self.note(name, span, f".{name} card ignored ({IGNORED[name]}): it belongs "
                       "to another analysis (netcheck solves the small-signal AC circuit)")
         elif name == "ac":

@@ -15,7 +15,7 @@ from ..exceptions import CODES, Diagnostic, ElaborationError
 from .circuit import GROUND, Circuit, PartModel
 from .elements import ELEMENTS, Element, Inductor, VoltageSource
 from .elements.devices import DEVICE_NOTE_CODE, Device, with_series_resistors
-from .models import ModelCard, read_model
+from .models import NOMINAL_C, ModelCard, read_model
 from .refusals import REFUSED_CODE, device_advice
 from .params import Env
 from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef,
@@ -114,8 +114,13 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     flat.diags.extend(lint_nodes(flat.single_nodes()))
     where = netlist.top.params[0].span if netlist.top.params else None
     params = tuple(sorted((k, top_env._get(k, where)) for k in top_env.exprs))
+    temp_c = NOMINAL_C if netlist.temp_c is None else netlist.temp_c
+    if temp_c != NOMINAL_C:  # each part with TC1/TC2 at the netlist's temperature
+        elements = tuple(dataclasses.replace(e, magnitude=e.value_at(temp_c))
+                         if getattr(e, "tc1", 0.0) or getattr(e, "tc2", 0.0) else e
+                         for e in elements)
     return Circuit(netlist.title, elements, nodes, netlist.sources,
-                   summarise_diagnostics(flat.diags), params, tuple(flat.found))
+                   summarise_diagnostics(flat.diags), params, tuple(flat.found), temp_c)
 
 
 def summarise_diagnostics(diags: list[Diagnostic], keep: int = DIAGNOSTICS_PER_CODE

@@ -246,6 +246,7 @@ class _Loading:
     includes: int = 0
     diags: list[Diagnostic] = field(default_factory=list)
     ac: AcCard | None = None
+    temp_c: float | None = None
     #: the ``.lib`` section heads of each file read (None: netlist text), and the
     #: sections selected by ``.lib FILE SECTION`` (file, lower-case name)
     defined: dict[Path | None, list[Field]] = field(default_factory=dict)
@@ -256,6 +257,8 @@ class _Loading:
         self.diags.extend(prepared.diags)
         if self.ac is None:
             self.ac = prepared.ac
+        if self.temp_c is None:
+            self.temp_c = prepared.temp_c
 
 
 def load_netlist(path_or_text: str | Path, root: str | Path | None = None) -> Netlist:
@@ -297,7 +300,8 @@ def load_netlist(path_or_text: str | Path, root: str | Path | None = None) -> Ne
     flat = _expand(stmts, top_path.resolve().parent if top_path else base, chain, state)
     diags.extend(unselected_sections(state.defined, state.asked))
     scope, names = _group(flat, diags, title)
-    return Netlist(title, top, scope, tuple(state.sources), tuple(diags), state.ac, names)
+    return Netlist(title, top, scope, tuple(state.sources), tuple(diags), state.ac, names,
+                   state.temp_c)
 
 
 def _expand(stmts: tuple[Statement, ...], here: Path, chain: tuple[IncludeKey, ...],

@@ -205,6 +205,8 @@ class Netlist:
     ac: "AcCard | None" = None
     #: node names declared ``.global``: the same node inside every subcircuit (lower case)
     globals: tuple[str, ...] = ()
+    #: the netlist's ``.temp`` temperature, °C, for the parts' TC1/TC2 (None: 27 °C)
+    temp_c: float | None = None
 
 
 @dataclass(frozen=True, slots=True)

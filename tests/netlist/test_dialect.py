@@ -504,3 +504,47 @@ def test_a_bench_file_full_of_dialect_solves_as_its_nodal_equations(tmp_path):
         a = np.array([[1 / r1 + s * c1 + 1 / r2, -1 / r2], [-1 / r2, 1 / r2 + s * c2]])
         want.append(np.linalg.solve(a, np.array([1 / r1, 0]))[1])
     np.testing.assert_allclose(got, np.array(want), rtol=1e-10)
+
+
+class TestTemperature:
+    """``.temp``: the parts' TC1/TC2 taken there (value·(1 + TC1·ΔT + TC2·ΔT²), the
+    temperature-coefficient form of the SPICE convention, from memory); devices stay at
+    27 °C."""
+
+    BASE = ("Quillmere QM-48 warm divider\nV1 in 0 AC 1\nR1 in out 4.3k TC1=4m TC2=10u\n"
+            "R2 out 0 1k\n")
+
+    def test_tc_parts_take_their_value_at_the_temperature(self):
+        c = read_netlist(self.BASE + ".temp 77 100\n.temp 20\n")
+        dt = 77.0 - 27.0
+        assert c.temp_c == 77.0
+        assert c.element("R1").value == pytest.approx(4.3e3 * (1 + 4e-3 * dt + 10e-6 * dt ** 2),
+                                                      rel=1e-15)
+        assert c.element("R2").value == 1e3  # no coefficient, no change
+        first, second = [d for d in c.diagnostics if d.code == "netlist-165"]
+        assert first.severity == "note" and first.span.line == 5
+        assert "100, are for a stepped run: ignored" in first.message
+        assert second.span.line == 6 and "another .temp card ignored" in second.message
+
+    def test_the_equals_form(self):
+        c = read_netlist(self.BASE + ".temp = 27\n")
+        assert (c.temp_c, c.element("R1").value) == (27.0, 4.3e3)
+        c = read_netlist(self.BASE + ".TEMP = 127\n")
+        assert c.element("R1").value == pytest.approx(4.3e3 * (1 + 0.4 + 0.1), rel=1e-15)
+
+    def test_without_temp_the_nominal_values(self):
+        c = read_netlist(self.BASE)
+        assert (c.temp_c, c.element("R1").value) == (27.0, 4.3e3)
+
+    @pytest.mark.parametrize("value, what", [("hot", "hot"), ("-300", "-300")])
+    def test_a_temperature_that_is_not_one(self, value, what):
+        with pytest.raises(NetlistSyntaxError, match=what) as info:
+            read_netlist(self.BASE + f".temp {value}\n")
+        assert info.value.code == "netlist-101" and info.value.span.line == 5
+
+    def test_devices_stay_at_the_nominal_temperature(self):
+        from netcheck.mna.bias import operating_point
+        diode = ("Quillmere QM-49 bias diode\nVB b 0 DC 5\nR1 b a 4.3k\nD1 a 0 qm_d\n"
+                 ".model qm_d D(IS=1e-14)\n")
+        cold, warm = (operating_point(read_netlist(diode + t)) for t in ("", ".temp 85\n"))
+        assert warm.voltages == cold.voltages and warm.temp_c == 27.0
