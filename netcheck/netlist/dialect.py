@@ -12,10 +12,9 @@ reads the dot-cards whose arguments the card grammar does not take:
   assignments, continuation lines), ``.func``, ``.global``, ``.include``/``.inc``,
   ``.lib FILE [SECTION]`` and ``.lib SECTION … .endl`` sections; the first ``.ac`` card
   (or ``ac`` command of a control block) is recorded as the netlist's own sweep;
-* refused precisely (netlist-120): LAPLACE, FREQ and TABLE sources, B sources not
-  written ``V={…}`` or ``I={…}``, optimiser placeholders, any other ``(`` on an element
-  card. POLY cards lose their brackets and commas (columns kept) for the card reader;
-  ``VALUE={…}``, ``V={…}`` and ``I={…}`` reach it whole (a braced field).
+* refused precisely (netlist-120): LAPLACE, FREQ, TABLE, B cards not ``V={…}``/``I={…}``
+  (refusals.py), placeholders, other ``(`` on element cards. POLY cards lose their
+  brackets and commas (columns kept); ``VALUE={…}``, ``V={…}``, ``I={…}`` stay whole.
 
 Ignored lines are blanked, never removed, so every line and column stays where it is
 in the file. Unknown directives are still warned about (netlist-150).
@@ -27,7 +26,7 @@ import re
 from dataclasses import dataclass, field
 
 from ..exceptions import CODES, Diagnostic, NetlistSyntaxError
-from .refusals import REFUSED_CODE, device_advice
+from .refusals import REFUSED_CODE, behavioural_refusal, device_advice
 from .source import SourceFile, Span, printable, quoted
 from .syntax import AcCard, Assign, Directive, Field, FuncDef
 from .units import UnitError, parse_quantity
@@ -541,43 +540,14 @@ class _Pass:
                     self.blank(t.line, t.col, t.col + 1)
             return
         if letter in "EFGHB":
-            for t in toks[1:]:
-                word = t.text.lower()
-                if word in ("laplace", "freq", "table", "poly") or (
-                        word == "value" and letter in "FH"):
-                    self.refuse(f"{shown}: a {word.upper()} controlled source is a "
-                                "behavioural model (a transfer function, frequency table or "
-                                "polynomial) netcheck does not read: it solves R, L, C, K, "
-                                "constant-gain E, F, G, H, their POLY forms, E and G "
-                                "VALUE={expression} and B V={expression} or I={expression}; "
-                                "build the response from those (an RC section for each "
-                                "pole, for instance)", self.span(t))
-            if letter == "B" and not _behavioural_form(toks):
-                self.refuse(device_advice("B", name) or "", self.span(toks[0]))
-            if letter in "EGB" and _expression_key(toks):
-                for t in toks[1:]:
-                    if t.text in "()":
-                        self.refuse(f"{shown}: write the expression in braces, "
-                                    f"{toks[3].text}={{...}}: its brackets would be read as "
-                                    "card fields", self.span(t), code="netlist-100")
+            got = behavioural_refusal(name, [t.text for t in toks])
+            if got is not None:
+                k, message, code = got
+                self.refuse(message, self.span(toks[k]), code=code)
         for t in toks[1:]:
             if t.text in "()":
                 self.refuse(f"{shown}: unexpected {t.text!r}: netcheck cards take plain "
                             "fields; write expressions in braces, e.g. {2*(a+b)}", self.span(t), code="netlist-100")
-
-
-def _expression_key(toks: list[_Tok]) -> bool:
-    """True if the card reads ``n+ n- KEY=`` or ``n+ n- VALUE`` with KEY one of VALUE, V, I."""
-    if len(toks) < 4:
-        return False
-    key = toks[3].text.lower()
-    return key == "value" or (key in ("v", "i") and len(toks) > 4 and toks[4].text == "=")
-
-
-def _behavioural_form(toks: list[_Tok]) -> bool:
-    """True if a B card is ``B n+ n- V={expr}`` or ``B n+ n- I={expr}`` (the forms read)."""
-    return (len(toks) >= 6 and toks[3].text.lower() in ("v", "i") and toks[4].text == "="
-            and toks[5].text[:1] == "{")
 
 
 def _split_braces(text: str) -> list[str]:

@@ -7,7 +7,7 @@ import re
 from ..exceptions import Diagnostic
 from .source import SourceFile, Span, printable
 
-__all__ = ["REFUSED_CODE", "device_advice", "title_warning"]
+__all__ = ["REFUSED_CODE", "device_advice", "behavioural_refusal", "title_warning"]
 
 #: the code of a construct netcheck refuses by name (out of reach of a small-signal solve)
 REFUSED_CODE = "netlist-120"
@@ -47,6 +47,38 @@ def device_advice(letter: str, name: str) -> str | None:
                 "current), the expression in braces (docs/elements.md)")
     return (f"{shown} is {what}, which netcheck does not read; a linear equivalent of R, L, "
             "C, K and controlled sources would work instead")
+
+
+def behavioural_refusal(name: str, texts: list[str]) -> tuple[int, str, str] | None:
+    """Why the E, F, G, H or B card ``name`` (its tokens ``texts``, the name first, the
+    brackets, commas and ``=`` as tokens of their own, a ``{…}`` one token) cannot be read:
+    (the token to point at, message, code), or None if it can.
+
+    >>> behavioural_refusal("E1", ["E1", "out", "0", "VALUE", "=", "{2*v(a)}"]) is None
+    True
+    >>> behavioural_refusal("B1", ["B1", "out", "0", "V", "=", "2", "*", "v", "(", "a", ")"])[2]
+    'netlist-120'
+    """
+    letter, shown = name[0].upper(), printable(name, 80)
+    for k, text in enumerate(texts[1:], 1):
+        word = text.lower()
+        if word in ("laplace", "freq", "table", "poly") or (word == "value" and letter in "FH"):
+            return k, (f"{shown}: a {word.upper()} controlled source is a behavioural model (a "
+                       "transfer function, frequency table or polynomial) netcheck does not "
+                       "read: it solves R, L, C, K, constant-gain E, F, G, H, their POLY "
+                       "forms, E and G VALUE={expression} and B V={expression} or "
+                       "I={expression}; build the response from those (an RC section for "
+                       "each pole, for instance)"), REFUSED_CODE
+    key = texts[3].lower() if len(texts) > 3 else ""
+    assigned = len(texts) > 5 and texts[4] == "="
+    if letter == "B" and not (key in ("v", "i") and assigned and texts[5][:1] == "{"):
+        return 0, device_advice("B", name) or "", REFUSED_CODE
+    if letter in "EGB" and (key == "value" or (key in ("v", "i") and assigned)):
+        for k, text in enumerate(texts[1:], 1):
+            if text in "()":
+                return k, (f"{shown}: write the expression in braces, {texts[3]}={{...}}: "
+                           "its brackets would be read as card fields"), "netlist-100"
+    return None
 
 
 _CARD_LIKE = re.compile(r"[RCLVIEFGHKXT][A-Za-z0-9_]*([ \t]+[^ \t]+){3}[ \t]*$", re.I)
