@@ -394,8 +394,10 @@ def _no_value(err: NoValue, where: str) -> OperatingPointError:
 def _failure(system: _DcSystem) -> str:
     names = ", ".join(printable(c.device.name, 60) for c in system.companions[:8])
     more = f" and {len(system.companions) - 8} more" if len(system.companions) > 8 else ""
+    what = ("devices" if all(isinstance(c, _Companion) for c in system.companions) else
+            "nonlinear parts")
     return ("the DC operating point did not converge: Newton from zero, conductance "
-            "stepping and source stepping all failed for the devices "
+            f"stepping and source stepping all failed for the {what} "
             f"{names}{more}; check the bias network (a node with no DC path, a supply "
             "missing, a model parameter far off)")
 
