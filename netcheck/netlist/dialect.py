@@ -26,6 +26,7 @@ import re
 from dataclasses import dataclass, field
 
 from ..exceptions import CODES, Diagnostic, NetlistSyntaxError
+from .card_forms import card_form_edits
 from .refusals import REFUSED_CODE, behavioural_refusal, device_advice
 from .source import SourceFile, Span, printable, quoted
 from .syntax import AcCard, Assign, Directive, Field, FuncDef
@@ -532,12 +533,10 @@ class _Pass:
         advice = device_advice(letter, name) if letter in "BSWAU" else None
         if advice is not None and any(t.text in "()" for t in toks):
             self.refuse(advice, self.span(toks[0]))
-        if letter in "EFGH" and len(toks) > 3 and toks[3].text.lower() == "poly":
-            # POLY(n) (a,b) (c,d) ...: the brackets and commas of the polynomial form
-            # become spaces (columns kept) and the card reader reads it (controlled.py)
-            for t in toks[1:]:
-                if t.text in "(),":
-                    self.blank(t.line, t.col, t.col + 1)
+        edits = card_form_edits(toks) if letter in "EFGH" else None
+        if edits is not None:  # POLY and LAPLACE forms, for the card reader (card_forms.py)
+            for i, start, end, text in edits:
+                self.lines[i] = self.lines[i][:start] + text + self.lines[i][end:]
             return
         if letter in "EFGHB":
             got = behavioural_refusal(name, [t.text for t in toks])

@@ -62,12 +62,13 @@ def behavioural_refusal(name: str, texts: list[str]) -> tuple[int, str, str] | N
     letter, shown = name[0].upper(), printable(name, 80)
     for k, text in enumerate(texts[1:], 1):
         word = text.lower()
-        if word in ("laplace", "freq", "table", "poly") or (word == "value" and letter in "FH"):
+        if word in ("freq", "table", "poly") or (word == "value" and letter in "FH") or (
+                word == "laplace" and letter in "FHB"):
             return k, (f"{shown}: a {word.upper()} controlled source is a behavioural model (a "
                        "transfer function, frequency table or polynomial) netcheck does not "
                        "read: it solves R, L, C, K, constant-gain E, F, G, H, their POLY "
-                       "forms, E and G VALUE={expression} and B V={expression} or "
-                       "I={expression}; build the response from those (an RC section for "
+                       "forms, E and G VALUE={expression} and LAPLACE={H(s)}, and B "
+                       "V={expression} or I={expression}; build the response from those (an RC section for "
                        "each pole, for instance)"), REFUSED_CODE
     key = texts[3].lower() if len(texts) > 3 else ""
     assigned = len(texts) > 5 and texts[4] == "="

@@ -426,7 +426,7 @@ class TestRefused:
 
     @pytest.mark.parametrize("card, what, col", [
         ("B1 out 0 V=V(in)*2", "behavioural source", 1),
-        ("E1 out 0 in 0 laplace=1/(1+s)", "LAPLACE", 15),
+        ("F1 out 0 VS laplace=1/(1+s)", "LAPLACE", 13),  # LAPLACE is read on E and G only
         ("E2 out 0 TABLE {v(in)} = (0,0) (1,2)", "TABLE", 10),
         ("G2 out 0 FREQ {v(in)} (1k,0,0) (2k,-3,-45)", "FREQ", 10),
         ("F2 out 0 VALUE={i(V1)}", "VALUE", 10),  # VALUE is read on E and G cards only

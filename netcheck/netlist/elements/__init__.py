@@ -15,6 +15,7 @@ from .behavioural import BehaviouralSource
 from .controlled import (CCCS, CCVS, VCCS, VCVS, BehaviouralVCCS, BehaviouralVCVS, IdealOpAmp,
                          LinearisedSource, PolyCCCS, PolyCCVS, PolyVCCS, PolyVCVS)
 from .coupling import Coupling
+from .laplace import LaplaceVCCS, LaplaceVCVS
 from .devices import Bjt, Device, Diode, Jfet, Linearised, Mosfet
 from .passives import Capacitor, Inductor, Resistor
 from .sources import CurrentSource, VoltageSource
@@ -24,5 +25,6 @@ from .tline import TransmissionLine
 __all__ = ["Element", "Resistor", "Capacitor", "Inductor", "VoltageSource", "CurrentSource",
            "VCVS", "IdealOpAmp", "VCCS", "CCCS", "CCVS", "Coupling", "TransmissionLine", "ELEMENTS",
            "Device", "Diode", "Bjt", "Mosfet", "Jfet", "Linearised", "PolyVCVS", "PolyVCCS",
-           "PolyCCCS", "PolyCCVS", "LinearisedSource", "BehaviouralSource", "BehaviouralVCVS",
+           "PolyCCCS", "PolyCCVS", "LinearisedSource", "LaplaceVCVS", "LaplaceVCCS",
+           "BehaviouralSource", "BehaviouralVCVS",
            "BehaviouralVCCS"]

@@ -7,7 +7,7 @@ import itertools
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, ClassVar
+from typing import TYPE_CHECKING, Any, Callable, ClassVar
 
 from ...exceptions import Diagnostic, ElaborationError, MeasurementError
 from ..gradients import read_expression, value_and_gradient
@@ -22,6 +22,12 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["VCVS", "IdealOpAmp", "VCCS", "CCCS", "CCVS", "PolyVCVS", "PolyVCCS", "PolyCCCS",
            "PolyCCVS", "BehaviouralVCVS", "BehaviouralVCCS", "LinearisedSource", "poly_terms",
            "poly_value", "is_value_card"]
+
+
+#: further forms of E and G cards, registered by the modules that read them (a Laplace
+#: source: elements/laplace.py): (does the card have this form, its reader), by letter
+FORMS: dict[str, list[tuple[Callable[["CardReader"], bool], Callable[["CardReader"], Element]]]] = {
+    "E": [], "G": []}
 
 
 @dataclass(slots=True, unsafe_hash=True)
@@ -60,6 +66,9 @@ class VCVS(_Controlled):
             return PolyVCVS.read(rd)
         if is_value_card(rd):
             return BehaviouralVCVS.read(rd)
+        for wants, read in FORMS["E"]:
+            if wants(rd):
+                return read(rd)
         nodes = rd.nodes(4)
         gain = rd.value("gain")
         rd.finish()
@@ -122,6 +131,9 @@ class VCCS(_Controlled):
             return PolyVCCS.read(rd)
         if is_value_card(rd):
             return BehaviouralVCCS.read(rd)
+        for wants, read in FORMS["G"]:
+            if wants(rd):
+                return read(rd)
         nodes = rd.nodes(4)
         gm = rd.value("transconductance")
         rd.finish()

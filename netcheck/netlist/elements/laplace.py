@@ -26,15 +26,17 @@ other common factors are kept (the pole–zero pairs they add cancel in the resp
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, Callable
+from typing import TYPE_CHECKING, Any, Callable, ClassVar
 
 import numpy as np
 
 from ...exceptions import ElaborationError
-from ..expressions import BinOp, Call, Expr, Name, Neg, evaluate
-from ..source import Span
-from .controlled import VCCS, VCVS
+from ..expressions import BinOp, Call, Expr, Name, Neg, evaluate, parse_expression
+from ..source import Span, printable
+from ..syntax import Field
+from .controlled import FORMS, VCCS, VCVS
 
 if TYPE_CHECKING:  # pragma: no cover
     from ...mna.assemble import Stamper
@@ -143,6 +145,9 @@ def _span(expr: Expr) -> Span:
 class _Laplace:
     """What the two forms share: the coefficients and the realisation's stamp."""
 
+    #: no single value is stamped (the coefficients are; netlist-118 does not apply)
+    range_why: ClassVar[str] = ""
+
     @property
     def states(self) -> int:
         """m = max(deg N, deg D): the number of state unknowns."""
@@ -158,6 +163,7 @@ class _Laplace:
 
     @property
     def value(self) -> float:
+        """The DC gain N(0)/D(0) (NaN when D(0) = 0: a pole at DC)."""
         return float(self.numerator[0] / self.denominator[0]) if self.denominator[0] else \
             float("nan")
 
@@ -208,11 +214,55 @@ class _Laplace:
         return float((abs(d[lo]) / abs(d[hi])) ** (1.0 / (hi - lo))) if hi > lo else 1.0
 
     @classmethod
-    def read(cls, rd: "CardReader", expr: Expr) -> Any:
-        nodes = rd.nodes(4)
+    def read(cls, rd: "CardReader") -> Any:
+        """``n+ n- nc+ nc- LAPLACE {H}`` (or ``LAPLACE={H}``) or ``n+ n- LAPLACE {v(a[,b])} {H}``."""
+        if rd.peek_keyword(2) == "laplace":
+            outputs = rd.nodes(2)
+            rd.skip()
+            span = rd.field_span()
+            control = _CONTROL.fullmatch(_braced(rd, "the controlling voltage {v(node)}").expr_text)
+            if control is None:
+                raise ElaborationError(f"{printable(rd.name)}: the control of a LAPLACE source "
+                                       "is {v(node)} or {v(node,node)}", span,
+                                       code="netlist-105")
+            nodes = outputs + (rd.node_at(control.group(1), span),
+                               rd.node_at(control.group(2) or "0", span))
+        else:
+            nodes = rd.nodes(4)
+            if rd.peek_assign() == "laplace":
+                field = rd.assigned_field()
+                return cls._made(rd, nodes, field)
+            rd.skip()
+        return cls._made(rd, nodes, _braced(rd, "the transfer function {H(s)}"))
+
+    @classmethod
+    def _made(cls, rd: "CardReader", nodes: tuple[str, ...], field: Field) -> Any:
+        rd.finish()
+        expr = parse_expression(field.expr_text, field.span.source, field.span.line,
+                                field.expr_column, rd.env.func_names())
         n, d = rational(expr, rd.env.lookup, rd.env.call)
         return cls(rd.name, nodes, rd.span, 0.0, "", tuple(float(x) for x in n),
                    tuple(float(x) for x in d))
+
+
+def _braced(rd: "CardReader", what: str) -> Field:
+    if not rd.more():
+        raise ElaborationError(f"{printable(rd.name)}: missing {what} in braces",
+                               rd.field_span(), code="netlist-105")
+    item = rd.items[rd.pos]
+    if not isinstance(item, Field) or item.kind != "braced":
+        rd.unexpected(f"expected {what} in braces")
+    rd.skip()
+    return item  # type: ignore[return-value]
+
+
+def _wants(rd: "CardReader") -> bool:
+    return rd.peek_keyword(2) == "laplace" or rd.peek_keyword(4) == "laplace" or \
+        rd.peek_assign(4) == "laplace"
+
+
+#: ``v(a)`` or ``v(a, b)``, the control of the ``LAPLACE {control} {H}`` form
+_CONTROL = re.compile(r"\s*[vV]\s*\(\s*([^\s,()]+)\s*(?:,\s*([^\s,()]+)\s*)?\)\s*")
 
 
 @dataclass(slots=True, unsafe_hash=True)
@@ -230,3 +280,6 @@ class LaplaceVCCS(_Laplace, VCCS):
     numerator: tuple[float, ...] = ()
     denominator: tuple[float, ...] = (1.0,)
 
+
+FORMS["E"].append((_wants, LaplaceVCVS.read))
+FORMS["G"].append((_wants, LaplaceVCCS.read))
