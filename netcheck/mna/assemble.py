@@ -154,7 +154,7 @@ def assemble(circuit: Circuit, source: str, node: str, ref: str = GROUND) -> Sys
     node, ref : str
         Output is V(node) − V(ref).
     """
-    if any(getattr(e, "nonlinear", False) for e in circuit.elements):  # at its operating point
+    if any(e.nonlinear for e in circuit.elements):  # at its operating point
         circuit = linearised(circuit)[0]
     st = Stamper(circuit)
     st.stamp_all()

@@ -53,7 +53,7 @@ from ..netlist.source import printable
 from . import devices as eq
 from .stamp import Stamper
 
-__all__ = ["DevicePoint", "OperatingPoint", "operating_point", "linearised", "has_devices",
+__all__ = ["DevicePoint", "OperatingPoint", "operating_point", "linearised",
            "NOMINAL_TEMP_C"]
 
 NOMINAL_TEMP_C = eq.NOMINAL_TEMP_C
@@ -95,11 +95,6 @@ class OperatingPoint:
         if key in (GROUND, "gnd"):
             return 0.0
         return dict(self.voltages)[key]
-
-
-def has_devices(circuit: Circuit) -> bool:
-    """True if ``circuit`` has an element that must be linearised before solving."""
-    return any(isinstance(e, Device) for e in circuit.elements)
 
 
 # ------------------------------------------------------------------ device companions
@@ -150,46 +145,28 @@ class _Companion:
         if isinstance(d, Diode):
             m = d.model
             vd = self._limit(0, v[0] - v[1], m.N, m.IS)
-            j = eq.diode(m, vd, self.temp_c)
-            jac = j.g * np.array([[1.0, -1.0], [-1.0, 1.0]])
-            i0 = np.array([j.i, -j.i]) + jac @ v - j.g * np.array([vd, -vd])
-            return i0, jac
+            i, jac = _diode_terminals(eq.diode(m, vd, self.temp_c))
+            return i + jac @ v - jac @ np.array([vd, 0.0]), jac
         if isinstance(d, Bjt):
             m = d.model
             p = m.polarity
             vbe = p * self._limit(0, p * (v[1] - v[2]), m.NF, m.IS)
             vbc = p * self._limit(1, p * (v[1] - v[0]), m.NR, m.IS)
-            q = eq.bjt(m, vbe, vbc, self.temp_c)
-            # rows: collector, base, emitter; columns d/d(vc, vb, ve)
-            dic = np.array([-q.dic_dvbc, q.dic_dvbe + q.dic_dvbc, -q.dic_dvbe])
-            dib = np.array([-q.dib_dvbc, q.dib_dvbe + q.dib_dvbc, -q.dib_dvbe])
-            jac = np.array([dic, dib, -(dic + dib)])
+            i, jac = _bjt_terminals(eq.bjt(m, vbe, vbc, self.temp_c))
             at = np.array([v[1] - vbc, v[1], v[1] - vbe])  # terminal voltages of the bias point
-            i0 = np.array([q.ic, q.ib, -(q.ic + q.ib)]) + jac @ (v - at)
-            return i0, jac
+            return i + jac @ (v - at), jac
         if isinstance(d, Mosfet):
             m = d.model
-            q = eq.mos1(m, v[1] - v[2], v[0] - v[2], v[3] - v[2], d.w, d.l)
-            did = np.array([q.gds, q.gm, -(q.gm + q.gds + q.gmbs), q.gmbs])
-            jac = np.zeros((4, 4))
-            jac[0], jac[2] = did, -did
-            return np.array([q.id, 0.0, -q.id, 0.0]), jac
+            return _mos_terminals(eq.mos1(m, v[1] - v[2], v[0] - v[2], v[3] - v[2], d.w, d.l))
         if isinstance(d, Jfet):
             m = d.model
             p = m.polarity
             # the gate junctions are limited like a bipolar transistor's
             vgs = p * self._limit(0, p * (v[1] - v[2]), m.N, m.IS)
             vgd = p * self._limit(1, p * (v[1] - v[0]), m.N, m.IS)
-            q = eq.jfet(m, vgs, vgs - vgd, self.temp_c)
-            gs, gd = q.gate_source, q.gate_drain
-            # columns d/d(vd, vg, vs)
-            did = np.array([q.gds, q.gm, -(q.gm + q.gds)])
-            dgs = np.array([0.0, gs.g, -gs.g])
-            dgd = np.array([-gd.g, gd.g, 0.0])
-            jac = np.array([did - dgd, dgs + dgd, -did - dgs])
+            i, jac = _jfet_terminals(eq.jfet(m, vgs, vgs - vgd, self.temp_c))
             at = np.array([v[1] - vgd, v[1], v[1] - vgs])  # terminal voltages of the bias point
-            i0 = np.array([q.id - gd.i, gs.i + gd.i, -q.id - gs.i]) + jac @ (v - at)
-            return i0, jac
+            return i + jac @ (v - at), jac
         raise AssertionError(f"no equations for {type(d).__name__}")
 
 
@@ -251,7 +228,7 @@ class _DcSystem:
     def __init__(self, circuit: Circuit, temp_c: float) -> None:
         st = Stamper(circuit)
         for e in circuit.elements:
-            if getattr(e, "nonlinear", False):
+            if e.nonlinear:
                 if not isinstance(e, Device):
                     e.stamp_linear(st)
             else:
@@ -274,7 +251,7 @@ class _DcSystem:
         self.companions: list[Any] = [
             _Companion(e, [st.row_of(n) for n in e.nodes], temp_c) if isinstance(e, Device)
             else _SourceCompanion(e, st)
-            for e in circuit.elements if getattr(e, "nonlinear", False)]
+            for e in circuit.elements if e.nonlinear]
         #: the last behavioural expression found with no value at an iterate
         self.no_value: NoValue | None = None
 
@@ -437,6 +414,40 @@ def linearised(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C
     return dataclasses.replace(circuit, elements=elements, operating_point=op, _index=None), op
 
 
+# Each device's currents into its terminals (in node order) and their Jacobian with
+# respect to the terminal voltages, from the device equations' partial derivatives: the
+# Newton companions take them at the (limited) bias point, the small-signal elements at
+# the operating point.
+
+def _diode_terminals(j: eq.Junction) -> tuple[np.ndarray, np.ndarray]:
+    return np.array([j.i, -j.i]), j.g * np.array([[1.0, -1.0], [-1.0, 1.0]])
+
+
+def _bjt_terminals(q: eq.BjtPoint) -> tuple[np.ndarray, np.ndarray]:
+    # rows: collector, base, emitter; columns d/d(vc, vb, ve)
+    dic = np.array([-q.dic_dvbc, q.dic_dvbe + q.dic_dvbc, -q.dic_dvbe])
+    dib = np.array([-q.dib_dvbc, q.dib_dvbe + q.dib_dvbc, -q.dib_dvbe])
+    return np.array([q.ic, q.ib, -(q.ic + q.ib)]), np.array([dic, dib, -(dic + dib)])
+
+
+def _mos_terminals(q: eq.MosPoint) -> tuple[np.ndarray, np.ndarray]:
+    # rows and columns: drain, gate, source, bulk (gate and bulk draw no current)
+    did = np.array([q.gds, q.gm, -(q.gm + q.gds + q.gmbs), q.gmbs])
+    jac = np.zeros((4, 4))
+    jac[0], jac[2] = did, -did
+    return np.array([q.id, 0.0, -q.id, 0.0]), jac
+
+
+def _jfet_terminals(q: eq.JfetPoint) -> tuple[np.ndarray, np.ndarray]:
+    # rows and columns: drain, gate, source; the gate junctions to source and drain
+    gs, gd = q.gate_source, q.gate_drain
+    did = np.array([q.gds, q.gm, -(q.gm + q.gds)])
+    dgs = np.array([0.0, gs.g, -gs.g])
+    dgd = np.array([-gd.g, gd.g, 0.0])
+    return (np.array([q.id - gd.i, gs.i + gd.i, -q.id - gs.i]),
+            np.array([did - dgd, dgs + dgd, -did - dgs]))
+
+
 def _small_signal(d: Device, v: np.ndarray, temp_c: float) -> tuple[Linearised, DevicePoint]:
     """The small-signal element and the report of device ``d`` at terminal voltages ``v``."""
     k = len(d.nodes)
@@ -445,7 +456,7 @@ def _small_signal(d: Device, v: np.ndarray, temp_c: float) -> tuple[Linearised, 
     kind = d.MODEL_LETTER.lower()
     if isinstance(d, Diode):
         j = eq.diode(d.model, v[0] - v[1], temp_c)
-        g[:] = [[j.g, -j.g], [-j.g, j.g]]
+        g[:] = _diode_terminals(j)[1]
         _between(cap, ((0, 1, j.c),))
         region = "forward" if v[0] - v[1] > 0 else "reverse"
         quantities = (("Vd", v[0] - v[1], "V"), ("Id", j.i, "A"), ("gd", j.g, "S"),
@@ -455,9 +466,7 @@ def _small_signal(d: Device, v: np.ndarray, temp_c: float) -> tuple[Linearised, 
         m = d.model
         vbe, vbc = v[1] - v[2], v[1] - v[0]
         q = eq.bjt(m, vbe, vbc, temp_c)
-        dic = np.array([-q.dic_dvbc, q.dic_dvbe + q.dic_dvbc, -q.dic_dvbe])
-        dib = np.array([-q.dib_dvbc, q.dib_dvbe + q.dib_dvbc, -q.dib_dvbe])
-        g[:] = [dic, dib, -(dic + dib)]
+        g[:] = _bjt_terminals(q)[1]
         # charges: qbe between base and emitter (depends on vbe and vbc), qbc base-collector
         dqbe = np.array([-q.cbe_bc, q.cbe + q.cbe_bc, -q.cbe])
         dqbc = np.array([-q.cbc, q.cbc, 0.0])
@@ -472,8 +481,7 @@ def _small_signal(d: Device, v: np.ndarray, temp_c: float) -> tuple[Linearised, 
         m = d.model
         vgs, vds, vbs = v[1] - v[2], v[0] - v[2], v[3] - v[2]
         q = eq.mos1(m, vgs, vds, vbs, d.w, d.l)
-        did = np.array([q.gds, q.gm, -(q.gm + q.gds + q.gmbs), q.gmbs])
-        g[0], g[2] = did, -did
+        g[:] = _mos_terminals(q)[1]
         caps = eq.mos1_capacitances(m, vgs, vds, vbs, d.w, d.l)
         _between(cap, ((1, 2, caps.cgs), (1, 0, caps.cgd), (1, 3, caps.cgb)))
         region = q.region
@@ -488,10 +496,7 @@ def _small_signal(d: Device, v: np.ndarray, temp_c: float) -> tuple[Linearised, 
         vgs, vds = v[1] - v[2], v[0] - v[2]
         q = eq.jfet(m, vgs, vds, temp_c)
         gs, gd = q.gate_source, q.gate_drain
-        did = np.array([q.gds, q.gm, -(q.gm + q.gds)])
-        dgs = np.array([0.0, gs.g, -gs.g])
-        dgd = np.array([-gd.g, gd.g, 0.0])
-        g[:] = [did - dgd, dgs + dgd, -did - dgs]
+        g[:] = _jfet_terminals(q)[1]
         _between(cap, ((1, 2, gs.c), (1, 0, gd.c)))
         region = q.region
         kind = "njf" if m.polarity > 0 else "pjf"

@@ -51,6 +51,9 @@ class Element:
     current_defined: ClassVar[bool] = False
     #: branch unknowns beyond the first, named ``<name> <suffix>`` (a space: no card name has one) (a line's second port)
     extra_branches: ClassVar[tuple[str, ...]] = ()
+    #: not linear: solved at the DC operating point and replaced there by its small-signal
+    #: equivalent before any stamp (netcheck.mna.bias); devices and nonlinear sources
+    nonlinear: ClassVar[bool] = False
     #: a passive part whose value must be positive (R, L, C)
     passive: ClassVar[bool] = False
     #: the unit of ``value`` for reports

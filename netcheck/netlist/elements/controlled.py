@@ -24,10 +24,18 @@ __all__ = ["VCVS", "IdealOpAmp", "VCCS", "CCCS", "CCVS", "PolyVCVS", "PolyVCCS",
            "poly_value", "is_value_card"]
 
 
-#: further forms of E and G cards, registered by the modules that read them (a Laplace
-#: source: elements/laplace.py): (does the card have this form, its reader), by letter
+#: the other forms of E, G, F and H cards (ideal op-amp, POLY, VALUE, LAPLACE), by letter:
+#: (does the card have this form, its reader); the module of each form registers it
 FORMS: dict[str, list[tuple[Callable[["CardReader"], bool], Callable[["CardReader"], Element]]]] = {
-    "E": [], "G": []}
+    "E": [], "G": [], "F": [], "H": []}
+
+
+def _other_form(letter: str, rd: "CardReader") -> Element | None:
+    """The element a card of another form (:data:`FORMS`) describes, or None."""
+    for wants, read in FORMS[letter]:
+        if wants(rd):
+            return read(rd)
+    return None
 
 
 @dataclass(slots=True, unsafe_hash=True)
@@ -60,15 +68,9 @@ class VCVS(_Controlled):
 
     @classmethod
     def from_card(cls, rd: "CardReader") -> "Element":
-        if rd.peek_keyword(2) == "opamp":
-            return IdealOpAmp.read(rd)
-        if rd.peek_keyword(2) == "poly":
-            return PolyVCVS.read(rd)
-        if is_value_card(rd):
-            return BehaviouralVCVS.read(rd)
-        for wants, read in FORMS["E"]:
-            if wants(rd):
-                return read(rd)
+        other = _other_form("E", rd)
+        if other is not None:
+            return other
         nodes = rd.nodes(4)
         gain = rd.value("gain")
         rd.finish()
@@ -127,13 +129,9 @@ class VCCS(_Controlled):
 
     @classmethod
     def from_card(cls, rd: "CardReader") -> "Element":
-        if rd.peek_keyword(2) == "poly":
-            return PolyVCCS.read(rd)
-        if is_value_card(rd):
-            return BehaviouralVCCS.read(rd)
-        for wants, read in FORMS["G"]:
-            if wants(rd):
-                return read(rd)
+        other = _other_form("G", rd)
+        if other is not None:
+            return other
         nodes = rd.nodes(4)
         gm = rd.value("transconductance")
         rd.finish()
@@ -153,8 +151,9 @@ class CCCS(_Controlled):
 
     @classmethod
     def from_card(cls, rd: "CardReader") -> "Element":
-        if rd.peek_keyword(2) == "poly":
-            return PolyCCCS.read(rd)
+        other = _other_form("F", rd)
+        if other is not None:
+            return other
         nodes = rd.nodes(2)
         control = rd.reference("controlling voltage source")
         gain = rd.value("current gain")
@@ -178,8 +177,9 @@ class CCVS(_Controlled):
 
     @classmethod
     def from_card(cls, rd: "CardReader") -> "Element":
-        if rd.peek_keyword(2) == "poly":
-            return PolyCCVS.read(rd)
+        other = _other_form("H", rd)
+        if other is not None:
+            return other
         nodes = rd.nodes(2)
         control = rd.reference("controlling voltage source")
         r = rd.value("transresistance")
@@ -511,3 +511,14 @@ class LinearisedSource(_OutputKind, Element):
             for r, s in zip(rows, sign):
                 for c, t in cols:
                     st.add("G", r, c, s * t * g)
+
+
+def _is_poly(rd: "CardReader") -> bool:
+    return rd.peek_keyword(2) == "poly"
+
+
+FORMS["E"] += [(lambda rd: rd.peek_keyword(2) == "opamp", IdealOpAmp.read),
+               (_is_poly, PolyVCVS.read), (is_value_card, BehaviouralVCVS.read)]
+FORMS["G"] += [(_is_poly, PolyVCCS.read), (is_value_card, BehaviouralVCCS.read)]
+FORMS["F"] += [(_is_poly, PolyCCCS.read)]
+FORMS["H"] += [(_is_poly, PolyCCVS.read)]
