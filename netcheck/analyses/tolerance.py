@@ -342,7 +342,13 @@ def _f(v: float) -> float | None:
 
 
 def with_values(circuit: Circuit, values: dict[str, float]) -> Circuit:
-    """A copy of ``circuit`` with the main value of the named elements replaced."""
+    """A copy of ``circuit`` with the main value of the named elements replaced (a
+    linearised circuit: its devices linearised again at the new operating point)."""
+    if circuit.large_signal is not None:
+        from ..mna.bias import linearised
+
+        return linearised(with_values(circuit.large_signal, values),
+                          circuit.operating_point.temp_c)[0]
     fields = ("magnitude", "gain", "k", "ac_magnitude")
     out = []
     for e in circuit.elements:

@@ -13,6 +13,7 @@ from ..netlist.elements import CurrentSource, VoltageSource
 from ..exceptions import ElaborationError, MeasurementError
 from ..netlist.source import printable, quoted
 from .bias import linearised
+from .bias_samples import stamp_sampled
 from .stamp import Delays, Stamper, unknown_names
 
 __all__ = ["System", "Stamper", "assemble", "assemble_batch", "unknown_names",
@@ -171,14 +172,14 @@ def assemble(circuit: Circuit, source: str, node: str, ref: str = GROUND) -> Sys
 
 def assemble_batch(system: System, values: Mapping[str, np.ndarray], samples: int,
                    dtype: Any = float) -> tuple[np.ndarray, np.ndarray]:
-    """Dense (samples, n, n) G and C with element values replaced per sample.
+    """Dense (samples, n, n) G and C with element values replaced per sample (a circuit
+    with devices: each sample linearised at its own operating point).
 
     Refused (analysis-305) for a circuit with a transmission line: its delayed entries
     are not in G and C.
     """
     refuse_delays(system, "sampled part values (Monte Carlo, worst case, stress)")
-    st = Stamper(system.circuit, values)
-    st.stamp_all()
+    st = stamp_sampled(system.circuit, values, samples)
     return st.dense_batch("G", samples, dtype), st.dense_batch("C", samples, dtype)
 
 

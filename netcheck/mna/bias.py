@@ -222,17 +222,26 @@ class _SourceCompanion:
 
 # ------------------------------------------------------------------ the DC system
 
+def stamp_linear_part(circuit: Circuit, values: Any = None) -> Stamper:
+    """A Stamper holding the linear part of the DC equations of ``circuit`` (part values
+    from ``values``, scalars or per-sample arrays): every linear element, and the output
+    branch of each nonlinear source; the devices stamp nothing here."""
+    st = Stamper(circuit, values)
+    for e in circuit.elements:
+        if e.nonlinear:
+            if not isinstance(e, Device):
+                e.stamp_linear(st)
+        else:
+            e.stamp(st, st.value_of(e.name))
+    return st
+
+
 class _DcSystem:
     """The linear part of the DC equations and the devices' companions."""
 
-    def __init__(self, circuit: Circuit, temp_c: float) -> None:
-        st = Stamper(circuit)
-        for e in circuit.elements:
-            if e.nonlinear:
-                if not isinstance(e, Device):
-                    e.stamp_linear(st)
-            else:
-                e.stamp(st, st.value_of(e.name))
+    def __init__(self, circuit: Circuit, temp_c: float,
+                 values: dict[str, float] | None = None) -> None:
+        st = stamp_linear_part(circuit, values)
         for e in circuit.elements:
             if isinstance(e, VoltageSource):
                 st.rhs_branch(e.name, e.dc)
@@ -411,7 +420,8 @@ def linearised(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C
                         tuple((b, float(x[i])) for b, i in st.branches.items()),
                         tuple(points), temp_c, method, iterations)
     elements = tuple(replaced.get(e.name, e) for e in circuit.elements)
-    return dataclasses.replace(circuit, elements=elements, operating_point=op, _index=None), op
+    return dataclasses.replace(circuit, elements=elements, operating_point=op,
+                               large_signal=circuit, _index=None), op
 
 
 # Each device's currents into its terminals (in node order) and their Jacobian with

@@ -38,6 +38,7 @@ import scipy.linalg as la
 import scipy.sparse.linalg as spla
 
 from .assemble import Stamper, System, refuse_delays
+from .bias_samples import SENSITIVITY_STEP, bias_sensitivities
 from ..measure.measurements import Resonance
 
 __all__ = ["AdjointSensitivity", "LogDerivatives", "adjoint_sensitivities", "DENSE_LIMIT"]
@@ -69,6 +70,14 @@ class LogDerivatives:
     w_fp: np.ndarray
 
 
+def _central(v: list) -> np.ndarray:
+    """p·∂T/∂p from tables at p(1 + h) and p(1 − h) (entries of two samples each)."""
+    if not v:
+        return np.zeros(0)
+    two = np.stack([np.broadcast_to(np.asarray(x, float), (2,)) for x in v])
+    return (two[:, 0] - two[:, 1]) / (2.0 * SENSITIVITY_STEP)
+
+
 class _PartStamps:
     """p ∂G/∂p and p ∂C/∂p of every part as one list of entries tagged by part."""
 
@@ -77,13 +86,24 @@ class _PartStamps:
         rows: dict[str, list[np.ndarray]] = {"G": [], "C": []}
         cols: dict[str, list[np.ndarray]] = {"G": [], "C": []}
         vals: dict[str, list[np.ndarray]] = {"G": [], "C": []}
+        circuit = system.circuit
+        # a circuit with devices: the bias moves with each part too (bias_samples)
+        moved = bias_sensitivities(circuit, [(name, nominal) for name, nominal, _ in parts])
+        biased = [e for e in circuit.elements if moved and e.name in moved[0]]
         for k, (name, nominal, _) in enumerate(parts):
             step = 1e-20 * abs(nominal)
-            st = Stamper(system.circuit, {name: nominal + 1j * step})
+            # the linear stamps by complex step; linearised elements keep their nominal
+            # tables there (real: no imaginary part) and add their move apart
+            st = Stamper(circuit, {name: nominal + 1j * step}, small_signal={})
             st.stamp_all()
-            for mat in ("G", "C"):
-                r, c, v = st.entries[mat]
-                v = np.imag(np.asarray(v, complex)) / step * nominal
+            found = [(m, st.entries[m], np.imag(np.asarray(st.entries[m][2], complex))
+                      / step * nominal) for m in ("G", "C")]
+            if moved:
+                sb = Stamper(circuit, {}, small_signal=moved[k])
+                for e in biased:
+                    e.stamp(sb, None)
+                found += [(m, sb.entries[m], _central(sb.entries[m][2])) for m in ("G", "C")]
+            for mat, (r, c, _), v in found:
                 keep = v != 0.0
                 rows[mat].append(np.asarray(r, int)[keep])
                 cols[mat].append(np.asarray(c, int)[keep])

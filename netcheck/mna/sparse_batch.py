@@ -9,7 +9,8 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from .assemble import Stamper, System
+from .assemble import System
+from .bias_samples import stamp_sampled
 
 __all__ = ["SparseBatch"]
 
@@ -26,8 +27,7 @@ class SparseBatch:
 
     def __init__(self, system: System, values: Mapping[str, np.ndarray], samples: int
                  ) -> None:
-        st = Stamper(system.circuit, values)
-        st.stamp_all()
+        st = stamp_sampled(system.circuit, values, samples)  # devices: each at its own bias
         n = self.n = system.size
         rg, cg, vg = st.batch_entries("G", samples)
         rc, cc, vc = st.batch_entries("C", samples)

@@ -49,13 +49,21 @@ def unknown_names(circuit: Circuit) -> tuple[dict[str, int], dict[str, int]]:
 
 
 class Stamper:
-    """Collects matrix entries from element stamps (values may be per-sample arrays)."""
+    """Collects matrix entries from element stamps (values may be per-sample arrays).
 
-    def __init__(self, circuit: Circuit, values: Mapping[str, Any] | None = None) -> None:
+    ``small_signal`` gives the small-signal tables of a linearised circuit's devices and
+    nonlinear sources for the same samples as ``values`` (name → tables, see
+    :mod:`netcheck.mna.bias_samples`); an empty mapping says the nominal tables hold
+    (a complex-step perturbation, whose bias move is added apart).
+    """
+
+    def __init__(self, circuit: Circuit, values: Mapping[str, Any] | None = None,
+                 small_signal: Mapping[str, Any] | None = None) -> None:
         self.circuit = circuit
         self.nodes, self.branches = unknown_names(circuit)
         self.n = len(self.nodes) + len(self.branches)
         self.values = values or {}
+        self.small_signal = small_signal
         self.entries: dict[str, tuple[list[int], list[int], list[Any]]] = {
             "G": ([], [], []), "C": ([], [], [])}
         #: delayed entries: rows, columns, coefficients, delays (s)
@@ -67,6 +75,17 @@ class Stamper:
         if name in self.values:
             return self.values[name]
         return self.circuit.element(name).value
+
+    def sampled(self, name: str) -> Any:
+        """The per-sample small-signal tables of linearised element ``name``, or None when
+        its nominal tables hold. Part values given without tables would pair the samples
+        with the nominal operating point, which they do not have: refused."""
+        if self.small_signal is None:
+            if self.values:
+                raise AssertionError(f"{name}: sampled part values need each sample's "
+                                     "operating point (netcheck.mna.bias_samples)")
+            return None
+        return self.small_signal.get(name)
 
     def _row(self, node: str) -> int | None:
         return None if node == GROUND else self.nodes[node]

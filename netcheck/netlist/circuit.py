@@ -73,6 +73,9 @@ class Circuit:
     #: for a circuit whose devices were replaced by their small-signal equivalents: the
     #: DC operating point they were linearised at (a netcheck.mna.bias.OperatingPoint)
     operating_point: Any = field(default=None, compare=False, repr=False)
+    #: for such a circuit: the circuit with its devices, which each sample of part values
+    #: (Monte Carlo, worst case, stress) solves again for its own operating point
+    large_signal: "Circuit | None" = field(default=None, compare=False, repr=False)
     _index: dict = field(default=None, compare=False, repr=False)
     _models: dict = field(default=None, compare=False, repr=False)
 

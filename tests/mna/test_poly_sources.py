@@ -117,9 +117,13 @@ def test_bad_polynomial_cards(card, code, message):
     assert info.value.code == code and info.value.span.line == 5
 
 
-def test_sampled_values_are_refused():
-    # the linearisation holds at the nominal operating point only (analysis-308)
-    system = assemble(read_netlist(NETLIST), "V1", "g")
-    with pytest.raises(NetcheckError, match="E1: Monte Carlo, worst case") as info:
-        SampleSet(system, {"RL2": np.array([900.0, 1100.0])}, 2, F)
-    assert info.value.code == "analysis-308"
+def test_each_sample_of_a_polynomial_circuit_has_its_own_operating_point():
+    # H1 = 1k·i + 1meg·i² with i = i(VS) = v(a)/RX = 1 V/RX: sampling RX moves the bias
+    # current, so the small-signal gain from V1 to h, (1k + 2·1meg·i)·(1/RX), moves with
+    # it (the chain rule, worked by hand); the other sources' gains stay put
+    system = assemble(read_netlist(NETLIST), "V1", "h")
+    rx = np.array([800.0, 1000.0, 1250.0])
+    ss = SampleSet(system, {"RX": rx}, rx.size, F)
+    got = ss.direct(np.tile(F, (rx.size, 1)))
+    want = (1e3 + 2e6 / rx) / rx
+    np.testing.assert_allclose(got, np.repeat(want[:, None], F.size, axis=1), rtol=1e-12)

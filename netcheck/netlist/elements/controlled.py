@@ -9,7 +9,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, Callable, ClassVar
 
-from ...exceptions import Diagnostic, ElaborationError, MeasurementError
+from ...exceptions import Diagnostic, ElaborationError
 from ..gradients import read_expression, value_and_gradient
 from ..source import Span, printable
 from ..syntax import Field
@@ -488,14 +488,10 @@ class LinearisedSource(_OutputKind, Element):
         return tuple(c[1] for c in self.inputs if c[0] == "i")
 
     def stamp(self, st: "Stamper", value: Any) -> None:
-        if st.values:  # sampled part values move the operating point (see Linearised)
-            raise MeasurementError(
-                f"{printable(self.name)}: Monte Carlo, worst case and part stress are not "
-                "available yet for a circuit with polynomial or behavioural sources: each "
-                "sample would need its own DC operating point, and the nominal one would "
-                "give wrong answers; the nominal check is exact (it solves the operating "
-                "point)",
-                self.span, code="analysis-308")
+        # per-sample gains (each sample of part values at its own operating point:
+        # {"gains": (S, controls)}), or the nominal ones
+        sampled = st.sampled(self.name)
+        gains: Any = self.gains if sampled is None else sampled["gains"].T
         p, n = self.nodes[0], self.nodes[1]
         if self.output_kind == "v":
             k = st.branch(self.name)
@@ -503,8 +499,8 @@ class LinearisedSource(_OutputKind, Element):
             rows, sign = [k], [-1.0]
         else:
             rows, sign = [st.row_of(p), st.row_of(n)], [1.0, -1.0]
-        for control, g in zip(self.inputs, self.gains):
-            if not g:
+        for control, g in zip(self.inputs, gains):
+            if not (g.any() if sampled is not None else g):
                 continue
             cols = ([(st.row_of(control[1]), 1.0), (st.row_of(control[2]), -1.0)]
                     if control[0] == "v" else [(st.branch(control[1]), 1.0)])

@@ -28,7 +28,7 @@ import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, ClassVar
 
-from ...exceptions import Diagnostic, ElaborationError, MeasurementError
+from ...exceptions import Diagnostic, ElaborationError
 from ..device_models import (BjtModel, DeviceModel, JfetModel, MosModel,
                              check_geometry, device_model)
 from ..source import printable
@@ -335,19 +335,16 @@ class Linearised(Element):
         return tuple((first, n) for n in self.nodes[1:])
 
     def stamp(self, st: "Stamper", value: Any) -> None:
-        if st.values:
-            # sampled or perturbed part values (Monte Carlo, worst case, stress): these
-            # conductances hold at the nominal operating point only, so stamping them
-            # beside other values would answer silently wrong
-            raise MeasurementError(
-                f"{printable(self.name)}: Monte Carlo, worst case and part stress are not "
-                "available yet for a circuit with semiconductor devices: each sample would "
-                "need its own DC operating point, and the nominal one would give wrong "
-                "answers; the nominal check is exact (it solves the operating point)",
-                self.span, code="analysis-308")
+        # per-sample tables (each sample of part values at its own operating point:
+        # {"G": (S, k, k), "C": (S, k, k)}), or the nominal ones
+        sampled = st.sampled(self.name)
         rows = [st.row_of(n) for n in self.nodes]
         for mat, table in (("G", self.g), ("C", self.c)):
-            for r, line in zip(rows, table):
-                for k, v in zip(rows, line):
-                    if v:
+            for i, (r, line) in enumerate(zip(rows, table)):
+                for j, (k, v) in enumerate(zip(rows, line)):
+                    if sampled is not None:
+                        column = sampled[mat][:, i, j]
+                        if column.any():
+                            st.add(mat, r, k, column)
+                    elif v:
                         st.add(mat, r, k, v)
