@@ -17,7 +17,7 @@ from ..netlist.circuit import Circuit
 from ..result import Caution
 
 __all__ = ["operating_point_block", "region_cautions", "stability_caution",
-           "AMPLIFYING_REGION"]
+           "sample_region_cautions", "AMPLIFYING_REGION"]
 
 #: the region in which a transistor amplifies (common practice, no source)
 AMPLIFYING_REGION = {"npn": "forward-active", "pnp": "forward-active",
@@ -92,4 +92,40 @@ def region_cautions(op: Any, circuit: Circuit) -> list[Caution]:
             f"{want}: {why}{shown}. An amplifying stage works in the {want} region; the "
             "small-signal response here is that of this bias: check the bias network if "
             "this is not intended", "warning", *where))
+    return out
+
+
+def sample_region_cautions(entries: list[dict[str, Any]], circuit: Circuit,
+                           samples: int) -> list[Caution]:
+    """analysis-307 for every device whose Monte Carlo samples leave the region it has at
+    the nominal operating point (``entries``: the ``device_regions`` of the Monte Carlo
+    block): a transistor that leaves its amplifying region in some samples (a warning),
+    a diode that conducts in some samples and not in others (a note)."""
+    out = []
+    for entry in entries:
+        name, nominal, counts = entry["device"], entry["nominal_region"], entry["counts"]
+        others = {r: n for r, n in counts.items() if r != nominal}
+        if not others:
+            continue
+        element = circuit.element(name) if circuit.has_element(name) else None
+        where = (element.span.path, element.span.line, element.span.column) \
+            if element is not None and element.span is not None else (None, None, None)
+        moved = sum(others.values())
+        which = ", ".join(f"{r} in {n}" for r, n in sorted(others.items()))
+        first = entry["first_other_sample"]
+        at = ", ".join(f"{k} = {v:.6g}" for k, v in list(entry["first_other_values"].items())[:4])
+        example = f"; the first is sample {first + 1} ({at})" if first is not None else ""
+        want = AMPLIFYING_REGION.get(entry["kind"])
+        if want is not None and nominal == want:
+            out.append(Caution(
+                "analysis-307", f"{name} ({entry['kind']}) leaves the {want} region in "
+                f"{moved} of {samples} Monte Carlo samples ({which}){example}: those samples "
+                "are not the amplifying stage the nominal design is, and their response is "
+                "judged as it is; widen the bias margins if this is not intended", "warning",
+                *where))
+        elif entry["kind"] == "diode":
+            out.append(Caution(
+                "analysis-307", f"{name} is {nominal} at the nominal operating point and "
+                f"{which} of {samples} Monte Carlo samples{example}: whether it conducts "
+                "depends on the part tolerances", "note", *where))
     return out

@@ -184,8 +184,12 @@ MEASUREMENT_KEYS = ("f_peak_hz", "peak_gain_db", "f_low_hz", "f_high_hz", "bandw
 
 
 def _judge_chunk(system: System, spec: Spec, values: dict[str, np.ndarray], n: int,
-                 memory: int) -> tuple[list, dict[str, np.ndarray], np.ndarray, np.ndarray]:
+                 memory: int, regions: dict[str, list] | None = None
+                 ) -> tuple[list, dict[str, np.ndarray], np.ndarray, np.ndarray]:
     ss = SampleSet(system, values, n, spec.sweep.grid(), memory)
+    if regions is not None and ss.bias is not None:
+        for name, r in ss.bias.regions.items():
+            regions.setdefault(name, []).append(r)
     bp = BatchProbe(ss)
     rows = []
     for lim in spec.limits:
@@ -209,10 +213,13 @@ def _chunk_size(system: System, spec: Spec, memory: int) -> int:
 
 
 def run_samples(system: System, spec: Spec, values: dict[str, np.ndarray], samples: int,
-                memory: int, label: str | None = None
+                memory: int, label: str | None = None, regions: dict[str, list] | None = None
                 ) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray],
                            dict[str, np.ndarray], np.ndarray, np.ndarray]:
     """Judge every limit for each sample, in chunks; margins and measured values per row.
+
+    ``regions``, when given, collects each device's region per sample (a list of arrays
+    per device name, one per chunk) for a circuit with devices.
 
     With a ``label``, progress is reported per chunk (:mod:`netcheck.analyses.progress`); while a
     display listens, chunks are at most a fiftieth of the run (at least 64 samples).
@@ -227,7 +234,7 @@ def run_samples(system: System, spec: Spec, values: dict[str, np.ndarray], sampl
     for i in range(0, samples, step):
         j = min(samples, i + step)
         chunk = {k: v[i:j] for k, v in values.items()}
-        rows, m, lo, hi = _judge_chunk(system, spec, chunk, j - i, memory)
+        rows, m, lo, hi = _judge_chunk(system, spec, chunk, j - i, memory, regions)
         for name, value, margin in rows:
             margins.setdefault(name, []).append(np.asarray(margin, float))
             measured.setdefault(name, []).append(np.asarray(value, float))
@@ -262,8 +269,9 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
             "samples (the 95 % interval of a yield narrows as 1/√samples) or raise "
             "memory_mib", code="spec-205", path=spec.path, where="analysis.samples")
     values = draw(parts, S, tol.distribution, rng, spec.path)
+    regions: dict[str, list] = {}
     margins, measured, meas, env_lo, env_hi = run_samples(
-        system, spec, values, S, analysis.memory_mib * 2**20, "Monte Carlo samples")
+        system, spec, values, S, analysis.memory_mib * 2**20, "Monte Carlo samples", regions)
     rows: list[LimitResult] = []
     stress_block, stress_ok = None, {}
     if spec.stress is not None:
@@ -298,6 +306,8 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
              "yield": y, "yield_ci": list(ci), "ci_method": "Wilson score, 95 %",
              "limits": lim_json, "measurements": {k: _stats(v) for k, v in meas.items()},
              "parts": [{"part": n, "nominal": v, "tolerance": t} for n, v, t in parts]}
+    if regions:
+        block["device_regions"] = _region_counts(system, regions, values)
     def deciding(k: str) -> tuple[float, float]:
         # the limit with the lowest yield; among equals, the smallest median margin
         # relative to the size of the measured value (so Hz, dB and Q compare fairly)
@@ -334,6 +344,27 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
             interval_text(int(passed_all.sum()), S, "met every limit"),
             len(spec.limits), None))
     return block, rows, (env_lo, env_hi)
+
+
+def _region_counts(system: System, regions: dict[str, list], values: dict[str, np.ndarray]
+                   ) -> list[dict[str, Any]]:
+    """Each device's regions over the samples: its nominal region, how many samples were
+    in each region, and the first sample in a region other than the nominal one."""
+    op = system.circuit.operating_point
+    nominal = {d.name: d for d in op.devices}
+    out = []
+    for name, chunks in regions.items():
+        r = np.concatenate(chunks)
+        names, counts = np.unique(r.astype(str), return_counts=True)
+        other = np.flatnonzero(r != nominal[name].region)
+        first = int(other[0]) if other.size else None
+        out.append({"device": name, "kind": nominal[name].kind,
+                    "nominal_region": nominal[name].region,
+                    "counts": {str(k): int(c) for k, c in zip(names, counts)},
+                    "first_other_sample": first,
+                    "first_other_values": None if first is None else
+                    {k: float(x[first]) for k, x in values.items()}})
+    return out
 
 
 def _f(v: float) -> float | None:

@@ -48,6 +48,10 @@ def analyse(nominal: Nominal) -> Outcome | None:
                                             nominal.probe.curve.response)
         block["monte_carlo"] = mc
         rows.extend(mc_rows)
+        if mc.get("device_regions"):
+            from .operating import sample_region_cautions
+            cautions += sample_region_cautions(mc["device_regions"], circuit,
+                                               analysis.samples)
     if "worst_case" in analysis.modes:
         wc, wc_rows = worst_case(nominal.system, spec, parts, nominal.limits,
                                  dict(nominal.measurements), analysis, nominal.probe)

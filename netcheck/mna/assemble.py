@@ -171,15 +171,16 @@ def assemble(circuit: Circuit, source: str, node: str, ref: str = GROUND) -> Sys
 
 
 def assemble_batch(system: System, values: Mapping[str, np.ndarray], samples: int,
-                   dtype: Any = float) -> tuple[np.ndarray, np.ndarray]:
+                   dtype: Any = float, bias: Any = None) -> tuple[np.ndarray, np.ndarray]:
     """Dense (samples, n, n) G and C with element values replaced per sample (a circuit
-    with devices: each sample linearised at its own operating point).
+    with devices: each sample linearised at its own operating point, ``bias`` when the
+    caller has solved them, a :class:`~netcheck.mna.bias_samples.SampledBias`).
 
     Refused (analysis-305) for a circuit with a transmission line: its delayed entries
     are not in G and C.
     """
     refuse_delays(system, "sampled part values (Monte Carlo, worst case, stress)")
-    st = stamp_sampled(system.circuit, values, samples)
+    st = stamp_sampled(system.circuit, values, samples, bias)
     return st.dense_batch("G", samples, dtype), st.dense_batch("C", samples, dtype)
 
 

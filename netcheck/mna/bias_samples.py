@@ -192,10 +192,13 @@ def bias_sensitivities(circuit: Circuit, parts: list[tuple[str, float]]
              for e, tabs in got.tables.items()} for k in range(len(parts))]
 
 
-def stamp_sampled(circuit: Circuit, values: Mapping[str, Any], samples: int) -> Stamper:
+def stamp_sampled(circuit: Circuit, values: Mapping[str, Any], samples: int,
+                  bias: SampledBias | None = None) -> Stamper:
     """A Stamper with every element stamped for ``samples`` samples of ``values``, the
-    linearised elements at each sample's own operating point."""
-    bias = sampled_small_signal(circuit, values, samples) if values else None
+    linearised elements at each sample's own operating point (``bias``, solved here when
+    not given)."""
+    if bias is None and values:
+        bias = sampled_small_signal(circuit, values, samples)
     st = Stamper(circuit, values, small_signal={} if bias is None else bias.tables)
     st.stamp_all()
     return st

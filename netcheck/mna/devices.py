@@ -34,7 +34,7 @@ from ..netlist.device_models import BjtModel, DiodeModel, JfetModel, MosModel
 
 __all__ = ["BOLTZMANN", "ELEMENTARY_CHARGE", "ZERO_CELSIUS", "thermal_voltage",
            "Junction", "depletion_charge", "junction", "diode", "BjtPoint", "bjt",
-           "bjt_region", "MosPoint", "mos1", "MosCaps", "mos1_capacitances", "JfetPoint", "jfet", "critical_voltage",
+           "bjt_region", "SATURATION_RATIO", "MosPoint", "mos1", "MosCaps", "mos1_capacitances", "JfetPoint", "jfet", "critical_voltage",
            "bounded_junction_voltage"]
 
 #: Boltzmann constant, J/K, and elementary charge, C: exact in the SI since 2019
@@ -157,16 +157,33 @@ def bjt(model: BjtModel, vbe: float, vbc: float, temp_c: float = NOMINAL_TEMP_C)
     cbe_bc = model.TF * jf.i * d_early
     cbc = jr.c + model.TR * jr.g
     return BjtPoint(p * ic, p * ib, dic_dvbe, dic_dvbc, jf.g / model.BF, jr.g / model.BR,
-                    p * qbe, p * qbc, cbe, cbe_bc, cbc, bjt_region(vbe, vbc))
+                    p * qbe, p * qbc, cbe, cbe_bc, cbc, bjt_region(vbe, vbc, jf.i, jr.i))
 
 
-def bjt_region(vbe: float, vbc: float) -> str:
+#: the collector junction's transport current, relative to the emitter junction's, above
+#: which a transistor with both junctions forward-biased reads 'saturated'
+SATURATION_RATIO = 1e-4
+
+
+def bjt_region(vbe: float, vbc: float, i_f: float | None = None, i_r: float | None = None
+               ) -> str:
     """The region of an n-type transistor by the bias of its junctions (a junction is
     forward-biased when its voltage is positive): 'forward-active', 'reverse-active',
-    'saturated' or 'off'. A collector junction forward-biased by a few hundred
-    millivolts (soft saturation) already reads 'saturated'."""
+    'saturated' or 'off'.
+
+    With both junctions forward-biased, the transistor reads 'saturated' only when the
+    collector junction's transport current IR is above :data:`SATURATION_RATIO` of the
+    emitter junction's IF (given ``i_f`` and ``i_r``): a collector junction a little
+    forward-biased carries next to nothing and the transistor still amplifies. For equal
+    IS and NF = NR = 1, IR/IF = exp(−Vce/Vt), so the edge is at Vce = ln(10⁴)·Vt ≈ 0.24 V
+    at 27 °C, about where common practice puts Vce(sat), 0.2–0.3 V (no source).
+    """
     if vbe > 0:
-        return "saturated" if vbc > 0 else "forward-active"
+        if vbc <= 0:
+            return "forward-active"
+        if i_f is not None and i_r is not None and i_r <= SATURATION_RATIO * i_f:
+            return "forward-active"
+        return "saturated"
     return "reverse-active" if vbc > 0 else "off"
 
 

@@ -32,6 +32,7 @@ from typing import Mapping
 import numpy as np
 
 from .assemble import System, assemble_batch, refuse_delays
+from .bias_samples import sampled_small_signal
 from .dense import DenseEngine
 from .polezero import PoleZeroEngine
 from .sample_roots import followed_roots
@@ -77,11 +78,15 @@ class SampleSet:
         self.l = np.asarray(system.l, float)
         self.w_scale = _TWO_PI * math.sqrt(self.grid[0] * self.grid[-1])
         self.memory_bytes = memory_bytes
+        #: a circuit with devices: every sample's operating point, small-signal tables
+        #: and device regions (:mod:`netcheck.mna.bias_samples`); None without devices
+        self.bias = sampled_small_signal(system.circuit, values, samples) if values else None
         # large systems: one sparse pattern, every sample solved directly by SuperLU
-        self.sparse = SparseBatch(system, values, samples) if self.n > SPARSE_ABOVE else None
+        self.sparse = (SparseBatch(system, values, samples, self.bias)
+                       if self.n > SPARSE_ABOVE else None)
         # counts of finite poles and zeros from the nominal QZ
         if self.sparse is None:
-            self.G, self.C = assemble_batch(system, values, samples)
+            self.G, self.C = assemble_batch(system, values, samples, bias=self.bias)
             self.counts = _nominal_form(system, self.grid)[0]
         else:
             self.G = self.C = self.counts = None

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import math
-from typing import Mapping
+from typing import Any, Mapping
 
 import numpy as np
 import scipy.sparse as sp
@@ -25,9 +25,10 @@ class SparseBatch:
     and factors it with SuperLU. The loop runs over factorisations, which are the work.
     """
 
-    def __init__(self, system: System, values: Mapping[str, np.ndarray], samples: int
-                 ) -> None:
-        st = stamp_sampled(system.circuit, values, samples)  # devices: each at its own bias
+    def __init__(self, system: System, values: Mapping[str, np.ndarray], samples: int,
+                 bias: Any = None) -> None:
+        # devices: each sample at its own operating point (``bias``, solved if not given)
+        st = stamp_sampled(system.circuit, values, samples, bias)
         n = self.n = system.size
         rg, cg, vg = st.batch_entries("G", samples)
         rc, cc, vc = st.batch_entries("C", samples)

@@ -141,3 +141,34 @@ def test_the_pdf_section_data(tmp_path, capsys):
     assert view["method"] == "Newton's method from zero"
     assert [n["node"] for n in view["nodes"]] == [n["node"] for n in
                                                   spec["operating_point"]["nodes"]]
+
+
+def test_monte_carlo_names_a_transistor_that_leaves_its_region(tmp_path, capsys):
+    # RC = 6.8k: Ic ≈ 1.32 mA (the hand estimate above) leaves Vce ≈ 12 − 1.32m·7.8k ≈
+    # 1.7 V at nominal, forward-active; ±30 % resistors push some samples into saturation
+    # (the ends that raise Ic·RC) — each sample is solved at its own operating point
+    (tmp_path / "d.cir").write_text(CE.format(rc="6.8k"))
+    (tmp_path / "d.toml").write_text(
+        SPEC.format(title="QM stage", netlist="d.cir", source="VIN", output="c")
+        + '\n[tolerances]\ndefault = { R = "30%" }\n'
+        + '[analysis]\nmode = ["nominal", "monte_carlo"]\nsamples = 200\nseed = 5\n')
+    out = tmp_path / "r.json"
+    code = netcheck_main(["check", str(tmp_path / "d.toml"), "--jobs", "1", "--json", str(out)])
+    assert code in (OK, FAIL)
+    doc = json.loads(out.read_text("utf-8"))
+    jsonschema.validate(doc, SCHEMA)
+    spec = doc["specs"][0]
+    assert spec["operating_point"]["devices"][0]["region"] == "forward-active"
+    (regions,) = spec["tolerance"]["monte_carlo"]["device_regions"]
+    counts = regions["counts"]
+    assert sum(counts.values()) == 200 and 0 < counts["saturated"] < 200
+    first = regions["first_other_values"]
+    # the first saturated sample re-solved by hand: the Thevenin divider bias, as above
+    vth = 12 * first["R2"] / (first["R1"] + first["R2"])
+    rth = first["R1"] * first["R2"] / (first["R1"] + first["R2"])
+    ic = 200 * (vth - 0.72) / (rth + 201 * first["RE"])
+    assert 12 - ic * first["RC"] - ic * first["RE"] < 0.6  # Vce low: saturation is right
+    terminal = capsys.readouterr().out
+    n = counts["saturated"]
+    assert (f"warning analysis-307: Q1 (npn) leaves the forward-active region in {n} of "
+            "200 Monte Carlo samples") in terminal

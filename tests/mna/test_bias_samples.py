@@ -91,3 +91,33 @@ def test_a_sample_without_an_operating_point_is_named(system, monkeypatch):
         SampleSet(system, {"RB2": np.array([9e3, 11e3])}, 2, F)
     assert err.value.code == "analysis-311"
     assert "sample 1 (RB2 = 9000)" in str(err.value)
+
+
+def test_each_sample_region_against_its_independent_bias(system, monkeypatch):
+    # RC from 4.7k up to 12k: the collector falls toward the emitter and the transistor
+    # saturates; the region rule (docs/devices.md) applied to the independent bias:
+    # saturated when both junctions conduct and IR > 1e-4·IF
+    from scipy.optimize import fsolve
+
+    from .test_bias import CE_IS, ebers_moll, shockley
+
+    rc = np.array([4.7e3, 6.8e3, 8.2e3, 9.1e3, 12e3])
+    got = SampleSet(system, {"RC": rc}, rc.size, F).bias.regions["Q1"]
+    want = []
+    for r in rc:
+        def kcl(x, r=float(r)):  # as ce_reference, with this RC, scaled to mA
+            vb, vc, ve = x
+            t = ebers_moll(vb - ve, vb - vc, VAF)
+            return [1e3 * ((12 - vb) / CE_R["RB1"] - vb / CE_R["RB2"] - t["ib"]),
+                    1e3 * ((12 - vc) / r - t["ic"]),
+                    1e3 * (t["ic"] + t["ib"] - ve / CE_R["RE"])]
+
+        # from the saturated side (collector near the emitter): fsolve's full steps
+        # reach both kinds of solution from there
+        (vb, vc, ve), info, ok, _ = fsolve(kcl, [1.9, 1.3, 1.2], xtol=1e-13,
+                                           full_output=True)
+        assert ok == 1 and np.max(np.abs(info["fvec"])) < 1e-9
+        i_f, i_r = shockley(vb - ve, CE_IS, 1.0)[0], shockley(vb - vc, CE_IS, 1.0)[0]
+        want.append("saturated" if vb - vc > 0 and i_r > 1e-4 * i_f else "forward-active")
+    assert list(got) == want
+    assert want[0] == "forward-active" and want[-1] == "saturated"
