@@ -530,13 +530,15 @@ class _Pass:
                 self.refuse(f"{shown}: {quoted(t.text, 60)} is an optimiser's placeholder, "
                             "not a value: substitute the values (or .param names with "
                             ".param values) before checking", self.span(t))
+        edits = card_form_edits(toks) if letter in "EFGHB" else None
+        if edits:  # POLY, LAPLACE and unbraced expression forms, for the card reader
+            for i, start, end, text in edits:
+                self.lines[i] = self.lines[i][:start] + text + self.lines[i][end:]
+            return
         advice = device_advice(letter, name) if letter in "BSWAU" else None
         if advice is not None and any(t.text in "()" for t in toks):
             self.refuse(advice, self.span(toks[0]))
-        edits = card_form_edits(toks) if letter in "EFGH" else None
-        if edits is not None:  # POLY and LAPLACE forms, for the card reader (card_forms.py)
-            for i, start, end, text in edits:
-                self.lines[i] = self.lines[i][:start] + text + self.lines[i][end:]
+        if edits is not None:  # a form the card reader reads as written
             return
         if letter in "EFGHB":
             got = behavioural_refusal(name, [t.text for t in toks])

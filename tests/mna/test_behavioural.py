@@ -361,6 +361,27 @@ R4 d 0 1k
     assert gains == pytest.approx([9.0, 0.0, 2.0], rel=1e-14, abs=1e-300)
 
 
+@pytest.mark.parametrize("card", ["B1 z 0 V=V(p)+ V(q)*2", "B1 z 0 V = v(p) + 2*v(q)",
+                                  "B1 0 z I=1m*(V(p)+ V(q)*2)", "E1 z 0 VALUE=v(p)+2*v(q)",
+                                  "G1 0 z value = 1m*v(p) + 2m*v(q)"])
+def test_an_unbraced_expression_runs_to_the_end_of_the_line(card):
+    """V=, I= and VALUE= with the expression unbraced to the end of the line (spaces and
+    brackets inside) read as the braced form: v(p) + 2·v(q) with v(p) = 2·v(a), v(q) =
+    3·v(a) is 8·v(a) (into 1 kΩ for the current forms, 1m·8·v(a)·1k = 8·v(a))."""
+    text = ("Quillmere QM-B12 sum of two sensed voltages\nV1 a 0 AC 1\nR1 a 0 1k\n"
+            f"E2 p 0 a 0 2\nE3 q 0 a 0 3\n{card}\nRZ z 0 1k\n")
+    got = read_netlist(text).ac("V1", "z", freqs=np.array([1e3])).transfer[0]
+    assert got == pytest.approx(8.0, rel=1e-14)
+
+
+def test_an_error_in_an_unbraced_expression_points_into_it():
+    text = ("Quillmere QM-B13 bad expression\nV1 a 0 AC 1\nR1 a 0 1k\n"
+            "B1 z 0 V=v(a)+ nofunc(3)\nRZ z 0 1k\n")
+    with pytest.raises(NetcheckError, match="unknown function 'nofunc'") as info:
+        read_netlist(text).ac("V1", "z", freqs=np.array([1e3]))
+    assert (info.value.span.line, info.value.span.column) == (4, 16)
+
+
 def test_an_expression_too_deep_to_value_is_refused_when_read():
     """.func calls written out can nest an expression deeper than any text the
     expression grammar reads; it is refused (netlist-101) before the DC solve values it:

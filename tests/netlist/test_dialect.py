@@ -425,7 +425,6 @@ class TestRefused:
         assert info.value.code == "netlist-120" and info.value.span.line == 4
 
     @pytest.mark.parametrize("card, what, col", [
-        ("B1 out 0 V=V(in)*2", "behavioural source", 1),
         ("F1 out 0 VS laplace=1/(1+s)", "LAPLACE", 13),  # LAPLACE is read on E and G only
         ("E2 out 0 TABLE {v(in)} = (0,0) (1,2)", "TABLE", 10),
         ("G2 out 0 FREQ {v(in)} (1k,0,0) (2k,-3,-45)", "FREQ", 10),
@@ -440,13 +439,17 @@ class TestRefused:
         assert info.value.code == "netlist-120"
         assert (info.value.span.line, info.value.span.column) == (4, col)
 
-    @pytest.mark.parametrize("card, col", [("E1 out 0 VALUE=2*v(in)", 19),
-                                           ("G1 out 0 value = 1m*v(in)", 22)])
-    def test_an_unbraced_behavioural_expression_asks_for_braces(self, card, col):
-        with pytest.raises(NetlistSyntaxError, match="in braces") as info:
-            load_netlist(f"Quillmere QM-7\nV1 in 0 AC 1\nR1 in out 1k\n{card}\n")
-        assert info.value.code == "netlist-100"
-        assert (info.value.span.line, info.value.span.column) == (4, col)
+    @pytest.mark.parametrize("card, key, col", [("E1 out 0 VALUE=2*v(in)", "VALUE", 15),
+                                                ("G1 out 0 value = 1m*v(in)", "value", 16),
+                                                ("B1 out 0 V=V(in)*2", "V", 11)])
+    def test_an_unbraced_expression_is_braced_in_place(self, card, key, col):
+        # to the end of the line: the '=' becomes '{' and a '}' closes it, so every
+        # column of the expression stays where it is in the file
+        netlist = load_netlist(f"Quillmere QM-7\nV1 in 0 AC 1\nR1 in out 1k\n{card}\n")
+        fields = netlist.top.cards[-1].fields
+        assert fields[-2].text == key
+        assert fields[-1].kind == "braced" and fields[-1].span.column == col
+        assert fields[-1].text == "{" + card[col:] + "}"
 
     @pytest.mark.parametrize("card, key, col", [("E1 out 0 VALUE={2*v(in)}", "VALUE", 16),
                                                 ("B1 out 0 V = {tanh(v(in, 0))}", "V", 14),

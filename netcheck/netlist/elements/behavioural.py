@@ -17,6 +17,7 @@ from typing import TYPE_CHECKING, Any, ClassVar
 
 from ...exceptions import ElaborationError
 from ..source import Span, printable
+from ..syntax import Field
 from .base import Element
 from .controlled import _OutputKind, _Behavioural
 
@@ -49,11 +50,26 @@ class BehaviouralSource(_Behavioural, _OutputKind, Element):
     def from_card(cls, rd: "CardReader") -> "Element":
         outputs = rd.nodes(2)
         kind = rd.peek_assign()
-        if kind not in ("v", "i"):
+        if kind in ("v", "i"):
+            fld = rd.assigned_field()
+        elif rd.peek_keyword() in ("v", "i") and _braced_next(rd):
+            # V {expr}: the pre-pass's reading of V=<expression to the end of the line>
+            kind = rd.peek_keyword()
+            rd.skip()
+            fld = rd.items[rd.pos]
+            rd.skip()
+        else:
             raise ElaborationError(
                 f"{printable(rd.name)} is a behavioural source in a form netcheck does not "
                 "read: write Bname n+ n- V={expression} (a voltage) or "
                 "Bname n+ n- I={expression} (a current)", rd.field_span(), code=_REFUSED)
-        sensed, tree, inputs, spans = cls.read_expression(rd, rd.assigned_field())
+        sensed, tree, inputs, spans = cls.read_expression(rd, fld)
         rd.finish()
         return cls(rd.name, outputs + sensed, rd.span, kind, tree, inputs, spans)
+
+
+def _braced_next(rd: "CardReader") -> bool:
+    """True if the field after the next one is an expression in braces."""
+    k = rd.pos + 1
+    item = rd.items[k] if k < len(rd.items) else None
+    return isinstance(item, Field) and item.kind == "braced"
