@@ -204,6 +204,7 @@ VIN in 0 DC {vin} AC 1
 RIN in x 1k
 RX x 0 3.3k
 B1 0 y I={{2m*tanh(v(x)/0.4)*(1 + 0.05*v(y))}}
+G1 y 0 POLY(2) x 0 y 0 0 0.1m 0 0.2m 0.05m 0.03m
 RY y 0 2.2k
 E1 out 0 VALUE={{v(y) - 0.1*v(y)*v(y)*v(y) + 0.2*v(x)*v(y)}}
 RL out 0 10k
@@ -215,7 +216,7 @@ RL out 0 10k
     (BJT_CASCADE, "c2", [1.35, 1.5]),                  # both transistors forward-active
     (NMOS_STAGE, "out", [2.0, 3.5, 5.0]),              # saturation, saturation, triode
     (JFET_STAGE, "out", [-1.0, 0.0, 0.3]),             # saturation … nearly triode
-    (BEHAVIOURAL, "out", [0.2, 0.7, -0.9]),            # tanh near linear, compressed
+    (BEHAVIOURAL, "out", [0.2, 0.7, -0.9]),            # B, POLY(2) and VALUE cards
 ], ids=["diode", "npn-pnp", "nmos", "jfet", "behavioural"])
 def test_low_frequency_gain_is_the_slope_of_the_dc_transfer_curve(netlist, out, vins):
     for vin in vins:

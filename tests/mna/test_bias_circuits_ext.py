@@ -329,7 +329,7 @@ def test_sallen_key_f0_and_q_from_the_poles_against_the_closed_forms():
     # the corrected closed forms explain it; what is left is second order in δ (4e-6)
     # and the input pair's common-mode resistance 2(β + 1)·RT ≈ 450 MΩ across C2
     # (40 kΩ at f0), which lowers Q by about Q·40k/450M ≈ 2e-4: within δ/4
-    # (seen: f0 3e-7, Q 1.4e-4)
+    # (seen: f0 7e-6, Q 1.3e-4)
     assert got_f0 == pytest.approx(f0_c, rel=delta / 4)
     assert got_q == pytest.approx(q_c, rel=delta / 4)
 
