@@ -457,7 +457,7 @@ def test_symmetric_latch_three_solutions_and_the_one_netcheck_takes(tmp_path):
     low, middle, high = sols  # by d = Vc1 − Vc2: Q1 on, balanced, Q2 on
     assert abs(middle[0] - middle[1]) < 1e-12
     # the two latched states are each other's mirror, the middle one is unstable: a
-    # positive real pole (loop gain gm·RC ≈ 7.7 > 1 around the pair) — the outer ones
+    # positive real pole (loop gain gm·RC ≈ 8 > 1 around the pair) — the outer ones
     # have none
     assert low[0] == pytest.approx(high[1], rel=1e-12) and low[2] == pytest.approx(high[2])
     (rhp,) = latch_unstable(middle, 200.0, 200.0)
