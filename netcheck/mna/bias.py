@@ -51,6 +51,8 @@ from ..netlist.elements.devices import Bjt, Device, Diode, Jfet, Linearised, Mos
 from ..netlist.elements.sources import CurrentSource, VoltageSource
 from ..netlist.source import printable
 from . import devices as eq
+from .dc_states import (across, bjt_terminals, diode_terminals, jfet_terminals,
+                        junction_pairs, mos_terminals, unstable_poles)
 from .stamp import Stamper
 
 __all__ = ["DevicePoint", "OperatingPoint", "operating_point", "linearised",
@@ -63,6 +65,10 @@ RELTOL, VNTOL, ABSTOL = 1e-10, 1e-12, 1e-15
 MAX_ITERATIONS = 200
 #: conductance stepping: first and last conductance to ground, S
 GMIN_START, GMIN_END = 1e-2, 1e-12
+#: the conductance put across every junction when no method converges without it, S
+JUNCTION_GMIN = 1e-12
+#: a junction voltage beyond this (V) is no operating point, whatever the equations say
+JUNCTION_VOLTAGE_MAX = 1e6
 
 
 @dataclass(frozen=True, slots=True)
@@ -88,6 +94,8 @@ class OperatingPoint:
     temp_c: float
     method: str
     iterations: int
+    #: the conductance across each junction the solution needed (S), 0 for none
+    junction_gmin: float = 0.0
 
     def voltage(self, node: str) -> float:
         """The voltage of ``node`` (0 for ground)."""
@@ -109,6 +117,8 @@ class _Companion:
         self.vt = eq.thermal_voltage(temp_c)
         self.junctions: list[float] = []   # the last junction voltages used (device frame)
         self.held = False                  # a junction step was held back this iteration
+        self.gmin = 0.0                    # a conductance across each junction, S
+        self.pairs = junction_pairs(device)
 
     def voltages(self, x: np.ndarray) -> np.ndarray:
         return np.array([0.0 if r is None else x[r] for r in self.cols])
@@ -139,32 +149,40 @@ class _Companion:
 
     def evaluate(self, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """(currents into the terminals, their Jacobian) at terminal voltages ``v``,
-        linearised at the limited bias point: i(v) ≈ i0 + J·(v − v0)."""
+        linearised at the limited bias point: i(v) ≈ i0 + J·(v − v0); with ``gmin``, a
+        conductance across each junction besides (linear: exact at any v)."""
+        i, jac = self._evaluate(v)
+        if self.gmin:
+            extra = across(self.pairs, len(v), self.gmin)
+            return i + extra @ v, jac + extra
+        return i, jac
+
+    def _evaluate(self, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         self.held = False
         d = self.device
         if isinstance(d, Diode):
             m = d.model
             vd = self._limit(0, v[0] - v[1], m.N, m.IS)
-            i, jac = _diode_terminals(eq.diode(m, vd, self.temp_c))
+            i, jac = diode_terminals(eq.diode(m, vd, self.temp_c))
             return i + jac @ v - jac @ np.array([vd, 0.0]), jac
         if isinstance(d, Bjt):
             m = d.model
             p = m.polarity
             vbe = p * self._limit(0, p * (v[1] - v[2]), m.NF, m.IS)
             vbc = p * self._limit(1, p * (v[1] - v[0]), m.NR, m.IS)
-            i, jac = _bjt_terminals(eq.bjt(m, vbe, vbc, self.temp_c))
+            i, jac = bjt_terminals(eq.bjt(m, vbe, vbc, self.temp_c))
             at = np.array([v[1] - vbc, v[1], v[1] - vbe])  # terminal voltages of the bias point
             return i + jac @ (v - at), jac
         if isinstance(d, Mosfet):
             m = d.model
-            return _mos_terminals(eq.mos1(m, v[1] - v[2], v[0] - v[2], v[3] - v[2], d.w, d.l))
+            return mos_terminals(eq.mos1(m, v[1] - v[2], v[0] - v[2], v[3] - v[2], d.w, d.l))
         if isinstance(d, Jfet):
             m = d.model
             p = m.polarity
             # the gate junctions are limited like a bipolar transistor's
             vgs = p * self._limit(0, p * (v[1] - v[2]), m.N, m.IS)
             vgd = p * self._limit(1, p * (v[1] - v[0]), m.N, m.IS)
-            i, jac = _jfet_terminals(eq.jfet(m, vgs, vgs - vgd, self.temp_c))
+            i, jac = jfet_terminals(eq.jfet(m, vgs, vgs - vgd, self.temp_c))
             at = np.array([v[1] - vgd, v[1], v[1] - vgs])  # terminal voltages of the bias point
             return i + jac @ (v - at), jac
         raise AssertionError(f"no equations for {type(d).__name__}")
@@ -263,6 +281,24 @@ class _DcSystem:
             for e in circuit.elements if e.nonlinear]
         #: the last behavioural expression found with no value at an iterate
         self.no_value: NoValue | None = None
+        #: the conductance across each junction (S): 0 unless nothing converges without
+        self.junction_gmin = 0.0
+
+    def set_junction_gmin(self, g: float) -> None:
+        """Put a conductance ``g`` across every junction of every device (0: none)."""
+        self.junction_gmin = g
+        for c in self.companions:
+            if isinstance(c, _Companion):
+                c.gmin = g
+
+    def largest_junction_voltage(self, x: np.ndarray) -> float:
+        """The largest |voltage| across any junction at solution ``x``, V."""
+        out = 0.0
+        for c in self.companions:
+            if isinstance(c, _Companion) and c.pairs:
+                v = c.voltages(x)
+                out = max(out, max(abs(v[a] - v[b]) for a, b in c.pairs))
+        return out
 
     def linear_start(self) -> np.ndarray | None:
         """The solution with every nonlinear element's output at zero (devices and sources
@@ -324,6 +360,49 @@ def _solve(a: sp.csc_matrix, rhs: np.ndarray) -> np.ndarray:
 
 
 def _solve_dc(system: _DcSystem) -> tuple[np.ndarray, str, int]:
+    """Newton from zero, then the homotopies; when all fail for a circuit with junctions,
+    all again with :data:`JUNCTION_GMIN` across every junction (common practice in
+    circuit simulators, no source: it ties a node held only by reverse-biased junctions,
+    whose conductance can fall below what a double resolves next to its neighbours')."""
+    try:
+        return _solve_chain(system)
+    except OperatingPointError as err:
+        if err.code != "analysis-306" or not any(
+                isinstance(c, _Companion) and c.pairs for c in system.companions):
+            raise
+        system.set_junction_gmin(JUNCTION_GMIN)
+        try:
+            x, method, iterations = _solve_chain(system)
+        except OperatingPointError:
+            system.set_junction_gmin(0.0)
+            raise err from None
+        if system.largest_junction_voltage(x) > JUNCTION_VOLTAGE_MAX:
+            # a current forced backwards through a junction: only the 1 pS carries it
+            system.set_junction_gmin(0.0)
+            raise err from None
+        return x, f"{method}, with {JUNCTION_GMIN:g} S across each junction", iterations
+
+
+def source_stepping(system: _DcSystem, step: float = 0.1, most: float = 0.5
+                    ) -> tuple[np.ndarray, int] | None:
+    """Every independent source scaled by λ from 0 (x = 0 solves that) to 1, each step
+    solved from the last; ``step`` grows twofold while Newton converges, up to ``most``,
+    and shrinks fourfold where it does not. (solution, iterations) or None."""
+    x, lam, total = np.zeros(system.n), 0.0, 0
+    while lam < 1.0:
+        target = min(1.0, lam + step)
+        got = system.newton(x, scale=target)
+        if got is None:
+            step /= 4.0
+            if step < 1e-6:
+                return None
+            continue
+        x, lam, total = got[0], target, total + got[1]
+        step = min(step * 2.0, most)
+    return x, total
+
+
+def _solve_chain(system: _DcSystem) -> tuple[np.ndarray, str, int]:
     zero = np.zeros(system.n)
     got = system.newton(zero)
     if got is not None:
@@ -348,20 +427,9 @@ def _solve_dc(system: _DcSystem) -> tuple[np.ndarray, str, int]:
         got = system.newton(x)
         if got is not None:
             return got[0], "conductance stepping", total + got[1]
-    # source stepping
-    x, lam, step = zero, 0.0, 0.1
-    while lam < 1.0:
-        target = min(1.0, lam + step)
-        got = system.newton(x, scale=target)
-        if got is None:
-            step /= 4.0
-            if step < 1e-6:
-                break
-            continue
-        x, lam, total = got[0], target, total + got[1]
-        step = min(step * 2.0, 0.5)
-    if lam >= 1.0:
-        return x, "source stepping", total
+    got = source_stepping(system)
+    if got is not None:
+        return got[0], "source stepping", total + got[1]
     if system.no_value is not None:
         raise _no_value(system.no_value, "where the DC solve went (from zero, from the "
                         "linear solution and with both homotopies)")
@@ -400,9 +468,30 @@ def operating_point(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C) -> Operati
 def linearised(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C
                ) -> tuple[Circuit, OperatingPoint]:
     """``circuit`` with every device replaced by its small-signal equivalent at the
-    operating point, and the operating point (see :func:`operating_point`)."""
+    operating point, and the operating point (see :func:`operating_point`).
+
+    A solution whose small-signal circuit has a pole in the right half-plane (the middle
+    state of a latch) is not one the circuit stays in: source stepping in small steps
+    (0.01, at most 0.05 of the supplies) looks for a stable one, which is kept if found
+    (:mod:`netcheck.mna.dc_states`)."""
     system = _DcSystem(circuit, temp_c)
     x, method, iterations = _solve_dc(system)
+    small, op = _at(circuit, system, x, temp_c, method, iterations)
+    unstable = unstable_poles(small)
+    if unstable is not None and unstable.size and method != "source stepping":
+        got = source_stepping(system, step=0.01, most=0.05)
+        if got is not None:
+            again = _at(circuit, system, got[0], temp_c, "source stepping in small steps "
+                        f"(the {method} solution is unstable)", iterations + got[1])
+            left = unstable_poles(again[0])
+            if left is not None and not left.size:
+                return again
+    return small, op
+
+
+def _at(circuit: Circuit, system: _DcSystem, x: np.ndarray, temp_c: float, method: str,
+        iterations: int) -> tuple[Circuit, OperatingPoint]:
+    """``circuit`` linearised at DC solution ``x``, and that operating point."""
     points: list[DevicePoint] = []
     replaced: dict[str, Element] = {}
     for c in system.companions:
@@ -412,61 +501,29 @@ def linearised(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C
             except NoValue as err:
                 raise _no_value(err, "at the DC operating point") from None
             continue
-        small, point = _small_signal(c.device, c.voltages(x), temp_c)
+        small, point = _small_signal(c.device, c.voltages(x), temp_c, system.junction_gmin)
         replaced[c.device.name] = small
         points.append(point)
     st = system.st
     op = OperatingPoint(tuple((n, float(x[i])) for n, i in st.nodes.items()),
                         tuple((b, float(x[i])) for b, i in st.branches.items()),
-                        tuple(points), temp_c, method, iterations)
+                        tuple(points), temp_c, method, iterations, system.junction_gmin)
     elements = tuple(replaced.get(e.name, e) for e in circuit.elements)
     return dataclasses.replace(circuit, elements=elements, operating_point=op,
                                large_signal=circuit, _index=None), op
 
 
-# Each device's currents into its terminals (in node order) and their Jacobian with
-# respect to the terminal voltages, from the device equations' partial derivatives: the
-# Newton companions take them at the (limited) bias point, the small-signal elements at
-# the operating point.
-
-def _diode_terminals(j: eq.Junction) -> tuple[np.ndarray, np.ndarray]:
-    return np.array([j.i, -j.i]), j.g * np.array([[1.0, -1.0], [-1.0, 1.0]])
-
-
-def _bjt_terminals(q: eq.BjtPoint) -> tuple[np.ndarray, np.ndarray]:
-    # rows: collector, base, emitter; columns d/d(vc, vb, ve)
-    dic = np.array([-q.dic_dvbc, q.dic_dvbe + q.dic_dvbc, -q.dic_dvbe])
-    dib = np.array([-q.dib_dvbc, q.dib_dvbe + q.dib_dvbc, -q.dib_dvbe])
-    return np.array([q.ic, q.ib, -(q.ic + q.ib)]), np.array([dic, dib, -(dic + dib)])
-
-
-def _mos_terminals(q: eq.MosPoint) -> tuple[np.ndarray, np.ndarray]:
-    # rows and columns: drain, gate, source, bulk (gate and bulk draw no current)
-    did = np.array([q.gds, q.gm, -(q.gm + q.gds + q.gmbs), q.gmbs])
-    jac = np.zeros((4, 4))
-    jac[0], jac[2] = did, -did
-    return np.array([q.id, 0.0, -q.id, 0.0]), jac
-
-
-def _jfet_terminals(q: eq.JfetPoint) -> tuple[np.ndarray, np.ndarray]:
-    # rows and columns: drain, gate, source; the gate junctions to source and drain
-    gs, gd = q.gate_source, q.gate_drain
-    did = np.array([q.gds, q.gm, -(q.gm + q.gds)])
-    dgs = np.array([0.0, gs.g, -gs.g])
-    dgd = np.array([-gd.g, gd.g, 0.0])
-    return (np.array([q.id - gd.i, gs.i + gd.i, -q.id - gs.i]),
-            np.array([did - dgd, dgs + dgd, -did - dgs]))
-
-
-def _small_signal(d: Device, v: np.ndarray, temp_c: float) -> tuple[Linearised, DevicePoint]:
-    """The small-signal element and the report of device ``d`` at terminal voltages ``v``."""
+def _small_signal(d: Device, v: np.ndarray, temp_c: float, gmin: float = 0.0
+                  ) -> tuple[Linearised, DevicePoint]:
+    """The small-signal element and the report of device ``d`` at terminal voltages ``v``
+    (with ``gmin`` across each junction when the operating point needed it)."""
     k = len(d.nodes)
     g = np.zeros((k, k))
     cap = np.zeros((k, k))
     kind = d.MODEL_LETTER.lower()
     if isinstance(d, Diode):
         j = eq.diode(d.model, v[0] - v[1], temp_c)
-        g[:] = _diode_terminals(j)[1]
+        g[:] = diode_terminals(j)[1]
         _between(cap, ((0, 1, j.c),))
         region = "forward" if v[0] - v[1] > 0 else "reverse"
         quantities = (("Vd", v[0] - v[1], "V"), ("Id", j.i, "A"), ("gd", j.g, "S"),
@@ -476,7 +533,7 @@ def _small_signal(d: Device, v: np.ndarray, temp_c: float) -> tuple[Linearised, 
         m = d.model
         vbe, vbc = v[1] - v[2], v[1] - v[0]
         q = eq.bjt(m, vbe, vbc, temp_c)
-        g[:] = _bjt_terminals(q)[1]
+        g[:] = bjt_terminals(q)[1]
         # charges: qbe between base and emitter (depends on vbe and vbc), qbc base-collector
         dqbe = np.array([-q.cbe_bc, q.cbe + q.cbe_bc, -q.cbe])
         dqbc = np.array([-q.cbc, q.cbc, 0.0])
@@ -491,7 +548,7 @@ def _small_signal(d: Device, v: np.ndarray, temp_c: float) -> tuple[Linearised, 
         m = d.model
         vgs, vds, vbs = v[1] - v[2], v[0] - v[2], v[3] - v[2]
         q = eq.mos1(m, vgs, vds, vbs, d.w, d.l)
-        g[:] = _mos_terminals(q)[1]
+        g[:] = mos_terminals(q)[1]
         caps = eq.mos1_capacitances(m, vgs, vds, vbs, d.w, d.l)
         _between(cap, ((1, 2, caps.cgs), (1, 0, caps.cgd), (1, 3, caps.cgb)))
         region = q.region
@@ -506,7 +563,7 @@ def _small_signal(d: Device, v: np.ndarray, temp_c: float) -> tuple[Linearised, 
         vgs, vds = v[1] - v[2], v[0] - v[2]
         q = eq.jfet(m, vgs, vds, temp_c)
         gs, gd = q.gate_source, q.gate_drain
-        g[:] = _jfet_terminals(q)[1]
+        g[:] = jfet_terminals(q)[1]
         _between(cap, ((1, 2, gs.c), (1, 0, gd.c)))
         region = q.region
         kind = "njf" if m.polarity > 0 else "pjf"
@@ -514,6 +571,8 @@ def _small_signal(d: Device, v: np.ndarray, temp_c: float) -> tuple[Linearised, 
                       ("gm", q.gm, "S"), ("gds", q.gds, "S"), ("Cgs", gs.c, "F"),
                       ("Cgd", gd.c, "F"))
     quantities = tuple((n, float(val), unit) for n, val, unit in quantities)
+    if gmin:
+        g += across(junction_pairs(d), k, gmin)
     small = Linearised(d.name, d.nodes, d.span, _rows(g), _rows(cap), kind, region,
                        tuple((n, val) for n, val, _ in quantities))
     return small, DevicePoint(d.name, kind, region, quantities)

@@ -122,6 +122,7 @@ def sampled_small_signal(circuit: Circuit, values: Mapping[str, np.ndarray], sam
         return None
     values = {k: np.broadcast_to(np.asarray(v, float), (samples,)) for k, v in values.items()}
     system = _DcSystem(large, op.temp_c)
+    system.set_junction_gmin(op.junction_gmin)  # as the nominal solution needed
     g = _linear_batch(large, values, samples)
     x0 = np.array([v for _, v in op.voltages] + [i for _, i in op.currents], float)
     floor = np.r_[np.full(system.n_nodes, VNTOL), np.full(system.n - system.n_nodes, ABSTOL)]
@@ -150,7 +151,8 @@ def sampled_small_signal(circuit: Circuit, values: Mapping[str, np.ndarray], sam
                 except NoValue as err:
                     raise _no_value(err, f"at the operating point of sample {s + 1}") from None
                 continue
-            small, point = _small_signal(c.device, c.voltages(x), op.temp_c)
+            small, point = _small_signal(c.device, c.voltages(x), op.temp_c,
+                                         op.junction_gmin)
             tables[name]["G"][s] = small.g
             tables[name]["C"][s] = small.c
             regions[name][s] = point.region

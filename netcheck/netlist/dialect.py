@@ -530,15 +530,14 @@ class _Pass:
                 self.refuse(f"{shown}: {quoted(t.text, 60)} is an optimiser's placeholder, "
                             "not a value: substitute the values (or .param names with "
                             ".param values) before checking", self.span(t))
+        # POLY, LAPLACE and unbraced expression forms, made readable for the card reader
         edits = card_form_edits(toks) if letter in "EFGHB" else None
-        if edits:  # POLY, LAPLACE and unbraced expression forms, for the card reader
-            for i, start, end, text in edits:
-                self.lines[i] = self.lines[i][:start] + text + self.lines[i][end:]
-            return
-        advice = device_advice(letter, name) if letter in "BSWAU" else None
+        for i, start, end, text in edits or ():
+            self.lines[i] = self.lines[i][:start] + text + self.lines[i][end:]
+        advice = device_advice(letter, name) if letter in "BSWAU" and not edits else None
         if advice is not None and any(t.text in "()" for t in toks):
             self.refuse(advice, self.span(toks[0]))
-        if edits is not None:  # a form the card reader reads as written
+        if edits is not None:
             return
         if letter in "EFGHB":
             got = behavioural_refusal(name, [t.text for t in toks])

@@ -508,11 +508,6 @@ def test_asymmetric_latch_operating_point_is_one_of_its_solutions_and_warned(
     assert bool(warned) == (not stable[k])
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "netcheck solves the DC point by plain Newton from x = 0 first and keeps whatever it "
-    "converges to: on this asymmetric latch that is the unstable middle state (warned with "
-    "analysis-309), not the latched state source stepping from zero leads to, which "
-    "issue 15 asks for"))
 @pytest.mark.parametrize("rc1, rc2", [(200.0, 210.0), (210.0, 200.0)])
 def test_asymmetric_latch_lands_where_source_stepping_from_zero_leads(rc1, rc2):
     want = continuation(rc1, rc2)
@@ -523,6 +518,8 @@ def test_asymmetric_latch_lands_where_source_stepping_from_zero_leads(rc1, rc2):
     op = operating_point(read_netlist(LATCH.format(rc1=rc1, rc2=rc2)))
     for node, v in zip(("c1", "c2", "e"), want):
         assert op.voltage(node) == pytest.approx(v, rel=1e-9), node
+    # Newton from zero found the middle state first; the result says how it got here
+    assert op.method == "source stepping in small steps (the Newton solution is unstable)"
 
 
 # ------------------------------------------------------------------ 4. junctions in series
@@ -536,14 +533,6 @@ D2 m 0 qm_dprt
 """
 
 
-@pytest.mark.xfail(strict=True, reason=(
-    "analysis-306: Newton never meets its 1e-10 relative step test at the node m between two "
-    "reverse-biased diodes with series resistance: m and the diode's internal node form an "
-    "island tied together by RS (29 mS) and to the rest only by junction conductances of "
-    "3e-13 S (Vin = 0.2 V) down to 3e-18 S (Vin = -1 V); eliminating it cancels 29 mS against "
-    "29 mS, so round-off in the linear solve moves m by 6.5e-8 V (0.2 V) to 0.06 V (-1 V) "
-    "every iteration, alternating for all 200 iterations, and both homotopies end the same "
-    "way. Without RS the same string solves in a few iterations"))
 @pytest.mark.parametrize("vin", [0.2, -1.0])
 def test_node_between_reverse_biased_diodes_with_series_resistance(vin):
     # Shockley law: the same current (about −IS) flows through both diodes, so with the
@@ -558,3 +547,8 @@ def test_node_between_reverse_biased_diodes_with_series_resistance(vin):
     assert vm == pytest.approx(vin / 2, rel=1e-6)
     op = operating_point(read_netlist(REVERSE_STRING.format(vin=vin)))
     assert op.voltage("m") == pytest.approx(vm, rel=1e-6)
+    # m and the diode's internal node are tied together by RS (29 mS) and to the rest
+    # only by junction conductances of 3e-13 S down to 3e-18 S, which a double cannot
+    # resolve next to 29 mS: the solve needs 1 pS across each junction (the symmetric
+    # string keeps Vm = Vin/2 with it) and says so
+    assert op.junction_gmin == 1e-12 and "1e-12 S across each junction" in op.method
