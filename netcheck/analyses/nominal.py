@@ -142,6 +142,23 @@ class SpecProbe:
     _res: dict = field(default_factory=dict)
     _ext: dict = field(default_factory=dict)
     _imp: ImpedanceCurve | None = None
+    #: the spec's ports (netcheck.netlist.ports.PortSpec), None without ``[ports]``
+    ports: object = None
+    _ports: object = None
+
+    def port_extremes(self, port: str, quantity: str, lo_hz: float, hi_hz: float
+                      ) -> tuple[Extremum, Extremum]:
+        """Band extremes, in dB, of |Z| ('impedance', 20 log10 of ohms) or |Γ|
+        ('reflection') looking into ``port`` ('input', 'output'), measured once."""
+        key = ("port", port, quantity, lo_hz, hi_hz)
+        if key not in self._ext:
+            if self._ports is None:
+                from .port_probe import PortCurves
+                self._ports = PortCurves(self.curve.response, self.ports, self.impedance(),
+                                         self.curve.seeds_hz, ImpedanceCurve.of)
+            curve = self._ports.curve(port, quantity)  # type: ignore[attr-defined]
+            self._ext[key] = band_extremes(curve, "gain_db", lo_hz, hi_hz)
+        return self._ext[key]
 
     def peak(self) -> Extremum:
         if self._peak is None:
@@ -250,7 +267,7 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         response = solve(system, grid)
         _require_signal(spec, system, response)
         curve = ResponseCurve.of(response)
-        probe = SpecProbe(curve, spec.sweep)
+        probe = SpecProbe(curve, spec.sweep, ports=spec.ports)
         limits = []
         for lim in spec.limits:
             limits.extend(lim.judge(probe))
@@ -419,6 +436,17 @@ def check_spec(path: str, overrides: dict[str, float] | None = None,
         return failure_result(path, exc, variant, netlist or "")
 
 
+def _with_ports(parsed: "Netlist", spec: Spec) -> "Netlist":
+    from ..netlist.ports import with_ports
+
+    try:
+        return with_ports(parsed, spec.ports, spec.path)
+    except ElaborationError as err:
+        where = err.message.split(":")[0] if err.message.startswith("ports.") else "ports"
+        raise SpecError(err.message.removeprefix(f"{where}: "), code="spec-203",
+                        path=spec.path, where=where) from None
+
+
 def _check(path: str, overrides: dict[str, float] | None, variant: str | None,
            spec: Spec | None, netlist: str | None, parsed: "Netlist | None",
            design_root: str | None, allow_negative: bool = False,
@@ -441,6 +469,8 @@ def _check(path: str, overrides: dict[str, float] | None, variant: str | None,
         spec = dataclasses.replace(spec, netlist=netlist)
     try:
         parsed = parsed or load_netlist(spec.netlist, spec.root)
+        if spec.ports is not None:  # the terminations the spec declares, added as cards
+            parsed = _with_ports(parsed, spec)
         defined = {a.key.text.lower() for a in parsed.top.params}
         unknown = sorted(set(overrides or {}) - defined)
         if unknown:

@@ -23,6 +23,8 @@ References
 
 from __future__ import annotations
 
+from typing import Any
+
 import math
 from dataclasses import dataclass
 
@@ -56,8 +58,10 @@ class BatchExtremum:
 class BatchProbe:
     """Vectorised counterparts of the nominal measurements, over a :class:`SampleSet`."""
 
-    def __init__(self, ss: SampleSet) -> None:
+    def __init__(self, ss: SampleSet, ports: Any = None) -> None:
         self.ss = ss
+        #: the spec's ports (netcheck.netlist.ports.PortSpec), for the port quantities
+        self.ports = ports
         self.grid = ss.grid
         self.gain = ss.grid_gain_db()
         self._h: np.ndarray | None = None
@@ -77,8 +81,8 @@ class BatchProbe:
             return self.ss.gain_db(f, rows)
         if quantity == "group_delay_s":
             return self.ss.group_delay(f, rows=rows)
-        if quantity == "impedance_db":
-            return _db(self._impedance(f, rows))
+        if quantity in ("impedance_db", "input_z_db", "input_gamma_db"):
+            return _db(self._port(quantity, self._impedance(f, rows)))
         if quantity == "phase_deg":
             ref = self._phase_ref(f, rows)
             ph = np.degrees(np.angle(self.ss.transfer(f, rows)))
@@ -119,7 +123,19 @@ class BatchProbe:
                                                  (self.ss.S, cols.stop - cols.start)))
         if quantity == "group_delay_s":
             return self.ss.group_delay(f)
-        return _db(self._impedance(f))
+        return _db(self._port(quantity, self._impedance(f)))
+
+    def _port(self, quantity: str, z: np.ndarray) -> np.ndarray:
+        """Z_E seen by the stimulus as ``quantity``: itself ('impedance_db'), the input
+        port's Z_in = Z_E − Rs ('input_z_db') or Γ_in = 1 − 2Rs/Z_E ('input_gamma_db')
+        (netcheck.analyses.port_probe)."""
+        if quantity == "impedance_db":
+            return z
+        rs = self.ports.source_ohms
+        if quantity == "input_z_db":
+            return z - rs
+        with np.errstate(all="ignore"):
+            return 1.0 - 2.0 * rs / z
 
     # measurements ---------------------------------------------------------------
     def band_extremes(self, quantity: str, lo: float, hi: float

@@ -55,6 +55,7 @@ import scipy.linalg as sla
 from scipy.optimize import minimize_scalar
 
 from ..mna.assemble import System, delay_seeds
+from ..netlist.ports import PORT_ELEMENTS
 from ..netlist.elaborate import PartModel
 from ..netlist.elements import (CCCS, CCVS, VCCS, Capacitor, CurrentSource, Element, Inductor,
                        Resistor, VoltageSource)
@@ -470,8 +471,8 @@ def _true_peak(probe: _Probe, grid: np.ndarray, xg: np.ndarray, cand: np.ndarray
     return best_v, best_f
 
 
-def _matches(pattern: str, name: str) -> bool:
-    return fnmatch.fnmatchcase(name.upper(), pattern.upper())
+def _matches(pattern: str, name: str) -> bool:  # a port's termination is not a part
+    return name not in PORT_ELEMENTS and fnmatch.fnmatchcase(name.upper(), pattern.upper())
 
 
 def judge_stress(limits: Sequence[StressLimit], response: Response, index_offset: int = 0

@@ -28,6 +28,7 @@ import numpy as np
 from . import progress
 from ..mna.assemble import System
 from ..netlist.elaborate import Circuit
+from ..netlist.ports import PORT_ELEMENTS
 from ..exceptions import SpecError
 from ..result import LimitResult, Status
 from .sample_probe import BatchProbe
@@ -58,6 +59,9 @@ def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>"
     """
     default = dict(tol.default)
     out: dict[str, tuple[float, float]] = {}
+    # the spec's port terminations are its terms, not parts: never toleranced
+    parts = [e for e in circuit.elements if e.name not in PORT_ELEMENTS]
+    circuit = dataclasses.replace(circuit, elements=tuple(parts), _index=None)
     for e in circuit.elements:
         # a 0 Ω resistor is a wire, not a part: letter defaults and globs pass over it
         if e.letter in default and default[e.letter] > 0 and e.value != 0:
@@ -187,10 +191,10 @@ def _judge_chunk(system: System, spec: Spec, values: dict[str, np.ndarray], n: i
                  memory: int, regions: dict[str, list] | None = None
                  ) -> tuple[list, dict[str, np.ndarray], np.ndarray, np.ndarray]:
     ss = SampleSet(system, values, n, spec.sweep.grid(), memory)
+    bp = BatchProbe(ss, spec.ports)
     if regions is not None and ss.bias is not None:
         for name, r in ss.bias.regions.items():
             regions.setdefault(name, []).append(r)
-    bp = BatchProbe(ss)
     rows = []
     for lim in spec.limits:
         rows.extend(lim.judge_batch(bp))

@@ -18,6 +18,8 @@ from .guard import (MAX_FREQUENCY_HZ, MAX_LIMITS, MAX_NESTING, MAX_PATH_CHARS,
 from ..exceptions import TEXT_MAX, SpecError
 from ..netlist.source import UNUSABLE_CODE, SourceFile, printable, read_text
 from .reader import SWEEP_KEYS, SpecReader, Sweep, shown_value
+from ..netlist.ports import PORT_SOURCE, PortSpec
+from .ports import check_port_limits, parse_ports
 from .stress import StressLimit, parse_stress, stress_lines
 from .tolerances import Analysis, Tolerances, parse_analysis, parse_tolerances
 from .variants import Variants, parse_variants
@@ -42,6 +44,8 @@ TOP_KEYS: dict[str, str] = {
     "analysis": "nominal / worst case / Monte Carlo settings",
     "stress": "array of part-stress limits",
     "variants": "variant family",
+    "ports": "the terminations: input { node, ohms } driven through Rs, output { node, "
+             "ohms } loaded by RL (instead of source and output)",
     "part_models": "subcircuits that each model one physical part (names, globs allowed), "
                    "e.g. [\"QX10\"]: no E-series lint inside, stress judged at the ports",
 }
@@ -79,6 +83,9 @@ class Spec:
     analysis: Analysis | None = None
     #: the ``[variants]`` table (:mod:`netcheck.spec.variants`); None when absent
     variants: Variants | None = None
+    #: the ``[ports]`` table (:mod:`netcheck.spec.ports`); None when absent (then
+    #: ``source`` and ``output`` are the spec's own)
+    ports: PortSpec | None = None
 
     def table(self, key: str) -> Any:
         """A raw top-level table as written (tolerances, analysis, stress, variants)."""
@@ -330,8 +337,13 @@ def _build(doc: dict, text: str, path: str, build_limit: Any,
     root_dir, why = resolve_design_root(path, explicit_root)
     netlist = top.text("netlist", required=True)
     confine(netlist, base, "netlist", path, root_dir, why)
-    source = top.text("source", required=True)
-    out_raw = top.raw("output")
+    ports = parse_ports(doc["ports"], path) if "ports" in doc else None
+    for key in ("source", "output"):
+        if ports is not None and key in doc:
+            top.fail(key, "not with [ports]: the input port is the stimulus and the output "
+                     "port the output")
+    source = PORT_SOURCE if ports is not None else top.text("source", required=True)
+    out_raw = ports.output_node if ports is not None else top.raw("output")
     if out_raw is None:
         top.fail("output", "missing (required)")
     if isinstance(out_raw, str) and out_raw.strip():
@@ -399,13 +411,14 @@ def _build(doc: dict, text: str, path: str, build_limit: Any,
     analysis = parse_analysis(doc["analysis"] or {}, path) if "analysis" in doc else None
     tolerances = parse_tolerances(doc["tolerances"] or {}, path) if "tolerances" in doc else None
     variants = parse_variants(doc["variants"], path) if "variants" in doc else None
+    check_port_limits(tuple(limits), ports, analysis.modes if analysis else (), path)
     return Spec(
         path=path, title=title,
         netlist=str(base / netlist), source=source, output=output, sweep=sweep,
         limits=tuple(limits), root=str(base / root) if root else None,
         allow_negative=allow_negative, text=text, tables=tables,
         design_root=str(root_dir), part_models=models, stress=stress,
-        tolerances=tolerances, analysis=analysis, variants=variants)
+        tolerances=tolerances, analysis=analysis, variants=variants, ports=ports)
 
 
 def _part_models(top: SpecReader, path: str) -> tuple[str, ...]:

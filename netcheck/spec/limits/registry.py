@@ -27,6 +27,7 @@ KINDS: dict[str, str] = {
     "group_delay": "delay:GroupDelayLimit",
     "phase": "phase:PhaseLimit",
     "impedance": "impedance:ImpedanceLimit",
+    "port": "port:PortLimit",
 }
 
 _loaded: dict[str, type[Limit]] = {}
