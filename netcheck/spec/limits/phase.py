@@ -51,7 +51,8 @@ class PhaseLimit(Limit):
         rng = rd.bounds("range_deg")
         dev = rd.number("max_linear_deviation_deg")
         if rng is None and dev is None:
-            rd.fail("", "a phase limit needs range_deg, max_linear_deviation_deg or both")
+            rd.fail("range_deg", "missing (required): give range_deg, "
+                                 "max_linear_deviation_deg or both")
         if dev is not None and dev < 0:
             rd.fail("max_linear_deviation_deg", f"may not be negative, got {dev:g}",
                     code="spec-283")
