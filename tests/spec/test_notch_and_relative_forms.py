@@ -435,3 +435,44 @@ def test_batch_notch_rows_equal_per_sample_checks(tmp_path):
         one = with_values(ckt, {n: v[k] for n, v in values.items()})
         for r in evaluate(plain, one).limits:
             assert measured[r.name][k] == pytest.approx(r.measured, rel=1e-8, abs=1e-9), r.name
+
+
+def test_notch_with_tolerances_in_every_output(tmp_path):
+    # JSON against docs/result.schema.json (jsonschema, the outside reference
+    # implementation of JSON Schema 2020-12); JUnit parsed by the standard library's XML
+    # reader; SARIF and Markdown name every new row
+    import json
+    import xml.etree.ElementTree as ET
+
+    import io
+
+    import jsonschema
+
+    from netcheck.render import RenderOptions, get_renderer
+    from netcheck.render.jsonreport import to_dict
+    from netcheck.result import CheckResult
+
+    def rendered(name: str) -> str:
+        out = io.StringIO()
+        get_renderer(name)(run, out, RenderOptions())
+        return out.getvalue()
+
+    root = Path(__file__).resolve().parents[2]
+    text = (root / "specs/hum_notch.toml").read_text().replace(
+        "../sample_netlists/hum_notch.cir", "hum_notch.cir") + \
+        '\n[tolerances]\ndefault = { R = "1%", C = "2%" }\n[analysis]\n' \
+        'mode = ["worst_case", "monte_carlo"]\nsamples = 100\nseed = 1\n'
+    (tmp_path / "hum_notch.cir").write_bytes((root / "sample_netlists/hum_notch.cir").read_bytes())
+    (tmp_path / "t.toml").write_text(text)
+    run = CheckResult((check_spec(str(tmp_path / "t.toml")),), "0", "")
+    doc = to_dict(run)
+    jsonschema.validate(doc, json.loads((root / "docs/result.schema.json").read_text()))
+    names = {r["name"] for r in doc["specs"][0]["limits"]}
+    new = {"hum notch: frequency", "hum notch: depth", "hum notch: width", "hum notch: Q"}
+    assert new | {f"worst case: {n}" for n in new} <= names
+    depth = next(r for r in doc["specs"][0]["limits"] if r["name"] == "hum notch: depth")
+    assert depth["below_floor"] is True
+    cases = {c.get("name") for c in ET.fromstring(rendered("junit")).iter("testcase")}
+    assert new <= cases
+    sarif, md = rendered("sarif"), rendered("markdown")
+    assert "worst case: hum notch: depth" in sarif and "hum notch: width" in md
