@@ -118,6 +118,14 @@ class TestSecondOrderNotch:
         assert r["notch: depth"].measured == pytest.approx(-depth, abs=1e-9)
         assert r["notch: depth"].status is Status.PASS and not r["notch: depth"].below_floor
 
+    def test_depth_as_one_number_is_the_least_depth(self, tmp_path):
+        # depth_db = 60 is depth_db = { min = 60 }; [30, 40] asks for a notch no deeper
+        # than 40 dB, which an exact zero (no transmission at all) certainly is not
+        r = rows(check_spec(write(tmp_path, trap(), NOTCH.replace("{ min = 60 }", "60"))))
+        assert (r["notch: depth"].upper, r["notch: depth"].lower) == (-60.0, None)
+        r = rows(check_spec(write(tmp_path, trap(), NOTCH.replace("{ min = 60 }", "[30, 40]"))))
+        assert r["notch: depth"].status is Status.FAIL and r["notch: depth"].below_floor
+
     def test_notch_at_the_band_end_is_an_error(self, tmp_path):
         body = NOTCH.replace('center = "1k"\ncenter_tolerance = "1%"\n', "") + \
             'band = ["2k", "10k"]\n'
@@ -390,6 +398,8 @@ HEAD = 'netlist = "t.cir"\nsource = "V1"\noutput = "out"\n[sweep]\nstart = "10"\
     ('kind = "notch"\ncenter = "1k"\ncenter_tolerance = "1%"\nband = ["2k", "3k"]\n',
      "limits[0].center", "spec-280"),
     ('kind = "notch"\ndepth_db = { min = -60 }\n', "limits[0].depth_db", "spec-280"),
+    ('kind = "notch"\ndepth_db = -60\n', "limits[0].depth_db", "spec-280"),
+    ('kind = "notch"\ndepth_db = "60p%"\n', "limits[0].depth_db", "spec-202"),
     ('kind = "notch"\ndepth_db = { min = 60 }\nlevel_db = 6\n', "limits[0].level_db",
      "spec-280"),
     ('kind = "notch"\ndepth_db = { min = 60 }\nreference = "peek"\n', "limits[0].reference",

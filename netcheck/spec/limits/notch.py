@@ -85,7 +85,7 @@ class NotchLimit(Limit):
         "center_tolerance": "allowed deviation of the notch frequency: '1%', '200ppm', "
                             "'5ppb' or Hz (needs center)",
         "depth_db": "[min, max] depth, dB below the reference (or {min=, max=}); "
-                    "{min = 60} asks for a notch at least 60 dB deep",
+                    "{min = 60}, or just 60, asks for a notch at least 60 dB deep",
         "reference": "'absolute' (0 dB, the default), 'peak' (the peak gain of the sweep), "
                      "a frequency (the gain there) or [below, above] (the mean in dB of "
                      "the gains at two frequencies either side of the notch)",
@@ -111,7 +111,11 @@ class NotchLimit(Limit):
             rd.fail("center", f"{shown_value(rd.raw('center'))} Hz lies outside the band "
                               f"searched for the notch, {band_text((lo, hi))}",
                     code="spec-280")
-        depth = rd.bounds("depth_db")
+        raw_depth = rd.raw("depth_db")
+        if isinstance(raw_depth, (int, float, str)) and not isinstance(raw_depth, bool):
+            depth = (rd.number("depth_db"), None)  # one number: the least depth
+        else:
+            depth = rd.bounds("depth_db")
         if depth is not None and any(v is not None and v < 0 for v in depth):
             rd.fail("depth_db", "a depth is dB below the reference and may not be negative "
                                 "(a notch 60 dB deep is depth_db = {min = 60})",
@@ -130,7 +134,7 @@ class NotchLimit(Limit):
                 not ref_hz[0] < center < ref_hz[1]:
             rd.fail("reference", "the two reference frequencies must lie either side of the "
                                  f"notch (below and above {shown_value(center)} Hz)",
-                    code="spec-280")
+                    code="spec-281")
         return cls(name or "notch", index, line, band, center, tol, depth, reference, ref_hz,
                    level, width, q, q_nom)
 
