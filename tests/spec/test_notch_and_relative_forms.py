@@ -486,3 +486,19 @@ def test_notch_with_tolerances_in_every_output(tmp_path):
     assert new <= cases
     sarif, md = rendered("sarif"), rendered("markdown")
     assert "worst case: hum notch: depth" in sarif and "hum notch: width" in md
+
+
+def test_the_gain_plot_marks_the_notch_where_the_zero_is(tmp_path):
+    # the guide line of the notch stands at the twin-T's zero, 1/(2πRC) (closed form)
+    import matplotlib.pyplot as plt
+
+    from netcheck.report.plot_response import spec_figures
+
+    res = check_spec(write(tmp_path, TWIN_T, TestTwinT.BODY, ("1", "10k", 100)))
+    title, fig = spec_figures(res)[0]
+    ax = fig.axes[0]
+    texts = [t.get_text() for t in ax.texts]
+    assert f"notch\n{1 / (TWO_PI * R_T * C_T):.5g} Hz" in texts, texts
+    xs = [line.get_xdata()[0] for line in ax.get_lines() if len(set(line.get_xdata())) == 1]
+    assert any(x == pytest.approx(1 / (TWO_PI * R_T * C_T), rel=1e-12) for x in xs)
+    plt.close("all")

@@ -23,7 +23,7 @@ from ..guard import MIN_FREQUENCY_HZ
 from ..reader import SpecReader, Sweep, shown_value
 from ...measure.measurements import (HALF_POWER_DB, Extremum, MeasurementFailure, crossing,
                                      gain_db)
-from ...result import LimitResult, MaskBand, Status
+from ...result import LimitResult, Status
 from ...netlist.units import UnitError, format_eng, format_si, parse_value
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -276,16 +276,6 @@ class NotchLimit(Limit):
         if self.q is not None:
             parts.append(("Q", ""))
         return parts
-
-    def mask(self) -> tuple[MaskBand, ...]:
-        """The depth bound over the notch frequency window (absolute or peak reference)."""
-        if self.depth is None or self.depth[0] is None or self.center is None or \
-                self.reference not in ("absolute", "peak"):
-            return ()
-        quantity = "gain_db" if self.reference == "absolute" else "gain_re_peak_db"
-        return (MaskBand(f"{self.name}: depth", self.center - self.center_tolerance,
-                         self.center + self.center_tolerance, None, -self.depth[0],
-                         quantity),)
 
     # -------------------------------------------------------------- Monte Carlo
 
