@@ -102,6 +102,20 @@ class TestSecondOrderNotch:
         assert r.upper == -60.0 and r.floor < -200.0
         assert "exact transmission zero" in r.message
 
+    @pytest.mark.parametrize("reference", ['"absolute"', '"peak"', '"10"', '["10", "100k"]'])
+    def test_depth_of_a_lossy_trap_re_each_reference(self, tmp_path, reference):
+        # the depth re 0 dB, the peak (|H| rises away from the notch to both sweep ends:
+        # the larger end), one frequency and the mean of two, from scipy.signal.freqs
+        rq = 1.0
+        body = NOTCH.replace("depth_db = { min = 60 }", f"depth_db = 30\nreference = {reference}"
+                             ).replace("width", "#").replace("q = [0.5, 0.7]", "")
+        r = rows(check_spec(write(tmp_path, trap(rq), body)))["notch: depth"]
+        b, a = [1.0, rq / L_N, W0 ** 2], [1.0, (R_N + rq) / L_N, W0 ** 2]
+        ends = 20 * np.log10(np.abs(notch_h([10.0, 100e3], b, a)))
+        ref = {'"absolute"': 0.0, '"peak"': ends.max(), '"10"': ends[0],
+               '["10", "100k"]': ends.mean()}[reference]
+        assert r.measured == pytest.approx(20 * math.log10(rq / (R_N + rq)) - ref, abs=1e-9)
+
     def test_depth_of_a_lossy_trap_re_both_sides(self, tmp_path):
         # With RQ in series with the LC: H = (s²LC + sRqC + 1)/(s²LC + s(R+Rq)C + 1).
         # |H|² = (u + a²)/(u + b²), u = (1 − x²)²/x², rises with u (b > a): the minimum is

@@ -159,7 +159,12 @@ class NotchLimit(Limit):
             return 0.0
         if self.reference == "peak":
             return probe.peak().value
-        return float(np.mean(gain_db(probe.curve, np.array(self.reference_hz))))
+        ref = float(np.mean(gain_db(probe.curve, np.array(self.reference_hz))))
+        if not np.isfinite(ref):
+            raise MeasurementFailure(
+                f"the reference, {self._reference_text()}, is not a finite gain (no "
+                "transmission there); choose reference frequencies in the pass-band")
+        return ref
 
     def _drop(self) -> float:
         return HALF_POWER_DB if self.level_db is None else self.level_db
@@ -189,8 +194,6 @@ class NotchLimit(Limit):
                 "width at that level")
         found = []
         for limit, way in ((float(grid[0]), "down"), (float(grid[-1]), "up")):
-            if f0 in (limit,):
-                raise MeasurementFailure("the notch sits at an end of the sweep")
             try:
                 found.append(crossing(probe.curve, target, f0, way, limit))
             except MeasurementFailure:
