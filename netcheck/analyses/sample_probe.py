@@ -313,11 +313,19 @@ class BatchProbe:
         32 steps shrink a bracket of two grid steps by 0.618³² ≈ 2e-7; the value at a
         smooth extremum is then exact to rounding (its error is second order).
         """
+        f, best = self.golden(lambda x: sign * self._value(quantity, x, rows), a, b,
+                              iterations)
+        return f, sign * best
+
+    @staticmethod
+    def golden(score, a: np.ndarray, b: np.ndarray, iterations: int = 32
+               ) -> tuple[np.ndarray, np.ndarray]:
+        """Golden-section search [1]_ for the max of ``score`` (per-sample frequencies
+        (R,) → values (R,)) on [a, b] in log f, per sample: (frequency, score there)."""
         la, lb = np.log(a), np.log(b)
         x1 = lb - _GOLDEN * (lb - la)
         x2 = la + _GOLDEN * (lb - la)
-        f1 = sign * self._value(quantity, np.exp(x1), rows)
-        f2 = sign * self._value(quantity, np.exp(x2), rows)
+        f1, f2 = score(np.exp(x1)), score(np.exp(x2))
         for _ in range(iterations):
             left = f1 > f2  # the max is in [la, x2]
             lb = np.where(left, x2, lb)
@@ -325,12 +333,12 @@ class BatchProbe:
             nx1 = lb - _GOLDEN * (lb - la)
             nx2 = la + _GOLDEN * (lb - la)
             x_new = np.where(left, nx1, nx2)
-            f_new = sign * self._value(quantity, np.exp(x_new), rows)
+            f_new = score(np.exp(x_new))
             f2, f1 = np.where(left, f1, f_new), np.where(left, f_new, f2)
             x2, x1 = np.where(left, x1, nx2), np.where(left, nx1, x2)
         best = np.where(f1 > f2, x1, x2)
         f = np.exp(best)
-        return f, self._value(quantity, f, rows)
+        return f, score(f)
 
     def _newton_max(self, a: np.ndarray, b: np.ndarray, f0: np.ndarray, sign: float,
                     rows: np.ndarray) -> np.ndarray:
@@ -449,6 +457,12 @@ class BatchProbe:
             b = np.where(idx < f.size - 1, f[np.minimum(idx + 1, f.size - 1)], f[-1])
             b = np.minimum(b, start_f)
         self._hidden_dips(start_f, level, direction == "up", found, a, b)
+        return self._cross(found, a, b, level)
+
+    def _cross(self, found: np.ndarray, a: np.ndarray, b: np.ndarray, level: np.ndarray
+               ) -> np.ndarray:
+        """The crossing of ``level`` in each bracket [a, b] where ``found`` (NaN elsewhere):
+        Newton on the form, bisection for the samples solved directly."""
         out = np.full(self.ss.S, np.nan)
         form = np.flatnonzero(found & ~self.ss.fallback)
         fall = np.flatnonzero(found & self.ss.fallback)
@@ -551,6 +565,35 @@ class BatchProbe:
         up = self._peak_edge(None, reference_db, level_db, "up")
         down = self._peak_edge(None, reference_db, level_db, "down")
         return np.where(np.isnan(up), down, np.where(np.isnan(down), up, np.nan))
+
+    def at(self, quantity: str, f_hz: float) -> np.ndarray:
+        """Per-sample ``quantity`` at one frequency (Hz), shape (S,)."""
+        return self._value(quantity, np.full((self.ss.S, 1), float(f_hz)))[:, 0]
+
+    def values(self, quantity: str, f_hz: np.ndarray) -> np.ndarray:
+        """Per-sample ``quantity`` at frequencies (Hz): ``f_hz`` of shape (k,), the same
+        for every sample, or (S, k), each sample's own; shape (S, k)."""
+        f = np.asarray(f_hz, float)
+        f = np.broadcast_to(f, (self.ss.S, f.shape[-1]))
+        return self._value(quantity, np.ascontiguousarray(f))
+
+    def rise(self, start_f: np.ndarray, level: np.ndarray, direction: str) -> np.ndarray:
+        """First frequency moving ``direction`` ('up', 'down') from ``start_f`` (where the
+        gain is below ``level``: a notch) at which the gain is back up to ``level``; NaN
+        if it never is within the sweep. Bracketed by the grid, refined as :meth:`_edge`."""
+        above = self.gain >= level[:, None]
+        f, S = self.grid, self.ss.S
+        if direction == "up":
+            mask = above & (f[None, :] > start_f[:, None])
+            idx = np.argmax(mask, axis=1)
+            a = np.maximum(f[np.maximum(idx - 1, 0)], start_f)
+            b = f[idx]
+        else:
+            mask = above & (f[None, :] < start_f[:, None])
+            idx = f.size - 1 - np.argmax(mask[:, ::-1], axis=1)
+            a = f[idx]
+            b = np.minimum(f[np.minimum(idx + 1, f.size - 1)], start_f)
+        return self._cross(mask[np.arange(S), idx] & np.isfinite(start_f), a, b, level)
 
     def ripple(self, lo: float, hi: float) -> np.ndarray:
         """Per-sample max − min gain over [lo, hi], dB."""

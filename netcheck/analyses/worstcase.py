@@ -127,16 +127,19 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
     adj = AdjointSensitivity(system, parts)
     by_name = {r.name: r for r in nominal}
     lin: dict[str, tuple[Linearised, str]] = {}
+    refused: dict[str, str] = {}  # quantities with no linearisation at all, and why
     for lim in spec.limits:
         try:
             rows = lim.sensitivities(probe, adj)
         except (NotImplementedError, MeasurementFailure):
             continue
         lin.update((row.name, (row, "adjoint")) for row in rows if _finite(row))
+        refused.update((row.name, row.refused) for row in rows if row.refused)
     keys = [k for k in nominal_measurements if k in MEASUREMENT_KEYS]
     d_meas = _measurement_sensitivities(probe, adj, keys)
     judged = [r.name for r in nominal if r.index < len(spec.limits) and r.kind in LIMITS
-              and r.measured is not None and math.isfinite(r.measured)]
+              and r.measured is not None and math.isfinite(r.measured)
+              and r.name not in refused]
     meas_method = {k: "adjoint" for k, d in d_meas.items() if np.all(np.isfinite(d))}
     if any(n not in lin for n in judged) or any(k not in meas_method for k in keys):
         fd_rows, fd_meas = _central_differences(system, spec, parts, memory)
@@ -244,6 +247,17 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
             r.lower, r.upper, margin, r.unit, r.at_hz, definition, method_text,
             decided_text(decided, P, cap, monotone, why, corners is not None),
             r.index, r.line))
+    for name, why in refused.items():  # no linearisation exists: say so, estimate nothing
+        r = by_name.get(name)
+        if r is None:
+            continue
+        lim_json.append({"name": name, "measured_nominal": r.measured, "min": None,
+                         "max": None, "margin": None, "status": Status.ERROR.value,
+                         "sensitivity_method": None, "decided_by": None})
+        out_rows.append(LimitResult(
+            f"worst case: {name}", "worst_case", Status.ERROR, None, r.lower, r.upper, None,
+            r.unit, r.at_hz, "", "", f"no worst case by sensitivities: {why}", r.index,
+            r.line))
     meas_json = {}
     for key in keys:
         if key in d_meas:

@@ -109,6 +109,23 @@ def _annotate_resonance(ax: Any, spec: SpecResult) -> None:
                     textcoords="offset points", ha="center", va="bottom", bbox=box, **kw)
 
 
+def _mark_notches(ax: Any, spec: SpecResult) -> None:
+    """A guide line at each measured notch frequency (``notch`` limits), labelled."""
+    seen: set[float] = set()
+    box = {"boxstyle": "round,pad=0.2", "facecolor": "white", "edgecolor": "none", "alpha": 0.85}
+    for lim in spec.limits:
+        if lim.kind != "notch" or lim.at_hz is None or lim.measured is None \
+                or not math.isfinite(lim.at_hz) or lim.at_hz in seen:
+            continue
+        seen.add(lim.at_hz)
+        name = lim.name.rsplit(": ", 1)[0]
+        ax.axvline(lim.at_hz, color=PALETTE["guide"], linewidth=0.7,
+                   linestyle=(0, (6, 2, 1, 2)), zorder=4)
+        ax.annotate(f"{name}\n{format_si(lim.at_hz, 'Hz', 5)}", (lim.at_hz, ax.get_ylim()[0]),
+                    xytext=(3, 4), textcoords="offset points", ha="left", va="bottom",
+                    fontsize=FONT_PT, color=PALETTE["guide"], zorder=9, bbox=box)
+
+
 def _gain_overview(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
                    zoom: tuple[float, float] | None, drawn: list[Tag]) -> Any:
     legend = has_envelope(spec)
@@ -119,6 +136,7 @@ def _gain_overview(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag
     span = (float(f[0]), float(f[-1]))
     label = frequency_axis(ax, span, log=True)
     _gain_axes(ax, spec, masks, fails, span, False, drawn, zoom)
+    _mark_notches(ax, spec)
     if legend:
         legend_above(ax)
     if zoom is not None:

@@ -29,6 +29,7 @@ MINIMAL_TOML = {
     "group_delay": 'kind = "group_delay"\nband = ["100", "1k"]\nmax = "200u"',
     "phase": 'kind = "phase"\nband = ["100", "1k"]\nrange_deg = [-90, 0]',
     "impedance": 'kind = "impedance"\nband = ["100", "1k"]\nrange = ["1k", "2k"]',
+    "notch": 'kind = "notch"\ndepth_db = { min = 40 }',
 }
 
 
@@ -41,7 +42,7 @@ def entry(kind: str) -> tuple[str, str]:
 def test_table_lists_the_kinds_in_their_order():
     # the order is the order of the worst case and of every listing of kinds
     assert list(KINDS) == ["gain", "ripple", "resonance", "corner", "group_delay", "phase",
-                           "impedance"]
+                           "impedance", "notch"]
     assert list(LIMITS) == list(KINDS) and len(LIMITS) == len(KINDS)
     assert set(MINIMAL_TOML) == set(KINDS)
 

@@ -110,10 +110,14 @@ FULL_TABLES = {
     "corner": {"kind": "corner", "name": "c", "range": ["990", "1010"], "level_db": 3,
                "side": "high", "reference_db": 0},
     "group_delay": {"kind": "group_delay", "name": "gd", "band": ["100", "1k"],
-                    "max": "200u", "min": "50u", "max_variation": "100u"},
-    "phase": {"kind": "phase", "name": "p", "band": ["100", "1k"], "range_deg": [-50, 0]},
+                    "max": "200u", "min": "50u", "max_variation": "5%", "reference_hz": "10"},
+    "phase": {"kind": "phase", "name": "p", "band": ["100", "1k"], "range_deg": [-50, 0],
+              "max_linear_deviation_deg": 2},
     "impedance": {"kind": "impedance", "name": "z", "band": ["100", "1k"],
                   "range": ["1k", "2k"]},
+    "notch": {"kind": "notch", "name": "n", "band": ["100", "10k"], "center": "1k",
+              "center_tolerance": "500ppm", "depth_db": {"min": 40}, "reference": ["10", "100k"],
+              "level_db": 3, "width": ["100", "2k"], "q": {"nominal": 1, "tolerance": "10%"}},
 }
 
 

@@ -385,9 +385,31 @@ class TestSpecFormatDoc:
 
     def test_examples_are_valid_specs(self):
         blocks = self.toml_blocks()
-        assert len(blocks) == 3
+        assert len(blocks) == 7
         specs = [parse_spec(b, "specs/example.toml") for b in blocks if "netlist" in b]
-        assert {type(lim).kind for lim in specs[-1].limits} == set(LIMITS)
+        # the full example holds every kind its band-pass can carry; a band-pass has no
+        # notch, which has its own full example (test_notch_example_passes_on_its_netlist)
+        assert {type(lim).kind for lim in specs[-1].limits} == set(LIMITS) - {"notch"}
+        wide = HEAD.replace('start = "1k"', 'start = "1"').replace('stop = "100k"',
+                                                                 'stop = "1meg"')
+        for block in blocks:  # the limit snippets of the kind sections are valid too
+            if block.startswith("[[limits]]"):
+                parse_spec(wide + block, "specs/example.toml")
+
+    def test_notch_example_passes_on_its_netlist(self, tmp_path):
+        # the notch section's spec on the twin-T it names, and the rows it shows
+        block = next(b for b in self.toml_blocks() if 'kind = "notch"' in b)
+        netlist = Path(__file__).resolve().parents[2] / "sample_netlists" / "hum_notch.cir"
+        (tmp_path / "hum_notch.cir").write_bytes(netlist.read_bytes())
+        spec = tmp_path / "notch.toml"
+        spec.write_text(block.replace('"../sample_netlists/hum_notch.cir"', '"hum_notch.cir"'))
+        result = check_spec(str(spec))
+        assert result.error is None
+        assert {r.status for r in result.limits} == {Status.PASS}
+        shown = self.text().split('kind = "notch"')[1].split("```\n")[2].split("```")[0]
+        for r in result.limits:
+            f = r.figures
+            assert f"{f.measured}" in shown and f"{f.margin}" in shown, r.name
 
     def test_full_example_passes_on_its_netlist(self, tmp_path):
         # the doc says so; the netlist path is relative to specs/

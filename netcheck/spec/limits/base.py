@@ -207,7 +207,9 @@ class Linearised(NamedTuple):
 
     ``low``/``d_low`` is what the lower bound judges (a band minimum, say) and
     ``high``/``d_high`` what the upper bound judges; a single value has both equal.
-    ``d_*`` are (P,) arrays of ∂M/∂ln pₖ in the unit of M.
+    ``d_*`` are (P,) arrays of ∂M/∂ln pₖ in the unit of M. ``refused`` is set (to the
+    reason) when the quantity has no linearisation at all (the depth of an exact
+    transmission zero): the worst case reports it as an error, without differences.
     """
 
     name: str
@@ -215,6 +217,7 @@ class Linearised(NamedTuple):
     d_low: np.ndarray
     high: float
     d_high: np.ndarray
+    refused: str = ""
 
 
 @dataclass(frozen=True, slots=True)

@@ -27,6 +27,7 @@ KINDS: dict[str, str] = {
     "group_delay": "delay:GroupDelayLimit",
     "phase": "phase:PhaseLimit",
     "impedance": "impedance:ImpedanceLimit",
+    "notch": "notch:NotchLimit",
     "port": "port:PortLimit",
 }
 

@@ -8,6 +8,7 @@ from typing import TYPE_CHECKING, ClassVar
 import numpy as np
 
 from .base import Limit, Linearised, Probe, Rows, judge_range, range_margin
+from .relative import Q_KEY, q_bounds, q_text
 from ..guard import MIN_FREQUENCY_HZ
 from ..reader import SpecReader, Sweep
 from ...measure.measurements import Extremum, MeasurementFailure
@@ -31,6 +32,7 @@ class ResonanceLimit(Limit):
     q: tuple[float | None, float | None] | None = None
     level_db: float | None = None
     band: tuple[float, float] | None = None
+    q_nominal: tuple[float, float] | None = None
 
     kind: ClassVar[str] = "resonance"
     SUMMARY: ClassVar[str] = "centre frequency, half-power bandwidth and Q of the main peak"
@@ -42,7 +44,7 @@ class ResonanceLimit(Limit):
         "center_tolerance": "allowed deviation of the centre: '1%', '20ppm', '5ppb' or Hz "
                             "(needs center)",
         "bandwidth": "[min, max] bandwidth f_high - f_low, Hz (or {min=, max=})",
-        "q": "[min, max] Q = f_center / bandwidth (or {min=, max=})",
+        "q": Q_KEY,
         "level_db": "edges this many dB below the peak (default: half-power, 10 log10 2 dB)",
         "band": "[start, stop], Hz: where to look for the peak (default: the whole sweep)",
     }
@@ -57,12 +59,12 @@ class ResonanceLimit(Limit):
         if center is not None and tol is None:
             rd.fail("center", "give center_tolerance too (e.g. \"1%\")")
         bw = rd.bounds("bandwidth", positive=True)
-        q = rd.bounds("q", positive=True)
+        q, q_nominal = q_bounds(rd)
         level = rd.number("level_db", positive=True)
         band = rd.band("band", sweep, required=False)
         if center is None and bw is None and q is None:
             rd.fail("", "a resonance limit needs center, bandwidth or q")
-        return cls(name or "resonance", index, line, center, tol, bw, q, level, band)
+        return cls(name or "resonance", index, line, center, tol, bw, q, level, band, q_nominal)
 
     def judge(self, probe: Probe) -> tuple[LimitResult, ...]:
         try:
@@ -90,7 +92,7 @@ class ResonanceLimit(Limit):
             e = Extremum(res.f_center_hz, value)
             definition = (f"bandwidth = f_high − f_low; {edges}" if sub == "bandwidth" else
                           f"Q = f_center / bandwidth = {format_si(res.f_center_hz, 'Hz', 7)}"
-                          f" / {format_si(res.bandwidth_hz, 'Hz', 7)}")
+                          f" / {format_si(res.bandwidth_hz, 'Hz', 7)}{q_text(self.q_nominal)}")
             r = judge_range(f"{self.name}: {sub}", self.kind, bounds[0], bounds[1], e, e, unit,
                             definition, method, self.index, self.line)
             out.append(r)
