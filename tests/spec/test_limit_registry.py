@@ -30,6 +30,7 @@ MINIMAL_TOML = {
     "phase": 'kind = "phase"\nband = ["100", "1k"]\nrange_deg = [-90, 0]',
     "impedance": 'kind = "impedance"\nband = ["100", "1k"]\nrange = ["1k", "2k"]',
     "notch": 'kind = "notch"\ndepth_db = { min = 40 }',
+    "port": 'kind = "port"\nquantity = "transducer_gain"\nband = ["100", "1k"]\nmin = -1',
 }
 
 
@@ -42,7 +43,7 @@ def entry(kind: str) -> tuple[str, str]:
 def test_table_lists_the_kinds_in_their_order():
     # the order is the order of the worst case and of every listing of kinds
     assert list(KINDS) == ["gain", "ripple", "resonance", "corner", "group_delay", "phase",
-                           "impedance", "notch"]
+                           "impedance", "notch", "port"]
     assert list(LIMITS) == list(KINDS) and len(LIMITS) == len(KINDS)
     assert set(MINIMAL_TOML) == set(KINDS)
 

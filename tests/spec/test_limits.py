@@ -118,6 +118,8 @@ FULL_TABLES = {
     "notch": {"kind": "notch", "name": "n", "band": ["100", "10k"], "center": "1k",
               "center_tolerance": "500ppm", "depth_db": {"min": 40}, "reference": ["10", "100k"],
               "level_db": 3, "width": ["100", "2k"], "q": {"nominal": 1, "tolerance": "10%"}},
+    "port": {"kind": "port", "name": "p", "quantity": "return_loss", "port": "input",
+             "band": ["100", "1k"], "min": 10, "max": 40},
 }
 
 
