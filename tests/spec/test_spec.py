@@ -385,9 +385,16 @@ class TestSpecFormatDoc:
 
     def test_examples_are_valid_specs(self):
         blocks = self.toml_blocks()
-        assert len(blocks) == 3
         specs = [parse_spec(b, "specs/example.toml") for b in blocks if "netlist" in b]
+        assert len(specs) == 2
         assert {type(lim).kind for lim in specs[-1].limits} == set(LIMITS)
+        # the worked examples of single limits read as limits of a spec over their sweep
+        snippets = [b for b in blocks if "netlist" not in b and "[[limits]]" in b]
+        assert len(snippets) >= 7
+        for b in snippets:
+            assert parse_spec('netlist = "x.cir"\nsource = "V"\noutput = "o"\n'
+                              '[sweep]\nstart = "10"\nstop = "20meg"\n' + b,
+                              "specs/example.toml").limits
 
     def test_full_example_passes_on_its_netlist(self, tmp_path):
         # the doc says so; the netlist path is relative to specs/
@@ -400,7 +407,7 @@ class TestSpecFormatDoc:
         result = check_spec(str(spec))
         assert result.error is None
         assert {r.status for r in result.limits} == {Status.PASS}
-        assert len(result.limits) == 13
+        assert len(result.limits) == 15
 
     def test_error_example_is_what_netcheck_prints(self):
         text = HEAD + GAIN * 3 + GAIN.replace('["2k", "3k"]', '["50k", "40k"]')
