@@ -56,7 +56,9 @@ def _band_text(band: MaskBand, unit: str) -> str:
         return f"{format_eng(v, unit)} → {format_eng(end, unit)}"
 
     lo, hi = bound(band.lo, band.lo_end), bound(band.hi, band.hi_end)
-    span = f"{format_si(band.f_lo_hz, 'Hz')} – {format_si(band.f_hi_hz, 'Hz')}"
+    span = (f"{format_si(band.f_lo_hz, 'Hz')} – {format_si(band.f_hi_hz, 'Hz')}"
+            if band.f_hi_hz > band.f_lo_hz else f"at {format_si(band.f_lo_hz, 'Hz')}"
+            if math.isfinite(band.f_lo_hz) else "at the measured frequency")
     ref = {"gain_re_peak_db": " re peak",
            "gain_re_reference_db": " re its reference"}.get(band.quantity, "")
     if band.lo is not None and band.hi is not None:
@@ -145,8 +147,9 @@ def _resonance_window(spec: SpecResult, f: np.ndarray) -> tuple[float, float] | 
 def _pass_window(spec: SpecResult, f: np.ndarray) -> tuple[float, float] | None:
     """The union of the pass-bands (gain bands that set a minimum, ripple bands), widened
     by 8 % of its width in log frequency."""
-    bands = [b for b in spec.mask if (b.quantity in GAIN_QUANTITIES and b.lo is not None)
-             or b.quantity in PASS_QUANTITIES]
+    bands = [b for b in spec.mask if ((b.quantity in GAIN_QUANTITIES and b.lo is not None)
+                                      or b.quantity in PASS_QUANTITIES)
+             and b.f_hi_hz > b.f_lo_hz]  # not a spot frequency
     if not bands:
         return None
     blo, bhi = min(b.f_lo_hz for b in bands), max(b.f_hi_hz for b in bands)
@@ -272,6 +275,9 @@ def draw_mask(ax: Any, spec: SpecResult, masks: dict[int, Tag], quantity: tuple[
         off = _offset(band, spec)
         if off is None:
             continue
+        if not band.f_hi_hz > band.f_lo_hz:  # a spot frequency: an allowed range there
+            _draw_spot(ax, spec, band, masks[i], off / scale, scale, ylim, x_span, drawn)
+            continue
         a, b = max(band.f_lo_hz, x_span[0]), min(band.f_hi_hz, x_span[1])
         if not b > a:
             continue
@@ -310,6 +316,38 @@ def draw_mask(ax: Any, spec: SpecResult, masks: dict[int, Tag], quantity: tuple[
                         color=edge, fontweight="bold", zorder=6,
                         bbox={"boxstyle": "round,pad=0.15", "facecolor": "white",
                               "edgecolor": edge, "linewidth": 0.5})
+
+
+def _draw_spot(ax: Any, spec: SpecResult, band: MaskBand, tag: Tag, off: float, scale: float,
+               ylim: tuple[float, float], x_span: tuple[float, float], drawn: list[Tag]
+               ) -> None:
+    """A limit at one frequency (given, or measured: the limit's own ``at_hz``): the
+    allowed range as a bar there, each bound a cap, tagged like a band."""
+    f = band.f_lo_hz
+    if not math.isfinite(f):
+        found = _limit_for(band, spec)
+        f = found[1].at_hz if found is not None and found[1].at_hz is not None else math.nan
+    if not (math.isfinite(f) and x_span[0] <= f <= x_span[1]):
+        return
+    failed = tag.status is Status.FAIL or band.failed
+    edge = PALETTE["fail"] if failed else PALETTE["hatch"]
+    lo = None if band.lo is None else band.lo / scale + off
+    hi = None if band.hi is None else band.hi / scale + off
+    y0, y1 = ylim
+    ax.plot([f, f], [lo if lo is not None else y0, hi if hi is not None else y1],
+            color=PALETTE["allowed"], linewidth=5, solid_capstyle="butt", zorder=1.5)
+    for bound, marker in ((hi, "v"), (lo, "^")):
+        if bound is not None and y0 < bound < y1:
+            ax.plot([f], [bound], marker=marker, markersize=6, color=edge, zorder=2.5,
+                    markeredgewidth=0.6, markeredgecolor=edge)
+    drawn.append(tag)
+    y_txt = hi if hi is not None else lo
+    if y_txt is not None and y0 < y_txt < y1:
+        ax.annotate(tag.tag + (" FAIL" if failed else ""), (f, y_txt), xytext=(4, 3),
+                    textcoords="offset points", ha="left", va="bottom",
+                    fontsize=FONT_PT - 0.5, color=edge, fontweight="bold", zorder=6,
+                    bbox={"boxstyle": "round,pad=0.15", "facecolor": "white",
+                          "edgecolor": edge, "linewidth": 0.5})
 
 
 def _bound_line(start: float | None, end: float | None, band: MaskBand, xs: np.ndarray,

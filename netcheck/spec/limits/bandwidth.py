@@ -56,7 +56,8 @@ class BandwidthLimit(Limit):
     def judge(self, probe: Probe) -> tuple[LimitResult, ...]:
         try:
             lo, hi = edges(probe, self.ref, self.level_db)
-            ref_db = self.ref.measure(probe).value
+            measured = self.ref.measure(probe)
+            ref_db = measured.value
         except MeasurementFailure as err:
             return (self.error(str(err), "Hz"),)
         bw = hi - lo
@@ -65,7 +66,8 @@ class BandwidthLimit(Limit):
                         f"bandwidth = f_high − f_low, edges {level_words(self.level_db, self.ref)}"
                         f" ({format_eng(ref_db, 'dB')}): f_low {format_si(lo, 'Hz', 7)}, "
                         f"f_high {format_si(hi, 'Hz', 7)}", self.METHOD, self.index, self.line)
-        return (replace(r, reference_db=ref_db) if self.ref.kind != "peak" else r,)
+        return (replace(r, reference_db=ref_db, message=self.ref.note(measured))
+                if self.ref.kind != "peak" else r,)
 
     def judge_batch(self, bp: BatchProbe) -> Rows:
         lo, hi = edges_batch(bp, self.ref, self.level_db)

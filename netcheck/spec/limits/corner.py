@@ -82,7 +82,7 @@ class CornerLimit(Limit):
                            f" ({format_eng(ref_db, 'dB')})"),
                         self.METHOD, self.index, self.line)
         if ref_db is not None and self.ref.kind != "fixed":
-            r = replace(r, reference_db=ref_db)
+            r = replace(r, reference_db=ref_db, message=self.ref.note(self.ref.measure(probe)))
         return (r,)
 
     def judge_batch(self, bp: BatchProbe) -> Rows:

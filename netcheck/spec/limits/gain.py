@@ -66,6 +66,11 @@ class GainLimit(Limit):
         "true band extremes by Brent's root-finding on the exact gain "
         "derivative"
     )
+    #: the method of a spot frequency and of a sloped bound (one line each)
+    SPOT_METHOD: ClassVar[str] = ("exact gain at the frequency (a measured anchor: Brent's "
+                                  "root-finding)")
+    SLOPED_METHOD: ClassVar[str] = ("worst excess over the line by Brent's method on the tilted "
+                                    "exact gain")
     KEYS: ClassVar[dict[str, str]] = {
         "band": "[start, stop], Hz",
         "at": "a spot frequency, Hz (instead of band)",
@@ -183,8 +188,9 @@ class GainLimit(Limit):
             margin = -math.inf
         r = LimitResult(self.name, self.kind, Status.PASS if margin >= 0 else Status.FAIL, g,
                         self._bound(self.min_line, f), self._bound(self.max_line, f), margin,
-                        "dB", f, self._definition(probe), self.METHOD, "", self.index,
-                        self.line, reference_db=offset if self.ref.relative else None)
+                        "dB", f, self._definition(probe), self._method(),
+                        self.ref.note(reference), self.index, self.line,
+                        reference_db=offset if self.ref.relative else None)
         # a gain at the numerical floor (an exact transmission zero) is not a number
         floor = gain_floor_db(probe, r.at_hz, r.measured + offset)
         if floor is not None:
@@ -208,6 +214,10 @@ class GainLimit(Limit):
                 b = line.value(f)
                 out.append((sign * (b - g), f, g, b))
         return out
+
+    def _method(self) -> str:
+        return self.SPOT_METHOD if self.spot else self.SLOPED_METHOD if self.sloped else \
+            self.METHOD
 
     def _definition(self, probe: Probe) -> str:
         re = self._re()
@@ -281,8 +291,9 @@ class GainLimit(Limit):
     def mask(self) -> tuple[MaskBand, ...]:
         quantity = ("gain_db" if not self.ref.relative else
                     "gain_re_peak_db" if self.ref.kind == "peak" else "gain_re_reference_db")
-        if self.spot:
-            return ()  # a spot value: its point is marked where it is judged
+        if self.spot:  # one frequency (NaN: measured, the result's at_hz)
+            f = self.at_hz if self.at_hz is not None else math.nan
+            return (MaskBand(self.name, f, f, self.min_db, self.max_db, quantity),)
         if not self.sloped:
             return (MaskBand(self.name, self.band[0], self.band[1], self.min_db, self.max_db,
                              quantity),)

@@ -145,6 +145,15 @@ class GainReference:
             return f"{_WORDS[self.kind]} over {band_text(self.band)}"
         return _WORDS[self.kind]
 
+    def note(self, measured: Extremum) -> str:
+        """The line the reports show under a result stated against a measured level
+        other than the peak: ``re the lowest gain over 10 Hz–15 kHz, 0.000 dB at 10 Hz``."""
+        if self.kind in ("absolute", "peak", "fixed"):
+            return ""
+        where = "" if self.kind in ("at", "mean") else \
+            f" at {format_si(measured.frequency_hz, 'Hz', 5)}"
+        return f"re {self.words()}: {format_eng(measured.value, 'dB')}{where}"
+
     # nominal --------------------------------------------------------------------
     def measure(self, probe: Probe) -> Extremum:
         """The reference gain (dB) and where it was taken (the band's geometric centre

@@ -57,7 +57,8 @@ class ShapeFactorLimit(Limit):
         try:
             n_lo, n_hi = edges(probe, self.ref, self.levels_db[0])
             w_lo, w_hi = edges(probe, self.ref, self.levels_db[1])
-            ref_db = self.ref.measure(probe).value
+            measured = self.ref.measure(probe)
+            ref_db = measured.value
         except MeasurementFailure as err:
             return (self.error(str(err)),)
         sf = (w_hi - w_lo) / (n_hi - n_lo)
@@ -68,7 +69,8 @@ class ShapeFactorLimit(Limit):
             f"shape factor = BW({level_words(self.levels_db[1], self.ref)}) / "
             f"BW({self.levels_db[0]:g} dB below it) = ({hz(w_hi)} − {hz(w_lo)}) / "
             f"({hz(n_hi)} − {hz(n_lo)})", self.METHOD, self.index, self.line)
-        return (replace(r, reference_db=ref_db) if self.ref.kind != "peak" else r,)
+        return (replace(r, reference_db=ref_db, message=self.ref.note(measured))
+                if self.ref.kind != "peak" else r,)
 
     def judge_batch(self, bp: BatchProbe) -> Rows:
         n_lo, n_hi = edges_batch(bp, self.ref, self.levels_db[0])
