@@ -127,6 +127,8 @@ MORE_TABLES = {
              {"kind": "gain", "name": "g", "at_multiple": 2, "anchor": "corner",
               "anchor_level_db": 3, "anchor_side": "high", "max_db": -3,
               "reference_at": "100"},
+             {"kind": "gain", "name": "g", "band_multiple": [2, 10], "anchor": "centre",
+              "anchor_level_db": 20, "max_db": -20},
              {"kind": "gain", "name": "g", "band": ["100", "1k"], "max_db": 0,
               "slope_db_per_decade": -6, "min_db": -20},
              {"kind": "gain", "name": "g", "min_points": [["100", -30], ["1k", -20]],

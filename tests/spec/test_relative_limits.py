@@ -119,7 +119,9 @@ def cheby_more(anchor_ref: dict, slope_ref: dict) -> str:
         {"kind": "gain", "name": "2 x corner", "at_multiple": 2, "anchor_level_db": 3,
          "anchor_side": "high", "max_db": -20, **anchor_ref},
         {"kind": "gain", "name": "sloped", "band": ["20k", "200k"], "max_db": -10,
-         "slope_db_per_decade": -100, **slope_ref})
+         "slope_db_per_decade": -100, **slope_ref},
+        {"kind": "gain", "name": "2 to 4 x corner", "band_multiple": [2, 4],
+         "anchor_level_db": 3, "max_db": -20, "min_db": -120, **anchor_ref})
 
 
 def test_attenuation_relative_to_the_pass_band_sees_the_ripple():
@@ -239,6 +241,14 @@ anchor_level_db = 40
 max_db = -40
 [[limits]]
 kind = "gain"
+name = "2 to 10 x corner"
+band_multiple = [2, 10]
+anchor_level_db = 3
+min_db = -90
+max_db = -20
+reference_at = "10"
+[[limits]]
+kind = "gain"
 name = "half-power re peak"
 at_multiple = 1.5
 max_db = -5
@@ -262,6 +272,14 @@ def test_spot_and_corner_multiples_on_a_butterworth():
     assert r["at 2 x corner"].at_hz == pytest.approx(2 * f3, rel=1e-9)
     assert r["at 2 x corner"].measured == pytest.approx(
         float(butter_db(2 * f3, 4, fc)) - ref, abs=1e-8)
+    # over 2 to 10 times that corner the monotone Butterworth is highest at 2 f3 and
+    # lowest at 10 f3 (closed form): the upper bound decides, 4 dB inside against 10 dB
+    hi = float(butter_db(2 * f3, 4, fc)) - ref
+    lo = float(butter_db(10 * f3, 4, fc)) - ref
+    assert r["2 to 10 x corner"].measured == pytest.approx(hi, abs=1e-8)
+    assert r["2 to 10 x corner"].at_hz == pytest.approx(2 * f3, rel=1e-9)
+    assert r["2 to 10 x corner"].margin == pytest.approx(-20 - hi, abs=1e-8)
+    assert -20 - hi < lo + 90
     # a low-pass has no lower edge: the centre anchor cannot be measured, said so
     assert r["at 3 x centre"].status is Status.ERROR
     # half-power re the peak (at the sweep start, 10 Hz, the Butterworth being monotone)
@@ -461,6 +479,8 @@ def test_sensitivities_match_central_differences(which):
                                {"reference": "mean", "reference_band": ["9k", "11k"]})
                      + limits({"kind": "gain", "name": "at 2 x centre", "at_multiple": 2,
                                "anchor": "centre", "anchor_level_db": 10, "max_db": 0},
+                              {"kind": "gain", "name": "moving", "band_multiple": [0.3, 0.9],
+                               "anchor": "centre", "anchor_level_db": 10, "max_db": 0},
                               {"kind": "gain", "name": "sloped re peak", "band": ["1k", "8k"],
                                "max_db": [-30, -3], "reference": "peak"},
                               {"kind": "gain", "name": "band re max", "band": ["20k", "40k"],
@@ -475,12 +495,16 @@ def test_sensitivities_match_central_differences(which):
     for lim in spec.limits:
         (row,) = lim.sensitivities(probe, adj)
         (res,) = lim.judge(probe)
-        assert row.high == pytest.approx(res.measured, rel=1e-9, abs=1e-9)
+        # the side that decides the nominal result is the one its value is measured on
+        low_decides = res.lower is not None and res.margin == pytest.approx(
+            res.measured - res.lower, abs=1e-12)
+        value, derivative = (row.low, row.d_low) if low_decides else (row.high, row.d_high)
+        assert value == pytest.approx(res.measured, rel=1e-9, abs=1e-9)
         fd = []
         for name, v, _ in parts:
             m = [lim.judge(_probe(with_values(ckt, {name: v * (1 + s * h)}), spec)[1])[0]
                  .measured for s in (1, -1)]
             fd.append((m[0] - m[1]) / (2 * h))
         fd = np.array(fd)
-        np.testing.assert_allclose(row.d_high, fd, rtol=2e-4, atol=2e-5 * np.abs(fd).max(),
+        np.testing.assert_allclose(derivative, fd, rtol=2e-4, atol=2e-5 * np.abs(fd).max(),
                                    err_msg=lim.name)

@@ -27,7 +27,7 @@ from ...netlist.units import format_eng, format_si
 if TYPE_CHECKING:  # pragma: no cover
     from ...analyses.sample_probe import BatchProbe
 
-__all__ = ["Line", "TiltedCurve", "read_line", "worst_nominal", "worst_batch"]
+__all__ = ["Line", "TiltedCurve", "read_line", "worst_nominal", "worst_batch", "band_batch"]
 
 _GOLDEN = (math.sqrt(5.0) - 1.0) / 2.0
 
@@ -180,44 +180,78 @@ def worst_batch(bp: "BatchProbe", line: Line, offset: np.ndarray | float, sign: 
     """Per sample (f, G(f) − offset) at the largest sign·(G − offset − L), as
     :func:`worst_nominal` over the samples."""
     S = bp.ss.S
-    off = np.broadcast_to(np.asarray(offset, float), (S,))
     best_e = np.full(S, -np.inf)
     best_f, best_g = np.full(S, np.nan), np.full(S, np.nan)
-    rows = np.arange(S)
     for f1, v1, f2, v2 in line.segments():
         slope = (v2 - v1) / math.log10(f2 / f1)
-
-        def excess(f: np.ndarray, r: np.ndarray = rows) -> np.ndarray:
-            g = bp.ss.gain_db(f, r if r.size != S else None)
-            lin = v1 + slope * np.log10(f / f1)
-            e = sign * (g - off[r].reshape((-1,) + (1,) * (np.ndim(f) - 1)) - lin)
-            return np.where(np.isnan(e), -np.inf, e)
-
-        inside = (bp.grid > f1) & (bp.grid < f2)
-        fc = np.concatenate([[f1], bp.grid[inside], [f2]])
-        ends = bp.ss.gain_db(np.repeat([[f1, f2]], S, axis=0))
-        g = np.concatenate([ends[:, :1], bp.gain[:, inside], ends[:, 1:]], axis=1)
-        e = sign * (g - off[:, None] - (v1 + slope * np.log10(fc / f1)))
-        e = np.where(np.isnan(e), -np.inf, e)
-        k = np.argmax(e, axis=1)
-        a, b = fc[np.maximum(k - 1, 0)], fc[np.minimum(k + 1, fc.size - 1)]
-        f_at, e_at = fc[k], e[rows, k]
-        # the sample's own gain extreme of the segment (found from its seeds): a narrow
-        # peak between grid points that may decide
-        ext = bp.band_extremes("gain_db", f1, f2)[1 if sign > 0 else 0].frequency_hz
-        e_ext = excess(ext[:, None])[:, 0]
-        use = e_ext > e_at
-        f_at, e_at = np.where(use, ext, f_at), np.where(use, e_ext, e_at)
-        a = np.where(use, np.maximum(f1, ext * 0.98), a)
-        b = np.where(use, np.minimum(f2, ext * 1.02), b)
-        f_ref, e_ref = _golden(lambda f: excess(f[:, None])[:, 0], a, b)
-        better = e_ref > e_at
-        f_at, e_at = np.where(better, f_ref, f_at), np.where(better, e_ref, e_at)
-        win = e_at > best_e
-        best_e = np.where(win, e_at, best_e)
-        best_f = np.where(win, f_at, best_f)
-        best_g = np.where(win, sign * e_at + v1 + slope * np.log10(f_at / f1), best_g)
+        f, g, e = _excess_batch(bp, np.full(S, f1), np.full(S, f2), offset, sign,
+                                (f1, v1, slope))
+        win = e > best_e
+        best_e = np.where(win, e, best_e)
+        best_f, best_g = np.where(win, f, best_f), np.where(win, g, best_g)
     return best_f, best_g
+
+
+def band_batch(bp: "BatchProbe", lo: np.ndarray, hi: np.ndarray, offset: np.ndarray | float,
+               sign: float) -> tuple[np.ndarray, np.ndarray]:
+    """Per sample (f, G(f) − offset) at the largest sign·G over its own band [lo, hi]
+    (a band that moves with a measured frequency); NaN where the band leaves the sweep."""
+    f, g, _ = _excess_batch(bp, lo, hi, offset, sign, (1.0, 0.0, 0.0))
+    return f, g
+
+
+def _excess_batch(bp: "BatchProbe", lo: np.ndarray, hi: np.ndarray,
+                  offset: np.ndarray | float, sign: float, line: tuple[float, float, float]
+                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Per sample (f, G − offset, excess) at the largest excess sign·(G − offset − L) over
+    [lo, hi] (per sample), L = v₁ + s·log10(f/f₁) given as ``line`` = (f₁, v₁, s).
+
+    Candidates: the grid inside each sample's band, its ends and the sample's own gain
+    extreme over the bands (found from its seeds: a narrow peak between grid points);
+    the best is refined by golden-section search between its neighbours.
+    """
+    f1, v1, slope = line
+    S, grid = bp.ss.S, bp.grid
+    rows = np.arange(S)
+    off = np.broadcast_to(np.asarray(offset, float), (S,))
+    tol = 1e-9
+    ok = (np.isfinite(lo) & np.isfinite(hi) & (lo >= grid[0] * (1 - tol))
+          & (hi <= grid[-1] * (1 + tol)) & (hi > lo))
+    lo = np.where(ok, np.clip(lo, grid[0], grid[-1]), grid[0])
+    hi = np.where(ok, np.clip(hi, grid[0], grid[-1]), grid[-1])
+
+    def excess(f: np.ndarray) -> np.ndarray:
+        g = bp.ss.gain_db(f[:, None])[:, 0]
+        e = sign * (g - off - (v1 + slope * np.log10(f / f1)))
+        return np.where(np.isnan(e), -np.inf, e)
+
+    inside = (grid[None, :] > lo[:, None]) & (grid[None, :] < hi[:, None])
+    e_grid = sign * (bp.gain - off[:, None] - (v1 + slope * np.log10(grid / f1)))
+    e_grid = np.where(inside & ~np.isnan(e_grid), e_grid, -np.inf)
+    k = np.argmax(e_grid, axis=1)
+    f_at, e_at = grid[k], e_grid[rows, k]
+    for end in (lo, hi):
+        e_end = excess(end)
+        use = e_end > e_at
+        f_at, e_at = np.where(use, end, f_at), np.where(use, e_end, e_at)
+    j = np.searchsorted(grid, f_at)
+    a = np.maximum(lo, grid[np.maximum(j - 1, 0)])
+    b = np.minimum(hi, grid[np.minimum(j + 1, grid.size - 1)])
+    ext = bp.band_extremes("gain_db", float(lo.min()), float(hi.max()))
+    ext = ext[1 if sign > 0 else 0].frequency_hz
+    inside_ext = (ext >= lo) & (ext <= hi)
+    e_ext = np.where(inside_ext, excess(np.where(inside_ext, ext, lo)), -np.inf)
+    use = e_ext > e_at
+    f_at, e_at = np.where(use, ext, f_at), np.where(use, e_ext, e_at)
+    a = np.where(use, np.maximum(lo, ext * 0.98), a)
+    b = np.where(use, np.minimum(hi, ext * 1.02), b)
+    f_ref, e_ref = _golden(excess, a, np.maximum(b, a))
+    better = e_ref > e_at
+    f_at, e_at = np.where(better, f_ref, f_at), np.where(better, e_ref, e_at)
+    g = sign * e_at + v1 + slope * np.log10(f_at / f1)
+    nan = ~ok
+    return (np.where(nan, np.nan, f_at), np.where(nan, np.nan, g),
+            np.where(nan, -np.inf, e_at))
 
 
 def _golden(fn: Any, a: np.ndarray, b: np.ndarray, iterations: int = 48
