@@ -154,7 +154,7 @@ class GainReference:
             return ""
         where = "" if self.kind in ("at", "mean") else \
             f" at {format_si(measured.frequency_hz, 'Hz', 5)}"
-        return f"re {self.words()}: {format_eng(measured.value, 'dB')}{where}"
+        return f"relative to {self.words()}: {format_eng(measured.value, 'dB')}{where}"
 
     # nominal --------------------------------------------------------------------
     def measure(self, probe: Probe) -> Extremum:
