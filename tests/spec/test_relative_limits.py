@@ -508,3 +508,34 @@ def test_sensitivities_match_central_differences(which):
         fd = np.array(fd)
         np.testing.assert_allclose(derivative, fd, rtol=2e-4, atol=2e-5 * np.abs(fd).max(),
                                    err_msg=lim.name)
+
+
+# -- the plots draw each form where the spec puts it --------------------------------------
+
+def test_plots_draw_sloped_relative_and_spot_bounds_where_they_are():
+    # the RC's closed form gives each level: the mean over 10–100 Hz in log f by quad
+    from netcheck.report.plot_response import spec_figures
+
+    spec = _spec(limits(
+        {"kind": "gain", "name": "slope", "band": ["2k", "20k"], "max_db": [-3, -23]},
+        {"kind": "gain", "name": "re mean", "band": ["30k", "90k"], "max_db": -20,
+         "reference": "mean", "reference_band": ["10", "100"]},
+        {"kind": "gain", "name": "spot", "at": "500", "min_db": -3, "max_db": 1}),
+        start="10", stop="100k")
+    res = evaluate(spec, read_netlist(_rc()))
+    rc = lambda f: -10 * math.log10(1 + (f / RC_FC) ** 2)  # noqa: E731
+    mean = integrate.quad(lambda u: rc(math.exp(u)), math.log(10), math.log(100))[0] \
+        / math.log(10)
+    lines = [(np.asarray(ln.get_xdata(), float), np.asarray(ln.get_ydata(), float))
+             for ln in spec_figures(res)[0][1].axes[0].get_lines()]
+
+    def drawn(f: float, y: float) -> bool:
+        return any(x.size and np.any(np.isclose(x, f, rtol=1e-9)) and
+                   np.any(np.isclose(yy[np.isclose(x, f, rtol=1e-9)], y, atol=1e-9))
+                   for x, yy in lines)
+
+    # the sloped bound through both its ends, straight in log f between them
+    assert drawn(2e3, -3.0) and drawn(20e3, -23.0)
+    # the relative bound at the level measured, the spot's range at its frequency
+    assert drawn(30e3, -20.0 + mean) and drawn(90e3, -20.0 + mean)
+    assert drawn(500.0, -3.0) and drawn(500.0, 1.0)

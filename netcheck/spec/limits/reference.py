@@ -59,7 +59,7 @@ ANCHOR_KEYS: dict[str, str] = {
     "at_multiple": "a spot frequency as a multiple of the measured anchor (e.g. 2)",
     "band_multiple": "[from, to] multiples of the measured anchor: a band that moves with "
                      "it (e.g. [2, 10])",
-    "anchor": "'corner' (default) or 'centre': the measured frequency at_multiple multiplies",
+    "anchor": "'corner' (default) or 'centre': the measured frequency the multiples take",
     "anchor_level_db": "the anchor's level below the reference, dB (default: half-power)",
     "anchor_side": "corner anchor: 'auto', 'high' (low-pass edge) or 'low' (high-pass edge)",
 }
