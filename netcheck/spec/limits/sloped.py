@@ -66,8 +66,8 @@ class Line:
 
     def slope_words(self) -> str:
         """The slope of each segment, dB/decade."""
-        return ", ".join(f"{(v2 - v1) / math.log10(f2 / f1):+.4g} dB/decade"
-                         for f1, v1, f2, v2 in self.segments())
+        return ", ".join(f"{(v2 - v1) / math.log10(f2 / f1):+.4g} dB/decade" if v2 != v1
+                         else "flat" for f1, v1, f2, v2 in self.segments())
 
 
 def read_line(rd: SpecReader, sweep: Sweep, side: str, band: tuple[float, float] | None,
