@@ -75,6 +75,9 @@ class LimitResult:
     index: int = 0
     line: int | None = None
     floor: float | None = None
+    #: the measured level (dB re the stimulus) a relative gain is stated against (the
+    #: mean pass-band gain, say); None for an absolute value
+    reference_db: float | None = None
 
     @property
     def below_floor(self) -> bool:
@@ -138,7 +141,10 @@ def hazard_warranted(specs: Any) -> bool:
 
 @dataclass(frozen=True, slots=True)
 class MaskBand:
-    """One region of a spec mask for plots: ``lo_db``/``hi_db`` None where open."""
+    """One region of a spec mask for plots: ``lo``/``hi`` None where open.
+
+    ``quantity`` 'gain_re_peak_db' or 'gain_re_reference_db': the bounds are relative to
+    the peak gain or to the ``reference_db`` of the limit named ``label``."""
 
     label: str
     f_lo_hz: float
@@ -147,6 +153,10 @@ class MaskBand:
     hi: float | None
     quantity: str = "gain_db"
     failed: bool = False
+    #: a sloped bound's value at ``f_hi_hz`` (``lo``/``hi`` being its value at
+    #: ``f_lo_hz``): straight in log f between them; None where the bound is flat
+    lo_end: float | None = None
+    hi_end: float | None = None
 
 
 @dataclass(frozen=True, slots=True, eq=False)

@@ -296,8 +296,7 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         cautions.append(magnified)
     mask = tuple(m for lim in spec.limits for m in lim.mask())
     failed_names = {r.name for r in limits if r.status is not Status.PASS}
-    mask = tuple(type(m)(m.label, m.f_lo_hz, m.f_hi_hz, m.lo, m.hi, m.quantity,
-                         m.label in failed_names) for m in mask)
+    mask = tuple(dataclasses.replace(m, failed=m.label in failed_names) for m in mask)
     inputs = tuple((s.path, _sha256(s.text)) for s in circuit.sources)
     inputs += ((spec.path, _sha256(spec.text)),)
     sweep_info = (("start_hz", spec.sweep.start_hz), ("stop_hz", spec.sweep.stop_hz),

@@ -518,14 +518,19 @@ class BatchProbe:
         _, _, _, seeds, _, seed_g = self._candidates("gain_db", lo, hi)
         return seeds, seed_g
 
-    def _peak_edge(self, band: tuple[float, float] | None, reference_db: float | None,
+    def _peak_edge(self, band: tuple[float, float] | None,
+                   reference_db: float | np.ndarray | None,
                    level_db: float | None, direction: str) -> np.ndarray:
-        """Edge ``level_db`` below the reference (the peak over ``band`` when None),
-        moving ``direction`` from the peak; cached, as corner and resonance share it."""
-        key = ("edge", band, reference_db, level_db, direction)
+        """Edge ``level_db`` below the reference (the peak over ``band`` when None; a
+        number, or one per sample), moving ``direction`` from the peak; cached, as
+        corner and resonance share it."""
+        ref_key = reference_db.tobytes() if isinstance(reference_db, np.ndarray) \
+            else reference_db
+        key = ("edge", band, ref_key, level_db, direction)
         if key not in self._cache:
             pk = self.peak(*(band or (None, None)))
-            ref = pk.value if reference_db is None else np.full(self.ss.S, reference_db)
+            ref = pk.value if reference_db is None else \
+                np.broadcast_to(np.asarray(reference_db, float), (self.ss.S,)).copy()
             level = ref - (HALF_POWER_DB if level_db is None else level_db)
             edge = self._edge(pk.frequency_hz, level, direction)
             # as in the nominal corner: a peak not above the level has no edge (a fixed
@@ -556,9 +561,10 @@ class BatchProbe:
         self._cache[key] = out
         return out
 
-    def corner(self, level_db: float | None, reference_db: float | None, side: str
-               ) -> np.ndarray:
-        """Per-sample corner frequency (NaN where none or ambiguous)."""
+    def corner(self, level_db: float | None, reference_db: float | np.ndarray | None,
+               side: str) -> np.ndarray:
+        """Per-sample corner frequency (NaN where none or ambiguous); ``reference_db``
+        a number or one per sample (a measured pass-band level), None for the peak."""
         if side in ("high", "low"):  # only the edge asked for is searched
             way = "up" if side == "high" else "down"
             return self._peak_edge(None, reference_db, level_db, way)

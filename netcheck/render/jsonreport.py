@@ -38,6 +38,8 @@ def _limit(lim: LimitResult) -> dict[str, Any]:
     }
     if lim.below_floor:  # measured and margin are rounding noise: the value is ≤ floor
         out.update(below_floor=True, floor=_num(lim.floor))
+    if lim.reference_db is not None:  # a gain stated relative to a measured level
+        out["reference_db"] = _num(lim.reference_db)
     return out
 
 

@@ -117,8 +117,10 @@ def _testcase(suite: ET.Element, classname: str, lim: LimitResult) -> None:
     child = _CHILD.get(lim.status)
     if child is None:
         # a met limit says how when that is part of the verdict: a yield its interval, a
-        # worst case what decided it, a gain at the numerical floor that it is no number
-        if lim.message and (lim.kind in _SAYS_HOW or lim.below_floor):
+        # worst case what decided it, a gain at the numerical floor that it is no number,
+        # a value stated against a measured level what that level is
+        if lim.message and (lim.kind in _SAYS_HOW or lim.below_floor
+                            or lim.reference_db is not None):
             out = _sub(case, "system-out")
             out.text = xml_text(f"{limit_summary(lim)}\n{lim.message}\n")
         return

@@ -127,10 +127,11 @@ def _spec_section(spec: SpecResult) -> list[str]:
         lines += [_limit_row(lim) for lim in ordered]
         lines.append("")
         # a tolerance verdict says what decided it (and a yield its interval) even when
-        # met, and so does a gain at the numerical floor
+        # met, and so does a gain at the numerical floor and a value stated against a
+        # measured level
         notes = [lim for lim in ordered if lim.message and (
             lim.status is not Status.PASS or lim.kind in ("yield", "worst_case")
-            or lim.below_floor)]
+            or lim.below_floor or lim.reference_db is not None)]
         if notes:
             lines += [f"- {lim.status.word} {md_name(lim.name)}: {md_text(lim.message)}"
                       for lim in notes]

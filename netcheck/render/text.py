@@ -50,9 +50,10 @@ def _row(lim: LimitResult) -> list[str]:
 
 def _says_why(lim: LimitResult) -> bool:
     """Whether the row's message is shown under it whatever its status: an error says
-    why, a tolerance verdict what decided it, a gain at the numerical floor what it is."""
+    why, a tolerance verdict what decided it, a gain at the numerical floor what it is,
+    a value stated against a measured level what that level is."""
     return bool(lim.message) and (lim.status is Status.ERROR or lim.kind in _SAYS_HOW
-                                  or lim.below_floor)
+                                  or lim.below_floor or lim.reference_db is not None)
 
 
 def _order(limits: tuple[LimitResult, ...]) -> list[LimitResult]:

@@ -163,5 +163,8 @@ def family_plots(members: list[SpecResult]) -> tuple[Plot, ...]:
         if any(b.quantity == "gain_re_peak_db" for b in ref.mask):
             caption += (" Bounds relative to the peak are drawn on the peak of var 1; each "
                         "variant is judged against its own peak.")
+        if any(b.quantity == "gain_re_reference_db" for b in ref.mask):
+            caption += (" Bounds relative to a measured reference level are drawn on var 1's "
+                        "level; each variant is judged against its own.")
         plots.append(Plot(title, caption, to_svg(fig), figure_keys(drawn) + variant_keys))
     return tuple(plots)

@@ -27,7 +27,7 @@ __all__ = ["GAIN_QUANTITIES", "HALF_POWER_DB", "limit_number", "limit_tag", "tag
            "gain_label"]
 
 #: mask quantities drawn on the gain axis
-GAIN_QUANTITIES = ("gain_db", "gain_re_peak_db")
+GAIN_QUANTITIES = ("gain_db", "gain_re_peak_db", "gain_re_reference_db")
 #: mask quantities that mark a pass-band for the zoom without drawing a region: a band
 #: whose gain is judged against itself (ripple), when a limit reports one
 PASS_QUANTITIES = ("ripple_db",)
@@ -41,14 +41,26 @@ def _offset(band: MaskBand, spec: SpecResult) -> float | None:
     """dB to add to a mask band's bounds to put it on the absolute gain axis."""
     if band.quantity == "gain_re_peak_db":
         return spec.measurement("peak_gain_db")
+    if band.quantity == "gain_re_reference_db":  # the level its limit measured
+        found = _limit_for(band, spec)
+        return None if found is None else found[1].reference_db
     return 0.0
 
 
 def _band_text(band: MaskBand, unit: str) -> str:
-    lo = "open" if band.lo is None else format_eng(band.lo, unit)
-    hi = "open" if band.hi is None else format_eng(band.hi, unit)
-    span = f"{format_si(band.f_lo_hz, 'Hz')} – {format_si(band.f_hi_hz, 'Hz')}"
-    ref = " re peak" if band.quantity == "gain_re_peak_db" else ""
+    def bound(v: float | None, end: float | None) -> str:
+        if v is None:
+            return "open"
+        if end is None or end == v:
+            return format_eng(v, unit)
+        return f"{format_eng(v, unit)} → {format_eng(end, unit)}"
+
+    lo, hi = bound(band.lo, band.lo_end), bound(band.hi, band.hi_end)
+    span = (f"{format_si(band.f_lo_hz, 'Hz')} – {format_si(band.f_hi_hz, 'Hz')}"
+            if band.f_hi_hz > band.f_lo_hz else f"at {format_si(band.f_lo_hz, 'Hz')}"
+            if math.isfinite(band.f_lo_hz) else "at the measured frequency")
+    ref = {"gain_re_peak_db": " re peak",
+           "gain_re_reference_db": " re its reference"}.get(band.quantity, "")
     if band.lo is not None and band.hi is not None:
         allowed = f"allowed {lo} … {hi}{ref}"
     elif band.lo is not None:
@@ -91,7 +103,8 @@ def tags_for(spec: SpecResult) -> tuple[dict[int, Tag], dict[int, Tag]]:
     ``band 1``, ``band 2``… Returns two dicts keyed by position in ``spec.mask`` and
     ``spec.limits``.
     """
-    units = {"gain_db": "dB", "gain_re_peak_db": "dB", "phase_deg": "deg",
+    units = {"gain_db": "dB", "gain_re_peak_db": "dB", "gain_re_reference_db": "dB",
+             "phase_deg": "deg",
              "group_delay_s": "s"}
     masks: dict[int, Tag] = {}
     loose = 0
@@ -108,11 +121,13 @@ def tags_for(spec: SpecResult) -> tuple[dict[int, Tag], dict[int, Tag]]:
             k, lim = found
             masks[i] = Tag(limit_tag(k), band.label, text, lim.status, limit_number(k))
     re_peak = {b.label for b in spec.mask if b.quantity == "gain_re_peak_db"}
+    re_ref = {b.label for b in spec.mask if b.quantity == "gain_re_reference_db"}
     fails: dict[int, Tag] = {}
     for i, lim in enumerate(spec.limits):
         if lim.status is not Status.FAIL or lim.at_hz is None or lim.measured is None:
             continue
-        ref = " (re peak)" if lim.name in re_peak else ""
+        ref = " (re peak)" if lim.name in re_peak else \
+            " (re its reference)" if lim.name in re_ref else ""
         fails[i] = Tag(limit_tag(i), lim.name,
                        f"worst value {lim.figures.measured}{ref} at "
                        f"{format_si(lim.at_hz, 'Hz', 5)}, limit {lim.bound_text}", lim.status,
@@ -132,8 +147,9 @@ def _resonance_window(spec: SpecResult, f: np.ndarray) -> tuple[float, float] | 
 def _pass_window(spec: SpecResult, f: np.ndarray) -> tuple[float, float] | None:
     """The union of the pass-bands (gain bands that set a minimum, ripple bands), widened
     by 8 % of its width in log frequency."""
-    bands = [b for b in spec.mask if (b.quantity in GAIN_QUANTITIES and b.lo is not None)
-             or b.quantity in PASS_QUANTITIES]
+    bands = [b for b in spec.mask if ((b.quantity in GAIN_QUANTITIES and b.lo is not None)
+                                      or b.quantity in PASS_QUANTITIES)
+             and b.f_hi_hz > b.f_lo_hz]  # not a spot frequency
     if not bands:
         return None
     blo, bhi = min(b.f_lo_hz for b in bands), max(b.f_hi_hz for b in bands)
@@ -228,7 +244,7 @@ def gain_limits(spec: SpecResult, lo_hz: float, hi_hz: float, zoom: bool) -> tup
     for b, off in bands:
         if zoom and not resonant and b.lo is None:
             continue  # a stop-band bound would squash the pass-band detail
-        values += [v + off for v in (b.lo, b.hi) if v is not None]
+        values += [v + off for v in (b.lo, b.hi, b.lo_end, b.hi_end) if v is not None]
     lo, hi = min(values), max(values)
     span = max(hi - lo, 1.0)
     if zoom and not resonant:
@@ -259,23 +275,31 @@ def draw_mask(ax: Any, spec: SpecResult, masks: dict[int, Tag], quantity: tuple[
         off = _offset(band, spec)
         if off is None:
             continue
+        if not band.f_hi_hz > band.f_lo_hz:  # a spot frequency: an allowed range there
+            _draw_spot(ax, spec, band, masks[i], off / scale, scale, ylim, x_span, drawn)
+            continue
         a, b = max(band.f_lo_hz, x_span[0]), min(band.f_hi_hz, x_span[1])
         if not b > a:
             continue
         failed = masks[i].status is Status.FAIL or band.failed
-        lo = None if band.lo is None else (band.lo + off) / scale
-        hi = None if band.hi is None else (band.hi + off) / scale
+        xs = np.geomspace(a, b, 24) if log else np.linspace(a, b, 24)
+        lo = _bound_line(band.lo, band.lo_end, band, xs, off, scale)
+        hi = _bound_line(band.hi, band.hi_end, band, xs, off, scale)
         edge = PALETTE["fail"] if failed else PALETTE["hatch"]
         hatch = "xx" if failed else "///"
-        ax.fill_between([a, b], lo if lo is not None else y0, hi if hi is not None else y1,
+        ax.fill_between(xs, lo if lo is not None else y0, hi if hi is not None else y1,
                         facecolor=PALETTE["allowed"], edgecolor="none", linewidth=0, zorder=0.5)
         for bound, far in ((hi, y1), (lo, y0)):
             if bound is None:
                 continue
-            ax.fill_between([a, b], bound, far, facecolor=PALETTE["forbid"], edgecolor=edge,
+            ax.fill_between(xs, bound, far, facecolor=PALETTE["forbid"], edgecolor=edge,
                             hatch=hatch, linewidth=0, zorder=0.6)
-            ax.plot([a, b], [bound, bound], color=edge, linewidth=1.1 if failed else 0.9,
+            ax.plot(xs, bound, color=edge, linewidth=1.1 if failed else 0.9,
                     solid_capstyle="butt", zorder=2)
+        x_label = np.array([(math.sqrt(a * b) if log else 0.5 * (a + b))
+                            if frac(a, b) > 0.25 else a])
+        lo, hi = (None if v is None else float(_bound_line(v, e, band, x_label, off, scale)[0])
+                  for v, e in ((band.lo, band.lo_end), (band.hi, band.hi_end)))
         if skip is not None and skip[0] <= band.f_lo_hz and band.f_hi_hz <= skip[1]:
             continue
         drawn.append(masks[i])
@@ -292,6 +316,50 @@ def draw_mask(ax: Any, spec: SpecResult, masks: dict[int, Tag], quantity: tuple[
                         color=edge, fontweight="bold", zorder=6,
                         bbox={"boxstyle": "round,pad=0.15", "facecolor": "white",
                               "edgecolor": edge, "linewidth": 0.5})
+
+
+def _draw_spot(ax: Any, spec: SpecResult, band: MaskBand, tag: Tag, off: float, scale: float,
+               ylim: tuple[float, float], x_span: tuple[float, float], drawn: list[Tag]
+               ) -> None:
+    """A limit at one frequency (given, or measured: the limit's own ``at_hz``): the
+    allowed range as a bar there, each bound a cap, tagged like a band."""
+    f = band.f_lo_hz
+    if not math.isfinite(f):
+        found = _limit_for(band, spec)
+        f = found[1].at_hz if found is not None and found[1].at_hz is not None else math.nan
+    if not (math.isfinite(f) and x_span[0] <= f <= x_span[1]):
+        return
+    failed = tag.status is Status.FAIL or band.failed
+    edge = PALETTE["fail"] if failed else PALETTE["hatch"]
+    lo = None if band.lo is None else band.lo / scale + off
+    hi = None if band.hi is None else band.hi / scale + off
+    y0, y1 = ylim
+    ax.plot([f, f], [lo if lo is not None else y0, hi if hi is not None else y1],
+            color=PALETTE["allowed"], linewidth=5, solid_capstyle="butt", zorder=1.5)
+    for bound, marker in ((hi, "v"), (lo, "^")):
+        if bound is not None and y0 < bound < y1:
+            ax.plot([f], [bound], marker=marker, markersize=6, color=edge, zorder=2.5,
+                    markeredgewidth=0.6, markeredgecolor=edge)
+    drawn.append(tag)
+    y_txt = hi if hi is not None else lo
+    if y_txt is not None and y0 < y_txt < y1:
+        ax.annotate(tag.tag + (" FAIL" if failed else ""), (f, y_txt), xytext=(4, 3),
+                    textcoords="offset points", ha="left", va="bottom",
+                    fontsize=FONT_PT - 0.5, color=edge, fontweight="bold", zorder=6,
+                    bbox={"boxstyle": "round,pad=0.15", "facecolor": "white",
+                          "edgecolor": edge, "linewidth": 0.5})
+
+
+def _bound_line(start: float | None, end: float | None, band: MaskBand, xs: np.ndarray,
+                off: float, scale: float) -> np.ndarray | None:
+    """A band's bound at ``xs`` on the plot's axis: flat, or straight in log f from its
+    value at the band's start to ``end`` at its stop (a sloped mask)."""
+    if start is None:
+        return None
+    if end is None:
+        return np.full(xs.size, (start + off) / scale)
+    t = np.log(xs / band.f_lo_hz) / math.log(band.f_hi_hz / band.f_lo_hz)
+    return (start + (end - start) * t + off) / scale
 
 
 def fail_points(ax: Any, spec: SpecResult, fails: dict[int, Tag], curve: str, scale: float,

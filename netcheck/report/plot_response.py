@@ -210,6 +210,21 @@ def _phase_delay(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
     return fig
 
 
+def _mask_forms(spec: SpecResult) -> str:
+    """What the caption says of the mask's less usual forms, when it has them."""
+    words = []
+    if any(b.quantity == "gain_re_peak_db" for b in spec.mask):
+        words.append(" Bounds stated relative to the peak gain are drawn at the peak.")
+    if any(b.quantity == "gain_re_reference_db" for b in spec.mask):
+        words.append(" Bounds stated relative to a measured pass-band level (a mean, lowest "
+                     "or highest gain over a band, or the gain at a frequency) are drawn at "
+                     "the level measured.")
+    if any(not b.f_hi_hz > b.f_lo_hz for b in spec.mask):
+        words.append(" A limit at one frequency is a bar of its allowed range there, a "
+                     "triangle at each bound.")
+    return "".join(words)
+
+
 def _figures(spec: SpecResult) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
     """(title, caption, matplotlib Figure, key) of each of the report's figures for ``spec``."""
     if spec.curves is None or spec.curves.frequency_hz.size < 2:
@@ -224,6 +239,7 @@ def _figures(spec: SpecResult) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
             f"Gain in dB against frequency, {format_si(float(f[0]), 'Hz')} to "
             f"{format_si(float(f[-1]), 'Hz')}, with the spec mask: allowed regions are "
             "tinted, forbidden regions hatched (cross-hatched where the limit failed)."
+            + _mask_forms(spec)
             + (" The dashed box marks the zoom below; what lies inside it is tagged "
                "there." if zoom else "") + envelope,
             fig, figure_keys(drawn))]

@@ -26,6 +26,10 @@ MINIMAL_TOML = {
     "ripple": 'kind = "ripple"\nband = ["100", "1k"]\nmax_db = 0.5',
     "resonance": 'kind = "resonance"\nq = [5, 20]',
     "corner": 'kind = "corner"\nrange = ["990", "1010"]',
+    "bandwidth": 'kind = "bandwidth"\nrange = ["1k", "2k"]',
+    "shape_factor": 'kind = "shape_factor"\nrange = [1, 3]\nlevels_db = [6, 60]',
+    "bandwidth": 'kind = "bandwidth"\nrange = ["1k", "2k"]',
+    "shape_factor": 'kind = "shape_factor"\nrange = [1, 3]\nlevels_db = [6, 60]',
     "group_delay": 'kind = "group_delay"\nband = ["100", "1k"]\nmax = "200u"',
     "phase": 'kind = "phase"\nband = ["100", "1k"]\nrange_deg = [-90, 0]',
     "impedance": 'kind = "impedance"\nband = ["100", "1k"]\nrange = ["1k", "2k"]',
@@ -42,8 +46,9 @@ def entry(kind: str) -> tuple[str, str]:
 
 def test_table_lists_the_kinds_in_their_order():
     # the order is the order of the worst case and of every listing of kinds
-    assert list(KINDS) == ["gain", "ripple", "resonance", "corner", "group_delay", "phase",
-                           "impedance", "notch", "port"]
+    assert list(KINDS) == ["gain", "ripple", "resonance", "corner", "bandwidth",
+                           "shape_factor", "group_delay", "phase", "impedance", "notch",
+                           "port"]
     assert list(LIMITS) == list(KINDS) and len(LIMITS) == len(KINDS)
     assert set(MINIMAL_TOML) == set(KINDS)
 

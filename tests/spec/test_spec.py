@@ -385,17 +385,18 @@ class TestSpecFormatDoc:
 
     def test_examples_are_valid_specs(self):
         blocks = self.toml_blocks()
-        assert len(blocks) == 8
         specs = [parse_spec(b, "specs/example.toml") for b in blocks if "netlist" in b]
+        assert len(specs) == 4
         # the full example holds every kind its band-pass can carry; a band-pass has no
-        # notch, which has its own full example (test_notch_example_passes_on_its_netlist),
-        # and no ports (the port kind's example is the sample match, tested on its own)
+        # notch and no ports, which have their own full examples (tested below)
         assert {type(lim).kind for lim in specs[-1].limits} == set(LIMITS) - {"notch", "port"}
-        wide = HEAD.replace('start = "1k"', 'start = "1"').replace('stop = "100k"',
-                                                                 'stop = "1meg"')
-        for block in blocks:  # the limit snippets of the kind sections are valid too
-            if block.startswith("[[limits]]"):
-                parse_spec(wide + block, "specs/example.toml")
+        # the worked examples of single limits read as limits of a spec over their sweep
+        snippets = [b for b in blocks if "netlist" not in b and "[[limits]]" in b]
+        assert len(snippets) >= 7
+        for b in snippets:
+            assert parse_spec('netlist = "x.cir"\nsource = "V"\noutput = "o"\n'
+                              '[sweep]\nstart = "10"\nstop = "20meg"\n' + b,
+                              "specs/example.toml").limits
 
     def test_notch_example_passes_on_its_netlist(self, tmp_path):
         # the notch section's spec on the twin-T it names, and the rows it shows
@@ -412,6 +413,21 @@ class TestSpecFormatDoc:
             f = r.figures
             assert f"{f.measured}" in shown and f"{f.margin}" in shown, r.name
 
+    def test_port_example_is_the_sample_and_shows_its_rows(self):
+        # the port section's spec is specs/qm_rf10_match.toml's first limits, and the rows
+        # it shows are what the check prints for them
+        block = next(b for b in self.toml_blocks() if 'kind = "port"' in b)
+        sample = (Path(__file__).resolve().parents[2] / "specs" / "qm_rf10_match.toml")
+        assert sample.read_text("utf-8").startswith(block)
+        result = check_spec(str(sample))
+        assert result.error is None
+        shown = self.text().split('quantity = "transducer_gain"')[1].split("```\n")[2]
+        nominal = [r for r in result.limits if not r.name.startswith("worst case")][:3]
+        for r in nominal:
+            assert r.status is Status.PASS
+            f = r.figures
+            assert f"{f.measured}" in shown and f"{f.margin}" in shown, r.name
+
     def test_full_example_passes_on_its_netlist(self, tmp_path):
         # the doc says so; the netlist path is relative to specs/
         full = self.toml_blocks()[-1]
@@ -423,7 +439,7 @@ class TestSpecFormatDoc:
         result = check_spec(str(spec))
         assert result.error is None
         assert {r.status for r in result.limits} == {Status.PASS}
-        assert len(result.limits) == 13
+        assert len(result.limits) == 15
 
     def test_error_example_is_what_netcheck_prints(self):
         text = HEAD + GAIN * 3 + GAIN.replace('["2k", "3k"]', '["50k", "40k"]')

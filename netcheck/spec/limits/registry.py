@@ -24,6 +24,8 @@ KINDS: dict[str, str] = {
     "ripple": "ripple:RippleLimit",
     "resonance": "resonance:ResonanceLimit",
     "corner": "corner:CornerLimit",
+    "bandwidth": "bandwidth:BandwidthLimit",
+    "shape_factor": "shape_factor:ShapeFactorLimit",
     "group_delay": "delay:GroupDelayLimit",
     "phase": "phase:PhaseLimit",
     "impedance": "impedance:ImpedanceLimit",
