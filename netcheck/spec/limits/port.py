@@ -71,8 +71,7 @@ class PortLimit(Limit):
     SUMMARY: ClassVar[str] = ("return loss, reflection coefficient, VSWR or impedance at a "
                               "port, transducer gain or insertion loss, between the "
                               "terminations of [ports]")
-    METHOD: ClassVar[str] = ("exact port impedance by direct solves; true band extremes by "
-                             "Brent's root-finding on its derivative")
+    METHOD: ClassVar[str] = "exact port impedance by direct solves; true band extremes"
     KEYS: ClassVar[dict[str, str]] = {
         "quantity": "return_loss (dB), reflection (|Γ|), vswr, impedance (Ω), "
                     "transducer_gain (dB) or insertion_loss (dB)",
