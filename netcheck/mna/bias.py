@@ -42,9 +42,9 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from ..exceptions import ElaborationError, OperatingPointError
+from ..exceptions import OperatingPointError
 from ..netlist.circuit import GROUND, Circuit
-from ..netlist.device_models import TemperatureRangeError, at_temperature
+from ..netlist.device_models import TemperatureRangeError, at_temperature, temperature_refusal
 from ..netlist.elements import Element
 from ..netlist.elements.controlled import LinearisedSource
 from ..netlist.gradients import NoValue
@@ -111,11 +111,9 @@ class _Companion:
         try:  # the parameters at temp_c: the saturation current the steps are limited by
             self.model = at_temperature(device.model, temp_c)
         except TemperatureRangeError as err:
-            raise ElaborationError(
-                f"{printable(device.name)}: model {printable(device.model_name)}: {err}; "
-                "check the .temp card and the model's TNOM and temperature parameters "
-                "(docs/devices.md)", device.span,
-                code="netlist-166") from None
+            # a temperature other than the netlist's (which reading it checked)
+            raise OperatingPointError(temperature_refusal(device, err), device.span,
+                                      code="netlist-166") from None
         self.junctions: list[float] = []   # the last junction voltages used (device frame)
         self.held = False                  # a junction step was held back this iteration
 

@@ -47,7 +47,8 @@ if TYPE_CHECKING:  # pragma: no cover
 __all__ = ["DiodeModel", "BjtModel", "MosModel", "JfetModel", "DeviceModel", "device_model",
            "DEFAULT_W", "DEFAULT_L", "EPS_OX", "check_geometry", "BOLTZMANN",
            "ELEMENTARY_CHARGE", "ZERO_CELSIUS", "thermal_voltage", "silicon_gap",
-           "at_temperature", "TemperatureRangeError"]
+           "at_temperature", "TemperatureRangeError", "temperature_refusal",
+           "check_temperature"]
 
 INF = math.inf
 #: default MOS channel width and length, m (common SPICE convention, from memory: 100 µm)
@@ -321,6 +322,24 @@ class TemperatureRangeError(ValueError):
     or overflows. The message says which parameter and its value there."""
 
 
+def temperature_refusal(device, err: TemperatureRangeError) -> str:
+    """The words of netlist-166 for ``device`` (a device element: its name and model
+    name) whose model :func:`at_temperature` refused with ``err``."""
+    return (f"{printable(device.name)}: model {printable(device.model_name)}: {err}; check "
+            "the .temp card and the model's TNOM and temperature parameters "
+            "(docs/devices.md)")
+
+
+def check_temperature(device, temp_c: float) -> None:
+    """Refuse (netlist-166, at the device's card) a device whose model cannot be taken to
+    ``temp_c`` °C."""
+    try:
+        at_temperature(device.model, temp_c)
+    except TemperatureRangeError as err:
+        raise ElaborationError(temperature_refusal(device, err), device.span,
+                               code="netlist-166") from None
+
+
 def thermal_voltage(temp_c: float = NOMINAL_C) -> float:
     """kT/q in volts at ``temp_c`` °C (25.865 mV at 27 °C)."""
     return BOLTZMANN * (temp_c + ZERO_CELSIUS) / ELEMENTARY_CHARGE
@@ -424,17 +443,18 @@ class _Scale:
         self.vt = BOLTZMANN * t / ELEMENTARY_CHARGE
         self.where = f"at {temp_c:g} °C (TNOM {tnom_c:g} °C)"
 
-    def positive(self, name: str, value: float) -> float:
+    def positive(self, name: str, value: float, unit: str = "") -> float:
         if not (math.isfinite(value) and value > 0):
-            raise TemperatureRangeError(f"{self.where} {name} becomes {value:g}: the "
-                                        "temperature laws leave their range there")
+            raise TemperatureRangeError(f"{self.where} {name} becomes {value:.4g}{unit}: "
+                                        "the temperature laws leave their range there")
         return value
 
     def saturation(self, name: str, is_: float, n: float, xti: float, eg: float) -> float:
         """IS·(T/TNOM)^(XTI/N)·exp((T/TNOM − 1)·EG/(N·Vt(T)))"""
         r = self.ratio
         return self.positive(f"the saturation current {name}",
-                             is_ * r ** (xti / n) * math.exp((r - 1.0) * eg / (n * self.vt)))
+                             is_ * r ** (xti / n) * math.exp((r - 1.0) * eg / (n * self.vt)),
+                             " A")
 
     def potential(self, name: str, vj: float, cap: float) -> float:
         """VJ·T/TNOM − 3·Vt(T)·ln(T/TNOM) − EG(TNOM)·T/TNOM + EG(T); refused at or below
@@ -442,7 +462,7 @@ class _Scale:
         r = self.ratio
         got = vj * r - 3.0 * self.vt * math.log(r) - silicon_gap(self.t0) * r + silicon_gap(self.t)
         if cap > 0:
-            self.positive(f"the potential {name} (from {vj:g} V)", got)
+            self.positive(f"the potential {name} (from {vj:g} V)", got, " V")
         return got
 
     def capacitance(self, name: str, cj0: float, m: float, vj: float, vj_t: float) -> float:
@@ -450,4 +470,5 @@ class _Scale:
         if cj0 == 0:
             return cj0
         return self.positive(f"the zero-bias capacitance {name} (from {cj0:g} F)",
-                             cj0 * (1.0 + m * (4e-4 * (self.t - self.t0) - (vj_t - vj) / vj)))
+                             cj0 * (1.0 + m * (4e-4 * (self.t - self.t0) - (vj_t - vj) / vj)),
+                             " F")
