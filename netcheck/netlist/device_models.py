@@ -312,7 +312,6 @@ def check_geometry(w: float, l: float, span) -> None:
                                    span, code="netlist-132")
 
 
-
 # --------------------------------------------------------------------------- temperature
 
 class TemperatureRangeError(ValueError):

@@ -36,7 +36,7 @@ from netcheck.cli import main as netcheck_main
 from netcheck.exceptions import ElaborationError, OperatingPointError
 from netcheck.mna.bias import linearised, operating_point
 from netcheck.mna.bias_samples import sampled_small_signal
-from netcheck.mna.devices import bjt, diode, jfet, mos1
+from netcheck.mna.devices import bjt, diode, jfet, mos1, mos1_capacitances
 from netcheck.netlist.device_models import (BjtModel, DiodeModel, JfetModel, MosModel,
                                             TemperatureRangeError, at_temperature)
 
@@ -382,6 +382,15 @@ def test_the_device_functions_take_the_temperature():
     mp = mos1(MosModel(KP=1e-4, VTO=1.0), 3.0, 5.0, 0.0, 1e-5, 1e-5, temp_c=85.0)
     kp = at(1e-4 * (T / T0) ** sp.Rational(-3, 2), 85.0)
     assert mp.id == pytest.approx(0.5 * kp * (3.0 - mp.vth) ** 2, rel=1e-13)
+    # Meyer's (1971) triode gate capacitance with the threshold at 85 °C (GAMMA = 0:
+    # VTO + (EG(TNOM) − EG(T))/2 + (PHI(T) − PHI)/2, PHI = 0.6 by default)
+    vto = at(1 + (gap(T0) - gap(T)) / 2 + (law_vj(0.6) - sp.Rational("0.6")) / 2, 85.0)
+    caps = mos1_capacitances(MosModel(KP=1e-4, VTO=1.0, TOX=20e-9), 3.0, 0.5, 0.0, 1e-5, 1e-5,
+                             temp_c=85.0)
+    c_ox = 3.9 * 8.8541878128e-12 / 20e-9 * 1e-10  # ε_ox/TOX·W·L (ε0: CODATA 2018)
+    vgst = 3.0 - vto
+    assert caps.cgs == pytest.approx(2 / 3 * c_ox * (1 - ((vgst - 0.5) / (2 * vgst - 0.5)) ** 2),
+                                     rel=1e-12)
     jp = jfet(JfetModel(VTOTC=-2e-3), -1.0, 5.0, 85.0)
     assert jp.id == pytest.approx(1e-4 * (-1.0 - (-2.0 - 2e-3 * 58)) ** 2, rel=1e-13)
 
