@@ -156,7 +156,7 @@ def assemble(circuit: Circuit, source: str, node: str, ref: str = GROUND) -> Sys
         Output is V(node) − V(ref).
     """
     if any(e.nonlinear for e in circuit.elements):  # at its operating point
-        circuit = linearised(circuit)[0]
+        circuit = linearised(circuit, circuit.temp_c)[0]
     st = Stamper(circuit)
     st.stamp_all()
     sel = _stimulus_and_output(circuit, source, node, ref, st)

@@ -44,6 +44,7 @@ import scipy.sparse.linalg as spla
 
 from ..exceptions import OperatingPointError
 from ..netlist.circuit import GROUND, Circuit
+from ..netlist.device_models import TemperatureRangeError, at_temperature, temperature_refusal
 from ..netlist.elements import Element
 from ..netlist.elements.controlled import LinearisedSource
 from ..netlist.gradients import NoValue
@@ -115,6 +116,12 @@ class _Companion:
         self.device, self.rows, self.temp_c = device, rows, temp_c
         self.cols = rows  # a device's currents depend on its own terminal voltages
         self.vt = eq.thermal_voltage(temp_c)
+        try:  # the parameters at temp_c: the saturation current the steps are limited by
+            self.model = at_temperature(device.model, temp_c)
+        except TemperatureRangeError as err:
+            # a temperature other than the netlist's (which reading it checked)
+            raise OperatingPointError(temperature_refusal(device, err), device.span,
+                                      code="netlist-166") from None
         self.junctions: list[float] = []   # the last junction voltages used (device frame)
         self.held = False                  # a junction step was held back this iteration
         self.gmin = 0.0                    # a conductance across each junction, S
@@ -162,26 +169,27 @@ class _Companion:
         d = self.device
         if isinstance(d, Diode):
             m = d.model
-            vd = self._limit(0, v[0] - v[1], m.N, m.IS)
+            vd = self._limit(0, v[0] - v[1], m.N, self.model.IS)
             i, jac = diode_terminals(eq.diode(m, vd, self.temp_c))
             return i + jac @ v - jac @ np.array([vd, 0.0]), jac
         if isinstance(d, Bjt):
             m = d.model
             p = m.polarity
-            vbe = p * self._limit(0, p * (v[1] - v[2]), m.NF, m.IS)
-            vbc = p * self._limit(1, p * (v[1] - v[0]), m.NR, m.IS)
+            vbe = p * self._limit(0, p * (v[1] - v[2]), m.NF, self.model.IS)
+            vbc = p * self._limit(1, p * (v[1] - v[0]), m.NR, self.model.IS)
             i, jac = bjt_terminals(eq.bjt(m, vbe, vbc, self.temp_c))
             at = np.array([v[1] - vbc, v[1], v[1] - vbe])  # terminal voltages of the bias point
             return i + jac @ (v - at), jac
         if isinstance(d, Mosfet):
             m = d.model
-            return mos_terminals(eq.mos1(m, v[1] - v[2], v[0] - v[2], v[3] - v[2], d.w, d.l))
+            return mos_terminals(eq.mos1(m, v[1] - v[2], v[0] - v[2], v[3] - v[2], d.w, d.l,
+                                          self.temp_c))
         if isinstance(d, Jfet):
             m = d.model
             p = m.polarity
             # the gate junctions are limited like a bipolar transistor's
-            vgs = p * self._limit(0, p * (v[1] - v[2]), m.N, m.IS)
-            vgd = p * self._limit(1, p * (v[1] - v[0]), m.N, m.IS)
+            vgs = p * self._limit(0, p * (v[1] - v[2]), m.N, self.model.IS)
+            vgd = p * self._limit(1, p * (v[1] - v[0]), m.N, self.model.IS)
             i, jac = jfet_terminals(eq.jfet(m, vgs, vgs - vgd, self.temp_c))
             at = np.array([v[1] - vgd, v[1], v[1] - vgs])  # terminal voltages of the bias point
             return i + jac @ (v - at), jac
@@ -458,14 +466,15 @@ def _failure(system: _DcSystem) -> str:
 
 # ------------------------------------------------------------------ results
 
-def operating_point(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C) -> OperatingPoint:
-    """The DC operating point of ``circuit`` with the device equations' thermal voltage at
-    ``temp_c`` °C (analysis-306 if it cannot be found). The device parameters are not
-    scaled with temperature (docs/devices.md), so a check keeps the nominal 27 °C."""
+def operating_point(circuit: Circuit, temp_c: float | None = None) -> OperatingPoint:
+    """The DC operating point of ``circuit`` with its devices at ``temp_c`` °C (the
+    circuit's temperature, its ``.temp``, when not given): the device parameters scaled
+    from their ``TNOM`` and the thermal voltage there (docs/devices.md). analysis-306 if
+    it cannot be found, netlist-166 if a model cannot be taken to that temperature."""
     return linearised(circuit, temp_c)[1]
 
 
-def linearised(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C
+def linearised(circuit: Circuit, temp_c: float | None = None
                ) -> tuple[Circuit, OperatingPoint]:
     """``circuit`` with every device replaced by its small-signal equivalent at the
     operating point, and the operating point (see :func:`operating_point`).
@@ -474,6 +483,8 @@ def linearised(circuit: Circuit, temp_c: float = NOMINAL_TEMP_C
     state of a latch) is not one the circuit stays in: source stepping in small steps
     (0.01, at most 0.05 of the supplies) looks for a stable one, which is kept if found
     (:mod:`netcheck.mna.dc_states`)."""
+    if temp_c is None:
+        temp_c = circuit.temp_c
     system = _DcSystem(circuit, temp_c)
     x, method, iterations = _solve_dc(system)
     small, op = _at(circuit, system, x, temp_c, method, iterations)
@@ -547,9 +558,9 @@ def _small_signal(d: Device, v: np.ndarray, temp_c: float, gmin: float = 0.0
     elif isinstance(d, Mosfet):
         m = d.model
         vgs, vds, vbs = v[1] - v[2], v[0] - v[2], v[3] - v[2]
-        q = eq.mos1(m, vgs, vds, vbs, d.w, d.l)
+        q = eq.mos1(m, vgs, vds, vbs, d.w, d.l, temp_c)
         g[:] = mos_terminals(q)[1]
-        caps = eq.mos1_capacitances(m, vgs, vds, vbs, d.w, d.l)
+        caps = eq.mos1_capacitances(m, vgs, vds, vbs, d.w, d.l, temp_c)
         _between(cap, ((1, 2, caps.cgs), (1, 0, caps.cgd), (1, 3, caps.cgb)))
         region = q.region
         kind = "nmos" if m.polarity > 0 else "pmos"

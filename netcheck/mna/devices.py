@@ -18,8 +18,10 @@ Conventions
 * Series resistances (``RS``, ``RB``, ``RE``, ``RC``, ``RD``) are not in these equations:
   the caller adds each as a resistor between the terminal and an internal node, and
   passes the internal voltages here.
-* Parameters are not scaled with temperature; only the thermal voltage follows
-  ``temp_c`` (27 °C when not given).
+* Each function takes the model as read from its card and the temperature ``temp_c``
+  (27 °C when not given): the parameters are taken there by
+  :func:`~netcheck.netlist.device_models.at_temperature` (unchanged at the card's
+  ``TNOM``), and the thermal voltage is kT/q there.
 * The exponential of a junction overflows past about 700·N·Vt (≈ 18 V at N = 1): a
   Newton iteration keeps its junction voltages in range with
   :func:`bounded_junction_voltage`; an unlimited one gets ``OverflowError``.
@@ -30,25 +32,18 @@ from __future__ import annotations
 import math
 from typing import NamedTuple
 
-from ..netlist.device_models import BjtModel, DiodeModel, JfetModel, MosModel
+from ..netlist.device_models import (BOLTZMANN, ELEMENTARY_CHARGE, ZERO_CELSIUS, BjtModel,
+                                     DiodeModel, JfetModel, MosModel, at_temperature,
+                                     thermal_voltage)
 
 __all__ = ["BOLTZMANN", "ELEMENTARY_CHARGE", "ZERO_CELSIUS", "thermal_voltage",
-           "Junction", "depletion_charge", "junction", "diode", "BjtPoint", "bjt",
-           "bjt_region", "SATURATION_RATIO", "MosPoint", "mos1", "MosCaps", "mos1_capacitances", "JfetPoint", "jfet", "critical_voltage",
+           "at_temperature", "Junction", "depletion_charge", "junction", "diode", "BjtPoint",
+           "bjt", "bjt_region", "SATURATION_RATIO", "MosPoint", "mos1", "MosCaps",
+           "mos1_capacitances", "JfetPoint", "jfet", "critical_voltage",
            "bounded_junction_voltage"]
 
-#: Boltzmann constant, J/K, and elementary charge, C: exact in the SI since 2019
-BOLTZMANN = 1.380649e-23
-ELEMENTARY_CHARGE = 1.602176634e-19
-#: 0 °C in kelvin (exact by definition)
-ZERO_CELSIUS = 273.15
 #: the temperature of a check when none is given, °C (common practice, no source)
 NOMINAL_TEMP_C = 27.0
-
-
-def thermal_voltage(temp_c: float = NOMINAL_TEMP_C) -> float:
-    """kT/q in volts at ``temp_c`` °C (25.865 mV at 27 °C)."""
-    return BOLTZMANN * (temp_c + ZERO_CELSIUS) / ELEMENTARY_CHARGE
 
 
 # --------------------------------------------------------------------------- junctions
@@ -102,10 +97,10 @@ def junction(v: float, is_: float, n: float, cj0: float, vj: float, m: float, fc
 
 def diode(model: DiodeModel, v: float, temp_c: float = NOMINAL_TEMP_C) -> Junction:
     """The diode of ``model`` at anode-to-cathode voltage ``v`` (across the junction:
-    the caller puts ``RS`` in series as a resistor to an internal node). Breakdown
-    (``BV``, ``IBV``) is not modelled."""
-    return junction(v, model.IS, model.N, model.CJO, model.VJ, model.M, model.FC, model.TT,
-                    thermal_voltage(temp_c))
+    the caller puts ``RS`` in series as a resistor to an internal node) at ``temp_c``
+    °C. Breakdown (``BV``, ``IBV``) is not modelled."""
+    m = at_temperature(model, temp_c)
+    return junction(v, m.IS, m.N, m.CJO, m.VJ, m.M, m.FC, m.TT, thermal_voltage(temp_c))
 
 
 # --------------------------------------------------------------------------- bipolar
@@ -138,8 +133,10 @@ def bjt(model: BjtModel, vbe: float, vbc: float, temp_c: float = NOMINAL_TEMP_C)
     IF = IS(exp(vbe/(NF·Vt)) − 1), IR = IS(exp(vbc/(NR·Vt)) − 1),
     ic = (IF − IR)(1 − vbc/VAF) − IR/BR, ib = IF/BF + IR/BR; charges
     qbe = Qdep(vbe; CJE, VJE, MJE) + TF·IF·(1 − vbc/VAF), qbc = Qdep(vbc; CJC, VJC, MJC) + TR·IR.
-    VAF = ∞ leaves the factor 1. ``vbe``, ``vbc`` are across the internal junctions.
+    VAF = ∞ leaves the factor 1. ``vbe``, ``vbc`` are across the internal junctions;
+    the parameters are taken at ``temp_c`` °C.
     """
+    model = at_temperature(model, temp_c)
     p = model.polarity
     vbe, vbc = p * vbe, p * vbc
     vt = thermal_voltage(temp_c)
@@ -206,9 +203,9 @@ class MosPoint(NamedTuple):
 
 
 def mos1(model: MosModel, vgs: float, vds: float, vbs: float, w: float | None = None,
-         l: float | None = None) -> MosPoint:
+         l: float | None = None, temp_c: float = NOMINAL_TEMP_C) -> MosPoint:
     """Level 1 (Shichman–Hodges) drain current, β = KP·W/L (``w``, ``l`` default to the
-    model's):
+    model's; ``KP``, ``VTO``, ``PHI`` taken at ``temp_c`` °C):
 
     * threshold VT = VTO + GAMMA(√(PHI − vbs) − √PHI) for vbs ≤ 0; for vbs > 0 the root
       is continued by its first-order Taylor expansion at 0, √PHI − vbs/(2√PHI), floored
@@ -222,6 +219,7 @@ def mos1(model: MosModel, vgs: float, vds: float, vbs: float, w: float | None = 
     minus the forward current at (vgd, −vds, vbd), and the derivatives are carried back
     to the terminal voltages by the chain rule.
     """
+    model = at_temperature(model, temp_c)
     p = model.polarity
     beta = model.KP * (model.W if w is None else w) / (model.L if l is None else l)
     vgs, vds, vbs = p * vgs, p * vds, p * vbs
@@ -279,7 +277,8 @@ class MosCaps(NamedTuple):
 
 
 def mos1_capacitances(model: MosModel, vgs: float, vds: float, vbs: float,
-                      w: float | None = None, l: float | None = None) -> MosCaps:
+                      w: float | None = None, l: float | None = None,
+                      temp_c: float = NOMINAL_TEMP_C) -> MosCaps:
     """Meyer's (1971) gate capacitances plus the overlap capacitances.
 
     With C = COX·W·L and vgst = vgs − VT (VT with the body effect, as in :func:`mos1`):
@@ -291,8 +290,10 @@ def mos1_capacitances(model: MosModel, vgs: float, vds: float, vbs: float,
     to cgs, CGDO·W to cgd, CGBO·L to cgb. A card without TOX has no intrinsic part
     (COX = 0). For vds < 0 the roles of the two ends swap, as in :func:`mos1`. These are
     small-signal capacitances, not derivatives of a charge (Meyer's model conserves no
-    charge), which is all a frequency-domain check uses.
+    charge), which is all a frequency-domain check uses. The threshold is taken at
+    ``temp_c`` °C.
     """
+    model = at_temperature(model, temp_c)
     w = model.W if w is None else w
     l = model.L if l is None else l
     p = model.polarity
@@ -339,7 +340,9 @@ def jfet(model: JfetModel, vgs: float, vds: float, temp_c: float = NOMINAL_TEMP_
     vds ≥ vgs − VTO: id = BETA(vgs − VTO)²(1 + λ·vds); linear:
     id = BETA·vds(2(vgs − VTO) − vds)(1 + λ·vds). vds < 0 swaps drain and source as in
     :func:`mos1`. The gate junctions are diodes with IS, N, and depletion capacitances
-    CGS, CGD (potential PB, grading M, FC), no transit charge."""
+    CGS, CGD (potential PB, grading M, FC), no transit charge. The parameters are
+    taken at ``temp_c`` °C."""
+    model = at_temperature(model, temp_c)
     p = model.polarity
     vgs, vds = p * vgs, p * vds
     if vds >= 0:

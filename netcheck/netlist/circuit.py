@@ -67,8 +67,8 @@ class Circuit:
     params: tuple[tuple[str, float], ...] = ()
     #: instances of subcircuits that model one physical part each (:class:`PartModel`)
     part_models: tuple[PartModel, ...] = ()
-    #: the temperature the parts' TC1/TC2 are taken at, °C (the netlist's ``.temp``; 27
-    #: when it has none); semiconductor devices stay at the nominal 27 °C
+    #: the temperature of the check, °C (the netlist's ``.temp``; 27 when it has none):
+    #: the parts' TC1/TC2 are taken there, and the devices solved there
     temp_c: float = 27.0
     #: for a circuit whose devices were replaced by their small-signal equivalents: the
     #: DC operating point they were linearised at (a netcheck.mna.bias.OperatingPoint)

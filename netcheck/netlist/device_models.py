@@ -21,14 +21,20 @@ netcheck has no equations for (``VDMOS``, switches) with netlist-130.
 
 The defaults are those of the common SPICE convention, **from memory** (no source at
 hand): they are the values the widely used Berkeley-derived simulators document, written
-down here as remembered. Parameters are not scaled with temperature: ``TNOM`` is kept,
-and the device equations take the thermal voltage of the temperature they are given.
+down here as remembered.
+
+:func:`at_temperature` gives a model's parameters at a temperature: the saturation
+currents, junction potentials and zero-bias capacitances, the bipolar current gains, the
+MOSFET's ``KP``, ``PHI`` and ``VTO``, the JFET's ``VTO`` and ``BETA``, each scaled from
+the card's nominal temperature ``TNOM`` (27 °C unless given). The formulas and their
+source are in its docstring and in docs/devices.md.
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
+from functools import lru_cache
 from typing import TYPE_CHECKING, Callable
 
 from ..exceptions import ElaborationError
@@ -39,7 +45,10 @@ if TYPE_CHECKING:  # pragma: no cover
     from .syntax import Field
 
 __all__ = ["DiodeModel", "BjtModel", "MosModel", "JfetModel", "DeviceModel", "device_model",
-           "DEFAULT_W", "DEFAULT_L", "EPS_OX", "check_geometry"]
+           "DEFAULT_W", "DEFAULT_L", "EPS_OX", "check_geometry", "BOLTZMANN",
+           "ELEMENTARY_CHARGE", "ZERO_CELSIUS", "thermal_voltage", "silicon_gap",
+           "at_temperature", "TemperatureRangeError", "temperature_refusal",
+           "check_temperature"]
 
 INF = math.inf
 #: default MOS channel width and length, m (common SPICE convention, from memory: 100 µm)
@@ -50,6 +59,14 @@ DEFAULT_UO = 600.0
 #: permittivity of silicon dioxide, F/m: 3.9·ε0 (ε0 = 8.8541878128e-12 F/m, CODATA 2018;
 #: the relative permittivity 3.9 is common practice, no source)
 EPS_OX = 3.9 * 8.8541878128e-12
+#: Boltzmann constant, J/K, and elementary charge, C: exact in the SI since 2019
+BOLTZMANN = 1.380649e-23
+ELEMENTARY_CHARGE = 1.602176634e-19
+#: 0 °C in kelvin (exact by definition)
+ZERO_CELSIUS = 273.15
+#: the energy gap of a junction's saturation current, eV, when a card gives no EG (silicon,
+#: the convention's default, from memory), and the JFET gate junction's (no card parameter)
+DEFAULT_EG = 1.11
 
 
 @dataclass(frozen=True, slots=True)
@@ -59,7 +76,9 @@ class DiodeModel:
     node), zero-bias junction capacitance ``CJO`` (F), junction potential ``VJ`` (V),
     grading coefficient ``M``, forward-bias depletion coefficient ``FC``, transit time
     ``TT`` (s). ``BV`` (V) and ``IBV`` (A), reverse breakdown, are kept, not modelled.
-    Defaults: common SPICE convention, from memory."""
+    Temperature: ``XTI`` (saturation-current exponent), ``EG`` (energy gap, eV) and the
+    nominal temperature ``TNOM`` (°C), see :func:`at_temperature`. Defaults: common
+    SPICE convention, from memory."""
 
     IS: float = 1e-14
     N: float = 1.0
@@ -71,6 +90,8 @@ class DiodeModel:
     TT: float = 0.0
     BV: float = INF
     IBV: float = 1e-3
+    XTI: float = 3.0
+    EG: float = DEFAULT_EG
     TNOM: float = NOMINAL_C
 
 
@@ -80,8 +101,9 @@ class BjtModel:
     forward Early effect (Early 1952). ``polarity`` is +1 for NPN, −1 for PNP (and
     LPNP). ``NF``/``NR`` are honoured. ``VAF`` = ∞ stands for "no Early effect" (a card's
     0 means the same). ``RB``, ``RE``, ``RC`` (Ω) are the caller's resistors to internal
-    nodes (``RB`` constant: ``IRB``/``RBM`` are not modelled). Defaults: common SPICE
-    convention, from memory."""
+    nodes (``RB`` constant: ``IRB``/``RBM`` are not modelled). Temperature: ``XTI``,
+    ``EG`` (eV), ``XTB`` (current-gain exponent) and ``TNOM`` (°C), see
+    :func:`at_temperature`. Defaults: common SPICE convention, from memory."""
 
     polarity: int = 1
     IS: float = 1e-16
@@ -102,6 +124,9 @@ class BjtModel:
     RB: float = 0.0
     RE: float = 0.0
     RC: float = 0.0
+    XTI: float = 3.0
+    EG: float = DEFAULT_EG
+    XTB: float = 0.0
     TNOM: float = NOMINAL_C
 
 
@@ -147,7 +172,9 @@ class JfetModel:
     device of either polarity, as the convention does: from memory). ``BETA`` (A/V²),
     ``LAMBDA`` (1/V); the gate junctions are diodes with ``IS``, ``N``, zero-bias
     capacitances ``CGS``, ``CGD``, potential ``PB``, grading ``M`` and ``FC``. ``RD``,
-    ``RS`` (Ω) are the caller's. Defaults: common SPICE convention, from memory."""
+    ``RS`` (Ω) are the caller's. Temperature: ``VTOTC`` (V/°C), ``BETATCE`` (%/°C),
+    the gate junctions' ``XTI`` and ``TNOM`` (°C), see :func:`at_temperature`.
+    Defaults: common SPICE convention, from memory."""
 
     polarity: int = 1
     BETA: float = 1e-4
@@ -162,6 +189,9 @@ class JfetModel:
     FC: float = 0.5
     RD: float = 0.0
     RS: float = 0.0
+    VTOTC: float = 0.0
+    BETATCE: float = 0.0
+    XTI: float = 3.0
     TNOM: float = NOMINAL_C
 
 
@@ -180,7 +210,8 @@ _RULES: dict[str, tuple[Callable[[float], bool], str]] = {
 _D = {"is": ("IS", "pos"), "n": ("N", "pos"), "rs": ("RS", "nonneg"),
       "cjo": ("CJO", "nonneg"), "cj0": ("CJO", "nonneg"), "vj": ("VJ", "pos"),
       "m": ("M", "nonneg"), "fc": ("FC", "frac"), "tt": ("TT", "nonneg"),
-      "bv": ("BV", "pos"), "ibv": ("IBV", "pos"), "tnom": ("TNOM", "kelvin")}
+      "bv": ("BV", "pos"), "ibv": ("IBV", "pos"), "tnom": ("TNOM", "kelvin"),
+      "xti": ("XTI", "any"), "eg": ("EG", "pos")}
 _Q = {"is": ("IS", "pos"), "bf": ("BF", "pos"), "br": ("BR", "pos"), "nf": ("NF", "pos"),
       "nr": ("NR", "pos"), "vaf": ("VAF", "nonneg"), "va": ("VAF", "nonneg"),
       "cje": ("CJE", "nonneg"), "vje": ("VJE", "pos"), "pe": ("VJE", "pos"),
@@ -188,7 +219,8 @@ _Q = {"is": ("IS", "pos"), "bf": ("BF", "pos"), "br": ("BR", "pos"), "nf": ("NF"
       "vjc": ("VJC", "pos"), "pc": ("VJC", "pos"), "mjc": ("MJC", "nonneg"),
       "mc": ("MJC", "nonneg"), "fc": ("FC", "frac"), "tf": ("TF", "nonneg"),
       "tr": ("TR", "nonneg"), "rb": ("RB", "nonneg"), "re": ("RE", "nonneg"),
-      "rc": ("RC", "nonneg"), "tnom": ("TNOM", "kelvin")}
+      "rc": ("RC", "nonneg"), "tnom": ("TNOM", "kelvin"), "xti": ("XTI", "any"),
+      "eg": ("EG", "pos"), "xtb": ("XTB", "any")}
 _M = {"kp": ("KP", "pos"), "vto": ("VTO", "any"), "vt0": ("VTO", "any"),
       "lambda": ("LAMBDA", "nonneg"), "gamma": ("GAMMA", "nonneg"), "phi": ("PHI", "pos"),
       "w": ("W", "pos"), "l": ("L", "pos"), "cgso": ("CGSO", "nonneg"),
@@ -199,7 +231,8 @@ _J = {"beta": ("BETA", "pos"), "vto": ("VTO", "any"), "vt0": ("VTO", "any"),
       "lambda": ("LAMBDA", "nonneg"), "is": ("IS", "pos"), "n": ("N", "pos"),
       "cgs": ("CGS", "nonneg"), "cgd": ("CGD", "nonneg"), "pb": ("PB", "pos"),
       "m": ("M", "nonneg"), "fc": ("FC", "frac"), "rd": ("RD", "nonneg"),
-      "rs": ("RS", "nonneg"), "tnom": ("TNOM", "kelvin")}
+      "rs": ("RS", "nonneg"), "tnom": ("TNOM", "kelvin"), "vtotc": ("VTOTC", "any"),
+      "betatce": ("BETATCE", "any"), "xti": ("XTI", "any")}
 _TYPES: dict[str, tuple[type, int, dict[str, tuple[str, str]], frozenset[str]]] = {
     "D": (DiodeModel, 1, _D, frozenset({"BV", "IBV"})),
     "NPN": (BjtModel, 1, _Q, frozenset()), "PNP": (BjtModel, -1, _Q, frozenset()),
@@ -278,3 +311,163 @@ def check_geometry(w: float, l: float, span) -> None:
                                    f"{'width' if name == 'W' else 'length'} must be positive",
                                    span, code="netlist-132")
 
+
+# --------------------------------------------------------------------------- temperature
+
+class TemperatureRangeError(ValueError):
+    """A model's parameters taken to a temperature leave the range the device equations
+    need: a junction potential or surface potential at or below zero, a zero-bias
+    capacitance at or below zero, a saturation current or gain that underflows to zero
+    or overflows. The message says which parameter and its value there."""
+
+
+def temperature_refusal(device, err: TemperatureRangeError) -> str:
+    """The words of netlist-166 for ``device`` (a device element: its name and model
+    name) whose model :func:`at_temperature` refused with ``err``."""
+    return (f"{printable(device.name)}: model {printable(device.model_name)}: {err}; check "
+            "the .temp card and the model's TNOM and temperature parameters "
+            "(docs/devices.md)")
+
+
+def check_temperature(device, temp_c: float) -> None:
+    """Refuse (netlist-166, at the device's card) a device whose model cannot be taken to
+    ``temp_c`` °C."""
+    try:
+        at_temperature(device.model, temp_c)
+    except TemperatureRangeError as err:
+        raise ElaborationError(temperature_refusal(device, err), device.span,
+                               code="netlist-166") from None
+
+
+def thermal_voltage(temp_c: float = NOMINAL_C) -> float:
+    """kT/q in volts at ``temp_c`` °C (25.865 mV at 27 °C)."""
+    return BOLTZMANN * (temp_c + ZERO_CELSIUS) / ELEMENTARY_CHARGE
+
+
+def silicon_gap(kelvin: float) -> float:
+    """The energy gap of silicon in eV at ``kelvin``:
+    EG(T) = 1.16 − 7.02·10⁻⁴·T²/(T + 1108) (Varshni's form with the constants the
+    SPICE2-style device models use; P. Antognetti & G. Massobrio, *Semiconductor Device
+    Modeling with SPICE*, 2nd ed., 1993, from memory): 1.1151 eV at 300.15 K."""
+    return 1.16 - 7.02e-4 * kelvin * kelvin / (kelvin + 1108.0)
+
+
+def at_temperature(model: DeviceModel, temp_c: float) -> DeviceModel:
+    """``model`` with its parameters at ``temp_c`` °C, scaled from its ``TNOM``.
+
+    At ``temp_c`` = ``TNOM`` the model itself is returned, unchanged to the last bit.
+    Otherwise, with T and TNOM in kelvin, Vt(T) = kT/q and EG(T) of :func:`silicon_gap`
+    (P. Antognetti & G. Massobrio, *Semiconductor Device Modeling with SPICE*, 2nd ed.,
+    1993, chapters 1, 2, 4; quoted from memory):
+
+    * saturation current of a junction with emission coefficient N:
+      IS(T) = IS·(T/TNOM)^(XTI/N)·exp((T/TNOM − 1)·EG/(N·Vt(T))). The diode uses its
+      ``N``; the bipolar transistor N = 1 whatever its ``NF`` (the convention's form:
+      the transport current's IS follows ni², not the emission coefficient); the JFET's
+      gate junctions their ``N`` with EG = 1.11 eV (no card parameter);
+    * junction potential VJ(T) = VJ·T/TNOM − 3·Vt(T)·ln(T/TNOM) − EG(TNOM)·T/TNOM + EG(T)
+      (the silicon gap of :func:`silicon_gap`, not the card's ``EG``), for the diode's
+      ``VJ``, the bipolar ``VJE``, ``VJC`` and the JFET's ``PB``;
+    * zero-bias depletion capacitance
+      CJO(T) = CJO·(1 + M·(4·10⁻⁴·(T − TNOM) − (VJ(T) − VJ)/VJ)) with the junction's
+      grading coefficient M (``CJO``; ``CJE``, ``CJC``; ``CGS``, ``CGD``);
+    * bipolar current gains BF(T) = BF·(T/TNOM)^XTB, BR(T) = BR·(T/TNOM)^XTB;
+    * MOSFET level 1: KP(T) = KP·(T/TNOM)^−1.5 (the mobility's T^−1.5); the surface
+      potential PHI(T) by the junction-potential law above (it is twice the Fermi
+      potential); the threshold through the built-in voltage,
+      VBI = VTO − p·GAMMA·√PHI + (EG(TNOM) − EG(T))/2 + p·(PHI(T) − PHI)/2,
+      VTO(T) = VBI + p·GAMMA·√PHI(T), p = +1 NMOS, −1 PMOS (VTO as written on the card);
+    * JFET: VTO(T) = VTO + VTOTC·(T − TNOM), BETA(T) = BETA·1.01^(BETATCE·(T − TNOM))
+      (the two coefficients of the vendors' JFET cards, V/°C and %/°C; 0 leaves VTO
+      and BETA unchanged).
+
+    Series resistances, transit times, ``VAF``, ``LAMBDA``, ``GAMMA``, ``M``, ``FC``
+    and the overlap capacitances do not change. Raises :class:`TemperatureRangeError`
+    when a scaled parameter leaves its range (a junction potential at or below zero
+    where its capacitance is not zero, a surface potential at or below zero...).
+    """
+    if temp_c == model.TNOM:
+        return model
+    return _scaled_to(model, float(temp_c))
+
+
+@lru_cache(maxsize=1024)
+def _scaled_to(model: DeviceModel, temp_c: float) -> DeviceModel:
+    t, t0 = temp_c + ZERO_CELSIUS, model.TNOM + ZERO_CELSIUS
+    scale = _Scale(t, t0, temp_c, model.TNOM)
+    try:
+        if isinstance(model, DiodeModel):
+            vj = scale.potential("VJ", model.VJ, model.CJO)
+            return replace(model, IS=scale.saturation("IS", model.IS, model.N, model.XTI,
+                                                      model.EG),
+                           VJ=vj, CJO=scale.capacitance("CJO", model.CJO, model.M, model.VJ, vj))
+        if isinstance(model, BjtModel):
+            vje = scale.potential("VJE", model.VJE, model.CJE)
+            vjc = scale.potential("VJC", model.VJC, model.CJC)
+            gain = scale.positive("the current gains' factor (T/TNOM)^XTB",
+                                  (t / t0) ** model.XTB)
+            return replace(model, IS=scale.saturation("IS", model.IS, 1.0, model.XTI, model.EG),
+                           BF=model.BF * gain, BR=model.BR * gain,
+                           VJE=vje, CJE=scale.capacitance("CJE", model.CJE, model.MJE,
+                                                          model.VJE, vje),
+                           VJC=vjc, CJC=scale.capacitance("CJC", model.CJC, model.MJC,
+                                                          model.VJC, vjc))
+        if isinstance(model, MosModel):
+            p = model.polarity
+            phi = scale.potential("PHI", model.PHI, 1.0)
+            vbi = (model.VTO - p * model.GAMMA * math.sqrt(model.PHI)
+                   + 0.5 * (silicon_gap(t0) - silicon_gap(t)) + p * 0.5 * (phi - model.PHI))
+            return replace(model, KP=model.KP * (t / t0) ** -1.5, PHI=phi,
+                           VTO=vbi + p * model.GAMMA * math.sqrt(phi))
+        assert isinstance(model, JfetModel)
+        dt = t - t0
+        pb = scale.potential("PB", model.PB, model.CGS + model.CGD)
+        return replace(model, VTO=model.VTO + model.VTOTC * dt,
+                       BETA=model.BETA * scale.positive("the factor 1.01^(BETATCE·ΔT)",
+                                                        1.01 ** (model.BETATCE * dt)),
+                       IS=scale.saturation("IS", model.IS, model.N, model.XTI, DEFAULT_EG),
+                       PB=pb, CGS=scale.capacitance("CGS", model.CGS, model.M, model.PB, pb),
+                       CGD=scale.capacitance("CGD", model.CGD, model.M, model.PB, pb))
+    except OverflowError:
+        raise TemperatureRangeError(f"at {temp_c:g} °C a parameter scaled from TNOM "
+                                    f"{model.TNOM:g} °C overflows") from None
+
+
+class _Scale:
+    """The temperature laws of :func:`at_temperature` from TNOM (``t0``, K) to ``t`` (K),
+    each result checked."""
+
+    def __init__(self, t: float, t0: float, temp_c: float, tnom_c: float) -> None:
+        self.t, self.t0, self.ratio = t, t0, t / t0
+        self.vt = BOLTZMANN * t / ELEMENTARY_CHARGE
+        self.where = f"at {temp_c:g} °C (TNOM {tnom_c:g} °C)"
+
+    def positive(self, name: str, value: float, unit: str = "") -> float:
+        if not (math.isfinite(value) and value > 0):
+            raise TemperatureRangeError(f"{self.where} {name} becomes {value:.4g}{unit}: "
+                                        "the temperature laws leave their range there")
+        return value
+
+    def saturation(self, name: str, is_: float, n: float, xti: float, eg: float) -> float:
+        """IS·(T/TNOM)^(XTI/N)·exp((T/TNOM − 1)·EG/(N·Vt(T)))"""
+        r = self.ratio
+        return self.positive(f"the saturation current {name}",
+                             is_ * r ** (xti / n) * math.exp((r - 1.0) * eg / (n * self.vt)),
+                             " A")
+
+    def potential(self, name: str, vj: float, cap: float) -> float:
+        """VJ·T/TNOM − 3·Vt(T)·ln(T/TNOM) − EG(TNOM)·T/TNOM + EG(T); refused at or below
+        zero only where a capacitance (``cap``) uses it."""
+        r = self.ratio
+        got = vj * r - 3.0 * self.vt * math.log(r) - silicon_gap(self.t0) * r + silicon_gap(self.t)
+        if cap > 0:
+            self.positive(f"the potential {name} (from {vj:g} V)", got, " V")
+        return got
+
+    def capacitance(self, name: str, cj0: float, m: float, vj: float, vj_t: float) -> float:
+        """CJO·(1 + M·(4·10⁻⁴·(T − TNOM) − (VJ(T) − VJ)/VJ))"""
+        if cj0 == 0:
+            return cj0
+        return self.positive(f"the zero-bias capacitance {name} (from {cj0:g} F)",
+                             cj0 * (1.0 + m * (4e-4 * (self.t - self.t0) - (vj_t - vj) / vj)),
+                             " F")

@@ -248,8 +248,8 @@ class _Pass:
         return self.out
 
     def temp_card(self, args: list[_Tok], span: Span) -> None:
-        """``.temp T [T2 ...]`` (or ``.temp = T``): the first temperature of the first
-        card is the one the parts' TC1/TC2 are taken at; the rest is said in a note."""
+        """``.temp T [T2 ...]`` (or ``.temp = T``): the first card's first temperature is
+        the parts' (TC1/TC2) and the devices'; the rest is said in a note."""
         if args[0].text == "=":
             args = args[1:]
             if not args:
@@ -272,9 +272,8 @@ class _Pass:
         more = (f" (the other temperatures on the card, {', '.join(t.text for t in args[1:])}"
                 ", are for a stepped run: ignored)") if len(args) > 1 else ""
         self.note("temp", span, f".temp {value:g} read: parts with TC1/TC2 take their values "
-                  f"at {value:g} °C; semiconductor devices stay at the nominal 27 °C "
-                  f"(netcheck does not scale device parameters with temperature){more}",
-                  code="netlist-165")
+                  f"at {value:g} °C, and semiconductor devices are solved there (their "
+                  f"model parameters scaled from TNOM){more}", code="netlist-165")
 
     def finish(self) -> None:
         self.out.text = "\n".join(self.lines)

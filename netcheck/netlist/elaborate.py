@@ -13,6 +13,7 @@ from typing import Callable, Collection
 
 from ..exceptions import CODES, Diagnostic, ElaborationError
 from .circuit import GROUND, Circuit, PartModel
+from .device_models import check_temperature
 from .elements import ELEMENTS, Element, Inductor, VoltageSource
 from .elements.devices import DEVICE_NOTE_CODE, Device, with_series_resistors
 from .models import NOMINAL_C, ModelCard, read_model
@@ -119,6 +120,9 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
         elements = tuple(dataclasses.replace(e, magnitude=e.value_at(temp_c))
                          if getattr(e, "tc1", 0.0) or getattr(e, "tc2", 0.0) else e
                          for e in elements)
+        for e in elements:  # each device's model at it (netlist-166 out of range)
+            if isinstance(e, Device):
+                check_temperature(e, temp_c)
     return Circuit(netlist.title, elements, nodes, netlist.sources,
                    summarise_diagnostics(flat.diags), params, tuple(flat.found), temp_c)
 

@@ -123,8 +123,8 @@ class TestNames:
         assert read(".model M1 NMOS(TOX=20n)")[0].COX == pytest.approx(cox, rel=1e-14)
 
     def test_names_not_modelled_are_listed_as_written(self):
-        model, ignored = read(".model Q1 NPN(BF=90 IKF=10m Xtb=1.5 KF=1e-16 CJS=1p)")
-        assert ignored == ("IKF", "Xtb", "KF", "CJS") and model.BF == 90.0
+        model, ignored = read(".model Q1 NPN(BF=90 IKF=10m Ise=1f KF=1e-16 CJS=1p)")
+        assert ignored == ("IKF", "Ise", "KF", "CJS") and model.BF == 90.0
         # breakdown is kept (checked, stored) but not modelled: listed too
         model, ignored = read(".model DZ D(IS=1n BV=5.1 IBV=5m)")
         assert (model.BV, model.IBV, ignored) == (5.1, 5e-3, ("BV", "IBV"))
