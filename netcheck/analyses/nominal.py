@@ -160,6 +160,17 @@ class SpecProbe:
             self._ext[key] = band_extremes(curve, "gain_db", lo_hz, hi_hz)
         return self._ext[key]
 
+    def noise(self, temp_c: float | None = None) -> object:
+        """The noise curves at ``temp_c`` °C (default: the circuit's temperature), made
+        once per temperature (:class:`netcheck.analyses.noise_probe.NoiseCurves`)."""
+        from .noise_probe import NoiseCurves
+
+        t = self.curve.response.system.circuit.temp_c if temp_c is None else temp_c
+        key = ("noise", t)
+        if key not in self._ext:
+            self._ext[key] = NoiseCurves(self.curve.response, self.curve, t)
+        return self._ext[key]
+
     def peak(self) -> Extremum:
         if self._peak is None:
             self._peak = peak(self.curve)
@@ -276,6 +287,9 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         if issubclass(w.category, NetcheckWarning):
             cautions.append(Caution("analysis-302", str(w.message), "warning"))
     extra: list[tuple[str, object]] = []
+    if any(lim.kind == "noise" for lim in spec.limits):  # the ranked sources of noise
+        from .noise_probe import noise_block
+        extra.append(("noise", noise_block(spec.limits, limits, probe)))
     op = system.circuit.operating_point
     if op is not None:  # a circuit with devices: checked around this operating point
         extra.append(("operating_point", operating_point_block(op)))

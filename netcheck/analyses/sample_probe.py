@@ -67,6 +67,11 @@ class BatchProbe:
         self._h: np.ndarray | None = None
         self._cache: dict = {}
 
+    def each_sample(self) -> Any:
+        """Each sample as a circuit of its own (:func:`.noise_probe.each_sample`)."""
+        from .noise_probe import each_sample
+        return each_sample(self)
+
     @property
     def h(self) -> np.ndarray:
         """Complex H on the grid, shape (S, F); built on first use (phase limits)."""

@@ -31,6 +31,7 @@ from ..netlist.elaborate import Circuit
 from ..netlist.ports import PORT_ELEMENTS
 from ..exceptions import SpecError
 from ..result import LimitResult, Status
+from .part_values import with_values
 from .sample_probe import BatchProbe
 from ..mna.sampling import SampleSet
 from ..spec.load import Spec
@@ -374,24 +375,6 @@ def _region_counts(system: System, regions: dict[str, list], values: dict[str, n
 def _f(v: float) -> float | None:
     v = float(v)
     return v if math.isfinite(v) else None
-
-
-def with_values(circuit: Circuit, values: dict[str, float]) -> Circuit:
-    """A copy of ``circuit`` with the main value of the named elements replaced (a
-    linearised circuit: its devices linearised again at the new operating point)."""
-    if circuit.large_signal is not None:
-        from ..mna.bias import linearised
-
-        return linearised(with_values(circuit.large_signal, values),
-                          circuit.operating_point.temp_c)[0]
-    fields = ("magnitude", "gain", "k", "ac_magnitude")
-    out = []
-    for e in circuit.elements:
-        if e.name in values:
-            name = next(f for f in fields if hasattr(e, f))
-            e = dataclasses.replace(e, **{name: float(values[e.name])})
-        out.append(e)
-    return dataclasses.replace(circuit, elements=tuple(out), _index=None)
 
 
 def _full_solutions(system: System, values: dict[str, np.ndarray], rows: np.ndarray,

@@ -108,39 +108,80 @@ def noise_sources(system: System, temp_c: float = 27.0) -> list[NoiseSource]:
 @dataclass(frozen=True, slots=True, eq=False)
 class NoiseDensity:
     """Output noise at frequencies ``frequency_hz``: the total density ``total`` (V²/Hz
-    for a voltage output) and each source's part ``parts`` (sources × frequencies)."""
+    for a voltage output) and each source's part ``parts`` (sources × frequencies), and
+    with ``derivative``, d/df of both (per Hz)."""
 
     frequency_hz: np.ndarray
     total: np.ndarray
     parts: np.ndarray
     sources: tuple[NoiseSource, ...]
+    d_total: np.ndarray | None = None
+    d_parts: np.ndarray | None = None
 
 
-def _adjoint(system: System, f: np.ndarray) -> np.ndarray:
-    """w = A(j2πf)⁻ᵀ l for each frequency (F × n)."""
-    if system.size <= DENSE_MAX:
-        return DenseEngine(system)._solve(f, np.asarray(system.l, complex), transpose=True)
-    out = np.empty((f.size, system.size), dtype=complex)
+def _engine(system: System) -> DenseEngine | None:
+    """The dense engine of ``system`` (kept on it), None when it takes sparse solves."""
+    if system.size > DENSE_MAX:
+        return None
+    cache = _ENGINES.get(id(system))
+    if cache is None or cache[0] is not system:
+        cache = _ENGINES[id(system)] = (system, DenseEngine(system))
+        while len(_ENGINES) > 8:
+            _ENGINES.pop(next(iter(_ENGINES)))
+    return cache[1]
+
+
+#: the dense engines of the last few systems asked about (an engine equilibrates per
+#: frequency band once, which every noise evaluation of a band reuses)
+_ENGINES: dict[int, tuple[System, DenseEngine]] = {}
+
+
+def _adjoint(system: System, f: np.ndarray, derivative: bool = False
+             ) -> tuple[np.ndarray, np.ndarray | None]:
+    """w = A(j2πf)⁻ᵀ l for each frequency (F × n), and with ``derivative`` dw/df =
+    −A⁻ᵀ (j2π Cᵀ) w (from Aᵀw = l: Aᵀ dw/df = −(dA/df)ᵀ w)."""
+    l = np.asarray(system.l, complex)
+    engine = _engine(system)
+    if engine is not None:
+        w = engine._solve(f, l, transpose=True)
+        if not derivative:
+            return w, None
+        ct = system.C.T.tocsr()
+        rhs = -(1j * _TWO_PI) * (ct @ w.T).T  # one right-hand side per frequency
+        return w, engine._solve(f, rhs, transpose=True)
+    w = np.empty((f.size, system.size), dtype=complex)
+    dw = np.empty_like(w) if derivative else None
     for i, fi in enumerate(f):
-        out[i] = spla.splu(system.matrix(float(fi)).tocsc()).solve(
-            np.asarray(system.l, complex), trans="T")
-    return out
+        lu = spla.splu(system.matrix(float(fi)).tocsc())
+        w[i] = lu.solve(l, trans="T")
+        if dw is not None:
+            dw[i] = lu.solve(-(1j * _TWO_PI) * (system.C.T @ w[i]), trans="T")
+    return w, dw
 
 
 def output_noise(system: System, f_hz: np.ndarray, temp_c: float = 27.0,
-                 sources: list[NoiseSource] | None = None) -> NoiseDensity:
-    """The output noise density of ``system`` at ``f_hz`` and every source's share."""
+                 sources: list[NoiseSource] | None = None, derivative: bool = False
+                 ) -> NoiseDensity:
+    """The output noise density of ``system`` at ``f_hz`` and every source's share (and
+    their derivatives in f with ``derivative``)."""
     f = np.atleast_1d(np.asarray(f_hz, float))
     srcs = noise_sources(system, temp_c) if sources is None else sources
-    w = _adjoint(system, f)
+    w, dw = _adjoint(system, f, derivative)
     parts = np.empty((len(srcs), f.size))
+    d_parts = np.empty_like(parts) if derivative else None
     s = 1j * _TWO_PI * f
     for k, src in enumerate(srcs):
         t = w @ src.u0
         if src.us is not None:
             t = t + s * (w @ src.us)
         parts[k] = src.density * np.abs(t) ** 2
-    return NoiseDensity(f, parts.sum(axis=0), parts, tuple(srcs))
+        if dw is not None and d_parts is not None:
+            dt = dw @ src.u0
+            if src.us is not None:
+                dt = dt + 1j * _TWO_PI * (w @ src.us) + s * (dw @ src.us)
+            d_parts[k] = src.density * 2.0 * (np.conj(t) * dt).real
+    return NoiseDensity(f, parts.sum(axis=0), parts, tuple(srcs),
+                        None if d_parts is None else d_parts.sum(axis=0), d_parts)
 
 
 def integrated_noise(system: System, lo_hz: float, hi_hz: float, temp_c: float = 27.0,

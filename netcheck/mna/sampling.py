@@ -73,6 +73,9 @@ class SampleSet:
                  grid: np.ndarray, memory_bytes: int = 2**30) -> None:
         refuse_delays(system, "sampled part values (Monte Carlo, worst case)")
         self.system, self.S, self.grid = system, samples, np.asarray(grid, float)
+        #: the sampled part values (name → (S,)), for measurements that solve a sample
+        #: as a circuit of its own
+        self.values = values
         self.n = system.size
         self.b = np.asarray(system.b, float)
         self.l = np.asarray(system.l, float)

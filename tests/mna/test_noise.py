@@ -97,3 +97,13 @@ def test_the_sources_follow_the_temperature_and_skip_wires():
     assert [s.element for s in noise_sources(sys_)] == ["R1", "R2"]
     hot = output_noise(sys_, F, temp_c=85.0).total
     np.testing.assert_allclose(hot, 4 * K_B * (85 + 273.15) * 500.0, rtol=1e-12)
+
+
+def test_the_density_derivative_against_the_closed_form():
+    # d/df of 4kTR/(1 + (2πfRC)²) = −4kTR·2x·(2πRC)/(1 + x²)², x = 2πfRC (by hand)
+    r, c = 10e3, 1e-9
+    got = output_noise(system(f"Quillmere QM-N7 RC\nV1 in 0 AC 1\nR1 in out {r}\n"
+                              f"C1 out 0 {c}\n"), F, derivative=True)
+    x = 2 * np.pi * F * r * c
+    want = -4 * K_B * T * r * 2 * x * (2 * np.pi * r * c) / (1 + x * x) ** 2
+    np.testing.assert_allclose(got.d_total, want, rtol=1e-9)

@@ -35,6 +35,7 @@ MINIMAL_TOML = {
     "impedance": 'kind = "impedance"\nband = ["100", "1k"]\nrange = ["1k", "2k"]',
     "notch": 'kind = "notch"\ndepth_db = { min = 40 }',
     "port": 'kind = "port"\nquantity = "transducer_gain"\nband = ["100", "1k"]\nmin = -1',
+    "noise": 'kind = "noise"\nquantity = "rms"\nband = ["100", "1k"]\nmax = "1u"',
 }
 
 
@@ -48,7 +49,7 @@ def test_table_lists_the_kinds_in_their_order():
     # the order is the order of the worst case and of every listing of kinds
     assert list(KINDS) == ["gain", "ripple", "resonance", "corner", "bandwidth",
                            "shape_factor", "group_delay", "phase", "impedance", "notch",
-                           "port"]
+                           "port", "noise"]
     assert list(LIMITS) == list(KINDS) and len(LIMITS) == len(KINDS)
     assert set(MINIMAL_TOML) == set(KINDS)
 

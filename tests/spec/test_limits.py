@@ -124,10 +124,15 @@ FULL_TABLES = {
               "level_db": 3, "width": ["100", "2k"], "q": {"nominal": 1, "tolerance": "10%"}},
     "port": {"kind": "port", "name": "p", "quantity": "return_loss", "port": "input",
              "band": ["100", "1k"], "min": 10, "max": 40},
+    "noise": {"kind": "noise", "name": "nz", "quantity": "noise_figure", "band": ["100", "1k"],
+              "min": 0, "max": 3, "temperature_c": 25, "source_resistor": "R1",
+              "load_resistor": "R2"},
 }
 #: keys that exclude those of the full table (another form of the same kind): one more
 #: table each, so that every key is used by some table of its kind
 MORE_TABLES = {
+    "noise": [{"kind": "noise", "name": "nz", "quantity": "snr", "band": ["100", "1k"],
+               "min": 60, "signal_rms": 1, "signal_hz": "500"}],
     "gain": [{"kind": "gain", "name": "g", "at": "1k", "max_db": 1, "reference": "mean",
               "reference_band": ["100", "200"]},
              {"kind": "gain", "name": "g", "at_multiple": 2, "anchor": "corner",

@@ -388,8 +388,10 @@ class TestSpecFormatDoc:
         specs = [parse_spec(b, "specs/example.toml") for b in blocks if "netlist" in b]
         assert len(specs) == 4
         # the full example holds every kind its band-pass can carry; a band-pass has no
-        # notch and no ports, which have their own full examples (tested below)
-        assert {type(lim).kind for lim in specs[-1].limits} == set(LIMITS) - {"notch", "port"}
+        # notch and no ports, which have their own full examples (tested below), and its
+        # noise has a section of its own (its snippet is parsed below)
+        assert {type(lim).kind for lim in specs[-1].limits} == \
+            set(LIMITS) - {"notch", "port", "noise"}
         # the worked examples of single limits read as limits of a spec over their sweep
         snippets = [b for b in blocks if "netlist" not in b and "[[limits]]" in b]
         assert len(snippets) >= 7

@@ -31,6 +31,7 @@ KINDS: dict[str, str] = {
     "impedance": "impedance:ImpedanceLimit",
     "notch": "notch:NotchLimit",
     "port": "port:PortLimit",
+    "noise": "noise:NoiseLimit",
 }
 
 _loaded: dict[str, type[Limit]] = {}
