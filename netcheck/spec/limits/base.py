@@ -25,7 +25,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 __all__ = ["Limit", "Probe", "judge_range", "range_margin", "Linearised", "linearised_range",
            "Rows", "band_text", "gain_floor_db", "rounding_floor_db", "at_floor",
-           "RELATIVE_FLOOR_DB"]
+           "RELATIVE_FLOOR_DB", "quantity_and_bounds"]
 
 
 class Probe(Protocol):
@@ -200,6 +200,21 @@ def linearised_range(name: str, lo: float | None, hi: float | None, vmin: float,
     if hi is None:
         return Linearised(name, vmin, d_min, vmin, d_min)
     return Linearised(name, vmin, d_min, vmax, d_max)
+
+
+def quantity_and_bounds(rd: SpecReader, quantities: tuple[str, ...], what: str
+                        ) -> tuple[str, float | None, float | None]:
+    """The ``quantity`` key (required, one of ``quantities``) and the ``min``/``max`` pair
+    (at least one, min ≤ max) of a kind that judges one of several quantities."""
+    if not rd.has("quantity"):
+        rd.fail("quantity", f"missing (required): one of {', '.join(quantities)}")
+    quantity = rd.choice("quantity", quantities, "")
+    lo, hi = rd.number("min"), rd.number("max")
+    if lo is None and hi is None:
+        rd.fail("", f"a {what} limit needs min, max or both")
+    if lo is not None and hi is not None and lo > hi:
+        rd.fail("min", f"min {lo:g} is above max {hi:g}")
+    return quantity, lo, hi
 
 
 class Linearised(NamedTuple):

@@ -11,7 +11,8 @@ from typing import TYPE_CHECKING, Any, ClassVar
 
 import numpy as np
 
-from .base import Limit, Probe, Rows, band_text, judge_range, range_margin
+from .base import (Limit, Probe, Rows, band_text, judge_range, quantity_and_bounds,
+                   range_margin)
 from ..reader import SpecReader, Sweep
 from ...measure.measurements import Extremum, MeasurementFailure, band_extremes
 from ...result import LimitResult
@@ -66,15 +67,8 @@ class NoiseLimit(Limit):
     @classmethod
     def from_table(cls, rd: SpecReader, sweep: Sweep, name: str | None, index: int,
                    line: int | None) -> NoiseLimit:
-        if not rd.has("quantity"):
-            rd.fail("quantity", f"missing (required): one of {', '.join(_QUANTITIES)}")
-        quantity = rd.choice("quantity", tuple(_QUANTITIES), "")
+        quantity, lo, hi = quantity_and_bounds(rd, tuple(_QUANTITIES), "noise")
         band = rd.band("band", sweep)
-        lo, hi = rd.number("min"), rd.number("max")
-        if lo is None and hi is None:
-            rd.fail("", "a noise limit needs min, max or both")
-        if lo is not None and hi is not None and lo > hi:
-            rd.fail("min", f"min {lo:g} is above max {hi:g}")
         temp = rd.number("temperature_c")
         if temp is not None and temp <= -273.15:
             rd.fail("temperature_c", f"{temp:g} °C is at or below absolute zero")

@@ -12,7 +12,7 @@ from typing import TYPE_CHECKING, Any, ClassVar
 import numpy as np
 
 from .base import (Limit, Linearised, Probe, Rows, band_text, judge_range,
-                   linearised_range, range_margin)
+                   linearised_range, quantity_and_bounds, range_margin)
 from ..reader import SpecReader, Sweep
 from ...measure.measurements import Extremum, MeasurementFailure
 from ...result import LimitResult
@@ -84,20 +84,13 @@ class PortLimit(Limit):
     @classmethod
     def from_table(cls, rd: SpecReader, sweep: Sweep, name: str | None, index: int,
                    line: int | None) -> PortLimit:
-        if not rd.has("quantity"):
-            rd.fail("quantity", f"missing (required): one of {', '.join(QUANTITIES)}")
-        quantity = rd.choice("quantity", tuple(QUANTITIES), "")
+        quantity, lo, hi = quantity_and_bounds(rd, tuple(QUANTITIES), "port")
         port = rd.choice("port", ("input", "output"), "input") if rd.has("port") else None
         if quantity in AT_A_PORT and port is None:
             rd.fail("port", f"missing (required for {quantity}): 'input' or 'output'")
         if quantity not in AT_A_PORT and port is not None:
             rd.fail("port", f"{quantity} belongs to the two-port, not to one port: drop port")
         band = rd.band("band", sweep)
-        lo, hi = rd.number("min"), rd.number("max")
-        if lo is None and hi is None:
-            rd.fail("", "a port limit needs min, max or both")
-        if lo is not None and hi is not None and lo > hi:
-            rd.fail("min", f"min {lo:g} is above max {hi:g}")
         words = QUANTITIES[quantity][1]
         at = f" at the {port} port" if port else ""
         return cls(name or f"{words}{at} {band_text(band)}", index, line, band, quantity,
