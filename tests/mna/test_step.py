@@ -1,0 +1,99 @@
+"""Step responses (netcheck.mna.step) against outside references: the second-order
+low-pass's overshoot exp(−πζ/√(1 − ζ²)) at its peak time π/ω_d (Ogata, *Modern Control
+Engineering*, from memory); scipy.signal.step on scipy.signal.butter designs; the area
+between a step response and its final value, ∫(H(0) − y)dt = −H′(0), which for a Bessel
+filter normalised for delay (scipy.signal.bessel, norm='delay') is its group delay at DC
+over H(0); a repeated real pole's 1 − e^{−t/τ}(1 + t/τ) (by hand, Laplace tables).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from scipy import integrate, signal
+
+from netcheck.api import read_netlist
+from netcheck.mna.assemble import assemble
+from netcheck.mna.solve import solve
+from netcheck.mna.step import step_response
+
+
+def response_of(text: str, source: str = "V1", node: str = "out"):
+    system = assemble(read_netlist(text), source, node)
+    return solve(system, np.logspace(0, 7, 50))
+
+
+@pytest.mark.parametrize("zeta", [0.1, 0.3, 0.7])
+def test_second_order_overshoot_at_the_peak_time(zeta):
+    l, c = 10e-3, 100e-9
+    w0 = 1 / math.sqrt(l * c)
+    r = 2 * zeta * math.sqrt(l / c)
+    resp = response_of(f"Quillmere QM-S1 RLC\nV1 in 0 AC 1\nR1 in a {r}\nL1 a out {l}\n"
+                       f"C1 out 0 {c}\n")
+    wd = w0 * math.sqrt(1 - zeta * zeta)
+    got = step_response(resp, np.array([math.pi / wd, 50 / (zeta * w0)]))
+    assert got.method == "pole-zero residues"
+    assert got.y[0] - 1 == pytest.approx(math.exp(-math.pi * zeta / math.sqrt(1 - zeta ** 2)),
+                                         rel=1e-9)
+    assert got.final == pytest.approx(1.0, rel=1e-12)
+    assert got.y[1] == pytest.approx(1.0, abs=1e-12)  # settled after 50 time constants
+
+
+def test_butterworth_against_scipy_step():
+    b, a = signal.butter(4, 2 * math.pi * 1e3, analog=True)
+    num = " + ".join(f"{float(x)!r}*s^{len(b) - 1 - k}" for k, x in enumerate(b) if x)
+    den = " + ".join(f"{float(x)!r}*s^{len(a) - 1 - k}" for k, x in enumerate(a))
+    resp = response_of(f"Quillmere QM-S2 Butterworth\nV1 in 0 AC 1\nR1 in 0 1k\n"
+                       f"E1 out 0 in 0 LAPLACE={{({num})/({den})}}\nRL out 0 1k\n")
+    t = np.linspace(0.0, 3e-3, 61)  # scipy's times start at 0 (its initial state)
+    _, want = signal.step((b, a), T=t)
+    t, want = t[1:], want[1:]
+    got = step_response(resp, t)
+    assert got.method == "pole-zero residues"
+    np.testing.assert_allclose(got.y, want, atol=1e-9)
+
+
+def test_bessel_area_is_its_group_delay():
+    b, a = signal.bessel(4, 2 * math.pi * 1e3, analog=True, norm="delay")
+    num = " + ".join(f"{float(x)!r}*s^{len(b) - 1 - k}" for k, x in enumerate(b) if x)
+    den = " + ".join(f"{float(x)!r}*s^{len(a) - 1 - k}" for k, x in enumerate(a))
+    resp = response_of(f"Quillmere QM-S3 Bessel\nV1 in 0 AC 1\nR1 in 0 1k\n"
+                       f"E1 out 0 in 0 LAPLACE={{({num})/({den})}}\nRL out 0 1k\n")
+    tau = 1 / (2 * math.pi * 1e3)  # norm='delay': the group delay at DC is 1/ω0
+
+    def short(t: float) -> float:
+        return 1.0 - float(step_response(resp, np.array([t])).y[0])
+
+    area, _ = integrate.quad(short, 1e-12, 40 * tau, epsabs=1e-16, limit=200)
+    assert area == pytest.approx(tau, rel=1e-7)
+
+
+def test_repeated_poles_take_the_state_space_form():
+    # two identical RC sections with a buffer between: a double pole at −1/RC, where the
+    # simple-pole residues do not apply; 1 − e^{−x}(1 + x), x = t/RC (Laplace tables)
+    r, c = 1e3, 1e-6
+    resp = response_of(f"Quillmere QM-S4 two RC\nV1 in 0 AC 1\nR1 in a {r}\nC1 a 0 {c}\n"
+                       f"E1 b 0 a 0 1\nR2 b out {r}\nC2 out 0 {c}\n")
+    t = np.array([0.2e-3, 1e-3, 3e-3, 10e-3])
+    got = step_response(resp, t)
+    x = t / (r * c)
+    assert got.method == "pole-zero form, state space"
+    np.testing.assert_allclose(got.y, 1 - np.exp(-x) * (1 + x), atol=1e-8)
+
+
+def test_a_ringing_double_pole_against_scipy_on_the_squared_section():
+    # two identical lightly damped RLC sections (ζ = 0.05) with a buffer between: a double
+    # complex pole pair; against scipy.signal.step on H(s)² built from the polynomials
+    l, c, zeta = 10e-3, 100e-9, 0.05
+    r = 2 * zeta * math.sqrt(l / c)
+    resp = response_of(f"Quillmere QM-S5 two RLC\nV1 in 0 AC 1\nR1 in a {r}\nL1 a b {l}\n"
+                       f"C1 b 0 {c}\nE1 d 0 b 0 1\nR2 d e {r}\nL2 e out {l}\nC2 out 0 {c}\n")
+    h = ([1.0], [l * c, r * c, 1.0])
+    b, a = np.polymul(h[0], h[0]), np.polymul(h[1], h[1])
+    t = np.linspace(0.0, 20e-3, 401)
+    _, want = signal.step((b, a), T=t)
+    got = step_response(resp, t[1:])
+    assert got.method == "pole-zero form, state space"
+    np.testing.assert_allclose(got.y, want[1:], atol=1e-8)
