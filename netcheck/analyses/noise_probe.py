@@ -136,8 +136,8 @@ def noise_block(limits: Any, results: Any, probe: Any) -> list[dict[str, Any]]:
 
 
 class SampleProbe:
-    """What a noise limit measures on, for one sample solved as a circuit of its own:
-    its response as a curve, the spec's ports, and its noise curves."""
+    """What a noise or step limit measures on, for one sample solved as a circuit of its
+    own: its response as a curve, the spec's ports, its noise curves and step figures."""
 
     def __init__(self, response: Any, ports: Any = None) -> None:
         f = response.frequency_hz
@@ -148,6 +148,13 @@ class SampleProbe:
                                    lambda x: response.at(x)[1], seeds, poles, zeros, False)
         self.response, self.ports = response, ports
         self._noise: dict[float | None, NoiseCurves] = {}
+        self._steps: dict[float | None, Any] = {}
+
+    def step_figures(self, duration: float | None = None) -> Any:
+        from .step_probe import StepFigures
+        if duration not in self._steps:
+            self._steps[duration] = StepFigures(self.response, duration)
+        return self._steps[duration]
 
     def noise(self, temp_c: float | None = None) -> NoiseCurves:
         t = self.response.system.circuit.temp_c if temp_c is None else temp_c

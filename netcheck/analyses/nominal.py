@@ -171,6 +171,16 @@ class SpecProbe:
             self._ext[key] = NoiseCurves(self.curve.response, self.curve, t)
         return self._ext[key]
 
+    def step_figures(self, duration: float | None = None) -> object:
+        """The step response's figures (:class:`netcheck.analyses.step_probe.StepFigures`),
+        made once per duration."""
+        from .step_probe import StepFigures
+
+        key = ("step", duration)
+        if key not in self._ext:
+            self._ext[key] = StepFigures(self.curve.response, duration)
+        return self._ext[key]
+
     def peak(self) -> Extremum:
         if self._peak is None:
             self._peak = peak(self.curve)

@@ -42,7 +42,7 @@ from scipy import signal
 
 from .assemble import System
 
-__all__ = ["StepResponse", "step_response", "talbot_step", "transfer_at"]
+__all__ = ["StepModel", "StepResponse", "step_response", "talbot_step", "transfer_at"]
 
 #: Talbot nodes: about 0.6·M significant digits in exact arithmetic, ~1e-10 in doubles
 TALBOT_NODES = 32
@@ -104,53 +104,77 @@ def _residues(k: complex, poles: np.ndarray, zeros: np.ndarray) -> np.ndarray:
                      for j, p in enumerate(poles)])
 
 
-def step_response(response: object, t: np.ndarray) -> StepResponse:
-    """The unit-step response of ``response``'s output at times ``t`` (s, > 0)."""
-    system = response.system  # type: ignore[attr-defined]
-    t = np.atleast_1d(np.asarray(t, float))
-    poles_hz, zeros_hz, complete = response.roots_hz()  # type: ignore[attr-defined]
-    p, z = 2 * math.pi * np.asarray(poles_hz), 2 * math.pi * np.asarray(zeros_hz)
-    rational = (system.delays is None and complete and z.size <= p.size and p.size > 0
-                and bool(np.all(p.real < 0)))
-    if rational:
-        k = _gain(system, p, z)
-        final = float((k * np.prod(-z) / np.prod(-p)).real)
+class StepModel:
+    """The unit-step response of a solved response's output as a function of time:
+    ``y(t)``, the final value ``final`` = H(0), the ``method``, and ``settles_by``, a time
+    by which every pole has decayed to e^−12 (None without a rational form)."""
+
+    def __init__(self, response: object) -> None:
+        system = self.system = response.system  # type: ignore[attr-defined]
+        poles_hz, zeros_hz, complete = response.roots_hz()  # type: ignore[attr-defined]
+        p, z = 2 * math.pi * np.asarray(poles_hz), 2 * math.pi * np.asarray(zeros_hz)
+        self.p, self.z = p, z
+        self.settles_by: float | None = None
+        self._reach = math.inf
+        rational = (system.delays is None and complete and z.size <= p.size and p.size > 0
+                    and bool(np.all(p.real < 0)))
+        if not rational:
+            # no rational form: Talbot, up to where its contour encloses every pole the
+            # sweep can show (poles up to the top of the sweep); later times are NaN
+            f_top = float(response.frequency_hz[-1])  # type: ignore[attr-defined]
+            self._reach = _talbot_reach(np.array([2 * math.pi * f_top]))
+            try:
+                self.final = float(transfer_at(system, np.array([1e-300 + 0j]))[0].real)
+            except (RuntimeError, ValueError):
+                self.final = math.nan
+            self.method = "fixed Talbot"
+            return
+        self.k = _gain(system, p, z)
+        self.final = float((self.k * np.prod(-z) / np.prod(-p)).real)
+        self.settles_by = 12.0 / float(np.min(-p.real))
         gaps = np.where(np.eye(p.size, dtype=bool), np.inf, np.abs(p[:, None] - p[None, :]))
         if p.size == 1 or np.min(gaps) > CLOSE_POLES * np.max(np.abs(p)):
-            r = _residues(k, p, z)
-            y = final + (np.exp(np.multiply.outer(t, p)) * (r / p)).sum(axis=1).real
+            self.r = _residues(self.k, p, z)
+            self.method = "pole-zero residues"
             # the check: a few times early in the response, against Talbot. The contour
             # encloses the poles while r = 2M/(5t) is well above their size, so the
             # check times stay below 0.4·M/max|p| (the residues hold at every t alike)
-            probe = np.minimum(np.quantile(t, [0.1, 0.5, 0.9]), _talbot_reach(p))
-            scale = max(abs(final), float(np.max(np.abs(y))), 1e-300)
-            exact = final + (np.exp(np.multiply.outer(probe, p)) * (r / p)).sum(axis=1).real
+            probe = np.minimum(np.array([0.05, 0.3, 1.0]) * self.settles_by,
+                               _talbot_reach(p))
+            exact = self.y(probe)
+            scale = max(abs(self.final), float(np.max(np.abs(exact))), 1e-300)
             if np.max(np.abs(exact - talbot_step(system, probe))) <= CHECK_TOL * scale:
-                return StepResponse(t, y, final, "pole-zero residues")
-        # repeated (or nearly repeated) poles: the same form as a state-space model,
-        # stepped exactly by the matrix exponential (scipy.signal.step holds a step
-        # input exactly: zero-order hold)
-        a, b, c, d = signal.zpk2ss(z, p, k)
+                return
+        # repeated (or nearly repeated) poles, or residues that fail the check: the same
+        # form as a state-space model, stepped exactly by the matrix exponential
+        a, b, c, d = signal.zpk2ss(z, p, self.k)
+        self._ss = (a, np.linalg.solve(a, b), c, d)
+        self.method = "pole-zero form, state space"
+
+    def y(self, t: np.ndarray) -> np.ndarray:
+        """The step response at times ``t`` (s, > 0)."""
+        t = np.atleast_1d(np.asarray(t, float))
+        if self.method == "pole-zero residues":
+            return self.final + (np.exp(np.multiply.outer(t, self.p))
+                                 * (self.r / self.p)).sum(axis=1).real
+        if self.method == "fixed Talbot":
+            out = np.full(t.size, np.nan)
+            inside = t <= self._reach
+            if inside.any():
+                out[inside] = talbot_step(self.system, t[inside])
+            return out
         # x' = Ax + B, x(0) = 0: y(t) = C·A⁻¹(e^{At} − I)·B + D (A is invertible: every
         # pole lies in the left half-plane)
-        a_inv_b = np.linalg.solve(a, b)
-        y = np.array([(c @ (sla.expm(a * ti) @ a_inv_b - a_inv_b)).item() + d.item()
-                      for ti in t])
-        return StepResponse(t, np.real(y), final, "pole-zero form, state space")
-    # no rational form (a transmission line's delay, or roots the sparse path did not
-    # all find): Talbot, where its contour is known to enclose every pole the sweep
-    # can show (poles up to the top of the sweep); later times are not given
-    f_top = float(response.frequency_hz[-1])  # type: ignore[attr-defined]
-    reach = _talbot_reach(np.array([2 * math.pi * f_top]))
-    try:
-        final = float(transfer_at(system, np.array([1e-300 + 0j]))[0].real)
-    except (RuntimeError, ValueError):
-        final = math.nan
-    y = np.full(t.size, np.nan)
-    inside = t <= reach
-    if inside.any():
-        y[inside] = talbot_step(system, t[inside])
-    return StepResponse(t, y, final, "fixed Talbot")
+        a, a_inv_b, c, d = self._ss
+        return np.real(np.array([(c @ (sla.expm(a * ti) @ a_inv_b - a_inv_b)).item()
+                                 + d.item() for ti in t]))
+
+
+def step_response(response: object, t: np.ndarray) -> StepResponse:
+    """The unit-step response of ``response``'s output at times ``t`` (s, > 0)."""
+    model = StepModel(response)
+    t = np.atleast_1d(np.asarray(t, float))
+    return StepResponse(t, model.y(t), model.final, model.method)
 
 
 def _talbot_reach(p: np.ndarray) -> float:

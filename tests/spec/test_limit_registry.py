@@ -36,6 +36,7 @@ MINIMAL_TOML = {
     "notch": 'kind = "notch"\ndepth_db = { min = 40 }',
     "port": 'kind = "port"\nquantity = "transducer_gain"\nband = ["100", "1k"]\nmin = -1',
     "noise": 'kind = "noise"\nquantity = "rms"\nband = ["100", "1k"]\nmax = "1u"',
+    "step": 'kind = "step"\nquantity = "delay"\nmax = "1m"',
 }
 
 
@@ -49,7 +50,7 @@ def test_table_lists_the_kinds_in_their_order():
     # the order is the order of the worst case and of every listing of kinds
     assert list(KINDS) == ["gain", "ripple", "resonance", "corner", "bandwidth",
                            "shape_factor", "group_delay", "phase", "impedance", "notch",
-                           "port", "noise"]
+                           "port", "noise", "step"]
     assert list(LIMITS) == list(KINDS) and len(LIMITS) == len(KINDS)
     assert set(MINIMAL_TOML) == set(KINDS)
 

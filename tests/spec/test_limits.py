@@ -127,10 +127,16 @@ FULL_TABLES = {
     "noise": {"kind": "noise", "name": "nz", "quantity": "noise_figure", "band": ["100", "1k"],
               "min": 0, "max": 3, "temperature_c": 25, "source_resistor": "R1",
               "load_resistor": "R2"},
+    "step": {"kind": "step", "name": "st", "quantity": "rise_time", "min": 0, "max": "1m",
+             "levels": [20, 80], "duration": "5m"},
 }
 #: keys that exclude those of the full table (another form of the same kind): one more
 #: table each, so that every key is used by some table of its kind
 MORE_TABLES = {
+    "step": [{"kind": "step", "name": "st", "quantity": "settling_time", "max": "1m",
+              "settle_band": "0.1%"},
+             {"kind": "step", "name": "st", "quantity": "settling_time", "max": "1m",
+              "settle_bits": 12}],
     "noise": [{"kind": "noise", "name": "nz", "quantity": "snr", "band": ["100", "1k"],
                "min": 60, "signal_rms": 1, "signal_hz": "500"}],
     "gain": [{"kind": "gain", "name": "g", "at": "1k", "max_db": 1, "reference": "mean",

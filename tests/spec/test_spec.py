@@ -391,7 +391,7 @@ class TestSpecFormatDoc:
         # notch and no ports, which have their own full examples (tested below), and its
         # noise has a section of its own (its snippet is parsed below)
         assert {type(lim).kind for lim in specs[-1].limits} == \
-            set(LIMITS) - {"notch", "port", "noise"}
+            set(LIMITS) - {"notch", "port", "noise", "step"}
         # the worked examples of single limits read as limits of a spec over their sweep
         snippets = [b for b in blocks if "netlist" not in b and "[[limits]]" in b]
         assert len(snippets) >= 7

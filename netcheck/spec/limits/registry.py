@@ -32,6 +32,7 @@ KINDS: dict[str, str] = {
     "notch": "notch:NotchLimit",
     "port": "port:PortLimit",
     "noise": "noise:NoiseLimit",
+    "step": "step:StepLimit",
 }
 
 _loaded: dict[str, type[Limit]] = {}
