@@ -78,3 +78,16 @@ def split_rc_chain(n: int) -> str:
         prev = nxt
     lines.append("C1 out 0 100n")
     return "\n".join(lines) + "\n"
+
+
+def refused_at(text: str, where: str, words: str) -> None:
+    """Assert that spec ``text`` is refused (SpecError) at key ``where``, the message
+    holding ``words``."""
+    import pytest
+
+    from netcheck.exceptions import SpecError
+    from netcheck.spec import parse_spec
+
+    with pytest.raises(SpecError) as info:
+        parse_spec(text, "s.toml")
+    assert info.value.where == where and words in info.value.message, info.value.message

@@ -25,7 +25,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 __all__ = ["Limit", "Probe", "judge_range", "range_margin", "Linearised", "linearised_range",
            "Rows", "band_text", "gain_floor_db", "rounding_floor_db", "at_floor",
-           "RELATIVE_FLOOR_DB", "quantity_and_bounds"]
+           "RELATIVE_FLOOR_DB", "quantity_and_bounds", "BOUND_KEYS"]
 
 
 class Probe(Protocol):
@@ -200,6 +200,11 @@ def linearised_range(name: str, lo: float | None, hi: float | None, vmin: float,
     if hi is None:
         return Linearised(name, vmin, d_min, vmin, d_min)
     return Linearised(name, vmin, d_min, vmax, d_max)
+
+
+#: the bound keys of a kind that judges one of several quantities (its KEYS hold them)
+BOUND_KEYS = {"min": "lowest allowed value, in the quantity's unit",
+              "max": "highest allowed value, in the quantity's unit"}
 
 
 def quantity_and_bounds(rd: SpecReader, quantities: tuple[str, ...], what: str

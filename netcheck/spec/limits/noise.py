@@ -11,8 +11,8 @@ from typing import TYPE_CHECKING, Any, ClassVar
 
 import numpy as np
 
-from .base import (Limit, Probe, Rows, band_text, judge_range, quantity_and_bounds,
-                   range_margin)
+from .base import (BOUND_KEYS, Limit, Probe, Rows, band_text, judge_range,
+                   quantity_and_bounds, range_margin)
 from ..reader import SpecReader, Sweep
 from ...measure.measurements import Extremum, MeasurementFailure, band_extremes
 from ...result import LimitResult
@@ -52,8 +52,7 @@ class NoiseLimit(Limit):
         "quantity": "output_density (V/√Hz), input_density (per √Hz, in the stimulus's "
                     "unit), rms (V over the band), snr (dB) or noise_figure (dB)",
         "band": "[start, stop], Hz",
-        "min": "lowest allowed value, in the quantity's unit",
-        "max": "highest allowed value, in the quantity's unit",
+        **BOUND_KEYS,
         "temperature_c": "temperature of the resistances, °C (default: the netlist's "
                          ".temp, else 27)",
         "signal_rms": "snr: the signal at the input, RMS in the stimulus's unit",

@@ -11,7 +11,7 @@ from typing import TYPE_CHECKING, Any, ClassVar
 
 import numpy as np
 
-from .base import (Limit, Linearised, Probe, Rows, band_text, judge_range,
+from .base import (BOUND_KEYS, Limit, Linearised, Probe, Rows, band_text, judge_range,
                    linearised_range, quantity_and_bounds, range_margin)
 from ..reader import SpecReader, Sweep
 from ...measure.measurements import Extremum, MeasurementFailure
@@ -77,8 +77,7 @@ class PortLimit(Limit):
                     "transducer_gain (dB) or insertion_loss (dB)",
         "port": "'input' or 'output' (return_loss, reflection, vswr, impedance)",
         "band": "[start, stop], Hz",
-        "min": "lowest allowed value, in the quantity's unit",
-        "max": "highest allowed value, in the quantity's unit",
+        **BOUND_KEYS,
     }
 
     @classmethod

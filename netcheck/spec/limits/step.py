@@ -9,7 +9,8 @@ from typing import TYPE_CHECKING, Any, ClassVar
 
 import numpy as np
 
-from .base import (Limit, Probe, Rows, judge_range, quantity_and_bounds, range_margin)
+from .base import (BOUND_KEYS, Limit, Probe, Rows, judge_range, quantity_and_bounds,
+                   range_margin)
 from ..reader import SpecReader, Sweep
 from ...measure.measurements import Extremum, MeasurementFailure
 from ...result import LimitResult
@@ -43,8 +44,7 @@ class StepLimit(Limit):
     KEYS: ClassVar[dict[str, str]] = {
         "quantity": "overshoot (%), undershoot (%), rise_time (s), delay (s) or "
                     "settling_time (s)",
-        "min": "lowest allowed value, in the quantity's unit",
-        "max": "highest allowed value, in the quantity's unit",
+        **BOUND_KEYS,
         "levels": "rise_time: [lo, hi] in % of the final value (default [10, 90])",
         "settle_band": "settling_time: the band around the final value, '0.1%' or a "
                        "fraction",
