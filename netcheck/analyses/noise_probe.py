@@ -21,7 +21,8 @@ import numpy as np
 
 from ..measure.measurements import FunctionCurve, root_seeds
 from ..mna.assemble import assemble
-from ..mna.noise import NoiseSource, integrated_noise, noise_sources, output_noise
+from ..mna.noise import (NoiseSource, integrated_noise, noise_sources, output_noise,
+                         rational_form)
 from ..mna.solve import solve
 from .part_values import with_values
 
@@ -35,11 +36,14 @@ class NoiseCurves:
         self.response, self.curve, self.temp_c = response, curve, temp_c
         self.system = response.system
         self.sources: list[NoiseSource] = noise_sources(self.system, temp_c)
+        #: every source's transfer in pole–zero form over the sweep (None: solved directly)
+        self.rational = rational_form(self.system, self.sources, curve.grid_hz)
 
     def _density(self, f: np.ndarray, keep: np.ndarray | None = None
                  ) -> tuple[np.ndarray, np.ndarray]:
         """(S, dS/df) summed over the sources ``keep`` selects (all by default)."""
-        got = output_noise(self.system, f, self.temp_c, self.sources, derivative=True)
+        got = output_noise(self.system, f, self.temp_c, self.sources, derivative=True,
+                           rational=self.rational)
         if keep is None:
             return got.total, got.d_total  # type: ignore[return-value]
         return got.parts[keep].sum(axis=0), got.d_parts[keep].sum(axis=0)  # type: ignore[index]
@@ -78,7 +82,8 @@ class NoiseCurves:
         net = names != load if load is not None else np.ones(names.size, bool)
 
         def both(f: np.ndarray) -> tuple[np.ndarray, ...]:
-            got = output_noise(self.system, f, self.temp_c, self.sources, derivative=True)
+            got = output_noise(self.system, f, self.temp_c, self.sources, derivative=True,
+                               rational=self.rational)
             return (got.parts[net].sum(axis=0), got.d_parts[net].sum(axis=0),  # type: ignore[index]
                     got.parts[src].sum(axis=0), got.d_parts[src].sum(axis=0))  # type: ignore[index]
 
@@ -107,7 +112,8 @@ class NoiseCurves:
     def contributions(self, f_hz: float) -> list[tuple[str, str, float, float]]:
         """Each source at ``f_hz``, largest first: (element, what, density V/√Hz at the
         output, share of the total density in %)."""
-        got = output_noise(self.system, np.array([f_hz]), self.temp_c, self.sources)
+        got = output_noise(self.system, np.array([f_hz]), self.temp_c, self.sources,
+                           rational=self.rational)
         total = float(got.total[0]) or 1.0
         rows = [(s.element, s.what, float(np.sqrt(p[0])), 100.0 * float(p[0]) / total)
                 for s, p in zip(got.sources, got.parts)]

@@ -23,9 +23,14 @@ The sources and their right-hand sides, from each element's stamp:
   voltage, entering as u = sCm·e_k.
 
 Devices' shot and flicker noise and explicit source noise densities are not modelled yet.
-The integrated noise ∫S_out df over a band is computed by adaptive Gauss–Kronrod
-quadrature (``scipy.integrate.quad``) on the exact density in ln f, its breakpoints at the
-response's lightly damped poles, to a relative tolerance of 1e-10.
+Where the circuit is rational and small enough for dense QZ, every source's transfer is
+put in pole–zero form once — the poles of the pencil (G, −C), shared, and its own zeros
+from the pencil bordered with its right-hand side and l — checked against adjoint solves
+at four frequencies to 1e-7, and the densities evaluated from it (:func:`rational_form`);
+otherwise each frequency takes its adjoint solve. The integrated noise ∫S_out df over a
+band is computed by adaptive Gauss–Kronrod quadrature (``scipy.integrate.quad``) on the
+exact density in ln f, its breakpoints at the response's lightly damped poles, to a
+relative tolerance of 1e-10.
 """
 
 from __future__ import annotations
@@ -40,10 +45,11 @@ import scipy.sparse.linalg as spla
 from ..netlist.elements.passives import Capacitor, Inductor, Resistor
 from .assemble import System
 from .dense import DenseEngine
+from .pencil import pencil_roots
 from .solve import DENSE_MAX
 
 __all__ = ["NoiseSource", "noise_sources", "NoiseDensity", "output_noise",
-           "integrated_noise", "BOLTZMANN", "kelvin"]
+           "integrated_noise", "rational_form", "BOLTZMANN", "kelvin"]
 
 #: the Boltzmann constant, J/K (exact, SI 2019)
 BOLTZMANN = 1.380649e-23
@@ -159,13 +165,85 @@ def _adjoint(system: System, f: np.ndarray, derivative: bool = False
     return w, dw
 
 
+class _Rational:
+    """Every source's transfer to the output in pole–zero form, T_k(s) =
+    g_k·∏(s − z)/∏(s − p): the poles of the pencil (G, −C), shared, and each source's
+    zeros from the pencil bordered with its right-hand side and l (QZ,
+    :func:`netcheck.mna.pencil.pencil_roots`), g_k from one direct solve. Checked against
+    direct solves at a few frequencies; None where it does not hold there."""
+
+    def __init__(self, system: System, sources: list[NoiseSource], f: np.ndarray) -> None:
+        g, c = system.G.toarray(), system.C.toarray()
+        w = _TWO_PI * math.sqrt(float(f[0]) * float(f[-1]))
+        l = np.asarray(system.l, float)
+        self.zeros: list[np.ndarray] = []
+        poles = None
+        for k, src in enumerate(sources):
+            got, zeros = pencil_roots(g, c, src.u0, l, w, src.us, poles=k == 0)
+            poles = got if k == 0 else poles
+            if poles is None or zeros is None:
+                raise ArithmeticError("no pole-zero form")
+            self.zeros.append(zeros * w)
+        self.poles: np.ndarray = poles * w  # type: ignore[operator]
+        probe = np.array([f[0], math.sqrt(f[0] * f[-1]), f[-1], f[f.size // 3]])
+        direct = _direct_transfers(system, sources, probe)
+        s = 1j * _TWO_PI * probe[:, None]
+        den = np.prod(s - self.poles[None, :], axis=1)
+        shapes = np.array([np.prod(s - z[None, :], axis=1) / den for z in self.zeros])
+        self.gain2 = np.abs(direct[:, 1] / shapes[:, 1]) ** 2
+        for k in range(len(sources)):
+            scale = np.max(np.abs(direct[k])) or 1.0
+            got = np.sqrt(self.gain2[k]) * np.abs(shapes[k])
+            if not np.all(np.abs(got - np.abs(direct[k])) <= 1e-7 * scale):
+                raise ArithmeticError("the pole-zero form disagrees with direct solves")
+
+    @staticmethod
+    def _mag2(omega: np.ndarray, roots: np.ndarray) -> np.ndarray:
+        """∏ |jω − r|² = ∏ ((ω − Im r)² + (Re r)²), in real arithmetic (F,)."""
+        return np.prod((omega[:, None] - roots.imag[None, :]) ** 2
+                       + (roots.real ** 2)[None, :], axis=1)
+
+    def parts(self, f: np.ndarray, densities: np.ndarray, derivative: bool
+              ) -> tuple[np.ndarray, np.ndarray | None]:
+        omega = _TWO_PI * f
+        den = self._mag2(omega, self.poles)
+        out = np.empty((len(self.zeros), f.size))
+        for k, z in enumerate(self.zeros):
+            out[k] = densities[k] * self.gain2[k] * self._mag2(omega, z) / den
+        if not derivative:
+            return out, None
+        # d|T|²/df = |T|²·2π·d/dω ln|T|², d/dω ln((ω − b)² + a²) = 2(ω − b)/((ω − b)² + a²)
+        def dlog(roots: np.ndarray) -> np.ndarray:
+            d = omega[:, None] - roots.imag[None, :]
+            return (2.0 * d / (d * d + (roots.real ** 2)[None, :])).sum(axis=1)
+        d_den = dlog(self.poles)
+        d_out = np.array([out[k] * _TWO_PI * (dlog(z) - d_den)
+                          for k, z in enumerate(self.zeros)])
+        return out, d_out
+
+
+def _direct_transfers(system: System, sources: list[NoiseSource], f: np.ndarray
+                      ) -> np.ndarray:
+    """T_k(j2πf) = wᵀu_k by adjoint solves (sources × frequencies)."""
+    w, _ = _adjoint(system, f)
+    s = 1j * _TWO_PI * f
+    return np.array([w @ src.u0 + (s * (w @ src.us) if src.us is not None else 0.0)
+                     for src in sources])
+
+
 def output_noise(system: System, f_hz: np.ndarray, temp_c: float = 27.0,
-                 sources: list[NoiseSource] | None = None, derivative: bool = False
-                 ) -> NoiseDensity:
+                 sources: list[NoiseSource] | None = None, derivative: bool = False,
+                 rational: "_Rational | None | bool" = None) -> NoiseDensity:
     """The output noise density of ``system`` at ``f_hz`` and every source's share (and
-    their derivatives in f with ``derivative``)."""
+    their derivatives in f with ``derivative``). ``rational`` (a :class:`_Rational` of
+    the same sources) evaluates them from the pole–zero form instead of solving."""
     f = np.atleast_1d(np.asarray(f_hz, float))
     srcs = noise_sources(system, temp_c) if sources is None else sources
+    if isinstance(rational, _Rational) and srcs:
+        dens = np.array([src.density for src in srcs])
+        parts, d_parts = rational.parts(f, dens, derivative)
+        return NoiseDensity(f, parts.sum(axis=0), parts, tuple(srcs),
+                            None if d_parts is None else d_parts.sum(axis=0), d_parts)
     w, dw = _adjoint(system, f, derivative)
     parts = np.empty((len(srcs), f.size))
     d_parts = np.empty_like(parts) if derivative else None
@@ -191,13 +269,30 @@ def integrated_noise(system: System, lo_hz: float, hi_hz: float, temp_c: float =
     if not srcs:
         return 0.0
     a, b = math.log(lo_hz), math.log(hi_hz)
+    form = rational_form(system, srcs, np.array([lo_hz, hi_hz]))
 
     def density(u: float) -> float:
         f = math.exp(u)
-        return float(output_noise(system, np.array([f]), temp_c, srcs).total[0]) * f
+        return float(output_noise(system, np.array([f]), temp_c, srcs,
+                                  rational=form).total[0]) * f
 
     pts = [] if breakpoints_hz is None else sorted(
         math.log(p) for p in np.asarray(breakpoints_hz, float) if lo_hz < p < hi_hz)
     value, _ = si.quad(density, a, b, points=pts or None, epsrel=1e-10, epsabs=0.0,
                        limit=500)
     return float(value)
+
+
+def rational_form(system: System, sources: list[NoiseSource], f_hz: np.ndarray
+                  ) -> _Rational | None:
+    """Every source's transfer in pole–zero form over the band of ``f_hz`` (for
+    :func:`output_noise`), or None where that form does not serve: a transmission line,
+    a system past the dense size, or a form that fails its check against direct solves
+    (the densities are then solved directly)."""
+    f = np.atleast_1d(np.asarray(f_hz, float))
+    if not sources or system.delays is not None or system.size > DENSE_MAX or f.size < 2:
+        return None
+    try:
+        return _Rational(system, sources, f)
+    except (ArithmeticError, ValueError, np.linalg.LinAlgError):
+        return None

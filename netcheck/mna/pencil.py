@@ -46,9 +46,14 @@ def _finite_eigs(a: np.ndarray, b: np.ndarray) -> np.ndarray | None:
     return alpha[finite] / beta[finite]
 
 
-def pencil_roots(g: np.ndarray, c: np.ndarray, b: np.ndarray, l: np.ndarray, w: float
-                  ) -> tuple[np.ndarray | None, np.ndarray | None]:
+def pencil_roots(g: np.ndarray, c: np.ndarray, b: np.ndarray, l: np.ndarray, w: float,
+                 b_s: np.ndarray | None = None, poles: bool = True
+                 ) -> tuple[np.ndarray | None, np.ndarray | None]:
     """Finite poles and zeros of H(s) = l·(G + sC)⁻¹b, divided by ``w`` (rad/s), by QZ [1]_.
+
+    With ``b_s`` the right-hand side is b + s·b_s (a source that enters through a
+    capacitance), bordered as such: its zeros come out the same way. ``poles=False``
+    skips the poles (None), for a caller that has them.
 
     Poles are the finite eigenvalues of the pencil (G, −C); zeros those of the pencil
     bordered with b and l, whose determinant is −H(s)·det(G + sC) (a pole that l or b
@@ -65,14 +70,16 @@ def pencil_roots(g: np.ndarray, c: np.ndarray, b: np.ndarray, l: np.ndarray, w: 
     col[col == 0] = 1.0
     col = 1.0 / col
     gs, cs = g * r[:, None] * col[None, :], c * r[:, None] * col[None, :]
-    poles = _finite_eigs(gs, -cs)
+    found = _finite_eigs(gs, -cs) if poles else None
     n = g.shape[0]
     gb = np.zeros((n + 1, n + 1))
     cb = np.zeros((n + 1, n + 1))
     gb[:n, :n], cb[:n, :n] = gs, -cs
     gb[:n, n] = b * r
+    if b_s is not None:
+        cb[:n, n] = -b_s * w * r
     gb[n, :n] = l * col
-    return poles, _finite_eigs(gb, cb)
+    return found, _finite_eigs(gb, cb)
 
 
 def merge_roots(roots: np.ndarray, rtol: float = 1e-8) -> np.ndarray:

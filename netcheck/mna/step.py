@@ -41,6 +41,7 @@ import scipy.sparse.linalg as spla
 from scipy import signal
 
 from .assemble import System
+from .solve import DENSE_MAX
 
 __all__ = ["StepModel", "StepResponse", "step_response", "talbot_step", "transfer_at"]
 
@@ -66,17 +67,26 @@ class StepResponse:
 
 
 def transfer_at(system: System, s: np.ndarray) -> np.ndarray:
-    """H(s) = lᵀ(G + sC + D(s))⁻¹b at complex ``s`` (rad/s), by direct solves."""
+    """H(s) = lᵀ(G + sC + D(s))⁻¹b at complex ``s`` (rad/s), by direct solves (batched
+    dense solves for a system of the dense size, SuperLU per point above it)."""
+    s = np.atleast_1d(np.asarray(s, complex))
+    d = system.delays
+    b = np.asarray(system.b, complex)
+    l = np.asarray(system.l, float)
+    if system.size <= DENSE_MAX:
+        a = system.G.toarray()[None] + s[:, None, None] * system.C.toarray()[None]
+        if d is not None:
+            np.add.at(a, (slice(None), d.rows, d.cols),
+                      d.coef[None, :] * np.exp(-np.outer(s, d.tau)))
+        return np.linalg.solve(a, np.broadcast_to(b, (s.size, b.size))[..., None])[..., 0] @ l
     out = np.empty(s.size, dtype=complex)
     g, c = system.G.tocsc(), system.C.tocsc()
-    d = system.delays
-    for i, si in enumerate(np.asarray(s, complex)):
+    for i, si in enumerate(s):
         a = (g + si * c).tocsc()
         if d is not None:
             a = a + sp.csc_matrix((d.coef * np.exp(-si * d.tau), (d.rows, d.cols)),
                                   shape=a.shape)
-        x = spla.splu(a.tocsc()).solve(np.asarray(system.b, complex))
-        out[i] = np.asarray(system.l) @ x
+        out[i] = l @ spla.splu(a.tocsc()).solve(b)
     return out
 
 
