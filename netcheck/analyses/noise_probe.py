@@ -109,6 +109,25 @@ class NoiseCurves:
         return float(np.sqrt(integrated_noise(self.system, lo_hz, hi_hz, self.temp_c,
                                               seeds)))
 
+    def band_contributions(self, lo_hz: float, hi_hz: float
+                           ) -> list[tuple[str, str, float, float]]:
+        """Each source over [lo_hz, hi_hz], largest first: (element, what, its RMS noise
+        at the output over the band in V, share of the total noise power in %), by one
+        adaptive vector quadrature of every source's density (``scipy.integrate.quad_vec``)."""
+        from scipy.integrate import quad_vec
+
+        def parts(u: float) -> np.ndarray:
+            f = np.exp(u)
+            got = output_noise(self.system, np.array([f]), self.temp_c, self.sources,
+                               rational=self.rational)
+            return got.parts[:, 0] * f
+
+        power, _ = quad_vec(parts, np.log(lo_hz), np.log(hi_hz), epsrel=1e-8)
+        total = float(np.sum(power)) or 1.0
+        rows = [(s.element, s.what, float(np.sqrt(p)), 100.0 * float(p) / total)
+                for s, p in zip(self.sources, power)]
+        return sorted(rows, key=lambda r: -r[3])
+
     def contributions(self, f_hz: float) -> list[tuple[str, str, float, float]]:
         """Each source at ``f_hz``, largest first: (element, what, density V/√Hz at the
         output, share of the total density in %)."""
@@ -121,22 +140,27 @@ class NoiseCurves:
 
 
 def noise_block(limits: Any, results: Any, probe: Any) -> list[dict[str, Any]]:
-    """The JSON ``noise`` block: for each noise limit's result, the sources of noise at
-    its deciding frequency (for rms and snr: the band's geometric centre), largest first,
-    each with its density at the output and its share of the total density."""
+    """The JSON ``noise`` block: for each noise limit's result, the sources of noise,
+    largest first — at its deciding frequency (``at_hz``: each one's density at the
+    output), or for rms and snr over its band (``band_hz``: each one's RMS at the
+    output) — with each one's share of the total noise power."""
     out = []
     by_name = {r.name: r for r in results}
     for lim in limits:
         if getattr(lim, "kind", "") != "noise" or lim.name not in by_name:
             continue
         r = by_name[lim.name]
-        f = r.at_hz if r.at_hz else float(np.sqrt(lim.band[0] * lim.band[1]))
-        if lim.quantity in ("rms", "snr"):
-            f = float(np.sqrt(lim.band[0] * lim.band[1]))
-        rows = probe.noise(lim.temperature_c).contributions(f)
-        out.append({"limit": lim.name, "at_hz": f,
-                    "temperature_c": probe.noise(lim.temperature_c).temp_c,
-                    "sources": [{"part": e, "what": w, "density": d, "share_pct": p}
+        curves = probe.noise(lim.temperature_c)
+        if lim.quantity in ("rms", "snr"):  # each source's RMS over the band
+            rows = curves.band_contributions(*lim.band)
+            where: dict[str, Any] = {"band_hz": list(lim.band), "at_hz": None}
+            key = "rms"
+        else:
+            f = r.at_hz if r.at_hz else float(np.sqrt(lim.band[0] * lim.band[1]))
+            rows = curves.contributions(f)
+            where, key = {"band_hz": None, "at_hz": f}, "density"
+        out.append({"limit": lim.name, **where, "temperature_c": curves.temp_c,
+                    "sources": [{"part": e, "what": w, key: d, "share_pct": p}
                                 for e, w, d, p in rows]})
     return out
 

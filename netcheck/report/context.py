@@ -16,6 +16,7 @@ from .formatting import (LISTING_ROWS_MAX, LISTING_TOTAL_MAX, MEASUREMENTS, caut
 from .plot_gain import limit_tag
 from .view_family import family_views
 from .view_bias import bias_view
+from .view_noise import noise_view
 from .view_stress import stress_view
 from .view_tolerance import tolerance_view
 
@@ -166,7 +167,8 @@ def _spec_view(s: SpecResult, number: int, with_plots: bool = True) -> dict[str,
     tolerance = tolerance_view(s, with_plots)
     stress = stress_view(s)
     bias = bias_view(s)
-    shown = {"git", "stress", "operating_point"} | ({"tolerance"} if tolerance else set())
+    noise = noise_view(s)
+    shown = {"git", "stress", "operating_point", "noise"} | ({"tolerance"} if tolerance else set())
     extra = [(k, _extra_rows(v)) for k, v in s.extra if k not in shown]
     n = s.counts
     return {
@@ -184,6 +186,7 @@ def _spec_view(s: SpecResult, number: int, with_plots: bool = True) -> dict[str,
         "hazards": [c for c in cautions if c["severity"] == HAZARD_SEVERITY],
         "plots": spec_plots(s) if with_plots else (), "sources": sources, "extra": extra,
         "anchor": f"spec-{number}", "tolerance": tolerance, "stress": stress, "bias": bias,
+        "noise": noise,
     }
 
 

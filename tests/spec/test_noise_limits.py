@@ -68,6 +68,17 @@ def test_the_json_ranks_the_sources(tmp_path):
     parts = [(s["part"], s["share_pct"]) for s in block["sources"]]
     assert parts[0][0] == "R1" and parts[0][1] == pytest.approx(75.0, rel=1e-9)
     assert parts[1][0] == "R2" and parts[1][1] == pytest.approx(25.0, rel=1e-9)
+    # over a band (an rms limit) the same shares, each source's RMS its density (the
+    # divider's noise is white) times √(bandwidth): √(4kT/R_k)·R∥ ·√(1k − 10)
+    spec = write(tmp_path, limit("rms", ("10", "1k"), 'max = "1u"'), net)
+    assert main(["check", spec, "--jobs", "1", "--json", str(out)]) == 0
+    block = json.loads(out.read_text("utf-8"))["specs"][0]["noise"][0]
+    assert block["band_hz"] == [10.0, 1000.0] and block["at_hz"] is None
+    first = block["sources"][0]
+    assert first["part"] == "R1" and first["share_pct"] == pytest.approx(75.0, rel=1e-7)
+    rpar = 1e3 * 3e3 / 4e3
+    assert first["rms"] == pytest.approx(math.sqrt(4 * K_B * T / 1e3) * rpar
+                                         * math.sqrt(990.0), rel=1e-7)
 
 
 def test_noise_figure_of_a_matched_pad_is_its_loss(tmp_path):
