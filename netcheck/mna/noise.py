@@ -22,7 +22,9 @@ The sources and their right-hand sides, from each element's stamp:
 * the ``Rser`` of a C (branch row k: sCm·(v+ − v−) − sCm·(Rser/m)·i − i = 0): the same
   voltage, entering as u = sCm·e_k.
 
-Devices' shot and flicker noise and explicit source noise densities are not modelled yet.
+A device at its operating point adds its shot noise (2q|I| of each junction current) or
+channel noise ((8/3)kT·gm of a MOSFET or JFET); flicker noise and explicit noise
+densities of sources are not modelled yet.
 Where the circuit is rational and small enough for dense QZ, every source's transfer is
 put in pole–zero form once — the poles of the pencil (G, −C), shared, and its own zeros
 from the pencil bordered with its right-hand side and l — checked against adjoint solves
@@ -37,11 +39,13 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 import scipy.integrate as si
 import scipy.sparse.linalg as spla
 
+from ..netlist.elements.devices import Linearised
 from ..netlist.elements.passives import Capacitor, Inductor, Resistor
 from .assemble import System
 from .dense import DenseEngine
@@ -51,8 +55,9 @@ from .solve import DENSE_MAX
 __all__ = ["NoiseSource", "noise_sources", "NoiseDensity", "output_noise",
            "integrated_noise", "rational_form", "BOLTZMANN", "kelvin"]
 
-#: the Boltzmann constant, J/K (exact, SI 2019)
+#: the Boltzmann constant, J/K, and the elementary charge, C (exact, SI 2019)
 BOLTZMANN = 1.380649e-23
+CHARGE = 1.602176634e-19
 _TWO_PI = 2.0 * math.pi
 
 
@@ -89,6 +94,9 @@ def noise_sources(system: System, temp_c: float = 27.0) -> list[NoiseSource]:
         return u
 
     for e in system.circuit.elements:
+        if isinstance(e, Linearised):  # a device at its operating point
+            out.extend(_device_sources(e, between, four_kt))
+            continue
         if isinstance(e, Resistor):
             if e.value:  # a 0 Ω resistor is a wire: no noise
                 out.append(NoiseSource(e.name, "R", four_kt * e.m / e.value, between(*e.nodes[:2])))
@@ -109,6 +117,26 @@ def noise_sources(system: System, temp_c: float = 27.0) -> list[NoiseSource]:
                 out.append(NoiseSource(e.name, "Rser", four_kt * e.rser / e.m,
                                        np.zeros(n), u))
     return out
+
+
+def _device_sources(e: Linearised, between: Any, four_kt: float) -> list[NoiseSource]:
+    """The noise of a device at its operating point (common practice; van der Ziel,
+    *Noise in Solid State Devices and Circuits*, 1986, from memory): shot noise 2q|I| of
+    each junction current — a diode's Id between its terminals; a bipolar transistor's
+    Ic from collector to emitter and Ib from base to emitter — and the channel noise
+    (8/3)kT·gm of a MOSFET or JFET from drain to source (saturation). Flicker noise is
+    not modelled (the models keep no KF, AF)."""
+    q = dict(e.quantities)
+    n = e.nodes
+    if e.kind == "diode":
+        return [NoiseSource(e.name, "shot", 2 * CHARGE * abs(q["Id"]), between(n[0], n[1]))]
+    if e.kind in ("npn", "pnp"):  # nodes: collector, base, emitter
+        return [NoiseSource(e.name, "shot Ic", 2 * CHARGE * abs(q["Ic"]), between(n[0], n[2])),
+                NoiseSource(e.name, "shot Ib", 2 * CHARGE * abs(q["Ib"]), between(n[1], n[2]))]
+    if "gm" in q:  # MOSFET or JFET: drain, gate, source, ...
+        return [NoiseSource(e.name, "channel", four_kt * 2.0 / 3.0 * abs(q["gm"]),
+                            between(n[0], n[2]))]
+    return []
 
 
 @dataclass(frozen=True, slots=True, eq=False)

@@ -13,7 +13,9 @@ __all__ = ["noise_view", "SOURCES_SHOWN"]
 
 #: the most sources listed per limit (the JSON result carries them all)
 SOURCES_SHOWN = 12
-_WHAT = {"R": "resistor", "Rpar": "parallel resistance", "Rser": "series resistance"}
+_WHAT = {"R": "resistor", "Rpar": "parallel resistance", "Rser": "series resistance",
+         "shot": "shot noise", "shot Ic": "shot noise of Ic", "shot Ib": "shot noise of Ib",
+         "channel": "channel noise"}
 
 
 def noise_view(s: SpecResult) -> list[dict[str, Any]] | None:

@@ -107,3 +107,23 @@ def test_the_density_derivative_against_the_closed_form():
     x = 2 * np.pi * F * r * c
     want = -4 * K_B * T * r * 2 * x * (2 * np.pi * r * c) / (1 + x * x) ** 2
     np.testing.assert_allclose(got.d_total, want, rtol=1e-9)
+
+
+def test_a_biased_diode_adds_its_shot_noise():
+    # 5 V through 10 kΩ into a diode: at the diode's node the noise is the diode's shot
+    # current 2q·Id and the resistor's 4kT/R, both through rd ∥ R, rd = N·Vt/(Id + IS)
+    # (Schottky 1918 for 2qI; the bias by brentq on the Shockley law)
+    from scipy.optimize import brentq
+
+    q, n, is_, r = 1.602176634e-19, 1.0, 1e-14, 10e3
+    vt = K_B * T / q
+    v = brentq(lambda v: (5 - v) / r - is_ * math.expm1(v / (n * vt)), 0, 5, xtol=1e-15)
+    i_d = is_ * math.expm1(v / (n * vt))
+    rd = n * vt / (i_d + is_)
+    rp = rd * r / (rd + r)
+    got = output_noise(system(f"Quillmere QM-N11 diode\nVB b 0 DC 5\nV1 in 0 AC 1\n"
+                              f"R1 b out {r}\nC9 in out 1p\nD1 out 0 qm_d\n"
+                              ".model qm_d D (IS=1e-14)\n"), np.array([1.0, 100.0]))
+    want = (2 * q * i_d + 4 * K_B * T / r) * rp ** 2
+    np.testing.assert_allclose(got.total, want, rtol=1e-6)
+    assert [s.what for s in got.sources] == ["R", "shot"]
