@@ -413,7 +413,6 @@ def _build(doc: dict, text: str, path: str, build_limit: Any,
     variants = parse_variants(doc["variants"], path) if "variants" in doc else None
     modes = analysis.modes if analysis else ()
     check_port_limits(tuple(limits), ports, modes, path)
-    check_noise_limits(tuple(limits), modes, path)
     return Spec(
         path=path, title=title,
         netlist=str(base / netlist), source=source, output=output, sweep=sweep,
@@ -421,20 +420,6 @@ def _build(doc: dict, text: str, path: str, build_limit: Any,
         allow_negative=allow_negative, text=text, tables=tables,
         design_root=str(root_dir), part_models=models, stress=stress,
         tolerances=tolerances, analysis=analysis, variants=variants, ports=ports)
-
-
-def check_noise_limits(limits: tuple[Any, ...], modes: tuple[str, ...], path: str) -> None:
-    """A noise limit is judged in the nominal check and the worst case (by central
-    differences), not in Monte Carlo yet: refused there at its key (spec-202)."""
-    if "monte_carlo" not in modes:
-        return
-    for lim in limits:
-        if getattr(lim, "kind", "") == "noise":
-            SpecReader({}, f"limits[{lim.index}]", path, {}).fail(
-                "kind", "a noise limit is judged in the nominal check and the worst case, "
-                "not in Monte Carlo yet (each sample would need its own noise solves): "
-                "drop monte_carlo from analysis.mode or check the noise in a spec of its "
-                "own")
 
 
 def _part_models(top: SpecReader, path: str) -> tuple[str, ...]:

@@ -150,8 +150,8 @@ class NoiseLimit(Limit):
                             self.line),)
 
     def judge_batch(self, bp: BatchProbe) -> Rows:
-        """Each sample solved as a circuit of its own (the worst case's central
-        differences; Monte Carlo refuses noise limits at load: one solve per sample)."""
+        """Each sample solved as a circuit of its own (Monte Carlo, and the worst case's
+        central differences): one solve and one noise form per sample."""
         lo, hi = [], []
         for probe in bp.each_sample():
             try:
