@@ -300,6 +300,11 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
     if any(lim.kind == "noise" for lim in spec.limits):  # the ranked sources of noise
         from .noise_probe import noise_block
         extra.append(("noise", noise_block(spec.limits, limits, probe)))
+    if any(lim.kind == "step" for lim in spec.limits):  # the step response, for its plot
+        from .step_probe import step_block
+        block = step_block(spec.limits, probe)
+        if block is not None:
+            extra.append(("step", block))
     op = system.circuit.operating_point
     if op is not None:  # a circuit with devices: checked around this operating point
         extra.append(("operating_point", operating_point_block(op)))

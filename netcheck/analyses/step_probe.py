@@ -107,3 +107,48 @@ class StepFigures:
         t = float(brentq(gap, float(self.t[k]), float(self.t[k + 1]),
                          xtol=self.end * 1e-14))
         return t, t
+
+
+#: points of the step response the result keeps for its plot
+STEP_POINTS_KEPT = 400
+
+
+def step_block(limits: Any, probe: Any) -> dict[str, Any] | None:
+    """The JSON ``step`` block: the step response over the longest duration a step limit
+    asks for (``STEP_POINTS_KEPT`` points), its final value and method, and the points
+    the limits measured (the overshoot's peak, the rise time's crossings, the delay, the
+    settling time with its band)."""
+    steps = [lim for lim in limits if getattr(lim, "kind", "") == "step"]
+    if not steps:
+        return None
+    durations = [lim.duration for lim in steps if lim.duration]
+    try:
+        fig = probe.step_figures(max(durations) if durations else None)
+    except MeasurementFailure:
+        return None
+    t = np.linspace(0.0, fig.end, STEP_POINTS_KEPT + 1)[1:]
+    y = fig.model.y(t)
+    marks: list[dict[str, Any]] = []
+    for lim in steps:
+        try:
+            if lim.quantity == "overshoot":
+                tp = fig.overshoot_pct()[1]
+                marks.append({"limit": lim.name, "what": "peak", "t": tp, "y": fig._y(tp)})
+            elif lim.quantity == "rise_time":
+                for frac in lim.levels:
+                    tc = fig.crossing(frac)
+                    marks.append({"limit": lim.name, "what": f"{100 * frac:g} %", "t": tc,
+                                  "y": frac * fig.final})
+            elif lim.quantity == "delay":
+                tc = fig.crossing(0.5)
+                marks.append({"limit": lim.name, "what": "50 %", "t": tc,
+                              "y": 0.5 * fig.final})
+            elif lim.quantity == "settling_time":
+                ts = fig.settling_time(lim.settle_band)[0]
+                marks.append({"limit": lim.name, "what": "settled", "t": ts,
+                              "y": fig._y(ts) if ts > 0 else fig.final,
+                              "band": lim.settle_band})
+        except MeasurementFailure:
+            continue
+    return {"t": [float(x) for x in t], "y": [float(v) for v in y], "final": fig.final,
+            "method": fig.model.method, "marks": marks}

@@ -14,6 +14,7 @@ from .plot_base import (FONT_PT, PALETTE, Plot, Tag, figure_keys, frequency_axis
 from .plot_gain import (GAIN_QUANTITIES, HALF_POWER_DB, draw_mask, drawn_gain, fail_points,
                         gain_label, gain_limits, tags_for, zoom_is_resonance, zoom_window)
 from ..measure.detail import curve_points
+from .plot_step import step_figure
 from .plot_tolerance import draw_envelope, envelope_caption, has_envelope
 
 __all__ = ["spec_plots", "spec_figures"]
@@ -264,6 +265,9 @@ def _figures(spec: SpecResult) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
                     f"{names[0].upper()}{names[1:]} against frequency, for the limits on "
                     "them (their bounds and margins are in the summary table).",
                     fig, figure_keys(drawn)))
+    step = step_figure(spec)
+    if step is not None:
+        out.append((*step, ()))
     return out
 
 

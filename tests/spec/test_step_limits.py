@@ -121,3 +121,30 @@ def test_the_anti_alias_sample_against_scipy_cheby1():
     assert got["step overshoot"] == pytest.approx((y.max() - final) / final * 100, rel=1e-5)
     last = t[np.flatnonzero(np.abs(y - final) > 2.0 ** -17 * abs(final))[-1]]
     assert got["settles for the ADC"] == pytest.approx(last, abs=2e-8)
+
+
+def test_the_json_and_the_report_carry_the_step_response(tmp_path):
+    # the step block's samples are the RC's 1 − e^{−t/τ}; its marks are where the limits
+    # measured (the 10 % and 90 % crossings at τ·ln(10/9) and τ·ln 10); the PDF draws it
+    import jsonschema
+    import numpy as np
+
+    body = step("rise_time", 'max = "5m"') + step("settling_time", 'settle_band = 0.01\nmax = "1"')
+    spec = write(tmp_path, body)
+    out = tmp_path / "r.json"
+    from netcheck.cli import main
+    assert main(["check", spec, "--jobs", "1", "--json", str(out)]) == 0
+    doc = json.loads(out.read_text("utf-8"))
+    root = Path(__file__).resolve().parents[2]
+    jsonschema.validate(doc, json.loads((root / "docs" / "result.schema.json").read_text()))
+    block = doc["specs"][0]["step"]
+    t, y = np.array(block["t"]), np.array(block["y"])
+    np.testing.assert_allclose(y, 1 - np.exp(-t / TAU), atol=1e-12)
+    crossings = [m["t"] for m in block["marks"] if m["what"].endswith("%")]
+    np.testing.assert_allclose(crossings, [TAU * math.log(10 / 9), TAU * math.log(10)],
+                               rtol=1e-9)
+    settled = next(m for m in block["marks"] if m["what"] == "settled")
+    assert settled["t"] == pytest.approx(TAU * math.log(100), rel=1e-9)
+    from netcheck.report.plot_response import spec_figures
+    result = check_spec(spec)
+    assert "Step response" in [title for title, _ in spec_figures(result)]
