@@ -31,6 +31,7 @@ KINDS: dict[str, str] = {
     "impedance": "impedance:ImpedanceLimit",
     "notch": "notch:NotchLimit",
     "port": "port:PortLimit",
+    "crossover": "crossover:CrossoverLimit",
 }
 
 _loaded: dict[str, type[Limit]] = {}
