@@ -217,8 +217,8 @@ def _assemble_for(spec: Spec, circuit: Circuit) -> System:
 
 
 def output_systems(spec: Spec, system: System) -> dict[str, System]:
-    """The System of each named output of ``spec`` (``system``, the main output's, and
-    the others sharing its matrices); empty for a spec with the single ``output``.
+    """The System of each named output of ``spec``: ``system`` for its own output, the
+    others sharing its matrices; empty for a spec with the single ``output``.
 
     Raises
     ------
@@ -228,9 +228,10 @@ def output_systems(spec: Spec, system: System) -> dict[str, System]:
     from ..mna.assemble import with_output
 
     out = {}
-    for k, (name, (node, ref)) in enumerate(spec.outputs):
+    for name, (node, ref) in spec.outputs:
         try:
-            out[name] = system if k == 0 else with_output(system, node, ref)
+            same = (node.lower(), ref.lower()) == (system.node, system.ref)
+            out[name] = system if same else with_output(system, node, ref)
         except ElaborationError as err:
             raise SpecError(f"outputs.{name}: {err.message}", code="spec-203",
                             path=spec.path, where=f"outputs.{name}") from None
@@ -371,8 +372,8 @@ def _other_outputs(spec: Spec, system: System, grid: np.ndarray, probe: SpecProb
     """Solve every named output but the main one (whose probe is ``probe``), each checked
     for signal; fill ``probe.siblings`` with every output's probe (the main one too)."""
     out: list[tuple[str, Response]] = []
-    for k, (name, sys_o) in enumerate(output_systems(spec, system).items()):
-        if k == 0:
+    for name, sys_o in output_systems(spec, system).items():
+        if sys_o is system:
             probe.siblings[name] = probe
             continue
         response = solve(sys_o, grid)

@@ -196,14 +196,34 @@ def _judge_chunk(system: System, spec: Spec, values: dict[str, np.ndarray], n: i
         for name, r in ss.bias.regions.items():
             regions.setdefault(name, []).append(r)
     rows = []
-    for lim in spec.limits:
-        rows.extend(lim.judge_batch(bp))
+    probes = _output_probes(system, spec, values, n, memory, bp)
+    for k, lim in enumerate(spec.limits):  # each on the samples of the output it names
+        rows.extend(lim.judge_batch(probes[spec.output_of(k)] if probes else bp))
     try:
         res = bp.resonance(None, None)
         meas = {k: res[k] for k in MEASUREMENT_KEYS}
     except (ValueError, IndexError):
         meas = {}
     return rows, meas, np.nanmin(bp.gain, axis=0), np.nanmax(bp.gain, axis=0)
+
+
+def _output_probes(system: System, spec: Spec, values: dict[str, np.ndarray], n: int,
+                   memory: int, bp: BatchProbe) -> dict[str, BatchProbe]:
+    """The samples of every named output (``[outputs]``): ``bp`` for the output of
+    ``system``, a SampleSet of its own (same parts, another selector) for each other
+    one; each probe's ``siblings`` holds them all (a crossover compares two). Empty
+    for a spec with one output."""
+    if not spec.outputs:
+        return {}
+    from .nominal import output_systems
+
+    probes: dict[str, BatchProbe] = {}
+    for name, sys_o in output_systems(spec, system).items():
+        probes[name] = bp if sys_o is system else BatchProbe(
+            SampleSet(sys_o, values, n, spec.sweep.grid(), memory), spec.ports)
+    for p in probes.values():
+        p.siblings = probes
+    return probes
 
 
 def _chunk_size(system: System, spec: Spec, memory: int) -> int:
