@@ -2,12 +2,13 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from typing import Any
 
 import numpy as np
 
-from ..result import SpecResult
+from ..result import Curves, SpecResult
 from ..netlist.units import format_eng, format_si
 from .plot_base import (FONT_PT, PALETTE, Plot, Tag, figure_keys, frequency_axis, legend_above,
                         mark_zoom, new_figure, si_scale, style_axes, to_svg)
@@ -229,7 +230,62 @@ def _figures(spec: SpecResult) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
     """(title, caption, matplotlib Figure, key) of each of the report's figures for ``spec``."""
     if spec.curves is None or spec.curves.frequency_hz.size < 2:
         return []
+    if spec.curves.outputs:
+        return _output_figures(spec)
+    return _response_figures(spec)
+
+
+def _output_figures(spec: SpecResult) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
+    """A spec with named outputs: the main output's figures (zoom and phase panels as for
+    any spec), then the whole-sweep gain of each other output; each figure draws its
+    output's curve with that output's mask bands and failed worst points only."""
+    names = list(dict(spec.sweep).get("outputs") or {})
+    nodes = dict(spec.sweep).get("outputs") or {}
+    main = names[0] if names else ""
+
+    def words(name: str) -> str:
+        p, n = (nodes.get(name) or ["?", "0"])[:2]
+        return f"output {name}, V({p})" + ("" if n == "0" else f" − V({n})")
+
+    def mine(name: str, lim: Any) -> bool:
+        return name in (lim.output or main).split("/")
+
+    def view(name: str) -> SpecResult:
+        return dataclasses.replace(spec, mask=tuple(b for b in spec.mask
+                                                    if (b.output or main) == name))
+
+    out = []
+    first = _response_figures(view(main), lambda lim: mine(main, lim))
+    for title, caption, fig, keys in first:
+        out.append((f"{title}: {words(main)}",
+                    f"{caption} The main output ({words(main)}); each other output has a "
+                    "figure of its own below, with its own limits.", fig, keys))
+    c = spec.curves
+    nan = np.full(c.frequency_hz.shape, np.nan)
+    for name, _, gain in c.outputs:
+        own = dataclasses.replace(view(name), measurements=(), curves=Curves(
+            c.frequency_hz, gain, nan, nan))
+        masks, fails = tags_for(own)
+        fails = {i: t for i, t in fails.items() if mine(name, own.limits[i])}
+        drawn: list[Tag] = []
+        fig = _gain_overview(own, masks, fails, None, drawn)
+        f = c.frequency_hz
+        out.append((f"Gain over the whole sweep: {words(name)}",
+                    f"Gain of {words(name)} in dB against frequency, "
+                    f"{format_si(float(f[0]), 'Hz')} to {format_si(float(f[-1]), 'Hz')}, "
+                    "same stimulus, with the mask of this output's limits: allowed regions "
+                    "tinted, forbidden regions hatched (cross-hatched where the limit "
+                    "failed).", fig, figure_keys(drawn)))
+    return out
+
+
+def _response_figures(spec: SpecResult, keep: Any = None
+                      ) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
+    """The figures of one output's response (``keep``: which limits' failed worst points
+    they mark; all by default)."""
     masks, fails = tags_for(spec)
+    if keep is not None:
+        fails = {i: t for i, t in fails.items() if keep(spec.limits[i])}
     zoom = zoom_window(spec)
     f = spec.curves.frequency_hz
     envelope = envelope_caption(spec)
