@@ -35,6 +35,8 @@ MINIMAL_TOML = {
     "impedance": 'kind = "impedance"\nband = ["100", "1k"]\nrange = ["1k", "2k"]',
     "notch": 'kind = "notch"\ndepth_db = { min = 40 }',
     "port": 'kind = "port"\nquantity = "transducer_gain"\nband = ["100", "1k"]\nmin = -1',
+    "crossover": 'kind = "crossover"\noutputs = ["low", "high"]\nband = ["100", "10k"]\n'
+                 'range = ["900", "1.1k"]',
 }
 
 
@@ -48,7 +50,7 @@ def test_table_lists_the_kinds_in_their_order():
     # the order is the order of the worst case and of every listing of kinds
     assert list(KINDS) == ["gain", "ripple", "resonance", "corner", "bandwidth",
                            "shape_factor", "group_delay", "phase", "impedance", "notch",
-                           "port"]
+                           "port", "crossover"]
     assert list(LIMITS) == list(KINDS) and len(LIMITS) == len(KINDS)
     assert set(MINIMAL_TOML) == set(KINDS)
 

@@ -124,6 +124,8 @@ FULL_TABLES = {
               "level_db": 3, "width": ["100", "2k"], "q": {"nominal": 1, "tolerance": "10%"}},
     "port": {"kind": "port", "name": "p", "quantity": "return_loss", "port": "input",
              "band": ["100", "1k"], "min": 10, "max": 40},
+    "crossover": {"kind": "crossover", "name": "x", "outputs": ["low", "high"],
+                  "band": ["100", "10k"], "range": ["900", "1.1k"], "level_db": [-3.2, -2.8]},
 }
 #: keys that exclude those of the full table (another form of the same kind): one more
 #: table each, so that every key is used by some table of its kind

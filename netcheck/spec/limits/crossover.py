@@ -40,9 +40,7 @@ class CrossoverLimit(Limit):
     kind: ClassVar[str] = "crossover"
     SUMMARY: ClassVar[str] = ("frequency where two named outputs have equal gain, and the "
                               "gain there")
-    METHOD: ClassVar[str] = ("lowest frequency in the band where the gain of the ratio of "
-                             "the two responses crosses 0 dB; Brent's root-finding on the "
-                             "exact gains")
+    METHOD: ClassVar[str] = "first 0 dB crossing of the gain ratio; Brent's root on exact gains"
     KEYS: ClassVar[dict[str, str]] = {
         "outputs": "the two outputs compared, [name, name] from [outputs]",
         "band": "[start, stop] band searched for the crossover, Hz",
