@@ -309,3 +309,18 @@ def test_an_output_without_signal_is_refused_at_its_name(tmp_path):
                               'low = "lp"\nnothing = "far"\n'))
     assert result.status is Status.ERROR
     assert "analysis-304" in result.error and "outputs.nothing" in result.error
+
+
+def test_the_crossover_section_shows_the_samples_rows():
+    # docs/spec-format.md's crossover section states specs/qm_sv1_split.toml's limits and
+    # shows the rows the check prints for them
+    doc = (ROOT / "docs" / "spec-format.md").read_text("utf-8")
+    section = doc.split("### `crossover`:")[1].split("\n## ")[0]
+    shown = section.split('kind = "crossover"')[1].split("```\n")[2].split("```")[0]
+    got = rows(check_spec(str(SAMPLE), plot_detail=False))
+    names = ["low channel stop-band", "band channel: centre", "band channel: Q",
+             "low/high crossover: frequency", "low/high crossover: level"]
+    for name in names:
+        r = got[name]
+        line = next(x for x in shown.splitlines() if f"{name} [{r.output}]" in x)
+        assert r.figures.measured in line and r.figures.margin in line, name
