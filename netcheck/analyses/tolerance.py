@@ -209,16 +209,20 @@ def _judge_chunk(system: System, spec: Spec, values: dict[str, np.ndarray], n: i
 
 def _output_probes(system: System, spec: Spec, values: dict[str, np.ndarray], n: int,
                    memory: int, bp: BatchProbe) -> dict[str, BatchProbe]:
-    """The samples of every named output (``[outputs]``): ``bp`` for the output of
-    ``system``, a SampleSet of its own (same parts, another selector) for each other
-    one; each probe's ``siblings`` holds them all (a crossover compares two). Empty
-    for a spec with one output."""
+    """The samples of every named output (``[outputs]``) the limits judge: ``bp`` for
+    the output of ``system``, a SampleSet of its own (same parts, another selector) for
+    each other one; each probe's ``siblings`` holds them all (a crossover compares two).
+    Empty for a spec with one output."""
     if not spec.outputs:
         return {}
     from .nominal import output_systems
 
+    used = {spec.output_of(k) for k in range(len(spec.limits))}
+    used.update(n for lim in spec.limits for n in getattr(lim, "outputs", ()))
     probes: dict[str, BatchProbe] = {}
     for name, sys_o in output_systems(spec, system).items():
+        if name not in used:
+            continue
         probes[name] = bp if sys_o is system else BatchProbe(
             SampleSet(sys_o, values, n, spec.sweep.grid(), memory), spec.ports)
     for p in probes.values():
