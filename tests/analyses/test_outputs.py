@@ -324,3 +324,22 @@ def test_the_crossover_section_shows_the_samples_rows():
         r = got[name]
         line = next(x for x in shown.splitlines() if f"{name} [{r.output}]" in x)
         assert r.figures.measured in line and r.figures.margin in line, name
+
+
+def test_the_pdf_draws_each_output_with_its_own_mask():
+    from netcheck.report.plot_response import spec_plots
+
+    result = check_spec(str(SAMPLE))
+    plots = spec_plots(result)
+    by_output: dict[str, set[str]] = {}
+    for plot in plots:
+        out = plot.title.split(": output ")[1].split(",")[0]
+        by_output.setdefault(out, set()).update(k.name for k in plot.keys)
+    assert set(by_output) == {"low", "band", "high"}
+    # each figure's mask bands are its own output's limits only (the rows' output)
+    outputs = {r.name: r.output for r in result.limits}
+    for out, names in by_output.items():
+        assert all(outputs[n] == out for n in names), (out, names)
+    # the gain limits draw bands; the band channel's resonance limit draws none
+    assert by_output["low"] == {"low channel pass-band", "low channel stop-band"}
+    assert by_output["high"] == {"high channel pass-band"} and by_output["band"] == set()
