@@ -168,8 +168,21 @@ mode = ["nominal", "worst_case"]
             up = pair_crossover(**{**base, k: base[k] * (1 + 1e-5)})
             down = pair_crossover(**{**base, k: base[k] * (1 - 1e-5)})
             span += abs((up - down) / 2e-5) * 0.02
-        assert entry["min"] == pytest.approx(F0 - span, rel=1e-5)
-        assert entry["max"] == pytest.approx(F0 + span, rel=1e-5)
+        assert entry["min"] == pytest.approx(F0 - span, rel=1e-7)
+        assert entry["max"] == pytest.approx(F0 + span, rel=1e-7)
+        assert entry["sensitivity_method"] == "adjoint"
+        # the level there, 20·log10|LP(f_x)|, the same way
+        def level(**parts):
+            return 20 * math.log10(lp_hp_gains(pair_crossover(**parts), **parts)[0])
+
+        span_db = sum(abs(level(**{**base, k: base[k] * (1 + 1e-5)})
+                          - level(**{**base, k: base[k] * (1 - 1e-5)})) / 2e-5 * 0.02
+                      for k in base)
+        lv = next(e for e in wc["limits"] if e["name"] == "x: level")
+        assert lv["sensitivity_method"] == "adjoint"
+        nominal_db = 20 * math.log10(1 / math.sqrt(2))
+        assert lv["min"] == pytest.approx(nominal_db - span_db, abs=1e-7)
+        assert lv["max"] == pytest.approx(nominal_db + span_db, abs=1e-7)
         # all 16 corners of the tolerance box, each crossover by brentq (here)
         import itertools
         at = [pair_crossover(**{k: base[k] * e for k, e in zip(base, ends)})

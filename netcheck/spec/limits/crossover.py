@@ -12,18 +12,22 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, ClassVar
 
+import math
+
 import numpy as np
 
-from .base import Limit, Probe, Rows, band_text, judge_range, range_margin
+from .base import Limit, Linearised, Probe, Rows, band_text, judge_range, range_margin
 from ..reader import SpecReader, Sweep
 from ...measure.measurements import Extremum, MeasurementFailure, crossover
 from ...result import LimitResult
 
 if TYPE_CHECKING:  # pragma: no cover
     from ...analyses.sample_probe import BatchProbe
+    from ...mna.sensitivity import AdjointSensitivity
 
 __all__ = ["CrossoverLimit"]
 
+_DB = 20.0 / math.log(10.0)  # dB per neper
 #: bisection steps per sample in Monte Carlo (the bracket shrinks 2⁻⁶⁰ in log f)
 _BISECTIONS = 60
 
@@ -113,6 +117,31 @@ class CrossoverLimit(Limit):
             out.append((f"{self.name}: frequency", *range_margin(*self.range, f, f)))
         if self.level is not None:
             out.append((f"{self.name}: level", *range_margin(*self.level, level, level)))
+        return out
+
+    def sensitivities(self, probe: Probe, adj: "AdjointSensitivity") -> list[Linearised]:
+        """The crossover f (where D = g_a − g_b = 0) moves by −(∂D/∂ln p)/(∂D/∂f) (implicit
+        differentiation); the level g_a(f) by ∂g_a/∂ln p + g_a′·∂f/∂ln p. Each output's
+        derivatives come from the adjoint of its own System."""
+        from ...mna.sensitivity import AdjointSensitivity
+
+        probes = [probe.sibling(n) for n in self.outputs]  # type: ignore[attr-defined]
+        f, level = crossover(probes[0].curve, probes[1].curve, *self.band)
+        d = []
+        for p in probes:
+            system = p.curve.response.system
+            own = adj if adj.system is system else AdjointSensitivity(system, adj.parts)
+            d.append(own.log_derivatives(f))
+        d_p = _DB * (d[0].w_p[0].real - d[1].w_p[0].real)
+        d_f = _DB * (d[0].w_f[0].real - d[1].w_f[0].real)
+        with np.errstate(all="ignore"):
+            df = -d_p / d_f
+        dl = _DB * d[0].w_p[0].real + _DB * d[0].w_f[0].real * df
+        out = []
+        if self.range is not None:
+            out.append(Linearised(f"{self.name}: frequency", f, df, f, df))
+        if self.level is not None:
+            out.append(Linearised(f"{self.name}: level", level, dl, level, dl))
         return out
 
 
