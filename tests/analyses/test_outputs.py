@@ -275,6 +275,8 @@ SWEEP = '[sweep]\nstart = "10"\nstop = "100k"\n'
     (HEAD + '[outputs]\nlow = ["lp", "lp"]\n' + SWEEP, "outputs.low", "spec-265",
      "against itself"),
     (HEAD + '[outputs]\nlow = 3\n' + SWEEP, "outputs.low", "spec-265", "node name"),
+    (HEAD + '[outputs]\n' + "".join(f'o{k} = "n{k}"\n' for k in range(17)) + SWEEP,
+     "outputs", "spec-205", "over the budget of 16"),
     (HEAD + '[outputs]\nlow = "lp"\nhigh = "hp"\n' + SWEEP +
      '[[limits]]\nkind = "gain"\noutput = "hihg"\nband = ["10", "1k"]\nmax_db = 1\n',
      "limits[0].output", "spec-266", "did you mean 'high'?"),
