@@ -180,16 +180,17 @@ class Curves:
     detail_gain_db: np.ndarray | None = None
     detail_phase_deg: np.ndarray | None = None
     detail_group_delay_s: np.ndarray | None = None
-    #: the gain of every named output but the main one (``[outputs]``) on the grid:
-    #: (name, (node, reference), gain dB); the main output's curve is ``gain_db``
-    outputs: tuple[tuple[str, tuple[str, str], np.ndarray], ...] = ()
+    #: every named output but the main one (``[outputs]``) on the grid: (name, (node,
+    #: reference), gain dB, phase deg, group delay s); the main one's are the fields above
+    outputs: tuple[tuple[str, tuple[str, str], np.ndarray, np.ndarray, np.ndarray], ...] = ()
 
     def __eq__(self, other: object) -> bool:
         if not isinstance(other, Curves):
             return NotImplemented
-        if [(n, p) for n, p, _ in self.outputs] != [(n, p) for n, p, _ in other.outputs] \
-                or not all(np.array_equal(a[2], b[2], equal_nan=True)
-                           for a, b in zip(self.outputs, other.outputs)):
+        if [o[:2] for o in self.outputs] != [o[:2] for o in other.outputs] \
+                or not all(np.array_equal(x, y, equal_nan=True)
+                           for a, b in zip(self.outputs, other.outputs)
+                           for x, y in zip(a[2:], b[2:])):
             return False
         return all(np.array_equal(getattr(self, k), getattr(other, k), equal_nan=True)
                    if getattr(self, k) is not None else getattr(other, k) is None

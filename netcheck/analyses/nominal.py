@@ -355,8 +355,8 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
     curves = Curves(grid, response.magnitude_db, response.phase_deg, response.group_delay_s,
                     *envelope, **(_detail(response, grid, curve, measurements, limits)
                                   if plot_detail else {}),
-                    outputs=tuple((n, spec.output_pair(n), r.magnitude_db)
-                                  for n, r in others))
+                    outputs=tuple((n, spec.output_pair(n), r.magnitude_db, r.phase_deg,
+                                   r.group_delay_s) for n, r in others))
     status = worst_status(r.status for r in limits)
     return SpecResult(
         spec=spec.path, netlist=spec.netlist, title=spec.title or circuit.title or spec.path,

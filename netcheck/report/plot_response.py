@@ -27,8 +27,8 @@ _PANELS = {
 }
 
 
-def _extra_panels(spec: SpecResult) -> list[str]:
-    kinds = {lim.kind for lim in spec.limits}
+def _extra_panels(spec: SpecResult, keep: Any = None) -> list[str]:
+    kinds = {lim.kind for lim in spec.limits if keep is None or keep(lim)}
     kinds |= {k for k, p in _PANELS.items() if any(b.quantity == p[1] for b in spec.mask)}
     return [k for k in _PANELS if k in kinds]
 
@@ -176,8 +176,8 @@ def _panel_span(spec: SpecResult, quantity: str,
 
 
 def _phase_delay(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
-                 zoom: tuple[float, float] | None, drawn: list[Tag]) -> Any:
-    kinds = _extra_panels(spec)
+                 zoom: tuple[float, float] | None, drawn: list[Tag], keep: Any = None) -> Any:
+    kinds = _extra_panels(spec, keep)
     fig = new_figure(1.65 * len(kinds) + 0.45)
     n = len(kinds)
     bottom_margin, top_margin = 0.42 / fig.get_figheight(), 0.08 / fig.get_figheight()
@@ -236,9 +236,10 @@ def _figures(spec: SpecResult) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
 
 
 def _output_figures(spec: SpecResult) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
-    """A spec with named outputs: the main output's figures (zoom and phase panels as for
-    any spec), then the whole-sweep gain of each other output; each figure draws its
-    output's curve with that output's mask bands and failed worst points only."""
+    """A spec with named outputs: each output's figures (whole sweep, the zoom on its
+    pass-band, its phase and delay panels), the main output's first; each figure draws
+    its output's curves with that output's mask bands and failed worst points only (the
+    Monte Carlo envelope and the key measurements are the main output's)."""
     names = list(dict(spec.sweep).get("outputs") or {})
     nodes = dict(spec.sweep).get("outputs") or {}
     main = names[0] if names else ""
@@ -258,24 +259,17 @@ def _output_figures(spec: SpecResult) -> list[tuple[str, str, Any, tuple[Tag, ..
     first = _response_figures(view(main), lambda lim: mine(main, lim))
     for title, caption, fig, keys in first:
         out.append((f"{title}: {words(main)}",
-                    f"{caption} The main output ({words(main)}); each other output has a "
-                    "figure of its own below, with its own limits.", fig, keys))
+                    f"{caption} The main output ({words(main)}); the other outputs have "
+                    "figures of their own below, each with its own limits.", fig, keys))
     c = spec.curves
-    nan = np.full(c.frequency_hz.shape, np.nan)
-    for name, _, gain in c.outputs:
+    for name, _, gain, phase, delay in c.outputs:
         own = dataclasses.replace(view(name), measurements=(), curves=Curves(
-            c.frequency_hz, gain, nan, nan))
-        masks, fails = tags_for(own)
-        fails = {i: t for i, t in fails.items() if mine(name, own.limits[i])}
-        drawn: list[Tag] = []
-        fig = _gain_overview(own, masks, fails, None, drawn)
-        f = c.frequency_hz
-        out.append((f"Gain over the whole sweep: {words(name)}",
-                    f"Gain of {words(name)} in dB against frequency, "
-                    f"{format_si(float(f[0]), 'Hz')} to {format_si(float(f[-1]), 'Hz')}, "
-                    "same stimulus, with the mask of this output's limits: allowed regions "
-                    "tinted, forbidden regions hatched (cross-hatched where the limit "
-                    "failed).", fig, figure_keys(drawn)))
+            c.frequency_hz, gain, phase, delay))
+        for title, caption, fig, keys in _response_figures(own, lambda lim, n=name:
+                                                           mine(n, lim)):
+            out.append((f"{title}: {words(name)}",
+                        f"{caption} The curve is {words(name)} (same stimulus); the mask, "
+                        "that of its own limits.", fig, keys))
     return out
 
 
@@ -311,11 +305,11 @@ def _response_figures(spec: SpecResult, keep: Any = None
                "edges f_low and f_high, the centre f_center = √(f_low·f_high), the bandwidth "
                "and Q." if resonant else ".") + envelope,
             fig, figure_keys(drawn)))
-    panels = _extra_panels(spec)
+    panels = _extra_panels(spec, keep)
     if panels:
         names = " and ".join(_PANELS[k][2].lower() for k in panels)
         drawn = []
-        fig = _phase_delay(spec, masks, fails, zoom, drawn)
+        fig = _phase_delay(spec, masks, fails, zoom, drawn, keep)
         out.append((names[0].upper() + names[1:],
                     f"{names[0].upper()}{names[1:]} against frequency, for the limits on "
                     "them (their bounds and margins are in the summary table).",
