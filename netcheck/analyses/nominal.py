@@ -23,6 +23,7 @@ from ..spec.load import Spec, load_spec, locate
 from ..netlist.units import format_eng, format_si
 from .hazard import magnification_caution
 from .operating import operating_point_block, region_cautions, stability_caution
+from .outputs import output_label, output_systems
 from .registry import Nominal, diag_caution, run_analyses
 
 __all__ = ["ResponseCurve", "SpecProbe", "evaluate", "check_spec", "seeds_from_roots",
@@ -214,35 +215,6 @@ def _assemble_for(spec: Spec, circuit: Circuit) -> System:
             key = f"outputs.{spec.outputs[0][0]}"
         raise SpecError(f"{key}: {err.message}", code="spec-203", path=spec.path,
                         where=key) from None
-
-
-def output_systems(spec: Spec, system: System) -> dict[str, System]:
-    """The System of each named output of ``spec``: ``system`` for its own output, the
-    others sharing its matrices; empty for a spec with the single ``output``.
-
-    Raises
-    ------
-    SpecError
-        spec-203 at ``outputs.<name>`` for a node the circuit does not have.
-    """
-    from ..mna.assemble import with_output
-
-    out = {}
-    for name, (node, ref) in spec.outputs:
-        try:
-            same = (node.lower(), ref.lower()) == (system.node, system.ref)
-            out[name] = system if same else with_output(system, node, ref)
-        except ElaborationError as err:
-            raise SpecError(f"outputs.{name}: {err.message}", code="spec-203",
-                            path=spec.path, where=f"outputs.{name}") from None
-    return out
-
-
-def output_label(spec: Spec, k: int) -> str | None:
-    """What the rows of ``spec.limits[k]`` say they judged: the output's name, the two
-    names of a crossover (``low/high``), None in a spec with the single ``output``."""
-    pair = getattr(spec.limits[k], "outputs", None)
-    return "/".join(pair) if pair else spec.output_of(k)
 
 
 #: a sweep whose largest gain is this far below 0 dB is tested for rounding noise

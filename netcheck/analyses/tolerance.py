@@ -31,6 +31,7 @@ from ..netlist.elaborate import Circuit
 from ..netlist.ports import PORT_ELEMENTS
 from ..exceptions import SpecError
 from ..result import LimitResult, Status
+from .outputs import output_probes
 from .sample_probe import BatchProbe
 from ..mna.sampling import SampleSet
 from ..spec.load import Spec
@@ -196,7 +197,7 @@ def _judge_chunk(system: System, spec: Spec, values: dict[str, np.ndarray], n: i
         for name, r in ss.bias.regions.items():
             regions.setdefault(name, []).append(r)
     rows = []
-    probes = _output_probes(system, spec, values, n, memory, bp)
+    probes = output_probes(system, spec, values, n, memory, bp)
     for k, lim in enumerate(spec.limits):  # each on the samples of the output it names
         rows.extend(lim.judge_batch(probes[spec.output_of(k)] if probes else bp))
     try:
@@ -205,29 +206,6 @@ def _judge_chunk(system: System, spec: Spec, values: dict[str, np.ndarray], n: i
     except (ValueError, IndexError):
         meas = {}
     return rows, meas, np.nanmin(bp.gain, axis=0), np.nanmax(bp.gain, axis=0)
-
-
-def _output_probes(system: System, spec: Spec, values: dict[str, np.ndarray], n: int,
-                   memory: int, bp: BatchProbe) -> dict[str, BatchProbe]:
-    """The samples of every named output (``[outputs]``) the limits judge: ``bp`` for
-    the output of ``system``, a SampleSet of its own (same parts, another selector) for
-    each other one; each probe's ``siblings`` holds them all (a crossover compares two).
-    Empty for a spec with one output."""
-    if not spec.outputs:
-        return {}
-    from .nominal import output_systems
-
-    used = {spec.output_of(k) for k in range(len(spec.limits))}
-    used.update(n for lim in spec.limits for n in getattr(lim, "outputs", ()))
-    probes: dict[str, BatchProbe] = {}
-    for name, sys_o in output_systems(spec, system).items():
-        if name not in used:
-            continue
-        probes[name] = bp if sys_o is system else BatchProbe(
-            SampleSet(sys_o, values, n, spec.sweep.grid(), memory), spec.ports)
-    for p in probes.values():
-        p.siblings = probes
-    return probes
 
 
 def _chunk_size(system: System, spec: Spec, memory: int) -> int:

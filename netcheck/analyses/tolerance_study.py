@@ -68,7 +68,7 @@ def _worst_case(nominal: Nominal, parts: list, analysis: object) -> tuple[dict, 
     """
     import dataclasses
 
-    from .nominal import output_label, output_systems
+    from .outputs import output_label, output_systems
     from .worstcase import worst_case
 
     spec = nominal.spec
