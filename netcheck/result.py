@@ -78,6 +78,9 @@ class LimitResult:
     #: the measured level (dB re the stimulus) a relative gain is stated against (the
     #: mean pass-band gain, say); None for an absolute value
     reference_db: float | None = None
+    #: the named output the row judged (``[outputs]``; ``low/high`` for a crossover);
+    #: None in a spec with the single ``output``
+    output: str | None = None
 
     @property
     def below_floor(self) -> bool:
@@ -157,6 +160,8 @@ class MaskBand:
     #: ``f_lo_hz``): straight in log f between them; None where the bound is flat
     lo_end: float | None = None
     hi_end: float | None = None
+    #: the named output whose curve the region bounds (``[outputs]``); None: the main one
+    output: str | None = None
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -175,10 +180,18 @@ class Curves:
     detail_gain_db: np.ndarray | None = None
     detail_phase_deg: np.ndarray | None = None
     detail_group_delay_s: np.ndarray | None = None
+    #: every named output but the main one (``[outputs]``) on the grid: (name, (node,
+    #: reference), gain dB, phase deg, group delay s); the main one's are the fields above
+    outputs: tuple[tuple[str, tuple[str, str], np.ndarray, np.ndarray, np.ndarray], ...] = ()
 
     def __eq__(self, other: object) -> bool:
         if not isinstance(other, Curves):
             return NotImplemented
+        if [o[:2] for o in self.outputs] != [o[:2] for o in other.outputs] \
+                or not all(np.array_equal(x, y, equal_nan=True)
+                           for a, b in zip(self.outputs, other.outputs)
+                           for x, y in zip(a[2:], b[2:])):
+            return False
         return all(np.array_equal(getattr(self, k), getattr(other, k), equal_nan=True)
                    if getattr(self, k) is not None else getattr(other, k) is None
                    for k in ("frequency_hz", "gain_db", "phase_deg", "group_delay_s",

@@ -23,6 +23,7 @@ from ..spec.load import Spec, load_spec, locate
 from ..netlist.units import format_eng, format_si
 from .hazard import magnification_caution
 from .operating import operating_point_block, region_cautions, stability_caution
+from .outputs import output_label, output_systems
 from .registry import Nominal, diag_caution, run_analyses
 
 __all__ = ["ResponseCurve", "SpecProbe", "evaluate", "check_spec", "seeds_from_roots",
@@ -145,6 +146,12 @@ class SpecProbe:
     #: the spec's ports (netcheck.netlist.ports.PortSpec), None without ``[ports]``
     ports: object = None
     _ports: object = None
+    #: every named output's probe by name (``[outputs]``), shared by all of them
+    siblings: dict = field(default_factory=dict)
+
+    def sibling(self, name: str) -> "SpecProbe":
+        """The probe of the output named ``name`` (a crossover compares two)."""
+        return self.siblings[name]
 
     def port_extremes(self, port: str, quantity: str, lo_hz: float, hi_hz: float
                       ) -> tuple[Extremum, Extremum]:
@@ -225,6 +232,8 @@ def _assemble_for(spec: Spec, circuit: Circuit) -> System:
         return assemble(circuit, spec.source, spec.output[0], spec.output[1])
     except ElaborationError as err:
         key = "source" if err.code == "netlist-107" else "output"
+        if key == "output" and spec.outputs:
+            key = f"outputs.{spec.outputs[0][0]}"
         raise SpecError(f"{key}: {err.message}", code="spec-203", path=spec.path,
                         where=key) from None
 
@@ -233,7 +242,8 @@ def _assemble_for(spec: Spec, circuit: Circuit) -> System:
 _DEAD_SCREEN_DB = -100.0
 
 
-def _require_signal(spec: Spec, system: System, response: Response) -> None:
+def _require_signal(spec: Spec, system: System, response: Response,
+                    name: str | None = None) -> None:
     """Refuse a response with no signal in it (analysis-304), so no limit can pass on it.
 
     An output that is not driven (a node off the signal path, ground against a ground
@@ -245,23 +255,25 @@ def _require_signal(spec: Spec, system: System, response: Response) -> None:
     """
     gain = response.magnitude_db
     k = int(np.argmax(np.where(np.isnan(gain), -np.inf, gain)))
-    out = f"V({spec.output[0]})" + ("" if spec.output[1] == "0" else f" − V({spec.output[1]})")
+    pair = spec.output_pair(name)
+    out = f"V({pair[0]})" + ("" if pair[1] == "0" else f" − V({pair[1]})")
+    where = f"outputs.{name}" if name else "output"
     lo, hi = format_si(spec.sweep.start_hz, "Hz", 4), format_si(spec.sweep.stop_hz, "Hz", 4)
     tail = (f"so no limit can be judged. Check that the output is driven by {system.source} "
             "and, for a differential output, that its two sides are not balanced")
     if gain[k] == -math.inf:
-        raise SpecError(f"output: no signal: {out} is exactly zero at every frequency from "
-                        f"{lo} to {hi}, {tail}", code="analysis-304", path=spec.path, where="output")
+        raise SpecError(f"{where}: no signal: {out} is exactly zero at every frequency from "
+                        f"{lo} to {hi}, {tail}", code="analysis-304", path=spec.path, where=where)
     if gain[k] > _DEAD_SCREEN_DB:
         return
     from ..spec.limits.base import rounding_floor_db
     floor = rounding_floor_db(system, float(response.frequency_hz[k]))
     if floor is not None and gain[k] <= floor:
         raise SpecError(
-            f"output: no signal: the largest gain from {lo} to {hi}, "
+            f"{where}: no signal: the largest gain from {lo} to {hi}, "
             f"{format_eng(gain[k], 'dB', 1)} at {format_si(float(response.frequency_hz[k]), 'Hz', 5)}, lies below "
             f"the rounding floor of the solve there ({format_eng(floor, 'dB', 1)}): {out} cannot be told "
-            f"from zero, {tail}", code="analysis-304", path=spec.path, where="output")
+            f"from zero, {tail}", code="analysis-304", path=spec.path, where=where)
 
 
 def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
@@ -289,9 +301,13 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         _require_signal(spec, system, response)
         curve = ResponseCurve.of(response)
         probe = SpecProbe(curve, spec.sweep, ports=spec.ports)
+        others = _other_outputs(spec, system, grid, probe)
         limits = []
-        for lim in spec.limits:
-            limits.extend(lim.judge(probe))
+        for k, lim in enumerate(spec.limits):
+            name = spec.output_of(k)
+            rows = lim.judge(probe.siblings[name] if name else probe)
+            label = output_label(spec, k)
+            limits.extend(dataclasses.replace(r, output=label) if label else r for r in rows)
         measurements = _measurements(probe)
     for w in caught:
         if issubclass(w.category, NetcheckWarning):
@@ -323,7 +339,8 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
     magnified = magnification_caution(response, limits, curve.seeds_hz)
     if magnified is not None:  # the hazard caution only where a result warrants it
         cautions.append(magnified)
-    mask = tuple(m for lim in spec.limits for m in lim.mask())
+    mask = tuple(dataclasses.replace(m, output=spec.output_of(k)) if spec.outputs else m
+                 for k, lim in enumerate(spec.limits) for m in lim.mask())
     failed_names = {r.name for r in limits if r.status is not Status.PASS}
     mask = tuple(dataclasses.replace(m, failed=m.label in failed_names) for m in mask)
     inputs = tuple((s.path, _sha256(s.text)) for s in circuit.sources)
@@ -334,9 +351,13 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
                   ("unknowns", system.size), ("seeds", int(curve.seeds_hz.size)),
                   ("source", system.source), ("output", list(spec.output)),
                   ("stimulus_unit", "V" if src.letter == "V" else "A"))
+    if spec.outputs:
+        sweep_info += (("outputs", {n: list(p) for n, p in spec.outputs}),)
     curves = Curves(grid, response.magnitude_db, response.phase_deg, response.group_delay_s,
                     *envelope, **(_detail(response, grid, curve, measurements, limits)
-                                  if plot_detail else {}))
+                                  if plot_detail else {}),
+                    outputs=tuple((n, spec.output_pair(n), r.magnitude_db, r.phase_deg,
+                                   r.group_delay_s) for n, r in others))
     status = worst_status(r.status for r in limits)
     return SpecResult(
         spec=spec.path, netlist=spec.netlist, title=spec.title or circuit.title or spec.path,
@@ -345,6 +366,23 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         curves=curves, mask=mask,
         source_text=tuple((s.path, s.text) for s in circuit.sources) + ((spec.path, spec.text),),
         extra=tuple(extra))
+
+
+def _other_outputs(spec: Spec, system: System, grid: np.ndarray, probe: SpecProbe
+                   ) -> list[tuple[str, Response]]:
+    """Solve every named output but the main one (whose probe is ``probe``), each checked
+    for signal; fill ``probe.siblings`` with every output's probe (the main one too)."""
+    out: list[tuple[str, Response]] = []
+    for name, sys_o in output_systems(spec, system).items():
+        if sys_o is system:
+            probe.siblings[name] = probe
+            continue
+        response = solve(sys_o, grid)
+        _require_signal(spec, sys_o, response, name)
+        probe.siblings[name] = SpecProbe(ResponseCurve.of(response), spec.sweep,
+                                         siblings=probe.siblings)
+        out.append((name, response))
+    return out
 
 
 def _measurements(probe: SpecProbe) -> tuple[tuple[str, float], ...]:

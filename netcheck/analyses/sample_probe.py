@@ -66,6 +66,8 @@ class BatchProbe:
         self.gain = ss.grid_gain_db()
         self._h: np.ndarray | None = None
         self._cache: dict = {}
+        #: every named output's probe by name (``[outputs]``; a crossover compares two)
+        self.siblings: dict[str, "BatchProbe"] = {}
 
     def each_sample(self) -> Any:
         """Each sample as a circuit of its own (:func:`.noise_probe.each_sample`)."""

@@ -32,6 +32,7 @@ from ..netlist.ports import PORT_ELEMENTS
 from ..exceptions import SpecError
 from ..result import LimitResult, Status
 from .part_values import with_values
+from .outputs import output_probes
 from .sample_probe import BatchProbe
 from ..mna.sampling import SampleSet
 from ..spec.load import Spec
@@ -197,8 +198,9 @@ def _judge_chunk(system: System, spec: Spec, values: dict[str, np.ndarray], n: i
         for name, r in ss.bias.regions.items():
             regions.setdefault(name, []).append(r)
     rows = []
-    for lim in spec.limits:
-        rows.extend(lim.judge_batch(bp))
+    probes = output_probes(system, spec, values, n, memory, bp)
+    for k, lim in enumerate(spec.limits):  # each on the samples of the output it names
+        rows.extend(lim.judge_batch(probes[spec.output_of(k)] if probes else bp))
     try:
         res = bp.resonance(None, None)
         meas = {k: res[k] for k in MEASUREMENT_KEYS}

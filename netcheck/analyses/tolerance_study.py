@@ -53,8 +53,46 @@ def analyse(nominal: Nominal) -> Outcome | None:
             cautions += sample_region_cautions(mc["device_regions"], circuit,
                                                analysis.samples)
     if "worst_case" in analysis.modes:
-        wc, wc_rows = worst_case(nominal.system, spec, parts, nominal.limits,
-                                 dict(nominal.measurements), analysis, nominal.probe)
+        wc, wc_rows = _worst_case(nominal, parts, analysis)
         block["worst_case"] = wc
         rows.extend(wc_rows)
     return Outcome(tuple(rows), tuple(cautions), block, envelope)
+
+
+def _worst_case(nominal: Nominal, parts: list, analysis: object) -> tuple[dict, list]:
+    """The worst case of every limit, each on the System of the output it judges.
+
+    A spec with named outputs (``[outputs]``) runs one worst case per output that has
+    limits (the main one always: its measurements are the summary's), each on a spec
+    holding that output's limits only; their rows and JSON lists are joined.
+    """
+    import dataclasses
+
+    from .outputs import output_label, output_systems
+    from .worstcase import worst_case
+
+    spec = nominal.spec
+    if not spec.outputs:
+        return worst_case(nominal.system, spec, parts, nominal.limits,
+                          dict(nominal.measurements), analysis, nominal.probe)
+    block: dict = {}
+    rows: list = []
+    for name, system in output_systems(spec, nominal.system).items():
+        ks = [k for k in range(len(spec.limits)) if spec.output_of(k) == name]
+        main = system is nominal.system
+        if not ks and not main:
+            continue
+        own = dataclasses.replace(spec, output=spec.output_pair(name),
+                                  limits=tuple(spec.limits[k] for k in ks),
+                                  limit_outputs=tuple(name for _ in ks))
+        wc, wc_rows = worst_case(system, own, parts, nominal.limits,
+                                 dict(nominal.measurements) if main else {}, analysis,
+                                 nominal.probe.sibling(name))
+        labels = {spec.limits[k].index: output_label(spec, k) for k in ks}
+        rows.extend(dataclasses.replace(r, output=labels.get(r.index)) for r in wc_rows)
+        if not block:
+            block = wc
+        else:
+            for key in ("limits", "sensitivities"):
+                block[key] = block[key] + wc[key]
+    return block, rows

@@ -137,7 +137,8 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
         refused.update((row.name, row.refused) for row in rows if row.refused)
     keys = [k for k in nominal_measurements if k in MEASUREMENT_KEYS]
     d_meas = _measurement_sensitivities(probe, adj, keys)
-    judged = [r.name for r in nominal if r.index < len(spec.limits) and r.kind in LIMITS
+    own = {lim.index for lim in spec.limits}  # (a spec of one output's limits: theirs)
+    judged = [r.name for r in nominal if r.index in own and r.kind in LIMITS
               and r.measured is not None and math.isfinite(r.measured)
               and r.name not in refused]
     meas_method = {k: "adjoint" for k, d in d_meas.items() if np.all(np.isfinite(d))}

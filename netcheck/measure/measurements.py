@@ -14,7 +14,7 @@ from .refine import (_TWO_PI, _best, _evaluate, _find_crossing, _gain_from, _log
 
 __all__ = [
     "HALF_POWER_DB", "Curve", "Extremum", "FunctionCurve", "MeasurementFailure", "Resonance", "band_extremes",
-    "corner", "crossing", "gain_db", "group_delay_s", "peak", "phase_deg", "resonance", "ripple", "root_seeds",
+    "corner", "crossing", "crossover", "gain_db", "group_delay_s", "peak", "phase_deg", "resonance", "ripple", "root_seeds",
     "stationary_points",
 ]
 
@@ -170,6 +170,41 @@ def crossing(curve: Curve, level_db: float, start_hz: float, direction: Directio
             f"gain never crosses {level:.4g} dB {where} {_hz(start)} within the sweep (stop {_hz(limit)})"
         )
     return x
+
+
+def crossover(a: Curve, b: Curve, lo_hz: float, hi_hz: float) -> tuple[float, float]:
+    """The lowest frequency in [lo_hz, hi_hz] where the gains of ``a`` and ``b`` are equal,
+    and the gain there (dB).
+
+    It is the crossing of 0 dB by the gain of the ratio Ha/Hb, found as
+    :func:`crossing` finds any crossing (sign changes over grid, ends and the seeds of
+    both curves, hidden dips from the exact derivative of the ratio, Brent's root on
+    the exact gains), so it is as exact as the two responses. Both curves share the grid.
+
+    Raises
+    ------
+    MeasurementFailure
+        When the gains are not equal anywhere in the band.
+    """
+    def ratio(f: np.ndarray) -> np.ndarray:
+        with np.errstate(all="ignore"):
+            return a.transfer(f) / b.transfer(f)
+
+    def dratio(f: np.ndarray) -> np.ndarray:
+        ha, hb = a.transfer(f), b.transfer(f)
+        with np.errstate(all="ignore"):
+            return (a.dtransfer(f) * hb - ha * b.dtransfer(f)) / (hb * hb)
+
+    grid = _checked_grid(a.grid_hz)
+    seeds = np.unique(np.concatenate([np.asarray(a.seeds_hz, float),
+                                      np.asarray(b.seeds_hz, float)]))
+    curve = FunctionCurve(grid, ratio, dratio, seeds, roots_complete=False)
+    try:
+        f = crossing(curve, 0.0, lo_hz, "up", hi_hz)
+    except MeasurementFailure:
+        raise MeasurementFailure(f"the two gains are not equal anywhere from {_hz(lo_hz)} to "
+                                 f"{_hz(hi_hz)}") from None
+    return f, float(gain_db(a, f))
 
 
 # ----------------------------------------------------------------------------- resonance and corner

@@ -17,7 +17,7 @@ from .bias_samples import stamp_sampled
 from .stamp import Delays, Stamper, unknown_names
 
 __all__ = ["System", "Stamper", "assemble", "assemble_batch", "unknown_names",
-           "element_entries", "Delays", "delay_seeds", "DELAY_SEEDS_MAX"]
+           "element_entries", "Delays", "delay_seeds", "DELAY_SEEDS_MAX", "with_output"]
 
 #: the most seeds :func:`delay_seeds` gives one sweep
 DELAY_SEEDS_MAX = 4000
@@ -168,6 +168,31 @@ def assemble(circuit: Circuit, source: str, node: str, ref: str = GROUND) -> Sys
     src = circuit.element(source)
     return System(circuit, src.name, node.lower(), ref.lower(), st.sparse("G"), st.sparse("C"),
                   b, sel, unknowns, nodes, branches, st.delay_table())
+
+
+def with_output(system: System, node: str, ref: str = GROUND) -> System:
+    """``system`` with the output V(node) − V(ref): the same matrices and stimulus, only
+    the selector changed (one circuit, several outputs).
+
+    Raises
+    ------
+    ElaborationError
+        netlist-115 when a node is not in the circuit.
+    """
+    import dataclasses
+
+    sel = np.zeros(system.size)
+    for name, sign in ((node, 1.0), (ref, -1.0)):
+        key = name.lower()
+        key = GROUND if key == "gnd" else key
+        if key == GROUND:
+            continue
+        if key not in system.node_index:
+            raise ElaborationError(f"output node {quoted(name)} is not in the netlist",
+                                   code="netlist-115")
+        sel[system.node_index[key]] += sign
+    sel.flags.writeable = False
+    return dataclasses.replace(system, node=node.lower(), ref=ref.lower(), l=sel)
 
 
 def assemble_batch(system: System, values: Mapping[str, np.ndarray], samples: int,

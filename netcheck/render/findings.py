@@ -31,11 +31,17 @@ from ..netlist.source import clip, display_path
 from ..result import Caution, CheckResult, LimitResult, SpecResult, Status
 from . import NAME_SHOWN_MAX
 
-__all__ = ["shortfall", "worst_limit", "spec_headline", "run_headline", "location",
+__all__ = ["row_name", "shortfall", "worst_limit", "spec_headline", "run_headline", "location",
            "caution_line", "MARK"]
 
 #: the symbol before a spec's or the run's headline (never colour alone)
 MARK = {Status.PASS: "✓", Status.FAIL: "✗", Status.ERROR: "!", Status.SKIPPED: "-"}
+
+
+def row_name(lim: LimitResult) -> str:
+    """A limit row's name as the reports list it: with the output it judged in brackets
+    in a spec with named outputs (``low channel stop-band [low]``), else the name."""
+    return f"{lim.name} [{lim.output}]" if lim.output else lim.name
 
 
 def _plural(n: int, word: str) -> str:

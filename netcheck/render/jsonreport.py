@@ -40,6 +40,8 @@ def _limit(lim: LimitResult) -> dict[str, Any]:
         out.update(below_floor=True, floor=_num(lim.floor))
     if lim.reference_db is not None:  # a gain stated relative to a measured level
         out["reference_db"] = _num(lim.reference_db)
+    if lim.output is not None:  # a spec with named outputs: the output judged
+        out["output"] = lim.output
     return out
 
 

@@ -36,7 +36,7 @@ from ..result import (HAZARD_CAUTION, Caution, CheckResult, LimitResult, SpecRes
 from ..netlist.source import clip
 from . import NAME_SHOWN_MAX, TEXT_SHOWN_MAX, RenderOptions
 from ..netlist.source import display_path
-from .findings import MARK, caution_line, run_headline, spec_headline
+from .findings import MARK, caution_line, row_name, run_headline, spec_headline
 
 __all__ = ["render", "md_text", "md_name"]
 
@@ -108,7 +108,7 @@ def _row(cells: list[str]) -> str:
 
 def _limit_row(lim: LimitResult) -> str:
     fig = lim.figures  # as many figures as tell the bounds and the value apart
-    return _row([lim.status.word, md_name(lim.name), fig.measured, fig.bound, fig.margin,
+    return _row([lim.status.word, md_name(row_name(lim)), fig.measured, fig.bound, fig.margin,
                  fig.at or "—"])
 
 

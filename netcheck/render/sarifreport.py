@@ -110,6 +110,8 @@ def _limit_result(spec: SpecResult, lim: LimitResult) -> dict[str, Any]:
     }
     if lim.below_floor:  # the measured value is rounding noise below this floor
         props.update(belowFloor=True, floor=finite_or_none(lim.floor))
+    if lim.output is not None:  # a spec with named outputs: the output judged
+        props["output"] = lim.output
     if lim.reference_db is not None:  # the measured level a relative gain is stated against
         props["referenceDb"] = finite_or_none(lim.reference_db)
     return {

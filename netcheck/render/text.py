@@ -7,7 +7,7 @@ from typing import IO, Any
 from ..result import (HAZARD_CAUTION, MODEL_STATEMENT, Caution, CheckResult, LimitResult,
                       SpecResult, Status, hazard_warranted)
 from ..netlist.source import MESSAGE_MAX, display_path, printable
-from .findings import MARK, caution_line, run_headline, spec_headline
+from .findings import MARK, caution_line, row_name, run_headline, spec_headline
 
 __all__ = ["render", "LINE_MAX", "ERROR_LINES_MAX"]
 
@@ -44,7 +44,7 @@ def _paint(text: str, status: Status, color: bool) -> str:
 
 def _row(lim: LimitResult) -> list[str]:
     fig = lim.figures  # as many figures as tell the bounds and the value apart
-    return [_MARK[lim.status], lim.status.word, _clean(lim.name), fig.measured, fig.bound,
+    return [_MARK[lim.status], lim.status.word, _clean(row_name(lim)), fig.measured, fig.bound,
             fig.margin, fig.at]
 
 

@@ -13,6 +13,7 @@ from ..spec.limits import LIMITS
 from .formatting import (LISTING_ROWS_MAX, LISTING_TOTAL_MAX, MEASUREMENTS, caution_view,
                          cell_text, date_text, display_path, format_margin, format_measured,
                          listing, shown_name, status_view, unit_of)
+from ..render.findings import row_name
 from .plot_gain import limit_tag
 from .view_family import family_views
 from .view_bias import bias_view
@@ -60,7 +61,7 @@ def _recorded_git(value: Any) -> GitState | None:
 def _limit_row(lim: LimitResult, spec_path: str) -> dict[str, Any]:
     fig = lim.figures  # as many figures as tell the bounds and the value apart
     return {
-        "name": lim.name, "kind": lim.kind, **status_view(lim.status),
+        "name": row_name(lim), "kind": lim.kind, **status_view(lim.status),
         "measured": fig.measured, "bound": fig.bound, "margin": fig.margin,
         # bounds that needed more figures may wrap after "…" (the others stay on one line)
         "bound_cell": fig.bound if fig.place is None else cell_text(fig.bound),

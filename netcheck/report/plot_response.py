@@ -2,12 +2,13 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from typing import Any
 
 import numpy as np
 
-from ..result import SpecResult
+from ..result import Curves, SpecResult
 from ..netlist.units import format_eng, format_si
 from .plot_base import (FONT_PT, PALETTE, Plot, Tag, figure_keys, frequency_axis, legend_above,
                         mark_zoom, new_figure, si_scale, style_axes, to_svg)
@@ -27,8 +28,8 @@ _PANELS = {
 }
 
 
-def _extra_panels(spec: SpecResult) -> list[str]:
-    kinds = {lim.kind for lim in spec.limits}
+def _extra_panels(spec: SpecResult, keep: Any = None) -> list[str]:
+    kinds = {lim.kind for lim in spec.limits if keep is None or keep(lim)}
     kinds |= {k for k, p in _PANELS.items() if any(b.quantity == p[1] for b in spec.mask)}
     return [k for k in _PANELS if k in kinds]
 
@@ -176,8 +177,8 @@ def _panel_span(spec: SpecResult, quantity: str,
 
 
 def _phase_delay(spec: SpecResult, masks: dict[int, Tag], fails: dict[int, Tag],
-                 zoom: tuple[float, float] | None, drawn: list[Tag]) -> Any:
-    kinds = _extra_panels(spec)
+                 zoom: tuple[float, float] | None, drawn: list[Tag], keep: Any = None) -> Any:
+    kinds = _extra_panels(spec, keep)
     fig = new_figure(1.65 * len(kinds) + 0.45)
     n = len(kinds)
     bottom_margin, top_margin = 0.42 / fig.get_figheight(), 0.08 / fig.get_figheight()
@@ -230,7 +231,56 @@ def _figures(spec: SpecResult) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
     """(title, caption, matplotlib Figure, key) of each of the report's figures for ``spec``."""
     if spec.curves is None or spec.curves.frequency_hz.size < 2:
         return []
+    if spec.curves.outputs:
+        return _output_figures(spec)
+    return _response_figures(spec)
+
+
+def _output_figures(spec: SpecResult) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
+    """A spec with named outputs: each output's figures (whole sweep, the zoom on its
+    pass-band, its phase and delay panels), the main output's first; each figure draws
+    its output's curves with that output's mask bands and failed worst points only (the
+    Monte Carlo envelope and the key measurements are the main output's)."""
+    names = list(dict(spec.sweep).get("outputs") or {})
+    nodes = dict(spec.sweep).get("outputs") or {}
+    main = names[0] if names else ""
+
+    def words(name: str) -> str:
+        p, n = (nodes.get(name) or ["?", "0"])[:2]
+        return f"output {name}, V({p})" + ("" if n == "0" else f" − V({n})")
+
+    def mine(name: str, lim: Any) -> bool:
+        return name in (lim.output or main).split("/")
+
+    def view(name: str) -> SpecResult:
+        return dataclasses.replace(spec, mask=tuple(b for b in spec.mask
+                                                    if (b.output or main) == name))
+
+    out = []
+    first = _response_figures(view(main), lambda lim: mine(main, lim))
+    for title, caption, fig, keys in first:
+        out.append((f"{title}: {words(main)}",
+                    f"{caption} The main output ({words(main)}); the other outputs have "
+                    "figures of their own below, each with its own limits.", fig, keys))
+    c = spec.curves
+    for name, _, gain, phase, delay in c.outputs:
+        own = dataclasses.replace(view(name), measurements=(), curves=Curves(
+            c.frequency_hz, gain, phase, delay))
+        for title, caption, fig, keys in _response_figures(own, lambda lim, n=name:
+                                                           mine(n, lim)):
+            out.append((f"{title}: {words(name)}",
+                        f"{caption} The curve is {words(name)} (same stimulus); the mask, "
+                        "that of its own limits.", fig, keys))
+    return out
+
+
+def _response_figures(spec: SpecResult, keep: Any = None
+                      ) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
+    """The figures of one output's response (``keep``: which limits' failed worst points
+    they mark; all by default)."""
     masks, fails = tags_for(spec)
+    if keep is not None:
+        fails = {i: t for i, t in fails.items() if keep(spec.limits[i])}
     zoom = zoom_window(spec)
     f = spec.curves.frequency_hz
     envelope = envelope_caption(spec)
@@ -256,11 +306,11 @@ def _figures(spec: SpecResult) -> list[tuple[str, str, Any, tuple[Tag, ...]]]:
                "edges f_low and f_high, the centre f_center = √(f_low·f_high), the bandwidth "
                "and Q." if resonant else ".") + envelope,
             fig, figure_keys(drawn)))
-    panels = _extra_panels(spec)
+    panels = _extra_panels(spec, keep)
     if panels:
         names = " and ".join(_PANELS[k][2].lower() for k in panels)
         drawn = []
-        fig = _phase_delay(spec, masks, fails, zoom, drawn)
+        fig = _phase_delay(spec, masks, fails, zoom, drawn, keep)
         out.append((names[0].upper() + names[1:],
                     f"{names[0].upper()}{names[1:]} against frequency, for the limits on "
                     "them (their bounds and margins are in the summary table).",

@@ -19,6 +19,7 @@ from ..exceptions import TEXT_MAX, SpecError
 from ..netlist.source import UNUSABLE_CODE, SourceFile, printable, read_text
 from .reader import SWEEP_KEYS, SpecReader, Sweep, shown_value
 from ..netlist.ports import PORT_SOURCE, PortSpec
+from .outputs import check_output_names, limit_output, output_node, parse_outputs
 from .ports import check_port_limits, parse_ports
 from .stress import StressLimit, parse_stress, stress_lines
 from .tolerances import Analysis, Tolerances, parse_analysis, parse_tolerances
@@ -36,6 +37,8 @@ TOP_KEYS: dict[str, str] = {
     "netlist": "netlist path, relative to the spec file",
     "source": "independent source giving the stimulus",
     "output": "output node, or [positive, negative] for a differential output",
+    "outputs": "named outputs: a table of name = node or [positive, negative] (instead of "
+               "output; the first is the main one, limits name theirs with output = name)",
     "root": "design root that .include may not leave (relative to the spec file)",
     "allow_negative": "accept negative R, L, C values",
     "sweep": "sweep table: start, stop, points_per_decade",
@@ -86,6 +89,20 @@ class Spec:
     #: the ``[ports]`` table (:mod:`netcheck.spec.ports`); None when absent (then
     #: ``source`` and ``output`` are the spec's own)
     ports: PortSpec | None = None
+    #: the named outputs of ``[outputs]`` (name, (node, reference)), the main one first;
+    #: () for a spec with the single ``output`` key
+    outputs: tuple[tuple[str, tuple[str, str]], ...] = ()
+    #: the output each limit judges, by name, parallel to ``limits``; () without outputs
+    limit_outputs: tuple[str, ...] = ()
+
+    def output_of(self, k: int) -> str | None:
+        """The name of the output ``limits[k]`` (k its position in ``limits``) judges;
+        None for a spec without ``[outputs]``."""
+        return self.limit_outputs[k] if self.limit_outputs else None
+
+    def output_pair(self, name: str | None) -> tuple[str, str]:
+        """(node, reference) of the output named ``name`` (None: the main one)."""
+        return dict(self.outputs).get(name, self.output) if name else self.output
 
     def table(self, key: str) -> Any:
         """A raw top-level table as written (tolerances, analysis, stress, variants)."""
@@ -343,20 +360,14 @@ def _build(doc: dict, text: str, path: str, build_limit: Any,
             top.fail(key, "not with [ports]: the input port is the stimulus and the output "
                      "port the output")
     source = PORT_SOURCE if ports is not None else top.text("source", required=True)
-    out_raw = ports.output_node if ports is not None else top.raw("output")
-    if out_raw is None:
-        top.fail("output", "missing (required)")
-    if isinstance(out_raw, str) and out_raw.strip():
-        output = (out_raw, "0")
-    elif (isinstance(out_raw, list) and len(out_raw) == 2
-          and all(isinstance(x, str) and x.strip() for x in out_raw)):
-        output = (out_raw[0], out_raw[1])
+    outputs = parse_outputs(doc, path)
+    if outputs:
+        output = outputs[0][1]
     else:
-        top.fail("output", f"expected a node name or [positive, negative], got {out_raw!r}")
-    if output[0].strip().lower() == output[1].strip().lower():
-        what = "ground" if output[1] == "0" else f"node {output[0]!r} twice"
-        top.fail("output", f"measures {what} against itself: that voltage is zero at every "
-                 "frequency, so no limit could be judged")
+        out_raw = ports.output_node if ports is not None else top.raw("output")
+        if out_raw is None:
+            top.fail("output", "missing (required)")
+        output = output_node(top, "output", out_raw)
     sw_table = top.raw("sweep")
     if sw_table is None:
         top.fail("sweep", "missing (required): give start, stop and points_per_decade")
@@ -377,10 +388,16 @@ def _build(doc: dict, text: str, path: str, build_limit: Any,
     check_count(raw_limits, "limits", path)
     lines = limit_lines(text)
     limits = []
+    limit_outputs: list[str] = []
     first: dict[str, int] = {}  # result name → index of the limit that gives it
     for i, table in enumerate(raw_limits):
         line = lines[i] if i < len(lines) else None
+        named = limit_output(table, i, path, outputs)
+        if named is not None:  # the output key is every kind's: read here
+            table = {k: v for k, v in table.items() if k != "output"}
         lim = build_limit(table, i, path, sweep, line)
+        _check_pair(lim, named, i, path, outputs)
+        limit_outputs.append(named or (outputs[0][0] if outputs else ""))
         taken = [n for n in lim.result_names() if n in first]
         if taken and "name" not in table:
             # a default name that is already taken: the later limit says where it is
@@ -419,7 +436,26 @@ def _build(doc: dict, text: str, path: str, build_limit: Any,
         limits=tuple(limits), root=str(base / root) if root else None,
         allow_negative=allow_negative, text=text, tables=tables,
         design_root=str(root_dir), part_models=models, stress=stress,
-        tolerances=tolerances, analysis=analysis, variants=variants, ports=ports)
+        tolerances=tolerances, analysis=analysis, variants=variants, ports=ports,
+        outputs=outputs, limit_outputs=tuple(limit_outputs) if outputs else ())
+
+
+def _check_pair(lim: Any, named: str | None, i: int, path: str,
+                outputs: tuple[tuple[str, tuple[str, str]], ...]) -> None:
+    """A limit judged on two outputs (a crossover) names both in its own ``outputs`` key:
+    each must be one of ``[outputs]`` (spec-266), and it takes no ``output``."""
+    pair = getattr(lim, "outputs", None)
+    if not pair:
+        return
+    rd = SpecReader({}, f"limits[{i}]", path, {})
+    if named is not None:
+        rd.fail("output", f"a {lim.kind} limit is judged on two outputs: name both in "
+                "its outputs key, not output", code="spec-266")
+    if not outputs:
+        rd.fail("outputs", f"a {lim.kind} limit compares two named outputs: name the "
+                "outputs in an [outputs] table (name = node) and give two of them here",
+                code="spec-266")
+    check_output_names(rd, "outputs", list(pair), [n for n, _ in outputs])
 
 
 def _part_models(top: SpecReader, path: str) -> tuple[str, ...]:

@@ -37,6 +37,8 @@ MINIMAL_TOML = {
     "port": 'kind = "port"\nquantity = "transducer_gain"\nband = ["100", "1k"]\nmin = -1',
     "noise": 'kind = "noise"\nquantity = "rms"\nband = ["100", "1k"]\nmax = "1u"',
     "step": 'kind = "step"\nquantity = "delay"\nmax = "1m"',
+    "crossover": 'kind = "crossover"\noutputs = ["low", "high"]\nband = ["100", "10k"]\n'
+                 'range = ["900", "1.1k"]',
 }
 
 
@@ -50,7 +52,7 @@ def test_table_lists_the_kinds_in_their_order():
     # the order is the order of the worst case and of every listing of kinds
     assert list(KINDS) == ["gain", "ripple", "resonance", "corner", "bandwidth",
                            "shape_factor", "group_delay", "phase", "impedance", "notch",
-                           "port", "noise", "step"]
+                           "port", "noise", "step", "crossover"]
     assert list(LIMITS) == list(KINDS) and len(LIMITS) == len(KINDS)
     assert set(MINIMAL_TOML) == set(KINDS)
 

@@ -129,6 +129,8 @@ FULL_TABLES = {
               "load_resistor": "R2"},
     "step": {"kind": "step", "name": "st", "quantity": "rise_time", "min": 0, "max": "1m",
              "levels": [20, 80], "duration": "5m"},
+    "crossover": {"kind": "crossover", "name": "x", "outputs": ["low", "high"],
+                  "band": ["100", "10k"], "range": ["900", "1.1k"], "level_db": [-3.2, -2.8]},
 }
 #: keys that exclude those of the full table (another form of the same kind): one more
 #: table each, so that every key is used by some table of its kind

@@ -154,7 +154,7 @@ class TestDidYouMean:
         err = fail(HEAD + GAIN.replace('kind = "gain"', 'kind = "gian"'))
         assert (err.code, err.where) == ("spec-201", "limits[0].kind")
         assert "unknown limit kind 'gian'; did you mean 'gain'?" in err.message
-        assert "corner, gain, group_delay" in err.message  # the kinds are listed
+        assert "corner, crossover, gain, group_delay" in err.message  # the kinds are listed
 
     def test_missing_limit_kind(self):
         err = fail(HEAD + GAIN.replace('kind = "gain"\n', ""))
@@ -386,12 +386,12 @@ class TestSpecFormatDoc:
     def test_examples_are_valid_specs(self):
         blocks = self.toml_blocks()
         specs = [parse_spec(b, "specs/example.toml") for b in blocks if "netlist" in b]
-        assert len(specs) == 4
+        assert len(specs) == 6
         # the full example holds every kind its band-pass can carry; a band-pass has no
-        # notch and no ports, which have their own full examples (tested below), and its
-        # noise has a section of its own (its snippet is parsed below)
-        assert {type(lim).kind for lim in specs[-1].limits} == \
-            set(LIMITS) - {"notch", "port", "noise", "step"}
+        # notch, no ports and one output, which have their own full examples (tested
+        # below); noise and step have sections of their own (their snippets are parsed)
+        assert {type(lim).kind for lim in specs[-1].limits} == set(LIMITS) - {
+            "notch", "port", "crossover", "noise", "step"}
         # the worked examples of single limits read as limits of a spec over their sweep
         snippets = [b for b in blocks if "netlist" not in b and "[[limits]]" in b]
         assert len(snippets) >= 7

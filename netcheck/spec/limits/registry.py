@@ -33,6 +33,7 @@ KINDS: dict[str, str] = {
     "port": "port:PortLimit",
     "noise": "noise:NoiseLimit",
     "step": "step:StepLimit",
+    "crossover": "crossover:CrossoverLimit",
 }
 
 _loaded: dict[str, type[Limit]] = {}
