@@ -139,18 +139,19 @@ class NoiseCurves:
         return sorted(rows, key=lambda r: -r[3])
 
 
-def noise_block(limits: Any, results: Any, probe: Any) -> list[dict[str, Any]]:
+def noise_block(limits: Any, results: Any, probe_of: Any) -> list[dict[str, Any]]:
     """The JSON ``noise`` block: for each noise limit's result, the sources of noise,
     largest first — at its deciding frequency (``at_hz``: each one's density at the
     output), or for rms and snr over its band (``band_hz``: each one's RMS at the
-    output) — with each one's share of the total noise power."""
+    output) — with each one's share of the total noise power. ``probe_of(k)`` is the
+    probe of the output limit k judges."""
     out = []
     by_name = {r.name: r for r in results}
-    for lim in limits:
+    for k, lim in enumerate(limits):
         if getattr(lim, "kind", "") != "noise" or lim.name not in by_name:
             continue
         r = by_name[lim.name]
-        curves = probe.noise(lim.temperature_c)
+        curves = probe_of(k).noise(lim.temperature_c)
         if lim.quantity in ("rms", "snr"):  # each source's RMS over the band
             rows = curves.band_contributions(*lim.band)
             where: dict[str, Any] = {"band_hz": list(lim.band), "at_hz": None}

@@ -313,12 +313,16 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         if issubclass(w.category, NetcheckWarning):
             cautions.append(Caution("analysis-302", str(w.message), "warning"))
     extra: list[tuple[str, object]] = []
+    def probe_of(k: int) -> SpecProbe:  # the probe of the output limit k judges
+        name = spec.output_of(k)
+        return probe.siblings[name] if name else probe
+
     if any(lim.kind == "noise" for lim in spec.limits):  # the ranked sources of noise
         from .noise_probe import noise_block
-        extra.append(("noise", noise_block(spec.limits, limits, probe)))
+        extra.append(("noise", noise_block(spec.limits, limits, probe_of)))
     if any(lim.kind == "step" for lim in spec.limits):  # the step response, for its plot
         from .step_probe import step_block
-        block = step_block(spec.limits, probe)
+        block = step_block(spec.limits, probe_of, spec.output_of)
         if block is not None:
             extra.append(("step", block))
     op = system.circuit.operating_point

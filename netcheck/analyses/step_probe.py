@@ -113,14 +113,21 @@ class StepFigures:
 STEP_POINTS_KEPT = 400
 
 
-def step_block(limits: Any, probe: Any) -> dict[str, Any] | None:
-    """The JSON ``step`` block: the step response over the longest duration a step limit
-    asks for (``STEP_POINTS_KEPT`` points), its final value and method, and the points
-    the limits measured (the overshoot's peak, the rise time's crossings, the delay, the
-    settling time with its band)."""
-    steps = [lim for lim in limits if getattr(lim, "kind", "") == "step"]
-    if not steps:
+def step_block(limits: Any, probe_of: Any, output_of: Any) -> dict[str, Any] | None:
+    """The JSON ``step`` block: the step response of the output the first step limit
+    judges (``probe_of(k)`` its probe, ``output_of(k)`` its name or None for the main
+    one), over the longest duration its step limits ask for (``STEP_POINTS_KEPT``
+    points), its final value and method, and the points those limits measured (the
+    overshoot's peak, the rise time's crossings, the delay, the settling time with its
+    band)."""
+    first = next((k for k, lim in enumerate(limits) if getattr(lim, "kind", "") == "step"),
+                 None)
+    if first is None:
         return None
+    output = output_of(first)
+    steps = [lim for k, lim in enumerate(limits)
+             if getattr(lim, "kind", "") == "step" and output_of(k) == output]
+    probe = probe_of(first)
     durations = [lim.duration for lim in steps if lim.duration]
     try:
         fig = probe.step_figures(max(durations) if durations else None)
@@ -151,4 +158,4 @@ def step_block(limits: Any, probe: Any) -> dict[str, Any] | None:
         except MeasurementFailure:
             continue
     return {"t": [float(x) for x in t], "y": [float(v) for v in y], "final": fig.final,
-            "method": fig.model.method, "marks": marks}
+            "method": fig.model.method, "marks": marks, "output": output}

@@ -39,7 +39,8 @@ def step_figure(spec: SpecResult) -> tuple[str, str, Any] | None:
     ax.set_xlim(0.0, float(t[-1]) / ts)
     ax.set_xlabel(f"Time ({tp}s)", fontsize=FONT_PT + 0.5, color=PALETTE["ink"])
     ax.set_ylabel("Output per unit step", fontsize=FONT_PT + 0.5, color=PALETTE["ink"])
-    caption = (f"The output's response to a unit step of the stimulus ({block['method']}), "
+    which = f"output {block['output']}" if block.get("output") else "output"
+    caption = (f"The {which}'s response to a unit step of the stimulus ({block['method']}), "
                f"its final value {final:.6g} (dashed) and the points the step limits "
                "measured; a settling band is tinted.")
     return "Step response", caption, fig

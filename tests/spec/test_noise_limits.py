@@ -147,3 +147,22 @@ def test_a_noise_figure_needs_its_source_resistance(tmp_path):
     (r,) = check_spec(write(tmp_path, limit("noise_figure", ("10", "1k"),
                                             'max = 3\nsource_resistor = "R9"'))).limits
     assert r.status.value == "error" and "R9 is not a resistor" in r.message
+
+
+def test_each_named_output_ranks_its_own_sources(tmp_path):
+    # the sources of a noise limit on a named output are that output's: their RMS values
+    # add in power to the row's RMS (uncorrelated sources), output by output
+    root = Path(__file__).resolve().parents[2]
+    net = (root / "sample_netlists" / "qm_sv1_split.cir").read_text("utf-8")
+    body = (limit("rms", ("10", "100k"), 'output = "band"\nmax = "1m"')
+            + limit("rms", ("10", "100k"), 'name = "low noise"\noutput = "low"\nmax = "1m"'))
+    spec = write(tmp_path, body, net, 'source = "VIN"\n[outputs]\nlow = "lp"\nband = "bp"\n')
+    out = tmp_path / "r.json"
+    from netcheck.cli import main
+    assert main(["check", spec, "--jobs", "1", "--json", str(out)]) == 0
+    doc = json.loads(out.read_text("utf-8"))["specs"][0]
+    rows = {r["name"]: r["measured"] for r in doc["limits"]}
+    for entry in doc["noise"]:
+        total = math.sqrt(sum(s["rms"] ** 2 for s in entry["sources"]))
+        assert total == pytest.approx(rows[entry["limit"]], rel=1e-6)
+    assert rows["low noise"] != pytest.approx(rows[doc["noise"][0]["limit"]], rel=1e-3)
