@@ -78,3 +78,14 @@ def split_rc_chain(n: int) -> str:
         prev = nxt
     lines.append("C1 out 0 100n")
     return "\n".join(lines) + "\n"
+
+
+def write_spec(tmp_path, body: str, netlist: str, sweep=("100", "10k", 50)) -> str:
+    """Write t.cir (``netlist``) and t.toml (source V1, output out, the sweep, then the
+    tables of ``body``); the spec's path."""
+    (tmp_path / "t.cir").write_text(netlist)
+    path = tmp_path / "t.toml"
+    path.write_text(f'netlist = "t.cir"\nsource = "V1"\noutput = "out"\n\n[sweep]\n'
+                    f'start = "{sweep[0]}"\nstop = "{sweep[1]}"\npoints_per_decade = '
+                    f"{sweep[2]}\n\n{body}")
+    return str(path)

@@ -50,7 +50,16 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
     else:
         required, below = None, False
     parts = [{"part": p["part"], "nominal": format_eng(p["nominal"], _part_unit(p["part"])),
-              "tolerance": tolerance_text(p.get("tolerance"))} for p in mc.get("parts", ())]
+              "tolerance": _band_text(p), "distribution": p.get("distribution") or "",
+              "group": "" if p.get("group") is None else
+              f"group {p['group']} (ρ = {p.get('correlation', 1):g})"}
+             for p in mc.get("parts", ())]
+    # a column of distributions when the parts differ, one of groups when any track
+    per_part = len({p["distribution"] for p in parts}) > 1
+    tracking = [{"group": t["group"], "parts": ", ".join(t["parts"]),
+                 "asked": f"{t['correlation']:g}",
+                 "seen": "—" if t.get("sample_correlation") is None else
+                 f"{t['sample_correlation']:.3f}"} for t in mc.get("tracking", ())]
     nominal_values = {p["part"]: p["nominal"] for p in mc.get("parts", ())}
     limits, samples = [], {}
     units = {lim.name: lim.unit for lim in s.limits}  # stress rows too
@@ -125,7 +134,11 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
         "has_stress": any(r["name"].startswith("stress: ") for r in limits),
         "samples": n, "seed": mc.get("seed"), "passed": passed,
         "failed": None if passed is None else n - passed,
-        "distribution": _DISTRIBUTIONS.get(mc.get("distribution"), str(mc.get("distribution"))),
+        "distribution": "per part (the table above; normal: half the band at 3 standard "
+                        "deviations)" if per_part else
+        _DISTRIBUTIONS.get(mc.get("distribution"), str(mc.get("distribution"))),
+        "per_part": per_part, "tracking": tracking,
+        "asymmetric": any("/" in p["tolerance"] for p in parts),
         "yield": format_fraction(y), "ci": format_interval(ci),
         "ci_lo": format_fraction(ci[0]), "ci_hi": format_fraction(ci[1]),
         "ci_method": mc.get("ci_method") or "not recorded", "required": required,
@@ -136,6 +149,14 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
         "histogram_n": None if not hist.get("counts") else
         f"{hist.get('n', int(sum(hist['counts'])))} of {n}",
     }
+
+
+def _band_text(p: dict[str, Any]) -> str:
+    """``±5 %``, or ``−20 % / +80 %`` for an asymmetric band."""
+    low, high = p.get("low"), p.get("high")
+    if low is None or high is None or low == -high:
+        return tolerance_text(p.get("tolerance"))
+    return f"{100.0 * low:+.4g} % / {100.0 * high:+.4g} %".replace("-", "−")
 
 
 def _spread_row(label: str, st: dict[str, Any], unit: str, samples: int, nominal: str,
@@ -231,8 +252,11 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
     return {"parts": n_parts, "corners": corners, "rows": rows, "differences": differences,
             "sensitivities": sens, "rss": bool(wc.get("rss")),
             "any_log_unit": any(b["log_unit"] for b in sens),
-            "corner_text": f"all {corners} corners (every part at either tolerance end) were "
-                           "also evaluated" if corners else
+            "corner_text": f"all {corners} corners (every part at either tolerance end"
+                           + (f"; the {n_parts} parts are {wc['variables']} variables, each "
+                              "fully tracking group moving as one"
+                              if wc.get("variables", n_parts) != n_parts else "")
+                           + ") were also evaluated" if corners else
                            f"corners were not evaluated (more than "
                            f"{wc.get('corner_cap', MAX_CORNER_PARTS)} toleranced parts)"}
 

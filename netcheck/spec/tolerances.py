@@ -14,15 +14,30 @@ from typing import Any
 
 from .reader import SpecReader
 
-__all__ = ["Tolerances", "Analysis", "parse_tolerances", "parse_analysis",
+__all__ = ["Tolerances", "Spread", "Tracking", "Analysis", "parse_tolerances", "parse_analysis",
            "machine_memory_bytes", "TOLERANCE_KEYS", "ANALYSIS_KEYS", "MODES", "MEMORY_SHARE"]
 
 TOLERANCE_KEYS = {
     "default": "tolerance by element letter, e.g. { R = \"1%\", C = \"5%\", L = \"10%\" } "
-               "(%, ppm, ppb or a fraction)",
+               "(%, ppm, ppb or a fraction; each may be a part tolerance table, below)",
     "parts": "tolerance per part (hierarchical names, globs allowed), e.g. { C3 = \"2%\" }",
-    "distribution": "'uniform', 'normal' (tolerance = 3 sigma) or 'truncnormal' (normal cut at ±tolerance)",
+    "distribution": "'uniform', 'normal' (tolerance = 3 sigma) or 'truncnormal' (normal cut "
+                    "at ±tolerance); the default of every part",
+    "tracking": "groups of parts that move together: [{ parts = [\"RN1.*\"], correlation = 1 }] "
+                "(1: one shared draw)",
 }
+#: the keys of a part tolerance written as a table, e.g. C = { tolerance = "10%", distribution = "normal" }
+SPREAD_KEYS = {
+    "tolerance": "\"5%\" (±5 %), or the two ends [\"-20%\", \"+80%\"]",
+    "distribution": "'uniform', 'normal' or 'truncnormal' for these parts (default: the "
+                    "spec's distribution)",
+}
+TRACKING_KEYS = {
+    "parts": "names or globs of the parts that track, e.g. [\"RN1.*\"] or [\"C4\", \"C5\"]",
+    "correlation": "correlation coefficient of their values, 0 < ρ ≤ 1 (default 1: one "
+                   "shared draw)",
+}
+DISTRIBUTIONS = ("uniform", "normal", "truncnormal")
 ANALYSIS_KEYS = {
     "mode": "any of 'nominal', 'worst_case', 'monte_carlo'",
     "samples": "Monte Carlo samples (default 2000)",
@@ -36,12 +51,44 @@ MEMORY_SHARE = 0.5
 
 
 @dataclass(frozen=True, slots=True)
-class Tolerances:
-    """Part tolerances (fractions: 0.05 = 5 %) and their distribution."""
+class Spread:
+    """How one part (or a family) varies: its value lies between nominal × (1 + ``low``) and
+    nominal × (1 + ``high``) (fractions, ``low`` ≤ 0 ≤ ``high``; ±5 % is −0.05, 0.05),
+    drawn from ``distribution`` (None: the spec's) over that band."""
 
-    default: tuple[tuple[str, float], ...] = ()
-    parts: tuple[tuple[str, float], ...] = ()
+    low: float
+    high: float
+    distribution: str | None = None
+
+    @property
+    def half(self) -> float:
+        """The wider of the two ends, as a positive fraction (±-tolerance figures)."""
+        return max(-self.low, self.high)
+
+    @property
+    def symmetric(self) -> bool:
+        return self.low == -self.high
+
+
+@dataclass(frozen=True, slots=True)
+class Tracking:
+    """Parts that move together: names or globs, and the correlation of their values."""
+
+    patterns: tuple[str, ...]
+    correlation: float = 1.0
+    #: the key path of this group, for errors (``tolerances.tracking[0]``)
+    where: str = "tolerances.tracking"
+
+
+@dataclass(frozen=True, slots=True)
+class Tolerances:
+    """Part tolerances and their distribution: per letter (``default``) and per part or glob
+    (``parts``), each a fraction (0.05 = ±5 %) or a :class:`Spread`; groups that track."""
+
+    default: tuple[tuple[str, "float | Spread"], ...] = ()
+    parts: tuple[tuple[str, "float | Spread"], ...] = ()
     distribution: str = "uniform"
+    tracking: tuple[Tracking, ...] = ()
 
 
 @dataclass(frozen=True, slots=True)
@@ -108,6 +155,67 @@ def _fraction(rd: SpecReader, key: str, raw: Any) -> float:
     return value
 
 
+def _ends(rd: SpecReader, key: str, raw: list) -> Spread:
+    """``["-20%", "+80%"]``: the lower and upper end of an asymmetric tolerance."""
+    if len(raw) != 2:
+        rd.fail(key, f"an asymmetric tolerance is [lower, upper], e.g. [\"-20%\", \"+80%\"]; "
+                     f"got {len(raw)} values", code="spec-270")
+    low, high = (rd.relative(key, v) for v in raw)
+    if not (-1 < low <= 0 <= high < 10):
+        rd.fail(key, f"the lower end must lie in (−100 %, 0] and the upper in [0, +1000 %), "
+                     f"the nominal between them; got {raw!r} (write the lower end with its "
+                     "minus sign, e.g. [\"-20%\", \"+80%\"])", code="spec-270")
+    return Spread(low, high)
+
+
+def _spread(rd: SpecReader, key: str, raw: Any) -> "float | Spread":
+    """A part tolerance: ``"1%"`` (a fraction, ±), ``["-20%", "+80%"]`` or a table
+    (:data:`SPREAD_KEYS`)."""
+    if isinstance(raw, list):
+        return _ends(rd, key, raw)
+    if not isinstance(raw, dict):
+        return _fraction(rd, key, raw)
+    if not set(raw) & set(SPREAD_KEYS):
+        rd.fail(key, f"expected a tolerance (\"5%\", [\"-20%\", \"+80%\"] or {{ tolerance = "
+                     f"\"5%\", distribution = \"normal\" }}), got a table with "
+                     f"{', '.join(map(repr, raw))} (got dict); a hierarchical part name "
+                     "must be quoted: \"X1.L1\" = \"5%\"")
+    sub = SpecReader(raw, rd.key_path(key), rd.path, SPREAD_KEYS)
+    if "tolerance" not in raw:
+        sub.fail("tolerance", "missing (required): the part's tolerance, e.g. \"5%\" or "
+                              "[\"-20%\", \"+80%\"]", code="spec-270")
+    t = raw["tolerance"]
+    s = _ends(sub, "tolerance", t) if isinstance(t, list) else \
+        Spread(-(v := _fraction(sub, "tolerance", t)), v)
+    dist = sub.choice("distribution", DISTRIBUTIONS, None) if "distribution" in raw else None
+    return Spread(s.low, s.high, dist)
+
+
+def _tracking(rd: SpecReader, raw: Any) -> tuple[Tracking, ...]:
+    if isinstance(raw, dict):
+        raw = [raw]
+    if not isinstance(raw, list):
+        rd.fail("tracking", "expected a list of groups, e.g. [{ parts = [\"RN1.*\"] }]",
+                code="spec-271")
+    out = []
+    for i, group in enumerate(raw):
+        where = f"tracking[{i}]"
+        sub = SpecReader(group, rd.key_path(where), rd.path, TRACKING_KEYS)
+        names = sub.raw("parts")
+        if isinstance(names, str):
+            names = [names]
+        if not isinstance(names, list) or not names or \
+                not all(isinstance(n, str) and n for n in names):
+            sub.fail("parts", "expected a list of part names or globs, e.g. [\"R1\", \"R2\"] "
+                              "or [\"RN1.*\"]", code="spec-271")
+        rho = sub.number("correlation", 1.0)
+        if not 0 < rho <= 1:
+            sub.fail("correlation", f"must be in (0, 1] (1: the parts share one draw), got "
+                                    f"{rho!r}", code="spec-271")
+        out.append(Tracking(tuple(n.upper() for n in names), float(rho), sub.key_path("")))
+    return tuple(out)
+
+
 def parse_tolerances(table: Any, path: str) -> Tolerances:
     """Validate a ``[tolerances]`` table."""
     rd = SpecReader(table, "tolerances", path, TOLERANCE_KEYS)
@@ -119,10 +227,10 @@ def parse_tolerances(table: Any, path: str) -> Tolerances:
     for letter in default:
         if letter.upper() not in ("R", "L", "C") or len(letter) != 1:
             rd.fail(f"default.{letter}", "default tolerances are by element letter R, L or C")
-    d = tuple((k.upper(), _fraction(rd, f"default.{k}", v)) for k, v in default.items())
-    p = tuple((k.upper(), _fraction(rd, f"parts.{k}", v)) for k, v in parts.items())
-    dist = rd.choice("distribution", ("uniform", "normal", "truncnormal"), "uniform")
-    return Tolerances(d, p, dist)
+    d = tuple((k.upper(), _spread(rd, f"default.{k}", v)) for k, v in default.items())
+    p = tuple((k.upper(), _spread(rd, f"parts.{k}", v)) for k, v in parts.items())
+    dist = rd.choice("distribution", DISTRIBUTIONS, "uniform")
+    return Tolerances(d, p, dist, _tracking(rd, rd.raw("tracking", [])))
 
 
 def parse_analysis(table: Any, path: str) -> Analysis:

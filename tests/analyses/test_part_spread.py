@@ -1,0 +1,269 @@
+"""Tolerances as parts really vary: per-part distributions, asymmetric bands, tracking.
+
+The draws are checked against the moments of their distributions (closed forms, and
+scipy.stats for the truncated normal) and the correlation asked for, each with a bound of
+five standard errors at the sample count used (so a correct draw fails about once in
+two million runs, a wrong one by many errors). Worst case is checked against closed forms
+of a first-order RC low-pass and a resistive divider.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import re
+from pathlib import Path
+
+import jsonschema
+import numpy as np
+import pytest
+from scipy import stats
+
+from netcheck.analyses.nominal import check_spec
+from netcheck.analyses.part_spread import Part, copula_r, draw, toleranced_parts, variables
+from netcheck.cli import main
+from netcheck.netlist.elaborate import elaborate
+from netcheck.netlist.parse import load_netlist
+from netcheck.spec.tolerances import parse_tolerances
+from circuits import write_spec as _spec
+
+ROOT = Path(__file__).resolve().parents[2]
+SCHEMA = json.loads((ROOT / "docs" / "result.schema.json").read_text("utf-8"))
+
+RC_LOWPASS = """Quillmere test: RC low-pass, corner 1/(2 pi R C) = 1.5915 kHz
+V1 in 0 AC 1
+R1 in out 1k
+C1 out 0 100n
+"""
+
+DIVIDER = """Quillmere test: matched-network divider, gain R2/(R1 + R2) = 1/2
+V1 in 0 AC 1
+R1 in out 10k
+R2 out 0 10k
+C1 out 0 1p
+"""
+
+N = 200_000
+
+
+def _tol(result) -> dict:
+    return dict(result.extra)["tolerance"]
+
+
+# ---------------------------------------------------------------------------------------
+# drawing: moments of each distribution over its (asymmetric) band
+# ---------------------------------------------------------------------------------------
+
+def test_mixed_distributions_have_the_moments_of_their_bands():
+    parts = [Part("R1", 1e3, -0.01, 0.01, "uniform"),
+             Part("C1", 1e-7, -0.10, 0.10, "normal"),
+             Part("C9", 1e-4, -0.20, 0.80, "uniform"),
+             Part("C2", 1e-9, -0.10, 0.10, "truncnormal")]
+    v = draw(parts, N, "uniform", np.random.default_rng(5))
+    # uniform on [a, b]: mean (a+b)/2, variance (b−a)²/12, excess kurtosis −1.2;
+    # normal: 3σ = the half-band; truncated normal at ±3σ: scipy.stats.truncnorm
+    tn = stats.truncnorm(-3, 3, scale=0.10 / 3)
+    expect = {"R1": (0.0, 0.02 / math.sqrt(12), -1.2), "C1": (0.0, 0.10 / 3, 0.0),
+              "C9": (0.30, 1.0 / math.sqrt(12), -1.2),
+              "C2": (0.0, float(tn.std()), float(tn.stats(moments="k")))}
+    for p in parts:
+        x = v[p[0]] / p[1] - 1.0
+        mean, sd, kurt = expect[p[0]]
+        # standard errors: of the mean σ/√N; of the sample sd σ·√((κ_excess + 2)/(4N))
+        assert abs(x.mean() - mean) < 5 * sd / math.sqrt(N), p[0]
+        assert abs(x.std(ddof=1) - sd) < 5 * sd * math.sqrt((kurt + 2) / (4 * N)), p[0]
+    # the band's ends bound the uniform and truncated draws, and are reached
+    c9 = v["C9"] / 1e-4
+    assert c9.min() >= 0.8 and c9.max() <= 1.8
+    assert c9.min() < 0.8 + 1e-4 and c9.max() > 1.8 - 1e-4
+    assert np.all(np.abs(v["C2"] / 1e-9 - 1.0) <= 0.10 + 1e-15)
+    # "10 % normal": 3σ = 10 %, so 0.27 % of parts fall outside ±10 % (2(1 − Φ(3)))
+    outside = np.mean(np.abs(v["C1"] / 1e-7 - 1.0) > 0.10)
+    p_out = 2 * stats.norm.sf(3)
+    assert abs(outside - p_out) < 5 * math.sqrt(p_out * (1 - p_out) / N)
+
+
+def test_one_distribution_without_tracking_draws_as_before():
+    # plain (name, nominal, t) tuples and Parts of one distribution give the same samples
+    # for one seed (runs of earlier versions repeat exactly)
+    plain = draw([("C1", 1e-9, 0.05), ("R1", 1e3, 0.01)], 50, "uniform",
+                 np.random.default_rng(3))
+    parts = draw([Part("C1", 1e-9, -0.05, 0.05, "uniform"),
+                  Part("R1", 1e3, -0.01, 0.01, "uniform")], 50, "uniform",
+                 np.random.default_rng(3))
+    assert all(np.array_equal(plain[k], parts[k]) for k in plain)
+    u = np.random.default_rng(3).uniform(-1, 1, size=(50, 2))
+    assert np.allclose(plain["C1"], 1e-9 * (1 + 0.05 * u[:, 0]), rtol=0, atol=1e-24)
+
+
+# ---------------------------------------------------------------------------------------
+# tracking: the correlation of the drawn values is the one asked for
+# ---------------------------------------------------------------------------------------
+
+@pytest.mark.parametrize("distribution, rho", [("uniform", 0.6), ("normal", 0.3),
+                                               ("uniform", 0.95), ("truncnormal", 0.8)])
+def test_tracking_group_has_the_requested_correlation(distribution, rho):
+    n = 40_000
+    parts = [Part("C4", 1e-8, -0.05, 0.05, distribution, 0, rho),
+             Part("C5", 2e-8, -0.05, 0.05, distribution, 0, rho),
+             Part("C6", 3e-8, -0.10, 0.30, distribution, 0, rho),  # asymmetric: linear map
+             Part("R1", 1e3, -0.01, 0.01, distribution)]
+    v = draw(parts, n, "uniform", np.random.default_rng(11))
+    r = np.corrcoef([v["C4"], v["C5"], v["C6"], v["R1"]])
+    # large-sample standard error of Pearson's r: (1 − ρ²)/√(n − 1) (Fisher 1915); the
+    # normal truncated at ±3σ keeps ρ to within 1e-3 (its tails hold 0.27 % of the mass)
+    se = (1 - rho ** 2) / math.sqrt(n - 1)
+    slack = 1e-3 if distribution == "truncnormal" else 0.0
+    for i, j in ((0, 1), (0, 2), (1, 2)):
+        assert abs(r[i, j] - rho) < 5 * se + slack, (i, j, r[i, j])
+    for i in range(3):  # the part outside the group stays independent of it
+        assert abs(r[i, 3]) < 5 / math.sqrt(n - 1)
+
+
+def test_the_copula_correlation_inverts_pearsons_formula():
+    # Pearson (1907): values Φ(z) of normals correlated by r have ρ = (6/π)·arcsin(r/2)
+    for rho in (0.1, 0.5, 0.9):
+        r = copula_r(rho, "uniform")
+        assert (6 / math.pi) * math.asin(r / 2) == pytest.approx(rho, rel=1e-12)
+
+
+def test_a_shared_draw_puts_every_part_at_the_same_point_of_its_band():
+    parts = [Part("RN1.A", 1e3, -0.001, 0.001, "uniform", 0, 1.0),
+             Part("RN1.B", 4e3, -0.001, 0.001, "uniform", 0, 1.0),
+             Part("C9", 1e-4, -0.2, 0.8, "normal", 1, 1.0),
+             Part("C8", 1e-4, -0.1, 0.1, "truncnormal", 1, 1.0)]
+    v = draw(parts, 1000, "uniform", np.random.default_rng(2))
+    assert np.allclose(v["RN1.A"] / 1e3, v["RN1.B"] / 4e3, rtol=1e-14)
+    # one draw mapped onto two distributions: comonotone (the same rank in every sample)
+    assert stats.spearmanr(v["C9"], v["C8"])[0] == pytest.approx(1.0, abs=1e-12)
+    assert [len(g) for g in variables(parts)] == [2, 2]
+
+
+# ---------------------------------------------------------------------------------------
+# the spec: tables, globs, errors at their keys
+# ---------------------------------------------------------------------------------------
+
+def test_spec_forms_reach_each_part():
+    circuit = elaborate(load_netlist(DIVIDER + "C9 out 0 10u\n"))
+    tol = parse_tolerances({"default": {"R": "1%", "C": {"tolerance": "10%",
+                                                         "distribution": "normal"}},
+                            "parts": {"C9": ["-20%", "+80%"]},
+                            "tracking": [{"parts": ["R*"]}]}, "t.toml")
+    got = {p[0]: p for p in toleranced_parts(tol, circuit)}
+    assert (got["R1"].low, got["R1"].high, got["R1"].distribution) == (-0.01, 0.01, "uniform")
+    assert (got["C1"].distribution, got["C1"][2]) == ("normal", 0.10)
+    assert (got["C9"].low, got["C9"].high, got["C9"][2]) == (-0.2, 0.8, 0.8)
+    assert got["R1"].group == got["R2"].group == 0 and got["C1"].group is None
+
+
+@pytest.mark.parametrize("body, code, key, words", [
+    ('[tolerances]\ndefault = { R = "1%" }\n[[tolerances.tracking]]\nparts = ["L*"]\n',
+     "spec-271", "tolerances.tracking[0].parts", "matches no toleranced part"),
+    ('[tolerances]\ndefault = { R = "1%" }\n[[tolerances.tracking]]\nparts = ["R1"]\n',
+     "spec-271", "tolerances.tracking[0].parts", "two or more"),
+    ('[tolerances]\ndefault = { R = "1%" }\n[[tolerances.tracking]]\nparts = ["R*"]\n'
+     'correlation = 1.5\n', "spec-271", "tolerances.tracking[0].correlation", "(0, 1]"),
+    ('[tolerances]\ndefault = { R = "1%" }\n[[tolerances.tracking]]\nparts = ["R*"]\n'
+     '[[tolerances.tracking]]\nparts = ["R2", "R1"]\n', "spec-271",
+     "tolerances.tracking[1].parts", "already in tracking group 0"),
+    ('[tolerances]\ndefault = { R = "1%", C = { tolerance = "5%", distribution = "normal" } }'
+     '\n[[tolerances.tracking]]\nparts = ["R1", "C1"]\ncorrelation = 0.5\n', "spec-272",
+     "tolerances.tracking[0]", "different distributions"),
+    ('[tolerances]\nparts = { C1 = ["20%", "80%"] }\n', "spec-270", "tolerances.parts.C1",
+     "minus sign"),
+])
+def test_bad_tolerance_forms_are_errors_at_their_key(tmp_path, body, code, key, words):
+    path = _spec(tmp_path, body + '[analysis]\nmode = ["monte_carlo"]\nsamples = 20\n'
+                 '[[limits]]\nkind = "gain"\nband = ["100", "200"]\nmin_db = -10\n', DIVIDER)
+    res = check_spec(path)
+    assert res.error is not None
+    assert re.search(rf"t\.toml(:\d+:\d+)?: error {code}: {re.escape(key)}", res.error), res.error
+    assert words in res.error
+
+
+def test_the_worked_examples_of_spec_format_parse():
+    doc = (ROOT / "docs" / "spec-format.md").read_text("utf-8")
+    import tomllib
+    blocks = [b.split("```")[0] for b in doc.split("```toml\n")[1:] if "[tolerances]" in b
+              and "netlist" not in b.split("```")[0]]
+    parsed = [parse_tolerances(tomllib.loads(b)["tolerances"], "x.toml") for b in blocks]
+    assert any(t.tracking for t in parsed)
+    assert any(s.low != -s.high for t in parsed for _, s in t.parts if hasattr(s, "low"))
+
+
+# ---------------------------------------------------------------------------------------
+# worst case: asymmetric ends and tracking groups against closed forms
+# ---------------------------------------------------------------------------------------
+
+def _rc_gain_db(r: float, c: float, f: float) -> float:
+    """|H| of a first-order RC low-pass in dB: −10·log10(1 + (2π f R C)²) (textbook)."""
+    return -10 * math.log10(1 + (2 * math.pi * f * r * c) ** 2)
+
+
+def test_asymmetric_electrolytic_in_worst_case_uses_each_end(tmp_path):
+    body = ('[tolerances]\ndefault = { R = "1%" }\nparts = { C1 = ["-20%", "+80%"] }\n'
+            '[analysis]\nmode = ["worst_case", "monte_carlo"]\nsamples = 400\n'
+            '[[limits]]\nkind = "gain"\nband = ["1.5k", "2k"]\nmin_db = -20\n')
+    res = check_spec(_spec(tmp_path, body, RC_LOWPASS))
+    assert res.error is None, res.error
+    wc = _tol(res)["worst_case"]["limits"][0]
+    f = 2e3  # the band minimum of a falling response is at its upper end
+    # monotone in both parts: the corners are exact, R at +1 % with C at +80 % and
+    # R at −1 % with C at −20 % (closed form)
+    assert wc["corners_min"] == pytest.approx(_rc_gain_db(1.01e3, 1.8e-7, f), abs=1e-9)
+    assert wc["corners_max"] == pytest.approx(_rc_gain_db(0.99e3, 0.8e-7, f), abs=1e-9)
+    assert wc["decided_by"] == "corners"
+    # EVA: ∂G/∂ln R = ∂G/∂ln C = −(20/ln 10)·x²/(1 + x²), x = 2π f R C, at each end
+    x2 = (2 * math.pi * f * 1e3 * 1e-7) ** 2
+    d = -(20 / math.log(10)) * x2 / (1 + x2)
+    g0 = _rc_gain_db(1e3, 1e-7, f)
+    assert wc["min"] == pytest.approx(g0 + d * (0.01 + 0.80), rel=1e-6)
+    assert wc["max"] == pytest.approx(g0 - d * (0.01 + 0.20), rel=1e-6)
+    mc = _tol(res)["monte_carlo"]
+    c1 = next(p for p in mc["parts"] if p["part"] == "C1")
+    assert (c1["low"], c1["high"], c1["tolerance"]) == (-0.2, 0.8, 0.8)
+
+
+def test_a_fully_tracking_divider_is_one_variable(tmp_path):
+    lim = ('[[limits]]\nkind = "gain"\nband = ["100", "200"]\nmin_db = -6.2\nmax_db = -5.9\n'
+           '[analysis]\nmode = ["worst_case", "monte_carlo"]\nsamples = 200\n')
+    tracked = check_spec(_spec(tmp_path, '[tolerances]\nparts = { "R*" = "1%" }\n'
+                               '[[tolerances.tracking]]\nparts = ["R1", "R2"]\n' + lim,
+                               DIVIDER))
+    assert tracked.error is None, tracked.error
+    wc = _tol(tracked)["worst_case"]
+    assert (wc["parts"], wc["variables"], wc["corners"]) == (2, 1, 2)
+    half = 20 * math.log10(0.5)  # R2/(R1 + R2) does not move when both move together
+    row = wc["limits"][0]
+    assert row["corners_min"] == pytest.approx(half, abs=1e-6)
+    assert row["corners_max"] == pytest.approx(half, abs=1e-6)
+    assert row["min"] == pytest.approx(half, abs=1e-6)
+    mc = _tol(tracked)["monte_carlo"]
+    assert mc["tracking"][0]["sample_correlation"] == pytest.approx(1.0, abs=1e-12)
+    assert mc["yield"] == 1.0
+    # the same divider with independent resistors: R1 at +1 % against R2 at −1 %
+    free = check_spec(_spec(tmp_path, '[tolerances]\nparts = { "R*" = "1%" }\n' + lim,
+                            DIVIDER))
+    row = _tol(free)["worst_case"]["limits"][0]
+    assert row["corners_min"] == pytest.approx(20 * math.log10(0.99 / 2.0), abs=1e-6)
+
+
+def test_tracking_shows_in_the_json_and_the_pdf(tmp_path, capsys):
+    import pypdf
+    body = ('[tolerances]\ndefault = { R = "1%", C = { tolerance = "10%", distribution = '
+            '"normal" } }\n[[tolerances.tracking]]\nparts = ["R*"]\ncorrelation = 0.9\n'
+            '[analysis]\nmode = ["worst_case", "monte_carlo"]\nsamples = 300\n'
+            '[[limits]]\nkind = "gain"\nband = ["100", "200"]\nmin_db = -7\n')
+    path = _spec(tmp_path, body, DIVIDER)
+    out, pdf = tmp_path / "o.json", tmp_path / "pdf"
+    rc = main(["check", path, "--json", str(out), "--pdf", str(pdf), "--color", "never"])
+    assert rc == 0, capsys.readouterr().err
+    doc = json.loads(out.read_text())
+    jsonschema.validate(doc, SCHEMA)
+    mc = doc["specs"][0]["tolerance"]["monte_carlo"]
+    group = mc["tracking"][0]
+    assert group["parts"] == ["R1", "R2"] and group["correlation"] == 0.9
+    se = (1 - 0.81) / math.sqrt(299)  # standard error of r (Fisher 1915)
+    assert abs(group["sample_correlation"] - 0.9) < 5 * se
+    text = "".join(p.extract_text() for p in pypdf.PdfReader(pdf / "t.pdf").pages)
+    assert "tracking group" in text.lower() and "0.9" in text and "normal" in text
