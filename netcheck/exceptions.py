@@ -66,6 +66,8 @@ CODES: dict[str, str] = {
     "spec-270": "part tolerance malformed (asymmetric ends, tolerance table)",
     "spec-271": "tracking group malformed or matching no toleranced parts",
     "spec-272": "tracking group mixing distributions below full correlation",
+    "spec-273": ".param tolerance that cannot be applied",
+    "spec-274": "element toleranced twice (its own tolerance and a toleranced .param)",
     "spec-280": "notch limit that cannot be judged as written",
     "spec-281": "bad notch depth reference",
     "spec-282": "bad relative Q (nominal with tolerance)",

@@ -36,7 +36,8 @@ from ..netlist.elaborate import Circuit
 from ..netlist.ports import PORT_ELEMENTS
 from ..spec.tolerances import Spread, Tolerances
 
-__all__ = ["Part", "toleranced_parts", "draw", "variables", "ends", "part_json", "copula_r",
+__all__ = ["Part", "toleranced_parts", "draw", "variables", "variable_name", "ends", "part_json",
+           "copula_r",
            "tracking_json"]
 
 
@@ -53,7 +54,7 @@ class Part(tuple):
     def __new__(cls, name: str, nominal: float, low: float, high: float,
                 distribution: str | None = None, group: int | None = None,
                 correlation: float = 0.0) -> "Part":
-        obj = super().__new__(cls, (name, nominal, max(-low, high)))
+        obj = super().__new__(cls, (name, nominal, max(abs(low), abs(high))))
         obj.low, obj.high, obj.distribution = low, high, distribution
         obj.group, obj.correlation = group, correlation
         return obj
@@ -275,6 +276,14 @@ def variables(parts: list) -> list[list[int]]:
         else:
             out.append([j])
     return out
+
+
+def variable_name(parts: list, cols: list[int]) -> str:
+    """A worst-case variable in words: the part, ``.param gbw``, or ``R1+R2``."""
+    group = getattr(parts[cols[0]], "group", None)
+    if isinstance(group, str) and group.startswith("param "):
+        return "." + group
+    return "+".join(parts[j][0] for j in cols)
 
 
 def ends(parts: list) -> tuple[np.ndarray, np.ndarray]:

@@ -163,12 +163,15 @@ def run_samples(system: System, spec: Spec, values: dict[str, np.ndarray], sampl
 
 
 def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]],
-                tol: Tolerances, analysis: Analysis, nominal: Any = None
+                tol: Tolerances, analysis: Analysis, nominal: Any = None,
+                params: tuple = (), rebuild: Any = None
                 ) -> tuple[dict[str, Any], list[LimitResult], tuple[np.ndarray, np.ndarray]]:
     """Monte Carlo yield: the JSON block, result rows (yield limits) and the gain envelope.
 
     ``nominal`` is the nominal :class:`~netcheck.mna.solve.Response` on the sweep grid when
-    the caller has it (it is solved otherwise).
+    the caller has it (it is solved otherwise). ``params`` are the toleranced ``.param``
+    values (:mod:`netcheck.analyses.param_spread`), drawn after the parts and applied by
+    ``rebuild``, which elaborates the netlist again for each sample.
     """
     rng = np.random.default_rng(analysis.seed)
     S = analysis.samples
@@ -183,6 +186,11 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
             "samples (the 95 % interval of a yield narrows as 1/√samples) or raise "
             "memory_mib", code="spec-205", path=spec.path, where="analysis.samples")
     values = draw(parts, S, tol.distribution, rng, spec.path)
+    if params:
+        from .param_spread import param_values
+
+        drawn, follow = param_values(list(params), S, rng, rebuild, spec.path)
+        values.update(follow)
     regions: dict[str, list] = {}
     margins, measured, meas, env_lo, env_hi = run_samples(
         system, spec, values, S, analysis.memory_mib * 2**20, "Monte Carlo samples", regions)
@@ -220,6 +228,9 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
              "yield": y, "yield_ci": list(ci), "ci_method": "Wilson score, 95 %",
              "limits": lim_json, "measurements": {k: _stats(v) for k, v in meas.items()},
              "parts": [part_json(p, tol.distribution) for p in parts]}
+    if params:
+        block["params"] = [{**p.to_json(), "sample_mean": float(np.mean(drawn[p.name]))}
+                           for p in params]
     tracking = tracking_json(parts, values)
     if tracking:
         block["tracking"] = tracking

@@ -47,7 +47,7 @@ from ..result import LimitResult, Status
 from ..mna.sensitivity import AdjointSensitivity
 from ..spec.load import Spec
 from ..spec.tolerances import Analysis
-from .part_spread import ends, variables
+from .part_spread import ends, variable_name, variables
 from .tolerance import MEASUREMENT_KEYS, _f, run_samples
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -169,7 +169,7 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
 
     cap = MAX_CORNER_PARTS if system.size <= DENSE_MAX else MAX_CORNER_PARTS_SPARSE
     corners = _corner_rows(system, spec, parts, var, memory) if 0 < V <= cap else None
-    names = ["+".join(parts[j][0] for j in cols) for cols in var]
+    names = [variable_name(parts, cols) for cols in var]
     for name in judged:
         if name not in lin:
             continue
@@ -244,7 +244,8 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
             {"part": parts[k][0], "sensitivity": _f(dln[k] / m0) if relative else None,
              "per_unit_log": _f(dln[k]), "contribution": _f(contrib[k])} for k in order]})
         definition = (f"extreme-value analysis over {P} toleranced parts"
-                      + (f" ({V} variables: a fully tracking group is one)" if V < P else "")
+                      + (f" ({V} variables: a fully tracking group, or a .param's elements, is one)"
+                         if V < P else "")
                       + f": {_fmt(entry['min'], r.unit)} … {_fmt(entry['max'], r.unit)}"
                       + (f"; all {2 ** V} corners evaluated" if corners is not None else ""))
         method_text = f"sensitivities by {method}; EVA (each part at the end that hurts)"

@@ -61,6 +61,8 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
                  "seen": "—" if t.get("sample_correlation") is None else
                  f"{t['sample_correlation']:.3f}"} for t in mc.get("tracking", ())]
     nominal_values = {p["part"]: p["nominal"] for p in mc.get("parts", ())}
+    for p in mc.get("params", ()):  # the elements that follow a toleranced .param
+        nominal_values.update(p.get("element_nominal") or {})
     limits, samples = [], {}
     units = {lim.name: lim.unit for lim in s.limits}  # stress rows too
     by_name = {lim.name: lim for lim in s.limits}
@@ -138,6 +140,10 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
                         "deviations)" if per_part else
         _DISTRIBUTIONS.get(mc.get("distribution"), str(mc.get("distribution"))),
         "per_part": per_part, "tracking": tracking,
+        "params": [{"param": p["param"], "nominal": format_eng(p["nominal"], ""),
+                    "tolerance": _band_text(p), "distribution": p.get("distribution", ""),
+                    "elements": ", ".join(p.get("elements", ()))}
+                   for p in mc.get("params", ())],
         "asymmetric": any("/" in p["tolerance"] for p in parts),
         "yield": format_fraction(y), "ci": format_interval(ci),
         "ci_lo": format_fraction(ci[0]), "ci_hi": format_fraction(ci[1]),

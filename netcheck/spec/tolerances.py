@@ -23,6 +23,8 @@ TOLERANCE_KEYS = {
     "parts": "tolerance per part (hierarchical names, globs allowed), e.g. { C3 = \"2%\" }",
     "distribution": "'uniform', 'normal' (tolerance = 3 sigma) or 'truncnormal' (normal cut "
                     "at ±tolerance); the default of every part",
+    "params": "tolerance of a global .param, e.g. { gbw = \"20%\" }: every element whose value "
+              "depends on it follows the drawn value (same forms as a part's tolerance)",
     "tracking": "groups of parts that move together: [{ parts = [\"RN1.*\"], correlation = 1 }] "
                 "(1: one shared draw)",
 }
@@ -89,6 +91,8 @@ class Tolerances:
     parts: tuple[tuple[str, "float | Spread"], ...] = ()
     distribution: str = "uniform"
     tracking: tuple[Tracking, ...] = ()
+    #: tolerances of global ``.param`` values (lower-case names)
+    params: tuple[tuple[str, "float | Spread"], ...] = ()
 
 
 @dataclass(frozen=True, slots=True)
@@ -230,7 +234,11 @@ def parse_tolerances(table: Any, path: str) -> Tolerances:
     d = tuple((k.upper(), _spread(rd, f"default.{k}", v)) for k, v in default.items())
     p = tuple((k.upper(), _spread(rd, f"parts.{k}", v)) for k, v in parts.items())
     dist = rd.choice("distribution", DISTRIBUTIONS, "uniform")
-    return Tolerances(d, p, dist, _tracking(rd, rd.raw("tracking", [])))
+    params = rd.raw("params", {})
+    if not isinstance(params, dict):
+        rd.fail("params", "expected a table, e.g. { gbw = \"20%\" }", code="spec-273")
+    q = tuple((k.lower(), _spread(rd, f"params.{k}", v)) for k, v in params.items())
+    return Tolerances(d, p, dist, _tracking(rd, rd.raw("tracking", [])), q)
 
 
 def parse_analysis(table: Any, path: str) -> Analysis:

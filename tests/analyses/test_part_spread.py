@@ -267,3 +267,79 @@ def test_tracking_shows_in_the_json_and_the_pdf(tmp_path, capsys):
     assert abs(group["sample_correlation"] - 0.9) < 5 * se
     text = "".join(p.extract_text() for p in pypdf.PdfReader(pdf / "t.pdf").pages)
     assert "tracking group" in text.lower() and "0.9" in text and "normal" in text
+
+
+# ---------------------------------------------------------------------------------------
+# a tolerance on a .param: the netlist elaborated again, the dependent elements exact
+# ---------------------------------------------------------------------------------------
+
+TUNED = """Quillmere test: RC low-pass tuned by a parameter, C = 1/(2 pi fc R)
+.param fc=1k
+V1 in 0 AC 1
+R1 in out 1k
+C1 out 0 {1/(2*pi*fc*1k)}
+"""
+
+TUNED_LIMIT = ('[analysis]\nmode = ["worst_case", "monte_carlo"]\nsamples = 600\n'
+               '[[limits]]\nkind = "gain"\nband = ["1.5k", "2k"]\nmin_db = -9\n')
+
+
+def _lowpass_db(fc: float, f: float) -> float:
+    """First-order low-pass: −10·log10(1 + (f/fc)²) (textbook)."""
+    return -10 * math.log10(1 + (f / fc) ** 2)
+
+
+def test_a_param_tolerance_moves_its_elements_exactly(tmp_path):
+    body = '[tolerances]\ndefault = { R = "1%", C = "5%" }\nparams = { fc = "20%" }\n'
+    res = check_spec(_spec(tmp_path, body + TUNED_LIMIT, TUNED))
+    assert res.error is None, res.error
+    tol = _tol(res)
+    assert tol["params"] == ["fc"]
+    mc = tol["monte_carlo"]
+    # C1 follows fc, so the letter default passes over it: only R1 is a part of its own
+    assert [p["part"] for p in mc["parts"]] == ["R1"]
+    (fc,) = mc["params"]
+    assert fc["elements"] == ["C1"] and fc["element_nominal"]["C1"] == pytest.approx(
+        1 / (2 * math.pi * 1e3 * 1e3), rel=1e-12)
+    # uniform ±20 %: mean 1 kHz, standard error 0.2·1k/√3/√600
+    assert abs(fc["sample_mean"] - 1e3) < 5 * 200 / math.sqrt(3) / math.sqrt(600)
+    # the worst sample's gain is that of the corner its own C1 and R1 give (closed form)
+    worst = mc["limits"][0]
+    r1, c1 = worst["worst_values"]["R1"], worst["worst_values"]["C1"]
+    assert worst["worst_measured"] == pytest.approx(
+        _lowpass_db(1 / (2 * math.pi * r1 * c1), 2e3), abs=1e-9)
+    assert 1 / (2 * math.pi * 1.2e3 * 1e3) <= c1 <= 1 / (2 * math.pi * 0.8e3 * 1e3)
+
+
+def test_a_param_is_one_worst_case_variable_at_its_exact_ends(tmp_path):
+    body = '[tolerances]\nparams = { fc = ["-20%", "+10%"] }\n'
+    res = check_spec(_spec(tmp_path, body + TUNED_LIMIT, TUNED))
+    wc = _tol(res)["worst_case"]
+    assert (wc["variables"], wc["corners"]) == (1, 2)
+    row = wc["limits"][0]
+    # fc at 800 Hz and 1.1 kHz: C1 = 1/(2π fc R) taken from the netlist at each end
+    assert row["corners_min"] == pytest.approx(_lowpass_db(800.0, 2e3), abs=1e-9)
+    assert row["corners_max"] == pytest.approx(_lowpass_db(1100.0, 2e3), abs=1e-9)
+
+
+@pytest.mark.parametrize("body, code, key, words", [
+    ('params = { gbw = "10%" }\n', "spec-273", "tolerances.params.gbw",
+     "defines no global .param gbw (it defines fc)"),
+    ('parts = { C1 = "5%" }\nparams = { fc = "10%" }\n', "spec-274", "tolerances.params.fc",
+     "C1 depends on fc and has a tolerance of its own"),
+    ('params = { fc = ["-120%", "+10%"] }\n', "spec-270", "tolerances.params.fc",
+     "lower end must lie in"),
+])
+def test_bad_param_tolerances_are_errors_at_their_key(tmp_path, body, code, key, words):
+    res = check_spec(_spec(tmp_path, "[tolerances]\n" + body + TUNED_LIMIT, TUNED))
+    assert res.error is not None
+    assert re.search(rf"error {code}: {re.escape(key)}", res.error), res.error
+    assert words in res.error
+
+
+def test_a_param_no_element_depends_on_is_refused(tmp_path):
+    net = TUNED.replace(".param fc=1k", ".param fc=1k spare=3")
+    res = check_spec(_spec(tmp_path, '[tolerances]\nparams = { spare = "10%" }\n' + TUNED_LIMIT,
+                           net))
+    assert res.error is not None and "spec-273" in res.error
+    assert "no element value depends on .param spare" in res.error
