@@ -68,6 +68,7 @@ CODES: dict[str, str] = {
     "spec-272": "tracking group mixing distributions below full correlation",
     "spec-273": ".param tolerance that cannot be applied",
     "spec-274": "element toleranced twice (its own tolerance and a toleranced .param)",
+    "spec-275": "temperature range or temperature coefficient malformed",
     "spec-280": "notch limit that cannot be judged as written",
     "spec-281": "bad notch depth reference",
     "spec-282": "bad relative Q (nominal with tolerance)",

@@ -82,6 +82,9 @@ def toleranced_params(tol: Tolerances, circuit: Circuit,
         def fail(message: str, code: str = "spec-273") -> SpecError:
             return SpecError(f"{where}: {message}", code=code, path=path, where=where)
 
+        if s.tc is not None or s.ageing is not None:
+            raise fail("tc and ageing apply to parts, not to a .param (give the parameter's "
+                       "whole spread as its tolerance)")
         if s.half == 0:
             continue
         if rebuild is None:

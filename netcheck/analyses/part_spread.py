@@ -36,7 +36,8 @@ from ..netlist.elaborate import Circuit
 from ..netlist.ports import PORT_ELEMENTS
 from ..spec.tolerances import Spread, Tolerances
 
-__all__ = ["Part", "toleranced_parts", "draw", "variables", "variable_name", "ends", "part_json",
+__all__ = ["Part", "toleranced_parts", "draw", "drift", "variables", "variable_name", "ends",
+           "part_json",
            "copula_r",
            "tracking_json"]
 
@@ -48,20 +49,71 @@ class Part(tuple):
     low: float
     high: float
     distribution: str | None
-    group: int | None
+    group: int | str | None
     correlation: float
+    #: temperature: the coefficient band (low, high) per kelvin about ``reference`` (the
+    #: spec's ``tc``), or the netlist's (TC1, TC2, TNOM, temperature of the nominal value)
+    tc: tuple[float, float] | None
+    tc12: tuple[float, float, float, float] | None
+    #: (lowest, highest, reference) °C the temperature terms act over, or None
+    temperature: tuple[float, float, float] | None
+    ageing: tuple[float, float] | None
 
     def __new__(cls, name: str, nominal: float, low: float, high: float,
-                distribution: str | None = None, group: int | None = None,
-                correlation: float = 0.0) -> "Part":
+                distribution: str | None = None, group: int | str | None = None,
+                correlation: float = 0.0, tc: tuple[float, float] | None = None,
+                tc12: tuple[float, float, float, float] | None = None,
+                temperature: tuple[float, float, float] | None = None,
+                ageing: tuple[float, float] | None = None) -> "Part":
         obj = super().__new__(cls, (name, nominal, max(abs(low), abs(high))))
         obj.low, obj.high, obj.distribution = low, high, distribution
         obj.group, obj.correlation = group, correlation
+        obj.tc, obj.tc12, obj.ageing = tc, tc12, ageing
+        obj.temperature = temperature if tc is not None or tc12 is not None else None
         return obj
 
     def __reduce__(self) -> tuple:  # pickles (the batch runner sends parts to workers)
         return (Part, (self[0], self[1], self.low, self.high, self.distribution, self.group,
-                       self.correlation))
+                       self.correlation, self.tc, self.tc12, self.temperature, self.ageing))
+
+    def thermal(self, t_c: np.ndarray, coefficient: np.ndarray | float | None = None
+                ) -> np.ndarray:
+        """The factor the value is multiplied by at ``t_c`` °C: 1 + tc·(T − T_ref) with
+        ``coefficient`` (spec), or the netlist's (1 + TC1·ΔT + TC2·ΔT²) relative to the
+        temperature its nominal value holds at (ΔT = T − TNOM)."""
+        t_c = np.asarray(t_c, float)
+        if self.tc is not None:
+            return 1.0 + coefficient * (t_c - self.temperature[2])
+        if self.tc12 is not None:
+            tc1, tc2, tnom, t0 = self.tc12
+            g = lambda t: 1.0 + tc1 * (t - tnom) + tc2 * (t - tnom) ** 2  # noqa: E731
+            return g(t_c) / g(t0)
+        return np.ones_like(t_c)
+
+    def drift(self) -> tuple[float, float]:
+        """The least and greatest thermal factor − 1 over the temperature range (the
+        spec's coefficient band at either end; the netlist's quadratic at the ends and at
+        its vertex): the temperature band worst case adds."""
+        if self.temperature is None:
+            return 0.0, 0.0
+        lo_t, hi_t, _ = self.temperature
+        ts = [lo_t, hi_t]
+        if self.tc is not None:
+            f = [float(self.thermal(t, c)) for t in ts for c in self.tc]
+        else:
+            tc1, tc2, tnom, _ = self.tc12
+            if tc2 != 0 and lo_t < tnom - tc1 / (2 * tc2) < hi_t:
+                ts.append(tnom - tc1 / (2 * tc2))
+            f = [float(self.thermal(t)) for t in ts]
+        return min(f) - 1.0, max(f) - 1.0
+
+    def worst_ends(self) -> tuple[float, float]:
+        """The ends worst case sets the part at: the initial band, the temperature band
+        and the ageing band together, (1 + a)(1 + b)(1 + c) − 1 at each side."""
+        d_lo, d_hi = self.drift()
+        a_lo, a_hi = self.ageing or (0.0, 0.0)
+        return ((1 + self.low) * (1 + d_lo) * (1 + a_lo) - 1.0,
+                (1 + self.high) * (1 + d_hi) * (1 + a_hi) - 1.0)
 
 
 def _band(part: Any) -> tuple[float, float]:
@@ -94,7 +146,7 @@ def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>") ->
     circuit = dataclasses.replace(circuit, elements=tuple(parts), _index=None)
     for e in circuit.elements:
         # a 0 Ω resistor is a wire, not a part: letter defaults and globs pass over it
-        if e.letter in default and default[e.letter].half > 0 and e.value != 0:
+        if e.letter in default and _moves(default[e.letter]) and e.value != 0:
             out[e.name] = (e.value, default[e.letter])
     ordered = sorted(tol.parts, key=lambda item: not _is_glob(item[0]))  # stable: globs first
     for pattern, t in ordered:
@@ -120,7 +172,7 @@ def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>") ->
                     f"({e.value:g}) reach {reach:.4g}, above 1, which no "
                     f"pair of coils can have; at most {(1 / abs(e.value) - 1) * 100:.3g} % "
                     "fits", code="spec-202", path=path, where=where)
-            if s.half > 0:
+            if _moves(s):
                 out[e.name] = (e.value, s)
             else:
                 out.pop(e.name, None)
@@ -132,9 +184,27 @@ def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>") ->
             raise SpecError(f"{where}: {name} has the value 0, which a relative tolerance "
                             "cannot move; drop its tolerance", code="spec-202", path=path,
                             where=where)
+    if tol.temperature is not None:  # parts with TC1/TC2 in the netlist drift too
+        for e in circuit.elements:
+            if (getattr(e, "tc1", 0.0) or getattr(e, "tc2", 0.0)) and e.name not in out \
+                    and e.value != 0:
+                out[e.name] = (e.value, Spread(0.0, 0.0))
     groups = _groups(tol, sorted(out), path)
-    return [Part(name, v, s.low, s.high, s.distribution or tol.distribution,
-                 *groups.get(name, (None, 0.0))) for name, (v, s) in sorted(out.items())]
+    made = []
+    for name, (v, s) in sorted(out.items()):
+        e = circuit.element(name)
+        tc12 = None
+        if s.tc is None and (getattr(e, "tc1", 0.0) or getattr(e, "tc2", 0.0)):
+            tc12 = (e.tc1, e.tc2, e.tnom, circuit.temp_c)
+        made.append(Part(name, v, s.low, s.high, s.distribution or tol.distribution,
+                         *groups.get(name, (None, 0.0)), s.tc, tc12, tol.temperature,
+                         s.ageing))
+    return made
+
+
+def _moves(s: Spread) -> bool:
+    """A part tolerance that moves the part: a band, a temperature coefficient or ageing."""
+    return s.half > 0 or any(x != 0 for x in (*(s.tc or ()), *(s.ageing or ())))
 
 
 def _groups(tol: Tolerances, names: list[str], path: str) -> dict[str, tuple[int, float]]:
@@ -278,6 +348,29 @@ def variables(parts: list) -> list[list[int]]:
     return out
 
 
+def drift(parts: list, values: dict[str, np.ndarray], samples: int,
+          rng: np.random.Generator) -> np.ndarray | None:
+    """Temperature and ageing over the Monte Carlo samples, applied to ``values`` in place.
+
+    One temperature per sample, uniform over the spec's range and shared by every part
+    (the board is at one temperature); each part's coefficient uniform over its ``tc``
+    band, its own per sample (the netlist's TC1/TC2 as given); each ageing uniform over
+    its band. Returns the temperatures (S,), or None when no part has a thermal term.
+    """
+    thermal = [p for p in parts if isinstance(p, Part) and p.temperature is not None]
+    aged = [p for p in parts if isinstance(p, Part) and p.ageing is not None]
+    t_c = None
+    if thermal:
+        lo_t, hi_t, _ = thermal[0].temperature
+        t_c = rng.uniform(lo_t, hi_t, samples)
+        for p in thermal:
+            c = rng.uniform(*p.tc, samples) if p.tc is not None else None
+            values[p[0]] = values[p[0]] * p.thermal(t_c, c)
+    for p in aged:
+        values[p[0]] = values[p[0]] * (1.0 + rng.uniform(*p.ageing, samples))
+    return t_c
+
+
 def variable_name(parts: list, cols: list[int]) -> str:
     """A worst-case variable in words: the part, ``.param gbw``, or ``R1+R2``."""
     group = getattr(parts[cols[0]], "group", None)
@@ -287,8 +380,10 @@ def variable_name(parts: list, cols: list[int]) -> str:
 
 
 def ends(parts: list) -> tuple[np.ndarray, np.ndarray]:
-    """(low, high) (P,) signed fractional ends of every part's band."""
-    b = np.array([_band(p) for p in parts], float).reshape(len(parts), 2)
+    """(low, high) (P,) signed fractional ends of every part's band, with its temperature
+    and ageing bands (:meth:`Part.worst_ends`)."""
+    b = np.array([p.worst_ends() if isinstance(p, Part) else _band(p) for p in parts],
+                 float).reshape(len(parts), 2)
     return b[:, 0], b[:, 1]
 
 
@@ -300,6 +395,14 @@ def part_json(p: Any, distribution: str) -> dict[str, Any]:
              else distribution}
     if isinstance(p, Part) and p.group is not None:
         entry.update(group=p.group, correlation=p.correlation)
+    if isinstance(p, Part) and (p.temperature is not None or p.ageing is not None):
+        if p.tc is not None:
+            entry["tc"] = list(p.tc)
+        elif p.tc12 is not None:
+            entry["tc12"] = list(p.tc12[:2])
+        if p.ageing is not None:
+            entry["ageing"] = list(p.ageing)
+        entry["worst_low"], entry["worst_high"] = p.worst_ends()
     return entry
 
 

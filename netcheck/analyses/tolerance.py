@@ -29,7 +29,7 @@ from ..mna.assemble import System
 from ..netlist.elaborate import Circuit
 from ..exceptions import SpecError
 from ..result import LimitResult, Status
-from .part_spread import draw, part_json, toleranced_parts, tracking_json
+from .part_spread import draw, drift, part_json, toleranced_parts, tracking_json
 from .sample_probe import BatchProbe
 from ..mna.sampling import SampleSet
 from ..spec.load import Spec
@@ -191,6 +191,7 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
 
         drawn, follow = param_values(list(params), S, rng, rebuild, spec.path)
         values.update(follow)
+    t_c = drift(parts, values, S, rng)  # temperature and ageing, where the spec gives them
     regions: dict[str, list] = {}
     margins, measured, meas, env_lo, env_hi = run_samples(
         system, spec, values, S, analysis.memory_mib * 2**20, "Monte Carlo samples", regions)
@@ -231,6 +232,9 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
     if params:
         block["params"] = [{**p.to_json(), "sample_mean": float(np.mean(drawn[p.name]))}
                            for p in params]
+    if t_c is not None:
+        block["temperature"] = {"min_c": float(t_c.min()), "max_c": float(t_c.max()),
+                                "mean_c": float(t_c.mean())}
     tracking = tracking_json(parts, values)
     if tracking:
         block["tracking"] = tracking

@@ -43,11 +43,14 @@ def analyse(nominal: Nominal) -> Outcome | None:
                    "parts": len(parts) + sum(len(p.parts) for p in params)}
     preferred = [(n, circuit.element(n).letter, v, t, circuit.element(n).span)
                  for n, v, t in parts
-                 if circuit.element(n).letter in "RLC" and t <= 0.2 and v > 0
+                 if circuit.element(n).letter in "RLC" and 0 < t <= 0.2 and v > 0
                  # part_models: a model's parameters are not parts bought by E-series value
                  and circuit.part_model_of(n) is None]
     cautions = [diag_caution(d) for d in check_preferred(preferred)]
     following = [q for p in params for q in p.parts]
+    if tol.temperature is not None:
+        lo_t, hi_t, ref = tol.temperature
+        block["temperature"] = {"range_c": [lo_t, hi_t], "reference_c": ref}
     if params:
         block["params"] = [p.name for p in params]
     if not parts and not params and set(analysis.modes) - {"nominal"}:

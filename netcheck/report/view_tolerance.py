@@ -144,7 +144,10 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
                     "tolerance": _band_text(p), "distribution": p.get("distribution", ""),
                     "elements": ", ".join(p.get("elements", ()))}
                    for p in mc.get("params", ())],
-        "asymmetric": any("/" in p["tolerance"] for p in parts),
+        "asymmetric": any("/" in p["tolerance"] or "," in p["tolerance"] for p in parts),
+        "temperature": None if not mc.get("temperature") else
+        "one temperature per sample, uniform over the range, shared by every part: drawn "
+        f"{mc['temperature']['min_c']:.1f} °C … {mc['temperature']['max_c']:.1f} °C",
         "yield": format_fraction(y), "ci": format_interval(ci),
         "ci_lo": format_fraction(ci[0]), "ci_hi": format_fraction(ci[1]),
         "ci_method": mc.get("ci_method") or "not recorded", "required": required,
@@ -158,11 +161,26 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
 
 
 def _band_text(p: dict[str, Any]) -> str:
-    """``±5 %``, or ``−20 % / +80 %`` for an asymmetric band."""
+    """``±5 %``, or ``−20 % / +80 %`` for an asymmetric band; a temperature coefficient and
+    ageing follow (``±5 %, ±30 ppm/K, ageing ±1 %``)."""
     low, high = p.get("low"), p.get("high")
     if low is None or high is None or low == -high:
-        return tolerance_text(p.get("tolerance"))
-    return f"{100.0 * low:+.4g} % / {100.0 * high:+.4g} %".replace("-", "−")
+        text = tolerance_text(p.get("tolerance")) if p.get("tolerance") else "0 %"
+    else:
+        text = f"{100.0 * low:+.4g} % / {100.0 * high:+.4g} %".replace("-", "−")
+
+    def pair(lo: float, hi: float, scale: float, unit: str) -> str:
+        if lo == -hi:
+            return f"±{scale * hi:.4g} {unit}"
+        return f"{scale * lo:+.4g} … {scale * hi:+.4g} {unit}".replace("-", "−")
+
+    if p.get("tc"):
+        text += ", " + pair(*p["tc"], 1e6, "ppm/K")
+    elif p.get("tc12"):
+        text += f", TC1 {p['tc12'][0]:g}/K, TC2 {p['tc12'][1]:g}/K² (netlist)"
+    if p.get("ageing"):
+        text += ", ageing " + pair(*p["ageing"], 100.0, "%")
+    return text
 
 
 def _spread_row(label: str, st: dict[str, Any], unit: str, samples: int, nominal: str,

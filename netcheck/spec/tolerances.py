@@ -25,6 +25,8 @@ TOLERANCE_KEYS = {
                     "at ±tolerance); the default of every part",
     "params": "tolerance of a global .param, e.g. { gbw = \"20%\" }: every element whose value "
               "depends on it follows the drawn value (same forms as a part's tolerance)",
+    "temperature": "the temperature range the parts see, °C: { range_c = [-40, 85], "
+                   "reference_c = 25 } (their values are nominal at reference_c)",
     "tracking": "groups of parts that move together: [{ parts = [\"RN1.*\"], correlation = 1 }] "
                 "(1: one shared draw)",
 }
@@ -33,6 +35,13 @@ SPREAD_KEYS = {
     "tolerance": "\"5%\" (±5 %), or the two ends [\"-20%\", \"+80%\"]",
     "distribution": "'uniform', 'normal' or 'truncnormal' for these parts (default: the "
                     "spec's distribution)",
+    "tc": "temperature coefficient, ppm/K: \"30ppm/K\" (±30 ppm/K) or the two ends "
+          "[\"-750ppm/K\", \"-600ppm/K\"]; acts over tolerances.temperature",
+    "ageing": "drift over the service life, an extra band: \"1%\" (±) or [\"0%\", \"+2%\"]",
+}
+TEMPERATURE_KEYS = {
+    "range_c": "lowest and highest temperature of the parts, °C, e.g. [-40, 85]",
+    "reference_c": "the temperature the nominal values hold at, °C (default 25)",
 }
 TRACKING_KEYS = {
     "parts": "names or globs of the parts that track, e.g. [\"RN1.*\"] or [\"C4\", \"C5\"]",
@@ -61,6 +70,10 @@ class Spread:
     low: float
     high: float
     distribution: str | None = None
+    #: temperature coefficient band (low, high), per kelvin (30 ppm/K is 3e-5), or None
+    tc: tuple[float, float] | None = None
+    #: ageing band (low, high), signed fractions, or None
+    ageing: tuple[float, float] | None = None
 
     @property
     def half(self) -> float:
@@ -93,6 +106,8 @@ class Tolerances:
     tracking: tuple[Tracking, ...] = ()
     #: tolerances of global ``.param`` values (lower-case names)
     params: tuple[tuple[str, "float | Spread"], ...] = ()
+    #: (lowest, highest, reference) temperature, °C, when the spec states a range
+    temperature: tuple[float, float, float] | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -192,7 +207,59 @@ def _spread(rd: SpecReader, key: str, raw: Any) -> "float | Spread":
     s = _ends(sub, "tolerance", t) if isinstance(t, list) else \
         Spread(-(v := _fraction(sub, "tolerance", t)), v)
     dist = sub.choice("distribution", DISTRIBUTIONS, None) if "distribution" in raw else None
-    return Spread(s.low, s.high, dist)
+    tc = _tc(sub, raw["tc"]) if "tc" in raw else None
+    ageing = None
+    if "ageing" in raw:
+        a = raw["ageing"]
+        age = _ends(sub, "ageing", a) if isinstance(a, list) else \
+            Spread(-(v := _fraction(sub, "ageing", a)), v)
+        ageing = (age.low, age.high)
+    return Spread(s.low, s.high, dist, tc, ageing)
+
+
+def _per_kelvin(rd: SpecReader, key: str, raw: Any) -> float:
+    """``"30ppm/K"`` (or ``"30ppm"``, ``3e-5``) as a fraction per kelvin."""
+    text = raw.strip() if isinstance(raw, str) else raw
+    if isinstance(text, str) and text[-2:].upper() == "/K":
+        text = text[:-2]
+    value = rd.relative(key, text)
+    if abs(value) > 0.1:
+        rd.fail(key, f"{raw!r} is {value:g} per kelvin, 10 % a degree: write ppm/K, e.g. "
+                     "\"30ppm/K\"", code="spec-275")
+    return value
+
+
+def _tc(rd: SpecReader, raw: Any) -> tuple[float, float]:
+    """``"30ppm/K"`` → (−3e-5, 3e-5); ``["-750ppm/K", "-600ppm/K"]`` → its two ends."""
+    if isinstance(raw, list):
+        if len(raw) != 2:
+            rd.fail("tc", "a temperature coefficient band is [lower, upper], e.g. "
+                          "[\"-750ppm/K\", \"-600ppm/K\"]", code="spec-275")
+        lo, hi = (_per_kelvin(rd, "tc", v) for v in raw)
+        if lo > hi:
+            rd.fail("tc", f"the lower end {raw[0]!r} is above the upper {raw[1]!r}",
+                    code="spec-275")
+        return lo, hi
+    v = _per_kelvin(rd, "tc", raw)
+    if v < 0:
+        rd.fail("tc", f"a single coefficient is a ± band: write {raw!r} without its sign, or "
+                      "the two ends as a list", code="spec-275")
+    return -v, v
+
+
+def _temperature(rd: SpecReader, raw: Any) -> tuple[float, float, float] | None:
+    if raw is None:
+        return None
+    sub = SpecReader(raw, rd.key_path("temperature"), rd.path, TEMPERATURE_KEYS)
+    span = sub.bounds("range_c", required=True)
+    if span[0] is None or span[1] is None:
+        sub.fail("range_c", "give both ends, e.g. [-40, 85]", code="spec-275")
+    ref = sub.number("reference_c", 25.0)
+    for t in (*span, ref):
+        if not -273.15 < t < 1000:
+            sub.fail("range_c" if t != ref else "reference_c",
+                     f"{t:g} °C is not a temperature parts work at", code="spec-275")
+    return float(span[0]), float(span[1]), float(ref)
 
 
 def _tracking(rd: SpecReader, raw: Any) -> tuple[Tracking, ...]:
@@ -238,7 +305,15 @@ def parse_tolerances(table: Any, path: str) -> Tolerances:
     if not isinstance(params, dict):
         rd.fail("params", "expected a table, e.g. { gbw = \"20%\" }", code="spec-273")
     q = tuple((k.lower(), _spread(rd, f"params.{k}", v)) for k, v in params.items())
-    return Tolerances(d, p, dist, _tracking(rd, rd.raw("tracking", [])), q)
+    temperature = _temperature(rd, rd.raw("temperature"))
+    if temperature is None:
+        for key, s in (*(("default." + k, v) for k, v in d), *(("parts." + k, v) for k, v in p),
+                       *(("params." + k, v) for k, v in q)):
+            if isinstance(s, Spread) and s.tc is not None:
+                rd.fail(f"{key}.tc", "a temperature coefficient needs the temperature range "
+                                     "it acts over: tolerances.temperature = { range_c = "
+                                     "[-40, 85] }", code="spec-275")
+    return Tolerances(d, p, dist, _tracking(rd, rd.raw("tracking", [])), q, temperature)
 
 
 def parse_analysis(table: Any, path: str) -> Analysis:

@@ -343,3 +343,100 @@ def test_a_param_no_element_depends_on_is_refused(tmp_path):
                            net))
     assert res.error is not None and "spec-273" in res.error
     assert "no element value depends on .param spare" in res.error
+
+
+# ---------------------------------------------------------------------------------------
+# temperature and ageing
+# ---------------------------------------------------------------------------------------
+
+TEMPERATURE = "temperature = { range_c = [-40, 85] }\n"  # reference 25 °C: ΔT −65 … +60 K
+
+
+def test_temperature_and_ageing_widen_the_worst_case_ends(tmp_path):
+    body = ('[tolerances]\n' + TEMPERATURE +
+            'default = { R = { tolerance = "0%", tc = "100ppm/K" }, '
+            'C = { tolerance = "5%", ageing = ["0%", "+2%"] } }\n'
+            '[analysis]\nmode = ["worst_case", "monte_carlo"]\nsamples = 200\n'
+            '[[limits]]\nkind = "gain"\nband = ["1.5k", "2k"]\nmin_db = -20\n')
+    res = check_spec(_spec(tmp_path, body, RC_LOWPASS))
+    assert res.error is None, res.error
+    tol = _tol(res)
+    r = 1e3 * (1 + 100e-6 * 65)  # the largest |ΔT| of the range is 65 K (at −40 °C)
+    row = tol["worst_case"]["limits"][0]
+    # the RC corners: R at its hot/cold end, C at +5 % aged +2 % or at −5 % unaged
+    assert row["corners_min"] == pytest.approx(_rc_gain_db(r, 1e-7 * 1.05 * 1.02, 2e3),
+                                               abs=1e-9)
+    assert row["corners_max"] == pytest.approx(
+        _rc_gain_db(1e3 * (1 - 100e-6 * 65), 0.95e-7, 2e3), abs=1e-9)
+    parts = {p["part"]: p for p in tol["monte_carlo"]["parts"]}
+    assert parts["C1"]["worst_high"] == pytest.approx(1.05 * 1.02 - 1, rel=1e-12)
+    assert parts["R1"]["tc"] == [-1e-4, 1e-4]
+    assert tol["temperature"] == {"range_c": [-40.0, 85.0], "reference_c": 25.0}
+    t = tol["monte_carlo"]["temperature"]
+    assert -40 <= t["min_c"] < t["mean_c"] < t["max_c"] <= 85
+
+
+def test_netlist_tc1_tc2_drift_over_the_stated_range(tmp_path):
+    net = RC_LOWPASS.replace("R1 in out 1k", "R1 in out 1k TC1=1e-3 TC2=1e-5")
+    body = ('[tolerances]\n' + TEMPERATURE + '[analysis]\nmode = ["worst_case", '
+            '"monte_carlo"]\nsamples = 50\n[[limits]]\nkind = "gain"\nband = ["1.5k", "2k"]'
+            '\nmin_db = -20\n')
+    res = check_spec(_spec(tmp_path, body, net))
+    assert res.error is None, res.error
+    tol = _tol(res)
+    # g(T) = 1 + TC1·(T − 27) + TC2·(T − 27)², relative to g(27) = 1 (the netlist's 27 °C):
+    # least at the vertex T = 27 − TC1/(2·TC2) = −23 °C (0.975), greatest at 85 °C
+    g = lambda t: 1 + 1e-3 * (t - 27) + 1e-5 * (t - 27) ** 2  # noqa: E731
+    (r1,) = tol["monte_carlo"]["parts"]
+    assert r1["tc12"] == [1e-3, 1e-5]
+    assert r1["worst_low"] == pytest.approx(g(-23) - 1, abs=1e-12)
+    assert r1["worst_high"] == pytest.approx(g(85) - 1, abs=1e-12)
+    row = tol["worst_case"]["limits"][0]
+    assert row["corners_min"] == pytest.approx(_rc_gain_db(1e3 * g(85), 1e-7, 2e3), abs=1e-9)
+    assert row["corners_max"] == pytest.approx(_rc_gain_db(1e3 * g(-23), 1e-7, 2e3), abs=1e-9)
+
+
+def test_the_temperature_draw_has_the_moments_of_its_model():
+    from netcheck.analyses.part_spread import drift
+    t_range = (-40.0, 85.0, 25.0)
+    parts = [Part("R1", 1e3, 0.0, 0.0, "uniform", tc=(-1e-4, 1e-4), temperature=t_range),
+             Part("R2", 1e3, 0.0, 0.0, "uniform", tc=(-1e-4, 1e-4), temperature=t_range),
+             Part("C1", 1e-9, 0.0, 0.0, "uniform", ageing=(0.0, 0.02))]
+    rng = np.random.default_rng(4)
+    values = draw(parts, N, "uniform", rng)
+    t = drift(parts, values, N, rng)
+    # x = c·(T − 25), c ~ U(−a, a), T ~ U(−40, 85) independent: E[x] = 0,
+    # Var x = (a²/3)·(Var T + (E T − 25)²) with Var T = 125²/12 (independent calculation)
+    a, mean_t, var_t = 1e-4, 22.5, 125 ** 2 / 12
+    x = values["R1"] / 1e3 - 1
+    sd = math.sqrt(a * a / 3 * (var_t + (mean_t - 25) ** 2))
+    assert abs(x.mean()) < 5 * sd / math.sqrt(N)
+    # standard error of the sd: σ·√((κ + 2)/(4N)), κ the excess kurtosis of x = c·s:
+    # E x⁴/(E x²)² = (E c⁴/(E c²)²)·(E s⁴/(E s²)²), 9/5 for the uniform c, and s = T − 25
+    # uniform on [−65, 60] with E s^k = (60^(k+1) − (−65)^(k+1))/((k + 1)·125)
+    moment = lambda k: (60 ** (k + 1) - (-65) ** (k + 1)) / ((k + 1) * 125)  # noqa: E731
+    kappa = 1.8 * moment(4) / moment(2) ** 2 - 3
+    assert abs(x.std() - sd) < 5 * sd * math.sqrt((kappa + 2) / (4 * N))
+    assert abs(t.mean() - mean_t) < 5 * math.sqrt(var_t / N)
+    # one temperature per sample for every part: R1 and R2 drift together in sign only as
+    # far as their independent coefficients allow, so their correlation is 0 (E[c1 c2] = 0)
+    assert abs(np.corrcoef(values["R1"], values["R2"])[0, 1]) < 5 / math.sqrt(N)
+    y = values["C1"] / 1e-9 - 1  # ageing U(0, 2 %): mean 1 %, sd 2 %/√12
+    assert abs(y.mean() - 0.01) < 5 * 0.02 / math.sqrt(12 * N)
+
+
+@pytest.mark.parametrize("body, key, words", [
+    ('default = { C = { tolerance = "5%", tc = "30ppm/K" } }\n', "tolerances.default.C.tc",
+     "needs the temperature range"),
+    (TEMPERATURE + 'default = { C = { tolerance = "5%", tc = "-30ppm/K" } }\n',
+     "tolerances.default.C.tc", "a single coefficient is a ± band"),
+    (TEMPERATURE + 'default = { C = { tolerance = "5%", tc = 30 } }\n',
+     "tolerances.default.C.tc", "write ppm/K"),
+    ('temperature = { range_c = [-40] }\n', "tolerances.temperature.range_c", "expected [min, max]"),
+])
+def test_bad_temperature_forms_are_errors_at_their_key(tmp_path, body, key, words):
+    res = check_spec(_spec(tmp_path, "[tolerances]\n" + body + '[[limits]]\nkind = "gain"\n'
+                           'band = ["100", "200"]\nmin_db = -10\n', RC_LOWPASS))
+    assert res.error is not None
+    assert re.search(rf"error spec-2\d\d: {re.escape(key)}", res.error), res.error
+    assert words in res.error
