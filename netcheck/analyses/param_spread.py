@@ -110,8 +110,8 @@ def toleranced_params(tol: Tolerances, circuit: Circuit,
                 raise fail(f"{name} changes {e.name} beyond its value (a model parameter, an "
                            "option or its nodes); only element values can follow a "
                            "toleranced .param")
-            if lo.value == e.value and hi.value == e.value:
-                continue
+            if _main(e) is None or (lo.value == e.value and hi.value == e.value):
+                continue  # a device has no value of its own to follow (its model is above)
             if e.value == 0:
                 raise fail(f"{e.name} is 0 at the nominal {name}, so its change cannot be "
                            "taken relative to it")

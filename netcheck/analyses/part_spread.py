@@ -355,19 +355,33 @@ def drift(parts: list, values: dict[str, np.ndarray], samples: int,
     One temperature per sample, uniform over the spec's range and shared by every part
     (the board is at one temperature); each part's coefficient uniform over its ``tc``
     band, its own per sample (the netlist's TC1/TC2 as given); each ageing uniform over
-    its band. Returns the temperatures (S,), or None when no part has a thermal term.
+    its band. The parts of a fully tracking group (correlation 1) share one coefficient
+    draw and one ageing draw, each mapped onto its own band. Returns the temperatures
+    (S,), or None when no part has a thermal term.
     """
     thermal = [p for p in parts if isinstance(p, Part) and p.temperature is not None]
     aged = [p for p in parts if isinstance(p, Part) and p.ageing is not None]
+    shared: dict[tuple[str, Any], np.ndarray] = {}
+
+    def unit(kind: str, p: Part) -> np.ndarray:
+        """U(0, 1) draws for ``p``: one set per fully tracking group."""
+        if p.group is None or p.correlation < 1:
+            return rng.uniform(0.0, 1.0, samples)
+        key = (kind, p.group)
+        if key not in shared:
+            shared[key] = rng.uniform(0.0, 1.0, samples)
+        return shared[key]
+
     t_c = None
     if thermal:
         lo_t, hi_t, _ = thermal[0].temperature
         t_c = rng.uniform(lo_t, hi_t, samples)
         for p in thermal:
-            c = rng.uniform(*p.tc, samples) if p.tc is not None else None
+            c = p.tc[0] + (p.tc[1] - p.tc[0]) * unit("tc", p) if p.tc is not None else None
             values[p[0]] = values[p[0]] * p.thermal(t_c, c)
     for p in aged:
-        values[p[0]] = values[p[0]] * (1.0 + rng.uniform(*p.ageing, samples))
+        a = p.ageing[0] + (p.ageing[1] - p.ageing[0]) * unit("ageing", p)
+        values[p[0]] = values[p[0]] * (1.0 + a)
     return t_c
 
 

@@ -3,7 +3,8 @@
 The ``[tolerances]`` and ``[analysis]`` tables are parsed when the spec is loaded
 (:mod:`netcheck.spec.tolerances`, ``Spec.tolerances`` and ``Spec.analysis``); matching
 their part names and globs against the netlist (:func:`toleranced_parts`) needs the
-circuit, so it is done here.
+circuit, so it is done by the analyses (:mod:`netcheck.analyses.part_spread`, which
+also draws the samples; a ``.param``'s tolerance: :mod:`netcheck.analyses.param_spread`).
 
 Monte Carlo draws every toleranced part for all samples at once (numpy Generator,
 seeded) and judges every limit per sample through :mod:`netcheck.mna.sampling`, in

@@ -8,6 +8,12 @@ quadrature, for comparison. With up to :data:`MAX_CORNER_PARTS` toleranced parts
 (:data:`MAX_CORNER_PARTS_SPARSE` on the sparse path, where each corner costs a sweep) every
 corner (each part at either end) is also judged, through the Monte Carlo machinery.
 
+Each part sets its own ends: −20 % and +80 % for an asymmetric band, widened by its
+temperature and ageing bands (:meth:`netcheck.analyses.part_spread.Part.worst_ends`). A
+fully tracking group, or the elements that follow a toleranced ``.param``, is one
+variable: its parts are at their low ends together or at their high ends together, so
+EVA adds the group's summed effect and the corners count it once.
+
 Which decides. A quantity monotone in each part over the tolerance box takes its extremes
 at corners, so there the corners are exact and EVA (first order) is only an estimate,
 too wide where the quantity is convex (Q ∝ 1/R: 1/(1 + t) > 1 − t) and too narrow where

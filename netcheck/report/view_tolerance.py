@@ -202,7 +202,7 @@ def _spread_row(label: str, st: dict[str, Any], unit: str, samples: int, nominal
 
 
 def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, LimitResult],
-                     tolerances: dict[str, float]) -> dict[str, Any]:
+                     tolerances: dict[str, dict[str, Any]]) -> dict[str, Any]:
     by_name = {lim.name: lim for lim in s.limits if lim.kind == "worst_case"}
     n_parts = wc.get("parts")
     corners = wc.get("corners")
@@ -258,8 +258,9 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
         for item in block.get("top", ()):
             d = item.get("per_unit_log")
             c = item.get("contribution")
-            tol = tolerances.get(item["part"])
-            if tol is None and d and c is not None:
+            entry = tolerances.get(item["part"])
+            tol = None
+            if entry is None and d and c is not None:
                 tol = c / d
             direction = "—" if d is None else "value rises" if d > 0 else "value falls" \
                 if d < 0 else "no effect"
@@ -267,7 +268,8 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
                 "part": item["part"], "direction": direction,
                 "normalised": "—" if log_unit else coefficient(item.get("sensitivity")),
                 "per_percent": signed(None if d is None else d / 100.0, unit),
-                "tolerance": tolerance_text(tol), "contribution": signed(c, unit),
+                "tolerance": _band_text(entry) if entry is not None else tolerance_text(tol),
+                "contribution": signed(c, unit),
                 "share": "—" if c is None or not half else f"{100.0 * abs(c) / half:.1f} %"})
         sens.append({"name": block["name"], "unit": unit or "(dimensionless)",
                      "method": e.get("sensitivity_method", "not recorded"),
@@ -367,7 +369,7 @@ def tolerance_view(s: SpecResult, with_plots: bool = True) -> dict[str, Any] | N
     nominal = nominal_limits(s)
     mc = analysis_block(s, "tolerance", "monte_carlo")
     wc = analysis_block(s, "tolerance", "worst_case")
-    tolerances = {p["part"]: p.get("tolerance") for p in (mc or {}).get("parts", ())}
+    tolerances = {p["part"]: p for p in (mc or {}).get("parts", ())}
     plot = histogram_plot(s) if with_plots and mc is not None else None
     modes = [m for m in tol.get("modes", ()) if isinstance(m, str)]
     return {

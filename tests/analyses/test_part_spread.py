@@ -440,3 +440,51 @@ def test_bad_temperature_forms_are_errors_at_their_key(tmp_path, body, key, word
     assert res.error is not None
     assert re.search(rf"error spec-2\d\d: {re.escape(key)}", res.error), res.error
     assert words in res.error
+
+
+def test_a_fully_tracking_group_drifts_as_one():
+    from netcheck.analyses.part_spread import drift
+    t_range = (-20.0, 70.0, 25.0)
+    net = dict(distribution="uniform", group=0, correlation=1.0, tc=(-25e-6, 25e-6),
+               temperature=t_range, ageing=(-0.002, 0.002))
+    parts = [Part("R1", 10e3, -0.005, 0.005, **net), Part("R2", 20e3, -0.005, 0.005, **net),
+             Part("R3", 1e3, -0.005, 0.005, "uniform", tc=(-25e-6, 25e-6),
+                  temperature=t_range, ageing=(-0.002, 0.002))]
+    rng = np.random.default_rng(9)
+    values = draw(parts, 5000, "uniform", rng)
+    drift(parts, values, 5000, rng)
+    # the same point of the same bands, the same temperature: the ratio does not move
+    assert np.allclose(values["R2"] / values["R1"], 2.0, rtol=1e-13)
+    # the part outside the group drifts on its own (independent draws: r ≈ 0 ± 5/√n)
+    assert abs(np.corrcoef(values["R1"], values["R3"])[0, 1]) < 5 / math.sqrt(4999)
+
+
+def test_a_param_tolerance_on_a_circuit_with_a_transistor(tmp_path):
+    # each sample elaborated again and its operating point solved again; the transistor
+    # itself has no value to follow, so only the collector resistor does
+    net = """Quillmere test: common-emitter stage, collector resistor set by a parameter
+.param rc=4.7k
+VCC vcc 0 DC 12
+V1 in 0 AC 1
+C1 in b 10u
+R1 vcc b 100k
+R2 b 0 22k
+RC vcc out {rc}
+RE e 0 1k
+CE e 0 100u
+Q1 out b e qm_npn
+.model qm_npn NPN(IS=1e-15 BF=200 VAF=100)
+"""
+    body = ('[tolerances]\ndefault = { R = "1%" }\nparams = { rc = "5%" }\n'
+            '[analysis]\nmode = ["worst_case", "monte_carlo"]\nsamples = 20\n'
+            '[[limits]]\nkind = "gain"\nband = ["1k", "2k"]\nmin_db = 20\n')
+    res = check_spec(_spec(tmp_path, body, net, sweep=("100", "100k", 20)))
+    assert res.error is None, res.error
+    tol = _tol(res)
+    assert tol["monte_carlo"]["params"][0]["elements"] == ["RC"]
+    assert "RC" not in {p["part"] for p in tol["monte_carlo"]["parts"]}
+    assert tol["monte_carlo"]["device_regions"][0]["device"] == "Q1"
+    assert tol["worst_case"]["variables"] == 4  # R1, R2, RE and .param rc
+    # the worst sample's collector resistor lies in the parameter's band
+    worst = tol["monte_carlo"]["limits"][0]
+    assert 0.95 * 4.7e3 <= worst["worst_values"]["RC"] <= 1.05 * 4.7e3
