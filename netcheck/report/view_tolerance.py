@@ -52,7 +52,7 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
     parts = [{"part": p["part"], "nominal": format_eng(p["nominal"], _part_unit(p["part"])),
               "tolerance": _band_text(p), "distribution": p.get("distribution") or "",
               "group": "" if p.get("group") is None else
-              f"group {p['group']} (ρ = {p.get('correlation', 1):g})"}
+              f"group\u00a0{p['group']} (ρ\u00a0=\u00a0{p.get('correlation', 1):g})"}
              for p in mc.get("parts", ())]
     # a column of distributions when the parts differ, one of groups when any track
     per_part = len({p["distribution"] for p in parts}) > 1
@@ -170,9 +170,9 @@ def _band_text(p: dict[str, Any]) -> str:
         text = f"{100.0 * low:+.4g} % / {100.0 * high:+.4g} %".replace("-", "−")
 
     def pair(lo: float, hi: float, scale: float, unit: str) -> str:
-        if lo == -hi:
-            return f"±{scale * hi:.4g} {unit}"
-        return f"{scale * lo:+.4g} … {scale * hi:+.4g} {unit}".replace("-", "−")
+        if lo == -hi:  # the number and its unit kept on one line
+            return f"±{scale * hi:.4g}\u00a0{unit}"
+        return f"{scale * lo:+.4g} … {scale * hi:+.4g}\u00a0{unit}".replace("-", "−")
 
     if p.get("tc"):
         text += ", " + pair(*p["tc"], 1e6, "ppm/K")
