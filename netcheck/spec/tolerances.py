@@ -32,7 +32,8 @@ TOLERANCE_KEYS = {
 }
 #: the keys of a part tolerance written as a table, e.g. C = { tolerance = "10%", distribution = "normal" }
 SPREAD_KEYS = {
-    "tolerance": "\"5%\" (±5 %), or the two ends [\"-20%\", \"+80%\"]",
+    "tolerance": "\"5%\" (±5 %), or the two ends [\"-20%\", \"+80%\"] (0 when the table gives "
+                 "only tc or ageing)",
     "distribution": "'uniform', 'normal' or 'truncnormal' for these parts (default: the "
                     "spec's distribution)",
     "tc": "temperature coefficient, ppm/K: \"30ppm/K\" (±30 ppm/K) or the two ends "
@@ -200,10 +201,10 @@ def _spread(rd: SpecReader, key: str, raw: Any) -> "float | Spread":
                      f"{', '.join(map(repr, raw))} (got dict); a hierarchical part name "
                      "must be quoted: \"X1.L1\" = \"5%\"")
     sub = SpecReader(raw, rd.key_path(key), rd.path, SPREAD_KEYS)
-    if "tolerance" not in raw:
+    if "tolerance" not in raw and not {"tc", "ageing"} & set(raw):
         sub.fail("tolerance", "missing (required): the part's tolerance, e.g. \"5%\" or "
                               "[\"-20%\", \"+80%\"]", code="spec-270")
-    t = raw["tolerance"]
+    t = raw.get("tolerance", 0.0)  # a part that only drifts: { tc = "30ppm/K" }
     s = _ends(sub, "tolerance", t) if isinstance(t, list) else \
         Spread(-(v := _fraction(sub, "tolerance", t)), v)
     dist = sub.choice("distribution", DISTRIBUTIONS, None) if "distribution" in raw else None
@@ -222,6 +223,8 @@ def _per_kelvin(rd: SpecReader, key: str, raw: Any) -> float:
     text = raw.strip() if isinstance(raw, str) else raw
     if isinstance(text, str) and text[-2:].upper() == "/K":
         text = text[:-2]
+    if isinstance(text, str) and text.startswith("±"):  # "±30ppm/K" is the ± band it says
+        text = text[1:]
     value = rd.relative(key, text)
     if abs(value) > 0.1:
         rd.fail(key, f"{raw!r} is {value:g} per kelvin, 10 % a degree: write ppm/K, e.g. "

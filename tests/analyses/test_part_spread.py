@@ -488,3 +488,16 @@ Q1 out b e qm_npn
     # the worst sample's collector resistor lies in the parameter's band
     worst = tol["monte_carlo"]["limits"][0]
     assert 0.95 * 4.7e3 <= worst["worst_values"]["RC"] <= 1.05 * 4.7e3
+
+
+def test_a_part_that_only_drifts_and_a_written_plus_minus():
+    tol = parse_tolerances({"temperature": {"range_c": [0, 50]},
+                            "parts": {"C3": {"tc": "±30ppm/K"}, "C4": {"ageing": "1%"}}},
+                           "t.toml")
+    spreads = dict(tol.parts)
+    assert (spreads["C3"].low, spreads["C3"].high, spreads["C3"].tc) == (0.0, 0.0,
+                                                                         (-3e-5, 3e-5))
+    assert spreads["C4"].ageing == (-0.01, 0.01)
+    # over 0 … 50 °C about 25 °C, ±30 ppm/K moves C3 by at most 30e-6 × 25 K either way
+    part = Part("C3", 1e-9, 0.0, 0.0, tc=(-3e-5, 3e-5), temperature=(0.0, 50.0, 25.0))
+    assert part.worst_ends() == pytest.approx((-7.5e-4, 7.5e-4), rel=1e-12)
