@@ -91,3 +91,14 @@ def refused_at(text: str, where: str, words: str) -> None:
     with pytest.raises(SpecError) as info:
         parse_spec(text, "s.toml")
     assert info.value.where == where and words in info.value.message, info.value.message
+
+
+def write_spec(tmp_path, body: str, netlist: str, sweep=("100", "10k", 50)) -> str:
+    """Write t.cir (``netlist``) and t.toml (source V1, output out, the sweep, then the
+    tables of ``body``); the spec's path."""
+    (tmp_path / "t.cir").write_text(netlist)
+    path = tmp_path / "t.toml"
+    path.write_text(f'netlist = "t.cir"\nsource = "V1"\noutput = "out"\n\n[sweep]\n'
+                    f'start = "{sweep[0]}"\nstop = "{sweep[1]}"\npoints_per_decade = '
+                    f"{sweep[2]}\n\n{body}")
+    return str(path)

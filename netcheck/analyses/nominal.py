@@ -7,6 +7,7 @@ import hashlib
 import math
 import warnings
 from dataclasses import dataclass, field
+from typing import Callable
 from pathlib import Path
 
 import numpy as np
@@ -277,8 +278,12 @@ def _require_signal(spec: Spec, system: System, response: Response,
 
 
 def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
-             plot_detail: bool = True) -> SpecResult:
+             plot_detail: bool = True,
+             rebuild: "Callable[[dict[str, float]], Circuit] | None" = None) -> SpecResult:
     """Judge every limit of ``spec`` on ``circuit``.
+
+    ``rebuild`` elaborates the netlist again with global ``.param`` values replaced (the
+    tolerances of a ``.param`` need it); without it such tolerances are refused.
 
     Raises
     ------
@@ -333,7 +338,7 @@ def evaluate(spec: Spec, circuit: Circuit, variant: str | None = None,
         if unstable is not None:
             cautions.append(unstable)
     envelope: tuple = (None, None)
-    nominal = Nominal(spec, circuit, system, probe, tuple(limits), dict(measurements))
+    nominal = Nominal(spec, circuit, system, probe, tuple(limits), dict(measurements), rebuild)
     for name, outcome in run_analyses(nominal):
         limits.extend(outcome.rows)
         cautions.extend(outcome.cautions)
@@ -550,8 +555,14 @@ def _check(path: str, overrides: dict[str, float] | None, variant: str | None,
                             path=path, where="variants")
         # part_models: the spec's part-model subcircuits, checked against this netlist
         from ..spec.load import part_models
-        circuit = elaborate(parsed, spec.allow_negative, overrides, part_models(spec, parsed))
-        return evaluate(spec, circuit, variant, plot_detail)
+        models = part_models(spec, parsed)
+        circuit = elaborate(parsed, spec.allow_negative, overrides, models)
+
+        def rebuild(values: dict[str, float]) -> Circuit:
+            return elaborate(parsed, spec.allow_negative, {**(overrides or {}), **values},
+                             models)
+
+        return evaluate(spec, circuit, variant, plot_detail, rebuild)
     except NetcheckError as err:
         if isinstance(err, SpecError):
             err = locate(err, spec.text)

@@ -39,6 +39,9 @@ class Nominal:
     limits: tuple[LimitResult, ...]
     #: the nominal measurements (peak, edges, ...), by name
     measurements: dict[str, float] = field(default_factory=dict)
+    #: the circuit elaborated again with some global ``.param`` values replaced (name →
+    #: value), for tolerances on a ``.param``; None when the netlist is not at hand
+    rebuild: "Callable[[dict[str, float]], Circuit] | None" = None
 
 
 @dataclass(frozen=True, slots=True)

@@ -1,9 +1,10 @@
-"""Tolerances: matching parts, sampling and Monte Carlo yield (worst case: :mod:`netcheck.analyses.worstcase`).
+"""Tolerances: Monte Carlo yield (drawing: :mod:`netcheck.analyses.part_spread`; worst case: :mod:`netcheck.analyses.worstcase`).
 
 The ``[tolerances]`` and ``[analysis]`` tables are parsed when the spec is loaded
 (:mod:`netcheck.spec.tolerances`, ``Spec.tolerances`` and ``Spec.analysis``); matching
 their part names and globs against the netlist (:func:`toleranced_parts`) needs the
-circuit, so it is done here.
+circuit, so it is done by the analyses (:mod:`netcheck.analyses.part_spread`, which
+also draws the samples; a ``.param``'s tolerance: :mod:`netcheck.analyses.param_spread`).
 
 Monte Carlo draws every toleranced part for all samples at once (numpy Generator,
 seeded) and judges every limit per sample through :mod:`netcheck.mna.sampling`, in
@@ -19,7 +20,6 @@ References
 from __future__ import annotations
 
 import dataclasses
-import fnmatch
 import math
 from typing import Any
 
@@ -27,12 +27,11 @@ import numpy as np
 
 from . import progress
 from ..mna.assemble import System
-from ..netlist.elaborate import Circuit
-from ..netlist.ports import PORT_ELEMENTS
 from ..exceptions import SpecError
 from ..result import LimitResult, Status
 from .part_values import with_values
 from .outputs import output_probes
+from .part_spread import draw, drift, part_json, toleranced_parts, tracking_json
 from .sample_probe import BatchProbe
 from ..mna.sampling import SampleSet
 from ..spec.load import Spec
@@ -43,95 +42,6 @@ __all__ = ["toleranced_parts", "draw", "wilson_interval", "interval_text", "mont
 
 #: Monte Carlo stress: samples screened within this fraction below a rating are judged exactly
 BORDER = 0.05
-
-
-def _is_glob(pattern: str) -> bool:
-    return any(ch in pattern for ch in "*?[")
-
-
-def toleranced_parts(tol: Tolerances, circuit: Circuit, path: str = "<spec>"
-                     ) -> list[tuple[str, float, float]]:
-    """(name, nominal value, tolerance) for every part with a non-zero tolerance.
-
-    Letter defaults apply first, then globs of ``parts`` in the order written, then
-    exact part names, so an exact name always wins. Independent sources are never
-    toleranced (the response is per unit stimulus: the drive level belongs in
-    ``[[stress]] source_amplitude``); naming one is an error, and globs pass over
-    them. A coupling factor may not be toleranced beyond |k| = 1.
-    """
-    default = dict(tol.default)
-    out: dict[str, tuple[float, float]] = {}
-    # the spec's port terminations are its terms, not parts: never toleranced
-    parts = [e for e in circuit.elements if e.name not in PORT_ELEMENTS]
-    circuit = dataclasses.replace(circuit, elements=tuple(parts), _index=None)
-    for e in circuit.elements:
-        # a 0 Ω resistor is a wire, not a part: letter defaults and globs pass over it
-        if e.letter in default and default[e.letter] > 0 and e.value != 0:
-            out[e.name] = (e.value, default[e.letter])
-    ordered = sorted(tol.parts, key=lambda item: not _is_glob(item[0]))  # stable: globs first
-    for pattern, t in ordered:
-        where = f"tolerances.parts.{pattern}"
-        hits = [e for e in circuit.elements if fnmatch.fnmatchcase(e.name, pattern)]
-        if not hits:
-            raise SpecError(f"{where}: no part called {pattern} in the netlist",
-                            code="spec-203", path=path, where=where)
-        sources = [e for e in hits if e.letter in ("V", "I")]
-        if sources and not _is_glob(pattern):
-            raise SpecError(f"{where}: {pattern} is an independent source; responses are "
-                            "per unit stimulus, so its tolerance would change nothing (give "
-                            "the drive level as [[stress]] source_amplitude)", code="spec-202",
-                            path=path, where=where)
-        for e in hits:
-            if e in sources or (e.value == 0 and _is_glob(pattern)):
-                continue
-            if e.letter == "K" and t > 0 and abs(e.value) * (1 + t) > 1:
-                raise SpecError(
-                    f"{where}: a {t:.4g} tolerance lets the coupling factor of {e.name} "
-                    f"({e.value:g}) reach {abs(e.value) * (1 + t):.4g}, above 1, which no "
-                    f"pair of coils can have; at most {(1 / abs(e.value) - 1) * 100:.3g} % "
-                    "fits", code="spec-202", path=path, where=where)
-            if t > 0:
-                out[e.name] = (e.value, t)
-            else:
-                out.pop(e.name, None)
-    for name, (v, t) in out.items():
-        if v == 0:
-            pattern = next((p for p, _ in reversed(ordered)
-                            if fnmatch.fnmatchcase(name, p)), None)
-            where = f"tolerances.parts.{pattern}" if pattern else "tolerances.default"
-            raise SpecError(f"{where}: {name} has the value 0, which a relative tolerance "
-                            "cannot move; drop its tolerance", code="spec-202", path=path,
-                            where=where)
-    return [(name, v, t) for name, (v, t) in sorted(out.items())]
-
-
-def draw(parts: list[tuple[str, float, float]], samples: int, distribution: str,
-         rng: np.random.Generator, path: str = "<spec>") -> dict[str, np.ndarray]:
-    """Sampled values (S,) per part: nominal × (1 + t·u) with u from ``distribution``.
-
-    ``uniform``: u ~ U(−1, 1); ``normal``: u ~ N(0, 1/3²) (tolerance = 3σ);
-    ``truncnormal``: that normal restricted to |u| ≤ 1 (redrawn until inside).
-    """
-    k = len(parts)
-    if distribution == "uniform":
-        u = rng.uniform(-1.0, 1.0, size=(samples, k))
-    else:
-        u = rng.standard_normal(size=(samples, k)) / 3.0
-        if distribution == "truncnormal":
-            bad = np.abs(u) > 1.0
-            while bad.any():
-                u[bad] = rng.standard_normal(int(bad.sum())) / 3.0
-                bad = np.abs(u) > 1.0
-    values = {name: nominal * (1.0 + t * u[:, j]) for j, (name, nominal, t) in enumerate(parts)}
-    for name, nominal, t in parts:
-        bad = int(np.count_nonzero(values[name] * nominal <= 0))
-        if bad:  # only the untruncated normal reaches past ±100 %
-            raise SpecError(
-                f"tolerances.distribution: 'normal' with {t * 100:g} % (3σ) on {name} drew "
-                f"{'a value' if bad == 1 else f'{bad} values'} of {name} at or beyond zero "
-                f"in {samples} samples; use 'truncnormal' (cut at ± the tolerance) or a "
-                "smaller tolerance", code="spec-202", path=path, where="tolerances.distribution")
-    return values
 
 
 def wilson_interval(passed: int, n: int, z: float = 1.959963984540054) -> tuple[float, float]:
@@ -256,12 +166,15 @@ def run_samples(system: System, spec: Spec, values: dict[str, np.ndarray], sampl
 
 
 def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]],
-                tol: Tolerances, analysis: Analysis, nominal: Any = None
+                tol: Tolerances, analysis: Analysis, nominal: Any = None,
+                params: tuple = (), rebuild: Any = None
                 ) -> tuple[dict[str, Any], list[LimitResult], tuple[np.ndarray, np.ndarray]]:
     """Monte Carlo yield: the JSON block, result rows (yield limits) and the gain envelope.
 
     ``nominal`` is the nominal :class:`~netcheck.mna.solve.Response` on the sweep grid when
-    the caller has it (it is solved otherwise).
+    the caller has it (it is solved otherwise). ``params`` are the toleranced ``.param``
+    values (:mod:`netcheck.analyses.param_spread`), drawn after the parts and applied by
+    ``rebuild``, which elaborates the netlist again for each sample.
     """
     rng = np.random.default_rng(analysis.seed)
     S = analysis.samples
@@ -276,6 +189,12 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
             "samples (the 95 % interval of a yield narrows as 1/√samples) or raise "
             "memory_mib", code="spec-205", path=spec.path, where="analysis.samples")
     values = draw(parts, S, tol.distribution, rng, spec.path)
+    if params:
+        from .param_spread import param_values
+
+        drawn, follow = param_values(list(params), S, rng, rebuild, spec.path)
+        values.update(follow)
+    t_c = drift(parts, values, S, rng)  # temperature and ageing, where the spec gives them
     regions: dict[str, list] = {}
     margins, measured, meas, env_lo, env_hi = run_samples(
         system, spec, values, S, analysis.memory_mib * 2**20, "Monte Carlo samples", regions)
@@ -312,7 +231,16 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
     block = {"samples": S, "seed": analysis.seed, "distribution": tol.distribution,
              "yield": y, "yield_ci": list(ci), "ci_method": "Wilson score, 95 %",
              "limits": lim_json, "measurements": {k: _stats(v) for k, v in meas.items()},
-             "parts": [{"part": n, "nominal": v, "tolerance": t} for n, v, t in parts]}
+             "parts": [part_json(p, tol.distribution) for p in parts]}
+    if params:
+        block["params"] = [{**p.to_json(), "sample_mean": float(np.mean(drawn[p.name]))}
+                           for p in params]
+    if t_c is not None:
+        block["temperature"] = {"min_c": float(t_c.min()), "max_c": float(t_c.max()),
+                                "mean_c": float(t_c.mean())}
+    tracking = tracking_json(parts, values)
+    if tracking:
+        block["tracking"] = tracking
     if regions:
         block["device_regions"] = _region_counts(system, regions, values)
     def deciding(k: str) -> tuple[float, float]:
@@ -345,12 +273,19 @@ def monte_carlo(system: System, spec: Spec, parts: list[tuple[str, float, float]
             "Monte Carlo yield (all limits)", "yield",
             Status.PASS if margin >= 0 else Status.FAIL, y, analysis.yield_min, None, margin,
             "", None, f"fraction of {S} samples passing every limit and every part-stress "
-            f"rating ({tol.distribution} "
+            f"rating ({_kinds(parts, tol.distribution)} "
             f"tolerances, seed {analysis.seed}); 95 % Wilson interval {ci[0]:.4f}–{ci[1]:.4f}",
             "every limit judged on every sample; unmeasured counts as a fail",
             interval_text(int(passed_all.sum()), S, "met every limit"),
             len(spec.limits), None))
     return block, rows, (env_lo, env_hi)
+
+
+def _kinds(parts: list, distribution: str) -> str:
+    """The distributions of the parts in words: ``uniform``, or ``uniform and normal``."""
+    found = sorted({part_json(p, distribution)["distribution"] for p in parts}) or [distribution]
+    return " and ".join(found) + (", tracking" if any(getattr(p, "group", None) is not None
+                                                      for p in parts) else "")
 
 
 def _region_counts(system: System, regions: dict[str, list], values: dict[str, np.ndarray]

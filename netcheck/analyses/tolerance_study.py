@@ -24,28 +24,43 @@ def analyse(nominal: Nominal) -> Outcome | None:
     from ..spec.tolerances import Tolerances, parse_analysis
     from .eseries import check_preferred
     from .tolerance import monte_carlo, toleranced_parts
-    from .worstcase import worst_case
 
     # the defaults of an absent [analysis] (its memory budget capped to this machine)
     analysis = spec.analysis if spec.analysis is not None else parse_analysis({}, spec.path)
     tol = spec.tolerances if spec.tolerances is not None else Tolerances()
     parts = toleranced_parts(tol, circuit, spec.path)
+    params = ()
+    if tol.params:  # a .param's tolerance acts through the elements that depend on it
+        from .param_spread import toleranced_params
+
+        params = tuple(toleranced_params(tol, circuit, nominal.rebuild, spec.path))
+        follow = {q[0] for p in params for q in p.parts}
+        parts = [p for p in parts if p[0] not in follow]  # the parameter's spread wins
     rows: list = []
-    block: dict = {"modes": list(analysis.modes), "parts": len(parts)}
+    # the elements that follow a toleranced .param count as toleranced parts
+    block: dict = {"modes": list(analysis.modes),
+                   "parts": len(parts) + sum(len(p.parts) for p in params)}
     preferred = [(n, circuit.element(n).letter, v, t, circuit.element(n).span)
                  for n, v, t in parts
-                 if circuit.element(n).letter in "RLC" and t <= 0.2 and v > 0
+                 if circuit.element(n).letter in "RLC" and 0 < t <= 0.2 and v > 0
                  # part_models: a model's parameters are not parts bought by E-series value
                  and circuit.part_model_of(n) is None]
     cautions = [diag_caution(d) for d in check_preferred(preferred)]
-    if not parts and set(analysis.modes) - {"nominal"}:
+    following = [q for p in params for q in p.parts]
+    if tol.temperature is not None:
+        lo_t, hi_t, ref = tol.temperature
+        block["temperature"] = {"range_c": [lo_t, hi_t], "reference_c": ref}
+    if params:
+        block["params"] = [p.name for p in params]
+    if not parts and not params and set(analysis.modes) - {"nominal"}:
         cautions.append(Caution("spec-250", "tolerance analysis asked for, but no part has a "
                                 "tolerance ([tolerances] default/parts)", "warning", spec.path))
         return Outcome((), tuple(cautions), block, (None, None))
     envelope: tuple = (None, None)
     if "monte_carlo" in analysis.modes:
         mc, mc_rows, envelope = monte_carlo(nominal.system, spec, parts, tol, analysis,
-                                            nominal.probe.curve.response)
+                                            nominal.probe.curve.response, params,
+                                            nominal.rebuild)
         block["monte_carlo"] = mc
         rows.extend(mc_rows)
         if mc.get("device_regions"):
@@ -53,7 +68,7 @@ def analyse(nominal: Nominal) -> Outcome | None:
             cautions += sample_region_cautions(mc["device_regions"], circuit,
                                                analysis.samples)
     if "worst_case" in analysis.modes:
-        wc, wc_rows = _worst_case(nominal, parts, analysis)
+        wc, wc_rows = _worst_case(nominal, parts + following, analysis)
         block["worst_case"] = wc
         rows.extend(wc_rows)
     return Outcome(tuple(rows), tuple(cautions), block, envelope)

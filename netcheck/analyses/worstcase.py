@@ -8,6 +8,12 @@ quadrature, for comparison. With up to :data:`MAX_CORNER_PARTS` toleranced parts
 (:data:`MAX_CORNER_PARTS_SPARSE` on the sparse path, where each corner costs a sweep) every
 corner (each part at either end) is also judged, through the Monte Carlo machinery.
 
+Each part sets its own ends: −20 % and +80 % for an asymmetric band, widened by its
+temperature and ageing bands (:meth:`netcheck.analyses.part_spread.Part.worst_ends`). A
+fully tracking group, or the elements that follow a toleranced ``.param``, is one
+variable: its parts are at their low ends together or at their high ends together, so
+EVA adds the group's summed effect and the corners count it once.
+
 Which decides. A quantity monotone in each part over the tolerance box takes its extremes
 at corners, so there the corners are exact and EVA (first order) is only an estimate,
 too wide where the quantity is convex (Q ∝ 1/R: 1/(1 + t) > 1 − t) and too narrow where
@@ -47,6 +53,7 @@ from ..result import LimitResult, Status
 from ..mna.sensitivity import AdjointSensitivity
 from ..spec.load import Spec
 from ..spec.tolerances import Analysis
+from .part_spread import ends, variable_name, variables
 from .tolerance import MEASUREMENT_KEYS, _f, run_samples
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -106,6 +113,16 @@ def _rows_for(system: System, spec: Spec, values: dict[str, np.ndarray], n: int,
     return {k: (measured[k], margins[k]) for k in margins}, meas
 
 
+def _extremes(d: np.ndarray, low: np.ndarray, high: np.ndarray, var: list[list[int]]
+              ) -> tuple[np.ndarray, np.ndarray]:
+    """First-order change of a quantity with slopes ``d`` (∂/∂ln p, per part) at the
+    least and greatest end of every variable (its parts all at their low, or all at their
+    high end): (V,) each. For a lone part with ±t these are −|d|·t and +|d|·t."""
+    at_low = np.array([float(np.sum(d[j] * low[j])) for j in var])
+    at_high = np.array([float(np.sum(d[j] * high[j])) for j in var])
+    return np.minimum(at_low, at_high), np.maximum(at_low, at_high)
+
+
 def _finite(row: Linearised) -> bool:
     return bool(np.all(np.isfinite(row.d_low)) and np.all(np.isfinite(row.d_high)))
 
@@ -123,7 +140,9 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
     """
     memory = analysis.memory_mib * 2**20
     P = len(parts)
-    tol = np.array([t for _, _, t in parts])
+    low, high = ends(parts)
+    var = variables(parts)
+    V = len(var)
     adj = AdjointSensitivity(system, parts)
     by_name = {r.name: r for r in nominal}
     lin: dict[str, tuple[Linearised, str]] = {}
@@ -156,8 +175,8 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
     from ..mna.solve import DENSE_MAX
 
     cap = MAX_CORNER_PARTS if system.size <= DENSE_MAX else MAX_CORNER_PARTS_SPARSE
-    corners = _corner_rows(system, spec, parts, memory) if 0 < P <= cap else None
-    names = [p[0] for p in parts]
+    corners = _corner_rows(system, spec, parts, var, memory) if 0 < V <= cap else None
+    names = [variable_name(parts, cols) for cols in var]
     for name in judged:
         if name not in lin:
             continue
@@ -173,13 +192,15 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
                 "be computed (the circuit is singular or the measurement jumps where the "
                 "parts move)", r.index, r.line))
             continue
-        c_lo, c_hi = row.d_low * tol, row.d_high * tol
-        lo_v = row.low - float(np.sum(np.abs(c_lo)))
-        hi_v = row.high + float(np.sum(np.abs(c_hi)))
+        down = _extremes(row.d_low, low, high, var)[0]
+        up = _extremes(row.d_high, low, high, var)[1]
+        lo_v = row.low + float(np.sum(down))
+        hi_v = row.high + float(np.sum(up))
         margin = _margin(r, lo_v, hi_v)
         entry = {"name": name, "measured_nominal": r.measured, "min": lo_v, "max": hi_v,
-                 "rss_min": row.low - float(np.sqrt(np.sum(c_lo ** 2))),
-                 "rss_max": row.high + float(np.sqrt(np.sum(c_hi ** 2))), "margin": margin,
+                 "rss_min": row.low - float(np.sqrt(np.sum(np.minimum(down, 0.0) ** 2))),
+                 "rss_max": row.high + float(np.sqrt(np.sum(np.maximum(up, 0.0) ** 2))),
+                 "margin": margin,
                  "sensitivity_method": method, "monotone": None, "not_monotone_in": []}
         lost, inside, decided, monotone, why = 0, 0, "linear estimate", None, []
         if corners is not None and name in corners:
@@ -222,19 +243,22 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
         lower_decides = r.lower is not None and (r.upper is None or
                                                  lo_v - r.lower < r.upper - hi_v)
         m0, dln = (row.low, row.d_low) if lower_decides else (row.high, row.d_high)
-        contrib = dln * tol
+        # each part at its wider end (± t for a symmetric tolerance: raised by t)
+        contrib = dln * np.where(high >= -low, high, low)
         order = np.argsort(-np.abs(contrib))[:5]
         relative = m0 and r.unit not in ("dB", "deg")  # a ratio of logarithms means nothing
         sens_json.append({"name": name, "unit": r.unit, "method": method, "top": [
             {"part": parts[k][0], "sensitivity": _f(dln[k] / m0) if relative else None,
              "per_unit_log": _f(dln[k]), "contribution": _f(contrib[k])} for k in order]})
-        definition = (f"extreme-value analysis over {P} toleranced parts: "
-                      f"{_fmt(entry['min'], r.unit)} … {_fmt(entry['max'], r.unit)}" +
-                      (f"; all {2 ** P} corners evaluated" if corners is not None else ""))
+        definition = (f"extreme-value analysis over {P} toleranced parts"
+                      + (f" ({V} variables: a fully tracking group, or a .param's elements, is one)"
+                         if V < P else "")
+                      + f": {_fmt(entry['min'], r.unit)} … {_fmt(entry['max'], r.unit)}"
+                      + (f"; all {2 ** V} corners evaluated" if corners is not None else ""))
         method_text = f"sensitivities by {method}; EVA (each part at the end that hurts)"
         if gone:
-            where = (f"{lost} of the {2 ** P} tolerance corners" if lost else
-                     f"{inside} of the {2 * P} face centres of the tolerance box (each part "
+            where = (f"{lost} of the {2 ** V} tolerance corners" if lost else
+                     f"{inside} of the {2 * V} face centres of the tolerance box (each part "
                      "alone at a tolerance end)")
             out_rows.append(LimitResult(
                 f"worst case: {name}", "worst_case", status, None, r.lower, r.upper, None,
@@ -246,7 +270,7 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
         out_rows.append(LimitResult(
             f"worst case: {name}", "worst_case", status, lo_v if lower_decides else hi_v,
             r.lower, r.upper, margin, r.unit, r.at_hz, definition, method_text,
-            decided_text(decided, P, cap, monotone, why, corners is not None),
+            decided_text(decided, V, cap, monotone, why, corners is not None),
             r.index, r.line))
     for name, why in refused.items():  # no linearisation exists: say so, estimate nothing
         r = by_name.get(name)
@@ -262,13 +286,13 @@ def worst_case(system: System, spec: Spec, parts: list[tuple[str, float, float]]
     meas_json = {}
     for key in keys:
         if key in d_meas:
-            span = float(np.sum(np.abs(d_meas[key] * tol)))
+            down, up = _extremes(d_meas[key], low, high, var)
             base = nominal_measurements[key]
-            meas_json[key] = {"min": _f(base - span), "max": _f(base + span),
-                              "method": meas_method[key]}
-    block = {"method": "eva", "parts": P, "limits": lim_json, "measurements": meas_json,
-             "sensitivities": sens_json, "rss": True,
-             "corners": None if corners is None else 2 ** P, "corner_cap": cap}
+            meas_json[key] = {"min": _f(base + float(np.sum(down))),
+                              "max": _f(base + float(np.sum(up))), "method": meas_method[key]}
+    block = {"method": "eva", "parts": P, "variables": V, "limits": lim_json,
+             "measurements": meas_json, "sensitivities": sens_json, "rss": True,
+             "corners": None if corners is None else 2 ** V, "corner_cap": cap}
     return block, out_rows
 
 
@@ -327,7 +351,7 @@ def _not_monotone(v: np.ndarray, P: int, eps: float) -> list[int]:
 
 
 def _corner_rows(system: System, spec: Spec, parts: list[tuple[str, float, float]],
-                 memory: int) -> dict[str, _Corners]:
+                 var: list[list[int]], memory: int) -> dict[str, _Corners]:
     """Every judged quantity over all 2^P corners, with a check that the corners decide.
 
     Per quantity: the least and greatest value and the worst margin over the corners
@@ -336,11 +360,17 @@ def _corner_rows(system: System, spec: Spec, parts: list[tuple[str, float, float
     (:func:`_not_monotone`, from exact solutions at the corners, the 2P face centres and
     the nominal, solved together with the corners).
     """
-    P = len(parts)
+    P = len(var)  # the variables: a fully tracking group moves as one
     signs = np.array(list(itertools.product((-1.0, 1.0), repeat=P)))
     faces = np.vstack([-np.eye(P), np.eye(P), np.zeros((1, P))])
     points = np.vstack([signs, faces])
-    values = {name: v * (1 + t * points[:, j]) for j, (name, v, t) in enumerate(parts)}
+    low, high = ends(parts)
+    values = {}
+    for k, cols in enumerate(var):
+        at = points[:, k]
+        for j in cols:  # each part at its own end: −20 % / +80 % for an electrolytic
+            rel = np.where(at < 0, low[j], np.where(at > 0, high[j], 0.0))
+            values[parts[j][0]] = parts[j][1] * (1 + rel)
     rows, _ = _rows_for(system, spec, values, points.shape[0], memory, "worst-case corners")
     n = signs.shape[0]
     out = {}

@@ -50,8 +50,19 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
     else:
         required, below = None, False
     parts = [{"part": p["part"], "nominal": format_eng(p["nominal"], _part_unit(p["part"])),
-              "tolerance": tolerance_text(p.get("tolerance"))} for p in mc.get("parts", ())]
+              "tolerance": _band_text(p), "distribution": p.get("distribution") or "",
+              "group": "" if p.get("group") is None else
+              f"group\u00a0{p['group']} (ρ\u00a0=\u00a0{p.get('correlation', 1):g})"}
+             for p in mc.get("parts", ())]
+    # a column of distributions when the parts differ, one of groups when any track
+    per_part = len({p["distribution"] for p in parts}) > 1
+    tracking = [{"group": t["group"], "parts": ", ".join(t["parts"]),
+                 "asked": f"{t['correlation']:g}",
+                 "seen": "—" if t.get("sample_correlation") is None else
+                 f"{t['sample_correlation']:.3f}"} for t in mc.get("tracking", ())]
     nominal_values = {p["part"]: p["nominal"] for p in mc.get("parts", ())}
+    for p in mc.get("params", ()):  # the elements that follow a toleranced .param
+        nominal_values.update(p.get("element_nominal") or {})
     limits, samples = [], {}
     units = {lim.name: lim.unit for lim in s.limits}  # stress rows too
     by_name = {lim.name: lim for lim in s.limits}
@@ -125,7 +136,18 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
         "has_stress": any(r["name"].startswith("stress: ") for r in limits),
         "samples": n, "seed": mc.get("seed"), "passed": passed,
         "failed": None if passed is None else n - passed,
-        "distribution": _DISTRIBUTIONS.get(mc.get("distribution"), str(mc.get("distribution"))),
+        "distribution": "per part (the table above; normal: half the band at 3 standard "
+                        "deviations)" if per_part else
+        _DISTRIBUTIONS.get(mc.get("distribution"), str(mc.get("distribution"))),
+        "per_part": per_part, "tracking": tracking,
+        "params": [{"param": p["param"], "nominal": format_eng(p["nominal"], ""),
+                    "tolerance": _band_text(p), "distribution": p.get("distribution", ""),
+                    "elements": ", ".join(p.get("elements", ()))}
+                   for p in mc.get("params", ())],
+        "asymmetric": any("/" in p["tolerance"] or "," in p["tolerance"] for p in parts),
+        "temperature": None if not mc.get("temperature") else
+        "one temperature per sample, uniform over the range, shared by every part: drawn "
+        f"{mc['temperature']['min_c']:.1f} °C … {mc['temperature']['max_c']:.1f} °C",
         "yield": format_fraction(y), "ci": format_interval(ci),
         "ci_lo": format_fraction(ci[0]), "ci_hi": format_fraction(ci[1]),
         "ci_method": mc.get("ci_method") or "not recorded", "required": required,
@@ -136,6 +158,29 @@ def _monte_carlo_view(s: SpecResult, mc: dict[str, Any], nominal: dict[str, Limi
         "histogram_n": None if not hist.get("counts") else
         f"{hist.get('n', int(sum(hist['counts'])))} of {n}",
     }
+
+
+def _band_text(p: dict[str, Any]) -> str:
+    """``±5 %``, or ``−20 % / +80 %`` for an asymmetric band; a temperature coefficient and
+    ageing follow (``±5 %, ±30 ppm/K, ageing ±1 %``)."""
+    low, high = p.get("low"), p.get("high")
+    if low is None or high is None or low == -high:
+        text = tolerance_text(p.get("tolerance")) if p.get("tolerance") else "0 %"
+    else:
+        text = f"{100.0 * low:+.4g} % / {100.0 * high:+.4g} %".replace("-", "−")
+
+    def pair(lo: float, hi: float, scale: float, unit: str) -> str:
+        if lo == -hi:  # the number and its unit kept on one line
+            return f"±{scale * hi:.4g}\u00a0{unit}"
+        return f"{scale * lo:+.4g} … {scale * hi:+.4g}\u00a0{unit}".replace("-", "−")
+
+    if p.get("tc"):
+        text += ", " + pair(*p["tc"], 1e6, "ppm/K")
+    elif p.get("tc12"):
+        text += f", TC1 {p['tc12'][0]:g}/K, TC2 {p['tc12'][1]:g}/K² (netlist)"
+    if p.get("ageing"):
+        text += ", ageing " + pair(*p["ageing"], 100.0, "%")
+    return text
 
 
 def _spread_row(label: str, st: dict[str, Any], unit: str, samples: int, nominal: str,
@@ -157,7 +202,7 @@ def _spread_row(label: str, st: dict[str, Any], unit: str, samples: int, nominal
 
 
 def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, LimitResult],
-                     tolerances: dict[str, float]) -> dict[str, Any]:
+                     tolerances: dict[str, dict[str, Any]]) -> dict[str, Any]:
     by_name = {lim.name: lim for lim in s.limits if lim.kind == "worst_case"}
     n_parts = wc.get("parts")
     corners = wc.get("corners")
@@ -213,8 +258,9 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
         for item in block.get("top", ()):
             d = item.get("per_unit_log")
             c = item.get("contribution")
-            tol = tolerances.get(item["part"])
-            if tol is None and d and c is not None:
+            entry = tolerances.get(item["part"])
+            tol = None
+            if entry is None and d and c is not None:
                 tol = c / d
             direction = "—" if d is None else "value rises" if d > 0 else "value falls" \
                 if d < 0 else "no effect"
@@ -222,7 +268,8 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
                 "part": item["part"], "direction": direction,
                 "normalised": "—" if log_unit else coefficient(item.get("sensitivity")),
                 "per_percent": signed(None if d is None else d / 100.0, unit),
-                "tolerance": tolerance_text(tol), "contribution": signed(c, unit),
+                "tolerance": _band_text(entry) if entry is not None else tolerance_text(tol),
+                "contribution": signed(c, unit),
                 "share": "—" if c is None or not half else f"{100.0 * abs(c) / half:.1f} %"})
         sens.append({"name": block["name"], "unit": unit or "(dimensionless)",
                      "method": e.get("sensitivity_method", "not recorded"),
@@ -231,8 +278,11 @@ def _worst_case_view(s: SpecResult, wc: dict[str, Any], nominal: dict[str, Limit
     return {"parts": n_parts, "corners": corners, "rows": rows, "differences": differences,
             "sensitivities": sens, "rss": bool(wc.get("rss")),
             "any_log_unit": any(b["log_unit"] for b in sens),
-            "corner_text": f"all {corners} corners (every part at either tolerance end) were "
-                           "also evaluated" if corners else
+            "corner_text": f"all {corners} corners (every part at either tolerance end"
+                           + (f"; the {n_parts} parts are {wc['variables']} variables, each "
+                              "fully tracking group moving as one"
+                              if wc.get("variables", n_parts) != n_parts else "")
+                           + ") were also evaluated" if corners else
                            f"corners were not evaluated (more than "
                            f"{wc.get('corner_cap', MAX_CORNER_PARTS)} toleranced parts)"}
 
@@ -319,7 +369,7 @@ def tolerance_view(s: SpecResult, with_plots: bool = True) -> dict[str, Any] | N
     nominal = nominal_limits(s)
     mc = analysis_block(s, "tolerance", "monte_carlo")
     wc = analysis_block(s, "tolerance", "worst_case")
-    tolerances = {p["part"]: p.get("tolerance") for p in (mc or {}).get("parts", ())}
+    tolerances = {p["part"]: p for p in (mc or {}).get("parts", ())}
     plot = histogram_plot(s) if with_plots and mc is not None else None
     modes = [m for m in tol.get("modes", ()) if isinstance(m, str)]
     return {

@@ -113,14 +113,18 @@ def _second_order_peak(q: float) -> float:
     ('"nan%"', "is not finite"),
     ('"5p"', "not a relative quantity"),     # a scale suffix, not a unit of tolerance
     ("true", "expected a number"),
-    ("[1]", "expected a number"),
+    # a list is the asymmetric form [lower, upper] (spec-270)
+    ("[1]", "spec-270: tolerances.default.R: an asymmetric tolerance is [lower, upper]"),
+    ('["+5%", "+10%"]', "spec-270: tolerances.default.R: the lower end must lie in"),
+    ('{ distribution = "normal" }', "spec-270: tolerances.default.R.tolerance: missing"),
+    ('{ tolerance = "5%", shape = "normal" }', "spec-201: tolerances.default.R.shape: unknown"),
 ])
 def test_bad_tolerance_value_is_a_located_spec_error(tmp_path, value, words):
     path = _spec(tmp_path, f"[tolerances]\ndefault = {{ R = {value} }}\n"
                  '[analysis]\nmode = ["worst_case"]\n' + Q_LIMIT)
     res = check_spec(path)
     assert res.status is Status.ERROR
-    assert re.search(r"t\.toml:\d+:\d+: error spec-202: tolerances\.default\.R: ", res.error)
+    assert re.search(r"t\.toml:\d+:\d+: error spec-2\d\d: tolerances\.default\.R", res.error)
     assert words in res.error
 
 
@@ -205,6 +209,7 @@ def test_unquoted_dotted_part_name_is_a_clear_error(tmp_path):
     res = check_spec(path)
     assert res.status is Status.ERROR
     assert "tolerances.parts.X1" in res.error and "got dict" in res.error
+    assert '"X1.L1" = "5%"' in res.error  # says how to write it
 
 
 def test_controlled_source_gain_tolerance_is_exact_at_the_corners(tmp_path):

@@ -22,7 +22,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from circuits import C, L, SERIES_RLC, split_rc_chain as _chain
+from circuits import C, L, SERIES_RLC, split_rc_chain as _chain, write_spec
 from netcheck.cli import main
 from netcheck.analyses.nominal import check_spec
 from netcheck.result import Status
@@ -51,12 +51,7 @@ C1 out 0 {LP_C!r}
 
 
 def _spec(tmp_path: Path, netlist: str, sweep: tuple[str, str, int], body: str) -> str:
-    (tmp_path / "t.cir").write_text(netlist)
-    path = tmp_path / "t.toml"
-    path.write_text(f'netlist = "t.cir"\nsource = "V1"\noutput = "out"\n'
-                    f'[sweep]\nstart = "{sweep[0]}"\nstop = "{sweep[1]}"\n'
-                    f"points_per_decade = {sweep[2]}\n\n{body}")
-    return str(path)
+    return write_spec(tmp_path, body, netlist, sweep)
 
 
 def _tol(result) -> dict:
