@@ -89,6 +89,40 @@ class StepFigures:
         t_hi = self.crossing(hi)
         return t_hi - self.crossing(lo), t_hi
 
+    def mask_margin(self, low: Any, high: Any) -> tuple[float, float]:
+        """(the least margin of y/F inside the mask, the time it is at): above each
+        ``low`` line, below each ``high`` line, both [(t, y/F), ...] straight between
+        their points, judged where they are given and on the grid of the response."""
+        best_m, best_t = math.inf, 0.0
+        for pts, sign in ((low, 1.0), (high, -1.0)):
+            if not pts:
+                continue
+            pt, py = np.array([p[0] for p in pts]), np.array([p[1] for p in pts])
+            inside = (self.t >= pt[0]) & (self.t <= min(pt[-1], self.end))
+            cand = np.r_[self.t[inside], pt[(pt > 0) & (pt <= self.end)]]
+            if not cand.size:
+                continue
+
+            def margin(x: float) -> float:
+                return sign * (self._y(x) / self.final - float(np.interp(x, pt, py)))
+
+            vals = np.array([margin(float(x)) for x in cand])
+            k = int(np.argmin(vals))
+            t0, m0 = float(cand[k]), float(vals[k])
+            lo = max(float(pt[0]), t0 - self.end / GRID_POINTS)
+            hi = min(float(pt[-1]), t0 + self.end / GRID_POINTS)
+            if hi > lo:
+                got = minimize_scalar(margin, method="bounded", bounds=(lo, hi),
+                                      options={"xatol": self.end * 1e-12})
+                if got.fun < m0:
+                    t0, m0 = float(got.x), float(got.fun)
+            if m0 < best_m:
+                best_m, best_t = m0, t0
+        if not math.isfinite(best_m):
+            raise MeasurementFailure("the mask's points lie outside the time the response "
+                                     f"is followed for ({self.end:.4g} s): give duration")
+        return best_m, best_t
+
     def settling_time(self, band: float) -> tuple[float, float]:
         """The last time |y − F| exceeds ``band``·|F| (0 when it never does)."""
         outside = np.abs(self.y - self.final) > band * abs(self.final)
@@ -136,6 +170,9 @@ def step_block(limits: Any, probe_of: Any, output_of: Any) -> dict[str, Any] | N
     t = np.linspace(0.0, fig.end, STEP_POINTS_KEPT + 1)[1:]
     y = fig.model.y(t)
     marks: list[dict[str, Any]] = []
+    masks = [{"limit": lim.name, "min_points": [list(p) for p in lim.min_points],
+              "max_points": [list(p) for p in lim.max_points]}
+             for lim in steps if lim.quantity == "mask"]
     for lim in steps:
         try:
             if lim.quantity == "overshoot":
@@ -150,6 +187,10 @@ def step_block(limits: Any, probe_of: Any, output_of: Any) -> dict[str, Any] | N
                 tc = fig.crossing(0.5)
                 marks.append({"limit": lim.name, "what": "50 %", "t": tc,
                               "y": 0.5 * fig.final})
+            elif lim.quantity == "mask":
+                tw = fig.mask_margin(lim.min_points, lim.max_points)[1]
+                marks.append({"limit": lim.name, "what": "mask: least margin", "t": tw,
+                              "y": fig._y(tw)})
             elif lim.quantity == "settling_time":
                 ts = fig.settling_time(lim.settle_band)[0]
                 marks.append({"limit": lim.name, "what": "settled", "t": ts,
@@ -158,4 +199,4 @@ def step_block(limits: Any, probe_of: Any, output_of: Any) -> dict[str, Any] | N
         except MeasurementFailure:
             continue
     return {"t": [float(x) for x in t], "y": [float(v) for v in y], "final": fig.final,
-            "method": fig.model.method, "marks": marks, "output": output}
+            "method": fig.model.method, "marks": marks, "output": output, "masks": masks}

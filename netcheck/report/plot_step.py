@@ -28,6 +28,12 @@ def step_figure(spec: SpecResult) -> tuple[str, str, Any] | None:
     style_axes(ax)
     ax.plot(np.r_[0.0, t] / ts, np.r_[0.0, y], color=PALETTE["ink"], linewidth=1.2, zorder=5)
     ax.axhline(final, color=PALETTE["slate"], linewidth=0.6, linestyle="--", zorder=3)
+    for mask in block.get("masks", ()):  # a mask's lines, in units of the final value
+        for key in ("min_points", "max_points"):
+            pts = np.asarray(mask[key], float)
+            if pts.size:
+                ax.plot(pts[:, 0] / ts, pts[:, 1] * final, color=PALETTE["hatch"],
+                        linewidth=0.9, zorder=4)
     for m in block["marks"]:
         if "band" in m:  # the settling band around the final value
             half = m["band"] * abs(final)
@@ -42,5 +48,5 @@ def step_figure(spec: SpecResult) -> tuple[str, str, Any] | None:
     which = f"output {block['output']}" if block.get("output") else "output"
     caption = (f"The {which}'s response to a unit step of the stimulus ({block['method']}), "
                f"its final value {final:.6g} (dashed) and the points the step limits "
-               "measured; a settling band is tinted.")
+               "measured; a settling band is tinted, a mask's lines drawn in umber.")
     return "Step response", caption, fig

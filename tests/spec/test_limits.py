@@ -135,7 +135,9 @@ FULL_TABLES = {
 #: keys that exclude those of the full table (another form of the same kind): one more
 #: table each, so that every key is used by some table of its kind
 MORE_TABLES = {
-    "step": [{"kind": "step", "name": "st", "quantity": "settling_time", "max": "1m",
+    "step": [{"kind": "step", "name": "st", "quantity": "mask", "duration": "1m",
+              "min_points": [[0, 0], ["1m", 0.5]], "max_points": [[0, 0.5], ["1m", 1.1]]},
+             {"kind": "step", "name": "st", "quantity": "settling_time", "max": "1m",
               "settle_band": "0.1%"},
              {"kind": "step", "name": "st", "quantity": "settling_time", "max": "1m",
               "settle_bits": 12}],

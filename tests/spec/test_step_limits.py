@@ -148,3 +148,16 @@ def test_the_json_and_the_report_carry_the_step_response(tmp_path):
     from netcheck.report.plot_response import spec_figures
     result = check_spec(spec)
     assert "Step response" in [title for title, _ in spec_figures(result)]
+
+
+def test_a_mask_on_the_step_response(tmp_path):
+    # an upper line from (0, 0.5) to (4 ms, 1.1) against 1 − e^{−t/τ}, τ = 1 ms: the
+    # margin 0.5 + 150·t − 1 + e^{−t/τ} is least where e^{−t/τ} = 150·τ, t = τ·ln(1/0.15)
+    # (by hand); the lower line (0.2 ms, 0) to (5 ms, 0.9) stays below the response
+    body = step("mask", 'max_points = [[0, 0.5], ["4m", 1.1]]\n'
+                        'min_points = [["0.2m", 0], ["5m", 0.9]]\nduration = "6m"')
+    (r,) = check_spec(write(tmp_path, body)).limits
+    t = TAU * math.log(1 / 0.15)
+    assert r.measured == pytest.approx(0.5 + 150 * t - 1 + 0.15, abs=1e-9)
+    assert r.status.value == "fail" and r.margin == pytest.approx(r.measured)
+    assert f"at t = {t * 1e3:.5g} ms" in r.definition

@@ -23,7 +23,7 @@ __all__ = ["StepLimit"]
 
 _QUANTITIES = {"overshoot": ("%", "overshoot"), "undershoot": ("%", "undershoot"),
                "rise_time": ("s", "rise time"), "delay": ("s", "delay"),
-               "settling_time": ("s", "settling time")}
+               "settling_time": ("s", "settling time"), "mask": ("", "mask")}
 
 
 @dataclass(frozen=True, slots=True)
@@ -36,14 +36,18 @@ class StepLimit(Limit):
     levels: tuple[float, float] = (0.1, 0.9)
     settle_band: float | None = None
     duration: float | None = None
+    #: a mask: (time s, bound in units of the final value) corners, straight between
+    min_points: tuple[tuple[float, float], ...] = ()
+    max_points: tuple[tuple[float, float], ...] = ()
 
     kind: ClassVar[str] = "step"
     SUMMARY: ClassVar[str] = ("the response to a step: overshoot, undershoot, rise time, "
                               "delay, settling time")
     METHOD: ClassVar[str] = "exact step response from the pole-zero form; Brent refinement"
     KEYS: ClassVar[dict[str, str]] = {
-        "quantity": "overshoot (%), undershoot (%), rise_time (s), delay (s) or "
-                    "settling_time (s)",
+        "quantity": "overshoot (%), undershoot (%), rise_time (s), delay (s), "
+                    "settling_time (s) or mask (the response within min_points and "
+                    "max_points)",
         **BOUND_KEYS,
         "levels": "rise_time: [lo, hi] in % of the final value (default [10, 90])",
         "settle_band": "settling_time: the band around the final value, '0.1%' or a "
@@ -52,12 +56,22 @@ class StepLimit(Limit):
                        "final value, for N bits",
         "duration": "how long to follow the response, s (default: until every pole has "
                     "decayed to e^-12)",
+        "min_points": "mask: [[t, y], ...] the lowest the response may be, y in units of "
+                      "its final value, straight between the points",
+        "max_points": "mask: [[t, y], ...] the highest the response may be, the same way",
     }
 
     @classmethod
     def from_table(cls, rd: SpecReader, sweep: Sweep, name: str | None, index: int,
                    line: int | None) -> StepLimit:
+        if rd.raw("quantity") == "mask":
+            return cls._mask(rd, name, index, line)
         quantity, lo, hi = quantity_and_bounds(rd, tuple(_QUANTITIES), "step")
+        if quantity == "mask":  # pragma: no cover - taken above
+            raise AssertionError
+        for key in ("min_points", "max_points"):
+            if rd.has(key):
+                rd.fail(key, "mask points are for quantity = \"mask\"")
         levels = (0.1, 0.9)
         if rd.has("levels"):
             if quantity != "rise_time":
@@ -94,9 +108,43 @@ class StepLimit(Limit):
         return cls(name or f"step: {_QUANTITIES[quantity][1]}", index, line, quantity, lo,
                    hi, levels, band, duration)
 
+    @classmethod
+    def _mask(cls, rd: SpecReader, name: str | None, index: int, line: int | None
+              ) -> StepLimit:
+        """A mask: the response within min_points and max_points; judged as the margin
+        (in units of the final value) at the worst time, ≥ 0 inside."""
+        for key in ("min", "max", "levels", "settle_band", "settle_bits"):
+            if rd.has(key):
+                rd.fail(key, "a mask is judged by its points: drop " + key)
+        points = {}
+        for key in ("min_points", "max_points"):
+            raw = rd.raw(key)
+            if raw is None:
+                points[key] = ()
+                continue
+            if not isinstance(raw, list) or len(raw) < 2 or not all(
+                    isinstance(p, list) and len(p) == 2 for p in raw):
+                rd.fail(key, "expected at least two [t, y] pairs")
+            pts = tuple((rd.number("", value=p[0], label=f"{key}[{k}][0]"),
+                         rd.number("", value=p[1], label=f"{key}[{k}][1]"))
+                        for k, p in enumerate(raw))
+            times = [t for t, _ in pts]
+            if times[0] < 0 or any(b <= a for a, b in zip(times, times[1:])):
+                rd.fail(key, "the times must be at or after 0 and rise from point to point")
+            points[key] = pts
+        if not points["min_points"] and not points["max_points"]:
+            rd.fail("", "a step mask needs min_points, max_points or both")
+        duration = rd.number("duration", positive=True)
+        return cls(name or "step: mask", index, line, "mask", 0.0, None, (0.1, 0.9), None,
+                   duration, points["min_points"], points["max_points"])
+
     def _measure(self, probe: Any) -> tuple[float, float, str]:
         """(value, time it is at, definition)."""
         fig = probe.step_figures(self.duration)
+        if self.quantity == "mask":
+            v, t = fig.mask_margin(self.min_points, self.max_points)
+            return v, t, ("the response against its mask, in units of the final value; "
+                          "the margin at the worst time")
         if self.quantity == "overshoot":
             v, t = fig.overshoot_pct()
             return v, t, "largest excursion beyond the final value, % of it"
