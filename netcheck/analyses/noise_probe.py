@@ -160,10 +160,22 @@ def noise_block(limits: Any, results: Any, probe_of: Any) -> list[dict[str, Any]
             f = r.at_hz if r.at_hz else float(np.sqrt(lim.band[0] * lim.band[1]))
             rows = curves.contributions(f)
             where, key = {"band_hz": None, "at_hz": f}, "density"
+        grid = curves.curve.grid_hz
+        f = np.geomspace(float(grid[0]), float(grid[-1]), CURVE_POINTS)
+        density = np.sqrt(output_noise(curves.system, f, curves.temp_c, curves.sources,
+                                       rational=curves.rational).total)
         out.append({"limit": lim.name, **where, "temperature_c": curves.temp_c,
                     "sources": [{"part": e, "what": w, key: d, "share_pct": p}
-                                for e, w, d, p in rows]})
+                                for e, w, d, p in rows],
+                    "quantity": lim.quantity, "limit_band_hz": list(lim.band),
+                    "bounds": [lim.min, lim.max],
+                    "curve": {"f_hz": [float(x) for x in f],
+                              "density": [float(x) for x in density]}})
     return out
+
+
+#: points of the output noise density each noise block keeps for its plot
+CURVE_POINTS = 200
 
 
 class SampleProbe:

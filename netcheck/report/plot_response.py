@@ -15,6 +15,7 @@ from .plot_base import (FONT_PT, PALETTE, Plot, Tag, figure_keys, frequency_axis
 from .plot_gain import (GAIN_QUANTITIES, HALF_POWER_DB, draw_mask, drawn_gain, fail_points,
                         gain_label, gain_limits, tags_for, zoom_is_resonance, zoom_window)
 from ..measure.detail import curve_points
+from .plot_noise import noise_figure
 from .plot_step import step_figure
 from .plot_tolerance import draw_envelope, envelope_caption, has_envelope
 
@@ -315,9 +316,9 @@ def _response_figures(spec: SpecResult, keep: Any = None
                     f"{names[0].upper()}{names[1:]} against frequency, for the limits on "
                     "them (their bounds and margins are in the summary table).",
                     fig, figure_keys(drawn)))
-    step = step_figure(spec)
-    if step is not None:
-        out.append((*step, ()))
+    for extra in (noise_figure(spec), step_figure(spec)):
+        if extra is not None:
+            out.append((*extra, ()))
     return out
 
 

@@ -166,3 +166,20 @@ def test_each_named_output_ranks_its_own_sources(tmp_path):
         total = math.sqrt(sum(s["rms"] ** 2 for s in entry["sources"]))
         assert total == pytest.approx(rows[entry["limit"]], rel=1e-6)
     assert rows["low noise"] != pytest.approx(rows[doc["noise"][0]["limit"]], rel=1e-3)
+
+
+def test_the_report_draws_the_noise_density(tmp_path):
+    # the block's curve is the RC's √(4kTR/(1 + x²)) on 200 points over the sweep, and
+    # the PDF has the figure
+    import numpy as np
+
+    from netcheck.report.plot_response import spec_figures
+
+    spec = write(tmp_path, limit("output_density", ("10", "1k"), 'max = "20n"'))
+    result = check_spec(spec)
+    entry = result.extra_value("noise")[0]
+    f, d = np.array(entry["curve"]["f_hz"]), np.array(entry["curve"]["density"])
+    x = 2 * np.pi * f * R * C
+    np.testing.assert_allclose(d, np.sqrt(4 * K_B * T * R / (1 + x * x)), rtol=1e-9)
+    assert f.size == 200 and entry["bounds"] == [None, 20e-9]
+    assert "Output noise density" in [title for title, _ in spec_figures(result)]
