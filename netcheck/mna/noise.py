@@ -23,8 +23,10 @@ The sources and their right-hand sides, from each element's stamp:
   voltage, entering as u = sCm·e_k.
 
 A device at its operating point adds its shot noise (2q|I| of each junction current) or
-channel noise ((8/3)kT·gm of a MOSFET or JFET); flicker noise and explicit noise
-densities of sources are not modelled yet.
+channel noise ((8/3)kT·gm of a MOSFET or JFET); an amplifier written as an E card (or an
+ideal op-amp) adds the datasheet noise its card gives, ``en`` in series with its input
+and ``in`` into each input, each times (1 + ``noise_corner``/f). Device flicker noise is
+not modelled (the models keep no KF, AF).
 Where the circuit is rational and small enough for dense QZ, every source's transfer is
 put in pole–zero form once — the poles of the pencil (G, −C), shared, and its own zeros
 from the pencil bordered with its right-hand side and l — checked against adjoint solves
@@ -45,6 +47,7 @@ import numpy as np
 import scipy.integrate as si
 import scipy.sparse.linalg as spla
 
+from ..netlist.elements.controlled import VCVS, IdealOpAmp
 from ..netlist.elements.devices import Linearised
 from ..netlist.elements.passives import Capacitor, Inductor, Resistor
 from .assemble import System
@@ -77,6 +80,17 @@ class NoiseSource:
     density: float
     u0: np.ndarray
     us: np.ndarray | None = None
+    #: a 1/f corner (Hz): the density is ``density``·(1 + corner/f)
+    corner: float = 0.0
+
+    def at(self, f: np.ndarray) -> np.ndarray:
+        """The density at frequencies ``f``."""
+        return self.density * (1.0 + self.corner / f) if self.corner else \
+            np.full(f.shape, self.density)
+
+    def d_at(self, f: np.ndarray) -> np.ndarray:
+        """d/df of :meth:`at`."""
+        return -self.density * self.corner / (f * f) if self.corner else np.zeros(f.shape)
 
 
 def noise_sources(system: System, temp_c: float = 27.0) -> list[NoiseSource]:
@@ -96,6 +110,9 @@ def noise_sources(system: System, temp_c: float = 27.0) -> list[NoiseSource]:
     for e in system.circuit.elements:
         if isinstance(e, Linearised):  # a device at its operating point
             out.extend(_device_sources(e, between, four_kt))
+            continue
+        if isinstance(e, VCVS) and (e.en or e.in_):  # an amplifier's own noise
+            out.extend(_amplifier_sources(system, e, between))
             continue
         if isinstance(e, Resistor):
             if e.value:  # a 0 Ω resistor is a wire: no noise
@@ -137,6 +154,25 @@ def _device_sources(e: Linearised, between: Any, four_kt: float) -> list[NoiseSo
         return [NoiseSource(e.name, "channel", four_kt * 2.0 / 3.0 * abs(q["gm"]),
                             between(n[0], n[2]))]
     return []
+
+
+def _amplifier_sources(system: System, e: VCVS, between: Any) -> list[NoiseSource]:
+    """An amplifier's datasheet noise (the card's ``en``, ``in``, ``noise_corner``): ``en``
+    in series with its control input — on an E card's row v+ − v− − A(vc+ − vc− + e) = 0 it
+    enters as A·e, on an ideal op-amp's row vc+ − vc− (+ e) = 0 as e — and ``in`` into each
+    control node, the three uncorrelated, each with the 1/f corner."""
+    out = []
+    k = system.branch_index[e.name]
+    if e.en:
+        u = np.zeros(system.size)
+        u[k] = 1.0 if isinstance(e, IdealOpAmp) else e.gain
+        out.append(NoiseSource(e.name, "en", e.en ** 2, u, corner=e.noise_corner))
+    if e.in_:
+        for node, what in ((e.nodes[2], "in+"), (e.nodes[3], "in-")):
+            if node in system.node_index:
+                out.append(NoiseSource(e.name, what, e.in_ ** 2, between(node, "0"),
+                                       corner=e.noise_corner))
+    return out
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -231,13 +267,16 @@ class _Rational:
         return np.prod((omega[:, None] - roots.imag[None, :]) ** 2
                        + (roots.real ** 2)[None, :], axis=1)
 
-    def parts(self, f: np.ndarray, densities: np.ndarray, derivative: bool
-              ) -> tuple[np.ndarray, np.ndarray | None]:
+    def parts(self, f: np.ndarray, densities: np.ndarray, d_densities: np.ndarray,
+              derivative: bool) -> tuple[np.ndarray, np.ndarray | None]:
+        """Each source's output density (sources × frequencies) from its input density
+        ``densities`` (same shape) and, with ``derivative``, both d/df."""
         omega = _TWO_PI * f
         den = self._mag2(omega, self.poles)
-        out = np.empty((len(self.zeros), f.size))
+        shape = np.empty((len(self.zeros), f.size))  # |T_k|²
         for k, z in enumerate(self.zeros):
-            out[k] = densities[k] * self.gain2[k] * self._mag2(omega, z) / den
+            shape[k] = self.gain2[k] * self._mag2(omega, z) / den
+        out = densities * shape
         if not derivative:
             return out, None
         # d|T|²/df = |T|²·2π·d/dω ln|T|², d/dω ln((ω − b)² + a²) = 2(ω − b)/((ω − b)² + a²)
@@ -245,7 +284,7 @@ class _Rational:
             d = omega[:, None] - roots.imag[None, :]
             return (2.0 * d / (d * d + (roots.real ** 2)[None, :])).sum(axis=1)
         d_den = dlog(self.poles)
-        d_out = np.array([out[k] * _TWO_PI * (dlog(z) - d_den)
+        d_out = np.array([out[k] * _TWO_PI * (dlog(z) - d_den) + d_densities[k] * shape[k]
                           for k, z in enumerate(self.zeros)])
         return out, d_out
 
@@ -268,8 +307,9 @@ def output_noise(system: System, f_hz: np.ndarray, temp_c: float = 27.0,
     f = np.atleast_1d(np.asarray(f_hz, float))
     srcs = noise_sources(system, temp_c) if sources is None else sources
     if isinstance(rational, _Rational) and srcs:
-        dens = np.array([src.density for src in srcs])
-        parts, d_parts = rational.parts(f, dens, derivative)
+        dens = np.array([src.at(f) for src in srcs])
+        d_dens = np.array([src.d_at(f) for src in srcs])
+        parts, d_parts = rational.parts(f, dens, d_dens, derivative)
         return NoiseDensity(f, parts.sum(axis=0), parts, tuple(srcs),
                             None if d_parts is None else d_parts.sum(axis=0), d_parts)
     w, dw = _adjoint(system, f, derivative)
@@ -280,12 +320,13 @@ def output_noise(system: System, f_hz: np.ndarray, temp_c: float = 27.0,
         t = w @ src.u0
         if src.us is not None:
             t = t + s * (w @ src.us)
-        parts[k] = src.density * np.abs(t) ** 2
+        parts[k] = src.at(f) * np.abs(t) ** 2
         if dw is not None and d_parts is not None:
             dt = dw @ src.u0
             if src.us is not None:
                 dt = dt + 1j * _TWO_PI * (w @ src.us) + s * (dw @ src.us)
-            d_parts[k] = src.density * 2.0 * (np.conj(t) * dt).real
+            d_parts[k] = (src.at(f) * 2.0 * (np.conj(t) * dt).real
+                          + src.d_at(f) * np.abs(t) ** 2)
     return NoiseDensity(f, parts.sum(axis=0), parts, tuple(srcs),
                         None if d_parts is None else d_parts.sum(axis=0), d_parts)
 

@@ -15,7 +15,8 @@ __all__ = ["noise_view", "SOURCES_SHOWN"]
 SOURCES_SHOWN = 12
 _WHAT = {"R": "resistor", "Rpar": "parallel resistance", "Rser": "series resistance",
          "shot": "shot noise", "shot Ic": "shot noise of Ic", "shot Ib": "shot noise of Ib",
-         "channel": "channel noise"}
+         "channel": "channel noise", "en": "voltage noise (en)",
+         "in+": "current noise into in+", "in-": "current noise into in−"}
 
 
 def noise_view(s: SpecResult) -> list[dict[str, Any]] | None:

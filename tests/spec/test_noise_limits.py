@@ -183,3 +183,37 @@ def test_the_report_draws_the_noise_density(tmp_path):
     np.testing.assert_allclose(d, np.sqrt(4 * K_B * T * R / (1 + x * x)), rtol=1e-9)
     assert f.size == 200 and entry["bounds"] == [None, 20e-9]
     assert "Output noise density" in [title for title, _ in spec_figures(result)]
+
+
+@pytest.mark.parametrize("amp", ["E1 out 0 OPAMP p m", "E1 out 0 p m 1e9"])
+def test_a_non_inverting_stage_against_the_noise_gain_expression(tmp_path, amp):
+    # gain G = 1 + R2/R1; referred to the + input the densities add in power (common
+    # practice; the op-amp noise model of Motchenbacher & Connelly, *Low-Noise Electronic
+    # System Design*, 1993, from memory):
+    #   S_out = G²·[en²(1 + fc/f) + in²(1 + fc/f)·(Rs² + (R1∥R2)²) + 4kT·(Rs + R1∥R2)]
+    # (an E card of gain 1e9 reads as the ideal op-amp to about 1e-8)
+    rs, r1, r2, en, in_, fc = 1e3, 1e3, 9e3, 8e-9, 2e-12, 100.0
+    net = (f"Quillmere QM-N12 non-inverting stage\nV1 e 0 AC 1\nRS e p {rs}\n"
+           f"{amp} en={en} in={in_} noise_corner={fc}\nR1 m 0 {r1}\nR2 out m {r2}\n")
+    body = limit("output_density", ("10", "1k"), 'max = "1u"')
+    (r,) = check_spec(write(tmp_path, body, net)).limits
+    g, rp = 1 + r2 / r1, r1 * r2 / (r1 + r2)
+
+    def s_out(f):
+        k = 1 + fc / f
+        return g * g * (en * en * k + in_ * in_ * k * (rs * rs + rp * rp)
+                        + 4 * K_B * T * (rs + rp))
+
+    # the density is highest at the bottom of the band, where the 1/f part is largest
+    assert r.at_hz == pytest.approx(10.0)
+    assert r.measured == pytest.approx(math.sqrt(s_out(10.0)), rel=1e-7)
+
+
+def test_a_negative_noise_density_on_a_card_is_refused_at_its_place():
+    from netcheck.api import read_netlist
+    from netcheck.exceptions import NetcheckError
+
+    with pytest.raises(NetcheckError) as info:
+        read_netlist("Quillmere QM-N13\nV1 p 0 AC 1\nE1 out 0 OPAMP p out en=-1n\n")
+    assert info.value.code == "netlist-105" and "en=-1e-09" in info.value.message
+    assert (info.value.span.line, info.value.span.column) == (3, 22)  # at en=

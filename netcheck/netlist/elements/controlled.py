@@ -6,7 +6,7 @@ import functools
 import itertools
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any, Callable, ClassVar
 
 from ...exceptions import Diagnostic, ElaborationError
@@ -59,7 +59,17 @@ class _Controlled(Element):
 
 @dataclass(slots=True, unsafe_hash=True)
 class VCVS(_Controlled):
-    """``Ename n+ n- nc+ nc- gain``: v+ − v− = gain·(vc+ − vc−)."""
+    """``Ename n+ n- nc+ nc- gain [en=] [in=] [noise_corner=]``: v+ − v− = gain·(vc+ − vc−).
+
+    An amplifier's noise, as its datasheet gives it, rides on the card: ``en`` (V/√Hz)
+    in series with the control input, ``in`` (A/√Hz) into each control node, both with
+    the 1/f corner ``noise_corner`` (Hz): density² × (1 + corner/f) (netcheck.mna.noise).
+    """
+
+    # keyword-only: the subclasses' fields keep their positions
+    en: float = field(default=0.0, kw_only=True)
+    in_: float = field(default=0.0, kw_only=True)
+    noise_corner: float = field(default=0.0, kw_only=True)
 
     letter: ClassVar[str] = "E"
     n_nodes: ClassVar[int] = 4
@@ -73,14 +83,31 @@ class VCVS(_Controlled):
             return other
         nodes = rd.nodes(4)
         gain = rd.value("gain")
+        noise = _noise_options(rd)
         rd.finish()
-        return cls(rd.name, nodes, rd.span, gain)
+        return cls(rd.name, nodes, rd.span, gain, **noise)
 
     def stamp(self, st: "Stamper", value: Any) -> None:
         k = st.branch(self.name)
         st.incidence(self.nodes[0], self.nodes[1], k)
         st.add_node_col("G", k, self.nodes[2], -value)
         st.add_node_col("G", k, self.nodes[3], value)
+
+
+def _noise_options(rd: "CardReader") -> dict[str, float]:
+    """The ``en=``, ``in=`` and ``noise_corner=`` options of an amplifier's card."""
+    out: dict[str, float] = {}
+    names = {"en": "en", "in": "in_", "noise_corner": "noise_corner"}
+    while rd.peek_assign() in names:
+        key = rd.peek_assign()
+        span = rd.field_span()
+        value = rd.assigned(key)
+        if not value >= 0 or value == float("inf"):
+            raise ElaborationError(f"{printable(rd.name)}: {key}={value:g} — a noise "
+                                   "density or corner is 0 or more, and finite", span,
+                                   code="netlist-105")
+        out[names[key]] = value
+    return out
 
 
 @dataclass(slots=True, unsafe_hash=True)
@@ -104,11 +131,12 @@ class IdealOpAmp(VCVS):
         span = rd.field_span()
         rd.skip()  # the OPAMP keyword
         nodes = outputs + rd.nodes(2)
+        noise = _noise_options(rd)
         rd.finish()
         note = Diagnostic("netlist-162", f"{printable(rd.name)}: 'OPAMP' read as an ideal "
                           "op-amp: infinite gain, v(in+) = v(in-) (docs/elements.md)",
                           span, "note")
-        return cls(rd.name, nodes, rd.span, 0.0, notes=(note,))
+        return cls(rd.name, nodes, rd.span, 0.0, notes=(note,), **noise)
 
     def stamp(self, st: "Stamper", value: Any) -> None:
         k = st.branch(self.name)
