@@ -25,8 +25,8 @@ The sources and their right-hand sides, from each element's stamp:
 A device at its operating point adds its shot noise (2q|I| of each junction current) or
 channel noise ((8/3)kT·gm of a MOSFET or JFET); an amplifier written as an E card (or an
 ideal op-amp) adds the datasheet noise its card gives, ``en`` in series with its input
-and ``in`` into each input, each times (1 + ``noise_corner``/f). Device flicker noise is
-not modelled (the models keep no KF, AF).
+and ``in`` into each input, each times (1 + ``noise_corner``/f). A device model's KF and
+AF add flicker noise (SPICE convention, from memory).
 Where the circuit is rational and small enough for dense QZ, every source's transfer is
 put in pole–zero form once — the poles of the pencil (G, −C), shared, and its own zeros
 from the pencil bordered with its right-hand side and l — checked against adjoint solves
@@ -61,6 +61,8 @@ __all__ = ["NoiseSource", "noise_sources", "NoiseDensity", "output_noise",
 #: the Boltzmann constant, J/K, and the elementary charge, C (exact, SI 2019)
 BOLTZMANN = 1.380649e-23
 CHARGE = 1.602176634e-19
+#: the permittivity of silicon dioxide, F/m (3.9·ε0; common practice, no source)
+EPS_OX = 3.9 * 8.8541878128e-12
 _TWO_PI = 2.0 * math.pi
 
 
@@ -98,6 +100,9 @@ def noise_sources(system: System, temp_c: float = 27.0) -> list[NoiseSource]:
     four_kt = 4.0 * BOLTZMANN * kelvin(temp_c)
     n = system.size
     out: list[NoiseSource] = []
+    large = system.circuit.large_signal  # the devices' models (KF, AF: flicker noise)
+    models = {e.name: e.model for e in large.elements if hasattr(e, "model")} \
+        if large is not None else {}
 
     def between(a: str, b: str) -> np.ndarray:
         u = np.zeros(n)
@@ -109,7 +114,7 @@ def noise_sources(system: System, temp_c: float = 27.0) -> list[NoiseSource]:
 
     for e in system.circuit.elements:
         if isinstance(e, Linearised):  # a device at its operating point
-            out.extend(_device_sources(e, between, four_kt))
+            out.extend(_device_sources(e, between, four_kt, models.get(e.name)))
             continue
         if isinstance(e, VCVS) and (e.en or e.in_):  # an amplifier's own noise
             out.extend(_amplifier_sources(system, e, between))
@@ -136,23 +141,40 @@ def noise_sources(system: System, temp_c: float = 27.0) -> list[NoiseSource]:
     return out
 
 
-def _device_sources(e: Linearised, between: Any, four_kt: float) -> list[NoiseSource]:
+def _device_sources(e: Linearised, between: Any, four_kt: float, model: Any = None
+                    ) -> list[NoiseSource]:
     """The noise of a device at its operating point (common practice; van der Ziel,
     *Noise in Solid State Devices and Circuits*, 1986, from memory): shot noise 2q|I| of
     each junction current — a diode's Id between its terminals; a bipolar transistor's
     Ic from collector to emitter and Ib from base to emitter — and the channel noise
-    (8/3)kT·gm of a MOSFET or JFET from drain to source (saturation). Flicker noise is
-    not modelled (the models keep no KF, AF)."""
+    (8/3)kT·gm of a MOSFET or JFET from drain to source (saturation); with the model's
+    KF, AF the flicker noise KF·|I|^AF/f of the diode's Id, the transistor's Ib, the
+    JFET's Id, or the MOSFET's Id over COX·L² (COX = ε_ox/TOX; none without TOX), folded
+    into the same source as its 1/f corner."""
     q = dict(e.quantities)
     n = e.nodes
+    kf, af = (getattr(model, "KF", 0.0), getattr(model, "AF", 1.0))
+
+    def corner(density: float, current: float, per: float = 1.0) -> float:
+        """The 1/f corner that adds flicker noise KF·|I|^AF/(per·f) to ``density``."""
+        return kf * abs(current) ** af / per / density if kf and density else 0.0
+
     if e.kind == "diode":
-        return [NoiseSource(e.name, "shot", 2 * CHARGE * abs(q["Id"]), between(n[0], n[1]))]
-    if e.kind in ("npn", "pnp"):  # nodes: collector, base, emitter
-        return [NoiseSource(e.name, "shot Ic", 2 * CHARGE * abs(q["Ic"]), between(n[0], n[2])),
-                NoiseSource(e.name, "shot Ib", 2 * CHARGE * abs(q["Ib"]), between(n[1], n[2]))]
+        d = 2 * CHARGE * abs(q["Id"])
+        return [NoiseSource(e.name, "shot", d, between(n[0], n[1]), corner=corner(d, q["Id"]))]
+    if e.kind in ("npn", "pnp"):  # nodes: collector, base, emitter; flicker in Ib
+        dc, db = 2 * CHARGE * abs(q["Ic"]), 2 * CHARGE * abs(q["Ib"])
+        return [NoiseSource(e.name, "shot Ic", dc, between(n[0], n[2])),
+                NoiseSource(e.name, "shot Ib", db, between(n[1], n[2]),
+                            corner=corner(db, q["Ib"]))]
     if "gm" in q:  # MOSFET or JFET: drain, gate, source, ...
-        return [NoiseSource(e.name, "channel", four_kt * 2.0 / 3.0 * abs(q["gm"]),
-                            between(n[0], n[2]))]
+        d = four_kt * 2.0 / 3.0 * abs(q["gm"])
+        per = 1.0
+        if e.kind in ("nmos", "pmos"):  # KF·Id^AF/(f·COX·L²), COX = ε_ox/TOX
+            tox = getattr(model, "TOX", math.inf)
+            per = (EPS_OX / tox) * getattr(model, "L", 1.0) ** 2 if math.isfinite(tox) else 0.0
+        return [NoiseSource(e.name, "channel", d, between(n[0], n[2]),
+                            corner=corner(d, q["Id"], per) if per else 0.0)]
     return []
 
 

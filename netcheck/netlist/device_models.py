@@ -93,6 +93,8 @@ class DiodeModel:
     XTI: float = 3.0
     EG: float = DEFAULT_EG
     TNOM: float = NOMINAL_C
+    KF: float = 0.0    # flicker-noise coefficient (netcheck.mna.noise)
+    AF: float = 1.0    # flicker-noise current exponent
 
 
 @dataclass(frozen=True, slots=True)
@@ -128,6 +130,8 @@ class BjtModel:
     EG: float = DEFAULT_EG
     XTB: float = 0.0
     TNOM: float = NOMINAL_C
+    KF: float = 0.0    # flicker-noise coefficient (netcheck.mna.noise)
+    AF: float = 1.0    # flicker-noise current exponent
 
 
 @dataclass(frozen=True, slots=True)
@@ -158,6 +162,8 @@ class MosModel:
     RD: float = 0.0
     RS: float = 0.0
     TNOM: float = NOMINAL_C
+    KF: float = 0.0    # flicker-noise coefficient (netcheck.mna.noise)
+    AF: float = 1.0    # flicker-noise current exponent
 
     @property
     def COX(self) -> float:
@@ -193,6 +199,8 @@ class JfetModel:
     BETATCE: float = 0.0
     XTI: float = 3.0
     TNOM: float = NOMINAL_C
+    KF: float = 0.0    # flicker-noise coefficient (netcheck.mna.noise)
+    AF: float = 1.0    # flicker-noise current exponent
 
 
 DeviceModel = DiodeModel | BjtModel | MosModel | JfetModel
@@ -211,7 +219,8 @@ _D = {"is": ("IS", "pos"), "n": ("N", "pos"), "rs": ("RS", "nonneg"),
       "cjo": ("CJO", "nonneg"), "cj0": ("CJO", "nonneg"), "vj": ("VJ", "pos"),
       "m": ("M", "nonneg"), "fc": ("FC", "frac"), "tt": ("TT", "nonneg"),
       "bv": ("BV", "pos"), "ibv": ("IBV", "pos"), "tnom": ("TNOM", "kelvin"),
-      "xti": ("XTI", "any"), "eg": ("EG", "pos")}
+      "xti": ("XTI", "any"), "eg": ("EG", "pos"),
+      "kf": ("KF", "nonneg"), "af": ("AF", "pos")}
 _Q = {"is": ("IS", "pos"), "bf": ("BF", "pos"), "br": ("BR", "pos"), "nf": ("NF", "pos"),
       "nr": ("NR", "pos"), "vaf": ("VAF", "nonneg"), "va": ("VAF", "nonneg"),
       "cje": ("CJE", "nonneg"), "vje": ("VJE", "pos"), "pe": ("VJE", "pos"),
@@ -220,19 +229,22 @@ _Q = {"is": ("IS", "pos"), "bf": ("BF", "pos"), "br": ("BR", "pos"), "nf": ("NF"
       "mc": ("MJC", "nonneg"), "fc": ("FC", "frac"), "tf": ("TF", "nonneg"),
       "tr": ("TR", "nonneg"), "rb": ("RB", "nonneg"), "re": ("RE", "nonneg"),
       "rc": ("RC", "nonneg"), "tnom": ("TNOM", "kelvin"), "xti": ("XTI", "any"),
-      "eg": ("EG", "pos"), "xtb": ("XTB", "any")}
+      "eg": ("EG", "pos"), "xtb": ("XTB", "any"),
+      "kf": ("KF", "nonneg"), "af": ("AF", "pos")}
 _M = {"kp": ("KP", "pos"), "vto": ("VTO", "any"), "vt0": ("VTO", "any"),
       "lambda": ("LAMBDA", "nonneg"), "gamma": ("GAMMA", "nonneg"), "phi": ("PHI", "pos"),
       "w": ("W", "pos"), "l": ("L", "pos"), "cgso": ("CGSO", "nonneg"),
       "cgdo": ("CGDO", "nonneg"), "cgbo": ("CGBO", "nonneg"), "tox": ("TOX", "pos"),
       "uo": ("UO", "pos"), "u0": ("UO", "pos"), "rd": ("RD", "nonneg"),
-      "rs": ("RS", "nonneg"), "tnom": ("TNOM", "kelvin")}
+      "rs": ("RS", "nonneg"), "tnom": ("TNOM", "kelvin"),
+      "kf": ("KF", "nonneg"), "af": ("AF", "pos")}
 _J = {"beta": ("BETA", "pos"), "vto": ("VTO", "any"), "vt0": ("VTO", "any"),
       "lambda": ("LAMBDA", "nonneg"), "is": ("IS", "pos"), "n": ("N", "pos"),
       "cgs": ("CGS", "nonneg"), "cgd": ("CGD", "nonneg"), "pb": ("PB", "pos"),
       "m": ("M", "nonneg"), "fc": ("FC", "frac"), "rd": ("RD", "nonneg"),
       "rs": ("RS", "nonneg"), "tnom": ("TNOM", "kelvin"), "vtotc": ("VTOTC", "any"),
-      "betatce": ("BETATCE", "any"), "xti": ("XTI", "any")}
+      "betatce": ("BETATCE", "any"), "xti": ("XTI", "any"),
+      "kf": ("KF", "nonneg"), "af": ("AF", "pos")}
 _TYPES: dict[str, tuple[type, int, dict[str, tuple[str, str]], frozenset[str]]] = {
     "D": (DiodeModel, 1, _D, frozenset({"BV", "IBV"})),
     "NPN": (BjtModel, 1, _Q, frozenset()), "PNP": (BjtModel, -1, _Q, frozenset()),

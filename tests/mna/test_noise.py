@@ -127,3 +127,21 @@ def test_a_biased_diode_adds_its_shot_noise():
     want = (2 * q * i_d + 4 * K_B * T / r) * rp ** 2
     np.testing.assert_allclose(got.total, want, rtol=1e-6)
     assert [s.what for s in got.sources] == ["R", "shot"]
+
+
+def test_a_diode_model_s_kf_adds_flicker_noise():
+    # the same biased diode with KF, AF: its current noise is 2q·Id + KF·Id^AF/f (the SPICE
+    # flicker convention, from memory), through rd ∥ R, beside the resistor's 4kT/R
+    from scipy.optimize import brentq
+
+    q, is_, r, kf, af = 1.602176634e-19, 1e-14, 10e3, 1e-14, 1.2
+    vt = K_B * T / q
+    v = brentq(lambda v: (5 - v) / r - is_ * math.expm1(v / vt), 0, 5, xtol=1e-15)
+    i_d = is_ * math.expm1(v / vt)
+    rp = 1 / (1 / (vt / (i_d + is_)) + 1 / r)
+    f = np.array([1.0, 10.0, 1e3])
+    got = output_noise(system(f"Quillmere QM-N14 diode\nVB b 0 DC 5\nV1 in 0 AC 1\n"
+                              f"R1 b out {r}\nC9 in out 1p\nD1 out 0 qm_d\n"
+                              f".model qm_d D (IS=1e-14 KF={kf} AF={af})\n"), f)
+    want = (2 * q * i_d + kf * i_d ** af / f + 4 * K_B * T / r) * rp ** 2
+    np.testing.assert_allclose(got.total, want, rtol=1e-6)
