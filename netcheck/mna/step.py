@@ -43,7 +43,8 @@ from scipy import signal
 from .assemble import System
 from .solve import DENSE_MAX
 
-__all__ = ["StepModel", "StepResponse", "step_response", "talbot_step", "transfer_at"]
+__all__ = ["StepModel", "StepResponse", "step_response", "impulse_response", "talbot_step",
+           "transfer_at"]
 
 #: Talbot nodes: about 0.6·M significant digits in exact arithmetic, ~1e-10 in doubles
 TALBOT_NODES = 32
@@ -90,8 +91,10 @@ def transfer_at(system: System, s: np.ndarray) -> np.ndarray:
     return out
 
 
-def talbot_step(system: System, t: np.ndarray, nodes: int = TALBOT_NODES) -> np.ndarray:
-    """The unit-step response at times ``t`` (> 0) by the fixed-Talbot inversion."""
+def talbot_step(system: System, t: np.ndarray, nodes: int = TALBOT_NODES,
+                impulse: bool = False) -> np.ndarray:
+    """The unit-step response (inverting H(s)/s) or, with ``impulse``, the impulse
+    response (inverting H(s)) at times ``t`` (> 0) by the fixed-Talbot inversion."""
     t = np.atleast_1d(np.asarray(t, float))
     y = np.empty(t.size)
     k = np.arange(1, nodes)
@@ -101,7 +104,9 @@ def talbot_step(system: System, t: np.ndarray, nodes: int = TALBOT_NODES) -> np.
     for i, ti in enumerate(t):
         r = 2.0 * nodes / (5.0 * ti)
         s = r * theta * (cot + 1j)
-        f = transfer_at(system, np.r_[r, s]) / np.r_[r, s]
+        f = transfer_at(system, np.r_[r, s])
+        if not impulse:
+            f = f / np.r_[r, s]
         total = 0.5 * math.exp(r * ti) * f[0].real
         total += np.sum((np.exp(ti * s) * f[1:] * (1.0 + 1j * sigma)).real)
         y[i] = r / nodes * total
@@ -178,6 +183,27 @@ class StepModel:
         a, a_inv_b, c, d = self._ss
         return np.real(np.array([(c @ (sla.expm(a * ti) @ a_inv_b - a_inv_b)).item()
                                  + d.item() for ti in t]))
+
+
+def impulse_response(response: object, t: np.ndarray) -> StepResponse:
+    """The impulse response h(t) of ``response``'s output at times ``t`` (s, > 0): the
+    derivative of the step response, from the same form — Σ r_j e^{p_j t} from the
+    residues, C·e^{At}·B from the state space, or Talbot on H(s) — without the D·δ(t) of
+    a response with a direct term (``final`` is H(0), as for the step)."""
+    model = StepModel(response)
+    t = np.atleast_1d(np.asarray(t, float))
+    if model.method == "pole-zero residues":
+        h = (np.exp(np.multiply.outer(t, model.p)) * model.r).sum(axis=1).real
+    elif model.method == "fixed Talbot":
+        h = np.full(t.size, np.nan)
+        inside = t <= model._reach
+        if inside.any():
+            h[inside] = talbot_step(model.system, t[inside], impulse=True)
+    else:
+        a, a_inv_b, c, _ = model._ss
+        b = a @ a_inv_b
+        h = np.real(np.array([(c @ sla.expm(a * ti) @ b).item() for ti in t]))
+    return StepResponse(t, h, model.final, model.method)
 
 
 def step_response(response: object, t: np.ndarray) -> StepResponse:

@@ -97,3 +97,29 @@ def test_a_ringing_double_pole_against_scipy_on_the_squared_section():
     got = step_response(resp, t[1:])
     assert got.method == "pole-zero form, state space"
     np.testing.assert_allclose(got.y, want[1:], atol=1e-8)
+
+
+@pytest.mark.parametrize("order", [3, 5])
+def test_impulse_response_against_scipy_impulse(order):
+    # scipy.signal.impulse on a Butterworth design, and the repeated-pole state-space path
+    # against the derivative of 1 − e^{−x}(1 + x), i.e. x·e^{−x}/τ (by hand)
+    from netcheck.mna.step import impulse_response
+
+    b, a = signal.butter(order, 2 * math.pi * 1e3, analog=True)
+    num = " + ".join(f"{float(x)!r}*s^{len(b) - 1 - k}" for k, x in enumerate(b) if x)
+    den = " + ".join(f"{float(x)!r}*s^{len(a) - 1 - k}" for k, x in enumerate(a))
+    resp = response_of(f"Quillmere QM-S9 Butterworth\nV1 in 0 AC 1\nR1 in 0 1k\n"
+                       f"E1 out 0 in 0 LAPLACE={{({num})/({den})}}\nRL out 0 1k\n")
+    t = np.linspace(0.0, 3e-3, 61)
+    _, want = signal.impulse((b, a), T=t)
+    got = impulse_response(resp, t[1:])
+    assert got.method == "pole-zero residues"
+    np.testing.assert_allclose(got.y, want[1:], atol=1e-6 * np.max(np.abs(want)))
+    r, c = 1e3, 1e-6
+    resp = response_of(f"Quillmere QM-S4 two RC\nV1 in 0 AC 1\nR1 in a {r}\nC1 a 0 {c}\n"
+                       f"E1 b 0 a 0 1\nR2 b out {r}\nC2 out 0 {c}\n")
+    tt = np.array([0.2e-3, 1e-3, 3e-3])
+    got = impulse_response(resp, tt)
+    x = tt / (r * c)
+    assert got.method == "pole-zero form, state space"
+    np.testing.assert_allclose(got.y, x * np.exp(-x) / (r * c), rtol=1e-8)
