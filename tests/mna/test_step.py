@@ -41,8 +41,10 @@ def test_second_order_overshoot_at_the_peak_time(zeta):
     assert got.y[1] == pytest.approx(1.0, abs=1e-12)  # settled after 50 time constants
 
 
-def test_butterworth_against_scipy_step():
-    b, a = signal.butter(4, 2 * math.pi * 1e3, analog=True)
+@pytest.mark.parametrize("design", ["butter", "bessel"])
+def test_butterworth_and_bessel_against_scipy_step(design):
+    b, a = (signal.butter(4, 2 * math.pi * 1e3, analog=True) if design == "butter" else
+            signal.bessel(4, 2 * math.pi * 1e3, analog=True, norm="phase"))
     num = " + ".join(f"{float(x)!r}*s^{len(b) - 1 - k}" for k, x in enumerate(b) if x)
     den = " + ".join(f"{float(x)!r}*s^{len(a) - 1 - k}" for k, x in enumerate(a))
     resp = response_of(f"Quillmere QM-S2 Butterworth\nV1 in 0 AC 1\nR1 in 0 1k\n"
@@ -123,3 +125,23 @@ def test_impulse_response_against_scipy_impulse(order):
     x = tt / (r * c)
     assert got.method == "pole-zero form, state space"
     np.testing.assert_allclose(got.y, x * np.exp(-x) / (r * c), rtol=1e-8)
+
+
+@pytest.mark.parametrize("zeta", [0.3, 0.7])
+def test_second_order_settling_time_against_a_dense_scipy_step(zeta):
+    # the last time the second-order step response leaves ±2 % of its final value, on a
+    # 1 ns grid of scipy.signal.step (the envelope estimate 4/(ζω0) is a bound only,
+    # Ogata, from memory: the exact time is the last crossing)
+    from netcheck.analyses.step_probe import StepFigures
+
+    l, c = 10e-3, 100e-9
+    w0 = 1 / math.sqrt(l * c)
+    r = 2 * zeta * math.sqrt(l / c)
+    resp = response_of(f"Quillmere QM-S10 RLC\nV1 in 0 AC 1\nR1 in a {r}\nL1 a out {l}\n"
+                       f"C1 out 0 {c}\n")
+    got, _ = StepFigures(resp).settling_time(0.02)
+    t = np.arange(0.0, 10 / (zeta * w0), 1e-9)
+    _, y = signal.step(([w0 * w0], [1.0, 2 * zeta * w0, w0 * w0]), T=t)
+    last = t[np.flatnonzero(np.abs(y - 1.0) > 0.02)[-1]]
+    assert got == pytest.approx(last, abs=2e-9)
+    assert got <= 4 / (zeta * w0) * 1.2

@@ -93,6 +93,10 @@ def test_noise_figure_of_a_matched_pad_is_its_loss(tmp_path):
                               net, ports))
     (nf,) = result.limits
     assert nf.measured == pytest.approx(6.0, abs=1e-9)
+    # the same as a noise temperature: T0·(F − 1), T0 = 290 K (IEEE definition)
+    (te,) = check_spec(write(tmp_path, limit("noise_temperature", ("1k", "1meg"),
+                                             "max = 1000"), net, ports)).limits
+    assert te.measured == pytest.approx(290.0 * (10 ** 0.6 - 1), rel=1e-9)
 
 
 def test_worst_case_of_the_rms_follows_kt_over_c(tmp_path):

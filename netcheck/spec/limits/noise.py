@@ -27,7 +27,10 @@ _QUANTITIES = {"output_density": ("V/√Hz", "output noise density"),
                "input_density": ("V/√Hz", "input-referred noise density"),
                "rms": ("V", "RMS output noise"),
                "snr": ("dB", "signal-to-noise ratio"),
-               "noise_figure": ("dB", "noise figure")}
+               "noise_figure": ("dB", "noise figure"),
+               "noise_temperature": ("K", "noise temperature")}
+#: the standard reference temperature of a noise figure, K (IEEE; T_e = T0·(F − 1))
+T0_K = 290.0
 
 
 @dataclass(frozen=True, slots=True)
@@ -50,17 +53,18 @@ class NoiseLimit(Limit):
     METHOD: ClassVar[str] = "every resistance's 4kTR by one adjoint solve per frequency"
     KEYS: ClassVar[dict[str, str]] = {
         "quantity": "output_density (V/√Hz), input_density (per √Hz, in the stimulus's "
-                    "unit), rms (V over the band), snr (dB) or noise_figure (dB)",
+                    "unit), rms (V over the band), snr (dB), noise_figure (dB) or "
+                    "noise_temperature (K)",
         "band": "[start, stop], Hz",
         **BOUND_KEYS,
         "temperature_c": "temperature of the resistances, °C (default: the netlist's "
                          ".temp, else 27)",
         "signal_rms": "snr: the signal at the input, RMS in the stimulus's unit",
         "signal_hz": "snr: the signal's frequency, Hz",
-        "source_resistor": "noise_figure: the resistor that is the source resistance "
-                           "(default with [ports]: the input port's)",
-        "load_resistor": "noise_figure: a load resistor not counted (the next stage's; "
-                         "default with [ports]: the output port's)",
+        "source_resistor": "noise_figure, noise_temperature: the resistor that is the "
+                           "source resistance (default with [ports]: the input port's)",
+        "load_resistor": "noise_figure, noise_temperature: a load resistor not counted "
+                         "(the next stage's; default with [ports]: the output port's)",
     }
 
     @classmethod
@@ -81,9 +85,10 @@ class NoiseLimit(Limit):
             rd.fail("signal_rms" if sig is not None else "signal_hz",
                     "only an snr limit takes a signal")
         src, load = rd.text("source_resistor"), rd.text("load_resistor")
-        if quantity != "noise_figure" and (src or load):
+        if quantity not in ("noise_figure", "noise_temperature") and (src or load):
             rd.fail("source_resistor" if src else "load_resistor",
-                    "only a noise_figure limit names a source or load resistor")
+                    "only a noise_figure or noise_temperature limit names a source or "
+                    "load resistor")
         words = _QUANTITIES[quantity][1]
         return cls(name or f"{words} {band_text(band)}", index, line, band, quantity, lo, hi,
                    temp, sig, sig_hz, src.upper() if src else None,
@@ -120,7 +125,7 @@ class NoiseLimit(Limit):
             v = Extremum(self.signal_hz, snr)
             return v, v, (f"{self.signal_rms:g} RMS at {self.signal_hz:g} Hz over the RMS "
                           f"output noise over {band_text(self.band)}")
-        if self.quantity == "noise_figure":
+        if self.quantity in ("noise_figure", "noise_temperature"):
             curve = curves.figure_curve(*self._figure_resistors(probe))
             what = "noise figure"
         elif self.quantity == "input_density":
@@ -130,6 +135,10 @@ class NoiseLimit(Limit):
         a, b = band_extremes(curve, "gain_db", lo, hi)
         if self.quantity == "noise_figure":  # 20·log10 √(S_net/S_src) is already dB
             return a, b, f"true minimum and maximum of the {what} over {band_text(self.band)}"
+        if self.quantity == "noise_temperature":  # T_e = T0·(F − 1), F from its dB
+            te = lambda e: Extremum(e.frequency_hz, T0_K * (10.0 ** (e.value / 10.0) - 1.0))  # noqa: E731
+            return te(a), te(b), (f"true minimum and maximum over {band_text(self.band)} of "
+                                  "T0·(F − 1), T0 = 290 K, F the noise figure")
         to = lambda e: Extremum(e.frequency_hz, 10.0 ** (e.value / 20.0))  # noqa: E731
         return to(a), to(b), f"true minimum and maximum of the {what} over {band_text(self.band)}"
 
