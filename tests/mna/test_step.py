@@ -20,6 +20,17 @@ from netcheck.mna.solve import solve
 from netcheck.mna.step import step_response
 
 
+L_SO, C_SO = 10e-3, 100e-9  # the second-order section's L and C
+
+
+def second_order(zeta: float):
+    """(ω0, response) of the series-RLC low-pass of damping ``zeta`` (R = 2ζ√(L/C))."""
+    r = 2 * zeta * math.sqrt(L_SO / C_SO)
+    return 1 / math.sqrt(L_SO * C_SO), response_of(
+        f"Quillmere QM-S1 RLC\nV1 in 0 AC 1\nR1 in a {r}\nL1 a out {L_SO}\n"
+        f"C1 out 0 {C_SO}\n")
+
+
 def response_of(text: str, source: str = "V1", node: str = "out"):
     system = assemble(read_netlist(text), source, node)
     return solve(system, np.logspace(0, 7, 50))
@@ -27,11 +38,7 @@ def response_of(text: str, source: str = "V1", node: str = "out"):
 
 @pytest.mark.parametrize("zeta", [0.1, 0.3, 0.7])
 def test_second_order_overshoot_at_the_peak_time(zeta):
-    l, c = 10e-3, 100e-9
-    w0 = 1 / math.sqrt(l * c)
-    r = 2 * zeta * math.sqrt(l / c)
-    resp = response_of(f"Quillmere QM-S1 RLC\nV1 in 0 AC 1\nR1 in a {r}\nL1 a out {l}\n"
-                       f"C1 out 0 {c}\n")
+    w0, resp = second_order(zeta)
     wd = w0 * math.sqrt(1 - zeta * zeta)
     got = step_response(resp, np.array([math.pi / wd, 50 / (zeta * w0)]))
     assert got.method == "pole-zero residues"
@@ -134,11 +141,7 @@ def test_second_order_settling_time_against_a_dense_scipy_step(zeta):
     # Ogata, from memory: the exact time is the last crossing)
     from netcheck.analyses.step_probe import StepFigures
 
-    l, c = 10e-3, 100e-9
-    w0 = 1 / math.sqrt(l * c)
-    r = 2 * zeta * math.sqrt(l / c)
-    resp = response_of(f"Quillmere QM-S10 RLC\nV1 in 0 AC 1\nR1 in a {r}\nL1 a out {l}\n"
-                       f"C1 out 0 {c}\n")
+    w0, resp = second_order(zeta)
     got, _ = StepFigures(resp).settling_time(0.02)
     t = np.arange(0.0, 10 / (zeta * w0), 1e-9)
     _, y = signal.step(([w0 * w0], [1.0, 2 * zeta * w0, w0 * w0]), T=t)
