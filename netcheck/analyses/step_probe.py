@@ -50,6 +50,10 @@ class StepFigures:
                                      "high-pass or band-pass), so overshoot, rise and "
                                      "settling relative to the final value are not defined")
         self.sign = 1.0 if self.final > 0 else -1.0
+        if not np.any((self.y - 0.9 * self.final) * self.sign >= 0.0):
+            raise MeasurementFailure(f"the step response does not reach 90 % of its final "
+                                     f"value within {self.end:.4g} s, so its shape is not "
+                                     "known over that time: give a longer duration")
 
     def _y(self, t: float) -> float:
         return float(self.model.y(np.array([t]))[0])

@@ -221,3 +221,10 @@ def test_a_negative_noise_density_on_a_card_is_refused_at_its_place():
         read_netlist("Quillmere QM-N13\nV1 p 0 AC 1\nE1 out 0 OPAMP p out en=-1n\n")
     assert info.value.code == "netlist-105" and "en=-1e-09" in info.value.message
     assert (info.value.span.line, info.value.span.column) == (3, 22)  # at en=
+
+
+def test_the_load_left_out_cannot_be_the_source():
+    refused_at('netlist = "n.cir"\nsource = "V1"\noutput = "out"\n[sweep]\nstart = "10"\n'
+               'stop = "10meg"\n[[limits]]\nkind = "noise"\nquantity = "noise_figure"\n'
+               'band = ["10", "1k"]\nmax = 3\nsource_resistor = "R1"\nload_resistor = "r1"\n',
+               "limits[0].load_resistor", "cannot be the source")

@@ -161,3 +161,10 @@ def test_a_mask_on_the_step_response(tmp_path):
     assert r.measured == pytest.approx(0.5 + 150 * t - 1 + 0.15, abs=1e-9)
     assert r.status.value == "fail" and r.margin == pytest.approx(r.measured)
     assert f"at t = {t * 1e3:.5g} ms" in r.definition
+
+
+def test_a_duration_too_short_for_the_response_is_an_error(tmp_path):
+    # 1 µs of a 1 ms time constant: the response is still near zero, so no figure of its
+    # shape can be judged there (an overshoot of 0 % would be a false pass)
+    (r,) = check_spec(write(tmp_path, step("overshoot", 'max = 5\nduration = "1u"'))).limits
+    assert r.status.value == "error" and "does not reach 90 %" in r.message

@@ -89,6 +89,9 @@ class NoiseLimit(Limit):
             rd.fail("source_resistor" if src else "load_resistor",
                     "only a noise_figure or noise_temperature limit names a source or "
                     "load resistor")
+        if src and load and src.upper() == load.upper():
+            rd.fail("load_resistor", "the load left out cannot be the source resistance "
+                    "the figure is measured against")
         words = _QUANTITIES[quantity][1]
         return cls(name or f"{words} {band_text(band)}", index, line, band, quantity, lo, hi,
                    temp, sig, sig_hz, src.upper() if src else None,
