@@ -38,6 +38,7 @@ class NoiseCurves:
         self.sources: list[NoiseSource] = noise_sources(self.system, temp_c)
         #: every source's transfer in pole–zero form over the sweep (None: solved directly)
         self.rational = rational_form(self.system, self.sources, curve.grid_hz)
+        self._bands: dict[tuple[float, float], list[tuple[str, str, float, float]]] = {}
 
     def _density(self, f: np.ndarray, keep: np.ndarray | None = None
                  ) -> tuple[np.ndarray, np.ndarray]:
@@ -114,6 +115,9 @@ class NoiseCurves:
         """Each source over [lo_hz, hi_hz], largest first: (element, what, its RMS noise
         at the output over the band in V, share of the total noise power in %), by one
         adaptive vector quadrature of every source's density (``scipy.integrate.quad_vec``)."""
+        key = (lo_hz, hi_hz)
+        if key in self._bands:  # an rms and an snr limit over one band share it
+            return self._bands[key]
         from scipy.integrate import quad_vec
 
         def parts(u: float) -> np.ndarray:
@@ -126,7 +130,8 @@ class NoiseCurves:
         total = float(np.sum(power)) or 1.0
         rows = [(s.element, s.what, float(np.sqrt(p)), 100.0 * float(p) / total)
                 for s, p in zip(self.sources, power)]
-        return sorted(rows, key=lambda r: -r[3])
+        self._bands[key] = sorted(rows, key=lambda r: -r[3])
+        return self._bands[key]
 
     def contributions(self, f_hz: float) -> list[tuple[str, str, float, float]]:
         """Each source at ``f_hz``, largest first: (element, what, density V/√Hz at the

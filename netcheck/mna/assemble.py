@@ -131,16 +131,22 @@ def _stimulus_and_output(circuit: Circuit, source: str, node: str, ref: str,
                                "source",
                                src.span, code="netlist-107")
     src.excite(st)
-    sel = np.zeros(st.n)
+    return _output_selector(st.nodes, st.n, node, ref)
+
+
+def _output_selector(nodes: Mapping[str, int], n: int, node: str, ref: str) -> np.ndarray:
+    """The selector of V(node) − V(ref) over ``n`` unknowns (netlist-115 for a node not
+    in ``nodes``; ``gnd`` is ground)."""
+    sel = np.zeros(n)
     for name, sign in ((node, 1.0), (ref, -1.0)):
         key = name.lower()
         key = GROUND if key == "gnd" else key
         if key == GROUND:
             continue
-        if key not in st.nodes:
+        if key not in nodes:
             raise ElaborationError(f"output node {quoted(name)} is not in the netlist",
                                    code="netlist-115")
-        sel[st.nodes[key]] += sign
+        sel[nodes[key]] += sign
     return sel
 
 
@@ -181,16 +187,7 @@ def with_output(system: System, node: str, ref: str = GROUND) -> System:
     """
     import dataclasses
 
-    sel = np.zeros(system.size)
-    for name, sign in ((node, 1.0), (ref, -1.0)):
-        key = name.lower()
-        key = GROUND if key == "gnd" else key
-        if key == GROUND:
-            continue
-        if key not in system.node_index:
-            raise ElaborationError(f"output node {quoted(name)} is not in the netlist",
-                                   code="netlist-115")
-        sel[system.node_index[key]] += sign
+    sel = _output_selector(system.node_index, system.size, node, ref)
     sel.flags.writeable = False
     return dataclasses.replace(system, node=node.lower(), ref=ref.lower(), l=sel)
 

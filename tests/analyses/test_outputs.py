@@ -93,6 +93,18 @@ level_db = [-3.1, -2.9]
 """
 
 
+
+def spot_limits(outputs: tuple[str, ...], freqs: tuple[str, ...]) -> str:
+    """A spot gain limit (≤ 10 dB, named "OUTPUT at F") per output and frequency."""
+    return "".join(f"""
+[[limits]]
+kind = "gain"
+name = "{out} at {f}"
+output = "{out}"
+at = "{f}"
+max_db = 10
+""" for out in outputs for f in freqs)
+
 class TestButterworthPair:
     def test_crossover_at_f0_and_3_01_db_down(self, tmp_path):
         got = rows(check_spec(write(tmp_path, CROSSOVER)))
@@ -103,14 +115,7 @@ class TestButterworthPair:
         assert {r.output for r in got.values()} == {"low/high"}
 
     def test_each_output_judged_on_its_own_response(self, tmp_path):
-        body = "".join(f"""
-[[limits]]
-kind = "gain"
-name = "{out} at {f}"
-output = "{out}"
-at = "{f}"
-max_db = 10
-""" for out in ("low", "high") for f in ("500", "2k", "8k"))
+        body = spot_limits(("low", "high"), ("500", "2k", "8k"))
         got = rows(check_spec(write(tmp_path, body)))
         # scipy.signal.freqs of the closed forms (Q = 1/√2, ω0 = 2π·2 kHz)
         a = [1 / W0 ** 2, math.sqrt(2) / W0, 1.0]
@@ -203,14 +208,7 @@ class TestStateVariableSample:
         return {"low": ([-1.0], a), "band": ([t, 0.0], a), "high": ([-t * t, 0.0, 0.0], a)}
 
     def test_every_channel_against_its_transfer_function(self, tmp_path):
-        body = "".join(f"""
-[[limits]]
-kind = "gain"
-name = "{out} at {f}"
-output = "{out}"
-at = "{f}"
-max_db = 10
-""" for out in ("low", "band", "high") for f in ("200", "1000", "5000"))
+        body = spot_limits(("low", "band", "high"), ("200", "1000", "5000"))
         got = rows(check_spec(write(tmp_path, body, SV_NETLIST.read_text(), head=(
             'source = "VIN"\n[outputs]\nlow = "lp"\nband = "bp"\nhigh = "hp"\n'))))
         for out, (b, a) in self.forms().items():
