@@ -3,7 +3,12 @@
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Iterable
+from itertools import chain
+from operator import attrgetter
+
+import numpy as np
+from scipy.sparse import csr_matrix
+from scipy.sparse.csgraph import connected_components
 
 from .elements import Element
 from ..exceptions import Diagnostic, ElaborationError
@@ -12,6 +17,8 @@ from .source import Span, printable, quoted
 __all__ = ["check_topology", "lint_nodes", "tie_isolated_ports"]
 
 GROUND = "0"
+
+_NODES = attrgetter("nodes")
 
 
 class _Sets:
@@ -44,45 +51,63 @@ class _Sets:
         return True
 
 
-def _join_links(sets: _Sets, elements: Iterable[Element]) -> None:
-    """:meth:`_Sets.union` over the links of ``elements``: the same sets, in one loop
-    (a big netlist has a hundred thousand elements; most of them link their two nodes)."""
-    parent, find = sets.parent, sets.find
-    plain: dict[type, bool] = {}
-    joined = 0
-    for e in elements:
-        cls = type(e)
-        own = plain.get(cls)
-        if own is None:
-            own = plain[cls] = cls.links is Element.links and cls.terminals is Element.terminals
-        for a, b in (e.nodes[:2],) if own else e.links:
-            ra = a if parent.get(a) == a else find(a)
-            rb = b if parent.get(b) == b else find(b)
-            if ra != rb:
-                parent[ra] = rb
-                joined += 1
-    sets.count -= joined
+def _link_codes(elements: list[Element], index: dict[str, int]) -> np.ndarray:
+    """The node numbers (``index``) at the two ends of every link of ``elements``, one
+    row per link.
+
+    A big netlist has a hundred thousand elements and most of them are of a class that
+    links just its two nodes, so those are numbered in one C-level pass over their node
+    tuples; elements with links of their own (devices, lines, controlled sources) add
+    theirs one by one.
+    """
+    simple_classes = {cls for cls in set(map(type, elements)) if cls.n_nodes == 2
+                      and cls.links is Element.links and cls.terminals is Element.terminals}
+    simple = elements if len(simple_classes) == len(set(map(type, elements))) else \
+        [e for e in elements if type(e) in simple_classes]
+    ends = np.fromiter(map(index.__getitem__, chain.from_iterable(map(_NODES, simple))),
+                       dtype=np.intp)
+    if len(ends) != 2 * len(simple):  # a card of such a class with other than two nodes
+        ends = np.fromiter((index[n] for e in simple for n in e.nodes[:2]), dtype=np.intp)
+    if len(simple) != len(elements):
+        more = [index[n] for e in elements if type(e) not in simple_classes
+                for pair in e.links for n in pair]
+        ends = np.concatenate([ends, np.asarray(more, dtype=np.intp)])
+    return ends.reshape(-1, 2)
 
 
-def _groups(sets: _Sets, nodes: Iterable[str]) -> dict[str, list[str]]:
-    out: dict[str, list[str]] = {}
-    for n in nodes:
-        out.setdefault(sets.find(n), []).append(n)
-    return out
+def _flagged(elements: list[Element], flag: str) -> list[Element]:
+    """The elements whose ``flag`` (``voltage_defined``, ``current_defined``) is true:
+    asked once per class where the class fixes it, else of each element."""
+    classes = set(map(type, elements))
+    fixed = {cls: value for cls in classes if isinstance(value := getattr(cls, flag), bool)}
+    if len(fixed) == len(classes) and not any(fixed.values()):
+        return []
+    return [e for e in elements if fixed.get(type(e), True) and getattr(e, flag)]
 
 
 def _ungrounded(elements: list[Element], nodes: tuple[str, ...]) -> list[list[str]]:
     """The groups of ``nodes`` the links of ``elements`` do not join to ground, each in
-    node order, in the order of their first node."""
-    sets = _Sets()
-    sets.find(GROUND)
-    for n in nodes:
-        sets.find(n)
-    _join_links(sets, elements)
-    if sets.count == 1:
+    node order, in the order of their first node.
+
+    The connected components come from :func:`scipy.sparse.csgraph.connected_components`
+    over the links numbered as node indices (ground is 0), not from a Python union-find:
+    a generated netlist has a hundred thousand links.
+    """
+    index = {GROUND: 0}
+    index.update(zip(nodes, range(1, len(nodes) + 1)))
+    links = _link_codes(elements, index)
+    size = len(index)
+    graph = csr_matrix((np.ones(len(links), dtype=np.int8), (links[:, 0], links[:, 1])),
+                       shape=(size, size))
+    count, labels = connected_components(graph, directed=False)
+    if count == 1:
         return []
-    ground = sets.find(GROUND)
-    return [group for root, group in _groups(sets, nodes).items() if root != ground]
+    ground = labels[0]
+    out: dict[int, list[str]] = {}
+    for node, label in zip(nodes, labels[1:].tolist()):
+        if label != ground:
+            out.setdefault(label, []).append(node)
+    return list(out.values())
 
 
 def _names(nodes: list[str]) -> str:
@@ -116,20 +141,21 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
             "or tie it to ground through a resistor", culprit.span, code="netlist-111")
 
     loops = _Sets()
-    for e in two_terminal:
-        if e.voltage_defined:
-            a, b = e.terminals
-            if not loops.union(a, b):
-                raise ElaborationError(
-                    f"{printable(e.name, 80)} closes a loop of voltage-defined elements (V, E, "
-                    f"H) between nodes {printable(a, 60)} and {printable(b, 60)}; the loop "
-                    "current is undetermined", e.span,
-                    code="netlist-112")
+    for e in _flagged(two_terminal, "voltage_defined"):
+        a, b = e.terminals
+        if not loops.union(a, b):
+            raise ElaborationError(
+                f"{printable(e.name, 80)} closes a loop of voltage-defined elements (V, E, "
+                f"H) between nodes {printable(a, 60)} and {printable(b, 60)}; the loop "
+                "current is undetermined", e.span,
+                code="netlist-112")
 
-    if not any(e.current_defined for e in two_terminal):
+    current = _flagged(two_terminal, "current_defined")
+    if not current:
         return  # the groups below are those above: all reach ground
-    sensing = [e for e in two_terminal if e.current_defined and e.sensed]
-    for group in _ungrounded([e for e in two_terminal if not e.current_defined], nodes):
+    sensing = [e for e in current if e.sensed]
+    apart = set(map(id, current))
+    for group in _ungrounded([e for e in two_terminal if id(e) not in apart], nodes):
         if not _sensed_across(group, sensing):
             culprit = next(e for e in two_terminal if e.current_defined
                            and set(e.terminals) & set(group))
