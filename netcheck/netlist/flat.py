@@ -89,17 +89,21 @@ COPYABLE = (Resistor, Capacitor, Inductor)
 class Template:
     #: the nodes an instance makes, as its ports (first) and these: nodes the same in every
     #: instance (ground, globals), then local nodes (the text after the instance's prefix)
-    fixed: tuple[str, ...]
-    #: the local nodes, each as ``.`` and its name (lower case)
+    fixed: list[str]
+    #: the local nodes, each as its name (lower case) inside the instance
     local: tuple[str, ...]
-    #: per element: its class, ``.`` and its card's name in upper case (the instance name
-    #: comes first), its two nodes (indices into the instance's node table), span and the
-    #: values of its other fields
-    elements: tuple[tuple[type, str, int, int, Span, tuple], ...]
+    #: per element: ``.`` and its card's name in upper case (the instance name comes first)
+    suffixes: tuple[str, ...]
+    #: per element: its class, its two nodes (indices into the instance's node table), its
+    #: span and the values of its other fields up to the last one that is not the default
+    build: tuple[tuple[type, int, int, Span, tuple], ...]
     #: per element: its card (duplicate-name messages point at its name)
     cards: tuple[Card, ...]
-    #: (node index, times the expansion named it, where first) to count for each copy
-    uses: tuple[tuple[int, int, "Where"], ...]
+    #: per port: (times the expansion named it, where first, or None if never)
+    port_uses: tuple[tuple[int, "Where | None"], ...]
+    #: (node index, times the expansion named it, where first) to count for each copy, for
+    #: the nodes after the ports
+    other_uses: tuple[tuple[int, int, "Where"], ...]
 
 
 def instance_shape(sub: SubcktDef, env: Env, child: Env) -> tuple | None:
@@ -123,6 +127,17 @@ def plain_ports(ports: list[str], full: str, flat: Flat) -> bool:
     return len(set(ports)) == len(ports)
 
 
+def _given(e: Element) -> tuple:
+    """The values of ``e``'s fields after name, nodes and span, up to the last one that
+    differs from its default (a copy passes fewer arguments: a third of its cost)."""
+    fields = dataclasses.fields(e)[3:]
+    values = [getattr(e, f.name) for f in fields]
+    while values and type(values[-1]) is type(fields[len(values) - 1].default) \
+            and values[-1] == fields[len(values) - 1].default:
+        values.pop()
+    return tuple(values)
+
+
 def make_template(sub: SubcktDef, full: str, ports: list[str], made: list[Element],
                   flat: Flat) -> Template | None:
     """The template of the expansion that made ``made`` (None if it cannot be one)."""
@@ -131,54 +146,64 @@ def make_template(sub: SubcktDef, full: str, ports: list[str], made: list[Elemen
         return None
     low = full.lower() + "."
     seen = [n for e in made for n in e.nodes] + [n for n, _ in flat.log]
-    fixed = tuple(dict.fromkeys(n for n in seen if n == GROUND or n in flat.globals))
+    fixed = list(dict.fromkeys(n for n in seen if n == GROUND or n in flat.globals))
     local = tuple(dict.fromkeys(n[len(low):] for n in seen if n.startswith(low)))
-    index = {n: i for i, n in enumerate(ports + list(fixed) + [low + x for x in local])}
+    index = {n: i for i, n in enumerate(ports + fixed + [low + x for x in local])}
     if len(index) != len(ports) + len(fixed) + len(local) or any(n not in index for n in seen):
         return None
-    elements = []
+    suffixes, build = [], []
     for e, card in zip(made, cards):
         if type(e) not in COPYABLE or e.name != (full + "." + card.head).upper():
             return None
-        rest = tuple(getattr(e, f.name) for f in dataclasses.fields(e)[3:])
         a, b = e.nodes
-        elements.append((type(e), "." + card.head.upper(), index[a], index[b], e.span, rest))
+        suffixes.append("." + card.head.upper())
+        build.append((type(e), index[a], index[b], e.span, _given(e)))
     uses: dict[int, list[Where]] = {}
     for n, where in flat.log:
         uses.setdefault(index[n], []).append(where)
     shared = len(ports) + len(fixed)
-    return Template(fixed, tuple("." + x for x in local), tuple(elements), tuple(cards),
-                    tuple((i, len(w), w[0]) for i, w in uses.items()
-                          if i < shared or len(w) == 1))
+    port_uses = tuple((len(uses[i]), uses[i][0]) if i in uses else (0, None)
+                      for i in range(len(ports)))
+    other = tuple((i, len(w), w[0]) for i, w in uses.items()
+                  if len(ports) <= i and (i < shared or len(w) == 1))
+    return Template(fixed, local, tuple(suffixes), tuple(build), tuple(cards), port_uses,
+                    other)
 
 
 def copy_template(template: Template, full: str, ports: list[str], flat: Flat,
                   card: Card | None = None) -> bool:
     """Add an instance made from ``template``; False (nothing added) if it cannot be.
     With ``card`` (an instance card read from its words), its port fields count as uses
-    of the port nodes too, before the template's."""
-    if not plain_ports(ports, full, flat):
+    of the port nodes too, before the template's.
+
+    The loops of :func:`plain_ports` and :meth:`Flat.note_node` are written out here: a
+    big generated netlist makes tens of thousands of instances this way (bench_read)."""
+    dot = full.lower() + "."
+    shared = flat.globals
+    for p in ports:
+        if p == GROUND or p in shared or p.startswith(dot):
+            return False
+    if len(set(ports)) != len(ports):
         return False
-    names = [full + sfx for _, sfx, _, _, _, _ in template.elements]
+    names = [full + sfx for sfx in template.suffixes]
     known = flat.names
-    for name in names:
-        if name in known:
-            return False  # the card-by-card expansion says which
-    low = full.lower()
-    table = ports + list(template.fixed) + [low + x for x in template.local]
+    if not known.keys().isdisjoint(names):
+        return False  # the card-by-card expansion says which
     known.update(zip(names, template.cards))
-    # Flat.note_node written out: a call per node costs a tenth of the reading time of a
-    # big generated netlist (bench_read)
+    table = ports + template.fixed + [dot + x for x in template.local]
     uses, first = flat.uses, flat.first
-    if card is not None:
-        for i, node in enumerate(ports):
+    extra = 0 if card is None else 1
+    for i, (times, where) in enumerate(template.port_uses):
+        times += extra
+        if times:
+            node = ports[i]
             count = uses.get(node)
             if count is None:
-                uses[node] = 1
-                first[node] = (card, i)
+                uses[node] = times
+                first[node] = where if card is None else (card, i)
             else:
-                uses[node] = count + 1
-    for i, times, where in template.uses:
+                uses[node] = count + times
+    for i, times, where in template.other_uses:
         node = table[i]
         count = uses.get(node)
         if count is None:
@@ -187,10 +212,8 @@ def copy_template(template: Template, full: str, ports: list[str], flat: Flat,
         else:
             uses[node] = count + times
     flat.elements.extend([cls(name, (table[a], table[b]), span, *rest) for name, (
-        cls, _, a, b, span, rest) in zip(names, template.elements)])
+        cls, a, b, span, rest) in zip(names, template.build)])
     return True
-
-
 
 
 def where_span(where: Where) -> Span:
@@ -244,18 +267,22 @@ def copy_by_words(card: Card, full: str, env: Env, defs: dict[str, SubcktDef], f
     definition, scope, node count and assignments as written; False (nothing made) when
     there is none or it cannot be used."""
     words = card.words
-    if words is None or flat.depth or not flat.by_words:
+    if words is None or flat.depth or not flat.by_words or flat.log is not None:
         return False
-    assigns = tuple([w for w in words if "=" in w])
-    head = words[:len(words) - len(assigns)]  # nodes, subcircuit, perhaps 'params:'
-    if head and head[-1].lower() in ("params:", "params"):
-        head = head[:-1]
-    if len(head) < 2 or assigns and words[-len(assigns):] != assigns:
-        return False  # assignments among the nodes: the general path
-    sub = defs.get(head[-1].lower())
+    k = len(words)
+    while k and "=" in words[k - 1]:
+        k -= 1  # words[k:] are the assignments
+    j = k - 1 if k and words[k - 1].lower() in ("params:", "params") else k
+    if j < 2:
+        return False
+    heads = words[:j]  # the nodes, then the subcircuit
+    for w in heads:
+        if "=" in w:
+            return False  # assignments among the nodes: the general path
+    sub = defs.get(heads[-1].lower())
     if sub is None:
         return False
-    template = flat.by_words.get((id(sub), env, len(head) - 1, assigns))
-    if template is None or flat.log is not None:
+    template = flat.by_words.get((id(sub), env, j - 1, words[k:]))
+    if template is None:
         return False
-    return copy_template(template, full, [resolve(w) for w in head[:-1]], flat, card)
+    return copy_template(template, full, [resolve(w) for w in heads[:-1]], flat, card)

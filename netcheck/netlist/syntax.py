@@ -137,7 +137,10 @@ class LineCard(Card):
 #: values without white space or ``=``, and ``key=value`` fields written without spaces;
 #: nothing else (no comment, quote or parenthesis), so ``str.split`` gives its fields
 _WORD = r"""[^\s=;{}()"',*]+"""
-PLAIN_REST = re.compile(rf"(?:[ \t]+(?:{_WORD}=)?(?:{_WORD}|\{{[^{{}}\s=]*\}}))*[ \t]*")
+_BRACED = r"\{[^{}\s=]*\}"
+#: (written so that no word is matched twice: ``word`` then perhaps ``=value``; possessive
+#: repetition, so a line that is not plain fails without backtracking over its words)
+PLAIN_REST = re.compile(rf"(?:[ \t]+(?:{_WORD}(?:=(?:{_WORD}|{_BRACED}))?|{_BRACED}))*+[ \t]*")
 
 
 def plain_items(source: SourceFile, lineno: int, line: str, pos: int) -> list[Item]:
