@@ -9,12 +9,14 @@ from __future__ import annotations
 
 import dataclasses
 from itertools import chain
+from operator import attrgetter
 from typing import Callable, Collection
 
 from ..exceptions import CODES, Diagnostic, ElaborationError
 from .circuit import GROUND, Circuit, PartModel
 from .device_models import check_temperature
 from .elements import ELEMENTS, Element, Inductor, VoltageSource
+from .elements.base import of_classes
 from .elements.devices import DEVICE_NOTE_CODE, Device, with_series_resistors
 from .models import NOMINAL_C, ModelCard, read_model
 from .refusals import REFUSED_CODE, device_advice
@@ -23,8 +25,9 @@ from .parse import (ELEMENTS_MAX, Assign, Card, Field, Netlist, Scope, SubcktDef
                     _paused_gc)
 from .includes import arrows as _arrows
 from .sizing import check_size
-from .flat import (COPYABLE, Flat, copy_by_words, copy_template, make_template, plain_ports,
-                   plain_rlc, remember_words, instance_shape, Where)
+from .copies import copy_by_words, remember_words
+from .flat import (COPYABLE, Flat, copy_template, make_template, plain_ports, plain_rlc,
+                   instance_shape, Where)
 from .reader import CardReader, card_label
 from .source import printable, quoted
 from .topology import check_topology, lint_nodes, tie_isolated_ports
@@ -108,7 +111,7 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     elements = tuple(flat.elements)
     _check_probes(elements)
     _check_references(elements)
-    named = dict.fromkeys(chain.from_iterable(e.nodes for e in elements))
+    named = dict.fromkeys(chain.from_iterable(map(attrgetter("nodes"), elements)))
     named.pop(GROUND, None)
     nodes = tuple(named)
     check_topology(elements, nodes)
@@ -480,7 +483,8 @@ def _lint_value(element: Element, card: Card, flat: Flat) -> None:
 def _check_probes(elements: tuple[Element, ...]) -> None:
     """Each v() of a behavioural expression names a node some element connects to (netlist-115),
     each i() a voltage source (netlist-107), at the place the expression writes it."""
-    probing = [e for e in elements if getattr(e, "probe_spans", None)]
+    probing = [e for e in of_classes(elements, lambda cls: hasattr(cls, "probe_spans"))
+               if e.probe_spans]  # type: ignore[attr-defined]
     if not probing:
         return
     by_name = {e.name: e for e in elements}
@@ -507,7 +511,7 @@ def _check_probes(elements: tuple[Element, ...]) -> None:
 
 
 def _check_references(elements: tuple[Element, ...]) -> None:
-    refers = [e for e in elements if type(e).controls is not Element.controls]
+    refers = of_classes(elements, lambda cls: cls.controls is not Element.controls)
     if not refers:
         return
     by_name = {e.name: e for e in elements}

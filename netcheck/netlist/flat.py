@@ -20,8 +20,7 @@ from .syntax import Card, SubcktDef
 from .source import Span
 
 __all__ = ["Flat", "Where", "where_span", "COPYABLE", "Template", "instance_shape",
-           "plain_ports", "make_template", "copy_template", "plain_rlc", "remember_words",
-           "copy_by_words"]
+           "plain_ports", "make_template", "copy_template", "plain_rlc"]
 
 #: where a node was named: the span of its field, or (card, index of the field) for a card
 #: elaborated from its words (the span is made only if a message needs it)
@@ -52,9 +51,12 @@ class Flat:
     #: templates of expanded instances, by (definition, enclosing scope, parameter values)
     copies: dict[tuple, "Template"] = field(default_factory=dict)
     #: the same templates by (definition, enclosing scope, node count, the instance card's
-    #: ``key=value`` words as written): a card that repeats an earlier one's assignments
+    #: ``key=value`` words as written), as the function that copies one
+    #: (:mod:`netcheck.netlist.copies`): a card that repeats an earlier one's assignments
     #: is made without evaluating them again
-    by_words: dict[tuple, "Template"] = field(default_factory=dict)
+    by_words: dict[tuple, Callable] = field(default_factory=dict)
+    #: those functions by the id of their template (one per template)
+    copiers: dict[int, Callable] = field(default_factory=dict)
     #: by id of a subcircuit definition: True if its body is only R, L and C cards
     rlc: dict[int, bool] = field(default_factory=dict)
 
@@ -243,46 +245,3 @@ def plain_rlc(card: Card, cls: type, full: str, env: Env,
     if value is None:
         value = env.value_of(card.fields[2])
     return cls(full, (node_name(a, (card, 0)), node_name(b, (card, 1))), card.span, value)
-
-
-def words_key(card: Card, sub: SubcktDef, env: Env) -> tuple | None:
-    """The :attr:`Flat.by_words` key of an instance card of ``sub`` in ``env``."""
-    words = card.words
-    if words is None:
-        return None
-    nodes = sum(1 for w in words if "=" not in w and w.lower() not in ("params:", "params"))
-    return (id(sub), env, nodes - 1, tuple(w for w in words if "=" in w))
-
-
-def remember_words(card: Card, sub: SubcktDef, env: Env, template: Template,
-                    flat: Flat) -> None:
-    key = words_key(card, sub, env)
-    if key is not None:
-        flat.by_words[key] = template
-
-
-def copy_by_words(card: Card, full: str, env: Env, defs: dict[str, SubcktDef], flat: Flat,
-                  resolve: Callable[[str], str]) -> bool:
-    """Make the instance ``card`` from the template of an earlier card of the same
-    definition, scope, node count and assignments as written; False (nothing made) when
-    there is none or it cannot be used."""
-    words = card.words
-    if words is None or flat.depth or not flat.by_words or flat.log is not None:
-        return False
-    k = len(words)
-    while k and "=" in words[k - 1]:
-        k -= 1  # words[k:] are the assignments
-    j = k - 1 if k and words[k - 1].lower() in ("params:", "params") else k
-    if j < 2:
-        return False
-    heads = words[:j]  # the nodes, then the subcircuit
-    for w in heads:
-        if "=" in w:
-            return False  # assignments among the nodes: the general path
-    sub = defs.get(heads[-1].lower())
-    if sub is None:
-        return False
-    template = flat.by_words.get((id(sub), env, j - 1, words[k:]))
-    if template is None:
-        return False
-    return copy_template(template, full, [resolve(w) for w in heads[:-1]], flat, card)

@@ -35,8 +35,15 @@ def check_size(top: Scope) -> None:
     sizer = _Sizer()
     defs = {sub.name.text.lower(): sub for sub in top.subckts}
     total = 0
+    counts: dict[str | None, int] = {}  # by the subcircuit an X card names, as written
     for card in top.cards:
-        added = 1 if card.letter != "X" else sizer.instance(card, defs, 0, (), 1)[0]
+        if card.letter != "X":
+            added = 1
+        else:
+            target = _instance_target(card)
+            added = counts.get(target, -1)
+            if added < 0:  # the same name at the top level flattens the same
+                added = counts[target] = sizer.instance(card, defs, 0, (), 1)[0]
         total += added
         if total > budgets.ELEMENTS_MAX:
             target = _instance_target(card) if card.letter == "X" else None

@@ -11,6 +11,7 @@ from scipy.sparse import csr_matrix
 from scipy.sparse.csgraph import connected_components
 
 from .elements import Element
+from .elements.base import of_classes
 from ..exceptions import Diagnostic, ElaborationError
 from .source import Span, printable, quoted
 
@@ -128,7 +129,7 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
     ElaborationError
         netlist-111, netlist-112 or netlist-113, at the first element touching the offending nodes.
     """
-    two_terminal = [e for e in elements if e.letter != "K"]
+    two_terminal = of_classes(elements, lambda cls: cls.letter != "K")
     for group in _ungrounded(two_terminal, nodes)[:1]:
         culprit = next(e for e in two_terminal if group[0] in e.nodes)
         sense_only = all(n not in x for n in group for x in culprit.links)
@@ -203,9 +204,9 @@ def tie_isolated_ports(elements: list[Element]) -> list[Diagnostic]:
     to the other port's reference (its reference node, or its shorted node, becomes that
     node), in place in ``elements``, with one netlist-161 note per line tied.
     """
-    lines = [k for k, e in enumerate(elements) if e.extra_branches]
-    if not lines:
+    if not of_classes(elements, lambda cls: bool(cls.extra_branches)):
         return []
+    lines = [k for k, e in enumerate(elements) if e.extra_branches]
     notes: list[Diagnostic] = []
     sets = None
     for k in lines:

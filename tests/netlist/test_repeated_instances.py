@@ -4,6 +4,9 @@ Instances whose parameters evaluate to the same values are made from the first o
 expansion (netlist/elaborate.py), so these checks write the expected flat circuit out by
 hand — names X<k>.<card>, local nodes x<k>.<node>, values from the parameters — and
 compare every element, its nodes, value and span, the warnings and the errors.
+
+Every check runs twice: with the copies made by the code written for each template
+(netlist/copies.py) and with them all made by the general loop (flat.copy_template).
 """
 
 from __future__ import annotations
@@ -11,6 +14,15 @@ from __future__ import annotations
 import pytest
 
 from netcheck import ElaborationError, read_netlist
+from netcheck.netlist import copies
+
+
+@pytest.fixture(autouse=True, params=["written out", "general loop"])
+def copier(request, monkeypatch):
+    """Copies by the code written for their template, or all by the general loop."""
+    if request.param == "general loop":
+        monkeypatch.setattr(copies, "MOST_ELEMENTS", -1)
+    return request.param
 
 SECTION = """.subckt sect a b params: rs=1k cs=1n
 R1 a m {rs}
@@ -137,3 +149,20 @@ class TestErrorsAfterRepeats:
         with pytest.raises(ElaborationError, match="duplicate element name X0") as info:
             read_netlist(text)
         assert info.value.span.line == 11
+
+    def test_a_card_named_as_an_element_of_a_copy(self):
+        # X1 is made from X0's template; a later instance card named as X1's R2 is
+        # refused at that card, naming the definition card that made the first
+        text = _chain(["rs=2k", "rs=2k"]).replace("V1 n0 0", "X1.R2 n0 n9 sect\nV1 n0 0")
+        with pytest.raises(ElaborationError, match=r"duplicate element name X1\.R2 \(first "
+                           r"defined at <text>:6\)") as info:
+            read_netlist(text)
+        assert info.value.span.line == 13
+
+    def test_a_copy_whose_element_name_is_taken(self):
+        # an instance named X1.R1 before X1: X1 cannot be copied (its R1 is taken) and is
+        # expanded card by card, which refuses it at the definition's R1 card
+        text = _chain(["rs=2k", "rs=2k"]).replace("X1 n1 n2", "X1.R1 n9 n8 sect\nX1 n1 n2")
+        with pytest.raises(ElaborationError, match=r"duplicate element name X1\.R1") as info:
+            read_netlist(text)
+        assert info.value.span.line == LINES["R1"]

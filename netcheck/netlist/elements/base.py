@@ -16,7 +16,7 @@ References
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, ClassVar
+from typing import TYPE_CHECKING, Any, Callable, ClassVar
 
 from ..source import Span
 
@@ -24,7 +24,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from ...mna.assemble import Stamper
     from ..reader import CardReader
 
-__all__ = ["Element"]
+__all__ = ["Element", "of_classes"]
 
 
 @dataclass(slots=True, unsafe_hash=True)
@@ -95,3 +95,17 @@ class Element:
     def from_card(cls, rd: "CardReader") -> "Element":
         """Build the element from a card (``rd`` reads nodes and values)."""
         raise NotImplementedError
+
+
+def of_classes(elements: "list[Element] | tuple[Element, ...]", test: "Callable[[type], bool]"
+               ) -> list[Element]:
+    """The elements whose class passes ``test``, each class tested once.
+
+    A big netlist has a hundred thousand elements of a handful of classes; most checks
+    concern a class or two that it often has none of, and then cost one pass in C.
+    """
+    classes = set(map(type, elements))
+    chosen = {cls for cls in classes if test(cls)}
+    if len(chosen) == len(classes):
+        return list(elements)
+    return [e for e in elements if type(e) in chosen] if chosen else []

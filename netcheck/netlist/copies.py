@@ -1,0 +1,137 @@
+"""Instance cards made from an earlier instance's template by code written for it.
+
+A generated netlist instantiates one subcircuit tens of thousands of times, each card
+writing the same ``key=value`` words as an earlier one (``X7 n7 n8 sect params:
+rs={rbase*2}``). The first such card is expanded card by card and kept as a
+:class:`~.flat.Template`; every later one only names its elements and local nodes, counts
+its nodes and makes its elements. :func:`make_copier` writes that work out as one
+straight-line function per template (its element names, classes, spans and values bound
+as constants, the loops over ports, nodes and elements unrolled), as :mod:`dataclasses`
+writes ``__init__``: a copy then costs about half of what the general loop of
+:func:`~.flat.copy_template` does, which is most of the time a big generated netlist takes
+to read (benchmarks/bench_read.py). Both make exactly the same elements, names and node
+counts; a template too big to write out is copied by the general loop.
+"""
+
+from __future__ import annotations
+
+from typing import Callable
+
+from .circuit import GROUND
+from .flat import Flat, Template, copy_template
+from .params import Env
+from .syntax import Card, SubcktDef
+
+__all__ = ["make_copier", "remember_words", "copy_by_words", "words_key"]
+
+#: the largest template written out as code of its own (elements, ports); bigger ones are
+#: copied by :func:`~.flat.copy_template`
+MOST_ELEMENTS = 64
+MOST_PORTS = 12
+
+#: ``copier(full, ports, card)``: add the instance ``full`` (upper case) whose ports reach
+#: the nodes ``ports``, written by ``card``; False (nothing added) where it cannot be
+Copier = Callable[[str, list[str], Card], bool]
+
+
+def make_copier(template: Template, flat: Flat) -> Copier:
+    """The function that adds a copy of ``template`` to ``flat`` for an instance card, as
+    :func:`~.flat.copy_template` with that card does."""
+    nports = len(template.port_uses)
+    if len(template.suffixes) > MOST_ELEMENTS or nports > MOST_PORTS:
+        return lambda full, ports, card: copy_template(template, full, ports, flat, card)
+    ns: dict[str, object] = {"GROUND": GROUND, "shared": flat.globals, "known": flat.names,
+                             "uses": flat.uses, "first": flat.first, "out": flat.elements}
+    port = [f"p{i}" for i in range(nports)]
+    table = port + [f"F{j}" for j in range(len(template.fixed))] + \
+        [f"l{j}" for j in range(len(template.local))]
+    ns.update((f"F{j}", node) for j, node in enumerate(template.fixed))
+    code = ["def copy(full, ports, card):"]
+    if port:
+        code.append(f"    {', '.join(port)}, = ports")
+    code.append('    dot = full.lower() + "."')
+    # the ports reach distinct ordinary nodes (plain_ports)
+    for p in port:
+        code.append(f"    if {p} == GROUND or {p} in shared or {p}.startswith(dot):")
+        code.append("        return False")
+    same = [f"{a} == {b}" for i, a in enumerate(port) for b in port[i + 1:]]
+    if same:
+        code += [f"    if {' or '.join(same)}:", "        return False"]
+    # the element names are new; each is taken by its card
+    for k, suffix in enumerate(template.suffixes):
+        ns[f"S{k}"], ns[f"C{k}"] = suffix, template.cards[k]
+        code.append(f"    n{k} = full + S{k}")
+    taken = " or ".join(f"n{k} in known" for k in range(len(template.suffixes)))
+    code += [f"    if {taken}:", "        return False  # the card-by-card expansion says which"]
+    code += [f"    known[n{k}] = C{k}" for k in range(len(template.suffixes))]
+    for j, name in enumerate(template.local):
+        ns[f"L{j}"] = name
+        code.append(f"    l{j} = dot + L{j}")
+    # node uses: the card's port fields first, then the template's
+    counts = [(port[i], times + 1, f"(card, {i})") for i, (times, _) in
+              enumerate(template.port_uses)]
+    for m, (i, times, where) in enumerate(template.other_uses):
+        ns[f"W{m}"] = where
+        counts.append((table[i], times, f"W{m}"))
+    for node, times, where in counts:
+        code += [f"    c = uses.get({node})", "    if c is None:",
+                 f"        uses[{node}] = {times}", f"        first[{node}] = {where}",
+                 "    else:", f"        uses[{node}] = c + {times}"]
+    made = []
+    for k, (cls, a, b, span, rest) in enumerate(template.build):
+        ns[f"K{k}"], ns[f"SP{k}"] = cls, span
+        values = []
+        for q, value in enumerate(rest):
+            ns[f"V{k}_{q}"] = value
+            values.append(f"V{k}_{q}")
+        made.append(f"K{k}({', '.join([f'n{k}', f'({table[a]}, {table[b]})', f'SP{k}'] + values)})")
+    code += [f"    out.extend(({', '.join(made)},))", "    return True"]
+    exec("\n".join(code), ns)  # noqa: S102 - our own code, every value bound by name
+    return ns["copy"]  # type: ignore[return-value]
+
+
+def words_key(card: Card, sub: SubcktDef, env: Env) -> tuple | None:
+    """The :attr:`Flat.by_words` key of an instance card of ``sub`` in ``env``."""
+    words = card.words
+    if words is None:
+        return None
+    nodes = sum(1 for w in words if "=" not in w and w.lower() not in ("params:", "params"))
+    return (id(sub), env, nodes - 1, tuple(w for w in words if "=" in w))
+
+
+def remember_words(card: Card, sub: SubcktDef, env: Env, template: Template,
+                   flat: Flat) -> None:
+    """Copy later cards that write the same words as ``card`` from ``template``."""
+    key = words_key(card, sub, env)
+    if key is not None:
+        copier = flat.copiers.get(id(template))
+        if copier is None:
+            copier = flat.copiers[id(template)] = make_copier(template, flat)
+        flat.by_words[key] = copier
+
+
+def copy_by_words(card: Card, full: str, env: Env, defs: dict[str, SubcktDef], flat: Flat,
+                  resolve: Callable[[str], str]) -> bool:
+    """Make the instance ``card`` from the template of an earlier card of the same
+    definition, scope, node count and assignments as written; False (nothing made) when
+    there is none or it cannot be used."""
+    words = card.words
+    if words is None or flat.depth or not flat.by_words or flat.log is not None:
+        return False
+    k = len(words)
+    while k and "=" in words[k - 1]:
+        k -= 1  # words[k:] are the assignments
+    j = k - 1 if k and words[k - 1].lower() in ("params:", "params") else k
+    if j < 2:
+        return False
+    heads = words[:j]  # the nodes, then the subcircuit
+    for w in heads:
+        if "=" in w:
+            return False  # assignments among the nodes: the general path
+    sub = defs.get(heads[-1].lower())
+    if sub is None:
+        return False
+    copier = flat.by_words.get((id(sub), env, j - 1, words[k:]))
+    if copier is None:
+        return False
+    return copier(full, [resolve(w) for w in heads[:-1]], card)
