@@ -30,6 +30,13 @@ _END = re.compile(r"\.end(?![A-Za-z0-9_])", re.I)
 _KINDS = (None, "word", "braced", "string")
 #: a whole plain card line: white space, a name (a NAME token), then :data:`PLAIN_REST`
 _PLAIN_CARD = re.compile(r"""[ \t]*[^\s=;{}()"',*]+""" + PLAIN_REST.pattern)
+#: a line starting with one of these is not a card from column 1 (indented, a comment, a
+#: continuation or a directive)
+_NOT_PLAIN_START = " \t*+."
+#: a run of whole lines, each a plain card from column 1: matched in one call, not line by
+#: line (a generated netlist is little else)
+_PLAIN_BLOCK = re.compile(r"""(?:[^\s=;{}()"',*+.][^\s=;{}()"',*]*""" + PLAIN_REST.pattern +
+                          r"\n)*+")
 
 
 class _GiveUp(Exception):
@@ -65,7 +72,32 @@ def _scan(source: SourceFile, text: str, used: int) -> tuple[list[Statement], in
     match_token = _TOKEN.match
     plain_rest = PLAIN_REST.fullmatch
     plain_card = _PLAIN_CARD.fullmatch
+    plain_block = _PLAIN_BLOCK.match
+    skip, after = 0, 0               # lines before ``skip`` are read; where line i+1 starts
     for i, line in enumerate(lines):
+        start, after = after, after + len(line) + 1
+        if i < skip:
+            continue
+        if line and line[0] not in _NOT_PLAIN_START:
+            stop = plain_block(text, start).end()
+            if stop > start:  # lines i.. are cards on one plain line each, from column 1
+                count = text.count("\n", start, stop)
+                if i == 1 or (i and not separator):
+                    used += 1
+                used += count - 1 + 2 * text.count("=", start, stop)
+                separator = False
+                if lazy is not None:
+                    out.append(lazy)
+                elif head is not None:
+                    out.append(_statement(source, head, items, end))
+                    head = None
+                cards = [LineCard(source, k + 1, lines[k], 0, lines[k].split())
+                         for k in range(i, i + count)]
+                used += len(cards) + sum([len(c.words) for c in cards])
+                lazy = cards.pop()  # a continuation line may follow the last
+                out.extend(cards)
+                skip = i + count
+                continue
         s = line.lstrip(" \t")
         if i == 1 or (i and not separator):
             used += 1  # the line end after a card starts a separator (_NL or _CONTINUATION)
