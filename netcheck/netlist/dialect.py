@@ -27,6 +27,7 @@ from dataclasses import dataclass, field
 
 from ..exceptions import CODES, Diagnostic, NetlistSyntaxError
 from .card_forms import card_form_edits
+from .line_text import has_endl, has_function, lines_to_visit, strip_comment
 from .refusals import REFUSED_CODE, behavioural_refusal, device_advice
 from .source import SourceFile, Span, printable, quoted
 from .syntax import AcCard, Assign, Directive, Field, FuncDef
@@ -70,10 +71,8 @@ _GRAMMAR = frozenset({"subckt", "ends", "model", "title", "end"})
 
 _TOKEN = re.compile(r"""\{[^{}\n]*\}|"[^"\n]*"|'[^'\n]*'|[=(),]|;.*|[^\s=(),{}"';]+""")
 _DIRECTIVE = re.compile(r"\.([A-Za-z][A-Za-z0-9_]*)")
-_BRACED = re.compile(r"""\{[^{}\n]*\}|"[^"\n]*"|'[^'\n]*'""")
 _BEHAVIOURAL = re.compile(r"(?i)\b(laplace|freq|table|value|poly)\b")
 _PLACEHOLDER = re.compile(r"^(#[^#\s]+#|<[^<>\s]+>)$")
-_ENDL = re.compile(r"(?im)^[ \t]*\.endl\b")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*$")
 
 
@@ -108,11 +107,11 @@ class _Pass:
     def __init__(self, source: SourceFile, text: str, section: str | None,
                  allowed: int) -> None:
         self.source, self.section, self.allowed = source, section, allowed
-        self.lines = text.split("\n")
+        self.text, self.lines = text, text.split("\n")
         self.out = Prepared("")
         self.notes: dict[str, list] = {}   # kind -> [first span, count, message]
         self.sources_seen: dict[str, list] = {}
-        self.has_endl = section is not None or bool(_ENDL.search(text))
+        self.has_endl = section is not None or has_endl(text)
 
     # ---- small helpers -------------------------------------------------------------
     def span(self, tok: _Tok) -> Span:
@@ -158,7 +157,7 @@ class _Pass:
                 continue
             if s[0] != "+":
                 break
-            self.lines[j] = _strip_comment(self.lines[j])
+            self.lines[j] = strip_comment(self.lines[j])
             out.append(j)
             j += 1
         return out
@@ -184,68 +183,72 @@ class _Pass:
 
     # ---- the pass ------------------------------------------------------------------
     def run(self) -> Prepared:
-        lines, n, i = self.lines, len(self.lines), 0
-        keep = self.section is None      # outside a .lib section, or inside the one asked for
-        while i < n:
-            line = lines[i]
-            s = line.lstrip()
-            if not s or s[0] == "*":
-                i += 1
-                continue
-            c = s[0]
-            if c == ";":
-                lines[i] = ""
-                i += 1
-                continue
-            if "$" in line or "//" in line:
-                line = lines[i] = _strip_comment(line)
-                s = line.lstrip()
-                if not s:
-                    i += 1
-                    continue
-            if c == "+":
-                if not keep:
-                    lines[i] = ""
-                i += 1
-                continue
-            if c == ".":
-                m = _DIRECTIVE.match(s)
-                name = m.group(1).lower() if m else ""
-                if name == "end" and keep:
-                    break
-                if name in ("lib", "endl") and self.has_endl:
-                    i, keep = self.section_line(i, name, keep)
-                    continue
-                if not keep:
-                    i = self.drop(i)
-                    continue
-                if name == "control":
-                    i = self.control(i)
-                    continue
-                if name in _GRAMMAR:
-                    i += 1
-                    continue
-                group = self.group(i)
-                self.directive(name, group)
-                for j in group:
-                    lines[j] = ""
-                i = group[-1] + 1
-                continue
-            if not keep:
-                i = self.drop(i)
-                continue
-            upper = c.upper()
-            if upper in "VI" and _has_function(s):
-                group = self.group(i)
-                self.source_card(group)
-                i = group[-1] + 1
-                continue
-            if "(" in line or "#" in line or "<" in line or (upper in "EFGHB" and
-                                                              _BEHAVIOURAL.search(s)):
-                self.check_card(self.group(i))
-            i += 1
+        if self.section is None and not self.has_endl:
+            # no .lib section to keep or drop: only the lines :func:`lines_to_visit`
+            # gives can need anything (a big generated netlist is little else)
+            i = 0
+            for k in lines_to_visit(self.text):
+                if k >= i:
+                    i, _ = self.step(k, True)
+                    if i < 0:
+                        break
+        else:
+            i, keep = 0, self.section is None  # outside a .lib section, or in the one asked for
+            while 0 <= i < len(self.lines):
+                i, keep = self.step(i, keep)
         self.finish()
         return self.out
+
+    def step(self, i: int, keep: bool) -> tuple[int, bool]:
+        """Read line ``i`` (and the continuation lines it takes): the next line to read
+        (-1 after ``.end``) and whether the lines from there on are kept."""
+        lines = self.lines
+        line = lines[i]
+        s = line.lstrip()
+        if not s or s[0] == "*":
+            return i + 1, keep
+        c = s[0]
+        if c == ";":
+            lines[i] = ""
+            return i + 1, keep
+        if "$" in line or "//" in line:
+            line = lines[i] = strip_comment(line)
+            s = line.lstrip()
+            if not s:
+                return i + 1, keep
+        if c == "+":
+            if not keep:
+                lines[i] = ""
+            return i + 1, keep
+        if c == ".":
+            m = _DIRECTIVE.match(s)
+            name = m.group(1).lower() if m else ""
+            if name == "end" and keep:
+                return -1, keep
+            if name in ("lib", "endl") and self.has_endl:
+                return self.section_line(i, name, keep)
+            if not keep:
+                return self.drop(i), keep
+            if name == "control":
+                return self.control(i), keep
+            if name in _GRAMMAR:
+                return i + 1, keep
+            group = self.group(i)
+            self.directive(name, group)
+            for j in group:
+                lines[j] = ""
+            return group[-1] + 1, keep
+        if not keep:
+            return self.drop(i), keep
+        upper = c.upper()
+        if upper in "VI" and has_function(s):
+            group = self.group(i)
+            self.source_card(group)
+            return group[-1] + 1, keep
+        if "(" in line or "#" in line or "<" in line or (upper in "EFGHB" and
+                                                          _BEHAVIOURAL.search(s)):
+            self.check_card(self.group(i))
+        return i + 1, keep
 
     def temp_card(self, args: list[_Tok], span: Span) -> None:
         """``.temp T [T2 ...]`` (or ``.temp = T``): the first card's first temperature is
@@ -580,30 +583,6 @@ def _is_value(text: str) -> bool:
     except (UnitError, ValueError):
         return False
     return True
-
-
-def _has_function(s: str) -> bool:
-    low = s.lower()
-    return "(" in low or any(f in low for f in ("sin", "pulse", "pwl", "exp", "sffm", "am",
-                                                "trnoise", "trrandom"))
-
-
-def _strip_comment(line: str) -> str:
-    """``line`` without an inline ``$`` or ``//`` comment (at the start or after white
-    space, outside braces and quotes)."""
-    cut = len(line)
-    for mark in ("$", "//"):
-        k = line.find(mark)
-        while 0 <= k < cut:
-            if (k == 0 or line[k - 1] in " \t") and not _inside(line, k):
-                cut = k
-                break
-            k = line.find(mark, k + 1)
-    return line[:cut].rstrip() if cut < len(line) else line
-
-
-def _inside(line: str, k: int) -> bool:
-    return any(m.start() < k < m.end() for m in _BRACED.finditer(line))
 
 
 def prepare(source: SourceFile, text: str, section: str | None = None,
