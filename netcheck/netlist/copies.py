@@ -40,7 +40,8 @@ def make_copier(template: Template, flat: Flat) -> Copier:
     nports = len(template.port_uses)
     if len(template.suffixes) > MOST_ELEMENTS or nports > MOST_PORTS:
         return lambda full, ports, card: copy_template(template, full, ports, flat, card)
-    ns: dict[str, object] = {"GROUND": GROUND, "shared": flat.globals, "known": flat.names,
+    ns: dict[str, object] = {"GROUND": GROUND, "shared": flat.globals, "dotted": flat.dotted,
+                             "copied": flat.copied, "add_dotted": flat.add_dotted,
                              "uses": flat.uses, "first": flat.first, "out": flat.elements}
     port = [f"p{i}" for i in range(nports)]
     table = port + [f"F{j}" for j in range(len(template.fixed))] + \
@@ -57,13 +58,21 @@ def make_copier(template: Template, flat: Flat) -> Copier:
     same = [f"{a} == {b}" for i, a in enumerate(port) for b in port[i + 1:]]
     if same:
         code += [f"    if {' or '.join(same)}:", "        return False"]
-    # the element names are new; each is taken by its card
+    # the element names are new: no name made so far starts with the instance's name and
+    # a dot, and no copy's name is the instance's name up to a dot (Flat.dotted, copied;
+    # where one is, the card-by-card expansion says whether two names are the same). The
+    # copy is recorded by its name only (Flat.holder finds its elements' cards).
+    code += ["    if full in dotted:", "        return False",
+             '    if "." in full:',
+             "        k = full.find('.')",
+             "        while k > 0:",
+             "            if full[:k] in copied:",
+             "                return False",
+             "            k = full.find('.', k + 1)"]
+    ns["INFO"] = ({suffix: k for k, suffix in enumerate(template.suffixes)}, template.cards)
     for k, suffix in enumerate(template.suffixes):
-        ns[f"S{k}"], ns[f"C{k}"] = suffix, template.cards[k]
+        ns[f"S{k}"] = suffix
         code.append(f"    n{k} = full + S{k}")
-    taken = " or ".join(f"n{k} in known" for k in range(len(template.suffixes)))
-    code += [f"    if {taken}:", "        return False  # the card-by-card expansion says which"]
-    code += [f"    known[n{k}] = C{k}" for k in range(len(template.suffixes))]
     for j, name in enumerate(template.local):
         ns[f"L{j}"] = name
         code.append(f"    l{j} = dot + L{j}")
@@ -85,7 +94,8 @@ def make_copier(template: Template, flat: Flat) -> Copier:
             ns[f"V{k}_{q}"] = value
             values.append(f"V{k}_{q}")
         made.append(f"K{k}({', '.join([f'n{k}', f'({table[a]}, {table[b]})', f'SP{k}'] + values)})")
-    code += [f"    out.extend(({', '.join(made)},))", "    return True"]
+    code += ["    copied[full] = INFO", '    if "." in full:', "        add_dotted(full)",
+             f"    out.extend(({', '.join(made)},))", "    return True"]
     exec("\n".join(code), ns)  # noqa: S102 - our own code, every value bound by name
     return ns["copy"]  # type: ignore[return-value]
 

@@ -259,12 +259,14 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
 
     for card in scope.cards:
         full = (prefix + card.head).upper()
-        if full in flat.names:
-            first = flat.names[full].name.span
+        if full in flat.names or flat.copied and "." in full and flat.holder(full):
+            was = (flat.names.get(full) or flat.holder(full)).name.span  # type: ignore[union-attr]
             raise ElaborationError(f"duplicate element name {printable(full)} (first defined "
-                                   f"at {printable(first.path)}:{first.line})", card.name.span,
+                                   f"at {printable(was.path)}:{was.line})", card.name.span,
                                    code="netlist-106")
         flat.names[full] = card
+        if "." in full:
+            flat.add_dotted(full)
         letter = card.letter
         if letter == "X":
             if not copy_by_words(card, full, env, defs, flat, resolve):

@@ -30,8 +30,15 @@ Where = Span | tuple[Card, int]
 @dataclass
 class Flat:
     elements: list[Element] = field(default_factory=list)
-    #: every element and instance name made so far: the card that made it
+    #: every element and instance name made so far: the card that made it, except the
+    #: elements of instances made by a copier (:attr:`copied`)
     names: dict[str, Card] = field(default_factory=dict)
+    #: instances made by a copier (netcheck.netlist.copies): name → (each element's name
+    #: after the instance's → its index, and its card); their elements are named
+    #: ``<instance><suffix>`` (:meth:`holder`)
+    copied: dict[str, tuple[dict[str, int], tuple[Card, ...]]] = field(default_factory=dict)
+    #: every P such that a name in :attr:`names` or :attr:`copied` starts with ``P.``
+    dotted: set[str] = field(default_factory=set)
     #: every node named so far: how many times, and where first (:data:`Where`); a node
     #: named once is netlist-152's (:meth:`note_node`)
     uses: dict[str, int] = field(default_factory=dict)
@@ -68,6 +75,30 @@ class Flat:
             self.first[name] = where
         else:
             self.uses[name] = count + times
+
+    def holder(self, name: str) -> Card | None:
+        """The card that made element ``name`` of an instance made by a copier, or None:
+        ``name`` is such an instance's name then one of its suffixes."""
+        k = name.find(".")
+        while k > 0:
+            got = self.copied.get(name[:k])
+            if got is not None and name[k:] in got[0]:
+                return got[1][got[0][name[k:]]]
+            k = name.find(".", k + 1)
+        return None
+
+    def take_name(self, name: str, card: Card) -> None:
+        """Record ``name`` as made by ``card``."""
+        self.names[name] = card
+        if "." in name:
+            self.add_dotted(name)
+
+    def add_dotted(self, name: str) -> None:
+        """Record every dotted prefix of ``name`` in :attr:`dotted`."""
+        k = name.find(".")
+        while k > 0:
+            self.dotted.add(name[:k])
+            k = name.find(".", k + 1)
 
     def single_nodes(self) -> dict[str, Span]:
         """The nodes named only once, and where."""
@@ -189,9 +220,11 @@ def copy_template(template: Template, full: str, ports: list[str], flat: Flat,
         return False
     names = [full + sfx for sfx in template.suffixes]
     known = flat.names
-    if not known.keys().isdisjoint(names):
+    if not known.keys().isdisjoint(names) or flat.copied and any(map(flat.holder, names)):
         return False  # the card-by-card expansion says which
     known.update(zip(names, template.cards))
+    for name in names:
+        flat.add_dotted(name)
     table = ports + template.fixed + [dot + x for x in template.local]
     uses, first = flat.uses, flat.first
     extra = 0 if card is None else 1

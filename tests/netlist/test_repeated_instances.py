@@ -166,3 +166,22 @@ class TestErrorsAfterRepeats:
         with pytest.raises(ElaborationError, match=r"duplicate element name X1\.R1") as info:
             read_netlist(text)
         assert info.value.span.line == LINES["R1"]
+
+    def test_a_dotted_instance_name_meeting_a_copy(self):
+        # X1 is a copy of X0 (definition a, whose resistor is called R.C1); the instance
+        # X1.R of definition b names its capacitor C1: both are X1.R.C1
+        text = ("dotted names\n.subckt a p q\nR.C1 p q 1k\nR2 q 0 1k\n.ends a\n"
+                ".subckt b p q\nC1 p q 1n\nR3 q 0 1k\n.ends b\n"
+                "X0 n0 n1 a\nX1 n1 n2 a\nX5 n2 n3 b\nX1.R n3 n4 b\nV1 n0 0 AC 1\n")
+        with pytest.raises(ElaborationError, match=r"duplicate element name X1\.R\.C1 \(first "
+                           r"defined at <text>:3\)") as info:
+            read_netlist(text)
+        assert info.value.span.line == 7   # b's C1 card, met while X1.R is expanded
+
+    def test_dotted_instance_names_apart_from_copies(self):
+        # X1.Y and X1 do not meet: every element is made, each under its own name
+        text = ("dotted names\n.subckt a p q\nR1 p q 1k\nR2 q 0 1k\n.ends a\n"
+                "X0 n0 n1 a\nX1.Y n1 n2 a\nX1 n2 n3 a\nX1.Z n3 n4 a\nV1 n0 0 AC 1\n")
+        names = [e.name for e in read_netlist(text).elements]
+        assert names == ["X0.R1", "X0.R2", "X1.Y.R1", "X1.Y.R2", "X1.R1", "X1.R2",
+                         "X1.Z.R1", "X1.Z.R2", "V1"]
