@@ -9,10 +9,12 @@ from ..exceptions import Diagnostic
 from .elements.base import Element
 from .source import SourceFile, Span
 
-__all__ = ["Circuit", "PartModel", "GROUND"]
+__all__ = ["Circuit", "PartModel", "GROUND", "GROUND_NAMES"]
 
 #: the ground node's name in a Circuit (netlists may also write ``gnd``)
 GROUND = "0"
+#: the node names a netlist writes for ground (lower case)
+GROUND_NAMES = frozenset({GROUND, "gnd"})
 
 
 @dataclass(frozen=True, slots=True)

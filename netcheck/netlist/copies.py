@@ -17,7 +17,7 @@ from __future__ import annotations
 
 from typing import Callable
 
-from .circuit import GROUND
+from .circuit import GROUND_NAMES
 from .flat import Flat, Template, copy_template
 from .params import Env
 from .syntax import Card, SubcktDef
@@ -40,7 +40,7 @@ def make_copier(template: Template, flat: Flat) -> Copier:
     nports = len(template.port_uses)
     if len(template.suffixes) > MOST_ELEMENTS or nports > MOST_PORTS:
         return lambda full, ports, card: copy_template(template, full, ports, flat, card)
-    ns: dict[str, object] = {"GROUND": GROUND, "shared": flat.globals, "dotted": flat.dotted,
+    ns: dict[str, object] = {"GROUND_NAMES": GROUND_NAMES, "shared": flat.globals, "dotted": flat.dotted,
                              "copied": flat.copied, "add_dotted": flat.add_dotted,
                              "uses": flat.uses, "first": flat.first, "out": flat.elements}
     port = [f"p{i}" for i in range(nports)]
@@ -53,7 +53,7 @@ def make_copier(template: Template, flat: Flat) -> Copier:
     code.append('    dot = full.lower() + "."')
     # the ports reach distinct ordinary nodes (plain_ports)
     for p in port:
-        code.append(f"    if {p} == GROUND or {p} in shared or {p}.startswith(dot):")
+        code.append(f"    if {p} in GROUND_NAMES or {p} in shared or {p}.startswith(dot):")
         code.append("        return False")
     same = [f"{a} == {b}" for i, a in enumerate(port) for b in port[i + 1:]]
     if same:
@@ -121,10 +121,12 @@ def remember_words(card: Card, sub: SubcktDef, env: Env, template: Template,
 
 
 def copy_by_words(card: Card, full: str, env: Env, defs: dict[str, SubcktDef], flat: Flat,
-                  resolve: Callable[[str], str]) -> bool:
+                  resolve: Callable[[str], str] | None) -> bool:
     """Make the instance ``card`` from the template of an earlier card of the same
     definition, scope, node count and assignments as written; False (nothing made) when
-    there is none or it cannot be used."""
+    there is none or it cannot be used. ``resolve`` gives the circuit node of a node name
+    in the card's scope; None at the top level, where that is the name in lower case (a
+    copy refuses ground, ``0`` or ``gnd``, and global nodes as ports all the same)."""
     words = card.words
     if words is None or flat.depth or not flat.by_words or flat.log is not None:
         return False
@@ -144,4 +146,6 @@ def copy_by_words(card: Card, full: str, env: Env, defs: dict[str, SubcktDef], f
     copier = flat.by_words.get((id(sub), env, j - 1, words[k:]))
     if copier is None:
         return False
+    if resolve is None:
+        return copier(full, [w.lower() for w in heads[:-1]], card)
     return copier(full, [resolve(w) for w in heads[:-1]], card)

@@ -13,7 +13,7 @@ from operator import attrgetter
 from typing import Callable, Collection
 
 from ..exceptions import CODES, Diagnostic, ElaborationError
-from .circuit import GROUND, Circuit, PartModel
+from .circuit import GROUND, GROUND_NAMES, Circuit, PartModel
 from .device_models import check_temperature
 from .elements import ELEMENTS, Element, Inductor, VoltageSource
 from .elements.base import of_classes
@@ -36,7 +36,7 @@ __all__ = ["Circuit", "PartModel", "elaborate", "CardReader", "GROUND",
            "ELEMENTS_MAX", "DIAGNOSTICS_PER_CODE", "summarise_diagnostics", "VALUE_MAX",
            "VALUE_MIN", "subckt_names"]
 
-_GROUND_ALIASES = frozenset({"0", "gnd"})
+_GROUND_ALIASES = GROUND_NAMES
 #: the most warnings of one code a circuit keeps; the rest are counted in one more
 DIAGNOSTICS_PER_CODE = 10
 #: largest magnitude of a value that is stamped into the circuit matrix (R, L, C, the gain
@@ -269,7 +269,7 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
             flat.add_dotted(full)
         letter = card.letter
         if letter == "X":
-            if not copy_by_words(card, full, env, defs, flat, resolve):
+            if not copy_by_words(card, full, env, defs, flat, resolve if prefix else None):
                 _expand_instance(card, full, prefix, env, defs, stack, flat, allow_negative,
                                  node_of, models)
             continue

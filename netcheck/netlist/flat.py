@@ -11,7 +11,7 @@ import dataclasses
 from dataclasses import dataclass, field
 from typing import Callable
 
-from .circuit import GROUND, PartModel
+from .circuit import GROUND, GROUND_NAMES, PartModel
 from ..exceptions import Diagnostic
 from .elements import Capacitor, Element, Inductor, Resistor
 from .models import ModelCard
@@ -207,14 +207,15 @@ def copy_template(template: Template, full: str, ports: list[str], flat: Flat,
                   card: Card | None = None) -> bool:
     """Add an instance made from ``template``; False (nothing added) if it cannot be.
     With ``card`` (an instance card read from its words), its port fields count as uses
-    of the port nodes too, before the template's.
+    of the port nodes too, before the template's. A port written ``gnd`` (at the top
+    level the ports are the names as written, in lower case) is ground, as ``0`` is.
 
     The loops of :func:`plain_ports` and :meth:`Flat.note_node` are written out here: a
     big generated netlist makes tens of thousands of instances this way (bench_read)."""
     dot = full.lower() + "."
     shared = flat.globals
     for p in ports:
-        if p == GROUND or p in shared or p.startswith(dot):
+        if p in GROUND_NAMES or p in shared or p.startswith(dot):
             return False
     if len(set(ports)) != len(ports):
         return False

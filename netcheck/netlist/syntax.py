@@ -130,7 +130,7 @@ class LineCard(Card):
         self._line = (source, lineno, line, column)
         self.head = words[0]
         self.letter = words[0][0].upper()
-        self.words = tuple(words[1:])
+        self.words = tuple(words)[1:]
 
 
 #: what may follow a card's name on a plain line: white-space-separated words, ``{braced}``

@@ -130,6 +130,16 @@ class TestRepeatedInstances:
                        ("X4.R1", ("n1", "x4.m")), ("X4.R2", ("x4.m", "x4.m"))]
 
 
+    def test_ground_written_gnd_on_repeated_cards(self):
+        # the same words on each card, ground written gnd in any case: node 0 every time
+        text = ("gnd\n.subckt pair a b\nR1 a m 1k\nR2 m b 2k\n.ends pair\n"
+                "X1 n1 gnd pair\nX2 n2 GND pair\nX3 n3 Gnd pair\nR9 n1 n2 1k\nR8 n2 n3 1k\n"
+                "V1 n1 0 AC 1\n")
+        got = [(e.name, e.nodes) for e in read_netlist(text).elements if e.name[0] == "X"]
+        assert got == [(f"X{k}.{r}", nodes) for k in (1, 2, 3) for r, nodes in
+                       (("R1", (f"n{k}", f"x{k}.m")), ("R2", (f"x{k}.m", "0")))]
+
+
 class TestErrorsAfterRepeats:
     def test_parameter_error_at_the_later_instance(self):
         text = _chain(["rs=2k", "rs=2k", "rs={nope}"])
