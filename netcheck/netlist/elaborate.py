@@ -107,14 +107,15 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     with _paused_gc():  # flattening makes many small objects, as parsing does
         _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative, {})
     _one_note_for_initial_conditions(flat.diags)
-    flat.diags.extend(tie_isolated_ports(flat.elements))
+    classes = set(map(type, flat.elements))  # for the checks below, each by class first
+    flat.diags.extend(tie_isolated_ports(flat.elements, classes))
     elements = tuple(flat.elements)
-    _check_probes(elements)
-    _check_references(elements)
+    _check_probes(elements, classes)
+    _check_references(elements, classes)
     named = dict.fromkeys(chain.from_iterable(map(attrgetter("nodes"), elements)))
     named.pop(GROUND, None)
     nodes = tuple(named)
-    check_topology(elements, nodes)
+    check_topology(elements, nodes, classes)
     flat.diags.extend(lint_nodes(flat.single_nodes()))
     where = netlist.top.params[0].span if netlist.top.params else None
     params = tuple(sorted((k, top_env._get(k, where)) for k in top_env.exprs))
@@ -482,10 +483,10 @@ def _lint_value(element: Element, card: Card, flat: Flat) -> None:
             f"{printable(text[:i])}meg if mega was meant", fld.span))
 
 
-def _check_probes(elements: tuple[Element, ...]) -> None:
+def _check_probes(elements: tuple[Element, ...], classes: set[type] | None = None) -> None:
     """Each v() of a behavioural expression names a node some element connects to (netlist-115),
     each i() a voltage source (netlist-107), at the place the expression writes it."""
-    probing = [e for e in of_classes(elements, lambda cls: hasattr(cls, "probe_spans"))
+    probing = [e for e in of_classes(elements, lambda cls: hasattr(cls, "probe_spans"), classes)
                if e.probe_spans]  # type: ignore[attr-defined]
     if not probing:
         return
@@ -512,8 +513,9 @@ def _check_probes(elements: tuple[Element, ...]) -> None:
                         "element connects to", span, code="netlist-115")
 
 
-def _check_references(elements: tuple[Element, ...]) -> None:
-    refers = of_classes(elements, lambda cls: cls.controls is not Element.controls)
+def _check_references(elements: tuple[Element, ...], classes: set[type] | None = None
+                      ) -> None:
+    refers = of_classes(elements, lambda cls: cls.controls is not Element.controls, classes)
     if not refers:
         return
     by_name = {e.name: e for e in elements}

@@ -52,18 +52,19 @@ class _Sets:
         return True
 
 
-def _link_codes(elements: list[Element], index: dict[str, int]) -> np.ndarray:
+def _link_codes(elements: list[Element], index: dict[str, int], classes: set[type]
+                ) -> np.ndarray:
     """The node numbers (``index``) at the two ends of every link of ``elements``, one
     row per link.
 
     A big netlist has a hundred thousand elements and most of them are of a class that
     links just its two nodes, so those are numbered in one C-level pass over their node
     tuples; elements with links of their own (devices, lines, controlled sources) add
-    theirs one by one.
+    theirs one by one. ``classes`` is the set of the elements' classes.
     """
-    simple_classes = {cls for cls in set(map(type, elements)) if cls.n_nodes == 2
+    simple_classes = {cls for cls in classes if cls.n_nodes == 2
                       and cls.links is Element.links and cls.terminals is Element.terminals}
-    simple = elements if len(simple_classes) == len(set(map(type, elements))) else \
+    simple = elements if len(simple_classes) == len(classes) else \
         [e for e in elements if type(e) in simple_classes]
     ends = np.fromiter(map(index.__getitem__, chain.from_iterable(map(_NODES, simple))),
                        dtype=np.intp)
@@ -76,17 +77,18 @@ def _link_codes(elements: list[Element], index: dict[str, int]) -> np.ndarray:
     return ends.reshape(-1, 2)
 
 
-def _flagged(elements: list[Element], flag: str) -> list[Element]:
+def _flagged(elements: list[Element], flag: str, classes: set[type]) -> list[Element]:
     """The elements whose ``flag`` (``voltage_defined``, ``current_defined``) is true:
-    asked once per class where the class fixes it, else of each element."""
-    classes = set(map(type, elements))
+    asked once per class where the class fixes it, else of each element (``classes``
+    is the set of the elements' classes)."""
     fixed = {cls: value for cls in classes if isinstance(value := getattr(cls, flag), bool)}
     if len(fixed) == len(classes) and not any(fixed.values()):
         return []
     return [e for e in elements if fixed.get(type(e), True) and getattr(e, flag)]
 
 
-def _ungrounded(elements: list[Element], nodes: tuple[str, ...]) -> list[list[str]]:
+def _ungrounded(elements: list[Element], nodes: tuple[str, ...],
+                classes: set[type] | None = None) -> list[list[str]]:
     """The groups of ``nodes`` the links of ``elements`` do not join to ground, each in
     node order, in the order of their first node.
 
@@ -96,7 +98,8 @@ def _ungrounded(elements: list[Element], nodes: tuple[str, ...]) -> list[list[st
     """
     index = {GROUND: 0}
     index.update(zip(nodes, range(1, len(nodes) + 1)))
-    links = _link_codes(elements, index)
+    links = _link_codes(elements, index,
+                        set(map(type, elements)) if classes is None else classes)
     size = len(index)
     graph = csr_matrix((np.ones(len(links), dtype=np.int8), (links[:, 0], links[:, 1])),
                        shape=(size, size))
@@ -116,7 +119,8 @@ def _names(nodes: list[str]) -> str:
     return shown + (f" and {len(nodes) - 6} more" if len(nodes) > 6 else "")
 
 
-def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> None:
+def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...],
+                   classes: set[type] | None = None) -> None:
     """Refuse topologies that make the MNA matrix singular at every frequency.
 
     Three structural causes are named: a group of nodes with no path to ground
@@ -129,8 +133,11 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
     ElaborationError
         netlist-111, netlist-112 or netlist-113, at the first element touching the offending nodes.
     """
-    two_terminal = of_classes(elements, lambda cls: cls.letter != "K")
-    for group in _ungrounded(two_terminal, nodes)[:1]:
+    if classes is None:
+        classes = set(map(type, elements))
+    two_terminal = of_classes(elements, lambda cls: cls.letter != "K", classes)
+    classes = {cls for cls in classes if cls.letter != "K"}
+    for group in _ungrounded(two_terminal, nodes, classes)[:1]:
         culprit = next(e for e in two_terminal if group[0] in e.nodes)
         sense_only = all(n not in x for n in group for x in culprit.links)
         why = (f" (it connects only to the controlling input of "
@@ -142,7 +149,7 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
             "or tie it to ground through a resistor", culprit.span, code="netlist-111")
 
     loops = _Sets()
-    for e in _flagged(two_terminal, "voltage_defined"):
+    for e in _flagged(two_terminal, "voltage_defined", classes):
         a, b = e.terminals
         if not loops.union(a, b):
             raise ElaborationError(
@@ -151,7 +158,7 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...]) -> Non
                 "current is undetermined", e.span,
                 code="netlist-112")
 
-    current = _flagged(two_terminal, "current_defined")
+    current = _flagged(two_terminal, "current_defined", classes)
     if not current:
         return  # the groups below are those above: all reach ground
     sensing = [e for e in current if e.sensed]
@@ -193,7 +200,8 @@ def lint_nodes(single: dict[str, Span]) -> list[Diagnostic]:
             for node, span in single.items() if node != GROUND]
 
 
-def tie_isolated_ports(elements: list[Element]) -> list[Diagnostic]:
+def tie_isolated_ports(elements: list[Element], classes: set[type] | None = None
+                       ) -> list[Diagnostic]:
     """Give the far port of a transmission line a reference when nothing else does.
 
     A line couples its ports only through the voltage across each, so a group of
@@ -204,7 +212,7 @@ def tie_isolated_ports(elements: list[Element]) -> list[Diagnostic]:
     to the other port's reference (its reference node, or its shorted node, becomes that
     node), in place in ``elements``, with one netlist-161 note per line tied.
     """
-    if not of_classes(elements, lambda cls: bool(cls.extra_branches)):
+    if not of_classes(elements, lambda cls: bool(cls.extra_branches), classes):
         return []
     lines = [k for k, e in enumerate(elements) if e.extra_branches]
     notes: list[Diagnostic] = []

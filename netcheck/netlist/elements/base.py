@@ -97,14 +97,16 @@ class Element:
         raise NotImplementedError
 
 
-def of_classes(elements: "list[Element] | tuple[Element, ...]", test: "Callable[[type], bool]"
-               ) -> list[Element]:
-    """The elements whose class passes ``test``, each class tested once.
+def of_classes(elements: "list[Element] | tuple[Element, ...]", test: "Callable[[type], bool]",
+               classes: "set[type] | None" = None) -> list[Element]:
+    """The elements whose class passes ``test``, each class tested once (``classes``, if
+    given, is the set of the elements' classes).
 
     A big netlist has a hundred thousand elements of a handful of classes; most checks
     concern a class or two that it often has none of, and then cost one pass in C.
     """
-    classes = set(map(type, elements))
+    if classes is None:
+        classes = set(map(type, elements))
     chosen = {cls for cls in classes if test(cls)}
     if len(chosen) == len(classes):
         return list(elements)
