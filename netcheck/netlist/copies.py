@@ -29,6 +29,10 @@ __all__ = ["make_copier", "remember_words", "copy_by_words", "words_key"]
 MOST_ELEMENTS = 64
 MOST_PORTS = 12
 
+#: the code of each template shape met so far, by its text (at most this many kept)
+_COMPILED: dict[str, object] = {}
+_COMPILED_MOST = 256
+
 #: ``copier(full, ports, card)``: add the instance ``full`` (upper case) whose ports reach
 #: the nodes ``ports``, written by ``card``; False (nothing added) where it cannot be
 Copier = Callable[[str, list[str], Card], bool]
@@ -36,13 +40,20 @@ Copier = Callable[[str, list[str], Card], bool]
 
 def make_copier(template: Template, flat: Flat) -> Copier:
     """The function that adds a copy of ``template`` to ``flat`` for an instance card, as
-    :func:`~.flat.copy_template` with that card does."""
+    :func:`~.flat.copy_template` with that card does.
+
+    The code depends only on the template's shape (how many ports, nodes and elements,
+    which nodes each element joins); every name, value and count is bound by name, so a
+    netlist with many templates of one shape (a section repeated inside each of many
+    banks) compiles it once (:data:`_COMPILED`)."""
     nports = len(template.port_uses)
     if len(template.suffixes) > MOST_ELEMENTS or nports > MOST_PORTS:
         return lambda full, ports, card: copy_template(template, full, ports, flat, card)
-    ns: dict[str, object] = {"GROUND_NAMES": GROUND_NAMES, "shared": flat.globals, "dotted": flat.dotted,
-                             "copied": flat.copied, "add_dotted": flat.add_dotted,
-                             "uses": flat.uses, "first": flat.first, "out": flat.elements}
+    ns: dict[str, object] = {
+        "GROUND_NAMES": GROUND_NAMES, "shared": flat.globals, "dotted": flat.dotted,
+        "copied": flat.copied, "add_dotted": flat.add_dotted, "uses": flat.uses,
+        "first": flat.first, "out": flat.elements,
+        "INFO": ({suffix: k for k, suffix in enumerate(template.suffixes)}, template.cards)}
     port = [f"p{i}" for i in range(nports)]
     table = port + [f"F{j}" for j in range(len(template.fixed))] + \
         [f"l{j}" for j in range(len(template.local))]
@@ -69,7 +80,6 @@ def make_copier(template: Template, flat: Flat) -> Copier:
              "            if full[:k] in copied:",
              "                return False",
              "            k = full.find('.', k + 1)"]
-    ns["INFO"] = ({suffix: k for k, suffix in enumerate(template.suffixes)}, template.cards)
     for k, suffix in enumerate(template.suffixes):
         ns[f"S{k}"] = suffix
         code.append(f"    n{k} = full + S{k}")
@@ -77,11 +87,13 @@ def make_copier(template: Template, flat: Flat) -> Copier:
         ns[f"L{j}"] = name
         code.append(f"    l{j} = dot + L{j}")
     # node uses: the card's port fields first, then the template's
-    counts = [(port[i], times + 1, f"(card, {i})") for i, (times, _) in
-              enumerate(template.port_uses)]
+    counts = []
+    for i, (times, _) in enumerate(template.port_uses):
+        ns[f"T{i}"] = times + 1
+        counts.append((port[i], f"T{i}", f"(card, {i})"))
     for m, (i, times, where) in enumerate(template.other_uses):
-        ns[f"W{m}"] = where
-        counts.append((table[i], times, f"W{m}"))
+        ns[f"U{m}"], ns[f"W{m}"] = times, where
+        counts.append((table[i], f"U{m}", f"W{m}"))
     for node, times, where in counts:
         code += [f"    c = uses.get({node})", "    if c is None:",
                  f"        uses[{node}] = {times}", f"        first[{node}] = {where}",
@@ -96,7 +108,13 @@ def make_copier(template: Template, flat: Flat) -> Copier:
         made.append(f"K{k}({', '.join([f'n{k}', f'({table[a]}, {table[b]})', f'SP{k}'] + values)})")
     code += ["    copied[full] = INFO", '    if "." in full:', "        add_dotted(full)",
              f"    out.extend(({', '.join(made)},))", "    return True"]
-    exec("\n".join(code), ns)  # noqa: S102 - our own code, every value bound by name
+    source = "\n".join(code)
+    compiled = _COMPILED.get(source)
+    if compiled is None:
+        if len(_COMPILED) >= _COMPILED_MOST:
+            _COMPILED.clear()
+        compiled = _COMPILED[source] = compile(source, "<netcheck copier>", "exec")
+    exec(compiled, ns)  # noqa: S102 - our own code, every value bound by name
     return ns["copy"]  # type: ignore[return-value]
 
 

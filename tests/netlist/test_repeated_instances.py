@@ -195,3 +195,18 @@ class TestErrorsAfterRepeats:
         names = [e.name for e in read_netlist(text).elements]
         assert names == ["X0.R1", "X0.R2", "X1.Y.R1", "X1.Y.R2", "X1.R1", "X1.R2",
                          "X1.Z.R1", "X1.Z.R2", "V1"]
+
+
+class TestCopierCode:
+    def test_one_code_for_every_template_of_one_shape(self, monkeypatch, copier):
+        # a section repeated in each of three banks, with two parameter sets: six templates
+        # (one per bank and set) of one shape, so one compiled copier; every value its own
+        monkeypatch.setattr(copies, "_COMPILED", {})
+        text = ("banks\n.subckt sect a b params: rs=1k\nR1 a m {rs}\nC1 m 0 1n\n.ends sect\n"
+                ".subckt bank in out\nX1 in m1 sect rs=2k\nX2 m1 m2 sect rs=3k\n"
+                "X3 m2 m3 sect rs=2k\nX4 m3 out sect rs=3k\n.ends bank\n"
+                "XB1 t0 t1 bank\nXB2 t1 t2 bank\nXB3 t2 t3 bank\nR9 t3 0 1k\nV1 t0 0 AC 1\n")
+        got = {e.name: e.value for e in read_netlist(text).elements if e.letter == "R"}
+        assert got == {f"XB{b}.X{k}.R1": (2e3 if k % 2 else 3e3) for b in (1, 2, 3)
+                       for k in (1, 2, 3, 4)} | {"R9": 1e3}
+        assert len(copies._COMPILED) == (1 if copier == "written out" else 0)
