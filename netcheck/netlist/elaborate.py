@@ -8,8 +8,6 @@ use is :mod:`netcheck.netlist.reader`, the Circuit and PartModel types are
 from __future__ import annotations
 
 import dataclasses
-from itertools import chain
-from operator import attrgetter
 from typing import Callable, Collection
 
 from ..exceptions import CODES, Diagnostic, ElaborationError
@@ -30,7 +28,7 @@ from .flat import (COPYABLE, Flat, copy_template, make_template, plain_ports, pl
                    instance_shape, Where)
 from .reader import CardReader, card_label
 from .source import printable, quoted
-from .topology import check_topology, lint_nodes, tie_isolated_ports
+from .topology import check_topology, lint_nodes, number_nodes, tie_isolated_ports
 
 __all__ = ["Circuit", "PartModel", "elaborate", "CardReader", "GROUND",
            "ELEMENTS_MAX", "DIAGNOSTICS_PER_CODE", "summarise_diagnostics", "VALUE_MAX",
@@ -112,10 +110,9 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
     elements = tuple(flat.elements)
     _check_probes(elements, classes)
     _check_references(elements, classes)
-    named = dict.fromkeys(chain.from_iterable(map(attrgetter("nodes"), elements)))
-    named.pop(GROUND, None)
-    nodes = tuple(named)
-    check_topology(elements, nodes, classes)
+    numbered = number_nodes(elements)
+    nodes = tuple(numbered[0])[1:]  # after ground, in the order they first appear
+    check_topology(elements, nodes, classes, numbered)
     flat.diags.extend(lint_nodes(flat.single_nodes()))
     where = netlist.top.params[0].span if netlist.top.params else None
     params = tuple(sorted((k, top_env._get(k, where)) for k in top_env.exprs))

@@ -15,7 +15,7 @@ from .elements.base import of_classes
 from ..exceptions import Diagnostic, ElaborationError
 from .source import Span, printable, quoted
 
-__all__ = ["check_topology", "lint_nodes", "tie_isolated_ports"]
+__all__ = ["check_topology", "lint_nodes", "tie_isolated_ports", "number_nodes"]
 
 GROUND = "0"
 
@@ -52,20 +52,32 @@ class _Sets:
         return True
 
 
-def _link_codes(elements: list[Element], index: dict[str, int], classes: set[type]
-                ) -> np.ndarray:
+def number_nodes(elements: tuple[Element, ...]) -> tuple[dict[str, int], list[int]]:
+    """Every node of ``elements`` numbered in the order it first appears, ground 0: the
+    numbers by node, and the number of every node of every element in turn (one pass;
+    the circuit's node list is the keys after ground)."""
+    index = {GROUND: 0}
+    number = index.setdefault
+    return index, [number(n, len(index)) for n in chain.from_iterable(map(_NODES, elements))]
+
+
+def _link_codes(elements: list[Element], index: dict[str, int], classes: set[type],
+                codes: list[int] | None = None) -> np.ndarray:
     """The node numbers (``index``) at the two ends of every link of ``elements``, one
     row per link.
 
     A big netlist has a hundred thousand elements and most of them are of a class that
     links just its two nodes, so those are numbered in one C-level pass over their node
     tuples; elements with links of their own (devices, lines, controlled sources) add
-    theirs one by one. ``classes`` is the set of the elements' classes.
+    theirs one by one. ``classes`` is the set of the elements' classes; ``codes``, if
+    given, is :func:`number_nodes`'s numbers of every node of ``elements`` in turn.
     """
     simple_classes = {cls for cls in classes if cls.n_nodes == 2
                       and cls.links is Element.links and cls.terminals is Element.terminals}
     simple = elements if len(simple_classes) == len(classes) else \
         [e for e in elements if type(e) in simple_classes]
+    if codes is not None and simple is elements and len(codes) == 2 * len(elements):
+        return np.asarray(codes, dtype=np.intp).reshape(-1, 2)
     ends = np.fromiter(map(index.__getitem__, chain.from_iterable(map(_NODES, simple))),
                        dtype=np.intp)
     if len(ends) != 2 * len(simple):  # a card of such a class with other than two nodes
@@ -88,18 +100,23 @@ def _flagged(elements: list[Element], flag: str, classes: set[type]) -> list[Ele
 
 
 def _ungrounded(elements: list[Element], nodes: tuple[str, ...],
-                classes: set[type] | None = None) -> list[list[str]]:
+                classes: set[type] | None = None,
+                numbered: tuple[dict[str, int], list[int]] | None = None) -> list[list[str]]:
     """The groups of ``nodes`` the links of ``elements`` do not join to ground, each in
     node order, in the order of their first node.
 
     The connected components come from :func:`scipy.sparse.csgraph.connected_components`
     over the links numbered as node indices (ground is 0), not from a Python union-find:
-    a generated netlist has a hundred thousand links.
+    a generated netlist has a hundred thousand links. ``numbered`` is
+    :func:`number_nodes` of ``elements`` when the caller has it.
     """
-    index = {GROUND: 0}
-    index.update(zip(nodes, range(1, len(nodes) + 1)))
+    if numbered is not None:
+        index, codes = numbered
+    else:
+        index, codes = {GROUND: 0}, None
+        index.update(zip(nodes, range(1, len(nodes) + 1)))
     links = _link_codes(elements, index,
-                        set(map(type, elements)) if classes is None else classes)
+                        set(map(type, elements)) if classes is None else classes, codes)
     size = len(index)
     graph = csr_matrix((np.ones(len(links), dtype=np.int8), (links[:, 0], links[:, 1])),
                        shape=(size, size))
@@ -120,13 +137,17 @@ def _names(nodes: list[str]) -> str:
 
 
 def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...],
-                   classes: set[type] | None = None) -> None:
+                   classes: set[type] | None = None,
+                   numbered: tuple[dict[str, int], list[int]] | None = None) -> None:
     """Refuse topologies that make the MNA matrix singular at every frequency.
 
     Three structural causes are named: a group of nodes with no path to ground
     (floating), a loop made only of voltage-defined elements (V, E, H), and a
     group of nodes joined to the rest only by current sources (I, G, F), unless one of
     them senses a voltage across that cut (:func:`_sensed_across`).
+
+    ``classes`` (the set of the elements' classes) and ``numbered`` (:func:`number_nodes`
+    of ``elements``) may be given when the caller has them.
 
     Raises
     ------
@@ -137,7 +158,8 @@ def check_topology(elements: tuple[Element, ...], nodes: tuple[str, ...],
         classes = set(map(type, elements))
     two_terminal = of_classes(elements, lambda cls: cls.letter != "K", classes)
     classes = {cls for cls in classes if cls.letter != "K"}
-    for group in _ungrounded(two_terminal, nodes, classes)[:1]:
+    whole = numbered if len(two_terminal) == len(elements) else None
+    for group in _ungrounded(two_terminal, nodes, classes, whole)[:1]:
         culprit = next(e for e in two_terminal if group[0] in e.nodes)
         sense_only = all(n not in x for n in group for x in culprit.links)
         why = (f" (it connects only to the controlling input of "

@@ -118,3 +118,53 @@ class TestSensedCutSet:
         err = refused("t\nV1 in 0 AC 1\nR0 in 0 1k\nG1 0 a in 0 1m\nR1 a b 1k\n"
                       "G2 b 0 a b 1m\n")
         assert err.code == "netlist-113"
+
+
+class TestNodeNumbers:
+    # the node table and the groups that do not reach ground, against a plain union-find
+    # over the same links written here
+    TEXTS = [
+        "t\nR1 a 0 1\nR2 b c 1\nC3 c d 1n\nL4 e f 1u\nR5 f 0 1\n",
+        "t\nV1 a 0 AC 1\nE1 o 0 sense 0 2\nR1 o 0 1\nR2 a 0 1\nR3 x y 1\nR4 y sense 1\n",
+        "t\nR1 a b 1\nK1 L1 L2 0.5\nL1 a 0 1u\nL2 p q 1u\nR2 q r 1\n",
+    ]
+
+    @staticmethod
+    def _reference_groups(elements, nodes):
+        parent = {n: n for n in ("0",) + nodes}
+
+        def find(n):
+            while parent[n] != n:
+                n = parent[n]
+            return n
+        for e in elements:
+            for a, b in e.links if e.letter != "K" else ():
+                parent[find(a)] = find(b)
+        out: dict[str, list[str]] = {}
+        for n in nodes:
+            if find(n) != find("0"):
+                out.setdefault(find(n), []).append(n)
+        return list(out.values())
+
+    @pytest.mark.parametrize("text", TEXTS)
+    def test_numbers_and_groups(self, text):
+        from netcheck.netlist.parse import load_netlist
+        from netcheck.netlist import elaborate as elab, topology
+        got: dict = {}
+        monkey = pytest.MonkeyPatch()
+        monkey.setattr(elab, "check_topology",
+                       lambda els, nodes, classes=None, numbered=None: got.update(
+                           els=els, nodes=nodes, numbered=numbered))
+        try:
+            elab.elaborate(load_netlist(text))
+        finally:
+            monkey.undo()
+        els, nodes = got["els"], got["nodes"]
+        names = [n for e in els for n in e.nodes]
+        assert nodes == tuple(n for n in dict.fromkeys(names) if n != "0")
+        index, codes = got["numbered"]
+        assert [list(index)[c] for c in codes] == names and index["0"] == 0
+        two = [e for e in els if e.letter != "K"]
+        want = self._reference_groups(two, nodes)
+        assert topology._ungrounded(two, nodes, None, got["numbered"]) == want
+        assert topology._ungrounded(two, nodes) == want
