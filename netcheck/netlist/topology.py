@@ -7,8 +7,6 @@ from itertools import chain
 from operator import attrgetter
 
 import numpy as np
-from scipy.sparse import csr_matrix
-from scipy.sparse.csgraph import connected_components
 
 from .elements import Element
 from .elements.base import of_classes
@@ -18,6 +16,9 @@ from .source import Span, printable, quoted
 __all__ = ["check_topology", "lint_nodes", "tie_isolated_ports", "number_nodes"]
 
 GROUND = "0"
+#: the number of links from which the topology's components are found by
+#: scipy.sparse.csgraph rather than a union-find in Python (:func:`_labels`)
+SPARSE_FROM = 300
 
 _NODES = attrgetter("nodes")
 
@@ -62,9 +63,9 @@ def number_nodes(elements: tuple[Element, ...]) -> tuple[dict[str, int], list[in
 
 
 def _link_codes(elements: list[Element], index: dict[str, int], classes: set[type],
-                codes: list[int] | None = None) -> np.ndarray:
+                codes: list[int] | None = None) -> list[int]:
     """The node numbers (``index``) at the two ends of every link of ``elements``, one
-    row per link.
+    link after another.
 
     A big netlist has a hundred thousand elements and most of them are of a class that
     links just its two nodes, so those are numbered in one C-level pass over their node
@@ -77,16 +78,46 @@ def _link_codes(elements: list[Element], index: dict[str, int], classes: set[typ
     simple = elements if len(simple_classes) == len(classes) else \
         [e for e in elements if type(e) in simple_classes]
     if codes is not None and simple is elements and len(codes) == 2 * len(elements):
-        return np.asarray(codes, dtype=np.intp).reshape(-1, 2)
-    ends = np.fromiter(map(index.__getitem__, chain.from_iterable(map(_NODES, simple))),
-                       dtype=np.intp)
+        return codes
+    ends = list(map(index.__getitem__, chain.from_iterable(map(_NODES, simple))))
     if len(ends) != 2 * len(simple):  # a card of such a class with other than two nodes
-        ends = np.fromiter((index[n] for e in simple for n in e.nodes[:2]), dtype=np.intp)
+        ends = [index[n] for e in simple for n in e.nodes[:2]]
     if len(simple) != len(elements):
-        more = [index[n] for e in elements if type(e) not in simple_classes
-                for pair in e.links for n in pair]
-        ends = np.concatenate([ends, np.asarray(more, dtype=np.intp)])
-    return ends.reshape(-1, 2)
+        ends += [index[n] for e in elements if type(e) not in simple_classes
+                 for pair in e.links for n in pair]
+    return ends
+
+
+def _labels(size: int, ends: list[int]) -> list[int]:
+    """A label per node number (``size`` of them) that is the same for two nodes exactly
+    when the links ``ends`` join them.
+
+    A graph of a few hundred links (most circuits) is joined by a union-find here;
+    a bigger one by :func:`scipy.sparse.csgraph.connected_components`, which builds a
+    sparse matrix first (a tenth of a millisecond: more than a small circuit's whole
+    elaboration) but then takes a generated netlist's hundred thousand links in C.
+    """
+    if len(ends) < 2 * SPARSE_FROM:
+        parent = list(range(size))
+        for k in range(0, len(ends), 2):
+            a, b = ends[k], ends[k + 1]
+            while parent[a] != a:
+                parent[a] = a = parent[parent[a]]
+            while parent[b] != b:
+                parent[b] = b = parent[parent[b]]
+            parent[a] = b
+        out = []
+        for a in range(size):
+            while parent[a] != a:
+                a = parent[a]
+            out.append(a)
+        return out
+    from scipy.sparse import csr_matrix
+    from scipy.sparse.csgraph import connected_components
+    links = np.asarray(ends, dtype=np.intp)
+    graph = csr_matrix((np.ones(len(links) // 2, dtype=np.int8), (links[0::2], links[1::2])),
+                       shape=(size, size))
+    return connected_components(graph, directed=False)[1].tolist()
 
 
 def _flagged(elements: list[Element], flag: str, classes: set[type]) -> list[Element]:
@@ -105,27 +136,22 @@ def _ungrounded(elements: list[Element], nodes: tuple[str, ...],
     """The groups of ``nodes`` the links of ``elements`` do not join to ground, each in
     node order, in the order of their first node.
 
-    The connected components come from :func:`scipy.sparse.csgraph.connected_components`
-    over the links numbered as node indices (ground is 0), not from a Python union-find:
-    a generated netlist has a hundred thousand links. ``numbered`` is
-    :func:`number_nodes` of ``elements`` when the caller has it.
+    The connected components come from the links numbered as node indices (ground is
+    0), by :func:`_labels`. ``numbered`` is :func:`number_nodes` of ``elements`` when the
+    caller has it.
     """
     if numbered is not None:
         index, codes = numbered
     else:
         index, codes = {GROUND: 0}, None
         index.update(zip(nodes, range(1, len(nodes) + 1)))
-    links = _link_codes(elements, index,
-                        set(map(type, elements)) if classes is None else classes, codes)
-    size = len(index)
-    graph = csr_matrix((np.ones(len(links), dtype=np.int8), (links[:, 0], links[:, 1])),
-                       shape=(size, size))
-    count, labels = connected_components(graph, directed=False)
-    if count == 1:
-        return []
+    labels = _labels(len(index), _link_codes(
+        elements, index, set(map(type, elements)) if classes is None else classes, codes))
     ground = labels[0]
+    if labels.count(ground) == len(labels):
+        return []
     out: dict[int, list[str]] = {}
-    for node, label in zip(nodes, labels[1:].tolist()):
+    for node, label in zip(nodes, labels[1:]):
         if label != ground:
             out.setdefault(label, []).append(node)
     return list(out.values())

@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 
 from netcheck import ElaborationError, read_netlist
+from netcheck.netlist import topology
 
 # The three structural causes of a singular MNA matrix for every frequency (Ho, Ruehli
 # & Brennan, IEEE Trans. Circuits Syst. 22(6), 1975; also Chua & Lin, "Computer-Aided
@@ -13,6 +14,14 @@ from netcheck import ElaborationError, read_netlist
 #  - a node set with no path to ground: its common-mode voltage is undetermined;
 #  - a loop of voltage-defined branches: KVL on the loop fixes no loop current;
 #  - a cut-set of current-defined branches: KCL fixes no node-set voltage.
+
+
+@pytest.fixture(autouse=True, params=[300, 0], ids=["union-find", "csgraph"])
+def components_by(request, monkeypatch):
+    """Every check twice: the components by the union-find small circuits take, and by
+    scipy.sparse.csgraph as a big netlist's are (netlist/topology.py, SPARSE_FROM)."""
+    monkeypatch.setattr(topology, "SPARSE_FROM", request.param)
+    return request.param
 
 
 def refused(text: str) -> ElaborationError:
@@ -149,7 +158,7 @@ class TestNodeNumbers:
     @pytest.mark.parametrize("text", TEXTS)
     def test_numbers_and_groups(self, text):
         from netcheck.netlist.parse import load_netlist
-        from netcheck.netlist import elaborate as elab, topology
+        from netcheck.netlist import elaborate as elab
         got: dict = {}
         monkey = pytest.MonkeyPatch()
         monkey.setattr(elab, "check_topology",
