@@ -15,6 +15,14 @@ Which parts carry which quantity
 A glob that matches nothing, or a matched part of the wrong kind for the
 quantity, gives an ERROR result (never a silent pass).
 
+DC bias
+-------
+In a circuit with devices, solved around its DC operating point, each peak includes
+the part's DC bias: |V DC| or |I DC| added to the AC peak, the DC power V²/R added to
+a resistor's average AC power (:mod:`netcheck.analyses.stress_bias`;
+``StressResult.dc`` says how much). A linear circuit has no operating point and its
+parts are judged on the AC stress alone.
+
 Globs use :func:`fnmatch.fnmatchcase` on the upper-cased full hierarchical
 name: ``*`` also crosses the dots, so ``C*`` matches top-level capacitors,
 ``X1.*`` everything inside instance X1, and ``*C3`` also matches ``X1.C3``.
@@ -48,7 +56,7 @@ from __future__ import annotations
 import fnmatch
 import math
 from dataclasses import dataclass
-from typing import Any, Callable, Sequence
+from typing import Callable, Sequence
 
 import numpy as np
 import scipy.linalg as sla
@@ -60,11 +68,13 @@ from ..netlist.elaborate import PartModel
 from ..netlist.elements import (CCCS, CCVS, VCCS, Capacitor, CurrentSource, Element, Inductor,
                        Resistor, VoltageSource)
 from ..exceptions import SingularCircuitError
-from ..result import STRESS_CAUTION_CODE, Caution, LimitResult, Status, finite_or_none
+from ..result import STRESS_CAUTION_CODE, Caution, Status
 from ..mna.solve import DENSE_MAX, Response
-from ..spec.stress import UNITS, StressLimit
+from ..spec.stress import StressLimit
 from ..netlist.units import format_si
 from .registry import Nominal, Outcome
+from .stress_bias import dc_part, dc_solution
+from .stress_result import StressResult, compact as _compact
 
 __all__ = ["StressResult", "analyse", "judge_stress", "stress_cautions", "stress_probes", "HAZARD_VOLTAGE_PEAK",
            "REACTIVE_RATIO"]
@@ -85,100 +95,6 @@ _KIND_TEXT = {
     "current": "parts whose current is known: R, L, C, V, I, F, H",
     "power": "resistors",
 }
-_METHOD = "grid maxima and pole frequencies refined by Brent's bounded search"
-
-
-@dataclass(frozen=True, slots=True)
-class StressResult:
-    """The verdict on one part for one stress quantity.
-
-    ``peak`` is the true maximum over the sweep (V, A or W; None on ERROR), at
-    ``at_hz``; ``margin`` = ``rating`` − ``peak`` in the same unit (positive: inside
-    the rating). ``amplitude`` is the peak stimulus in ``stimulus_unit``.
-    """
-
-    part: str
-    quantity: str
-    peak: float | None
-    rating: float
-    margin: float | None
-    at_hz: float | None
-    status: Status
-    message: str = ""
-    element: str = ""
-    amplitude: float = 1.0
-    stimulus_unit: str = "V"
-    rms: bool = False
-    pattern: str = ""
-    index: int = 0
-    line: int | None = None
-    #: for a part model (``element`` "X"): its subcircuit and the ports judged
-    model: str = ""
-    ports: tuple[str, ...] = ()
-
-    @property
-    def unit(self) -> str:
-        """V, A or W."""
-        return UNITS[self.quantity]
-
-    @property
-    def ratio(self) -> float | None:
-        """Peak over the stimulus amplitude when both are the same kind (V/V or A/A)."""
-        if self.peak is None or self.quantity == "power" or self.unit != self.stimulus_unit:
-            return None
-        return self.peak / self.amplitude
-
-    @property
-    def stimulus_text(self) -> str:
-        """``10 V peak`` or ``7.07 V rms (10 V peak)``."""
-        pk = _compact(self.amplitude, self.stimulus_unit)
-        if self.rms:
-            return f"{_compact(self.amplitude / math.sqrt(2.0), self.stimulus_unit)} rms ({pk} peak)"
-        return f"{pk} peak"
-
-    @property
-    def definition(self) -> str:
-        """What was measured, in words."""
-        stim = f"for a {self.stimulus_text} stimulus, true maximum over the sweep"
-        if self.model and self.ports:
-            who = f"{self.part.split(' ', 1)[0]} (part model {self.model})"
-            if self.quantity == "voltage":
-                return (f"peak |V| between ports {self.ports[0]} and {self.ports[-1]} of "
-                        f"{who} {stim}")
-            return f"peak |I| into port {self.ports[0]} of {who} {stim}"
-        if self.quantity == "voltage":
-            return f"peak |V| across {self.part} {stim}"
-        if self.quantity == "current":
-            how = {"R": " (V/R)", "C": " (jωC·V)", "F": " (gain × controlling current)"}
-            return f"peak |I| through {self.part}{how.get(self.element, '')} {stim}"
-        return f"average power in {self.part} (|I|²R/2, peak |I|) {stim}"
-
-    def to_limit_result(self, index: int | None = None, line: int | None = None) -> LimitResult:
-        """This result as a :class:`LimitResult` (kind ``stress``) for the renderers."""
-        return LimitResult(
-            name=f"stress: {self.part} {self.quantity}", kind="stress", status=self.status,
-            measured=self.peak, lower=None, upper=self.rating, margin=self.margin,
-            unit=self.unit, at_hz=self.at_hz,
-            definition="" if self.status is Status.ERROR else self.definition,
-            method="" if self.status is Status.ERROR else _METHOD, message=self.message,
-            index=self.index if index is None else index,
-            line=self.line if line is None else line)
-
-    def to_json(self) -> dict[str, Any]:
-        """The fixed JSON contract: part, quantity, peak, rating, margin, at_hz, status."""
-        return {"part": self.part, "quantity": self.quantity,
-                "peak": finite_or_none(self.peak), "rating": finite_or_none(self.rating),
-                "margin": finite_or_none(self.margin), "at_hz": finite_or_none(self.at_hz),
-                "status": self.status.value}
-
-
-def _compact(value: float, unit: str, digits: int = 4) -> str:
-    """``format_si`` without trailing zeros: ``10 V``, ``9.998 V``, ``500 mA``."""
-    text = format_si(value, unit, digits)
-    num, sep, rest = text.partition(" ")
-    if "." in num:
-        num = num.rstrip("0").rstrip(".")
-    return f"{num}{sep}{rest}"
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -521,6 +437,7 @@ def judge_stress(limits: Sequence[StressLimit], response: Response, index_offset
     grid = np.asarray(response.frequency_hz, dtype=float)
     engine = response.direct()
     xg = cand = xc = None
+    x_dc = dc_solution(system)  # None without an operating point
     out: list[StressResult] = []
     for lim in limits:
         base = dict(quantity=lim.quantity, rating=lim.rating, amplitude=lim.amplitude,
@@ -548,10 +465,13 @@ def judge_stress(limits: Sequence[StressLimit], response: Response, index_offset
                                             f"the {lim.quantity} of {name} is not finite "
                                             "on the sweep"), **extra, **base))
                 continue
+            dc = None if x_dc is None else float(dc_part(
+                probe, lim.quantity, None if letter == "X" else circuit.element(name), x_dc))
+            peak += dc or 0.0
             margin = lim.rating - peak
             out.append(StressResult(part=name, peak=peak, margin=margin, at_hz=at,
                                     status=Status.PASS if margin >= 0 else Status.FAIL,
-                                    element=letter, **extra, **base))
+                                    element=letter, dc=dc, **extra, **base))
     return tuple(out)
 
 

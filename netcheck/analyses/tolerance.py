@@ -360,6 +360,7 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
     from ..mna.assemble import assemble
     from ..mna.solve import solve
     from .stress import _pole_frequencies, judge_stress, stress_probes
+    from .stress_bias import dc_part, dc_solution, sampled_dc
 
     limits = spec.stress or ()
     grid = spec.sweep.grid()
@@ -371,11 +372,13 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
     near = (_pole_frequencies(nominal)[:, None]
             * (1.0 + 1.5 * spread * np.linspace(-1.0, 1.0, 25))[None, :]).ravel()
     screen_f = np.unique(np.concatenate([grid, near[(near > grid[0]) & (near < grid[-1])]]))
+    x_dc = dc_solution(system)  # None without an operating point
     # every part [[stress]] judges, part-model ports included (part_models)
     probes = [(k, name, e, p) for k, lim in enumerate(limits)
               for name, e, p in stress_probes(system, lim)]
 
-    def screened(x: np.ndarray, rows: np.ndarray | None) -> dict[tuple[int, str], np.ndarray]:
+    def screened(x: np.ndarray, rows: np.ndarray | None, xdc: np.ndarray | None
+                 ) -> dict[tuple[int, str], np.ndarray]:
         out = {}
         for k, name, e, probe in probes:
             q = x @ probe.sel
@@ -388,19 +391,23 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
                 if rows is not None and probe.own and e is not None and e.name in values else 1.0
             both = np.stack([np.max(mag, axis=1), _vertex(mag, screen_f)])
             out[(k, name)] = probe.scale * own * both ** probe.power
+            if xdc is not None:  # each sample's DC bias (stress_bias), as judge_stress adds
+                dc = dc_part(probe, limits[k].quantity, e, xdc) * own  # at its own value
+                out[(k, name)] = out[(k, name)] + dc[None, :]
         return out
 
     # how far the screen falls short of the exact peak at nominal widens the border
     exact = {(k, r.part): r.peak for k in range(len(limits))
              for r in judge_stress([limits[k]], nominal) if r.peak is not None}
     short = {key: max(1.0, exact[key] / est[1, 0]) if key in exact and est[1, 0] > 0 else 1.0
-             for key, est in screened(nominal.solution(screen_f)[None], None).items()}
+             for key, est in screened(nominal.solution(screen_f)[None], None,
+                                      None if x_dc is None else x_dc[None]).items()}
     screen: dict[tuple[int, str], list[np.ndarray]] = {}
     per_chunk = max(1, memory // 4 // max(screen_f.size * system.size * 16 * 4, 1))
     for i in range(0, samples, per_chunk):
         rows = np.arange(i, min(samples, i + per_chunk))
         x = _full_solutions(system, values, rows, screen_f, memory)
-        for key, both in screened(x, rows).items():
+        for key, both in screened(x, rows, sampled_dc(system, values, rows)).items():
             screen.setdefault(key, []).append(both)
     passed: dict[tuple[int, str], tuple[np.ndarray, np.ndarray, np.ndarray]] = {}
     worst: dict[tuple[int, str], tuple[float, Any, int]] = {}

@@ -52,12 +52,15 @@ class SampledBias:
     ``tables``: linearised element name → ``{"G": (S, k, k), "C": (S, k, k)}`` for a
     device, ``{"gains": (S, m)}`` for a nonlinear source; ``regions``: device name →
     (S,) region names; ``restarted``: samples whose Newton from the nominal operating
-    point did not converge and were solved from zero.
+    point did not converge and were solved from zero; ``solutions``: (S, n) each sample's
+    DC solution, node voltages then branch currents in the order of the nominal
+    operating point's ``voltages`` and ``currents``.
     """
 
     tables: dict[str, dict[str, np.ndarray]]
     regions: dict[str, np.ndarray]
     restarted: int
+    solutions: np.ndarray | None = None
 
 
 def _linear_batch(large: Circuit, values: Mapping[str, np.ndarray], samples: int
@@ -130,6 +133,7 @@ def sampled_small_signal(circuit: Circuit, values: Mapping[str, np.ndarray], sam
     tables: dict[str, dict[str, np.ndarray]] = {}
     regions: dict[str, np.ndarray] = {}
     restarted = 0
+    solutions = np.empty((samples, x0.size))
     for c in system.companions:
         k = len(c.cols) if isinstance(c, _SourceCompanion) else len(c.device.nodes)
         name = c.device.name
@@ -143,6 +147,7 @@ def sampled_small_signal(circuit: Circuit, values: Mapping[str, np.ndarray], sam
         if x is None:
             restarted += 1
             x = _restart(large, op.temp_c, values, s)
+        solutions[s] = x
         for c in system.companions:
             name = c.device.name
             if isinstance(c, _SourceCompanion):
@@ -156,7 +161,7 @@ def sampled_small_signal(circuit: Circuit, values: Mapping[str, np.ndarray], sam
             tables[name]["G"][s] = small.g
             tables[name]["C"][s] = small.c
             regions[name][s] = point.region
-    return SampledBias(tables, regions, restarted)
+    return SampledBias(tables, regions, restarted, solutions)
 
 
 def _restart(large: Circuit, temp_c: float, values: Mapping[str, np.ndarray], s: int

@@ -1,0 +1,82 @@
+"""The DC bias a part carries at the operating point, added to its AC stress.
+
+A circuit with devices is solved around its DC operating point, so a coupling capacitor
+holds its DC voltage and the AC swing on top of it, and a collector resistor dissipates
+its DC power and the AC power besides. Part stress (:mod:`netcheck.analyses.stress`)
+judges the sum against the rating (common practice, no source):
+
+* voltage and current: the instantaneous peak of DC + AC sine, |X_DC| + X_AC,peak;
+* power in a resistor: the average of (V_DC + v(t))²/R over a period, V_DC²/R + the
+  average AC power (the cross term averages to zero).
+
+The DC value of each quantity is the probe's own linear function of the solution taken at
+the DC solution: node voltages and branch currents of the operating point, laid out as
+the small-signal system's unknowns. A capacitor carries no DC current. The DC value of a
+current source is its DC current; a current source inside a part model is not counted.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+
+from ..mna.assemble import System
+from ..netlist.elements import CurrentSource, Element, Resistor
+
+__all__ = ["dc_solution", "dc_part", "sampled_dc"]
+
+
+def dc_solution(system: System) -> np.ndarray | None:
+    """The operating point of ``system``'s circuit as a vector of its unknowns (node
+    voltages, branch currents; 0 for a branch the DC solution has none of), or None for a
+    circuit without one (no devices: nothing is biased)."""
+    op = system.circuit.operating_point
+    if op is None:
+        return None
+    x = np.zeros(system.size)
+    volts, amps = dict(op.voltages), dict(op.currents)
+    for node, i in system.node_index.items():
+        x[i] = volts.get(node, 0.0)
+    for branch, i in system.branch_index.items():
+        x[i] = amps.get(branch, 0.0)
+    return x
+
+
+def sampled_dc(system: System, values: dict[str, np.ndarray], rows: np.ndarray
+               ) -> np.ndarray | None:
+    """Each sample's operating point (rows ``rows`` of the part values ``values``) laid
+    out as ``system``'s unknowns, (R, n), as :func:`dc_solution` lays out the nominal
+    one; None for a circuit without an operating point."""
+    from ..mna.bias_samples import sampled_small_signal
+
+    op = system.circuit.operating_point
+    if op is None:
+        return None
+    bias = sampled_small_signal(system.circuit, {k: v[rows] for k, v in values.items()},
+                                rows.size)
+    assert bias is not None and bias.solutions is not None
+    place = {("v", n): j for j, (n, _) in enumerate(op.voltages)}
+    place.update({("i", b): len(op.voltages) + j for j, (b, _) in enumerate(op.currents)})
+    out = np.zeros((rows.size, system.size))
+    for kind, index in (("v", system.node_index), ("i", system.branch_index)):
+        for name, i in index.items():
+            j = place.get((kind, name))
+            if j is not None:
+                out[:, i] = bias.solutions[:, j]
+    return out
+
+
+def dc_part(probe: Any, quantity: str, element: Element | None, x_dc: np.ndarray) -> Any:
+    """The DC term a stress ``probe`` (a :class:`~netcheck.analyses.stress._Probe` of
+    ``quantity`` on ``element``, None for a part model's port) adds at DC solution
+    ``x_dc``: |V| or |I| at DC, or the DC power V²/R of a resistor. ``x_dc`` may be one
+    solution (n,) or one per sample (R, n); like the probe's AC value, the term is for
+    the part's own nominal value, and scales with a sampled one as (p/nominal)^own."""
+    if isinstance(element, CurrentSource) and quantity == "current":
+        return abs(element.dc) + 0.0 * x_dc[..., 0]
+    value = 0.0 * x_dc[..., 0] if probe.jw else x_dc @ probe.sel  # jω terms vanish at DC
+    if quantity != "power":
+        return np.abs(value)
+    assert isinstance(element, Resistor)
+    return value * value / element.value if element.value else 0.0 * value
