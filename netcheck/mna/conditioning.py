@@ -31,6 +31,9 @@ EQUILIBRATE_SWEEPS = 64
 #: size, so a threshold of n·ε or more refused large regular circuits (a crystal
 #: behind a long trace model, with a grid point on its resonance).
 RCOND_TOL = 64.0 * np.finfo(float).eps
+#: up to this many unknowns :func:`equilibrate` sweeps the dense F × n × n magnitudes (a
+#: third of the array operations of the grouped maxima, the same maxima and scales)
+DENSE_SWEEPS_MAX = 48
 
 
 def _pow2_rsqrt(m: np.ndarray) -> np.ndarray:
@@ -77,8 +80,20 @@ def equilibrate(pattern: Pattern, mag: np.ndarray) -> tuple[np.ndarray, np.ndarr
     scaling of MNA rows and columns, not whether the circuit can be solved.
     """
     rows, cols = pattern.rows, pattern.cols
-    r = np.ones((mag.shape[0], pattern.n))
-    c = np.ones((mag.shape[0], pattern.n))
+    n = pattern.n
+    r = np.ones((mag.shape[0], n))
+    c = np.ones((mag.shape[0], n))
+    if n <= DENSE_SWEEPS_MAX:  # the same sweeps on the dense F × n × n magnitudes
+        a = np.zeros((mag.shape[0], n, n))
+        a[:, rows, cols] = mag
+        for _ in range(EQUILIBRATE_SWEEPS):
+            m = a * r[:, :, None] * c[:, None, :]
+            d = _pow2_rsqrt(np.concatenate([m.max(axis=2), m.max(axis=1)], axis=1))
+            if (d == 1.0).all():
+                break
+            r *= d[:, :n]
+            c *= d[:, n:]
+        return r, c
     for _ in range(EQUILIBRATE_SWEEPS):
         m = mag * r[:, rows] * c[:, cols]
         dr = _pow2_rsqrt(pattern.maxima(m, 0))
