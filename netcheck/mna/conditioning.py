@@ -50,17 +50,19 @@ class Pattern:
 
     def __init__(self, rows: np.ndarray, cols: np.ndarray, n: int) -> None:
         self.rows, self.cols, self.n = rows, cols, n
-        self.groups = []
-        for idx in (rows, cols):
-            order = np.argsort(idx, kind="stable")
-            counts = np.bincount(idx, minlength=n)
-            used = counts > 0
-            starts = np.concatenate([[0], np.cumsum(counts)[:-1]])[used]
-            self.groups.append((order, starts, used))
+        self._groups: list | None = None  # made at the first maxima (a small system has none)
 
     def maxima(self, vals: np.ndarray, axis: int) -> np.ndarray:
         """Largest of ``vals`` (F × non-zeros) in each row (axis 0) or column (axis 1)."""
-        order, starts, used = self.groups[axis]
+        if self._groups is None:
+            self._groups = []
+            for idx in (self.rows, self.cols):
+                order = np.argsort(idx, kind="stable")
+                counts = np.bincount(idx, minlength=self.n)
+                used = counts > 0
+                starts = np.concatenate([[0], np.cumsum(counts)[:-1]])[used]
+                self._groups.append((order, starts, used))
+        order, starts, used = self._groups[axis]
         out = np.zeros((vals.shape[0], self.n))
         if vals.shape[1]:
             out[:, used] = np.maximum.reduceat(vals[:, order], starts, axis=1)
