@@ -67,6 +67,7 @@ from ..netlist.ports import PORT_ELEMENTS
 from ..netlist.elaborate import PartModel
 from ..netlist.elements import (CCCS, CCVS, VCCS, Capacitor, CurrentSource, Element, Inductor,
                        Resistor, VoltageSource)
+from ..netlist.elements.devices import Linearised
 from ..exceptions import SingularCircuitError
 from ..result import STRESS_CAUTION_CODE, Caution, Status
 from ..mna.solve import DENSE_MAX, Response
@@ -116,6 +117,9 @@ class _Probe:
     own: int = 0
     #: a second selector multiplied by j2πf (the capacitors in a part model's port current)
     sel_jw: np.ndarray | None = None
+    #: the DC current the current sources in a part model send into the port, A (the DC
+    #: value of ``const``'s sources; :mod:`netcheck.analyses.stress_bias`)
+    dc_const: float = 0.0
 
     def values(self, f: np.ndarray, x: np.ndarray) -> np.ndarray:
         """Judged values at frequencies ``f`` (Hz) from solutions ``x`` (F × n)."""
@@ -224,9 +228,17 @@ def _model_probes(system: System, model: PartModel, quantity: str, amp: float
                         amp, 1))
                 for i in range(len(model.ports)) for j in range(i + 1, len(model.ports))]
     circuit = system.circuit
+    unknown = sorted({name for name, node, _ in model.through
+                      if isinstance(circuit.element(name), Linearised) or node <= 1 and
+                      _element_current(system, circuit.element(name)) is None})
+    if unknown:
+        return (f"the current into the ports of {model.name} ({model.subckt}, part_models) "
+                f"is not judged: {', '.join(unknown[:4])} inside it carry currents its ports' "
+                "sum does not take (semiconductor devices, behavioural current outputs); "
+                "judge the current of a part in series with the port instead")
     out = []
     for i, port in enumerate(model.ports):
-        sel, sel_jw, const = np.zeros(system.size), np.zeros(system.size), 0j
+        sel, sel_jw, const, dc = np.zeros(system.size), np.zeros(system.size), 0j, 0.0
         for name, node, at in model.through:
             e = circuit.element(name)
             if at == i and e.extra_branches and node in (2, 3):  # a line's port 2 branch
@@ -240,7 +252,9 @@ def _model_probes(system: System, model: PartModel, quantity: str, amp: float
             sel += sign * current[0]
             sel_jw += sign * current[1]
             const += sign * current[2]
-        out.append(((port,), _Probe(sel, False, const, amp, 1, 0, sel_jw)))
+            if isinstance(e, CurrentSource):
+                dc += sign * e.dc
+        out.append(((port,), _Probe(sel, False, const, amp, 1, 0, sel_jw, dc)))
     return out
 
 

@@ -12,7 +12,9 @@ judges the sum against the rating (common practice, no source):
 The DC value of each quantity is the probe's own linear function of the solution taken at
 the DC solution: node voltages and branch currents of the operating point, laid out as
 the small-signal system's unknowns. A capacitor carries no DC current. The DC value of a
-current source is its DC current; a current source inside a part model is not counted.
+current source is its DC current, and a part model's port current counts the DC current
+of the current sources inside it. (A part model with devices or behavioural current
+outputs inside has no port current judged at all: :func:`~.stress._model_probes`.)
 """
 
 from __future__ import annotations
@@ -76,6 +78,7 @@ def dc_part(probe: Any, quantity: str, element: Element | None, x_dc: np.ndarray
     if isinstance(element, CurrentSource) and quantity == "current":
         return abs(element.dc) + 0.0 * x_dc[..., 0]
     value = 0.0 * x_dc[..., 0] if probe.jw else x_dc @ probe.sel  # jω terms vanish at DC
+    value = value + probe.dc_const  # a part model's current sources
     if quantity != "power":
         return np.abs(value)
     assert isinstance(element, Resistor)

@@ -388,14 +388,29 @@ def _expand_instance(card: Card, full: str, prefix: str, env: Env,
             continue
         through.extend((e.name, j, stand_in[n]) for j, n in enumerate(e.nodes)
                        if n in stand_in)
-        flat.elements[k] = dataclasses.replace(
-            e, nodes=tuple(outside[stand_in[n]] if n in stand_in else n for n in e.nodes))
+        flat.elements[k] = dataclasses.replace(e, nodes=_outside(e.nodes, stand_in, outside),
+                                               **_outside_inputs(e, stand_in, outside))
     for alias, i in stand_in.items():
         count = flat.uses.pop(alias, None)
         if count:
             flat.note_node(outside[i], flat.first.pop(alias), count)
     flat.found.append(PartModel(full, sub.name.text, tuple(p.text for p in sub.ports),
                                 tuple(outside), tuple(through), card.name.span))
+
+
+def _outside(nodes: tuple[str, ...], stand_in: dict[str, int], outside: list[str]
+             ) -> tuple[str, ...]:
+    """``nodes`` with each part-model stand-in replaced by the node its port connects to."""
+    return tuple(outside[stand_in[n]] if n in stand_in else n for n in nodes)
+
+
+def _outside_inputs(e: Element, stand_in: dict[str, int], outside: list[str]) -> dict:
+    """The ``inputs`` of a behavioural element (its ``v()`` controls name nodes too) with
+    the stand-ins replaced, as a ``dataclasses.replace`` argument; none for others."""
+    if "inputs" not in {f.name for f in dataclasses.fields(e)}:
+        return {}
+    return {"inputs": tuple(c[:1] + _outside(c[1:], stand_in, outside) if c[0] == "v" else c
+                            for c in e.inputs)}  # type: ignore[attr-defined]
 
 
 def _child_env(sub: SubcktDef, env: Env, full: str, assigns: list[Assign]) -> Env:

@@ -16,9 +16,10 @@ _BRACED = re.compile(r"""\{[^{}\n]*\}|"[^"\n]*"|'[^'\n]*'""")
 #: or ``<`` (a function, an optimiser placeholder) (:data:`_SPECIAL`). The pre-pass leaves
 #: any other line (a plain card, a ``*`` comment, a ``+`` continuation) as it is. Each
 #: pattern starts with a literal or a character set, which the regular expression engine
-#: searches for quickly: one pattern of all of them takes ten times as long.
-_FIRST = re.compile(r"[^\S\n]*[.;VvIiEeFfGgHhBb]")
-_LINE_START = re.compile(r"\n[^\S\n]*[.;VvIiEeFfGgHhBb]")
+#: searches for quickly: one pattern of all of them takes ten times as long. (The dotless
+#: ı is there because the pre-pass upper-cases a card's letter, and "ı".upper() is "I".)
+_FIRST = re.compile(r"[^\S\n]*[.;VvIiıEeFfGgHhBb]")
+_LINE_START = re.compile(r"\n[^\S\n]*[.;VvIiıEeFfGgHhBb]")
 _SPECIAL = re.compile(r"[$(#<]")
 #: a ``.endl`` card after a line end (:func:`has_endl`)
 _ENDL = re.compile(r"\n[ \t]*\.[eE][nN][dD][lL]\b")

@@ -379,3 +379,20 @@ def test_doc_names_the_key_and_shows_the_example():
     ckt = elaborate(load_netlist(code[0]), part_models={"qx10"})
     assert [m.name for m in ckt.part_models] == ["X1"]
     assert tomllib.loads(code[1])["part_models"] == ["QX10"]
+
+
+class TestBehaviouralInsideAPartModel:
+    def test_v_of_a_port_node_reads_the_outside_node(self):
+        # B1's current 1 mA + V²·1 mA (V = v(p, n), p the port): KCL at a, derived here,
+        # (5 − Va)/1k = 1m + Va²·1m + Va/10k → Va² + 1.1·Va − 4 = 0; small signal, a sees
+        # G = 1/1k + 1/10k + 2·Va·1m behind C1: |v_a/v_in| = ωC/√(G² + (ωC)²)
+        text = ("Quillmere QM-BC1 behavioural clamp\nVCC vcc 0 DC 5\nVIN in 0 AC 1\n"
+                "RS vcc a 1k\nC1 in a 1u\nX1 a 0 BCLAMP\n.subckt BCLAMP p n\n"
+                "B1 p n I={1m + v(p,n)*v(p,n)*1m}\nRP p n 10k\n.ends BCLAMP\n")
+        f = np.array([10.0, 100.0, 1e3])
+        ckt = elaborate(load_netlist(text), part_models=["BCLAMP"])
+        assert [m.name for m in ckt.part_models] == ["X1"]
+        va = (-1.1 + math.sqrt(1.1 ** 2 + 16)) / 2
+        g, wc = 1e-3 + 1e-4 + 2 * va * 1e-3, 2 * math.pi * f * 1e-6
+        got = np.abs(ckt.ac("VIN", "a", freqs=f).transfer)
+        assert got == pytest.approx(wc / np.hypot(g, wc), rel=1e-9)

@@ -129,3 +129,42 @@ def test_monte_carlo_judges_each_sample_with_its_own_bias(tmp_path, candidates):
     # 7.2 and 5.7 V, so only the samples at 4 V and 4.8 V stay under 6.5 V
     assert passed["stress: C1 voltage"][0].tolist() == [False, False, True, True, False,
                                                         False]
+
+
+def _with_models(text: str, models: list[str]):
+    from netcheck.api import elaborate
+    from netcheck.netlist.parse import load_netlist
+    return elaborate(load_netlist(text), part_models=models)
+
+
+def test_part_model_port_current_counts_its_current_sources_dc():
+    # QB (a part model) is RA ‖ a 1 mA DC current source. KCL at a, derived here:
+    # (12 − Va)/R1 = Va/RA + 1 mA → Va = 11/1.5 V with R1 = 1k, RA = 2k; the port current
+    # is the current through R1, 14/3 mA. AC: a sees R1 ‖ RA = 2/3 kΩ behind C1, so
+    # v_a/v_in = jωRC/(1 + jωRC) and the port's AC current is v_a/RA (largest at F[-1]).
+    # The reverse-biased D1 across the supply only gives the circuit an operating point.
+    text = ("Quillmere QM-IB1 current-fed load\nVCC vcc 0 DC 12\nVIN in 0 AC 1\n"
+            "R1 vcc a 1k\nC1 in a 1u\nD1 0 vcc qm_dclamp\nX1 a 0 QB\n"
+            ".subckt QB p n\nRA p n 2k\nIB p n DC 1m\n.ends QB\n"
+            ".model qm_dclamp D(IS=1e-14)\n")
+    resp = _with_models(text, ["QB"]).ac("VIN", "a", freqs=F)
+    got = judge_stress(parse_stress([{"source_amplitude": 1, "parts": "X1",
+                                      "max_current": "10m"}], "t"), resp)[0]
+    va = 11 / 1.5
+    wrc = 2 * math.pi * F[-1] * (2e3 / 3) * 1e-6
+    assert got.dc == pytest.approx(va / 2e3 + 1e-3, rel=1e-6)   # = (12 − Va)/R1
+    assert got.peak == pytest.approx(va / 2e3 + 1e-3 + wrc / math.hypot(1, wrc) / 2e3,
+                                     rel=1e-6)
+
+
+def test_part_model_with_a_device_inside_has_no_port_current():
+    # a diode inside the model carries current the ports' sum of element currents cannot
+    # take: the port current is an error naming it, not a pass on part of the current
+    text = ("Quillmere QM-DC1 clamp\nVCC vcc 0 DC 5\nVIN in 0 AC 1\nRS vcc a 1k\n"
+            "C1 in a 1u\nX1 a 0 DCLAMP\n.subckt DCLAMP p n\nD1 p n qm_dclamp\nRP p n 10k\n"
+            ".ends DCLAMP\n.model qm_dclamp D(IS=1e-14)\n")
+    resp = _with_models(text, ["DCLAMP"]).ac("VIN", "a", freqs=F)
+    got = judge_stress(parse_stress([{"source_amplitude": "1m", "parts": "X1",
+                                      "max_current": "1m"}], "t"), resp)[0]
+    assert got.status is Status.ERROR and got.peak is None
+    assert "X1.D1" in got.message and "in series with the port" in got.message

@@ -19,7 +19,7 @@ def _visit_reference(text: str) -> list[int]:
     out = []
     for i, line in enumerate(text.split("\n")):
         first = line.lstrip()[:1]
-        if (first and first in ".;VvIiEeFfGgHhBb") or any(
+        if (first and (first in ".;" or first.upper() in "VIEFGHB")) or any(
                 c in line for c in ("$", "(", "#", "<", "//")):
             out.append(i)
     return out
@@ -37,7 +37,7 @@ def test_lines_to_visit_matches_a_line_by_line_test(text):
 def test_lines_to_visit_on_random_text():
     # characters the test cares about, white space and plain letters, in random lines
     rng = random.Random(7)
-    alphabet = "RrXxCcVvIiEeBbHh.;$(#</+* \t\f\r\x1c\xa0\u20281a=\n\n"
+    alphabet = "RrXxCcVvIiıEeBbHh.;$(#</+* \t\f\r\x1c\xa0\u20281a=\n\n"
     for _ in range(2000):
         text = "".join(rng.choice(alphabet) for _ in range(rng.randint(0, 40)))
         assert list(lines_to_visit(text)) == _visit_reference(text), repr(text)
