@@ -104,6 +104,8 @@ def elaborate(netlist: Netlist, allow_negative: bool = False,
                 globals=frozenset(netlist.globals))
     with _paused_gc():  # flattening makes many small objects, as parsing does
         _instantiate(netlist.top, "", {}, top_env, {}, (), flat, allow_negative, {})
+    flat.by_words.clear()  # the copiers refer back to the flattening: no cycle left behind
+    flat.copiers.clear()
     _one_note_for_initial_conditions(flat.diags)
     classes = set(map(type, flat.elements))  # for the checks below, each by class first
     flat.diags.extend(tie_isolated_ports(flat.elements, classes))

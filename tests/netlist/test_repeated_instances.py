@@ -210,3 +210,20 @@ class TestCopierCode:
         assert got == {f"XB{b}.X{k}.R1": (2e3 if k % 2 else 3e3) for b in (1, 2, 3)
                        for k in (1, 2, 3, 4)} | {"R9": 1e3}
         assert len(copies._COMPILED) == (1 if copier == "written out" else 0)
+
+    def test_nothing_of_the_flattening_outlives_the_read(self):
+        # the copiers' code refers to the flattening's tables; once the circuit is made
+        # no reference cycle may keep them (a big netlist's tables would wait for the
+        # garbage collector)
+        import gc
+
+        from netcheck.netlist.flat import Flat
+        gc.collect()
+        gc.disable()
+        try:
+            ckt = read_netlist(_chain(["rs=2k", "rs=2k", "rs=2k", "rs=5k", "rs=5k"]))
+            assert len(ckt.elements) > 20
+            assert not [o for o in gc.get_objects() if type(o) is Flat]
+        finally:
+            gc.enable()
+
