@@ -45,19 +45,15 @@ def dc_solution(system: System) -> np.ndarray | None:
     return x
 
 
-def sampled_dc(system: System, values: dict[str, np.ndarray], rows: np.ndarray
-               ) -> np.ndarray | None:
-    """Each sample's operating point (rows ``rows`` of the part values ``values``) laid
-    out as ``system``'s unknowns, (R, n), as :func:`dc_solution` lays out the nominal
-    one; None for a circuit without an operating point."""
-    from ..mna.bias_samples import sampled_small_signal
-
+def sampled_dc(system: System, rows: np.ndarray, bias: Any) -> np.ndarray | None:
+    """The operating points of the sample rows ``rows`` (``bias``, a
+    :class:`~netcheck.mna.bias_samples.SampledBias` of them) laid out as ``system``'s
+    unknowns, (R, n), as :func:`dc_solution` lays out the nominal one; None without
+    ``bias`` (a circuit without an operating point)."""
     op = system.circuit.operating_point
-    if op is None:
+    if op is None or bias is None:
         return None
-    bias = sampled_small_signal(system.circuit, {k: v[rows] for k, v in values.items()},
-                                rows.size)
-    assert bias is not None and bias.solutions is not None
+    assert bias.solutions is not None
     place = {("v", n): j for j, (n, _) in enumerate(op.voltages)}
     place.update({("i", b): len(op.voltages) + j for j, (b, _) in enumerate(op.currents)})
     out = np.zeros((rows.size, system.size))

@@ -315,8 +315,9 @@ def _f(v: float) -> float | None:
 
 
 def _full_solutions(system: System, values: dict[str, np.ndarray], rows: np.ndarray,
-                    grid: np.ndarray, memory: int) -> np.ndarray:
-    """x (R, F, n) for the sample rows, by direct solves in memory-bounded chunks."""
+                    grid: np.ndarray, memory: int, bias: Any = None) -> np.ndarray:
+    """x (R, F, n) for the sample rows, by direct solves in memory-bounded chunks
+    (``bias``: the rows' operating points when the caller has solved them)."""
     from ..mna.assemble import assemble_batch
 
     from ..mna.sampling import SparseBatch
@@ -326,7 +327,7 @@ def _full_solutions(system: System, values: dict[str, np.ndarray], rows: np.ndar
     if system.size > DENSE_MAX:
         batch = SparseBatch(system, sub, rows.size)
         return np.stack([batch.solutions(i, grid) for i in range(rows.size)])
-    g, c = assemble_batch(system, sub, rows.size)
+    g, c = assemble_batch(system, sub, rows.size, bias=bias)
     n, f = system.size, grid.size
     out = np.empty((rows.size, f, n), dtype=complex)
     step = max(1, memory // 4 // (f * n * n * 16 * 2))
@@ -360,6 +361,7 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
     from ..mna.assemble import assemble
     from ..mna.solve import solve
     from .stress import _pole_frequencies, judge_stress, stress_probes
+    from ..mna.bias_samples import sampled_small_signal
     from .stress_bias import dc_part, dc_solution, sampled_dc
 
     limits = spec.stress or ()
@@ -406,8 +408,11 @@ def stress_over_samples(system: System, spec: Spec, values: dict[str, np.ndarray
     per_chunk = max(1, memory // 4 // max(screen_f.size * system.size * 16 * 4, 1))
     for i in range(0, samples, per_chunk):
         rows = np.arange(i, min(samples, i + per_chunk))
-        x = _full_solutions(system, values, rows, screen_f, memory)
-        for key, both in screened(x, rows, sampled_dc(system, values, rows)).items():
+        # a circuit with devices: each row's operating point, solved once for both
+        bias = None if x_dc is None else sampled_small_signal(
+            system.circuit, {k: v[rows] for k, v in values.items()}, rows.size)
+        x = _full_solutions(system, values, rows, screen_f, memory, bias)
+        for key, both in screened(x, rows, sampled_dc(system, rows, bias)).items():
             screen.setdefault(key, []).append(both)
     passed: dict[tuple[int, str], tuple[np.ndarray, np.ndarray, np.ndarray]] = {}
     worst: dict[tuple[int, str], tuple[float, Any, int]] = {}
