@@ -29,19 +29,29 @@ from ..netlist.elements import CurrentSource, Element, Resistor
 __all__ = ["dc_solution", "dc_part", "sampled_dc"]
 
 
+def _places(system: System, op: Any) -> tuple[np.ndarray, np.ndarray]:
+    """(unknown of ``system``, index in the DC solution) for every node voltage and branch
+    current both have; the DC solution lists the operating point's ``voltages`` then its
+    ``currents``. A branch the DC solution has none of stays 0."""
+    place = {("v", n): j for j, (n, _) in enumerate(op.voltages)}
+    place.update({("i", b): len(op.voltages) + j for j, (b, _) in enumerate(op.currents)})
+    pairs = [(i, place[(kind, name)])
+             for kind, index in (("v", system.node_index), ("i", system.branch_index))
+             for name, i in index.items() if (kind, name) in place]
+    return (np.array([i for i, _ in pairs], dtype=np.intp),
+            np.array([j for _, j in pairs], dtype=np.intp))
+
+
 def dc_solution(system: System) -> np.ndarray | None:
     """The operating point of ``system``'s circuit as a vector of its unknowns (node
-    voltages, branch currents; 0 for a branch the DC solution has none of), or None for a
-    circuit without one (no devices: nothing is biased)."""
+    voltages, branch currents), or None for a circuit without one (no devices: nothing
+    is biased)."""
     op = system.circuit.operating_point
     if op is None:
         return None
+    mine, theirs = _places(system, op)
     x = np.zeros(system.size)
-    volts, amps = dict(op.voltages), dict(op.currents)
-    for node, i in system.node_index.items():
-        x[i] = volts.get(node, 0.0)
-    for branch, i in system.branch_index.items():
-        x[i] = amps.get(branch, 0.0)
+    x[mine] = np.array([v for _, v in op.voltages] + [i for _, i in op.currents])[theirs]
     return x
 
 
@@ -53,15 +63,9 @@ def sampled_dc(system: System, rows: np.ndarray, bias: Any) -> np.ndarray | None
     op = system.circuit.operating_point
     if op is None or bias is None:
         return None
-    assert bias.solutions is not None
-    place = {("v", n): j for j, (n, _) in enumerate(op.voltages)}
-    place.update({("i", b): len(op.voltages) + j for j, (b, _) in enumerate(op.currents)})
+    mine, theirs = _places(system, op)
     out = np.zeros((rows.size, system.size))
-    for kind, index in (("v", system.node_index), ("i", system.branch_index)):
-        for name, i in index.items():
-            j = place.get((kind, name))
-            if j is not None:
-                out[:, i] = bias.solutions[:, j]
+    out[:, mine] = bias.solutions[:, theirs]
     return out
 
 

@@ -118,13 +118,26 @@ def make_copier(template: Template, flat: Flat) -> Copier:
     return ns.pop("copy")  # type: ignore[return-value]  (its globals need not hold it)
 
 
+def _split(words: tuple[str, ...]) -> tuple[tuple[str, ...], tuple[str, ...]] | None:
+    """An instance card's words as (the nodes then the subcircuit, the ``key=value``
+    assignments after them, ``params:`` dropped); None for a card with fewer than two
+    such words or with an assignment among the nodes (the general path reads those)."""
+    k = len(words)
+    while k and "=" in words[k - 1]:
+        k -= 1  # words[k:] are the assignments
+    j = k - 1 if k and words[k - 1].lower() in ("params:", "params") else k
+    heads = words[:j]
+    if j < 2 or any("=" in w for w in heads):
+        return None
+    return heads, words[k:]
+
+
 def words_key(card: Card, sub: SubcktDef, env: Env) -> tuple | None:
     """The :attr:`Flat.by_words` key of an instance card of ``sub`` in ``env``."""
-    words = card.words
-    if words is None:
+    split = None if card.words is None else _split(card.words)
+    if split is None:
         return None
-    nodes = sum(1 for w in words if "=" not in w and w.lower() not in ("params:", "params"))
-    return (id(sub), env, nodes - 1, tuple(w for w in words if "=" in w))
+    return (id(sub), env, len(split[0]) - 1, split[1])
 
 
 def remember_words(card: Card, sub: SubcktDef, env: Env, template: Template,
@@ -148,20 +161,13 @@ def copy_by_words(card: Card, full: str, env: Env, defs: dict[str, SubcktDef], f
     words = card.words
     if words is None or flat.depth or not flat.by_words or flat.log is not None:
         return False
-    k = len(words)
-    while k and "=" in words[k - 1]:
-        k -= 1  # words[k:] are the assignments
-    j = k - 1 if k and words[k - 1].lower() in ("params:", "params") else k
-    if j < 2:
+    split = _split(words)
+    if split is None:
         return False
-    heads = words[:j]  # the nodes, then the subcircuit
-    for w in heads:
-        if "=" in w:
-            return False  # assignments among the nodes: the general path
+    heads, assigns = split
     sub = defs.get(heads[-1].lower())
-    if sub is None:
-        return False
-    copier = flat.by_words.get((id(sub), env, j - 1, words[k:]))
+    copier = None if sub is None else flat.by_words.get((id(sub), env, len(heads) - 1,
+                                                         assigns))
     if copier is None:
         return False
     if resolve is None:

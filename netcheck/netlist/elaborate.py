@@ -34,7 +34,6 @@ __all__ = ["Circuit", "PartModel", "elaborate", "CardReader", "GROUND",
            "ELEMENTS_MAX", "DIAGNOSTICS_PER_CODE", "summarise_diagnostics", "VALUE_MAX",
            "VALUE_MIN", "subckt_names"]
 
-_GROUND_ALIASES = GROUND_NAMES
 #: the most warnings of one code a circuit keeps; the rest are counted in one more
 DIAGNOSTICS_PER_CODE = 10
 #: largest magnitude of a value that is stamped into the circuit matrix (R, L, C, the gain
@@ -229,7 +228,7 @@ def _instantiate(scope: Scope, prefix: str, portmap: dict[str, str], env: Env,
 
     def resolve(text: str) -> str:
         low = text.lower()
-        if low in _GROUND_ALIASES:
+        if low in GROUND_NAMES:
             return GROUND
         if low in portmap:
             return portmap[low]

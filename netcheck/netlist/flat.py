@@ -87,12 +87,6 @@ class Flat:
             k = name.find(".", k + 1)
         return None
 
-    def take_name(self, name: str, card: Card) -> None:
-        """Record ``name`` as made by ``card``."""
-        self.names[name] = card
-        if "." in name:
-            self.add_dotted(name)
-
     def add_dotted(self, name: str) -> None:
         """Record every dotted prefix of ``name`` in :attr:`dotted`."""
         k = name.find(".")
@@ -151,11 +145,12 @@ def instance_shape(sub: SubcktDef, env: Env, child: Env) -> tuple | None:
 
 
 def plain_ports(ports: list[str], full: str, flat: Flat) -> bool:
-    """True if the port nodes are distinct, not ground nor global, and none of them
-    looks like one of the instance's own local nodes."""
+    """True if the port nodes are distinct, not ground (``0``, or ``gnd`` as a top-level
+    card writes it) nor global, and none of them looks like one of the instance's own
+    local nodes."""
     low = full.lower() + "."
     for p in ports:
-        if p == GROUND or p in flat.globals or p.startswith(low):
+        if p in GROUND_NAMES or p in flat.globals or p.startswith(low):
             return False
     return len(set(ports)) == len(ports)
 
@@ -207,18 +202,11 @@ def copy_template(template: Template, full: str, ports: list[str], flat: Flat,
                   card: Card | None = None) -> bool:
     """Add an instance made from ``template``; False (nothing added) if it cannot be.
     With ``card`` (an instance card read from its words), its port fields count as uses
-    of the port nodes too, before the template's. A port written ``gnd`` (at the top
-    level the ports are the names as written, in lower case) is ground, as ``0`` is.
-
-    The loops of :func:`plain_ports` and :meth:`Flat.note_node` are written out here: a
-    big generated netlist makes tens of thousands of instances this way (bench_read)."""
-    dot = full.lower() + "."
-    shared = flat.globals
-    for p in ports:
-        if p in GROUND_NAMES or p in shared or p.startswith(dot):
-            return False
-    if len(set(ports)) != len(ports):
+    of the port nodes too, before the template's. (The repeated instances of a big
+    netlist are made by :mod:`.copies`, which writes this out per template.)"""
+    if not plain_ports(ports, full, flat):
         return False
+    dot = full.lower() + "."
     names = [full + sfx for sfx in template.suffixes]
     known = flat.names
     if not known.keys().isdisjoint(names) or flat.copied and any(map(flat.holder, names)):

@@ -92,26 +92,16 @@ def _labels(size: int, ends: list[int]) -> list[int]:
     """A label per node number (``size`` of them) that is the same for two nodes exactly
     when the links ``ends`` join them.
 
-    A graph of a few hundred links (most circuits) is joined by a union-find here;
+    A graph of a few hundred links (most circuits) is joined by :class:`_Sets`;
     a bigger one by :func:`scipy.sparse.csgraph.connected_components`, which builds a
     sparse matrix first (a tenth of a millisecond: more than a small circuit's whole
     elaboration) but then takes a generated netlist's hundred thousand links in C.
     """
     if len(ends) < 2 * SPARSE_FROM:
-        parent = list(range(size))
+        sets = _Sets()
         for k in range(0, len(ends), 2):
-            a, b = ends[k], ends[k + 1]
-            while parent[a] != a:
-                parent[a] = a = parent[parent[a]]
-            while parent[b] != b:
-                parent[b] = b = parent[parent[b]]
-            parent[a] = b
-        out = []
-        for a in range(size):
-            while parent[a] != a:
-                a = parent[a]
-            out.append(a)
-        return out
+            sets.union(ends[k], ends[k + 1])
+        return [sets.find(a) for a in range(size)]
     from scipy.sparse import csr_matrix
     from scipy.sparse.csgraph import connected_components
     links = np.asarray(ends, dtype=np.intp)
